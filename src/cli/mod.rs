@@ -1,0 +1,63 @@
+//! Command-line parsing and the glue from arguments to library calls.
+//! Nothing here computes anything the library could.
+
+mod evaluate;
+mod output;
+mod predict;
+mod progress;
+mod train;
+
+use clap::{Parser, Subcommand};
+
+/// A usage mistake found after parsing (exit code 2).
+#[derive(Debug, thiserror::Error)]
+#[error("{0}")]
+pub struct UsageError(pub String);
+
+/// The caution printed wherever an estimate could feed a structural decision.
+pub const CAUTION: &str = "Caution: these are model estimates with error bars, not test results. \
+Qualification testing per the applicable code decides; local codes and licensed engineers have the final word.";
+
+#[derive(Parser, Debug)]
+#[command(
+    name = "mettle",
+    version,
+    about = "Learn mechanical properties of steels and weld metals from test records; estimate them, with error bars, for heats not yet made.",
+    long_about = "Learn mechanical properties of steels and weld metals from test records; estimate them, with error bars, for heats not yet made.\n\n\
+mettle trains committees of small neural networks under the Bayesian evidence framework \
+(regularisation set by the data, automatic relevance determination, Laplace error bars). \
+Every estimate comes with a standard deviation and a domain verdict.\n\n\
+A typical session:\n  \
+mettle train    --data welds.csv --target uts_mpa --out uts.json\n  \
+mettle predict  --model uts.json --input new_heats.csv\n  \
+mettle evaluate --model uts.json --data held_back.csv\n\n\
+Exit codes: 0 success, 1 runtime failure, 2 bad usage or bad input.\n\n\
+Estimates are not test results: qualification testing per the applicable code decides.",
+    propagate_version = true
+)]
+pub struct Cli {
+    #[command(subcommand)]
+    command: Command,
+}
+
+#[derive(Subcommand, Debug)]
+enum Command {
+    /// Train a committee for each target on a table of test records.
+    Train(train::TrainArgs),
+    /// Estimate the targets, with error bars and a domain verdict, for new rows.
+    Predict(predict::PredictArgs),
+    /// Measure a model's accuracy and error-bar honesty on a table with measured values.
+    Evaluate(evaluate::EvaluateArgs),
+}
+
+/// Run the parsed command.
+///
+/// # Errors
+/// Whatever the library reports, with context naming the file concerned.
+pub fn run(cli: Cli) -> anyhow::Result<()> {
+    match cli.command {
+        Command::Train(a) => train::run(a),
+        Command::Predict(a) => predict::run(a),
+        Command::Evaluate(a) => evaluate::run(a),
+    }
+}

@@ -1,0 +1,96 @@
+//! Where command output goes: a file (written atomically) or stdout.
+
+use std::io::Write;
+use std::path::Path;
+
+use anyhow::Context;
+use clap::ValueEnum;
+
+/// Output formats of commands that print estimates.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, ValueEnum)]
+pub enum Format {
+    /// Aligned columns for reading.
+    Table,
+    /// Comma-separated values with a header row.
+    Csv,
+    /// JSON.
+    Json,
+}
+
+/// Write `text` to `out` atomically, or to stdout when `out` is None.
+pub fn emit(text: &str, out: Option<&Path>) -> anyhow::Result<()> {
+    match out {
+        Some(path) => {
+            mettle::data::write_atomic(path, text.as_bytes())
+                .with_context(|| format!("writing {}", path.display()))?;
+        }
+        None => {
+            let mut stdout = std::io::stdout().lock();
+            stdout.write_all(text.as_bytes())?;
+            stdout.flush()?;
+        }
+    }
+    Ok(())
+}
+
+/// Render rows as aligned columns (numbers right-aligned, text left).
+pub fn aligned(header: &[String], rows: &[Vec<String>]) -> String {
+    let mut widths: Vec<usize> = header.iter().map(|h| h.chars().count()).collect();
+    for r in rows {
+        for (w, c) in widths.iter_mut().zip(r) {
+            *w = (*w).max(c.chars().count());
+        }
+    }
+    let last = header.len().saturating_sub(1);
+    let line = |cells: &[String]| {
+        let mut s = String::new();
+        for (i, (c, w)) in cells.iter().zip(&widths).enumerate() {
+            if i > 0 {
+                s.push_str("  ");
+            }
+            let numeric = c.parse::<f64>().is_ok();
+            if i == last && !numeric {
+                s.push_str(c);
+            } else if numeric {
+                s.push_str(&format!("{c:>w$}"));
+            } else {
+                s.push_str(&format!("{c:<w$}"));
+            }
+        }
+        s.trim_end().to_string()
+    };
+    let mut out = line(header);
+    out.push('\n');
+    for r in rows {
+        out.push_str(&line(r));
+        out.push('\n');
+    }
+    out
+}
+
+/// Quote a CSV field when it needs it (RFC 4180).
+pub fn csv_field(s: &str) -> String {
+    if s.contains([',', '"', '\n', '\r']) {
+        format!("\"{}\"", s.replace('"', "\"\""))
+    } else {
+        s.to_string()
+    }
+}
+
+/// A number for a table: 4 significant figures at least, no exponent for
+/// ordinary magnitudes.
+pub fn num(v: f64) -> String {
+    if !v.is_finite() {
+        return v.to_string();
+    }
+    let a = v.abs();
+    if a != 0.0 && !(1e-3..1e7).contains(&a) {
+        format!("{v:.4e}")
+    } else if a >= 100.0 {
+        format!("{v:.1}")
+    } else if a >= 1.0 {
+        format!("{v:.3}")
+    } else {
+        format!("{v:.4}")
+    }
+}

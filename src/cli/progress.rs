@@ -1,0 +1,82 @@
+//! A progress bar on stderr for training, drawn only when stderr is a
+//! terminal and `--quiet` was not given.
+
+use std::io::IsTerminal;
+use std::sync::Mutex;
+use std::time::Duration;
+
+use indicatif::{ProgressBar, ProgressDrawTarget, ProgressStyle};
+use mettle::observer::{TrainEvent, TrainObserver};
+
+/// Draws training progress.
+pub struct TrainProgress {
+    bar: Mutex<Option<ProgressBar>>,
+    enabled: bool,
+}
+
+impl TrainProgress {
+    /// A progress reporter; silent when `quiet` or stderr is not a terminal.
+    pub fn new(quiet: bool) -> Self {
+        TrainProgress {
+            bar: Mutex::new(None),
+            enabled: !quiet && std::io::stderr().is_terminal(),
+        }
+    }
+
+    /// Remove the bar from the screen.
+    pub fn finish(&self) {
+        if let Some(bar) = self.bar.lock().unwrap_or_else(|p| p.into_inner()).take() {
+            bar.finish_and_clear();
+        }
+    }
+}
+
+impl TrainObserver for TrainProgress {
+    fn observe(&self, event: &TrainEvent<'_>) {
+        if !self.enabled {
+            return;
+        }
+        let mut guard = self.bar.lock().unwrap_or_else(|p| p.into_inner());
+        match event {
+            TrainEvent::SearchStarted { target, n_candidates } => {
+                if let Some(old) = guard.take() {
+                    old.finish_and_clear();
+                }
+                let bar = ProgressBar::with_draw_target(Some(*n_candidates as u64), ProgressDrawTarget::stderr());
+                bar.set_style(
+                    ProgressStyle::with_template("{prefix:>14} [{bar:30}] {pos}/{len} candidates  {msg}  ({eta} left)")
+                        .unwrap_or_else(|_| ProgressStyle::default_bar())
+                        .progress_chars("=> "),
+                );
+                bar.set_prefix(target.to_string());
+                bar.enable_steady_tick(Duration::from_millis(250));
+                *guard = Some(bar);
+            }
+            TrainEvent::RangeWidened { max_hidden, n_candidates, .. } => {
+                if let Some(bar) = guard.as_ref() {
+                    bar.set_length(*n_candidates as u64);
+                    bar.println(format!("  best candidates at the top of the range: widening to {max_hidden} hidden units"));
+                }
+            }
+            TrainEvent::CandidateDone { done, best_nlpd, .. } => {
+                if let Some(bar) = guard.as_ref() {
+                    bar.set_position(*done as u64);
+                    if let Some(b) = best_nlpd {
+                        bar.set_message(format!("best held-out NLPD {b:.3}"));
+                    }
+                }
+            }
+            TrainEvent::Refitting { n_members, .. } => {
+                if let Some(bar) = guard.as_ref() {
+                    bar.set_message(format!("refitting {n_members} members on all rows"));
+                }
+            }
+            TrainEvent::TargetDone { .. } => {
+                if let Some(bar) = guard.take() {
+                    bar.finish_and_clear();
+                }
+            }
+            _ => {}
+        }
+    }
+}

@@ -1,0 +1,254 @@
+//! Committees of evidence-trained networks.
+//!
+//! # Method
+//!
+//! Candidates over a range of hidden-unit counts × random restarts are
+//! trained on a training part of the data and ranked on the held-out part
+//! by mean negative log predictive density (NLPD). The committee is the
+//! best n candidates, with n chosen to minimise the committee's held-out
+//! NLPD; the members are then refitted on all the data, warm-started from
+//! their weights, α and β (MacKay 1994, ASHRAE Trans. 100(2):1053; Bishop
+//! 1995 §9.6 on committees).
+//!
+//! The committee's predictive distribution is taken as Gaussian with
+//!
+//! ```text
+//! mean     = (1/M) Σ_m y_m
+//! variance = (1/M) Σ_m σ_m²  +  (1/M) Σ_m (y_m − mean)²
+//! ```
+//!
+//! the first term the members' own variances (noise + parameter
+//! uncertainty), the second their disagreement.
+
+mod params;
+mod search;
+
+pub use params::{CheckedCommitteeParams, CommitteeParams};
+pub use search::train_committee;
+
+use ndarray::{Array1, Array2, ArrayView2};
+use serde::{Deserialize, Serialize};
+
+use crate::evidence::{predictive, FitDiagnostics, FitFailure, GroupKind, HessianKind};
+use crate::net::Architecture;
+
+/// One member of a committee, as stored in a model file.
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+pub struct Member {
+    /// Hidden units (0 = linear).
+    pub n_hidden: usize,
+    /// Which restart of that hidden-unit count it was.
+    pub restart: usize,
+    /// Seed of its initial weights.
+    pub seed: u64,
+    /// Kind of each weight group, in the order of `alpha`.
+    pub groups: Vec<GroupKind>,
+    /// α of each group (scaled space).
+    pub alpha: Vec<f64>,
+    /// Well-determined parameters γ of each group.
+    pub gamma: Vec<f64>,
+    /// Noise precision β (scaled target units).
+    pub beta: f64,
+    /// Log evidence of the refitted network (scaled units).
+    pub log_evidence: f64,
+    /// NLPD of the candidate on the held-out part (target units).
+    pub heldout_nlpd: f64,
+    /// Which Hessian the posterior uses.
+    pub hessian: HessianKind,
+    /// Weights (scaled space), in the layout of [`Architecture`].
+    pub weights: Vec<f64>,
+    /// Posterior covariance A⁻¹, lower triangle packed row by row.
+    #[serde(with = "packed_symmetric")]
+    pub posterior_cov: Array2<f64>,
+    /// Training record of the refit.
+    pub diagnostics: FitDiagnostics,
+}
+
+/// A candidate network as tried during the search.
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+pub struct Candidate {
+    /// Hidden units.
+    pub n_hidden: usize,
+    /// Restart index.
+    pub restart: usize,
+    /// Seed of its initial weights.
+    pub seed: u64,
+    /// Held-out NLPD (target units), when it trained.
+    pub heldout_nlpd: Option<f64>,
+    /// Log evidence on the training part (scaled units), when it trained.
+    pub log_evidence: Option<f64>,
+    /// Total γ, when it trained.
+    pub gamma: Option<f64>,
+    /// Why it was discarded, when it was.
+    pub failure: Option<FitFailure>,
+}
+
+/// How the committee was chosen.
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+pub struct Selection {
+    /// Rows in the training part.
+    pub n_train_part: usize,
+    /// Rows in the held-out part.
+    pub n_heldout: usize,
+    /// Hidden-unit range finally searched.
+    pub hidden_searched: (usize, usize),
+    /// Whether the range was widened.
+    pub widened: bool,
+    /// Held-out NLPD of the committee of the best n candidates, n = 1, 2, …
+    pub nlpd_by_size: Vec<f64>,
+    /// Chosen size.
+    pub n_members: usize,
+    /// Members whose refit failed (they were dropped), with the reason.
+    pub refit_failures: Vec<String>,
+}
+
+/// A trained committee.
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+pub struct Committee {
+    /// Number of inputs the members take.
+    pub n_inputs: usize,
+    /// The members.
+    pub members: Vec<Member>,
+    /// Every candidate tried.
+    pub candidates: Vec<Candidate>,
+    /// How the members were chosen.
+    pub selection: Selection,
+}
+
+/// A committee's predictive distribution in scaled target units.
+#[derive(Clone, Debug, PartialEq)]
+pub struct ScaledPrediction {
+    /// Committee mean.
+    pub mean: Array1<f64>,
+    /// Total variance.
+    pub var: Array1<f64>,
+    /// Noise part: mean of the members' 1/β.
+    pub noise_var: Array1<f64>,
+}
+
+/// Mean and variance of a committee from its members' means and variances.
+pub(crate) fn combine(means: &[Array1<f64>], vars: &[Array1<f64>]) -> (Array1<f64>, Array1<f64>) {
+    let m = means.len() as f64;
+    let n = means.first().map_or(0, |a| a.len());
+    let mut mean = Array1::zeros(n);
+    for y in means {
+        mean += y;
+    }
+    mean /= m;
+    let mut var = Array1::zeros(n);
+    for (y, v) in means.iter().zip(vars) {
+        var += v;
+        var += &(y - &mean).mapv(|d| d * d);
+    }
+    var /= m;
+    (mean, var)
+}
+
+impl Member {
+    /// Architecture of the member.
+    pub fn arch(&self, n_inputs: usize) -> Architecture {
+        Architecture::new(n_inputs, self.n_hidden)
+    }
+
+    /// Noise sd in scaled target units, 1/√β.
+    pub fn noise_sd(&self) -> f64 {
+        1.0 / self.beta.sqrt()
+    }
+}
+
+impl Committee {
+    /// Predictive distribution for scaled inputs `x` (N × d).
+    pub fn predict_scaled(&self, x: ArrayView2<f64>) -> ScaledPrediction {
+        let mut means = Vec::with_capacity(self.members.len());
+        let mut vars = Vec::with_capacity(self.members.len());
+        let mut noise = 0.0;
+        for m in &self.members {
+            let (y, v) = predictive(
+                &m.arch(self.n_inputs),
+                &m.weights,
+                &m.posterior_cov,
+                m.beta,
+                x,
+            );
+            means.push(y);
+            vars.push(v);
+            noise += 1.0 / m.beta;
+        }
+        let (mean, var) = combine(&means, &vars);
+        let noise_var = Array1::from_elem(mean.len(), noise / self.members.len() as f64);
+        ScaledPrediction {
+            mean,
+            var,
+            noise_var,
+        }
+    }
+}
+
+/// Serialise a symmetric matrix as its packed lower triangle.
+mod packed_symmetric {
+    use ndarray::Array2;
+    use serde::{de::Error as _, Deserialize, Deserializer, Serialize, Serializer};
+
+    pub fn serialize<S: Serializer>(m: &Array2<f64>, s: S) -> Result<S::Ok, S::Error> {
+        let k = m.nrows();
+        let mut packed = Vec::with_capacity(k * (k + 1) / 2);
+        for i in 0..k {
+            for j in 0..=i {
+                packed.push(m[[i, j]]);
+            }
+        }
+        packed.serialize(s)
+    }
+
+    pub fn deserialize<'de, D: Deserializer<'de>>(d: D) -> Result<Array2<f64>, D::Error> {
+        let packed = Vec::<f64>::deserialize(d)?;
+        // k(k+1)/2 = len  →  k = (√(8·len + 1) − 1)/2
+        let k = (((8 * packed.len() + 1) as f64).sqrt() as usize).saturating_sub(1) / 2;
+        if k * (k + 1) / 2 != packed.len() {
+            return Err(D::Error::custom(format!(
+                "posterior covariance has {} entries, not a packed triangle",
+                packed.len()
+            )));
+        }
+        let mut m = Array2::zeros((k, k));
+        let mut it = packed.into_iter();
+        for i in 0..k {
+            for j in 0..=i {
+                let v = it.next().unwrap_or(0.0);
+                m[[i, j]] = v;
+                m[[j, i]] = v;
+            }
+        }
+        Ok(m)
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use approx::assert_abs_diff_eq;
+    use ndarray::array;
+
+    #[test]
+    fn committee_variance_is_mean_variance_plus_spread() {
+        let means = vec![array![1.0, 0.0], array![3.0, 0.0]];
+        let vars = vec![array![0.5, 1.0], array![1.5, 1.0]];
+        let (m, v) = combine(&means, &vars);
+        assert_abs_diff_eq!(m[0], 2.0);
+        // mean variance 1.0 + spread ((1-2)² + (3-2)²)/2 = 1.0
+        assert_abs_diff_eq!(v[0], 2.0);
+        assert_abs_diff_eq!(v[1], 1.0);
+    }
+
+    #[test]
+    fn packed_covariance_round_trips() {
+        #[derive(Serialize, Deserialize)]
+        struct W(#[serde(with = "packed_symmetric")] Array2<f64>);
+        let m = array![[2.0, 0.5, 0.1], [0.5, 3.0, -0.2], [0.1, -0.2, 1.0]];
+        let json = serde_json::to_string(&W(m.clone())).expect("ser");
+        assert_eq!(json, "[2.0,0.5,3.0,0.1,-0.2,1.0]");
+        let back: W = serde_json::from_str(&json).expect("de");
+        assert_eq!(back.0, m);
+        assert!(serde_json::from_str::<W>("[1.0,2.0]").is_err());
+    }
+}

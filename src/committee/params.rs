@@ -1,0 +1,175 @@
+//! Settings of the committee procedure: params → checked params, as linfa
+//! does.
+//!
+//! | Name | Default | Purpose | Range |
+//! |---|---|---|---|
+//! | `hidden` | 1..=10 | hidden-unit counts tried (0 = linear model) | 0 ≤ min ≤ max ≤ 100 |
+//! | `restarts` | 4 | random starts per hidden-unit count | 1 ..= 100 |
+//! | `holdout_fraction` | 0.2 | share of the training rows held out to rank candidates | 0.05 ..= 0.5 |
+//! | `ard` | true | one α per input (automatic relevance determination) | — |
+//! | `widen` | true | widen the hidden range when the best candidate sits at its top | — |
+//! | `hidden_cap` | 30 | largest hidden-unit count widening may reach | ≥ max |
+//! | `max_members` | 16 | largest committee considered | 1 ..= 200 |
+//! | `seed` | 0 | seed of every random choice | any u64 |
+
+use serde::{Deserialize, Serialize};
+
+use crate::error::{Error, Result};
+use crate::evidence::FitSettings;
+
+/// Unchecked committee settings (a consuming builder).
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+pub struct CommitteeParams {
+    /// Smallest hidden-unit count tried.
+    pub hidden_min: usize,
+    /// Largest hidden-unit count tried (before widening).
+    pub hidden_max: usize,
+    /// Random starts per hidden-unit count.
+    pub restarts: usize,
+    /// Share of the training rows held out to rank candidates.
+    pub holdout_fraction: f64,
+    /// One α per input.
+    pub ard: bool,
+    /// Widen the hidden range when the best candidate sits at its top.
+    pub widen: bool,
+    /// Largest hidden-unit count widening may reach.
+    pub hidden_cap: usize,
+    /// Largest committee considered.
+    pub max_members: usize,
+    /// Seed of every random choice.
+    pub seed: u64,
+    /// Settings of each network's training.
+    pub fit: FitSettings,
+}
+
+impl Default for CommitteeParams {
+    fn default() -> Self {
+        CommitteeParams {
+            hidden_min: 1,
+            hidden_max: 10,
+            restarts: 4,
+            holdout_fraction: 0.2,
+            ard: true,
+            widen: true,
+            hidden_cap: 30,
+            max_members: 16,
+            seed: 0,
+            fit: FitSettings::default(),
+        }
+    }
+}
+
+/// Settings that passed [`CommitteeParams::check`].
+#[derive(Clone, Debug, PartialEq)]
+pub struct CheckedCommitteeParams(CommitteeParams);
+
+impl std::ops::Deref for CheckedCommitteeParams {
+    type Target = CommitteeParams;
+    fn deref(&self) -> &CommitteeParams {
+        &self.0
+    }
+}
+
+impl CommitteeParams {
+    /// Hidden-unit range tried (0..=0 is the linear model).
+    #[must_use]
+    pub fn hidden(mut self, min: usize, max: usize) -> Self {
+        self.hidden_min = min;
+        self.hidden_max = max;
+        self
+    }
+
+    /// Random starts per hidden-unit count.
+    #[must_use]
+    pub fn restarts(mut self, n: usize) -> Self {
+        self.restarts = n;
+        self
+    }
+
+    /// Seed.
+    #[must_use]
+    pub fn seed(mut self, seed: u64) -> Self {
+        self.seed = seed;
+        self
+    }
+
+    /// Automatic relevance determination on or off.
+    #[must_use]
+    pub fn ard(mut self, yes: bool) -> Self {
+        self.ard = yes;
+        self
+    }
+
+    /// Widening of the hidden range on or off.
+    #[must_use]
+    pub fn widen(mut self, yes: bool) -> Self {
+        self.widen = yes;
+        self
+    }
+
+    /// Share of the training rows held out to rank candidates.
+    #[must_use]
+    pub fn holdout_fraction(mut self, f: f64) -> Self {
+        self.holdout_fraction = f;
+        self
+    }
+
+    /// Largest committee considered.
+    #[must_use]
+    pub fn max_members(mut self, n: usize) -> Self {
+        self.max_members = n;
+        self
+    }
+
+    /// Validate every setting.
+    ///
+    /// # Errors
+    /// [`Error::InvalidParameter`] naming the setting, the value and the range.
+    pub fn check(self) -> Result<CheckedCommitteeParams> {
+        let bad = |name: &'static str, value: String, expected: &str| {
+            Err(Error::InvalidParameter {
+                name,
+                value,
+                expected: expected.to_string(),
+            })
+        };
+        if self.hidden_min > self.hidden_max || self.hidden_max > 100 {
+            return bad(
+                "hidden",
+                format!("{}..{}", self.hidden_min, self.hidden_max),
+                "a range MIN..MAX with 0 <= MIN <= MAX <= 100 (0 is the linear model)",
+            );
+        }
+        if self.restarts == 0 || self.restarts > 100 {
+            return bad("restarts", self.restarts.to_string(), "between 1 and 100");
+        }
+        if !(0.05..=0.5).contains(&self.holdout_fraction) {
+            return bad("holdout fraction", self.holdout_fraction.to_string(), "between 0.05 and 0.5");
+        }
+        if self.max_members == 0 || self.max_members > 200 {
+            return bad("max members", self.max_members.to_string(), "between 1 and 200");
+        }
+        if self.fit.max_cycles == 0 || self.fit.max_cycles > 1000 {
+            return bad("max cycles", self.fit.max_cycles.to_string(), "between 1 and 1000");
+        }
+        let mut p = self;
+        p.hidden_cap = p.hidden_cap.max(p.hidden_max);
+        Ok(CheckedCommitteeParams(p))
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn defaults_pass_and_bad_values_are_named() {
+        assert!(CommitteeParams::default().check().is_ok());
+        let e = CommitteeParams::default().hidden(5, 2).check().expect_err("bad range");
+        assert!(e.to_string().contains("hidden = 5..2"), "{e}");
+        let e = CommitteeParams::default().restarts(0).check().expect_err("no restarts");
+        assert!(e.to_string().contains("between 1 and 100"), "{e}");
+        let e = CommitteeParams::default().holdout_fraction(0.9).check().expect_err("fraction");
+        assert!(e.to_string().contains("0.9"), "{e}");
+    }
+}

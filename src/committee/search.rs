@@ -1,0 +1,341 @@
+//! The candidate search, committee choice and refit.
+
+use std::sync::atomic::{AtomicUsize, Ordering};
+use std::sync::Mutex;
+
+use ndarray::{Array1, ArrayView1, ArrayView2, Axis};
+use rand::seq::SliceRandom;
+use rand::{Rng, SeedableRng};
+use rand_distr::{Distribution, Normal};
+use rand_xoshiro::Xoshiro256PlusPlus;
+use rayon::prelude::*;
+
+use super::{combine, Candidate, CheckedCommitteeParams, Committee, Member, Selection};
+use crate::error::{Error, Result};
+use crate::evidence::{fit_network, FitFailure, FittedNetwork, Groups, StartState};
+use crate::net::Architecture;
+use crate::observer::{TrainEvent, TrainObserver};
+use crate::prec::VAR_FLOOR;
+
+/// Initial α of every group (scaled space): weak enough not to constrain
+/// weights of order one.
+const ALPHA_START: f64 = 0.1;
+
+/// Initial noise variance as a share of the target's variance.
+const NOISE_SHARE_START: f64 = 0.1;
+
+/// Seed of one candidate, derived from the master seed so that every
+/// candidate's stream is fixed whatever the thread count.
+fn candidate_seed(master: u64, n_hidden: usize, restart: usize) -> u64 {
+    let mut rng = Xoshiro256PlusPlus::seed_from_u64(master);
+    let salt: u64 = rng.random();
+    salt ^ ((n_hidden as u64) << 32 | restart as u64).wrapping_mul(0x9E37_79B9_7F4A_7C15)
+}
+
+/// Random initial weights: input weights ~ N(0, 12/d) so that a hidden
+/// unit's net input has sd ≈ 1 on inputs spread over [−0.5, 0.5]; hidden
+/// biases ~ N(0, 0.5²); output weights ~ N(0, 0.25/H); output bias = target
+/// mean.
+fn initial_state(arch: &Architecture, ard: bool, seed: u64, t: ArrayView1<f64>) -> StartState {
+    let mut rng = Xoshiro256PlusPlus::seed_from_u64(seed);
+    let groups = Groups::new(arch, ard);
+    let lay = arch.layout();
+    let d = arch.n_inputs as f64;
+    let h = arch.n_hidden.max(1) as f64;
+    let n_in = Normal::new(0.0, (12.0 / d).sqrt()).expect("positive sd");
+    let n_hb = Normal::new(0.0, 0.5).expect("positive sd");
+    let n_out = Normal::new(0.0, (0.25 / h).sqrt()).expect("positive sd");
+    let mut w: Vec<f64> = (0..arch.n_params())
+        .map(|k| {
+            if k < lay.hidden_bias {
+                n_in.sample(&mut rng)
+            } else if k < lay.output_weights {
+                n_hb.sample(&mut rng)
+            } else {
+                n_out.sample(&mut rng)
+            }
+        })
+        .collect();
+    if arch.is_linear() {
+        for v in w.iter_mut().take(arch.n_inputs) {
+            *v = 0.0;
+        }
+    }
+    let mean = t.mean().unwrap_or(0.0);
+    w[lay.output_bias] = mean;
+    let var = t.var(0.0).max(1e-6);
+    StartState {
+        weights: w,
+        alpha: vec![ALPHA_START; groups.len()],
+        beta: 1.0 / (NOISE_SHARE_START * var),
+    }
+}
+
+/// Mean Gaussian NLPD in scaled units.
+fn nlpd_scaled(mean: &Array1<f64>, var: &Array1<f64>, t: ArrayView1<f64>) -> f64 {
+    let n = t.len() as f64;
+    mean.iter()
+        .zip(var)
+        .zip(t)
+        .map(|((m, v), y)| {
+            let v = v.max(VAR_FLOOR);
+            0.5 * (2.0 * std::f64::consts::PI * v).ln() + (y - m).powi(2) / (2.0 * v)
+        })
+        .sum::<f64>()
+        / n
+}
+
+struct Trial {
+    record: Candidate,
+    net: Option<FittedNetwork>,
+    heldout: Option<(Array1<f64>, Array1<f64>)>,
+}
+
+/// Train a committee for one target on scaled data.
+///
+/// `x` (N × d) and `t` (N) are scaled; `target_width` is the target's
+/// scaling width, so that `ln(target_width)` turns a scaled NLPD into
+/// target units.
+///
+/// # Errors
+/// [`Error::NotEnoughRows`] when the held-out split leaves too little on
+/// either side; [`Error::AllCandidatesFailed`] when no candidate trains.
+pub fn train_committee(
+    params: &CheckedCommitteeParams,
+    x: ArrayView2<f64>,
+    t: ArrayView1<f64>,
+    target_width: f64,
+    target_name: &str,
+    source: &str,
+    observer: &dyn TrainObserver,
+) -> Result<Committee> {
+    let n = x.nrows();
+    let d = x.ncols();
+    let n_heldout = ((n as f64) * params.holdout_fraction).round() as usize;
+    let needed = (2 * d + 10).max(20);
+    if n < needed || n_heldout < 5 {
+        return Err(Error::NotEnoughRows {
+            path: source.to_string(),
+            n_rows: n,
+            n_inputs: d,
+            needed,
+        });
+    }
+    let mut order: Vec<usize> = (0..n).collect();
+    order.shuffle(&mut Xoshiro256PlusPlus::seed_from_u64(params.seed ^ 0x5EED_0F_5B11));
+    let (held, train) = order.split_at(n_heldout);
+    let mut train = train.to_vec();
+    train.sort_unstable();
+    let mut held = held.to_vec();
+    held.sort_unstable();
+    let x_tr = x.select(Axis(0), &train);
+    let t_tr = t.select(Axis(0), &train);
+    let x_ho = x.select(Axis(0), &held);
+    let t_ho = t.select(Axis(0), &held);
+    let ln_width = target_width.ln();
+
+    let linear_only = params.hidden_max == 0;
+    let restarts = if linear_only { 1 } else { params.restarts };
+    let mut trials: Vec<Trial> = Vec::new();
+    let mut lo = params.hidden_min;
+    let mut hi = params.hidden_max;
+    let mut widened = false;
+    let done = AtomicUsize::new(0);
+    let best = Mutex::new(None::<f64>);
+    let mut planned = (hi - lo + 1) * restarts;
+    observer.observe(&TrainEvent::SearchStarted {
+        target: target_name,
+        n_candidates: planned,
+    });
+    loop {
+        let specs: Vec<(usize, usize)> = (lo..=hi)
+            .flat_map(|h| (0..if h == 0 { 1 } else { restarts }).map(move |r| (h, r)))
+            .collect();
+        let new: Vec<Trial> = specs
+            .par_iter()
+            .map(|&(h, r)| {
+                let arch = Architecture::new(d, h);
+                let seed = candidate_seed(params.seed, h, r);
+                let start = initial_state(&arch, params.ard, seed, t_tr.view());
+                let outcome = fit_network(arch, params.ard, x_tr.view(), t_tr.view(), start, &params.fit);
+                let trial = match outcome {
+                    Ok(net) => {
+                        let (mean, var) = net.predict(x_ho.view());
+                        let nlpd = nlpd_scaled(&mean, &var, t_ho.view()) + ln_width;
+                        if nlpd.is_finite() {
+                            Trial {
+                                record: Candidate {
+                                    n_hidden: h,
+                                    restart: r,
+                                    seed,
+                                    heldout_nlpd: Some(nlpd),
+                                    log_evidence: Some(net.log_evidence),
+                                    gamma: Some(net.gamma.iter().sum()),
+                                    failure: None,
+                                },
+                                net: Some(net),
+                                heldout: Some((mean, var)),
+                            }
+                        } else {
+                            failed(h, r, seed, FitFailure::Diverged("non-finite held-out NLPD".into()))
+                        }
+                    }
+                    Err(f) => failed(h, r, seed, f),
+                };
+                let k = done.fetch_add(1, Ordering::SeqCst) + 1;
+                let best_now = {
+                    let mut b = best.lock().unwrap_or_else(|p| p.into_inner());
+                    if let Some(v) = trial.record.heldout_nlpd {
+                        *b = Some(b.map_or(v, |old: f64| old.min(v)));
+                    }
+                    *b
+                };
+                observer.observe(&TrainEvent::CandidateDone {
+                    target: target_name,
+                    done: k,
+                    total: planned,
+                    best_nlpd: best_now,
+                });
+                trial
+            })
+            .collect();
+        trials.extend(new);
+        let top = trials
+            .iter()
+            .filter_map(|t| t.record.heldout_nlpd.map(|v| (v, t.record.n_hidden)))
+            .min_by(|a, b| a.0.total_cmp(&b.0));
+        match top {
+            Some((_, h_best)) if params.widen && h_best == hi && hi > 0 && hi < params.hidden_cap => {
+                lo = hi + 1;
+                hi = (hi + (hi / 2).max(2)).min(params.hidden_cap);
+                widened = true;
+                planned += (hi - lo + 1) * restarts;
+                observer.observe(&TrainEvent::RangeWidened {
+                    target: target_name,
+                    max_hidden: hi,
+                    n_candidates: planned,
+                });
+            }
+            _ => break,
+        }
+    }
+
+    // rank the candidates that trained
+    let mut ranked: Vec<&Trial> = trials.iter().filter(|t| t.net.is_some()).collect();
+    if ranked.is_empty() {
+        let mut reasons: Vec<String> = trials
+            .iter()
+            .filter_map(|t| t.record.failure.as_ref().map(|f| f.to_string()))
+            .collect();
+        reasons.sort();
+        reasons.dedup();
+        return Err(Error::AllCandidatesFailed {
+            reasons: reasons.join("; "),
+        });
+    }
+    ranked.sort_by(|a, b| {
+        let (va, vb) = (a.record.heldout_nlpd.unwrap_or(f64::INFINITY), b.record.heldout_nlpd.unwrap_or(f64::INFINITY));
+        va.total_cmp(&vb)
+            .then(a.record.n_hidden.cmp(&b.record.n_hidden))
+            .then(a.record.restart.cmp(&b.record.restart))
+    });
+    let max_size = ranked.len().min(params.max_members);
+    let mut nlpd_by_size = Vec::with_capacity(max_size);
+    for size in 1..=max_size {
+        let (means, vars): (Vec<Array1<f64>>, Vec<Array1<f64>>) = ranked[..size]
+            .iter()
+            .filter_map(|t| t.heldout.clone())
+            .unzip();
+        let (m, v) = combine(&means, &vars);
+        nlpd_by_size.push(nlpd_scaled(&m, &v, t_ho.view()) + ln_width);
+    }
+    let n_members = nlpd_by_size
+        .iter()
+        .enumerate()
+        .min_by(|a, b| a.1.total_cmp(b.1))
+        .map_or(1, |(i, _)| i + 1);
+
+    // refit the chosen members on all the data, warm-started
+    observer.observe(&TrainEvent::Refitting {
+        target: target_name,
+        n_members,
+    });
+    let refits: Vec<std::result::Result<Member, String>> = ranked[..n_members]
+        .par_iter()
+        .map(|trial| {
+            let net = trial.net.as_ref().expect("ranked trials have networks");
+            let start = StartState {
+                weights: net.weights.clone(),
+                alpha: net.alpha.clone(),
+                beta: net.beta,
+            };
+            let rec = &trial.record;
+            fit_network(net.arch, params.ard, x.view(), t.view(), start, &params.fit)
+                .map(|refit| Member {
+                    n_hidden: rec.n_hidden,
+                    restart: rec.restart,
+                    seed: rec.seed,
+                    groups: refit.group_kinds.clone(),
+                    alpha: refit.alpha.clone(),
+                    gamma: refit.gamma.clone(),
+                    beta: refit.beta,
+                    log_evidence: refit.log_evidence,
+                    heldout_nlpd: rec.heldout_nlpd.unwrap_or(f64::NAN),
+                    hessian: refit.hessian,
+                    weights: refit.weights.clone(),
+                    posterior_cov: refit.posterior_cov.clone(),
+                    diagnostics: refit.diagnostics.clone(),
+                })
+                .map_err(|f| format!("{} hidden, restart {}: {f}", rec.n_hidden, rec.restart))
+        })
+        .collect();
+    let mut members = Vec::new();
+    let mut refit_failures = Vec::new();
+    for r in refits {
+        match r {
+            Ok(m) => members.push(m),
+            Err(e) => refit_failures.push(e),
+        }
+    }
+    if members.is_empty() {
+        return Err(Error::AllCandidatesFailed {
+            reasons: format!("every refit on all the data failed: {}", refit_failures.join("; ")),
+        });
+    }
+    let heldout_nlpd = nlpd_by_size[n_members - 1];
+    observer.observe(&TrainEvent::TargetDone {
+        target: target_name,
+        n_members: members.len(),
+        heldout_nlpd,
+    });
+    Ok(Committee {
+        n_inputs: d,
+        members,
+        candidates: trials.into_iter().map(|t| t.record).collect(),
+        selection: Selection {
+            n_train_part: train.len(),
+            n_heldout: held.len(),
+            hidden_searched: (params.hidden_min, hi),
+            widened,
+            nlpd_by_size,
+            n_members,
+            refit_failures,
+        },
+    })
+}
+
+fn failed(h: usize, r: usize, seed: u64, f: FitFailure) -> Trial {
+    Trial {
+        record: Candidate {
+            n_hidden: h,
+            restart: r,
+            seed,
+            heldout_nlpd: None,
+            log_evidence: None,
+            gamma: None,
+            failure: Some(f),
+        },
+        net: None,
+        heldout: None,
+    }
+}

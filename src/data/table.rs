@@ -1,0 +1,323 @@
+//! A table of test records read from CSV or Parquet.
+//!
+//! CSV cells are read as text by polars and parsed here, so that every bad
+//! cell is reported with its file, row and column rather than as a parser
+//! message about an inferred type.
+
+use std::path::{Path, PathBuf};
+
+use polars::prelude::*;
+
+use crate::error::{Error, Result};
+
+/// One column's cells as read.
+#[derive(Clone, Debug, PartialEq)]
+pub enum ColumnData {
+    /// Cells read as text (CSV), parsed on demand.
+    Text(Vec<Option<String>>),
+    /// Cells read as numbers (numeric Parquet columns).
+    Number(Vec<Option<f64>>),
+}
+
+/// A table: named columns of equal length, with the file it came from.
+#[derive(Clone, Debug, PartialEq)]
+pub struct Table {
+    source: PathBuf,
+    names: Vec<String>,
+    columns: Vec<ColumnData>,
+    n_rows: usize,
+}
+
+/// The file formats mettle reads.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum FileFormat {
+    /// Comma-separated text with a header row.
+    Csv,
+    /// Apache Parquet.
+    Parquet,
+}
+
+impl FileFormat {
+    /// The format a path's extension names (`.parquet`/`.pq` → Parquet,
+    /// anything else → CSV).
+    pub fn from_path(path: &Path) -> FileFormat {
+        match path
+            .extension()
+            .and_then(|e| e.to_str())
+            .map(|e| e.to_ascii_lowercase())
+            .as_deref()
+        {
+            Some("parquet") | Some("pq") => FileFormat::Parquet,
+            _ => FileFormat::Csv,
+        }
+    }
+}
+
+fn read_error(path: &Path, message: impl Into<String>) -> Error {
+    Error::Read {
+        path: path.display().to_string(),
+        message: message.into(),
+    }
+}
+
+impl Table {
+    /// Build a table from numeric columns (used by generators and tests).
+    ///
+    /// # Errors
+    /// [`Error::Read`] when the columns differ in length or a name repeats.
+    pub fn from_columns(source: &str, columns: Vec<(String, Vec<f64>)>) -> Result<Table> {
+        let path = PathBuf::from(source);
+        let n_rows = columns.first().map_or(0, |c| c.1.len());
+        let mut names = Vec::with_capacity(columns.len());
+        let mut data = Vec::with_capacity(columns.len());
+        for (name, values) in columns {
+            if values.len() != n_rows {
+                return Err(read_error(&path, format!("column '{name}' has {} rows, expected {n_rows}", values.len())));
+            }
+            if names.contains(&name) {
+                return Err(read_error(&path, format!("column name '{name}' appears twice")));
+            }
+            names.push(name);
+            data.push(ColumnData::Number(values.into_iter().map(Some).collect()));
+        }
+        Ok(Table {
+            source: path,
+            names,
+            columns: data,
+            n_rows,
+        })
+    }
+
+    /// Read a CSV (header row required) or Parquet file, chosen by extension.
+    ///
+    /// # Errors
+    /// [`Error::Io`] when the file cannot be opened; [`Error::Read`] when it
+    /// is not a well-formed table (empty, no header, ragged rows, duplicated
+    /// or empty column names).
+    pub fn read(path: &Path) -> Result<Table> {
+        let meta = std::fs::metadata(path).map_err(|source| Error::Io {
+            path: path.display().to_string(),
+            source,
+        })?;
+        if meta.len() == 0 {
+            return Err(read_error(path, "the file is empty"));
+        }
+        let df = match FileFormat::from_path(path) {
+            FileFormat::Csv => CsvReadOptions::default()
+                .with_has_header(true)
+                .with_infer_schema_length(Some(0))
+                .with_raise_if_empty(true)
+                .try_into_reader_with_file_path(Some(path.to_path_buf()))
+                .and_then(|r| r.finish()),
+            FileFormat::Parquet => std::fs::File::open(path)
+                .map_err(PolarsError::from)
+                .and_then(|f| ParquetReader::new(f).finish()),
+        }
+        .map_err(|e| read_error(path, polars_message(&e)))?;
+        Self::from_frame(path, &df)
+    }
+
+    fn from_frame(path: &Path, df: &DataFrame) -> Result<Table> {
+        let mut names = Vec::with_capacity(df.width());
+        let mut columns = Vec::with_capacity(df.width());
+        for (i, col) in df.columns().iter().enumerate() {
+            let mut name = col.name().to_string();
+            if i == 0 {
+                // a UTF-8 byte-order mark, as spreadsheets write it
+                name = name.trim_start_matches('\u{feff}').to_string();
+            }
+            let name = name.trim().to_string();
+            if name.is_empty() {
+                return Err(read_error(path, format!("column {} has an empty name", i + 1)));
+            }
+            if names.contains(&name) {
+                return Err(read_error(path, format!("column name '{name}' appears twice (columns must be unique)")));
+            }
+            let series = col.as_materialized_series();
+            let data = match series.dtype() {
+                DataType::String => {
+                    let ca = series.str().map_err(|e| read_error(path, polars_message(&e)))?;
+                    ColumnData::Text(ca.iter().map(|v| v.map(str::to_string)).collect())
+                }
+                dt if dt.is_primitive_numeric() || dt.is_bool() => {
+                    let cast = series
+                        .cast(&DataType::Float64)
+                        .map_err(|e| read_error(path, polars_message(&e)))?;
+                    let ca = cast.f64().map_err(|e| read_error(path, polars_message(&e)))?;
+                    ColumnData::Number(ca.iter().collect())
+                }
+                other => {
+                    let cast = series
+                        .cast(&DataType::String)
+                        .map_err(|_| read_error(path, format!("column '{name}' has type {other}, which mettle cannot read")))?;
+                    let ca = cast.str().map_err(|e| read_error(path, polars_message(&e)))?;
+                    ColumnData::Text(ca.iter().map(|v| v.map(str::to_string)).collect())
+                }
+            };
+            names.push(name);
+            columns.push(data);
+        }
+        Ok(Table {
+            source: path.to_path_buf(),
+            names,
+            columns,
+            n_rows: df.height(),
+        })
+    }
+
+    /// The file the table came from.
+    pub fn source(&self) -> &Path {
+        &self.source
+    }
+
+    /// Column names in file order.
+    pub fn names(&self) -> &[String] {
+        &self.names
+    }
+
+    /// Number of data rows (header excluded).
+    pub fn n_rows(&self) -> usize {
+        self.n_rows
+    }
+
+    /// Position of a column.
+    pub fn index_of(&self, name: &str) -> Option<usize> {
+        self.names.iter().position(|n| n == name)
+    }
+
+    fn column_data(&self, name: &str) -> Result<&ColumnData> {
+        self.index_of(name)
+            .map(|i| &self.columns[i])
+            .ok_or_else(|| Error::MissingColumn {
+                path: self.source.display().to_string(),
+                name: name.to_string(),
+                available: self.names.join(", "),
+            })
+    }
+
+    /// True when every non-empty cell of the column reads as a number.
+    pub fn is_numeric(&self, name: &str) -> bool {
+        match self.column_data(name) {
+            Ok(ColumnData::Number(_)) => true,
+            Ok(ColumnData::Text(v)) => v
+                .iter()
+                .flatten()
+                .all(|s| parse_number(s).is_some()),
+            Err(_) => false,
+        }
+    }
+
+    /// The column as numbers, with missing cells as `None`.
+    ///
+    /// # Errors
+    /// [`Error::MissingColumn`]; [`Error::Cell`] for text that is not a
+    /// number, NaN or infinity — naming file, row and column.
+    pub fn numeric_optional(&self, name: &str) -> Result<Vec<Option<f64>>> {
+        let cell_error = |row: usize, problem: String| Error::Cell {
+            path: self.source.display().to_string(),
+            row: row + 1,
+            line: row + 2,
+            column: name.to_string(),
+            problem,
+        };
+        match self.column_data(name)? {
+            ColumnData::Number(v) => v
+                .iter()
+                .enumerate()
+                .map(|(row, x)| match x {
+                    Some(x) if !x.is_finite() => Err(cell_error(row, format!("{x} is not a finite number"))),
+                    other => Ok(*other),
+                })
+                .collect(),
+            ColumnData::Text(v) => v
+                .iter()
+                .enumerate()
+                .map(|(row, s)| match s.as_deref().map(str::trim) {
+                    None | Some("") => Ok(None),
+                    Some(s) => match parse_number(s) {
+                        Some(x) if x.is_finite() => Ok(Some(x)),
+                        Some(_) => Err(cell_error(row, format!("'{s}' is not a finite number"))),
+                        None => Err(cell_error(row, format!("'{s}' is not a number"))),
+                    },
+                })
+                .collect(),
+        }
+    }
+
+    /// The column as numbers; a missing cell is an error.
+    ///
+    /// # Errors
+    /// As [`Table::numeric_optional`], plus [`Error::Cell`] for an empty cell.
+    pub fn numeric(&self, name: &str) -> Result<Vec<f64>> {
+        let values = self.numeric_optional(name)?;
+        values
+            .into_iter()
+            .enumerate()
+            .map(|(row, v)| {
+                v.ok_or_else(|| Error::Cell {
+                    path: self.source.display().to_string(),
+                    row: row + 1,
+                    line: row + 2,
+                    column: name.to_string(),
+                    problem: "the cell is empty".into(),
+                })
+            })
+            .collect()
+    }
+}
+
+/// Parse a decimal number as written in a spreadsheet export.
+fn parse_number(s: &str) -> Option<f64> {
+    let s = s.trim();
+    if s.is_empty() {
+        return None;
+    }
+    s.parse::<f64>().ok()
+}
+
+/// A polars error as one line.
+fn polars_message(e: &PolarsError) -> String {
+    e.to_string().lines().next().unwrap_or("unreadable table").to_string()
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use std::io::Write;
+
+    fn write(dir: &tempfile::TempDir, name: &str, text: &str) -> PathBuf {
+        let p = dir.path().join(name);
+        let mut f = std::fs::File::create(&p).expect("create");
+        f.write_all(text.as_bytes()).expect("write");
+        p
+    }
+
+    #[test]
+    fn reads_csv_with_bom_and_crlf() {
+        let dir = tempfile::tempdir().expect("tempdir");
+        let p = write(&dir, "a.csv", "\u{feff}C,Mn,uts\r\n0.1,1.2,500\r\n0.12,1.4,520\r\n");
+        let t = Table::read(&p).expect("read");
+        assert_eq!(t.names(), &["C", "Mn", "uts"]);
+        assert_eq!(t.numeric("uts").expect("uts"), vec![500.0, 520.0]);
+    }
+
+    #[test]
+    fn bad_cell_names_row_and_column() {
+        let dir = tempfile::tempdir().expect("tempdir");
+        let p = write(&dir, "b.csv", "C,uts\n0.1,500\n0.1,abc\n");
+        let t = Table::read(&p).expect("read");
+        let e = t.numeric("uts").expect_err("text cell");
+        let msg = e.to_string();
+        assert!(msg.contains("row 2") && msg.contains("'uts'") && msg.contains("b.csv"), "{msg}");
+        let p = write(&dir, "c.csv", "C,uts\n0.1,NaN\n");
+        let msg = Table::read(&p).expect("read").numeric("uts").expect_err("nan").to_string();
+        assert!(msg.contains("not a finite number"), "{msg}");
+    }
+
+    #[test]
+    fn missing_column_lists_available() {
+        let t = Table::from_columns("mem", vec![("a".into(), vec![1.0])]).expect("table");
+        let msg = t.numeric("b").expect_err("missing").to_string();
+        assert!(msg.contains("'b'") && msg.contains("a"), "{msg}");
+    }
+}

@@ -1,0 +1,148 @@
+//! The library's error type. Every variant carries the offending value and,
+//! where one exists, the valid range, so that a message can be acted on
+//! without reading the code.
+
+/// Errors returned by mettle.
+#[derive(Debug, thiserror::Error)]
+#[non_exhaustive]
+pub enum Error {
+    /// A file could not be opened or read.
+    #[error("{path}: cannot read: {source}")]
+    Io {
+        /// The file.
+        path: String,
+        /// What the operating system said.
+        source: std::io::Error,
+    },
+    /// A file could not be written.
+    #[error("{path}: cannot write: {source}")]
+    Write {
+        /// The file.
+        path: String,
+        /// What the operating system said.
+        source: std::io::Error,
+    },
+    /// A file is not a well-formed table.
+    #[error("{path}: {message}")]
+    Read {
+        /// The file.
+        path: String,
+        /// What is wrong with it.
+        message: String,
+    },
+    /// One cell holds a value that cannot be used.
+    #[error("{path}: row {row} (line {line}), column '{column}': {problem}")]
+    Cell {
+        /// The file.
+        path: String,
+        /// Data row, 1-based, header excluded.
+        row: usize,
+        /// Line of the file, 1-based, header included.
+        line: usize,
+        /// Column name.
+        column: String,
+        /// What is wrong with the value.
+        problem: String,
+    },
+    /// A column that was asked for is not in the table.
+    #[error("{path}: no column named '{name}'; the columns are: {available}")]
+    MissingColumn {
+        /// The file.
+        path: String,
+        /// The column asked for.
+        name: String,
+        /// The columns the file has.
+        available: String,
+    },
+    /// A setting is outside its valid range.
+    #[error("invalid {name} = {value}: {expected}")]
+    InvalidParameter {
+        /// The setting.
+        name: &'static str,
+        /// The value given.
+        value: String,
+        /// The valid range, in words.
+        expected: String,
+    },
+    /// Too few rows to train.
+    #[error("{path}: {n_rows} usable rows for {n_inputs} inputs; training needs at least {needed}")]
+    NotEnoughRows {
+        /// The file.
+        path: String,
+        /// Rows available.
+        n_rows: usize,
+        /// Inputs in use.
+        n_inputs: usize,
+        /// Rows needed.
+        needed: usize,
+    },
+    /// The target has a single value: there is nothing to learn.
+    #[error("{path}: target '{name}' has the same value ({value}) in every row; there is nothing to learn")]
+    ConstantTarget {
+        /// The file.
+        path: String,
+        /// The target column.
+        name: String,
+        /// Its only value.
+        value: f64,
+    },
+    /// No input is left once constant columns are set aside.
+    #[error("{path}: no usable input: {detail}")]
+    NoInputs {
+        /// The file.
+        path: String,
+        /// Why each candidate input was set aside.
+        detail: String,
+    },
+    /// Every candidate network failed to train.
+    #[error("every candidate network failed to train: {reasons}")]
+    AllCandidatesFailed {
+        /// The distinct reasons.
+        reasons: String,
+    },
+    /// A model file is corrupt, truncated or not a model file.
+    #[error("{path}: not a usable mettle model file: {reason}")]
+    ModelFormat {
+        /// The file.
+        path: String,
+        /// What is wrong.
+        reason: String,
+    },
+    /// A model file was written by a newer mettle.
+    #[error("{path}: model format version {found} is newer than this mettle reads (up to {supported}); upgrade mettle")]
+    ModelVersion {
+        /// The file.
+        path: String,
+        /// The version in the file.
+        found: u64,
+        /// The newest version this build reads.
+        supported: u64,
+    },
+    /// A value a model needs cannot be used at prediction time.
+    #[error("{path}: row {row}, column '{column}': {problem}")]
+    PredictInput {
+        /// The input file.
+        path: String,
+        /// Data row, 1-based.
+        row: usize,
+        /// Column name.
+        column: String,
+        /// What is wrong.
+        problem: String,
+    },
+}
+
+impl Error {
+    /// True when the error is the user's input (bad file, bad value, bad
+    /// setting) rather than a failure while running; the CLI maps the first
+    /// to exit code 2 and the second to exit code 1.
+    pub fn is_bad_input(&self) -> bool {
+        !matches!(
+            self,
+            Error::Write { .. } | Error::AllCandidatesFailed { .. }
+        )
+    }
+}
+
+/// Result with mettle's [`Error`].
+pub type Result<T> = std::result::Result<T, Error>;

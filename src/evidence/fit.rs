@@ -1,0 +1,567 @@
+//! Training one network under the evidence framework.
+//!
+//! # Method
+//!
+//! MacKay (1992), "A practical Bayesian framework for backpropagation
+//! networks", Neural Computation 4(3):448–472; Bishop (1995), *Neural
+//! Networks for Pattern Recognition*, §10.4. Cycles of:
+//!
+//! 1. minimise M(w) = β·E_D + Σ_c α_c·E_W,c for fixed α, β (L-BFGS from
+//!    argmin; one exact Newton step in linear mode, where M is quadratic);
+//! 2. form the Hessian A = β·∇∇E_D + diag(α) at the minimum;
+//! 3. re-estimate
+//!    ```text
+//!    γ_c = k_c − α_c·Tr_c(A⁻¹)      (well-determined parameters of group c)
+//!    α_c ← γ_c / (2·E_W,c)
+//!    β   ← (N − γ) / (2·E_D),       γ = Σ_c γ_c
+//!    ```
+//!
+//! until β, γ and the α of groups that still carry weight settle (relative
+//! change below [`HYPER_REL_TOL`]) or the cycle cap is reached.
+//!
+//! # Log evidence
+//!
+//! ```text
+//! ln p(D | α, β) = −M(w*) − ½ ln|A| + Σ_c (k_c/2) ln α_c + (N/2) ln β
+//!                  − (N/2) ln 2π + ln H! + H ln 2
+//! ```
+//!
+//! the last two terms counting the 2^H·H! equivalent weight vectors of a
+//! tanh network (Bishop 1995, eq. 10.67, without its two
+//! hyperparameter-error terms, which diverge for groups whose γ_c → 0).
+
+use argmin::core::{Executor, State, TerminationReason};
+use argmin::solver::linesearch::MoreThuenteLineSearch;
+use argmin::solver::quasinewton::LBFGS;
+use ndarray::{Array1, Array2, ArrayView1, ArrayView2};
+use ndarray_linalg::{Eigh, FactorizeC, InverseC, SolveC, UPLO};
+use serde::{Deserialize, Serialize};
+
+use super::groups::{GroupKind, Groups};
+use super::objective::Objective;
+use crate::net::Architecture;
+use crate::prec::{
+    ALPHA_MAX, ALPHA_MIN, BETA_MAX, BETA_MIN, COST_TOL, EIGEN_FLOOR_REL, GAMMA_ACTIVE, GRAD_TOL,
+    HYPER_REL_TOL, MIN_RESIDUAL_DOF_FRACTION,
+};
+
+/// Which Hessian of E_D enters A.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize, Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum HessianChoice {
+    /// Always the Gauss–Newton form `JᵀJ` (positive semi-definite).
+    GaussNewton,
+    /// The exact Hessian where A is then positive definite, otherwise
+    /// Gauss–Newton.
+    ExactWherePositiveDefinite,
+}
+
+/// Which Hessian the final A of a network actually is.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize, Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum HessianKind {
+    /// Exact second derivatives.
+    Exact,
+    /// Gauss–Newton approximation.
+    GaussNewton,
+}
+
+/// Settings of one network's training.
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+pub struct FitSettings {
+    /// Cap on α/β re-estimation cycles.
+    pub max_cycles: usize,
+    /// L-BFGS iterations allowed in the first cycle.
+    pub first_iters: u64,
+    /// L-BFGS iterations allowed in each later cycle.
+    pub cycle_iters: u64,
+    /// L-BFGS memory (number of correction pairs).
+    pub lbfgs_memory: usize,
+    /// Which Hessian to use in A.
+    pub hessian: HessianChoice,
+}
+
+impl Default for FitSettings {
+    fn default() -> Self {
+        FitSettings {
+            max_cycles: 15,
+            first_iters: 800,
+            cycle_iters: 250,
+            lbfgs_memory: 10,
+            hessian: HessianChoice::GaussNewton,
+        }
+    }
+}
+
+/// Starting point of a fit: weights and hyperparameters.
+#[derive(Clone, Debug, PartialEq)]
+pub struct StartState {
+    /// Initial weights (scaled space).
+    pub weights: Vec<f64>,
+    /// Initial α of each group.
+    pub alpha: Vec<f64>,
+    /// Initial noise precision β (scaled target units).
+    pub beta: f64,
+}
+
+/// What happened during a fit that a reader of the model should know.
+#[derive(Clone, Debug, Default, PartialEq, Serialize, Deserialize)]
+pub struct FitDiagnostics {
+    /// Re-estimation cycles run.
+    pub cycles: usize,
+    /// True when the hyperparameters settled before the cycle cap.
+    pub converged: bool,
+    /// Forward/backward passes made by the optimiser.
+    pub gradient_evaluations: u64,
+    /// Cycles in which the exact Hessian was not positive definite and
+    /// Gauss–Newton was used instead.
+    pub exact_not_positive_definite: usize,
+    /// Cycles in which Cholesky failed and the eigenvalue fallback was used.
+    pub eigen_fallbacks: usize,
+    /// Hyperparameter bounds that were hit, in words.
+    pub bounds_hit: Vec<String>,
+}
+
+/// A trained network with its posterior.
+#[derive(Clone, Debug)]
+pub struct FittedNetwork {
+    /// Shape.
+    pub arch: Architecture,
+    /// Kind of each weight group.
+    pub group_kinds: Vec<GroupKind>,
+    /// Weights at the minimum of M (scaled space).
+    pub weights: Vec<f64>,
+    /// α of each group.
+    pub alpha: Vec<f64>,
+    /// Noise precision β (scaled target units).
+    pub beta: f64,
+    /// Well-determined parameters of each group.
+    pub gamma: Vec<f64>,
+    /// ln p(D | α, β) in scaled target units.
+    pub log_evidence: f64,
+    /// A⁻¹, the posterior covariance of the weights.
+    pub posterior_cov: Array2<f64>,
+    /// Which Hessian A is.
+    pub hessian: HessianKind,
+    /// Training record.
+    pub diagnostics: FitDiagnostics,
+}
+
+/// Why a network was discarded.
+#[derive(Clone, Debug, PartialEq, Eq, Serialize, Deserialize)]
+#[serde(tag = "kind", content = "detail", rename_all = "snake_case")]
+pub enum FitFailure {
+    /// Weights, cost or hyperparameters became non-finite.
+    Diverged(String),
+    /// The optimiser could not make progress.
+    Stalled(String),
+    /// The final Hessian was not positive definite.
+    NotPositiveDefinite(String),
+}
+
+impl std::fmt::Display for FitFailure {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        match self {
+            FitFailure::Diverged(s) => write!(f, "diverged: {s}"),
+            FitFailure::Stalled(s) => write!(f, "stalled: {s}"),
+            FitFailure::NotPositiveDefinite(s) => write!(f, "Hessian not positive definite: {s}"),
+        }
+    }
+}
+
+struct Factorised {
+    inv: Array2<f64>,
+    ln_det: f64,
+    kind: HessianKind,
+    eigen_fallback: bool,
+}
+
+/// Cholesky of A; None when A is not positive definite.
+fn cholesky_inverse(a: &Array2<f64>) -> Option<(Array2<f64>, f64)> {
+    let f = a.factorizec(UPLO::Lower).ok()?;
+    let ln_det = 2.0 * f.factor.diag().iter().map(|l| l.ln()).sum::<f64>();
+    let inv = f.invc().ok()?;
+    if !ln_det.is_finite() || inv.iter().any(|v| !v.is_finite()) {
+        return None;
+    }
+    Some((inv, ln_det))
+}
+
+/// A⁻¹ with eigenvalues clamped from below: the last resort when Cholesky
+/// fails on the Gauss–Newton form (rank-deficient J with tiny α).
+fn eigen_inverse(a: &Array2<f64>) -> Option<(Array2<f64>, f64)> {
+    let (vals, vecs) = a.eigh(UPLO::Lower).ok()?;
+    let top = vals.iter().cloned().fold(0.0_f64, f64::max);
+    let floor = (top * EIGEN_FLOOR_REL).max(f64::MIN_POSITIVE);
+    let clamped = vals.mapv(|v| v.max(floor));
+    let scaled = &vecs / &clamped.view().insert_axis(ndarray::Axis(0));
+    let inv = scaled.dot(&vecs.t());
+    Some((inv, clamped.iter().map(|v| v.ln()).sum()))
+}
+
+fn hessian_of_m(
+    arch: &Architecture,
+    w: &[f64],
+    x: ArrayView2<f64>,
+    t: ArrayView1<f64>,
+    beta: f64,
+    alpha_per_param: &[f64],
+    choice: HessianChoice,
+    diag: &mut FitDiagnostics,
+) -> Option<Factorised> {
+    let add_prior = |mut h: Array2<f64>| {
+        h *= beta;
+        for (k, a) in alpha_per_param.iter().enumerate() {
+            h[[k, k]] += a;
+        }
+        h
+    };
+    if choice == HessianChoice::ExactWherePositiveDefinite && !arch.is_linear() {
+        let exact = add_prior(arch.data_hessian_exact(w, x, t));
+        if let Some((inv, ln_det)) = cholesky_inverse(&exact) {
+            return Some(Factorised {
+                inv,
+                ln_det,
+                kind: HessianKind::Exact,
+                eigen_fallback: false,
+            });
+        }
+        diag.exact_not_positive_definite += 1;
+    }
+    let (_, jac) = arch.jacobian(w, x);
+    let gn = add_prior(jac.t().dot(&jac));
+    let kind = if arch.is_linear() {
+        HessianKind::Exact
+    } else {
+        HessianKind::GaussNewton
+    };
+    if let Some((inv, ln_det)) = cholesky_inverse(&gn) {
+        return Some(Factorised {
+            inv,
+            ln_det,
+            kind,
+            eigen_fallback: false,
+        });
+    }
+    diag.eigen_fallbacks += 1;
+    eigen_inverse(&gn).map(|(inv, ln_det)| Factorised {
+        inv,
+        ln_det,
+        kind,
+        eigen_fallback: true,
+    })
+}
+
+fn ln_factorial(h: usize) -> f64 {
+    (1..=h).map(|i| (i as f64).ln()).sum()
+}
+
+fn rel_change(new: f64, old: f64) -> f64 {
+    (new - old).abs() / old.abs().max(f64::MIN_POSITIVE)
+}
+
+/// Minimise M for fixed hyperparameters from `w0`.
+fn minimise<'a>(
+    arch: &Architecture,
+    x: ArrayView2<'a, f64>,
+    t: ArrayView1<'a, f64>,
+    beta: f64,
+    alpha_per_param: &[f64],
+    w0: Vec<f64>,
+    iters: u64,
+    memory: usize,
+) -> Result<(Vec<f64>, u64), FitFailure> {
+    let obj = Objective::new(*arch, x, t, beta, alpha_per_param.to_vec());
+    if arch.is_linear() {
+        // M is quadratic: one Newton step w ← w − A⁻¹∇M is exact.
+        let w = Array1::from(w0);
+        let (_, grad) = obj.value_gradient(&w);
+        let (_, jac) = arch.jacobian(w.as_slice().unwrap_or(&[]), x);
+        let mut a = jac.t().dot(&jac) * beta;
+        for (k, al) in alpha_per_param.iter().enumerate() {
+            a[[k, k]] += al;
+        }
+        let n = x.nrows() as f64;
+        let step = a
+            .factorizec(UPLO::Lower)
+            .and_then(|f| f.solvec(&(grad * n)))
+            .map_err(|e| FitFailure::Stalled(format!("linear solve failed: {e}")))?;
+        let w = &w - &step;
+        return Ok((w.to_vec(), 1));
+    }
+    let linesearch = MoreThuenteLineSearch::new();
+    let solver = LBFGS::new(linesearch, memory)
+        .with_tolerance_grad(GRAD_TOL)
+        .and_then(|s| s.with_tolerance_cost(COST_TOL))
+        .map_err(|e| FitFailure::Stalled(format!("optimiser set-up: {e}")))?;
+    let result = Executor::new(obj, solver)
+        .configure(|state| state.param(Array1::from(w0)).max_iters(iters))
+        .timer(false)
+        .run();
+    match result {
+        Ok(mut res) => {
+            let evals = res.problem.take_problem().map_or(0, |o| o.evaluations());
+            if let Some(TerminationReason::SolverExit(why)) =
+                res.state.get_termination_reason().cloned()
+            {
+                if res.state.get_iter() == 0 {
+                    return Err(FitFailure::Stalled(why));
+                }
+            }
+            let w = res
+                .state
+                .take_best_param()
+                .ok_or_else(|| FitFailure::Stalled("optimiser returned no parameters".into()))?;
+            Ok((w.to_vec(), evals))
+        }
+        Err(e) => Err(FitFailure::Stalled(format!("optimiser: {e}"))),
+    }
+}
+
+/// Train one network from `start` under the evidence framework.
+///
+/// `x` (N × d) and `t` (N) are in scaled space. With `ard` every input has
+/// its own α.
+///
+/// # Errors
+/// A [`FitFailure`] when the network diverges, stalls or ends with a
+/// Hessian that is not positive definite: such a network must be discarded.
+pub fn fit_network<'a>(
+    arch: Architecture,
+    ard: bool,
+    x: ArrayView2<'a, f64>,
+    t: ArrayView1<'a, f64>,
+    start: StartState,
+    settings: &FitSettings,
+) -> Result<FittedNetwork, FitFailure> {
+    let groups = Groups::new(&arch, ard);
+    let n = x.nrows() as f64;
+    let mut diag = FitDiagnostics::default();
+    let mut w = start.weights;
+    let mut alpha = start.alpha;
+    let mut beta = start.beta;
+    let mut last: Option<(f64, f64, Vec<f64>)> = None; // (β, γ, α) of the previous cycle
+    let mut snapshot: Option<FittedNetwork> = None;
+
+    for cycle in 0..settings.max_cycles {
+        let alpha_pp = groups.per_param(&alpha);
+        let iters = if cycle == 0 {
+            settings.first_iters
+        } else {
+            settings.cycle_iters
+        };
+        let (w_new, evals) = minimise(
+            &arch,
+            x,
+            t,
+            beta,
+            &alpha_pp,
+            w,
+            iters,
+            settings.lbfgs_memory,
+        )?;
+        diag.gradient_evaluations += evals;
+        w = w_new;
+        if w.iter().any(|v| !v.is_finite()) {
+            return Err(FitFailure::Diverged(format!("non-finite weights in cycle {cycle}")));
+        }
+        let r = arch.predict(&w, x) - t;
+        let e_d = 0.5 * r.dot(&r);
+        if !e_d.is_finite() {
+            return Err(FitFailure::Diverged(format!("non-finite error in cycle {cycle}")));
+        }
+        let fact = hessian_of_m(
+            &arch,
+            &w,
+            x,
+            t,
+            beta,
+            &alpha_pp,
+            settings.hessian,
+            &mut diag,
+        )
+        .ok_or_else(|| {
+            FitFailure::NotPositiveDefinite(format!("no factorisation in cycle {cycle}"))
+        })?;
+        let sum_sq = groups.sum_squares(&w);
+        let traces = groups.diag_sums(fact.inv.diag().iter().copied());
+        let gamma: Vec<f64> = groups
+            .sizes()
+            .iter()
+            .zip(&alpha)
+            .zip(&traces)
+            .map(|((&k, &a), &tr)| (k as f64 - a * tr).clamp(0.0, k as f64))
+            .collect();
+        let gamma_total: f64 = gamma.iter().sum();
+        let e_w: f64 = alpha.iter().zip(&sum_sq).map(|(a, s)| 0.5 * a * s).sum();
+        let h = arch.n_hidden;
+        let log_evidence = -beta * e_d - e_w - 0.5 * fact.ln_det
+            + groups
+                .sizes()
+                .iter()
+                .zip(&alpha)
+                .map(|(&k, a)| 0.5 * k as f64 * a.ln())
+                .sum::<f64>()
+            + 0.5 * n * beta.ln()
+            - 0.5 * n * (2.0 * std::f64::consts::PI).ln()
+            + ln_factorial(h)
+            + h as f64 * std::f64::consts::LN_2;
+
+        diag.cycles = cycle + 1;
+        let converged = match &last {
+            Some((b0, g0, a0)) => {
+                rel_change(beta, *b0) < HYPER_REL_TOL
+                    && (gamma_total - g0).abs() < HYPER_REL_TOL * gamma_total.max(1.0)
+                    && alpha
+                        .iter()
+                        .zip(a0)
+                        .zip(&gamma)
+                        .all(|((a, a_old), g)| *g < GAMMA_ACTIVE || rel_change(*a, *a_old) < HYPER_REL_TOL)
+            }
+            None => false,
+        };
+        snapshot = Some(FittedNetwork {
+            arch,
+            group_kinds: groups.kinds().to_vec(),
+            weights: w.clone(),
+            alpha: alpha.clone(),
+            beta,
+            gamma: gamma.clone(),
+            log_evidence,
+            posterior_cov: fact.inv,
+            hessian: fact.kind,
+            diagnostics: FitDiagnostics::default(),
+        });
+        let final_fallback = fact.eigen_fallback;
+        if converged || cycle + 1 == settings.max_cycles {
+            diag.converged = converged;
+            if final_fallback {
+                return Err(FitFailure::NotPositiveDefinite(
+                    "the Hessian at the final weights needed the eigenvalue fallback".into(),
+                ));
+            }
+            break;
+        }
+        last = Some((beta, gamma_total, alpha.clone()));
+
+        // re-estimate
+        let mut new_alpha = Vec::with_capacity(alpha.len());
+        for (c, (&g, &s)) in gamma.iter().zip(&sum_sq).enumerate() {
+            let raw = if s > 0.0 { g / s } else { ALPHA_MAX };
+            let bounded = raw.clamp(ALPHA_MIN, ALPHA_MAX);
+            if bounded != raw {
+                let what = format!("alpha bound on group {:?}", groups.kinds()[c]);
+                if !diag.bounds_hit.contains(&what) {
+                    diag.bounds_hit.push(what);
+                }
+            }
+            new_alpha.push(bounded);
+        }
+        let dof = (n - gamma_total).max(MIN_RESIDUAL_DOF_FRACTION * n);
+        if dof > n - gamma_total {
+            let what = "residual degrees of freedom N - gamma bounded".to_string();
+            if !diag.bounds_hit.contains(&what) {
+                diag.bounds_hit.push(what);
+            }
+        }
+        let raw_beta = dof / (2.0 * e_d).max(f64::MIN_POSITIVE);
+        let new_beta = raw_beta.clamp(BETA_MIN, BETA_MAX);
+        if new_beta != raw_beta {
+            let what = "beta bound".to_string();
+            if !diag.bounds_hit.contains(&what) {
+                diag.bounds_hit.push(what);
+            }
+        }
+        if !new_beta.is_finite() || new_alpha.iter().any(|a| !a.is_finite()) {
+            return Err(FitFailure::Diverged("non-finite hyperparameters".into()));
+        }
+        alpha = new_alpha;
+        beta = new_beta;
+    }
+    let mut net = snapshot.ok_or_else(|| FitFailure::Stalled("no cycle was run".into()))?;
+    net.diagnostics = diag;
+    Ok(net)
+}
+
+impl FittedNetwork {
+    /// Predictive mean and variance in scaled units for every row of `x`:
+    /// `σ² = 1/β + gᵀA⁻¹g` with `g = ∂y/∂w` (MacKay 1992, eq. 29; Bishop
+    /// 1995, eq. 10.34).
+    pub fn predict(&self, x: ArrayView2<f64>) -> (Array1<f64>, Array1<f64>) {
+        predictive(&self.arch, &self.weights, &self.posterior_cov, self.beta, x)
+    }
+}
+
+/// Mean and variance `1/β + gᵀΣg` for a network with weights `w` and
+/// posterior covariance `cov` (scaled units).
+pub fn predictive(
+    arch: &Architecture,
+    w: &[f64],
+    cov: &Array2<f64>,
+    beta: f64,
+    x: ArrayView2<f64>,
+) -> (Array1<f64>, Array1<f64>) {
+    let (y, jac) = arch.jacobian(w, x);
+    let js = jac.dot(cov);
+    let var = (&js * &jac).sum_axis(ndarray::Axis(1)) + 1.0 / beta;
+    (y, var)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use rand::{Rng, SeedableRng};
+    use rand_distr::{Distribution, Normal};
+    use rand_xoshiro::Xoshiro256PlusPlus;
+
+    fn start(arch: &Architecture, ard: bool, seed: u64) -> StartState {
+        let mut rng = Xoshiro256PlusPlus::seed_from_u64(seed);
+        let g = Groups::new(arch, ard);
+        StartState {
+            weights: (0..arch.n_params())
+                .map(|_| rng.random_range(-0.5..0.5))
+                .collect(),
+            alpha: vec![0.1; g.len()],
+            beta: 50.0,
+        }
+    }
+
+    /// y = sin(3 x0) / 3 + 0 · x1 + noise: x1 has no effect.
+    fn synthetic(n: usize, noise_sd: f64, seed: u64) -> (Array2<f64>, Array1<f64>) {
+        let mut rng = Xoshiro256PlusPlus::seed_from_u64(seed);
+        let noise = Normal::new(0.0, noise_sd).expect("valid sd");
+        let x = Array2::from_shape_fn((n, 2), |_| rng.random_range(-0.5..0.5));
+        let t = Array1::from_shape_fn(n, |i| (3.0 * x[[i, 0]]).sin() / 3.0 + noise.sample(&mut rng));
+        (x, t)
+    }
+
+    #[test]
+    fn recovers_noise_and_flags_the_irrelevant_input() {
+        let (x, t) = synthetic(400, 0.05, 3);
+        let arch = Architecture::new(2, 3);
+        let net = fit_network(arch, true, x.view(), t.view(), start(&arch, true, 1), &FitSettings::default())
+            .expect("fit");
+        let noise_sd = 1.0 / net.beta.sqrt();
+        // truth 0.05; the evidence estimate should be within 10 %
+        assert!((noise_sd - 0.05).abs() < 0.005, "noise sd {noise_sd}");
+        assert!(net.alpha[1] > 10.0 * net.alpha[0], "alpha {:?}", net.alpha);
+        assert!(net.log_evidence.is_finite());
+    }
+
+    #[test]
+    fn linear_mode_fits_a_plane() {
+        let mut rng = Xoshiro256PlusPlus::seed_from_u64(9);
+        let noise = Normal::new(0.0, 0.02).expect("valid sd");
+        let x = Array2::from_shape_fn((200, 3), |_| rng.random_range(-0.5..0.5));
+        let t = Array1::from_shape_fn(200, |i| 0.4 * x[[i, 0]] - 0.2 * x[[i, 1]] + noise.sample(&mut rng));
+        let arch = Architecture::new(3, 0);
+        let net = fit_network(arch, true, x.view(), t.view(), start(&arch, true, 2), &FitSettings::default())
+            .expect("fit");
+        assert!((net.weights[0] - 0.4).abs() < 0.01);
+        assert!((net.weights[1] + 0.2).abs() < 0.01);
+        assert!(net.weights[2].abs() < 0.01);
+        assert!(net.diagnostics.converged);
+        let (_, var) = net.predict(x.view());
+        assert!(var.iter().all(|v| *v > 1.0 / net.beta));
+    }
+}

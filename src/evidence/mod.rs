@@ -1,0 +1,12 @@
+//! The evidence framework for one network: weight groups, the regularised
+//! objective, α/β re-estimation, the log evidence and the Laplace posterior.
+
+mod fit;
+mod groups;
+mod objective;
+
+pub use fit::{
+    fit_network, predictive, FitDiagnostics, FitFailure, FitSettings, FittedNetwork,
+    HessianChoice, HessianKind, StartState,
+};
+pub use groups::{GroupKind, Groups};

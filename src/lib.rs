@@ -1,0 +1,39 @@
+//! # mettle
+//!
+//! Estimates mechanical properties of steels and weld metals — tensile
+//! strength, yield, elongation, Charpy impact energy — from composition and
+//! processing, with honest error bars, by committees of small neural
+//! networks trained under the Bayesian evidence framework (MacKay 1992,
+//! Neural Computation 4:415 and 4:448; Bishop 1995, *Neural Networks for
+//! Pattern Recognition*, ch. 10).
+//!
+//! The modules follow the data's path: [`data`] (tables in, files out) →
+//! [`features`] (transforms and scaling) → [`net`] (the network) →
+//! [`evidence`] (one network's Bayesian training) → [`committee`] (the
+//! candidate search and the committee) → [`model`] (the trained model and
+//! its file) → [`predict`] (estimates and the domain verdict) →
+//! [`metrics`] (evaluation).
+//!
+//! Estimates are not test results: qualification testing per the
+//! applicable code decides, under local codes and licensed engineers.
+#![deny(unsafe_code)]
+#![warn(missing_docs)]
+#![deny(clippy::float_cmp)]
+
+pub mod committee;
+pub mod data;
+pub mod demo;
+pub mod derive;
+pub mod error;
+pub mod evidence;
+pub mod features;
+pub mod metrics;
+pub mod model;
+pub mod net;
+pub mod observer;
+pub mod prec;
+pub mod predict;
+pub mod units;
+
+pub use error::{Error, Result};
+pub use model::Model;

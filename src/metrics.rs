@@ -1,0 +1,96 @@
+//! Accuracy and honesty of estimates against measured values.
+//!
+//! # Formula
+//!
+//! For measured y_n, predictive mean μ_n and sd σ_n, n = 1..N:
+//!
+//! ```text
+//! RMSE = √(mean (y − μ)²)        MAE = mean |y − μ|
+//! R²   = 1 − Σ(y − μ)² / Σ(y − ȳ)²
+//! NLPD = mean [ ½ ln(2π σ²) + (y − μ)² / (2σ²) ]      (nats per point)
+//! coverage_68 = share with |y − μ| ≤ σ,  coverage_95 = share with |y − μ| ≤ 2σ
+//! ```
+//!
+//! NLPD is the negative of the "test log-likelihood" of the uncertainty
+//! benchmark literature (Hernández-Lobato & Adams 2015, ICML), in the
+//! target's own units.
+
+use serde::Serialize;
+
+/// Evaluation of estimates against measurements.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct Evaluation {
+    /// Rows evaluated.
+    pub n: usize,
+    /// Root-mean-square error.
+    pub rmse: f64,
+    /// Mean absolute error.
+    pub mae: f64,
+    /// Coefficient of determination.
+    pub r2: f64,
+    /// Mean Gaussian negative log predictive density (nats per point).
+    pub nlpd: f64,
+    /// Share of rows inside mean ± 1 sd.
+    pub coverage_68: f64,
+    /// Share of rows inside mean ± 2 sd.
+    pub coverage_95: f64,
+}
+
+/// Evaluate means and sds against measurements. Returns `None` for no rows.
+pub fn evaluate(measured: &[f64], mean: &[f64], sd: &[f64]) -> Option<Evaluation> {
+    let n = measured.len();
+    if n == 0 || mean.len() != n || sd.len() != n {
+        return None;
+    }
+    let nf = n as f64;
+    let ybar = measured.iter().sum::<f64>() / nf;
+    let mut sse = 0.0;
+    let mut sae = 0.0;
+    let mut sst = 0.0;
+    let mut nlpd = 0.0;
+    let mut c1 = 0usize;
+    let mut c2 = 0usize;
+    for ((y, m), s) in measured.iter().zip(mean).zip(sd) {
+        let r = y - m;
+        sse += r * r;
+        sae += r.abs();
+        sst += (y - ybar).powi(2);
+        let v = s * s;
+        nlpd += 0.5 * (2.0 * std::f64::consts::PI * v).ln() + r * r / (2.0 * v);
+        if r.abs() <= *s {
+            c1 += 1;
+        }
+        if r.abs() <= 2.0 * s {
+            c2 += 1;
+        }
+    }
+    Some(Evaluation {
+        n,
+        rmse: (sse / nf).sqrt(),
+        mae: sae / nf,
+        r2: if sst > 0.0 { 1.0 - sse / sst } else { f64::NAN },
+        nlpd: nlpd / nf,
+        coverage_68: c1 as f64 / nf,
+        coverage_95: c2 as f64 / nf,
+    })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use approx::assert_abs_diff_eq;
+
+    #[test]
+    fn metrics_by_hand() {
+        let e = evaluate(&[1.0, 2.0, 3.0], &[1.0, 2.5, 2.0], &[1.0, 1.0, 0.4]).expect("rows");
+        assert_eq!(e.n, 3);
+        assert_abs_diff_eq!(e.rmse, (1.25_f64 / 3.0).sqrt(), epsilon = 1e-15);
+        assert_abs_diff_eq!(e.mae, 0.5, epsilon = 1e-15);
+        assert_abs_diff_eq!(e.r2, 1.0 - 1.25 / 2.0, epsilon = 1e-15);
+        assert_abs_diff_eq!(e.coverage_68, 2.0 / 3.0, epsilon = 1e-15);
+        assert_abs_diff_eq!(e.coverage_95, 2.0 / 3.0, epsilon = 1e-15);
+        // standard normal density at 0: ln φ(0) = −½ ln 2π (any statistics handbook)
+        let z = evaluate(&[0.0], &[0.0], &[1.0]).expect("row");
+        assert_abs_diff_eq!(z.nlpd, 0.5 * (2.0 * std::f64::consts::PI).ln(), epsilon = 1e-15);
+    }
+}

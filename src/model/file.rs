@@ -1,0 +1,135 @@
+//! The model file: JSON in a versioned format of mettle's own, written
+//! atomically and refused with a clear message when corrupt, truncated or
+//! from a newer mettle.
+
+use std::path::Path;
+
+use super::Model;
+use crate::data::write_atomic;
+use crate::error::{Error, Result};
+
+/// Value of the `format` key of every model file.
+pub const MODEL_FORMAT: &str = "mettle-model";
+
+/// The newest model format version this build writes and reads.
+pub const MODEL_FORMAT_VERSION: u64 = 1;
+
+impl Model {
+    /// The model as JSON bytes (compact, with a final newline). Identical
+    /// models give identical bytes.
+    ///
+    /// # Errors
+    /// [`Error::ModelFormat`] if a value cannot be represented (never for
+    /// a model built by mettle).
+    pub fn to_json(&self) -> Result<Vec<u8>> {
+        let mut bytes = serde_json::to_vec(self).map_err(|e| Error::ModelFormat {
+            path: "<memory>".into(),
+            reason: e.to_string(),
+        })?;
+        bytes.push(b'\n');
+        Ok(bytes)
+    }
+
+    /// Write the model to `path` atomically: a temporary file in the same
+    /// directory, flushed and synced, then renamed over `path`. A failure
+    /// leaves any earlier file at `path` untouched.
+    ///
+    /// # Errors
+    /// [`Error::Write`] when the directory is not writable or the disk is full.
+    pub fn save(&self, path: &Path) -> Result<()> {
+        let bytes = self.to_json()?;
+        write_atomic(path, &bytes)
+    }
+
+    /// Read a model file.
+    ///
+    /// # Errors
+    /// [`Error::Io`] when unreadable; [`Error::ModelFormat`] when it is not
+    /// JSON, truncated, not a mettle model or fails its internal checks;
+    /// [`Error::ModelVersion`] when written by a newer mettle.
+    pub fn load(path: &Path) -> Result<Model> {
+        let bytes = std::fs::read(path).map_err(|source| Error::Io {
+            path: path.display().to_string(),
+            source,
+        })?;
+        Self::from_json(&bytes, &path.display().to_string())
+    }
+
+    /// Parse model JSON; `name` is used in messages.
+    ///
+    /// # Errors
+    /// As [`Model::load`].
+    pub fn from_json(bytes: &[u8], name: &str) -> Result<Model> {
+        let bad = |reason: String| Error::ModelFormat {
+            path: name.to_string(),
+            reason,
+        };
+        let value: serde_json::Value = serde_json::from_slice(bytes).map_err(|e| {
+            if e.is_eof() {
+                bad(format!("the file ends early (truncated?): {e}"))
+            } else {
+                bad(format!("not valid JSON: {e}"))
+            }
+        })?;
+        match value.get("format").and_then(|f| f.as_str()) {
+            Some(MODEL_FORMAT) => {}
+            Some(other) => return Err(bad(format!("format is '{other}', expected '{MODEL_FORMAT}'"))),
+            None => return Err(bad("no 'format' key: this is not a mettle model file".into())),
+        }
+        let version = value
+            .get("format_version")
+            .and_then(|v| v.as_u64())
+            .ok_or_else(|| bad("no 'format_version' key".into()))?;
+        if version > MODEL_FORMAT_VERSION {
+            return Err(Error::ModelVersion {
+                path: name.to_string(),
+                found: version,
+                supported: MODEL_FORMAT_VERSION,
+            });
+        }
+        let model: Model = serde_json::from_value(value).map_err(|e| bad(e.to_string()))?;
+        model.validate().map_err(bad)?;
+        Ok(model)
+    }
+
+    /// Internal consistency: every array has the length its architecture
+    /// demands and every number is finite.
+    fn validate(&self) -> std::result::Result<(), String> {
+        let d = self.inputs.len();
+        if d == 0 {
+            return Err("the model has no inputs".into());
+        }
+        if self.targets.is_empty() {
+            return Err("the model has no targets".into());
+        }
+        for inp in &self.inputs {
+            if !(inp.scaling.hi > inp.scaling.lo) || !inp.min.is_finite() || !inp.max.is_finite() {
+                return Err(format!("input '{}' has an invalid scaling", inp.name));
+            }
+        }
+        for t in &self.targets {
+            if !(t.scaling.hi > t.scaling.lo) {
+                return Err(format!("target '{}' has an invalid scaling", t.name));
+            }
+            if t.committee.members.is_empty() {
+                return Err(format!("target '{}' has no committee members", t.name));
+            }
+            if t.committee.n_inputs != d {
+                return Err(format!("target '{}' committee takes {} inputs, the model lists {d}", t.name, t.committee.n_inputs));
+            }
+            for (i, m) in t.committee.members.iter().enumerate() {
+                let k = m.arch(d).n_params();
+                if m.weights.len() != k {
+                    return Err(format!("target '{}' member {}: {} weights, expected {k}", t.name, i + 1, m.weights.len()));
+                }
+                if m.posterior_cov.nrows() != k {
+                    return Err(format!("target '{}' member {}: covariance of size {}, expected {k}", t.name, i + 1, m.posterior_cov.nrows()));
+                }
+                if !(m.beta > 0.0) || m.weights.iter().chain(m.posterior_cov.iter()).any(|v| !v.is_finite()) {
+                    return Err(format!("target '{}' member {}: non-finite or invalid numbers", t.name, i + 1));
+                }
+            }
+        }
+        Ok(())
+    }
+}

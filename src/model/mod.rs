@@ -1,0 +1,105 @@
+//! A trained model: the inputs and targets it knows, their scalings and
+//! training ranges, one committee per target, and the record of how it was
+//! trained.
+
+mod file;
+mod train;
+
+pub use file::{MODEL_FORMAT, MODEL_FORMAT_VERSION};
+pub use train::TrainSpec;
+
+use serde::{Deserialize, Serialize};
+
+use crate::committee::{Committee, CommitteeParams};
+use crate::features::ColumnScaling;
+
+/// An input column as the model knows it.
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+pub struct InputColumn {
+    /// Column name.
+    pub name: String,
+    /// Smallest training value (raw units).
+    pub min: f64,
+    /// Largest training value (raw units).
+    pub max: f64,
+    /// Scaling to the network's space.
+    pub scaling: ColumnScaling,
+}
+
+/// A column offered as an input but set aside, with the reason.
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+pub struct SetAside {
+    /// Column name.
+    pub name: String,
+    /// Why it is not used.
+    pub reason: String,
+}
+
+/// One target and its committee.
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+pub struct TargetModel {
+    /// Column name.
+    pub name: String,
+    /// Smallest training value.
+    pub min: f64,
+    /// Largest training value.
+    pub max: f64,
+    /// Scaling to the network's space.
+    pub scaling: ColumnScaling,
+    /// Rows used for this target.
+    pub n_rows: usize,
+    /// Rows left out because this target was missing.
+    pub n_missing: usize,
+    /// The committee.
+    pub committee: Committee,
+}
+
+/// How the model was trained.
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+pub struct TrainingRecord {
+    /// File name (no directory) of the training table.
+    pub data_file: String,
+    /// Rows in the training table.
+    pub n_rows: usize,
+    /// SHA-256 of the training rows: column names, then every value used
+    /// (inputs, then targets) row by row as IEEE-754 little-endian bytes.
+    pub data_sha256: String,
+    /// Committee settings, including the seed.
+    pub settings: CommitteeParams,
+    /// Forward/backward passes made by all networks together.
+    pub gradient_evaluations: u64,
+    /// Wall-clock training time in seconds, recorded only when asked for
+    /// (it would make otherwise identical model files differ).
+    pub wall_seconds: Option<f64>,
+}
+
+/// A trained model.
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+pub struct Model {
+    /// Always [`MODEL_FORMAT`].
+    pub format: String,
+    /// Format version of the file.
+    pub format_version: u64,
+    /// Version of mettle that wrote it.
+    pub tool_version: String,
+    /// Inputs in use, in network order.
+    pub inputs: Vec<InputColumn>,
+    /// Columns offered as inputs but set aside.
+    pub set_aside: Vec<SetAside>,
+    /// Targets, each with its committee.
+    pub targets: Vec<TargetModel>,
+    /// Training record.
+    pub training: TrainingRecord,
+}
+
+impl Model {
+    /// Names of the inputs in network order.
+    pub fn input_names(&self) -> Vec<&str> {
+        self.inputs.iter().map(|i| i.name.as_str()).collect()
+    }
+
+    /// The target called `name`.
+    pub fn target(&self, name: &str) -> Option<&TargetModel> {
+        self.targets.iter().find(|t| t.name == name)
+    }
+}

@@ -1,0 +1,183 @@
+//! Training a model from a table.
+
+use ndarray::{Array1, Array2};
+
+use super::{InputColumn, Model, SetAside, TargetModel, TrainingRecord, MODEL_FORMAT, MODEL_FORMAT_VERSION};
+use crate::committee::{train_committee, CommitteeParams};
+use crate::data::{fingerprint, Table};
+use crate::error::{Error, Result};
+use crate::features::{ColumnScaling, Transform};
+use crate::observer::TrainObserver;
+
+/// What to train: targets, inputs and committee settings.
+#[derive(Clone, Debug, PartialEq)]
+pub struct TrainSpec {
+    /// Target columns; one committee each.
+    pub targets: Vec<String>,
+    /// Input columns; `None` means every other numeric column.
+    pub inputs: Option<Vec<String>>,
+    /// Model strictly positive, strongly skewed inputs through their logarithm.
+    pub auto_log_inputs: bool,
+    /// Committee settings.
+    pub params: CommitteeParams,
+}
+
+impl TrainSpec {
+    /// Train `targets` on every other numeric column with default settings.
+    pub fn new(targets: &[&str]) -> Self {
+        TrainSpec {
+            targets: targets.iter().map(|s| s.to_string()).collect(),
+            inputs: None,
+            auto_log_inputs: true,
+            params: CommitteeParams::default(),
+        }
+    }
+}
+
+impl Model {
+    /// Train a model on `table`.
+    ///
+    /// Rows whose target is missing are left out for that target (and
+    /// counted); a missing input is an error naming its row. Constant input
+    /// columns are set aside and recorded.
+    ///
+    /// # Errors
+    /// Bad settings, missing or non-numeric columns, too few rows, a
+    /// constant target, or every candidate failing.
+    pub fn train(table: &Table, spec: &TrainSpec, observer: &dyn TrainObserver) -> Result<Model> {
+        let params = spec.params.clone().check()?;
+        let path = table.source().display().to_string();
+        if spec.targets.is_empty() {
+            return Err(Error::InvalidParameter {
+                name: "target",
+                value: String::new(),
+                expected: "at least one target column".into(),
+            });
+        }
+        let mut target_values = Vec::new();
+        for name in &spec.targets {
+            target_values.push(table.numeric_optional(name)?);
+        }
+        let offered: Vec<String> = match &spec.inputs {
+            Some(list) => {
+                for name in list {
+                    if spec.targets.contains(name) {
+                        return Err(Error::InvalidParameter {
+                            name: "inputs",
+                            value: name.clone(),
+                            expected: "input columns other than the target".into(),
+                        });
+                    }
+                }
+                list.clone()
+            }
+            None => table
+                .names()
+                .iter()
+                .filter(|n| !spec.targets.contains(n) && table.is_numeric(n))
+                .cloned()
+                .collect(),
+        };
+        let mut inputs = Vec::new();
+        let mut set_aside = Vec::new();
+        let mut input_values = Vec::new();
+        for name in &offered {
+            let values = table.numeric(name)?;
+            match ColumnScaling::fit(&values, spec.auto_log_inputs) {
+                Some(scaling) => {
+                    let (min, max) = min_max(&values);
+                    inputs.push(InputColumn {
+                        name: name.clone(),
+                        min,
+                        max,
+                        scaling,
+                    });
+                    input_values.push(values);
+                }
+                None => set_aside.push(SetAside {
+                    name: name.clone(),
+                    reason: format!("constant: every row is {}", values.first().copied().unwrap_or(f64::NAN)),
+                }),
+            }
+        }
+        if inputs.is_empty() {
+            let detail = if set_aside.is_empty() {
+                "no numeric input columns".to_string()
+            } else {
+                set_aside.iter().map(|s| format!("{} ({})", s.name, s.reason)).collect::<Vec<_>>().join(", ")
+            };
+            return Err(Error::NoInputs { path, detail });
+        }
+        let n = table.n_rows();
+        let d = inputs.len();
+        let mut x = Array2::zeros((n, d));
+        for (j, (col, values)) in inputs.iter().zip(&input_values).enumerate() {
+            for (i, v) in values.iter().enumerate() {
+                // training values are inside the fitted range, and a log
+                // transform is only chosen for strictly positive columns
+                x[[i, j]] = col.scaling.scale(*v).unwrap_or(f64::NAN);
+            }
+        }
+
+        let mut targets = Vec::new();
+        let mut evals = 0;
+        for (name, values) in spec.targets.iter().zip(&target_values) {
+            let rows: Vec<usize> = (0..n).filter(|&i| values[i].is_some()).collect();
+            let present: Vec<f64> = rows.iter().map(|&i| values[i].unwrap_or(f64::NAN)).collect();
+            let scaling = ColumnScaling::fit(&present, false).ok_or_else(|| Error::ConstantTarget {
+                path: path.clone(),
+                name: name.clone(),
+                value: present.first().copied().unwrap_or(f64::NAN),
+            })?;
+            debug_assert_eq!(scaling.transform, Transform::Identity);
+            let t: Array1<f64> = present.iter().map(|v| scaling.scale(*v).unwrap_or(f64::NAN)).collect();
+            let x_t = x.select(ndarray::Axis(0), &rows);
+            let committee = train_committee(&params, x_t.view(), t.view(), scaling.width(), name, &path, observer)?;
+            evals += committee.members.iter().map(|m| m.diagnostics.gradient_evaluations).sum::<u64>();
+            let (min, max) = min_max(&present);
+            targets.push(TargetModel {
+                name: name.clone(),
+                min,
+                max,
+                scaling,
+                n_rows: rows.len(),
+                n_missing: n - rows.len(),
+                committee,
+            });
+        }
+
+        let mut names: Vec<&str> = inputs.iter().map(|c| c.name.as_str()).collect();
+        names.extend(spec.targets.iter().map(String::as_str));
+        let input_opt: Vec<Vec<Option<f64>>> = input_values.iter().map(|v| v.iter().map(|x| Some(*x)).collect()).collect();
+        let mut cols: Vec<&[Option<f64>]> = input_opt.iter().map(|v| v.as_slice()).collect();
+        cols.extend(target_values.iter().map(|v| v.as_slice()));
+        let data_file = table
+            .source()
+            .file_name()
+            .map(|f| f.to_string_lossy().into_owned())
+            .unwrap_or_default();
+        let data_sha256 = fingerprint(&names, &cols);
+        Ok(Model {
+            format: MODEL_FORMAT.to_string(),
+            format_version: MODEL_FORMAT_VERSION,
+            tool_version: env!("CARGO_PKG_VERSION").to_string(),
+            inputs,
+            set_aside,
+            targets,
+            training: TrainingRecord {
+                data_file,
+                n_rows: n,
+                data_sha256,
+                settings: CommitteeParams::clone(&params),
+                gradient_evaluations: evals,
+                wall_seconds: None,
+            },
+        })
+    }
+}
+
+fn min_max(values: &[f64]) -> (f64, f64) {
+    values
+        .iter()
+        .fold((f64::INFINITY, f64::NEG_INFINITY), |(lo, hi), v| (lo.min(*v), hi.max(*v)))
+}

@@ -1,0 +1,363 @@
+//! Forward pass, data-error gradient, Jacobian and Hessian of a
+//! single-hidden-layer tanh network.
+//!
+//! # Formula
+//!
+//! With inputs x ∈ ℝᵈ, `H` hidden units and parameters w = (W, b, v, c):
+//!
+//! ```text
+//! y(x; w) = Σ_j v_j · tanh(Σ_i W_ji x_i + b_j) + c          (H ≥ 1)
+//! y(x; w) = Σ_i a_i x_i + c                                  (H = 0, linear)
+//! E_D(w)  = ½ Σ_n (y(x_n; w) − t_n)²
+//! ```
+//!
+//! The Gauss–Newton approximation of the Hessian of `E_D` is `JᵀJ` with
+//! `J_nk = ∂y_n/∂w_k`; the exact Hessian adds `Σ_n r_n ∇²y_n` with residual
+//! `r_n = y_n − t_n` (Bishop 1995, *Neural Networks for Pattern Recognition*,
+//! §4.8 and §4.10).
+//!
+//! # Parameter layout
+//!
+//! A flat vector, in this order: `W` row by row (hidden unit j, then input
+//! i: index `j·d + i`), hidden biases `b` (H), output weights `v` (H),
+//! output bias `c`. In linear mode: `a` (d), then `c`.
+
+use ndarray::{s, Array1, Array2, ArrayView1, ArrayView2, Axis};
+use serde::{Deserialize, Serialize};
+
+/// The shape of a network: how many inputs and hidden units.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize, Deserialize)]
+pub struct Architecture {
+    /// Number of inputs d.
+    pub n_inputs: usize,
+    /// Number of tanh hidden units H; 0 means a linear model.
+    pub n_hidden: usize,
+}
+
+/// Where each kind of parameter sits in the flat parameter vector.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub struct ParamLayout {
+    /// Start of the input-to-hidden weights (or the linear coefficients).
+    pub input_weights: usize,
+    /// Start of the hidden biases (equal to `output_weights` when linear).
+    pub hidden_bias: usize,
+    /// Start of the hidden-to-output weights.
+    pub output_weights: usize,
+    /// Index of the output bias.
+    pub output_bias: usize,
+}
+
+impl Architecture {
+    /// A network with `n_inputs` inputs and `n_hidden` tanh units.
+    pub fn new(n_inputs: usize, n_hidden: usize) -> Self {
+        Architecture { n_inputs, n_hidden }
+    }
+
+    /// True when the model is linear (no hidden layer).
+    pub fn is_linear(&self) -> bool {
+        self.n_hidden == 0
+    }
+
+    /// Number of parameters k: `H·d + 2H + 1`, or `d + 1` when linear.
+    pub fn n_params(&self) -> usize {
+        let (d, h) = (self.n_inputs, self.n_hidden);
+        if h == 0 {
+            d + 1
+        } else {
+            h * d + 2 * h + 1
+        }
+    }
+
+    /// Offsets of each parameter block in the flat vector.
+    pub fn layout(&self) -> ParamLayout {
+        let (d, h) = (self.n_inputs, self.n_hidden);
+        if h == 0 {
+            ParamLayout {
+                input_weights: 0,
+                hidden_bias: d,
+                output_weights: d,
+                output_bias: d,
+            }
+        } else {
+            ParamLayout {
+                input_weights: 0,
+                hidden_bias: h * d,
+                output_weights: h * d + h,
+                output_bias: h * d + 2 * h,
+            }
+        }
+    }
+
+    /// The input whose weight parameter `k` is, if it is an input weight.
+    pub fn input_of_param(&self, k: usize) -> Option<usize> {
+        let lay = self.layout();
+        if k < lay.hidden_bias.max(if self.is_linear() { self.n_inputs } else { 0 }) {
+            Some(k % self.n_inputs)
+        } else {
+            None
+        }
+    }
+
+    fn split<'a>(&self, w: &'a [f64]) -> Parts<'a> {
+        let (d, h) = (self.n_inputs, self.n_hidden);
+        let lay = self.layout();
+        let input_w = ArrayView2::from_shape((h.max(1), d), &w[..lay.hidden_bias.max(d)])
+            .expect("layout matches n_params by construction");
+        Parts {
+            input_w,
+            hidden_b: ArrayView1::from(&w[lay.hidden_bias..lay.output_weights]),
+            output_w: ArrayView1::from(&w[lay.output_weights..lay.output_bias]),
+            output_b: w[lay.output_bias],
+        }
+    }
+
+    /// Network outputs for every row of `x` (N × d).
+    ///
+    /// # Panics
+    /// If `w.len() != self.n_params()` or `x` has the wrong number of columns.
+    pub fn predict(&self, w: &[f64], x: ArrayView2<f64>) -> Array1<f64> {
+        self.forward(w, x).0
+    }
+
+    /// Outputs and hidden activations (the activations are empty when linear).
+    fn forward(&self, w: &[f64], x: ArrayView2<f64>) -> (Array1<f64>, Array2<f64>) {
+        assert_eq!(w.len(), self.n_params(), "parameter vector length");
+        assert_eq!(x.ncols(), self.n_inputs, "input columns");
+        let p = self.split(w);
+        if self.is_linear() {
+            let y = x.dot(&p.input_w.row(0)) + p.output_b;
+            return (y, Array2::zeros((0, 0)));
+        }
+        let mut act = x.dot(&p.input_w.t());
+        act += &p.hidden_b;
+        act.mapv_inplace(f64::tanh);
+        let y = act.dot(&p.output_w) + p.output_b;
+        (y, act)
+    }
+
+    /// Data error `E_D = ½ Σ (y − t)²` and its gradient with respect to w,
+    /// by back-propagation.
+    pub fn data_error_gradient(
+        &self,
+        w: &[f64],
+        x: ArrayView2<f64>,
+        t: ArrayView1<f64>,
+    ) -> (f64, Array1<f64>) {
+        let (y, act) = self.forward(w, x);
+        let r = &y - &t;
+        let e_d = 0.5 * r.dot(&r);
+        let lay = self.layout();
+        let mut g = Array1::zeros(self.n_params());
+        if self.is_linear() {
+            g.slice_mut(s![..self.n_inputs]).assign(&x.t().dot(&r));
+            g[lay.output_bias] = r.sum();
+            return (e_d, g);
+        }
+        let p = self.split(w);
+        let h = self.n_hidden;
+        // δ_nj = r_n v_j (1 − a_nj²)
+        let mut delta = act.mapv(|a| 1.0 - a * a);
+        delta *= &p.output_w;
+        delta *= &r.view().insert_axis(Axis(1));
+        let g_w = delta.t().dot(&x);
+        g.slice_mut(s![..lay.hidden_bias])
+            .assign(&Array1::from_iter(g_w.iter().copied()));
+        g.slice_mut(s![lay.hidden_bias..lay.output_weights])
+            .assign(&delta.sum_axis(Axis(0)));
+        g.slice_mut(s![lay.output_weights..lay.output_weights + h])
+            .assign(&act.t().dot(&r));
+        g[lay.output_bias] = r.sum();
+        (e_d, g)
+    }
+
+    /// Outputs and the Jacobian `J_nk = ∂y_n/∂w_k` (N × k).
+    pub fn jacobian(&self, w: &[f64], x: ArrayView2<f64>) -> (Array1<f64>, Array2<f64>) {
+        let (y, act) = self.forward(w, x);
+        let n = x.nrows();
+        let (d, h) = (self.n_inputs, self.n_hidden);
+        let lay = self.layout();
+        let mut jac = Array2::zeros((n, self.n_params()));
+        if self.is_linear() {
+            jac.slice_mut(s![.., ..d]).assign(&x);
+            jac.column_mut(lay.output_bias).fill(1.0);
+            return (y, jac);
+        }
+        let p = self.split(w);
+        // D_nj = v_j (1 − a_nj²) = ∂y_n/∂b_j
+        let mut dy_db = act.mapv(|a| 1.0 - a * a);
+        dy_db *= &p.output_w;
+        for j in 0..h {
+            let col = dy_db.column(j);
+            for i in 0..d {
+                let mut dst = jac.column_mut(j * d + i);
+                dst.assign(&(&col * &x.column(i)));
+            }
+        }
+        jac.slice_mut(s![.., lay.hidden_bias..lay.output_weights])
+            .assign(&dy_db);
+        jac.slice_mut(s![.., lay.output_weights..lay.output_bias])
+            .assign(&act);
+        jac.column_mut(lay.output_bias).fill(1.0);
+        (y, jac)
+    }
+
+    /// Exact Hessian of `E_D`: `JᵀJ + Σ_n r_n ∇²y_n` (Bishop 1995, §4.10).
+    pub fn data_hessian_exact(
+        &self,
+        w: &[f64],
+        x: ArrayView2<f64>,
+        t: ArrayView1<f64>,
+    ) -> Array2<f64> {
+        let (y, jac) = self.jacobian(w, x);
+        let mut hess = jac.t().dot(&jac);
+        if self.is_linear() {
+            return hess;
+        }
+        let r = &y - &t;
+        let (_, act) = self.forward(w, x);
+        let p = self.split(w);
+        let (n, d) = (x.nrows(), self.n_inputs);
+        let lay = self.layout();
+        // x̃ = [x, 1]: the inputs feeding hidden unit j, with its bias.
+        let mut xt = Array2::ones((n, d + 1));
+        xt.slice_mut(s![.., ..d]).assign(&x);
+        for j in 0..self.n_hidden {
+            let a = act.column(j);
+            let fp = a.mapv(|a| 1.0 - a * a); // tanh'
+            let fpp = a.mapv(|a| -2.0 * a * (1.0 - a * a)); // tanh''
+            // second derivatives within unit j's incoming weights and bias
+            let c = &r * &fpp * p.output_w[j];
+            let weighted = &xt * &c.view().insert_axis(Axis(1));
+            let block = xt.t().dot(&weighted);
+            // cross terms of the incoming weights/bias with v_j
+            let cross = xt.t().dot(&(&r * &fp));
+            let idx: Vec<usize> = (0..d)
+                .map(|i| j * d + i)
+                .chain(std::iter::once(lay.hidden_bias + j))
+                .collect();
+            let vj = lay.output_weights + j;
+            for (a_i, &ka) in idx.iter().enumerate() {
+                for (b_i, &kb) in idx.iter().enumerate() {
+                    hess[[ka, kb]] += block[[a_i, b_i]];
+                }
+                hess[[ka, vj]] += cross[a_i];
+                hess[[vj, ka]] += cross[a_i];
+            }
+        }
+        hess
+    }
+}
+
+struct Parts<'a> {
+    input_w: ArrayView2<'a, f64>,
+    hidden_b: ArrayView1<'a, f64>,
+    output_w: ArrayView1<'a, f64>,
+    output_b: f64,
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::prec::FD_STEP;
+    use approx::assert_abs_diff_eq;
+    use rand::{Rng, SeedableRng};
+    use rand_xoshiro::Xoshiro256PlusPlus;
+
+    fn random_problem(
+        d: usize,
+        h: usize,
+        n: usize,
+        seed: u64,
+    ) -> (Architecture, Vec<f64>, Array2<f64>, Array1<f64>) {
+        let mut rng = Xoshiro256PlusPlus::seed_from_u64(seed);
+        let arch = Architecture::new(d, h);
+        let w: Vec<f64> = (0..arch.n_params())
+            .map(|_| rng.random_range(-1.5..1.5))
+            .collect();
+        let x = Array2::from_shape_fn((n, d), |_| rng.random_range(-0.5..0.5));
+        let t = Array1::from_shape_fn(n, |_| rng.random_range(-0.5..0.5));
+        (arch, w, x, t)
+    }
+
+    fn data_error(arch: &Architecture, w: &[f64], x: ArrayView2<f64>, t: ArrayView1<f64>) -> f64 {
+        let r = arch.predict(w, x) - t;
+        0.5 * r.dot(&r)
+    }
+
+    #[test]
+    fn gradient_matches_central_differences() {
+        for (d, h, seed) in [(3, 4, 1), (5, 1, 2), (2, 7, 3), (4, 0, 4)] {
+            let (arch, w, x, t) = random_problem(d, h, 25, seed);
+            let (_, g) = arch.data_error_gradient(&w, x.view(), t.view());
+            for k in 0..w.len() {
+                let mut wp = w.clone();
+                let mut wm = w.clone();
+                wp[k] += FD_STEP;
+                wm[k] -= FD_STEP;
+                let fd = (data_error(&arch, &wp, x.view(), t.view())
+                    - data_error(&arch, &wm, x.view(), t.view()))
+                    / (2.0 * FD_STEP);
+                assert_abs_diff_eq!(g[k], fd, epsilon = 1e-6 * (1.0 + fd.abs()));
+            }
+        }
+    }
+
+    #[test]
+    fn jacobian_matches_central_differences() {
+        let (arch, w, x, _) = random_problem(3, 3, 10, 7);
+        let (_, jac) = arch.jacobian(&w, x.view());
+        for k in 0..w.len() {
+            let mut wp = w.clone();
+            let mut wm = w.clone();
+            wp[k] += FD_STEP;
+            wm[k] -= FD_STEP;
+            let fd = (arch.predict(&wp, x.view()) - arch.predict(&wm, x.view())) / (2.0 * FD_STEP);
+            for n in 0..x.nrows() {
+                assert_abs_diff_eq!(jac[[n, k]], fd[n], epsilon = 1e-7);
+            }
+        }
+    }
+
+    #[test]
+    fn exact_hessian_matches_differences_of_gradient() {
+        for (d, h, seed) in [(3, 4, 11), (2, 2, 12), (3, 0, 13)] {
+            let (arch, w, x, t) = random_problem(d, h, 30, seed);
+            let hess = arch.data_hessian_exact(&w, x.view(), t.view());
+            for k in 0..w.len() {
+                let mut wp = w.clone();
+                let mut wm = w.clone();
+                wp[k] += FD_STEP;
+                wm[k] -= FD_STEP;
+                let gp = arch.data_error_gradient(&wp, x.view(), t.view()).1;
+                let gm = arch.data_error_gradient(&wm, x.view(), t.view()).1;
+                let fd = (gp - gm) / (2.0 * FD_STEP);
+                for l in 0..w.len() {
+                    assert_abs_diff_eq!(hess[[l, k]], fd[l], epsilon = 1e-5 * (1.0 + fd[l].abs()));
+                }
+            }
+            // symmetric by construction
+            assert_abs_diff_eq!(hess.clone(), hess.t().to_owned(), epsilon = 1e-12);
+        }
+    }
+
+    #[test]
+    fn linear_mode_is_an_affine_map() {
+        let arch = Architecture::new(2, 0);
+        let w = [2.0, -3.0, 0.5];
+        let x = ndarray::array![[1.0, 1.0], [0.0, 0.5]];
+        let y = arch.predict(&w, x.view());
+        assert_abs_diff_eq!(y[0], -0.5, epsilon = 1e-15);
+        assert_abs_diff_eq!(y[1], -1.0, epsilon = 1e-15);
+    }
+
+    #[test]
+    fn input_of_param_follows_layout() {
+        let arch = Architecture::new(3, 2);
+        assert_eq!(arch.input_of_param(0), Some(0));
+        assert_eq!(arch.input_of_param(4), Some(1));
+        assert_eq!(arch.input_of_param(6), None); // first hidden bias
+        let lin = Architecture::new(3, 0);
+        assert_eq!(lin.input_of_param(2), Some(2));
+        assert_eq!(lin.input_of_param(3), None);
+    }
+}

@@ -1,0 +1,67 @@
+//! Progress reporting. The library never prints: long operations report
+//! events to an observer that the caller supplies (the CLI draws a progress
+//! bar; tests and library users may pass [`Silent`]).
+
+/// Something that happened during training.
+#[derive(Clone, Debug, PartialEq)]
+#[non_exhaustive]
+pub enum TrainEvent<'a> {
+    /// A target's candidate search starts.
+    SearchStarted {
+        /// Target being trained.
+        target: &'a str,
+        /// Candidate networks planned so far.
+        n_candidates: usize,
+    },
+    /// The hidden-unit range was widened because the best candidates sat at
+    /// its top.
+    RangeWidened {
+        /// Target being trained.
+        target: &'a str,
+        /// New largest number of hidden units.
+        max_hidden: usize,
+        /// Candidate networks planned in all.
+        n_candidates: usize,
+    },
+    /// One candidate network finished (or failed).
+    CandidateDone {
+        /// Target being trained.
+        target: &'a str,
+        /// Candidates finished so far.
+        done: usize,
+        /// Candidates planned.
+        total: usize,
+        /// Best held-out NLPD so far (target units), if any candidate succeeded.
+        best_nlpd: Option<f64>,
+    },
+    /// The chosen members are being refitted on all the data.
+    Refitting {
+        /// Target being trained.
+        target: &'a str,
+        /// Members to refit.
+        n_members: usize,
+    },
+    /// A target's committee is complete.
+    TargetDone {
+        /// Target trained.
+        target: &'a str,
+        /// Committee size.
+        n_members: usize,
+        /// Held-out NLPD of the chosen committee.
+        heldout_nlpd: f64,
+    },
+}
+
+/// Receives training events. Must be `Sync`: candidates train in parallel.
+pub trait TrainObserver: Sync {
+    /// Called for every event.
+    fn observe(&self, event: &TrainEvent<'_>);
+}
+
+/// An observer that ignores everything.
+#[derive(Clone, Copy, Debug, Default)]
+pub struct Silent;
+
+impl TrainObserver for Silent {
+    fn observe(&self, _event: &TrainEvent<'_>) {}
+}

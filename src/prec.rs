@@ -1,0 +1,57 @@
+//! Numerical tolerances and bounds, kept in one place.
+//!
+//! Every tolerance the engine uses and every bound it puts on a
+//! hyperparameter is named here, with the reason for its value, so that a
+//! change is made once and reviewed once (the convention of `statrs`'s
+//! `prec` module).
+
+/// Smallest weight-decay hyperparameter α a group may take. Below this a
+/// group is effectively unregularised and its Occam factor is meaningless.
+pub const ALPHA_MIN: f64 = 1e-8;
+
+/// Largest α a group may take. A group driven here carries no weight (its
+/// input is judged irrelevant); capping keeps the Hessian well scaled.
+pub const ALPHA_MAX: f64 = 1e8;
+
+/// Smallest noise precision β (scaled target units). β below this means a
+/// noise sd above 10 target ranges: the fit has failed.
+pub const BETA_MIN: f64 = 1e-2;
+
+/// Largest noise precision β (scaled target units): a noise sd of 1e-5 of
+/// the target range, far below any laboratory's repeatability.
+pub const BETA_MAX: f64 = 1e10;
+
+/// Smallest number of data degrees of freedom N − γ allowed in the β update,
+/// as a fraction of N. Stops β from running away when γ approaches N.
+pub const MIN_RESIDUAL_DOF_FRACTION: f64 = 0.05;
+
+/// A group whose well-determined parameter count γ_c is below this is not
+/// used to judge convergence of α: its α may wander without consequence.
+pub const GAMMA_ACTIVE: f64 = 0.05;
+
+/// Relative change in β, in total γ and in α of active groups below which
+/// the re-estimation cycles are considered settled.
+pub const HYPER_REL_TOL: f64 = 0.01;
+
+/// Gradient-norm tolerance of the inner minimisation, on the per-row
+/// objective M(w)/N in scaled units.
+pub const GRAD_TOL: f64 = 1e-7;
+
+/// Relative cost change tolerance of the inner minimisation.
+pub const COST_TOL: f64 = 1e-12;
+
+/// Relative jitter added to the diagonal before the eigenvalue fallback
+/// clamps a Hessian that Cholesky refused.
+pub const EIGEN_FLOOR_REL: f64 = 1e-10;
+
+/// Smallest predictive variance (scaled units) ever reported, so that a
+/// degenerate member cannot produce an infinite log density.
+pub const VAR_FLOOR: f64 = 1e-12;
+
+/// Skewness above which a strictly positive input is modelled on a log
+/// scale (decided on the training data only).
+pub const LOG_SKEW_THRESHOLD: f64 = 2.0;
+
+/// Step of the central finite differences used by the derivative checks in
+/// the tests.
+pub const FD_STEP: f64 = 1e-6;
