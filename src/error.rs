@@ -65,7 +65,9 @@ pub enum Error {
         expected: String,
     },
     /// Too few rows to train.
-    #[error("{path}: {n_rows} usable rows for {n_inputs} inputs; training needs at least {needed}")]
+    #[error(
+        "{path}: {n_rows} usable rows for {n_inputs} inputs; training needs at least {needed}"
+    )]
     NotEnoughRows {
         /// The file.
         path: String,

@@ -27,7 +27,10 @@ fn main() -> ExitCode {
             let bad_input = e
                 .chain()
                 .find_map(|c| c.downcast_ref::<mettle::Error>())
-                .map_or_else(|| e.downcast_ref::<cli::UsageError>().is_some(), |m| m.is_bad_input());
+                .map_or_else(
+                    || e.downcast_ref::<cli::UsageError>().is_some(),
+                    |m| m.is_bad_input(),
+                );
             ExitCode::from(if bad_input { 2 } else { 1 })
         }
     }

@@ -91,6 +91,10 @@ mod tests {
         assert_abs_diff_eq!(e.coverage_95, 2.0 / 3.0, epsilon = 1e-15);
         // standard normal density at 0: ln φ(0) = −½ ln 2π (any statistics handbook)
         let z = evaluate(&[0.0], &[0.0], &[1.0]).expect("row");
-        assert_abs_diff_eq!(z.nlpd, 0.5 * (2.0 * std::f64::consts::PI).ln(), epsilon = 1e-15);
+        assert_abs_diff_eq!(
+            z.nlpd,
+            0.5 * (2.0 * std::f64::consts::PI).ln(),
+            epsilon = 1e-15
+        );
     }
 }

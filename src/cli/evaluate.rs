@@ -22,13 +22,15 @@ pub enum EvalFormat {
 
 /// Arguments of `mettle evaluate`.
 #[derive(Args, Debug)]
-#[command(long_about = "Measure a model on a table that holds the measured targets.\n\n\
+#[command(
+    long_about = "Measure a model on a table that holds the measured targets.\n\n\
 rmse, mae and r2 judge the means; nlpd (mean negative log predictive density, nats per point, \
 in the target's units; lower is better) and the coverages judge the error bars. Honest error \
 bars put about 68 % of rows inside mean ± 1 sd (coverage_68) and about 95 % inside mean ± 2 sd \
 (coverage_95).\n\n\
 JSON output (one target): an object with keys target, n, rmse, mae, r2, nlpd, coverage_68, \
-coverage_95; with several targets, an array of such objects.")]
+coverage_95; with several targets, an array of such objects."
+)]
 pub struct EvaluateArgs {
     /// Model file written by `mettle train`.
     #[arg(long, value_name = "MODEL.json")]
@@ -59,8 +61,13 @@ pub fn run(a: EvaluateArgs) -> anyhow::Result<()> {
                 s.push(r.estimates[k].sd);
             }
         }
-        let e = evaluate(&y, &m, &s)
-            .ok_or_else(|| UsageError(format!("{}: no row has a measured '{}'", a.data.display(), t.name)))?;
+        let e = evaluate(&y, &m, &s).ok_or_else(|| {
+            UsageError(format!(
+                "{}: no row has a measured '{}'",
+                a.data.display(),
+                t.name
+            ))
+        })?;
         results.push((t.name.clone(), e));
     }
     let text = match a.format {
@@ -83,10 +90,19 @@ pub fn run(a: EvaluateArgs) -> anyhow::Result<()> {
             serde_json::to_string_pretty(&v)? + "\n"
         }
         EvalFormat::Table => {
-            let h: Vec<String> = ["target", "n", "rmse", "mae", "r2", "nlpd", "coverage_68", "coverage_95"]
-                .iter()
-                .map(|s| s.to_string())
-                .collect();
+            let h: Vec<String> = [
+                "target",
+                "n",
+                "rmse",
+                "mae",
+                "r2",
+                "nlpd",
+                "coverage_68",
+                "coverage_95",
+            ]
+            .iter()
+            .map(|s| s.to_string())
+            .collect();
             let body: Vec<Vec<String>> = results
                 .iter()
                 .map(|(name, e)| {

@@ -1,6 +1,7 @@
 //! Command-line parsing and the glue from arguments to library calls.
 //! Nothing here computes anything the library could.
 
+mod demo_data;
 mod evaluate;
 mod output;
 mod predict;
@@ -48,6 +49,8 @@ enum Command {
     Predict(predict::PredictArgs),
     /// Measure a model's accuracy and error-bar honesty on a table with measured values.
     Evaluate(evaluate::EvaluateArgs),
+    /// Write the invented demo tables (fictional scenario; not test results).
+    DemoData(demo_data::DemoDataArgs),
 }
 
 /// Run the parsed command.
@@ -59,5 +62,6 @@ pub fn run(cli: Cli) -> anyhow::Result<()> {
         Command::Train(a) => train::run(a),
         Command::Predict(a) => predict::run(a),
         Command::Evaluate(a) => evaluate::run(a),
+        Command::DemoData(a) => demo_data::run(a),
     }
 }

@@ -14,7 +14,8 @@ use super::CAUTION;
 
 /// Arguments of `mettle predict`.
 #[derive(Args, Debug)]
-#[command(long_about = "Estimate every target of a model, with error bars, for each row of a table.\n\n\
+#[command(
+    long_about = "Estimate every target of a model, with error bars, for each row of a table.\n\n\
 Each estimate has a mean, a standard deviation (sd = noise + model uncertainty), the central \
 95 % interval (lo95, hi95) and a domain verdict: in_domain is false, with notes naming the inputs, \
 when a row lies outside what the training data cover. An estimate outside the domain is an \
@@ -22,7 +23,8 @@ extrapolation: treat it with suspicion whatever its error bar.\n\n\
 JSON output is an array with one object per row: keys row, target, mean, sd, lo95, hi95, \
 noise_sd, model_sd, in_domain, notes (for a model with several targets, an 'estimates' object \
 keyed by target holds mean ... model_sd).\n\n\
-Estimates are not test results: qualification testing per the applicable code decides.")]
+Estimates are not test results: qualification testing per the applicable code decides."
+)]
 pub struct PredictArgs {
     /// Model file written by `mettle train`.
     #[arg(long, value_name = "MODEL.json")]
@@ -61,7 +63,10 @@ pub fn run(a: PredictArgs) -> anyhow::Result<()> {
     }
     let out_of_domain = rows.iter().filter(|r| !r.in_domain).count();
     if out_of_domain > 0 {
-        eprintln!("warning: {out_of_domain} of {} rows are outside the training domain (see notes)", rows.len());
+        eprintln!(
+            "warning: {out_of_domain} of {} rows are outside the training domain (see notes)",
+            rows.len()
+        );
     }
     emit(&text, a.out.as_deref())
 }
@@ -138,7 +143,11 @@ fn to_table(targets: &[&str], rows: &[RowPrediction]) -> String {
     let mut h = vec!["row".to_string()];
     for t in targets {
         for f in ["mean", "sd", "lo95", "hi95"] {
-            h.push(if targets.len() == 1 { f.to_string() } else { format!("{t}_{f}") });
+            h.push(if targets.len() == 1 {
+                f.to_string()
+            } else {
+                format!("{t}_{f}")
+            });
         }
     }
     h.push("domain".into());
@@ -161,7 +170,8 @@ fn to_table(targets: &[&str], rows: &[RowPrediction]) -> String {
     let title = if targets.len() == 1 {
         format!("estimates of {} (sd = noise + model uncertainty; lo95..hi95 = central 95 % interval)\n", targets[0])
     } else {
-        "estimates (sd = noise + model uncertainty; lo95..hi95 = central 95 % interval)\n".to_string()
+        "estimates (sd = noise + model uncertainty; lo95..hi95 = central 95 % interval)\n"
+            .to_string()
     };
     title + &aligned(&h, &body)
 }

@@ -38,27 +38,41 @@ impl TrainObserver for TrainProgress {
         }
         let mut guard = self.bar.lock().unwrap_or_else(|p| p.into_inner());
         match event {
-            TrainEvent::SearchStarted { target, n_candidates } => {
+            TrainEvent::SearchStarted {
+                target,
+                n_candidates,
+            } => {
                 if let Some(old) = guard.take() {
                     old.finish_and_clear();
                 }
-                let bar = ProgressBar::with_draw_target(Some(*n_candidates as u64), ProgressDrawTarget::stderr());
+                let bar = ProgressBar::with_draw_target(
+                    Some(*n_candidates as u64),
+                    ProgressDrawTarget::stderr(),
+                );
                 bar.set_style(
-                    ProgressStyle::with_template("{prefix:>14} [{bar:30}] {pos}/{len} candidates  {msg}  ({eta} left)")
-                        .unwrap_or_else(|_| ProgressStyle::default_bar())
-                        .progress_chars("=> "),
+                    ProgressStyle::with_template(
+                        "{prefix:>14} [{bar:30}] {pos}/{len} candidates  {msg}  ({eta} left)",
+                    )
+                    .unwrap_or_else(|_| ProgressStyle::default_bar())
+                    .progress_chars("=> "),
                 );
                 bar.set_prefix(target.to_string());
                 bar.enable_steady_tick(Duration::from_millis(250));
                 *guard = Some(bar);
             }
-            TrainEvent::RangeWidened { max_hidden, n_candidates, .. } => {
+            TrainEvent::RangeWidened {
+                max_hidden,
+                n_candidates,
+                ..
+            } => {
                 if let Some(bar) = guard.as_ref() {
                     bar.set_length(*n_candidates as u64);
                     bar.println(format!("  best candidates at the top of the range: widening to {max_hidden} hidden units"));
                 }
             }
-            TrainEvent::CandidateDone { done, best_nlpd, .. } => {
+            TrainEvent::CandidateDone {
+                done, best_nlpd, ..
+            } => {
                 if let Some(bar) = guard.as_ref() {
                     bar.set_position(*done as u64);
                     if let Some(b) = best_nlpd {

@@ -70,13 +70,21 @@ pub struct TrainArgs {
 
 /// Parse `MIN..MAX` or `N`.
 pub fn parse_range(s: &str) -> Result<(usize, usize), UsageError> {
-    let bad = || UsageError(format!("--hidden '{s}': expected MIN..MAX (e.g. 1..10) or a single count (0 = linear)"));
+    let bad = || {
+        UsageError(format!(
+            "--hidden '{s}': expected MIN..MAX (e.g. 1..10) or a single count (0 = linear)"
+        ))
+    };
     let parts: Vec<&str> = s.split("..").collect();
     match parts.as_slice() {
         [one] => one.trim().parse().map(|n| (n, n)).map_err(|_| bad()),
         [a, b] => {
             let lo = a.trim().parse().map_err(|_| bad())?;
-            let hi = b.trim().trim_start_matches('=').parse().map_err(|_| bad())?;
+            let hi = b
+                .trim()
+                .trim_start_matches('=')
+                .parse()
+                .map_err(|_| bad())?;
             Ok((lo, hi))
         }
         _ => Err(bad()),
@@ -118,7 +126,8 @@ pub fn run(a: TrainArgs) -> anyhow::Result<()> {
         }
         for t in &model.targets {
             let c = &t.committee;
-            let noise: f64 = c.members.iter().map(|m| m.noise_sd()).sum::<f64>() / c.members.len() as f64
+            let noise: f64 = c.members.iter().map(|m| m.noise_sd()).sum::<f64>()
+                / c.members.len() as f64
                 * t.scaling.width();
             let failed = c.candidates.iter().filter(|c| c.failure.is_some()).count();
             eprintln!(

@@ -144,13 +144,25 @@ impl CommitteeParams {
             return bad("restarts", self.restarts.to_string(), "between 1 and 100");
         }
         if !(0.05..=0.5).contains(&self.holdout_fraction) {
-            return bad("holdout fraction", self.holdout_fraction.to_string(), "between 0.05 and 0.5");
+            return bad(
+                "holdout fraction",
+                self.holdout_fraction.to_string(),
+                "between 0.05 and 0.5",
+            );
         }
         if self.max_members == 0 || self.max_members > 200 {
-            return bad("max members", self.max_members.to_string(), "between 1 and 200");
+            return bad(
+                "max members",
+                self.max_members.to_string(),
+                "between 1 and 200",
+            );
         }
         if self.fit.max_cycles == 0 || self.fit.max_cycles > 1000 {
-            return bad("max cycles", self.fit.max_cycles.to_string(), "between 1 and 1000");
+            return bad(
+                "max cycles",
+                self.fit.max_cycles.to_string(),
+                "between 1 and 1000",
+            );
         }
         let mut p = self;
         p.hidden_cap = p.hidden_cap.max(p.hidden_max);
@@ -165,11 +177,20 @@ mod tests {
     #[test]
     fn defaults_pass_and_bad_values_are_named() {
         assert!(CommitteeParams::default().check().is_ok());
-        let e = CommitteeParams::default().hidden(5, 2).check().expect_err("bad range");
+        let e = CommitteeParams::default()
+            .hidden(5, 2)
+            .check()
+            .expect_err("bad range");
         assert!(e.to_string().contains("hidden = 5..2"), "{e}");
-        let e = CommitteeParams::default().restarts(0).check().expect_err("no restarts");
+        let e = CommitteeParams::default()
+            .restarts(0)
+            .check()
+            .expect_err("no restarts");
         assert!(e.to_string().contains("between 1 and 100"), "{e}");
-        let e = CommitteeParams::default().holdout_fraction(0.9).check().expect_err("fraction");
+        let e = CommitteeParams::default()
+            .holdout_fraction(0.9)
+            .check()
+            .expect_err("fraction");
         assert!(e.to_string().contains("0.9"), "{e}");
     }
 }

@@ -122,7 +122,9 @@ pub fn train_committee(
         });
     }
     let mut order: Vec<usize> = (0..n).collect();
-    order.shuffle(&mut Xoshiro256PlusPlus::seed_from_u64(params.seed ^ 0x5EED_0F_5B11));
+    order.shuffle(&mut Xoshiro256PlusPlus::seed_from_u64(
+        params.seed ^ 0x5EED_0F_5B11,
+    ));
     let (held, train) = order.split_at(n_heldout);
     let mut train = train.to_vec();
     train.sort_unstable();
@@ -157,7 +159,14 @@ pub fn train_committee(
                 let arch = Architecture::new(d, h);
                 let seed = candidate_seed(params.seed, h, r);
                 let start = initial_state(&arch, params.ard, seed, t_tr.view());
-                let outcome = fit_network(arch, params.ard, x_tr.view(), t_tr.view(), start, &params.fit);
+                let outcome = fit_network(
+                    arch,
+                    params.ard,
+                    x_tr.view(),
+                    t_tr.view(),
+                    start,
+                    &params.fit,
+                );
                 let trial = match outcome {
                     Ok(net) => {
                         let (mean, var) = net.predict(x_ho.view());
@@ -177,7 +186,12 @@ pub fn train_committee(
                                 heldout: Some((mean, var)),
                             }
                         } else {
-                            failed(h, r, seed, FitFailure::Diverged("non-finite held-out NLPD".into()))
+                            failed(
+                                h,
+                                r,
+                                seed,
+                                FitFailure::Diverged("non-finite held-out NLPD".into()),
+                            )
                         }
                     }
                     Err(f) => failed(h, r, seed, f),
@@ -205,7 +219,9 @@ pub fn train_committee(
             .filter_map(|t| t.record.heldout_nlpd.map(|v| (v, t.record.n_hidden)))
             .min_by(|a, b| a.0.total_cmp(&b.0));
         match top {
-            Some((_, h_best)) if params.widen && h_best == hi && hi > 0 && hi < params.hidden_cap => {
+            Some((_, h_best))
+                if params.widen && h_best == hi && hi > 0 && hi < params.hidden_cap =>
+            {
                 lo = hi + 1;
                 hi = (hi + (hi / 2).max(2)).min(params.hidden_cap);
                 widened = true;
@@ -234,7 +250,10 @@ pub fn train_committee(
         });
     }
     ranked.sort_by(|a, b| {
-        let (va, vb) = (a.record.heldout_nlpd.unwrap_or(f64::INFINITY), b.record.heldout_nlpd.unwrap_or(f64::INFINITY));
+        let (va, vb) = (
+            a.record.heldout_nlpd.unwrap_or(f64::INFINITY),
+            b.record.heldout_nlpd.unwrap_or(f64::INFINITY),
+        );
         va.total_cmp(&vb)
             .then(a.record.n_hidden.cmp(&b.record.n_hidden))
             .then(a.record.restart.cmp(&b.record.restart))
@@ -299,7 +318,10 @@ pub fn train_committee(
     }
     if members.is_empty() {
         return Err(Error::AllCandidatesFailed {
-            reasons: format!("every refit on all the data failed: {}", refit_failures.join("; ")),
+            reasons: format!(
+                "every refit on all the data failed: {}",
+                refit_failures.join("; ")
+            ),
         });
     }
     let heldout_nlpd = nlpd_by_size[n_members - 1];

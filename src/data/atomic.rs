@@ -25,6 +25,17 @@ pub fn write_atomic(path: &Path, bytes: &[u8]) -> Result<()> {
         .map_err(err)?;
     tmp.write_all(bytes).map_err(err)?;
     tmp.as_file().sync_all().map_err(err)?;
+    // a temporary file is private (0600); the result should carry the
+    // permissions an ordinary new file gets, or those of the file it replaces
+    let mode = std::fs::metadata(path).map(|m| m.permissions()).ok();
+    #[cfg(unix)]
+    let mode = mode.or_else(|| {
+        use std::os::unix::fs::PermissionsExt;
+        Some(std::fs::Permissions::from_mode(0o644))
+    });
+    if let Some(perm) = mode {
+        tmp.as_file().set_permissions(perm).map_err(err)?;
+    }
     tmp.persist(path).map_err(|e| err(e.error))?;
     Ok(())
 }

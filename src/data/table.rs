@@ -72,10 +72,19 @@ impl Table {
         let mut data = Vec::with_capacity(columns.len());
         for (name, values) in columns {
             if values.len() != n_rows {
-                return Err(read_error(&path, format!("column '{name}' has {} rows, expected {n_rows}", values.len())));
+                return Err(read_error(
+                    &path,
+                    format!(
+                        "column '{name}' has {} rows, expected {n_rows}",
+                        values.len()
+                    ),
+                ));
             }
             if names.contains(&name) {
-                return Err(read_error(&path, format!("column name '{name}' appears twice")));
+                return Err(read_error(
+                    &path,
+                    format!("column name '{name}' appears twice"),
+                ));
             }
             names.push(name);
             data.push(ColumnData::Number(values.into_iter().map(Some).collect()));
@@ -128,29 +137,44 @@ impl Table {
             }
             let name = name.trim().to_string();
             if name.is_empty() {
-                return Err(read_error(path, format!("column {} has an empty name", i + 1)));
+                return Err(read_error(
+                    path,
+                    format!("column {} has an empty name", i + 1),
+                ));
             }
             if names.contains(&name) {
-                return Err(read_error(path, format!("column name '{name}' appears twice (columns must be unique)")));
+                return Err(read_error(
+                    path,
+                    format!("column name '{name}' appears twice (columns must be unique)"),
+                ));
             }
             let series = col.as_materialized_series();
             let data = match series.dtype() {
                 DataType::String => {
-                    let ca = series.str().map_err(|e| read_error(path, polars_message(&e)))?;
+                    let ca = series
+                        .str()
+                        .map_err(|e| read_error(path, polars_message(&e)))?;
                     ColumnData::Text(ca.iter().map(|v| v.map(str::to_string)).collect())
                 }
                 dt if dt.is_primitive_numeric() || dt.is_bool() => {
                     let cast = series
                         .cast(&DataType::Float64)
                         .map_err(|e| read_error(path, polars_message(&e)))?;
-                    let ca = cast.f64().map_err(|e| read_error(path, polars_message(&e)))?;
+                    let ca = cast
+                        .f64()
+                        .map_err(|e| read_error(path, polars_message(&e)))?;
                     ColumnData::Number(ca.iter().collect())
                 }
                 other => {
-                    let cast = series
-                        .cast(&DataType::String)
-                        .map_err(|_| read_error(path, format!("column '{name}' has type {other}, which mettle cannot read")))?;
-                    let ca = cast.str().map_err(|e| read_error(path, polars_message(&e)))?;
+                    let cast = series.cast(&DataType::String).map_err(|_| {
+                        read_error(
+                            path,
+                            format!("column '{name}' has type {other}, which mettle cannot read"),
+                        )
+                    })?;
+                    let ca = cast
+                        .str()
+                        .map_err(|e| read_error(path, polars_message(&e)))?;
                     ColumnData::Text(ca.iter().map(|v| v.map(str::to_string)).collect())
                 }
             };
@@ -199,10 +223,7 @@ impl Table {
     pub fn is_numeric(&self, name: &str) -> bool {
         match self.column_data(name) {
             Ok(ColumnData::Number(_)) => true,
-            Ok(ColumnData::Text(v)) => v
-                .iter()
-                .flatten()
-                .all(|s| parse_number(s).is_some()),
+            Ok(ColumnData::Text(v)) => v.iter().flatten().all(|s| parse_number(s).is_some()),
             Err(_) => false,
         }
     }
@@ -225,7 +246,9 @@ impl Table {
                 .iter()
                 .enumerate()
                 .map(|(row, x)| match x {
-                    Some(x) if !x.is_finite() => Err(cell_error(row, format!("{x} is not a finite number"))),
+                    Some(x) if !x.is_finite() => {
+                        Err(cell_error(row, format!("{x} is not a finite number")))
+                    }
                     other => Ok(*other),
                 })
                 .collect(),
@@ -277,7 +300,11 @@ fn parse_number(s: &str) -> Option<f64> {
 
 /// A polars error as one line.
 fn polars_message(e: &PolarsError) -> String {
-    e.to_string().lines().next().unwrap_or("unreadable table").to_string()
+    e.to_string()
+        .lines()
+        .next()
+        .unwrap_or("unreadable table")
+        .to_string()
 }
 
 #[cfg(test)]
@@ -295,7 +322,11 @@ mod tests {
     #[test]
     fn reads_csv_with_bom_and_crlf() {
         let dir = tempfile::tempdir().expect("tempdir");
-        let p = write(&dir, "a.csv", "\u{feff}C,Mn,uts\r\n0.1,1.2,500\r\n0.12,1.4,520\r\n");
+        let p = write(
+            &dir,
+            "a.csv",
+            "\u{feff}C,Mn,uts\r\n0.1,1.2,500\r\n0.12,1.4,520\r\n",
+        );
         let t = Table::read(&p).expect("read");
         assert_eq!(t.names(), &["C", "Mn", "uts"]);
         assert_eq!(t.numeric("uts").expect("uts"), vec![500.0, 520.0]);
@@ -308,9 +339,16 @@ mod tests {
         let t = Table::read(&p).expect("read");
         let e = t.numeric("uts").expect_err("text cell");
         let msg = e.to_string();
-        assert!(msg.contains("row 2") && msg.contains("'uts'") && msg.contains("b.csv"), "{msg}");
+        assert!(
+            msg.contains("row 2") && msg.contains("'uts'") && msg.contains("b.csv"),
+            "{msg}"
+        );
         let p = write(&dir, "c.csv", "C,uts\n0.1,NaN\n");
-        let msg = Table::read(&p).expect("read").numeric("uts").expect_err("nan").to_string();
+        let msg = Table::read(&p)
+            .expect("read")
+            .numeric("uts")
+            .expect_err("nan")
+            .to_string();
         assert!(msg.contains("not a finite number"), "{msg}");
     }
 

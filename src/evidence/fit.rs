@@ -363,12 +363,16 @@ pub fn fit_network<'a>(
         diag.gradient_evaluations += evals;
         w = w_new;
         if w.iter().any(|v| !v.is_finite()) {
-            return Err(FitFailure::Diverged(format!("non-finite weights in cycle {cycle}")));
+            return Err(FitFailure::Diverged(format!(
+                "non-finite weights in cycle {cycle}"
+            )));
         }
         let r = arch.predict(&w, x) - t;
         let e_d = 0.5 * r.dot(&r);
         if !e_d.is_finite() {
-            return Err(FitFailure::Diverged(format!("non-finite error in cycle {cycle}")));
+            return Err(FitFailure::Diverged(format!(
+                "non-finite error in cycle {cycle}"
+            )));
         }
         let fact = hessian_of_m(
             &arch,
@@ -412,11 +416,9 @@ pub fn fit_network<'a>(
             Some((b0, g0, a0)) => {
                 rel_change(beta, *b0) < HYPER_REL_TOL
                     && (gamma_total - g0).abs() < HYPER_REL_TOL * gamma_total.max(1.0)
-                    && alpha
-                        .iter()
-                        .zip(a0)
-                        .zip(&gamma)
-                        .all(|((a, a_old), g)| *g < GAMMA_ACTIVE || rel_change(*a, *a_old) < HYPER_REL_TOL)
+                    && alpha.iter().zip(a0).zip(&gamma).all(|((a, a_old), g)| {
+                        *g < GAMMA_ACTIVE || rel_change(*a, *a_old) < HYPER_REL_TOL
+                    })
             }
             None => false,
         };
@@ -531,7 +533,9 @@ mod tests {
         let mut rng = Xoshiro256PlusPlus::seed_from_u64(seed);
         let noise = Normal::new(0.0, noise_sd).expect("valid sd");
         let x = Array2::from_shape_fn((n, 2), |_| rng.random_range(-0.5..0.5));
-        let t = Array1::from_shape_fn(n, |i| (3.0 * x[[i, 0]]).sin() / 3.0 + noise.sample(&mut rng));
+        let t = Array1::from_shape_fn(n, |i| {
+            (3.0 * x[[i, 0]]).sin() / 3.0 + noise.sample(&mut rng)
+        });
         (x, t)
     }
 
@@ -539,8 +543,15 @@ mod tests {
     fn recovers_noise_and_flags_the_irrelevant_input() {
         let (x, t) = synthetic(400, 0.05, 3);
         let arch = Architecture::new(2, 3);
-        let net = fit_network(arch, true, x.view(), t.view(), start(&arch, true, 1), &FitSettings::default())
-            .expect("fit");
+        let net = fit_network(
+            arch,
+            true,
+            x.view(),
+            t.view(),
+            start(&arch, true, 1),
+            &FitSettings::default(),
+        )
+        .expect("fit");
         let noise_sd = 1.0 / net.beta.sqrt();
         // truth 0.05; the evidence estimate should be within 10 %
         assert!((noise_sd - 0.05).abs() < 0.005, "noise sd {noise_sd}");
@@ -553,10 +564,19 @@ mod tests {
         let mut rng = Xoshiro256PlusPlus::seed_from_u64(9);
         let noise = Normal::new(0.0, 0.02).expect("valid sd");
         let x = Array2::from_shape_fn((200, 3), |_| rng.random_range(-0.5..0.5));
-        let t = Array1::from_shape_fn(200, |i| 0.4 * x[[i, 0]] - 0.2 * x[[i, 1]] + noise.sample(&mut rng));
+        let t = Array1::from_shape_fn(200, |i| {
+            0.4 * x[[i, 0]] - 0.2 * x[[i, 1]] + noise.sample(&mut rng)
+        });
         let arch = Architecture::new(3, 0);
-        let net = fit_network(arch, true, x.view(), t.view(), start(&arch, true, 2), &FitSettings::default())
-            .expect("fit");
+        let net = fit_network(
+            arch,
+            true,
+            x.view(),
+            t.view(),
+            start(&arch, true, 2),
+            &FitSettings::default(),
+        )
+        .expect("fit");
         assert!((net.weights[0] - 0.4).abs() < 0.01);
         assert!((net.weights[1] + 0.2).abs() < 0.01);
         assert!(net.weights[2].abs() < 0.01);

@@ -146,7 +146,14 @@ mod tests {
     fn linear_groups_are_inputs_and_bias() {
         let arch = Architecture::new(2, 0);
         let g = Groups::new(&arch, true);
-        assert_eq!(g.kinds(), &[GroupKind::Input(0), GroupKind::Input(1), GroupKind::OutputBias]);
+        assert_eq!(
+            g.kinds(),
+            &[
+                GroupKind::Input(0),
+                GroupKind::Input(1),
+                GroupKind::OutputBias
+            ]
+        );
         let shared = Groups::new(&arch, false);
         assert_eq!(shared.sizes(), &[2, 1]);
     }

@@ -6,7 +6,7 @@ mod groups;
 mod objective;
 
 pub use fit::{
-    fit_network, predictive, FitDiagnostics, FitFailure, FitSettings, FittedNetwork,
-    HessianChoice, HessianKind, StartState,
+    fit_network, predictive, FitDiagnostics, FitFailure, FitSettings, FittedNetwork, HessianChoice,
+    HessianKind, StartState,
 };
 pub use groups::{GroupKind, Groups};

@@ -109,7 +109,11 @@ mod tests {
         let s = ColumnScaling::fit(&[2.0, 4.0, 10.0], false).expect("spread");
         assert_abs_diff_eq!(s.scale(2.0).expect("ok"), -0.5, epsilon = 1e-15);
         assert_abs_diff_eq!(s.scale(10.0).expect("ok"), 0.5, epsilon = 1e-15);
-        assert_abs_diff_eq!(s.unscale_linear(s.scale(7.3).expect("ok")), 7.3, epsilon = 1e-12);
+        assert_abs_diff_eq!(
+            s.unscale_linear(s.scale(7.3).expect("ok")),
+            7.3,
+            epsilon = 1e-12
+        );
     }
 
     #[test]
@@ -126,7 +130,11 @@ mod tests {
         assert_eq!(s.transform, Transform::Log);
         assert!(s.scale(0.0).is_none());
         let no = ColumnScaling::fit(&[0.0, 1.0, 2.0, 100.0], true).expect("spread");
-        assert_eq!(no.transform, Transform::Identity, "zero present: never logged");
+        assert_eq!(
+            no.transform,
+            Transform::Identity,
+            "zero present: never logged"
+        );
     }
 
     #[test]

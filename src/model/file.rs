@@ -73,8 +73,16 @@ impl Model {
         })?;
         match value.get("format").and_then(|f| f.as_str()) {
             Some(MODEL_FORMAT) => {}
-            Some(other) => return Err(bad(format!("format is '{other}', expected '{MODEL_FORMAT}'"))),
-            None => return Err(bad("no 'format' key: this is not a mettle model file".into())),
+            Some(other) => {
+                return Err(bad(format!(
+                    "format is '{other}', expected '{MODEL_FORMAT}'"
+                )))
+            }
+            None => {
+                return Err(bad(
+                    "no 'format' key: this is not a mettle model file".into()
+                ))
+            }
         }
         let version = value
             .get("format_version")
@@ -115,18 +123,40 @@ impl Model {
                 return Err(format!("target '{}' has no committee members", t.name));
             }
             if t.committee.n_inputs != d {
-                return Err(format!("target '{}' committee takes {} inputs, the model lists {d}", t.name, t.committee.n_inputs));
+                return Err(format!(
+                    "target '{}' committee takes {} inputs, the model lists {d}",
+                    t.name, t.committee.n_inputs
+                ));
             }
             for (i, m) in t.committee.members.iter().enumerate() {
                 let k = m.arch(d).n_params();
                 if m.weights.len() != k {
-                    return Err(format!("target '{}' member {}: {} weights, expected {k}", t.name, i + 1, m.weights.len()));
+                    return Err(format!(
+                        "target '{}' member {}: {} weights, expected {k}",
+                        t.name,
+                        i + 1,
+                        m.weights.len()
+                    ));
                 }
                 if m.posterior_cov.nrows() != k {
-                    return Err(format!("target '{}' member {}: covariance of size {}, expected {k}", t.name, i + 1, m.posterior_cov.nrows()));
+                    return Err(format!(
+                        "target '{}' member {}: covariance of size {}, expected {k}",
+                        t.name,
+                        i + 1,
+                        m.posterior_cov.nrows()
+                    ));
                 }
-                if !(m.beta > 0.0) || m.weights.iter().chain(m.posterior_cov.iter()).any(|v| !v.is_finite()) {
-                    return Err(format!("target '{}' member {}: non-finite or invalid numbers", t.name, i + 1));
+                if !(m.beta > 0.0)
+                    || m.weights
+                        .iter()
+                        .chain(m.posterior_cov.iter())
+                        .any(|v| !v.is_finite())
+                {
+                    return Err(format!(
+                        "target '{}' member {}: non-finite or invalid numbers",
+                        t.name,
+                        i + 1
+                    ));
                 }
             }
         }

@@ -2,7 +2,9 @@
 
 use ndarray::{Array1, Array2};
 
-use super::{InputColumn, Model, SetAside, TargetModel, TrainingRecord, MODEL_FORMAT, MODEL_FORMAT_VERSION};
+use super::{
+    InputColumn, Model, SetAside, TargetModel, TrainingRecord, MODEL_FORMAT, MODEL_FORMAT_VERSION,
+};
 use crate::committee::{train_committee, CommitteeParams};
 use crate::data::{fingerprint, Table};
 use crate::error::{Error, Result};
@@ -96,7 +98,10 @@ impl Model {
                 }
                 None => set_aside.push(SetAside {
                     name: name.clone(),
-                    reason: format!("constant: every row is {}", values.first().copied().unwrap_or(f64::NAN)),
+                    reason: format!(
+                        "constant: every row is {}",
+                        values.first().copied().unwrap_or(f64::NAN)
+                    ),
                 }),
             }
         }
@@ -104,7 +109,11 @@ impl Model {
             let detail = if set_aside.is_empty() {
                 "no numeric input columns".to_string()
             } else {
-                set_aside.iter().map(|s| format!("{} ({})", s.name, s.reason)).collect::<Vec<_>>().join(", ")
+                set_aside
+                    .iter()
+                    .map(|s| format!("{} ({})", s.name, s.reason))
+                    .collect::<Vec<_>>()
+                    .join(", ")
             };
             return Err(Error::NoInputs { path, detail });
         }
@@ -123,17 +132,36 @@ impl Model {
         let mut evals = 0;
         for (name, values) in spec.targets.iter().zip(&target_values) {
             let rows: Vec<usize> = (0..n).filter(|&i| values[i].is_some()).collect();
-            let present: Vec<f64> = rows.iter().map(|&i| values[i].unwrap_or(f64::NAN)).collect();
-            let scaling = ColumnScaling::fit(&present, false).ok_or_else(|| Error::ConstantTarget {
-                path: path.clone(),
-                name: name.clone(),
-                value: present.first().copied().unwrap_or(f64::NAN),
-            })?;
+            let present: Vec<f64> = rows
+                .iter()
+                .map(|&i| values[i].unwrap_or(f64::NAN))
+                .collect();
+            let scaling =
+                ColumnScaling::fit(&present, false).ok_or_else(|| Error::ConstantTarget {
+                    path: path.clone(),
+                    name: name.clone(),
+                    value: present.first().copied().unwrap_or(f64::NAN),
+                })?;
             debug_assert_eq!(scaling.transform, Transform::Identity);
-            let t: Array1<f64> = present.iter().map(|v| scaling.scale(*v).unwrap_or(f64::NAN)).collect();
+            let t: Array1<f64> = present
+                .iter()
+                .map(|v| scaling.scale(*v).unwrap_or(f64::NAN))
+                .collect();
             let x_t = x.select(ndarray::Axis(0), &rows);
-            let committee = train_committee(&params, x_t.view(), t.view(), scaling.width(), name, &path, observer)?;
-            evals += committee.members.iter().map(|m| m.diagnostics.gradient_evaluations).sum::<u64>();
+            let committee = train_committee(
+                &params,
+                x_t.view(),
+                t.view(),
+                scaling.width(),
+                name,
+                &path,
+                observer,
+            )?;
+            evals += committee
+                .members
+                .iter()
+                .map(|m| m.diagnostics.gradient_evaluations)
+                .sum::<u64>();
             let (min, max) = min_max(&present);
             targets.push(TargetModel {
                 name: name.clone(),
@@ -148,7 +176,10 @@ impl Model {
 
         let mut names: Vec<&str> = inputs.iter().map(|c| c.name.as_str()).collect();
         names.extend(spec.targets.iter().map(String::as_str));
-        let input_opt: Vec<Vec<Option<f64>>> = input_values.iter().map(|v| v.iter().map(|x| Some(*x)).collect()).collect();
+        let input_opt: Vec<Vec<Option<f64>>> = input_values
+            .iter()
+            .map(|v| v.iter().map(|x| Some(*x)).collect())
+            .collect();
         let mut cols: Vec<&[Option<f64>]> = input_opt.iter().map(|v| v.as_slice()).collect();
         cols.extend(target_values.iter().map(|v| v.as_slice()));
         let data_file = table
@@ -179,5 +210,7 @@ impl Model {
 fn min_max(values: &[f64]) -> (f64, f64) {
     values
         .iter()
-        .fold((f64::INFINITY, f64::NEG_INFINITY), |(lo, hi), v| (lo.min(*v), hi.max(*v)))
+        .fold((f64::INFINITY, f64::NEG_INFINITY), |(lo, hi), v| {
+            (lo.min(*v), hi.max(*v))
+        })
 }

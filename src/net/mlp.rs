@@ -91,7 +91,10 @@ impl Architecture {
     /// The input whose weight parameter `k` is, if it is an input weight.
     pub fn input_of_param(&self, k: usize) -> Option<usize> {
         let lay = self.layout();
-        if k < lay.hidden_bias.max(if self.is_linear() { self.n_inputs } else { 0 }) {
+        if k < lay
+            .hidden_bias
+            .max(if self.is_linear() { self.n_inputs } else { 0 })
+        {
             Some(k % self.n_inputs)
         } else {
             None
@@ -225,7 +228,7 @@ impl Architecture {
             let a = act.column(j);
             let fp = a.mapv(|a| 1.0 - a * a); // tanh'
             let fpp = a.mapv(|a| -2.0 * a * (1.0 - a * a)); // tanh''
-            // second derivatives within unit j's incoming weights and bias
+                                                            // second derivatives within unit j's incoming weights and bias
             let c = &r * &fpp * p.output_w[j];
             let weighted = &xt * &c.view().insert_axis(Axis(1));
             let block = xt.t().dot(&weighted);
