@@ -120,6 +120,58 @@ pub enum Error {
         /// The newest version this build reads.
         supported: u64,
     },
+    /// A schema file is malformed or inconsistent.
+    #[error("{path}: {message}")]
+    Schema {
+        /// The schema file (or `<model>` for a schema stored in a model).
+        path: String,
+        /// What is wrong, with the valid choices.
+        message: String,
+    },
+    /// A column the schema declares is not in the table.
+    #[error("{path}: header row (line 1): column '{name}' declared in schema {schema} is not in the file; the columns are: {available}")]
+    DeclaredColumnMissing {
+        /// The data file.
+        path: String,
+        /// The schema file.
+        schema: String,
+        /// The declared column.
+        name: String,
+        /// The columns the file has.
+        available: String,
+    },
+    /// The elements of one row sum above 100 wt%.
+    #[error("{path}: row {row} (line {line}), columns {columns}: the elements sum to {total} wt%, above the 100 wt% a composition can hold")]
+    CompositionSum {
+        /// The data file.
+        path: String,
+        /// Data row, 1-based.
+        row: usize,
+        /// Line of the file, 1-based, header included.
+        line: usize,
+        /// The composition columns with their values (wt%).
+        columns: String,
+        /// Their sum, wt%.
+        total: f64,
+    },
+    /// Rows lack input values; nothing is imputed.
+    #[error("{path}: {n_rows} rows lack input values, and nothing is ever filled in: {detail}. Complete them, or leave such rows out explicitly (option drop_incomplete_rows; CLI --drop-incomplete-rows)")]
+    MissingInputs {
+        /// The data file.
+        path: String,
+        /// Rows concerned.
+        n_rows: usize,
+        /// Row by row, the columns that are empty.
+        detail: String,
+    },
+    /// A derived input cannot be computed.
+    #[error("{path}: {message}")]
+    Derive {
+        /// The data file.
+        path: String,
+        /// What the derivation reported.
+        message: String,
+    },
     /// A value a model needs cannot be used at prediction time.
     #[error("{path}: row {row}, column '{column}': {problem}")]
     PredictInput {

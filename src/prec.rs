@@ -55,3 +55,37 @@ pub const LOG_SKEW_THRESHOLD: f64 = 2.0;
 /// Step of the central finite differences used by the derivative checks in
 /// the tests.
 pub const FD_STEP: f64 = 1e-6;
+
+/// Half-width, in standard deviations, of the range over which the mean and
+/// sd of a back-transformed target are integrated: the Gaussian weight
+/// beyond 8 sd is below 1e-15.
+pub const QUADRATURE_HALF_WIDTH: f64 = 8.0;
+
+/// Step, in standard deviations, of that trapezoidal rule; for a smooth
+/// integrand its error falls like exp(−2π²/h²), far below 1e-12 here.
+pub const QUADRATURE_STEP: f64 = 1.0 / 16.0;
+
+/// Default widening of a bounded target's interval on each side, as a
+/// share of the interval: values on the bounds (0 % or 100 % shear) then
+/// sit about ln(101) ≈ 4.6 from the centre of the logit scale instead of at
+/// infinity. Common practice, no source.
+pub const BOUNDED_MARGIN_DEFAULT: f64 = 0.01;
+
+/// Slack allowed when the elements of a row are summed against 100 wt%:
+/// rounding of published analyses, not a physical allowance.
+pub const COMPOSITION_SUM_SLACK: f64 = 1e-9;
+
+/// Robust z-score above which a value is reported as an outlier
+/// (Iglewicz & Hoaglin 1993, *How to Detect and Handle Outliers*, ASQC,
+/// with z = 0.6745·(x − median)/MAD).
+pub const ROBUST_Z_OUTLIER: f64 = 3.5;
+
+/// |Pearson r| from which two inputs are reported as strongly correlated:
+/// their separate effects can then hardly be told apart. Common practice,
+/// no source.
+pub const STRONG_CORRELATION: f64 = 0.95;
+
+/// An input with fewer distinct values than this is reported: a network
+/// learns little about the shape of an effect from so few levels. Common
+/// practice, no source.
+pub const FEW_DISTINCT_VALUES: usize = 4;

@@ -12,7 +12,11 @@
 //! | stress | MPa | ksi |
 //! | heat input (arc energy per length) | kJ/mm | J/mm |
 //! | travel speed | mm/s | mm/min |
-//! | percent (elongation, reduction of area, shear area ...) | % | — |
+//! | percent (elongation, reduction of area, shear area ...) | % | fraction (0–1) |
+//! | length (plate thickness) | mm | in |
+//! | time (cooling time) | s | — |
+//! | arc voltage | V | — |
+//! | welding current | A | — |
 //! | dimensionless | 1 | — |
 //!
 //! Conversion factors follow NIST Special Publication 811 (Guide for the Use
@@ -24,6 +28,7 @@
 //! - t/°C = (t/°F − 32)/1.8; t/°C = T/K − 273.15
 //! - 1 ppm (by mass) = 0.0001 wt%
 //! - 1 J/mm = 0.001 kJ/mm; 1 mm/min = 1/60 mm/s
+//! - 1 in = 25.4 mm (exact); a fraction of 1 = 100 %
 //!
 //! Note that `%` here means a plain percentage (elongation, reduction of area,
 //! fracture appearance) and is *not* an alias of `wt%`.
@@ -51,6 +56,10 @@ pub const MPA_PER_KSI: f64 = 6.894_757_293_168_361;
 pub const WT_PCT_PER_PPM: f64 = 1.0e-4;
 /// Offset between the kelvin and degree-Celsius scales.
 pub const KELVIN_OFFSET: f64 = 273.15;
+/// 1 in in mm (exact, NIST SP 811).
+pub const MM_PER_INCH: f64 = 25.4;
+/// A fraction of 1 in percent.
+pub const PERCENT_PER_FRACTION: f64 = 100.0;
 
 /// What a number measures.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, Serialize, Deserialize)]
@@ -70,13 +79,21 @@ pub enum Quantity {
     TravelSpeed,
     /// A plain percentage such as elongation or reduction of area (internal unit %).
     Percent,
+    /// A length such as plate thickness (internal unit mm).
+    Length,
+    /// A time such as a cooling time (internal unit s).
+    Time,
+    /// Arc voltage (internal unit V).
+    Voltage,
+    /// Welding current (internal unit A).
+    Current,
     /// A pure number (internal unit 1).
     Dimensionless,
 }
 
 impl Quantity {
     /// All quantities, in declaration order.
-    pub const ALL: [Quantity; 8] = [
+    pub const ALL: [Quantity; 12] = [
         Quantity::Composition,
         Quantity::Temperature,
         Quantity::ImpactEnergy,
@@ -84,6 +101,10 @@ impl Quantity {
         Quantity::HeatInput,
         Quantity::TravelSpeed,
         Quantity::Percent,
+        Quantity::Length,
+        Quantity::Time,
+        Quantity::Voltage,
+        Quantity::Current,
         Quantity::Dimensionless,
     ];
 
@@ -97,6 +118,10 @@ impl Quantity {
             Quantity::HeatInput => "heat input",
             Quantity::TravelSpeed => "travel speed",
             Quantity::Percent => "percent",
+            Quantity::Length => "length",
+            Quantity::Time => "time",
+            Quantity::Voltage => "voltage",
+            Quantity::Current => "current",
             Quantity::Dimensionless => "dimensionless",
         }
     }
@@ -139,6 +164,18 @@ pub enum Unit {
     MmPerMinute,
     /// Plain percent (elongation, reduction of area ...); not wt%.
     Percent,
+    /// A fraction of 1 (e.g. shear area 0.5); 1 = 100 %.
+    Fraction,
+    /// Millimetre (internal unit of length).
+    Millimetre,
+    /// Inch; 1 in = 25.4 mm (exact).
+    Inch,
+    /// Second (internal unit of time).
+    Second,
+    /// Volt (internal unit of arc voltage).
+    Volt,
+    /// Ampere (internal unit of welding current).
+    Ampere,
     /// A pure number.
     Dimensionless,
 }
@@ -170,7 +207,7 @@ pub enum UnitError {
 
 impl Unit {
     /// All units, in declaration order.
-    pub const ALL: [Unit; 15] = [
+    pub const ALL: [Unit; 21] = [
         Unit::WtPercent,
         Unit::Ppm,
         Unit::Celsius,
@@ -185,6 +222,12 @@ impl Unit {
         Unit::MmPerSecond,
         Unit::MmPerMinute,
         Unit::Percent,
+        Unit::Fraction,
+        Unit::Millimetre,
+        Unit::Inch,
+        Unit::Second,
+        Unit::Volt,
+        Unit::Ampere,
         Unit::Dimensionless,
     ];
 
@@ -207,6 +250,12 @@ impl Unit {
             Unit::MmPerSecond => &["mm/s"],
             Unit::MmPerMinute => &["mm/min"],
             Unit::Percent => &["%", "pct", "percent"],
+            Unit::Fraction => &["fraction", "frac"],
+            Unit::Millimetre => &["mm", "millimetre", "millimeter"],
+            Unit::Inch => &["in", "inch", "inches", "\""],
+            Unit::Second => &["s", "sec", "second", "seconds"],
+            Unit::Volt => &["v", "volt", "volts"],
+            Unit::Ampere => &["a", "amp", "ampere", "amperes"],
             Unit::Dimensionless => &["", "1", "-"],
         }
     }
@@ -272,6 +321,12 @@ impl Unit {
             Unit::MmPerSecond => "mm/s",
             Unit::MmPerMinute => "mm/min",
             Unit::Percent => "%",
+            Unit::Fraction => "fraction",
+            Unit::Millimetre => "mm",
+            Unit::Inch => "in",
+            Unit::Second => "s",
+            Unit::Volt => "V",
+            Unit::Ampere => "A",
             Unit::Dimensionless => "1",
         }
     }
@@ -296,12 +351,17 @@ impl Unit {
             Unit::MegaPascal | Unit::Ksi => Quantity::Stress,
             Unit::KilojoulePerMm | Unit::JoulePerMm => Quantity::HeatInput,
             Unit::MmPerSecond | Unit::MmPerMinute => Quantity::TravelSpeed,
-            Unit::Percent => Quantity::Percent,
+            Unit::Percent | Unit::Fraction => Quantity::Percent,
+            Unit::Millimetre | Unit::Inch => Quantity::Length,
+            Unit::Second => Quantity::Time,
+            Unit::Volt => Quantity::Voltage,
+            Unit::Ampere => Quantity::Current,
             Unit::Dimensionless => Quantity::Dimensionless,
         }
     }
 
-    /// The internal unit of a quantity: wt%, °C, J, MPa, kJ/mm, mm/s, %, 1.
+    /// The internal unit of a quantity: wt%, °C, J, MPa, kJ/mm, mm/s, %, mm,
+    /// s, V, A, 1.
     pub fn internal_for(quantity: Quantity) -> Unit {
         match quantity {
             Quantity::Composition => Unit::WtPercent,
@@ -311,6 +371,10 @@ impl Unit {
             Quantity::HeatInput => Unit::KilojoulePerMm,
             Quantity::TravelSpeed => Unit::MmPerSecond,
             Quantity::Percent => Unit::Percent,
+            Quantity::Length => Unit::Millimetre,
+            Quantity::Time => Unit::Second,
+            Quantity::Voltage => Unit::Volt,
+            Quantity::Current => Unit::Ampere,
             Quantity::Dimensionless => Unit::Dimensionless,
         }
     }
@@ -330,6 +394,8 @@ impl Unit {
             Unit::Ksi => MPA_PER_KSI,
             Unit::JoulePerMm => 1.0e-3,
             Unit::MmPerMinute => 1.0 / 60.0,
+            Unit::Fraction => PERCENT_PER_FRACTION,
+            Unit::Inch => MM_PER_INCH,
             Unit::WtPercent
             | Unit::Celsius
             | Unit::Kelvin
@@ -338,6 +404,10 @@ impl Unit {
             | Unit::KilojoulePerMm
             | Unit::MmPerSecond
             | Unit::Percent
+            | Unit::Millimetre
+            | Unit::Second
+            | Unit::Volt
+            | Unit::Ampere
             | Unit::Dimensionless => 1.0,
         }
     }
@@ -354,6 +424,8 @@ impl Unit {
             Unit::Ksi => x * MPA_PER_KSI,
             Unit::JoulePerMm => x / 1000.0,
             Unit::MmPerMinute => x / 60.0,
+            Unit::Fraction => x * PERCENT_PER_FRACTION,
+            Unit::Inch => x * MM_PER_INCH,
             _ => x,
         }
     }
@@ -369,6 +441,8 @@ impl Unit {
             Unit::Ksi => x / MPA_PER_KSI,
             Unit::JoulePerMm => x * 1000.0,
             Unit::MmPerMinute => x * 60.0,
+            Unit::Fraction => x / PERCENT_PER_FRACTION,
+            Unit::Inch => x / MM_PER_INCH,
             _ => x,
         }
     }
@@ -483,6 +557,14 @@ mod tests {
     }
 
     #[test]
+    fn inch_and_fraction() {
+        // 1 in = 25.4 mm exactly — NIST SP 811 [S].
+        assert_abs_diff_eq!(Unit::Inch.to_internal(2.0), 50.8, epsilon = 1e-12);
+        // a shear fraction of 0.5 is 50 % — definition of the percent.
+        assert_abs_diff_eq!(Unit::Fraction.to_internal(0.5), 50.0, epsilon = 1e-12);
+    }
+
+    #[test]
     fn round_trips() {
         for unit in Unit::ALL {
             for x in [-273.0, -40.0, 0.0, 0.0123, 1.0, 27.0, 344.738, 1.0e4] {
@@ -531,6 +613,12 @@ mod tests {
             ("mm/s", Unit::MmPerSecond),
             ("mm/min", Unit::MmPerMinute),
             ("%", Unit::Percent),
+            ("fraction", Unit::Fraction),
+            ("mm", Unit::Millimetre),
+            ("in", Unit::Inch),
+            ("s", Unit::Second),
+            ("V", Unit::Volt),
+            ("A", Unit::Ampere),
             ("", Unit::Dimensionless),
             ("1", Unit::Dimensionless),
             ("-", Unit::Dimensionless),

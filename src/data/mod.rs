@@ -1,8 +1,10 @@
 //! Reading test records and writing results: tables from CSV or Parquet,
-//! the training-data fingerprint, atomic writes.
+//! the training-data fingerprint, atomic writes; the schema that says
+//! what each column is ([`schema`]).
 
 mod atomic;
 mod fingerprint;
+pub mod schema;
 mod table;
 
 pub use atomic::write_atomic;

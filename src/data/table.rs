@@ -37,7 +37,45 @@ pub enum FileFormat {
     Parquet,
 }
 
+/// The four bytes that open (and close) every Parquet file (Apache Parquet
+/// file format specification).
+const PARQUET_MAGIC: &[u8; 4] = b"PAR1";
+
 impl FileFormat {
+    /// The format of an existing file, recognised by its content: a file
+    /// that opens with the Parquet magic bytes `PAR1` is Parquet, any other
+    /// is read as CSV. The name does not matter, so a table renamed keeps
+    /// being read correctly.
+    ///
+    /// # Errors
+    /// [`Error::Io`] when the file cannot be opened.
+    pub fn sniff(path: &Path) -> Result<FileFormat> {
+        use std::io::Read;
+        let mut head = [0u8; 4];
+        let mut f = std::fs::File::open(path).map_err(|source| Error::Io {
+            path: path.display().to_string(),
+            source,
+        })?;
+        let mut got = 0;
+        while got < head.len() {
+            match f.read(&mut head[got..]) {
+                Ok(0) => break,
+                Ok(k) => got += k,
+                Err(source) => {
+                    return Err(Error::Io {
+                        path: path.display().to_string(),
+                        source,
+                    })
+                }
+            }
+        }
+        Ok(if got == 4 && &head == PARQUET_MAGIC {
+            FileFormat::Parquet
+        } else {
+            FileFormat::Csv
+        })
+    }
+
     /// The format a path's extension names (`.parquet`/`.pq` → Parquet,
     /// anything else → CSV).
     pub fn from_path(path: &Path) -> FileFormat {
@@ -97,7 +135,74 @@ impl Table {
         })
     }
 
-    /// Read a CSV (header row required) or Parquet file, chosen by extension.
+    /// Build a table from numeric columns with missing cells (`None`),
+    /// keeping `source` as the file every message names.
+    ///
+    /// # Errors
+    /// [`Error::Read`] when the columns differ in length or a name repeats.
+    pub fn from_optional_columns(
+        source: &Path,
+        columns: Vec<(String, Vec<Option<f64>>)>,
+    ) -> Result<Table> {
+        let n_rows = columns.first().map_or(0, |c| c.1.len());
+        let mut t = Table {
+            source: source.to_path_buf(),
+            names: Vec::with_capacity(columns.len()),
+            columns: Vec::with_capacity(columns.len()),
+            n_rows,
+        };
+        for (name, values) in columns {
+            t.push_column(name, ColumnData::Number(values))?;
+        }
+        Ok(t)
+    }
+
+    /// Append a column.
+    ///
+    /// # Errors
+    /// [`Error::Read`] when its length differs from the table's or its name
+    /// is already taken.
+    pub fn push_column(&mut self, name: String, data: ColumnData) -> Result<()> {
+        let len = match &data {
+            ColumnData::Text(v) => v.len(),
+            ColumnData::Number(v) => v.len(),
+        };
+        if self.names.is_empty() && self.columns.is_empty() {
+            self.n_rows = len;
+        }
+        if len != self.n_rows {
+            return Err(read_error(
+                &self.source,
+                format!("column '{name}' has {len} rows, expected {}", self.n_rows),
+            ));
+        }
+        if self.names.contains(&name) {
+            return Err(read_error(
+                &self.source,
+                format!("column name '{name}' appears twice (columns must be unique)"),
+            ));
+        }
+        self.names.push(name);
+        self.columns.push(data);
+        Ok(())
+    }
+
+    /// The table restricted to `rows` (0-based, in the order given).
+    pub fn select_rows(&self, rows: &[usize]) -> Table {
+        let pick = |data: &ColumnData| match data {
+            ColumnData::Text(v) => ColumnData::Text(rows.iter().map(|&r| v[r].clone()).collect()),
+            ColumnData::Number(v) => ColumnData::Number(rows.iter().map(|&r| v[r]).collect()),
+        };
+        Table {
+            source: self.source.clone(),
+            names: self.names.clone(),
+            columns: self.columns.iter().map(pick).collect(),
+            n_rows: rows.len(),
+        }
+    }
+
+    /// Read a CSV (header row required) or Parquet file, recognised by its
+    /// content ([`FileFormat::sniff`]).
     ///
     /// # Errors
     /// [`Error::Io`] when the file cannot be opened; [`Error::Read`] when it
@@ -111,7 +216,7 @@ impl Table {
         if meta.len() == 0 {
             return Err(read_error(path, "the file is empty"));
         }
-        let df = match FileFormat::from_path(path) {
+        let df = match FileFormat::sniff(path)? {
             FileFormat::Csv => CsvReadOptions::default()
                 .with_has_header(true)
                 .with_infer_schema_length(Some(0))
@@ -204,6 +309,95 @@ impl Table {
         self.n_rows
     }
 
+    /// The cells of column `i` (file order) as read.
+    pub fn column_at(&self, i: usize) -> Option<&ColumnData> {
+        self.columns.get(i)
+    }
+
+    /// The cell at `row` (0-based) of column `i` as text: the text read
+    /// from a CSV file (trimmed), a number in its shortest exact form, or
+    /// `None` for an empty cell.
+    pub fn cell_text(&self, i: usize, row: usize) -> Option<String> {
+        match self.columns.get(i)? {
+            ColumnData::Text(v) => v[row]
+                .as_deref()
+                .map(str::trim)
+                .filter(|s| !s.is_empty())
+                .map(str::to_string),
+            ColumnData::Number(v) => v[row].map(|x| x.to_string()),
+        }
+    }
+
+    /// The table as CSV bytes: a header row, then one line per row. Text
+    /// cells are written as read, numbers in their shortest exact decimal
+    /// form, missing cells (and NaN) empty; fields are quoted when they
+    /// need it (RFC 4180).
+    pub fn to_csv_bytes(&self) -> Vec<u8> {
+        let mut out = String::new();
+        let header: Vec<String> = self.names.iter().map(|n| csv_field(n)).collect();
+        out.push_str(&header.join(","));
+        out.push('\n');
+        for row in 0..self.n_rows {
+            let cells: Vec<String> = self
+                .columns
+                .iter()
+                .map(|c| match c {
+                    ColumnData::Text(v) => v[row].as_deref().map(csv_field).unwrap_or_default(),
+                    ColumnData::Number(v) => match v[row] {
+                        Some(x) if !x.is_nan() => x.to_string(),
+                        _ => String::new(),
+                    },
+                })
+                .collect();
+            out.push_str(&cells.join(","));
+            out.push('\n');
+        }
+        out.into_bytes()
+    }
+
+    /// The table as Parquet bytes (text columns as strings, numeric
+    /// columns as 64-bit floats; NaN written as a missing value).
+    ///
+    /// # Errors
+    /// [`Error::Read`] if polars refuses the frame (never for a table built
+    /// by mettle).
+    pub fn to_parquet_bytes(&self) -> Result<Vec<u8>> {
+        let cols: Vec<Column> = self
+            .names
+            .iter()
+            .zip(&self.columns)
+            .map(|(name, data)| match data {
+                ColumnData::Text(v) => Column::new(name.as_str().into(), v.clone()),
+                ColumnData::Number(v) => Column::new(
+                    name.as_str().into(),
+                    v.iter()
+                        .map(|x| x.filter(|x| !x.is_nan()))
+                        .collect::<Vec<_>>(),
+                ),
+            })
+            .collect();
+        let mut df = DataFrame::new(self.n_rows, cols)
+            .map_err(|e| read_error(&self.source, polars_message(&e)))?;
+        let mut buf = std::io::Cursor::new(Vec::new());
+        ParquetWriter::new(&mut buf)
+            .finish(&mut df)
+            .map_err(|e| read_error(&self.source, polars_message(&e)))?;
+        Ok(buf.into_inner())
+    }
+
+    /// Write the table to `path` atomically, as Parquet when the name ends
+    /// in `.parquet` or `.pq`, else as CSV.
+    ///
+    /// # Errors
+    /// [`Error::Write`] naming `path`.
+    pub fn write(&self, path: &Path) -> Result<()> {
+        let bytes = match FileFormat::from_path(path) {
+            FileFormat::Csv => self.to_csv_bytes(),
+            FileFormat::Parquet => self.to_parquet_bytes()?,
+        };
+        crate::data::write_atomic(path, &bytes)
+    }
+
     /// Position of a column.
     pub fn index_of(&self, name: &str) -> Option<usize> {
         self.names.iter().position(|n| n == name)
@@ -228,13 +422,31 @@ impl Table {
         }
     }
 
-    /// The column as numbers, with missing cells as `None`.
+    /// The column as numbers, reading past bad cells: every cell that is
+    /// not a finite number becomes `None` and an [`Error::Cell`] in the
+    /// second list (empty cells are `None` without an error).
     ///
     /// # Errors
-    /// [`Error::MissingColumn`]; [`Error::Cell`] for text that is not a
-    /// number, NaN or infinity — naming file, row and column.
-    pub fn numeric_optional(&self, name: &str) -> Result<Vec<Option<f64>>> {
-        let cell_error = |row: usize, problem: String| Error::Cell {
+    /// [`Error::MissingColumn`].
+    pub fn numeric_lenient(&self, name: &str) -> Result<(Vec<Option<f64>>, Vec<Error>)> {
+        self.column_data(name)?;
+        let mut values = Vec::with_capacity(self.n_rows);
+        let mut problems = Vec::new();
+        for row in 0..self.n_rows {
+            match self.numeric_cell(name, row) {
+                Ok(v) => values.push(v),
+                Err(e) => {
+                    values.push(None);
+                    problems.push(e);
+                }
+            }
+        }
+        Ok((values, problems))
+    }
+
+    /// One cell (0-based row) as a number; `None` when empty.
+    fn numeric_cell(&self, name: &str, row: usize) -> Result<Option<f64>> {
+        let cell_error = |problem: String| Error::Cell {
             path: self.source.display().to_string(),
             row: row + 1,
             line: row + 2,
@@ -242,29 +454,31 @@ impl Table {
             problem,
         };
         match self.column_data(name)? {
-            ColumnData::Number(v) => v
-                .iter()
-                .enumerate()
-                .map(|(row, x)| match x {
-                    Some(x) if !x.is_finite() => {
-                        Err(cell_error(row, format!("{x} is not a finite number")))
-                    }
-                    other => Ok(*other),
-                })
-                .collect(),
-            ColumnData::Text(v) => v
-                .iter()
-                .enumerate()
-                .map(|(row, s)| match s.as_deref().map(str::trim) {
-                    None | Some("") => Ok(None),
-                    Some(s) => match parse_number(s) {
-                        Some(x) if x.is_finite() => Ok(Some(x)),
-                        Some(_) => Err(cell_error(row, format!("'{s}' is not a finite number"))),
-                        None => Err(cell_error(row, format!("'{s}' is not a number"))),
-                    },
-                })
-                .collect(),
+            ColumnData::Number(v) => match v[row] {
+                Some(x) if !x.is_finite() => Err(cell_error(format!("{x} is not a finite number"))),
+                other => Ok(other),
+            },
+            ColumnData::Text(v) => match v[row].as_deref().map(str::trim) {
+                None | Some("") => Ok(None),
+                Some(s) => match parse_number(s) {
+                    Some(x) if x.is_finite() => Ok(Some(x)),
+                    Some(_) => Err(cell_error(format!("'{s}' is not a finite number"))),
+                    None => Err(cell_error(format!("'{s}' is not a number"))),
+                },
+            },
         }
+    }
+
+    /// The column as numbers, with missing cells as `None`.
+    ///
+    /// # Errors
+    /// [`Error::MissingColumn`]; [`Error::Cell`] for text that is not a
+    /// number, NaN or infinity — naming file, row and column.
+    pub fn numeric_optional(&self, name: &str) -> Result<Vec<Option<f64>>> {
+        self.column_data(name)?;
+        (0..self.n_rows)
+            .map(|row| self.numeric_cell(name, row))
+            .collect()
     }
 
     /// The column as numbers; a missing cell is an error.
@@ -286,6 +500,15 @@ impl Table {
                 })
             })
             .collect()
+    }
+}
+
+/// Quote a CSV field when it needs it (RFC 4180).
+fn csv_field(s: &str) -> String {
+    if s.contains([',', '"', '\n', '\r']) {
+        format!("\"{}\"", s.replace('"', "\"\""))
+    } else {
+        s.to_string()
     }
 }
 
@@ -350,6 +573,24 @@ mod tests {
             .expect_err("nan")
             .to_string();
         assert!(msg.contains("not a finite number"), "{msg}");
+    }
+
+    #[test]
+    fn csv_and_parquet_round_trip_and_format_is_sniffed() {
+        let dir = tempfile::tempdir().expect("tempdir");
+        let p = write(&dir, "a.csv", "id,C,uts\nW1,0.1,500\n\"W,2\",,520.5\n");
+        let t = Table::read(&p).expect("read");
+        let back = String::from_utf8(t.to_csv_bytes()).expect("utf8");
+        assert_eq!(back, "id,C,uts\nW1,0.1,500\n\"W,2\",,520.5\n");
+        // Parquet written under a name without extension is still read as
+        // Parquet: the format is recognised by its magic bytes.
+        let q = dir.path().join("same_table");
+        std::fs::write(&q, t.to_parquet_bytes().expect("parquet")).expect("write");
+        assert_eq!(FileFormat::sniff(&q).expect("sniff"), FileFormat::Parquet);
+        let tq = Table::read(&q).expect("read parquet");
+        assert_eq!(tq.names(), t.names());
+        assert_eq!(tq.numeric_optional("C").expect("C"), vec![Some(0.1), None]);
+        assert_eq!(tq.cell_text(0, 1).as_deref(), Some("W,2"));
     }
 
     #[test]

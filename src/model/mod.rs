@@ -4,13 +4,16 @@
 
 mod file;
 mod train;
+mod transform;
 
 pub use file::{MODEL_FORMAT, MODEL_FORMAT_VERSION};
-pub use train::TrainSpec;
+pub use train::{SchemaTrainOptions, SchemaTrainReport, TrainSpec};
+pub use transform::{IntervalKind, TargetTransform};
 
 use serde::{Deserialize, Serialize};
 
 use crate::committee::{Committee, CommitteeParams};
+use crate::data::schema::Schema;
 use crate::features::ColumnScaling;
 
 /// An input column as the model knows it.
@@ -50,6 +53,10 @@ pub struct TargetModel {
     pub n_rows: usize,
     /// Rows left out because this target was missing.
     pub n_missing: usize,
+    /// The scale the target is learnt on (min, max are on the target's own
+    /// scale, `scaling` on the transformed one).
+    #[serde(default, skip_serializing_if = "TargetTransform::is_identity")]
+    pub transform: TargetTransform,
     /// The committee.
     pub committee: Committee,
 }
@@ -71,6 +78,10 @@ pub struct TrainingRecord {
     /// Wall-clock training time in seconds, recorded only when asked for
     /// (it would make otherwise identical model files differ).
     pub wall_seconds: Option<f64>,
+    /// Rows of the table (1-based) left out because an input was missing,
+    /// when that was asked for explicitly.
+    #[serde(default, skip_serializing_if = "Vec::is_empty")]
+    pub incomplete_rows_dropped: Vec<usize>,
 }
 
 /// A trained model.
@@ -90,6 +101,10 @@ pub struct Model {
     pub targets: Vec<TargetModel>,
     /// Training record.
     pub training: TrainingRecord,
+    /// The schema the model was trained with: units, bounds and derived
+    /// inputs, applied again to every table the model reads.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub schema: Option<Schema>,
 }
 
 impl Model {

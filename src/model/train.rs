@@ -3,10 +3,13 @@
 use ndarray::{Array1, Array2};
 
 use super::{
-    InputColumn, Model, SetAside, TargetModel, TrainingRecord, MODEL_FORMAT, MODEL_FORMAT_VERSION,
+    InputColumn, Model, SetAside, TargetModel, TargetTransform, TrainingRecord, MODEL_FORMAT,
+    MODEL_FORMAT_VERSION,
 };
 use crate::committee::{train_committee, CommitteeParams};
+use crate::data::schema::{PrepareOptions, Schema};
 use crate::data::{fingerprint, Table};
+use crate::derive::RowWarning;
 use crate::error::{Error, Result};
 use crate::features::{ColumnScaling, Transform};
 use crate::observer::TrainObserver;
@@ -36,7 +39,90 @@ impl TrainSpec {
     }
 }
 
+/// Settings for training through a schema.
+#[derive(Clone, Debug, PartialEq)]
+pub struct SchemaTrainOptions {
+    /// Committee settings.
+    pub params: CommitteeParams,
+    /// Model strictly positive, strongly skewed inputs through their logarithm.
+    pub auto_log_inputs: bool,
+    /// Leave out rows that lack an input value instead of failing.
+    pub drop_incomplete_rows: bool,
+}
+
+impl Default for SchemaTrainOptions {
+    fn default() -> Self {
+        SchemaTrainOptions {
+            params: CommitteeParams::default(),
+            auto_log_inputs: true,
+            drop_incomplete_rows: false,
+        }
+    }
+}
+
+/// What training through a schema found along the way, for the caller to
+/// show (the library never prints).
+#[derive(Clone, Debug, Default, PartialEq)]
+pub struct SchemaTrainReport {
+    /// Rows of the file (1-based) left out because an input was missing.
+    pub dropped_rows: Vec<usize>,
+    /// Derivation warnings: rows outside a formula's validity range
+    /// (0-based rows of the file).
+    pub row_warnings: Vec<RowWarning>,
+    /// Warnings about the table as a whole.
+    pub notes: Vec<String>,
+}
+
 impl Model {
+    /// Train a model on `table` read through `schema`: values converted to
+    /// internal units and checked, derived inputs computed, each target
+    /// learnt through its transform. The schema is stored in the model, so
+    /// that estimation reads tables the same way.
+    ///
+    /// # Errors
+    /// Everything [`Schema::prepare`] reports; a schema without a target;
+    /// then as [`Model::train`].
+    pub fn train_with_schema(
+        table: &Table,
+        schema: &Schema,
+        schema_name: &str,
+        opts: &SchemaTrainOptions,
+        observer: &dyn TrainObserver,
+    ) -> Result<(Model, SchemaTrainReport)> {
+        let prepared = schema.prepare(
+            table,
+            schema_name,
+            PrepareOptions {
+                need_targets: true,
+                drop_incomplete_rows: opts.drop_incomplete_rows,
+            },
+        )?;
+        if prepared.targets.is_empty() {
+            return Err(Error::Schema {
+                path: schema_name.to_string(),
+                message: "no column has role = \"target\": there is nothing to learn".into(),
+            });
+        }
+        let spec = TrainSpec {
+            targets: prepared.targets.iter().map(|t| t.0.clone()).collect(),
+            inputs: Some(prepared.inputs.clone()),
+            auto_log_inputs: opts.auto_log_inputs,
+            params: opts.params.clone(),
+        };
+        let transforms: Vec<TargetTransform> = prepared.targets.iter().map(|t| t.1).collect();
+        let mut model = Self::train_transformed(&prepared.table, &spec, &transforms, observer)?;
+        model.schema = Some(schema.clone());
+        model.training.incomplete_rows_dropped = prepared.dropped_rows.clone();
+        Ok((
+            model,
+            SchemaTrainReport {
+                dropped_rows: prepared.dropped_rows,
+                row_warnings: prepared.row_warnings,
+                notes: prepared.notes,
+            },
+        ))
+    }
+
     /// Train a model on `table`.
     ///
     /// Rows whose target is missing are left out for that target (and
@@ -47,6 +133,21 @@ impl Model {
     /// Bad settings, missing or non-numeric columns, too few rows, a
     /// constant target, or every candidate failing.
     pub fn train(table: &Table, spec: &TrainSpec, observer: &dyn TrainObserver) -> Result<Model> {
+        Self::train_transformed(table, spec, &[], observer)
+    }
+
+    /// Train as [`Model::train`], target `k` learnt through `transforms[k]`
+    /// (identity where the slice is shorter).
+    ///
+    /// # Errors
+    /// As [`Model::train`], plus [`Error::Cell`] for a target value outside
+    /// its transform's domain.
+    pub fn train_transformed(
+        table: &Table,
+        spec: &TrainSpec,
+        transforms: &[TargetTransform],
+        observer: &dyn TrainObserver,
+    ) -> Result<Model> {
         let params = spec.params.clone().check()?;
         let path = table.source().display().to_string();
         if spec.targets.is_empty() {
@@ -130,20 +231,35 @@ impl Model {
 
         let mut targets = Vec::new();
         let mut evals = 0;
-        for (name, values) in spec.targets.iter().zip(&target_values) {
+        for (k, (name, values)) in spec.targets.iter().zip(&target_values).enumerate() {
+            let transform = transforms.get(k).copied().unwrap_or_default();
             let rows: Vec<usize> = (0..n).filter(|&i| values[i].is_some()).collect();
             let present: Vec<f64> = rows
                 .iter()
                 .map(|&i| values[i].unwrap_or(f64::NAN))
                 .collect();
+            let mut learnt = Vec::with_capacity(present.len());
+            for (&i, &y) in rows.iter().zip(&present) {
+                learnt.push(transform.forward(y).ok_or_else(|| Error::Cell {
+                    path: path.clone(),
+                    row: i + 1,
+                    line: i + 2,
+                    column: name.clone(),
+                    problem: format!(
+                        "{y} cannot be learnt through transform '{}': expected {}",
+                        transform.name(),
+                        transform.domain_text()
+                    ),
+                })?);
+            }
             let scaling =
-                ColumnScaling::fit(&present, false).ok_or_else(|| Error::ConstantTarget {
+                ColumnScaling::fit(&learnt, false).ok_or_else(|| Error::ConstantTarget {
                     path: path.clone(),
                     name: name.clone(),
                     value: present.first().copied().unwrap_or(f64::NAN),
                 })?;
             debug_assert_eq!(scaling.transform, Transform::Identity);
-            let t: Array1<f64> = present
+            let t: Array1<f64> = learnt
                 .iter()
                 .map(|v| scaling.scale(*v).unwrap_or(f64::NAN))
                 .collect();
@@ -170,6 +286,7 @@ impl Model {
                 scaling,
                 n_rows: rows.len(),
                 n_missing: n - rows.len(),
+                transform,
                 committee,
             });
         }
@@ -202,7 +319,9 @@ impl Model {
                 settings: CommitteeParams::clone(&params),
                 gradient_evaluations: evals,
                 wall_seconds: None,
+                incomplete_rows_dropped: Vec::new(),
             },
+            schema: None,
         })
     }
 }

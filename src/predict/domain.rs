@@ -49,7 +49,7 @@ pub fn range_check(model: &Model, raw: ArrayView1<f64>) -> DomainReport {
 
 /// A number with up to 4 significant decimals, without trailing zeros.
 fn fmt_num(v: f64) -> String {
-    let s = if v.abs() >= 1000.0 || v == v.trunc() {
+    let s = if v.abs() >= 1000.0 || v.fract() == 0.0 {
         format!("{v:.0}")
     } else {
         let digits = (4 - v.abs().log10().ceil() as i32).clamp(1, 8) as usize;

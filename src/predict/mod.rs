@@ -1,5 +1,10 @@
 //! Estimates with error bars for new rows, and the domain verdict that
 //! goes with each.
+//!
+//! A target learnt through a transform (see [`crate::model::TargetTransform`])
+//! gets its error bars on the transformed scale; they are mapped back, so
+//! the interval is asymmetric about the median, and [`Estimate::interval_kind`]
+//! says so.
 
 mod domain;
 
@@ -9,15 +14,21 @@ use ndarray::Array2;
 use serde::Serialize;
 use statrs::distribution::{ContinuousCDF, Normal};
 
+use crate::data::schema::PrepareOptions;
 use crate::data::Table;
+use crate::derive::RowWarning;
 use crate::error::{Error, Result};
-use crate::model::Model;
+use crate::metrics::{evaluate_on_scale, Evaluation};
+use crate::model::{IntervalKind, Model};
+use crate::units::Unit;
 
 /// One target's estimate for one row, in the target's units.
 #[derive(Clone, Debug, PartialEq, Serialize)]
 pub struct Estimate {
     /// Predictive mean.
     pub mean: f64,
+    /// Predictive median (equal to the mean for an untransformed target).
+    pub median: f64,
     /// Predictive standard deviation (noise + model).
     pub sd: f64,
     /// Lower end of the central 95 % predictive interval.
@@ -28,6 +39,37 @@ pub struct Estimate {
     pub noise_sd: f64,
     /// Model part of the sd: parameter uncertainty and committee spread.
     pub model_sd: f64,
+    /// How the centre and interval were obtained.
+    pub interval_kind: IntervalKind,
+}
+
+impl Estimate {
+    /// The estimate in another unit of the same quantity (`self` in the
+    /// internal unit): levels converted as values, spreads as differences.
+    pub fn in_unit(&self, unit: Unit) -> Estimate {
+        Estimate {
+            mean: unit.from_internal(self.mean),
+            median: unit.from_internal(self.median),
+            sd: unit.interval_from_internal(self.sd),
+            lo95: unit.from_internal(self.lo95),
+            hi95: unit.from_internal(self.hi95),
+            noise_sd: unit.interval_from_internal(self.noise_sd),
+            model_sd: unit.interval_from_internal(self.model_sd),
+            interval_kind: self.interval_kind,
+        }
+    }
+}
+
+/// One target's predictive distribution on the scale it was learnt on
+/// (transformed target units): z ~ N(mean, sd²).
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct ScalePrediction {
+    /// Mean on the learnt scale.
+    pub mean: f64,
+    /// Total sd on the learnt scale.
+    pub sd: f64,
+    /// Noise part of the sd on the learnt scale.
+    pub noise_sd: f64,
 }
 
 /// Estimates for one row, every target, with the domain verdict.
@@ -71,20 +113,54 @@ impl Model {
         Ok((raw, scaled))
     }
 
+    /// The table as the model's inputs see it: for a model trained through
+    /// a schema, read through that schema (units converted, values checked,
+    /// derived inputs computed; rows are never dropped); otherwise as it is.
+    /// Returns the table and the derivations' row warnings.
+    ///
+    /// # Errors
+    /// As [`crate::data::schema::Schema::prepare`].
+    pub fn read_through_schema(
+        &self,
+        table: &Table,
+        need_targets: bool,
+    ) -> Result<(Table, Vec<RowWarning>)> {
+        match &self.schema {
+            None => Ok((table.clone(), Vec::new())),
+            Some(schema) => {
+                let p = schema.prepare(
+                    table,
+                    "stored in the model",
+                    PrepareOptions {
+                        need_targets,
+                        drop_incomplete_rows: false,
+                    },
+                )?;
+                Ok((p.table, p.row_warnings))
+            }
+        }
+    }
+
     /// Estimate every target for every row of `table`.
     ///
     /// # Errors
-    /// As [`Model::scaled_inputs`].
+    /// As [`Model::read_through_schema`] and [`Model::scaled_inputs`].
     pub fn predict(&self, table: &Table) -> Result<Vec<RowPrediction>> {
-        let (raw, scaled) = self.scaled_inputs(table)?;
-        Ok(self.predict_arrays(&raw, &scaled))
+        let (prepared, warnings) = self.read_through_schema(table, false)?;
+        let (raw, scaled) = self.scaled_inputs(&prepared)?;
+        let mut rows = self.predict_arrays(&raw, &scaled);
+        for w in warnings {
+            if let Some(r) = rows.get_mut(w.row) {
+                r.notes.push(w.message);
+            }
+        }
+        Ok(rows)
     }
 
-    /// Estimates from raw and scaled input matrices (rows × inputs).
-    pub fn predict_arrays(&self, raw: &Array2<f64>, scaled: &Array2<f64>) -> Vec<RowPrediction> {
-        let z = z975();
-        let per_target: Vec<Vec<Estimate>> = self
-            .targets
+    /// Per target, per row: the predictive distribution on the scale the
+    /// target was learnt on.
+    pub fn predict_learnt_scale(&self, scaled: &Array2<f64>) -> Vec<Vec<ScalePrediction>> {
+        self.targets
             .iter()
             .map(|t| {
                 let p = t.committee.predict_scaled(scaled.view());
@@ -93,18 +169,27 @@ impl Model {
                     .iter()
                     .zip(&p.var)
                     .zip(&p.noise_var)
-                    .map(|((m, v), nv)| {
-                        let mean = t.scaling.unscale_linear(*m);
-                        let sd = v.sqrt() * w;
-                        Estimate {
-                            mean,
-                            sd,
-                            lo95: mean - z * sd,
-                            hi95: mean + z * sd,
-                            noise_sd: nv.sqrt() * w,
-                            model_sd: (v - nv).max(0.0).sqrt() * w,
-                        }
+                    .map(|((m, v), nv)| ScalePrediction {
+                        mean: t.scaling.unscale_linear(*m),
+                        sd: v.sqrt() * w,
+                        noise_sd: nv.sqrt() * w,
                     })
+                    .collect()
+            })
+            .collect()
+    }
+
+    /// Estimates from raw and scaled input matrices (rows × inputs).
+    pub fn predict_arrays(&self, raw: &Array2<f64>, scaled: &Array2<f64>) -> Vec<RowPrediction> {
+        let z = z975();
+        let per_target: Vec<Vec<Estimate>> = self
+            .targets
+            .iter()
+            .zip(self.predict_learnt_scale(scaled))
+            .map(|(t, preds)| {
+                preds
+                    .iter()
+                    .map(|p| t.transform.back_transform(p.mean, p.sd, p.noise_sd, z))
                     .collect()
             })
             .collect();
@@ -118,5 +203,54 @@ impl Model {
                 }
             })
             .collect()
+    }
+
+    /// Measure the model on a table holding measured targets: per target,
+    /// its name and the evaluation over the rows where it was measured
+    /// (`None` when no row was). For a transformed target the NLPD is the
+    /// density of the measured value on its own scale (Jacobian included)
+    /// and the coverages count values inside the back-transformed intervals.
+    ///
+    /// # Errors
+    /// As [`Model::predict`], plus a missing or unreadable target column.
+    pub fn evaluate(&self, table: &Table) -> Result<Vec<(String, Option<Evaluation>)>> {
+        let (prepared, _) = self.read_through_schema(table, true)?;
+        let (_, scaled) = self.scaled_inputs(&prepared)?;
+        let learnt = self.predict_learnt_scale(&scaled);
+        let z = z975();
+        let mut out = Vec::new();
+        for (t, preds) in self.targets.iter().zip(&learnt) {
+            let measured = prepared.numeric_optional(&t.name)?;
+            let (mut y, mut point, mut zy, mut zm, mut zs, mut jac) =
+                (vec![], vec![], vec![], vec![], vec![], vec![]);
+            for (row, (v, p)) in measured.iter().zip(preds).enumerate() {
+                let Some(v) = *v else { continue };
+                let (Some(g), Some(lj)) = (t.transform.forward(v), t.transform.log_jacobian(v))
+                else {
+                    return Err(Error::Cell {
+                        path: table.source().display().to_string(),
+                        row: row + 1,
+                        line: row + 2,
+                        column: t.name.clone(),
+                        problem: format!(
+                            "{v} cannot be judged on the scale '{}' the model learnt: expected {}",
+                            t.transform.name(),
+                            t.transform.domain_text()
+                        ),
+                    });
+                };
+                y.push(v);
+                point.push(t.transform.back_transform(p.mean, p.sd, p.noise_sd, z).mean);
+                zy.push(g);
+                zm.push(p.mean);
+                zs.push(p.sd);
+                jac.push(lj);
+            }
+            out.push((
+                t.name.clone(),
+                evaluate_on_scale(&y, &point, &zy, &zm, &zs, &jac),
+            ));
+        }
+        Ok(out)
     }
 }

@@ -1,0 +1,985 @@
+//! The schema file: what each column of a table of test records is, in
+//! which unit it was written, which values it may take, which targets are
+//! learnt through a transform, and which inputs are derived from others.
+//!
+//! The format is TOML, of this project's own design, described in full in
+//! `docs/schema.md`:
+//!
+//! ```toml
+//! mettle_schema = 1
+//!
+//! [[column]]
+//! name = "mn_wt"
+//! role = "input"          # input | target | auxiliary | identifier | ignored
+//! unit = "wt%"
+//! stands_for = "Mn"       # the conventional name derivations read
+//! min = 0.0
+//! max = 2.5
+//!
+//! [[column]]
+//! name = "charpy_ftlbf"
+//! role = "target"
+//! unit = "ft*lbf"
+//! transform = "log"       # none | log | bounded
+//!
+//! [[derived]]
+//! spec = "ce_iiw"         # as accepted by Derivation::parse
+//! name = "CE"             # optional; default the derivation's own column name
+//! ```
+//!
+//! Reading a table through a schema ([`Schema::prepare`]) converts every
+//! value to the internal unit of its quantity ([`crate::units`]), checks
+//! it, computes the derived inputs and returns a numeric table ready for
+//! training or estimation. Every problem is an error naming file, row and
+//! column; nothing is filled in.
+
+use std::path::Path;
+
+use serde::{Deserialize, Serialize};
+
+use crate::data::Table;
+use crate::derive::{Composition, Derivation, RowWarning};
+use crate::error::{Error, Result};
+use crate::model::TargetTransform;
+use crate::prec::{BOUNDED_MARGIN_DEFAULT, COMPOSITION_SUM_SLACK};
+use crate::units::{Quantity, Unit};
+
+/// The schema format version this build reads and writes.
+pub const SCHEMA_VERSION: u64 = 1;
+
+/// What a column is for.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize, Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum Role {
+    /// Given to the networks.
+    Input,
+    /// Learnt: one committee per target.
+    Target,
+    /// Read and checked like an input, used only to compute derived inputs.
+    Auxiliary,
+    /// Names a record (heat, weld, specimen); never used as a number.
+    Identifier,
+    /// Not read.
+    Ignored,
+}
+
+impl Role {
+    /// The role's name as written in a schema.
+    pub fn name(self) -> &'static str {
+        match self {
+            Role::Input => "input",
+            Role::Target => "target",
+            Role::Auxiliary => "auxiliary",
+            Role::Identifier => "identifier",
+            Role::Ignored => "ignored",
+        }
+    }
+
+    /// Whether the column is read as numbers.
+    pub fn is_numeric(self) -> bool {
+        matches!(self, Role::Input | Role::Target | Role::Auxiliary)
+    }
+}
+
+/// The transform a target is learnt through, as written in a schema.
+#[derive(Clone, Copy, Debug, Default, PartialEq, Eq, Serialize, Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum TransformChoice {
+    /// Learnt as it is.
+    #[default]
+    None,
+    /// Learnt on the log scale (values must be > 0).
+    Log,
+    /// Learnt on a logit scale between the column's `min` and `max`.
+    Bounded,
+}
+
+impl TransformChoice {
+    fn is_none(&self) -> bool {
+        *self == TransformChoice::None
+    }
+}
+
+/// One column of the table.
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct ColumnSpec {
+    /// The column's header in the file.
+    pub name: String,
+    /// What it is for.
+    pub role: Role,
+    /// The unit the file is written in; required for numeric roles.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub unit: Option<Unit>,
+    /// The conventional name a derivation reads this column as (an element
+    /// symbol such as `Mn`, or `voltage`, `current`, `travel_speed`,
+    /// `arc_efficiency`, `heat_input`, `preheat`, `thickness`).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub stands_for: Option<String>,
+    /// Smallest allowed value, in `unit`.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub min: Option<f64>,
+    /// Largest allowed value, in `unit`.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub max: Option<f64>,
+    /// For a target: the scale it is learnt on.
+    #[serde(default, skip_serializing_if = "TransformChoice::is_none")]
+    pub transform: TransformChoice,
+    /// For a bounded target: the widening of [min, max] on each side, as a
+    /// share of max − min (default [`BOUNDED_MARGIN_DEFAULT`]).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub margin: Option<f64>,
+}
+
+impl ColumnSpec {
+    /// The unit, or dimensionless when none was given.
+    pub fn unit_or_1(&self) -> Unit {
+        self.unit.unwrap_or(Unit::Dimensionless)
+    }
+
+    /// The internal unit values are converted to.
+    pub fn internal_unit(&self) -> Unit {
+        Unit::internal_for(self.unit_or_1().quantity())
+    }
+
+    /// The target transform on the internal scale.
+    pub fn target_transform(&self) -> TargetTransform {
+        match self.transform {
+            TransformChoice::None => TargetTransform::Identity,
+            TransformChoice::Log => TargetTransform::Log,
+            TransformChoice::Bounded => {
+                let u = self.unit_or_1();
+                // validate() makes sure both bounds exist for a bounded target
+                let a = u.to_internal(self.min.unwrap_or(0.0));
+                let b = u.to_internal(self.max.unwrap_or(1.0));
+                let share = self.margin.unwrap_or(BOUNDED_MARGIN_DEFAULT);
+                TargetTransform::Bounded {
+                    lower: a,
+                    upper: b,
+                    margin: share * (b - a),
+                }
+            }
+        }
+    }
+
+    fn bounds_text(&self) -> String {
+        let u = self.unit_or_1().symbol();
+        match (self.min, self.max) {
+            (Some(lo), Some(hi)) => format!("{lo} to {hi} {u}"),
+            (Some(lo), None) => format!("at least {lo} {u}"),
+            (None, Some(hi)) => format!("at most {hi} {u}"),
+            (None, None) => "any value".into(),
+        }
+    }
+}
+
+/// One derived input.
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct DerivedSpec {
+    /// The derivation, e.g. `ce_iiw`, `heat_input:SAW`, `t85:butt_fill`.
+    pub spec: Derivation,
+    /// Name of the new column; default the derivation's own.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub name: Option<String>,
+}
+
+impl DerivedSpec {
+    /// Name of the column it adds.
+    pub fn column_name(&self) -> String {
+        self.name
+            .clone()
+            .unwrap_or_else(|| self.spec.output_column().to_string())
+    }
+
+    /// Unit of the column it adds.
+    pub fn unit(&self) -> Unit {
+        // every derivation's output unit is a unit mettle knows
+        Unit::parse(self.spec.output_unit()).unwrap_or(Unit::Dimensionless)
+    }
+}
+
+/// A schema: the columns of a table and the inputs derived from them.
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct Schema {
+    /// Format version; always [`SCHEMA_VERSION`].
+    pub mettle_schema: u64,
+    /// The columns, in the order inputs are given to the networks.
+    #[serde(default, rename = "column")]
+    pub columns: Vec<ColumnSpec>,
+    /// Derived inputs, computed in this order (a later one may read an
+    /// earlier one: `t85` reads the `heat_input` derived before it).
+    #[serde(default, skip_serializing_if = "Vec::is_empty")]
+    pub derived: Vec<DerivedSpec>,
+}
+
+/// The conventional names derivations read, with the quantity of each.
+pub fn conventional_quantity(name: &str) -> Option<Quantity> {
+    if Composition::ELEMENTS.contains(&name) {
+        return Some(Quantity::Composition);
+    }
+    Some(match name {
+        "voltage" => Quantity::Voltage,
+        "current" => Quantity::Current,
+        "travel_speed" => Quantity::TravelSpeed,
+        "arc_efficiency" => Quantity::Dimensionless,
+        "heat_input" => Quantity::HeatInput,
+        "preheat" => Quantity::Temperature,
+        "thickness" => Quantity::Length,
+        _ => return None,
+    })
+}
+
+/// Every conventional name, for messages.
+pub fn conventional_names() -> String {
+    let mut v: Vec<&str> = Composition::ELEMENTS.to_vec();
+    v.extend([
+        "voltage",
+        "current",
+        "travel_speed",
+        "arc_efficiency",
+        "heat_input",
+        "preheat",
+        "thickness",
+    ]);
+    v.join(", ")
+}
+
+/// Where a derivation finds a conventional column.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum Provider {
+    /// A schema column (index into [`Schema::columns`]).
+    Column(usize),
+    /// An earlier derived input (index into [`Schema::derived`]).
+    Derived(usize),
+}
+
+/// How a table is to be read through a schema.
+#[derive(Clone, Copy, Debug, Default, PartialEq, Eq)]
+pub struct PrepareOptions {
+    /// Targets and identifiers must be present (training, evaluation);
+    /// when false (estimation) they are read if present.
+    pub need_targets: bool,
+    /// Leave out rows that lack an input value instead of failing.
+    pub drop_incomplete_rows: bool,
+}
+
+/// A table read through a schema.
+#[derive(Clone, Debug, PartialEq)]
+pub struct Prepared {
+    /// Numeric table in internal units: inputs, derived inputs, then the
+    /// targets present, each under its column name.
+    pub table: Table,
+    /// Network inputs in order: the input columns, then the derived ones.
+    pub inputs: Vec<String>,
+    /// Targets present, with the transform each is learnt through.
+    pub targets: Vec<(String, TargetTransform)>,
+    /// Rows of the file (1-based) left out for a missing input.
+    pub dropped_rows: Vec<usize>,
+    /// Derivation warnings (validity ranges); `row` is 0-based in the file.
+    pub row_warnings: Vec<RowWarning>,
+    /// Warnings about the table as a whole (columns not in the schema,
+    /// elements taken as absent by a derivation).
+    pub notes: Vec<String>,
+}
+
+/// Values of the numeric columns as read and converted, with the problems
+/// found.
+#[derive(Debug)]
+pub(crate) struct Checked {
+    /// Per schema column: converted values (internal units), or `None` for
+    /// a column not read (absent, identifier, ignored).
+    pub values: Vec<Option<Vec<Option<f64>>>>,
+    /// Problems in the order found.
+    pub problems: Vec<Error>,
+}
+
+impl Schema {
+    /// Parse schema TOML; `name` is used in messages.
+    ///
+    /// # Errors
+    /// [`Error::Schema`] for malformed TOML, unknown keys, roles, units
+    /// (listing the known ones) or transforms, and for any inconsistency
+    /// found by [`Schema::validate`].
+    pub fn from_toml(text: &str, name: &str) -> Result<Schema> {
+        let schema: Schema = toml::from_str(text).map_err(|e| Error::Schema {
+            path: name.to_string(),
+            message: e.to_string().trim_end().replace('\n', " | "),
+        })?;
+        schema.validate(name)?;
+        Ok(schema)
+    }
+
+    /// Read a schema file.
+    ///
+    /// # Errors
+    /// [`Error::Io`] when unreadable; otherwise as [`Schema::from_toml`].
+    pub fn load(path: &Path) -> Result<Schema> {
+        let text = std::fs::read_to_string(path).map_err(|source| Error::Io {
+            path: path.display().to_string(),
+            source,
+        })?;
+        Self::from_toml(&text, &path.display().to_string())
+    }
+
+    /// Check the schema for consistency.
+    ///
+    /// # Errors
+    /// [`Error::Schema`] naming the column and what is allowed.
+    pub fn validate(&self, name: &str) -> Result<()> {
+        let bad = |message: String| Error::Schema {
+            path: name.to_string(),
+            message,
+        };
+        if self.mettle_schema != SCHEMA_VERSION {
+            return Err(bad(format!(
+                "mettle_schema = {}: this mettle reads schema version {SCHEMA_VERSION}",
+                self.mettle_schema
+            )));
+        }
+        if self.columns.is_empty() {
+            return Err(bad(
+                "no [[column]] entries: declare at least one column".into()
+            ));
+        }
+        let mut seen: Vec<&str> = Vec::new();
+        for c in &self.columns {
+            let col = |m: String| bad(format!("column '{}': {m}", c.name));
+            if c.name.trim().is_empty() {
+                return Err(bad("a column has an empty name".into()));
+            }
+            if seen.contains(&c.name.as_str()) {
+                return Err(col("declared twice".into()));
+            }
+            seen.push(&c.name);
+            if c.role.is_numeric() && c.unit.is_none() {
+                return Err(col(format!(
+                    "role {} needs a unit (write unit = \"1\" for a pure number); known units: {}",
+                    c.role.name(),
+                    Unit::known_list()
+                )));
+            }
+            for (k, v) in [("min", c.min), ("max", c.max), ("margin", c.margin)] {
+                if v.is_some_and(|x| !x.is_finite()) {
+                    return Err(col(format!("{k} must be a finite number")));
+                }
+            }
+            if let (Some(lo), Some(hi)) = (c.min, c.max) {
+                if lo >= hi {
+                    return Err(col(format!("min = {lo} must be below max = {hi}")));
+                }
+            }
+            if (c.min.is_some() || c.max.is_some()) && !c.role.is_numeric() {
+                return Err(col(format!(
+                    "bounds are for input, target and auxiliary columns, not {}",
+                    c.role.name()
+                )));
+            }
+            if c.transform != TransformChoice::None && c.role != Role::Target {
+                return Err(col(format!(
+                    "transform is for targets only (this column is {})",
+                    c.role.name()
+                )));
+            }
+            match c.transform {
+                TransformChoice::Log if c.unit_or_1().quantity() == Quantity::Temperature => {
+                    return Err(col(
+                        "a log transform needs a quantity with a true zero; a temperature has none (use transform = \"bounded\" or none)".into(),
+                    ))
+                }
+                TransformChoice::Bounded if c.min.is_none() || c.max.is_none() => {
+                    return Err(col(
+                        "transform = \"bounded\" needs both min and max: the interval the values are confined to".into(),
+                    ))
+                }
+                _ => {}
+            }
+            if let Some(m) = c.margin {
+                if c.transform != TransformChoice::Bounded {
+                    return Err(col("margin is for bounded targets only".into()));
+                }
+                if !(m > 0.0 && m < 0.5) {
+                    return Err(col(format!(
+                        "margin = {m}: expected a share of the interval between 0 and 0.5 (default {BOUNDED_MARGIN_DEFAULT})"
+                    )));
+                }
+            }
+            if let Some(s) = &c.stands_for {
+                let Some(q) = conventional_quantity(s) else {
+                    return Err(col(format!(
+                        "stands_for = \"{s}\" is not a name derivations read; known names: {}",
+                        conventional_names()
+                    )));
+                };
+                if !matches!(c.role, Role::Input | Role::Auxiliary) {
+                    return Err(col("stands_for is for input and auxiliary columns".into()));
+                }
+                if c.unit_or_1().quantity() != q {
+                    return Err(col(format!(
+                        "stands_for = \"{s}\" is a {q}, but unit {} measures {}",
+                        c.unit_or_1(),
+                        c.unit_or_1().quantity()
+                    )));
+                }
+                if self
+                    .columns
+                    .iter()
+                    .filter(|o| o.stands_for.as_deref() == Some(s.as_str()))
+                    .count()
+                    > 1
+                {
+                    return Err(col(format!(
+                        "stands_for = \"{s}\" is given to more than one column"
+                    )));
+                }
+            }
+        }
+        for (k, d) in self.derived.iter().enumerate() {
+            let out = d.column_name();
+            let der = |m: String| bad(format!("derived '{out}' ({}): {m}", d.spec.spec()));
+            if seen.contains(&out.as_str()) {
+                return Err(der(
+                    "its name is already a column or an earlier derived input; give it another with name = \"...\"".into(),
+                ));
+            }
+            seen.push(
+                self.derived[k]
+                    .name
+                    .as_deref()
+                    .unwrap_or(d.spec.output_column()),
+            );
+            for use_ in d.spec.columns() {
+                match self.provider(use_.name, k) {
+                    Some(Provider::Column(i)) => {
+                        let c = &self.columns[i];
+                        let q = conventional_quantity(use_.name);
+                        if q.is_some_and(|q| q != c.unit_or_1().quantity()) {
+                            return Err(der(format!(
+                                "reads column '{}' as {}, but its unit {} is not a {}",
+                                c.name,
+                                use_.name,
+                                c.unit_or_1(),
+                                q.map_or("number", |q| q.name())
+                            )));
+                        }
+                    }
+                    Some(Provider::Derived(_)) => {}
+                    None if use_.optional => {}
+                    None => {
+                        return Err(der(format!(
+                        "needs {}: declare an input or auxiliary column with stands_for = \"{}\"",
+                        use_.name, use_.name
+                    )))
+                    }
+                }
+            }
+        }
+        Ok(())
+    }
+
+    /// Where derived input number `before` finds the conventional column
+    /// `conventional`: a column declared with that `stands_for`, else an
+    /// input or auxiliary column of exactly that name without a
+    /// `stands_for`, else an earlier derived input of that conventional name.
+    pub fn provider(&self, conventional: &str, before: usize) -> Option<Provider> {
+        if let Some(i) = self
+            .columns
+            .iter()
+            .position(|c| c.stands_for.as_deref() == Some(conventional))
+        {
+            return Some(Provider::Column(i));
+        }
+        if let Some(i) = self.columns.iter().position(|c| {
+            c.name == conventional
+                && c.stands_for.is_none()
+                && matches!(c.role, Role::Input | Role::Auxiliary)
+        }) {
+            return Some(Provider::Column(i));
+        }
+        self.derived[..before.min(self.derived.len())]
+            .iter()
+            .rposition(|d| d.spec.output_column() == conventional)
+            .map(Provider::Derived)
+    }
+
+    /// Columns with a role.
+    pub fn with_role(&self, role: Role) -> impl Iterator<Item = &ColumnSpec> {
+        self.columns.iter().filter(move |c| c.role == role)
+    }
+
+    /// The column called `name`.
+    pub fn column(&self, name: &str) -> Option<&ColumnSpec> {
+        self.columns.iter().find(|c| c.name == name)
+    }
+
+    /// The unit the file gives for column `name` (a derived input: the
+    /// derivation's unit).
+    pub fn declared_unit(&self, name: &str) -> Option<Unit> {
+        self.column(name).and_then(|c| c.unit).or_else(|| {
+            self.derived
+                .iter()
+                .find(|d| d.column_name() == name)
+                .map(DerivedSpec::unit)
+        })
+    }
+
+    /// Read, convert and check every numeric column, collecting at most
+    /// `max_problems` problems (reading goes on past them, with bad values
+    /// left out).
+    pub(crate) fn check(
+        &self,
+        table: &Table,
+        schema_name: &str,
+        need_targets: bool,
+        max_problems: usize,
+    ) -> Checked {
+        let path = table.source().display().to_string();
+        let mut problems: Vec<Error> = Vec::new();
+        let push = |problems: &mut Vec<Error>, e: Error| {
+            if problems.len() < max_problems {
+                problems.push(e);
+            }
+        };
+        let mut values = Vec::with_capacity(self.columns.len());
+        for c in &self.columns {
+            let required = match c.role {
+                Role::Input | Role::Auxiliary => true,
+                Role::Target | Role::Identifier => need_targets,
+                Role::Ignored => false,
+            };
+            if table.index_of(&c.name).is_none() {
+                if required {
+                    push(
+                        &mut problems,
+                        Error::DeclaredColumnMissing {
+                            path: path.clone(),
+                            schema: schema_name.to_string(),
+                            name: c.name.clone(),
+                            available: table.names().join(", "),
+                        },
+                    );
+                }
+                values.push(None);
+                continue;
+            }
+            if !c.role.is_numeric() {
+                values.push(None);
+                continue;
+            }
+            let (raw, cell_problems) = match table.numeric_lenient(&c.name) {
+                Ok(v) => v,
+                Err(e) => {
+                    push(&mut problems, e);
+                    values.push(None);
+                    continue;
+                }
+            };
+            for e in cell_problems {
+                push(&mut problems, e);
+            }
+            let unit = c.unit_or_1();
+            let transform = c.target_transform();
+            let mut converted = Vec::with_capacity(raw.len());
+            for (row, v) in raw.iter().enumerate() {
+                let Some(v) = *v else {
+                    converted.push(None);
+                    continue;
+                };
+                let cell = |problem: String| Error::Cell {
+                    path: path.clone(),
+                    row: row + 1,
+                    line: row + 2,
+                    column: c.name.clone(),
+                    problem,
+                };
+                let x = unit.to_internal(v);
+                let problem = if unit.quantity() == Quantity::Composition && v < 0.0 {
+                    Some(format!(
+                        "negative concentration {v} {unit}: a content cannot be below 0"
+                    ))
+                } else if c.min.is_some_and(|lo| v < lo) || c.max.is_some_and(|hi| v > hi) {
+                    Some(format!(
+                        "{v} {unit} is outside the declared bounds {}",
+                        c.bounds_text()
+                    ))
+                } else if c.role == Role::Target && transform.forward(x).is_none() {
+                    Some(format!(
+                        "{v} {unit} cannot be learnt through transform '{}': expected {}",
+                        transform.name(),
+                        transform.domain_text()
+                    ))
+                } else {
+                    None
+                };
+                match problem {
+                    Some(p) => {
+                        push(&mut problems, cell(p));
+                        converted.push(None);
+                    }
+                    None => converted.push(Some(x)),
+                }
+            }
+            values.push(Some(converted));
+        }
+        // the elements of one row cannot sum above 100 wt%
+        let comp: Vec<usize> = (0..self.columns.len())
+            .filter(|&i| {
+                self.columns[i].role.is_numeric()
+                    && self.columns[i].unit_or_1().quantity() == Quantity::Composition
+                    && values[i].is_some()
+            })
+            .collect();
+        if !comp.is_empty() {
+            for row in 0..table.n_rows() {
+                let parts: Vec<(usize, f64)> = comp
+                    .iter()
+                    .filter_map(|&i| values[i].as_ref().and_then(|v| v[row]).map(|x| (i, x)))
+                    .collect();
+                let total: f64 = parts.iter().map(|p| p.1).sum();
+                if total > 100.0 + COMPOSITION_SUM_SLACK {
+                    push(
+                        &mut problems,
+                        Error::CompositionSum {
+                            path: path.clone(),
+                            row: row + 1,
+                            line: row + 2,
+                            columns: parts
+                                .iter()
+                                .map(|(i, x)| format!("'{}' = {x}", self.columns[*i].name))
+                                .collect::<Vec<_>>()
+                                .join(", "),
+                            total,
+                        },
+                    );
+                }
+            }
+        }
+        Checked { values, problems }
+    }
+
+    /// Read `table` through the schema: convert to internal units, check
+    /// every value, compute the derived inputs, and return the numeric
+    /// table the engine uses.
+    ///
+    /// Rows whose target is missing are kept (the engine leaves them out
+    /// for that target and counts them). A row that lacks an input value,
+    /// or for which a derived input cannot be computed, is an error listing
+    /// the rows, unless `opts.drop_incomplete_rows`.
+    ///
+    /// # Errors
+    /// The first problem found: [`Error::DeclaredColumnMissing`],
+    /// [`Error::Cell`] (not a number, NaN or infinity, negative
+    /// concentration, outside the declared bounds, outside a target
+    /// transform's domain), [`Error::CompositionSum`],
+    /// [`Error::Derive`], [`Error::MissingInputs`].
+    pub fn prepare(
+        &self,
+        table: &Table,
+        schema_name: &str,
+        opts: PrepareOptions,
+    ) -> Result<Prepared> {
+        let path = table.source().display().to_string();
+        let checked = self.check(table, schema_name, opts.need_targets, 1);
+        if let Some(e) = checked.problems.into_iter().next() {
+            return Err(e);
+        }
+        let values = checked.values;
+        let n = table.n_rows();
+        let mut notes: Vec<String> = table
+            .names()
+            .iter()
+            .filter(|n| self.column(n).is_none())
+            .map(|n| format!("column '{n}' is not in the schema and is not used"))
+            .collect();
+
+        // derived inputs, in order
+        let mut derived_values: Vec<Vec<Option<f64>>> = Vec::new();
+        let mut row_warnings = Vec::new();
+        let mut not_computed: Vec<Vec<Option<String>>> = Vec::new();
+        for (k, d) in self.derived.iter().enumerate() {
+            let get = |name: &str| -> Option<Vec<f64>> {
+                let col = match self.provider(name, k)? {
+                    Provider::Column(i) => values[i].as_ref()?,
+                    Provider::Derived(j) => &derived_values[j],
+                };
+                Some(col.iter().map(|v| v.unwrap_or(f64::NAN)).collect())
+            };
+            let out = d.spec.apply(&get, n).map_err(|e| Error::Derive {
+                path: path.clone(),
+                message: format!("derived input '{}': {e}", d.column_name()),
+            })?;
+            for a in &out.assumed_zero {
+                notes.push(format!(
+                    "derived input '{}': no column stands for {a}; taken as 0 wt% in every row",
+                    d.column_name()
+                ));
+            }
+            let mut why = vec![None; n];
+            for w in out.warnings {
+                if w.message.contains("not computed") {
+                    why[w.row] = Some(w.message);
+                } else {
+                    row_warnings.push(w);
+                }
+            }
+            derived_values.push(
+                out.values
+                    .iter()
+                    .map(|v| v.is_finite().then_some(*v))
+                    .collect(),
+            );
+            not_computed.push(why);
+        }
+
+        // rows lacking an input value
+        let mut incomplete: Vec<(usize, Vec<String>)> = Vec::new();
+        for row in 0..n {
+            let mut lacking: Vec<String> = Vec::new();
+            for (c, v) in self.columns.iter().zip(&values) {
+                if matches!(c.role, Role::Input | Role::Auxiliary)
+                    && v.as_ref().is_some_and(|v| v[row].is_none())
+                {
+                    lacking.push(format!("'{}'", c.name));
+                }
+            }
+            if lacking.is_empty() {
+                for (k, d) in self.derived.iter().enumerate() {
+                    if derived_values[k][row].is_none() {
+                        lacking.push(match &not_computed[k][row] {
+                            Some(why) => format!("derived '{}' ({why})", d.column_name()),
+                            None => format!("derived '{}'", d.column_name()),
+                        });
+                    }
+                }
+            }
+            if !lacking.is_empty() {
+                incomplete.push((row, lacking));
+            }
+        }
+        if !incomplete.is_empty() && !opts.drop_incomplete_rows {
+            const SHOWN: usize = 10;
+            let mut detail = incomplete
+                .iter()
+                .take(SHOWN)
+                .map(|(r, cols)| format!("row {} (line {}): {}", r + 1, r + 2, cols.join(", ")))
+                .collect::<Vec<_>>()
+                .join("; ");
+            if incomplete.len() > SHOWN {
+                detail.push_str(&format!("; and {} more rows", incomplete.len() - SHOWN));
+            }
+            return Err(Error::MissingInputs {
+                path,
+                n_rows: incomplete.len(),
+                detail,
+            });
+        }
+        let dropped: Vec<usize> = incomplete.iter().map(|(r, _)| *r).collect();
+        let keep: Vec<usize> = (0..n).filter(|r| !dropped.contains(r)).collect();
+        row_warnings.retain(|w| !dropped.contains(&w.row));
+
+        let mut cols: Vec<(String, Vec<Option<f64>>)> = Vec::new();
+        let mut inputs = Vec::new();
+        for (c, v) in self.columns.iter().zip(&values) {
+            if let (Role::Input, Some(v)) = (c.role, v) {
+                inputs.push(c.name.clone());
+                cols.push((c.name.clone(), keep.iter().map(|&r| v[r]).collect()));
+            }
+        }
+        for (d, v) in self.derived.iter().zip(&derived_values) {
+            inputs.push(d.column_name());
+            cols.push((d.column_name(), keep.iter().map(|&r| v[r]).collect()));
+        }
+        let mut targets = Vec::new();
+        for (c, v) in self.columns.iter().zip(&values) {
+            if let (Role::Target, Some(v)) = (c.role, v) {
+                targets.push((c.name.clone(), c.target_transform()));
+                cols.push((c.name.clone(), keep.iter().map(|&r| v[r]).collect()));
+            }
+        }
+        Ok(Prepared {
+            table: Table::from_optional_columns(table.source(), cols)?,
+            inputs,
+            targets,
+            dropped_rows: dropped.iter().map(|r| r + 1).collect(),
+            row_warnings,
+            notes,
+        })
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use approx::assert_abs_diff_eq;
+
+    const SCHEMA: &str = r#"
+mettle_schema = 1
+
+[[column]]
+name = "id"
+role = "identifier"
+
+[[column]]
+name = "c"
+role = "input"
+unit = "wt%"
+stands_for = "C"
+min = 0
+max = 1
+
+[[column]]
+name = "mn"
+role = "input"
+unit = "wt%"
+stands_for = "Mn"
+
+[[column]]
+name = "b_ppm"
+role = "auxiliary"
+unit = "ppm"
+stands_for = "B"
+
+[[column]]
+name = "si"
+role = "auxiliary"
+unit = "wt%"
+stands_for = "Si"
+
+[[column]]
+name = "kv"
+role = "target"
+unit = "ft*lbf"
+transform = "log"
+
+[[column]]
+name = "elong"
+role = "target"
+unit = "%"
+min = 0
+max = 100
+transform = "bounded"
+
+[[derived]]
+spec = "pcm"
+"#;
+
+    fn table(rows: &str) -> Table {
+        let mut cols: Vec<(String, Vec<Option<f64>>)> = ["c", "mn", "b_ppm", "si", "kv", "elong"]
+            .iter()
+            .map(|n| (n.to_string(), Vec::new()))
+            .collect();
+        for line in rows.lines().filter(|l| !l.trim().is_empty()) {
+            for (col, cell) in cols.iter_mut().zip(line.split(',')) {
+                col.1.push(cell.trim().parse().ok());
+            }
+        }
+        let mut t = Table::from_optional_columns(Path::new("mem.csv"), cols).expect("table");
+        let n = t.n_rows();
+        t.push_column(
+            "id".into(),
+            crate::data::ColumnData::Text((0..n).map(|i| Some(format!("W{i}"))).collect()),
+        )
+        .expect("id");
+        t
+    }
+
+    #[test]
+    fn converts_units_and_derives() {
+        let s = Schema::from_toml(SCHEMA, "s.toml").expect("schema");
+        let t = table("0.1,1.2,20,0.3,20,25\n0.12,1.4,10,0.2,50,30\n");
+        let p = s
+            .prepare(&t, "s.toml", PrepareOptions::default())
+            .expect("prepare");
+        assert_eq!(p.inputs, vec!["c", "mn", "Pcm"]);
+        // 20 ft·lbf = 27.1164 J — NIST SP 811 via the trade-formulas reference [S]
+        let kv = p.table.numeric("kv").expect("kv");
+        assert_abs_diff_eq!(kv[0], 27.1164, epsilon = 5e-5);
+        // Pcm = C + Si/30 + Mn/20 + 5B with B = 20 ppm = 0.002 wt% (Ito &
+        // Bessyo 1968 via the reference [S]; arithmetic by hand)
+        let pcm = p.table.numeric("Pcm").expect("pcm");
+        assert_abs_diff_eq!(pcm[0], 0.1 + 0.01 + 0.06 + 0.01, epsilon = 1e-12);
+        assert_eq!(p.targets[1].1.name(), "bounded");
+        assert!(p.notes.iter().any(|n| n.contains("Cu")), "{:?}", p.notes);
+    }
+
+    #[test]
+    fn each_bad_value_is_named() {
+        let s = Schema::from_toml(SCHEMA, "s.toml").expect("schema");
+        let cases = [
+            (
+                "0.1,1.2,20,0.3,20,25\n-0.1,1.4,10,0.2,50,30\n",
+                "negative concentration",
+                "'c'",
+            ),
+            (
+                "0.1,1.2,20,0.3,20,25\n1.5,1.4,10,0.2,50,30\n",
+                "declared bounds",
+                "'c'",
+            ),
+            ("0.1,1.2,20,0.3,0,25\n", "transform 'log'", "'kv'"),
+            ("0.1,99.5,20,0.9,20,25\n", "above the 100 wt%", "'mn'"),
+        ];
+        for (rows, what, col) in cases {
+            let e = s
+                .prepare(&table(rows), "s.toml", PrepareOptions::default())
+                .expect_err(what)
+                .to_string();
+            assert!(
+                e.contains(what) && e.contains(col) && e.contains("mem.csv"),
+                "{e}"
+            );
+        }
+    }
+
+    #[test]
+    fn missing_inputs_fail_unless_dropped_and_missing_targets_are_kept() {
+        let s = Schema::from_toml(SCHEMA, "s.toml").expect("schema");
+        let t = table("0.1,,20,0.3,20,25\n0.12,1.4,10,0.2,,30\n0.1,1.3,10,0.2,40,31\n");
+        let e = s
+            .prepare(&t, "s.toml", PrepareOptions::default())
+            .expect_err("missing mn");
+        assert!(e.to_string().contains("row 1 (line 2): 'mn'"), "{e}");
+        let p = s
+            .prepare(
+                &t,
+                "s.toml",
+                PrepareOptions {
+                    need_targets: true,
+                    drop_incomplete_rows: true,
+                },
+            )
+            .expect("dropped");
+        assert_eq!(p.dropped_rows, vec![1]);
+        assert_eq!(p.table.n_rows(), 2);
+        assert_eq!(p.table.numeric_optional("kv").expect("kv")[0], None);
+    }
+
+    #[test]
+    fn schema_mistakes_are_explained() {
+        let bad = [
+            ("mettle_schema = 1\n[[column]]\nname='x'\nrole='input'\nunit='furlong'\n", "known units"),
+            ("mettle_schema = 1\n[[column]]\nname='x'\nrole='input'\n", "needs a unit"),
+            ("mettle_schema = 1\n[[column]]\nname='x'\nrole='boss'\nunit='J'\n", "role"),
+            ("mettle_schema = 1\n[[column]]\nname='x'\nrole='target'\nunit='%'\ntransform='bounded'\n", "needs both min and max"),
+            ("mettle_schema = 1\n[[column]]\nname='x'\nrole='input'\nunit='J'\nstands_for='Mn'\n", "is a composition"),
+            ("mettle_schema = 1\n[[column]]\nname='x'\nrole='input'\nunit='wt%'\n[[derived]]\nspec='ce_iiw'\n", "needs C"),
+            ("mettle_schema = 2\n[[column]]\nname='x'\nrole='input'\nunit='wt%'\n", "version 1"),
+            ("mettle_schema = 1\n[[column]]\nname='x'\nrole='input'\nunit='wt%'\ncolour='red'\n", "colour"),
+        ];
+        for (text, what) in bad {
+            let e = Schema::from_toml(text, "s.toml")
+                .expect_err(what)
+                .to_string();
+            assert!(e.contains(what) && e.contains("s.toml"), "{what}: {e}");
+        }
+    }
+
+    #[test]
+    fn stored_schema_round_trips_through_json() {
+        let s = Schema::from_toml(SCHEMA, "s.toml").expect("schema");
+        let j = serde_json::to_string(&s).expect("json");
+        let back: Schema = serde_json::from_str(&j).expect("back");
+        assert_eq!(back, s);
+    }
+}
