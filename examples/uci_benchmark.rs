@@ -1,0 +1,188 @@
+//! The shared UCI benchmark: the 20 standard 90/10 splits of concrete,
+//! energy, yacht and red wine, trained with default settings, scored on the
+//! test parts (RMSE, test log-likelihood = −NLPD, coverage), beside the best
+//! published cells (../shared/reference/published-uci.md).
+//!
+//! ```text
+//! cargo run --release --example uci_benchmark -- [--data-dir ../shared/datasets/uci]
+//!     [--datasets concrete,energy,yacht,wine-quality-red] [--splits 20]
+//!     [--hidden 1..10] [--restarts 4] [--markdown FILE]
+//! ```
+
+use std::path::{Path, PathBuf};
+use std::time::Instant;
+
+use mettle::committee::CommitteeParams;
+use mettle::data::Table;
+use mettle::metrics::evaluate;
+use mettle::model::TrainSpec;
+use mettle::observer::Silent;
+use mettle::Model;
+
+/// Best published cells (RMSE, LL) per dataset, from published-uci.md:
+/// the lowest RMSE and highest LL of each row, with the column named.
+const PUBLISHED: [(&str, f64, &str, f64, &str); 4] = [
+    ("concrete", 4.50, "MCD 2 layers", -2.82, "MCD 2 layers"),
+    ("energy", 0.46, "NGB", -0.60, "NGB"),
+    ("yacht", 0.50, "NGB", -0.10, "GP in NGB"),
+    (
+        "wine-quality-red",
+        0.60,
+        "MCD 2 layers",
+        -0.90,
+        "MCD 2 layers",
+    ),
+];
+
+/// PBP and original MC-dropout cells (RMSE, LL), the minimum bar.
+const BASELINE: [(&str, f64, f64, f64, f64); 4] = [
+    ("concrete", 5.67, -3.16, 5.23, -3.04),
+    ("energy", 1.80, -2.04, 1.66, -1.99),
+    ("yacht", 1.02, -1.63, 1.11, -1.55),
+    ("wine-quality-red", 0.64, -0.97, 0.62, -0.93),
+];
+
+fn read_indices(path: &Path) -> Vec<usize> {
+    std::fs::read_to_string(path)
+        .unwrap_or_else(|e| panic!("{}: {e}", path.display()))
+        .split_whitespace()
+        .map(|s| s.parse().expect("row index"))
+        .collect()
+}
+
+fn subset(name: &str, names: &[String], cols: &[Vec<f64>], rows: &[usize]) -> Table {
+    Table::from_columns(
+        name,
+        names
+            .iter()
+            .zip(cols)
+            .map(|(n, c)| (n.clone(), rows.iter().map(|&i| c[i]).collect()))
+            .collect(),
+    )
+    .expect("subset table")
+}
+
+fn mean_se(v: &[f64]) -> (f64, f64) {
+    let n = v.len() as f64;
+    let m = v.iter().sum::<f64>() / n;
+    if v.len() < 2 {
+        return (m, f64::NAN);
+    }
+    let var = v.iter().map(|x| (x - m).powi(2)).sum::<f64>() / (n - 1.0);
+    (m, (var / n).sqrt())
+}
+
+fn median(v: &[f64]) -> f64 {
+    let mut s = v.to_vec();
+    s.sort_by(|a, b| a.total_cmp(b));
+    let n = s.len();
+    if n % 2 == 1 {
+        s[n / 2]
+    } else {
+        0.5 * (s[n / 2 - 1] + s[n / 2])
+    }
+}
+
+fn main() {
+    let mut data_dir = PathBuf::from("../shared/datasets/uci");
+    let mut datasets: Vec<String> = PUBLISHED.iter().map(|p| p.0.to_string()).collect();
+    let mut n_splits = 20usize;
+    let mut hidden = (1usize, 10usize);
+    let mut restarts = 4usize;
+    let mut markdown: Option<PathBuf> = None;
+    let args: Vec<String> = std::env::args().skip(1).collect();
+    let mut i = 0;
+    while i < args.len() {
+        let v = args.get(i + 1).cloned().unwrap_or_default();
+        match args[i].as_str() {
+            "--data-dir" => data_dir = PathBuf::from(v),
+            "--datasets" => datasets = v.split(',').map(str::to_string).collect(),
+            "--splits" => n_splits = v.parse().expect("--splits N"),
+            "--hidden" => {
+                let (a, b) = v.split_once("..").expect("--hidden MIN..MAX");
+                hidden = (a.parse().expect("min"), b.parse().expect("max"));
+            }
+            "--restarts" => restarts = v.parse().expect("--restarts N"),
+            "--markdown" => markdown = Some(PathBuf::from(v)),
+            other => panic!("unknown option {other}"),
+        }
+        i += 2;
+    }
+    let mut md = String::from(
+        "| dataset | splits | RMSE (mean ± SE) | best published RMSE | test LL (mean ± SE) | best published LL | coverage_68 | coverage_95 | median train s |\n|---|---|---|---|---|---|---|---|---|\n",
+    );
+    for ds in &datasets {
+        let dir = data_dir.join(ds);
+        let table = Table::read(&dir.join("data.csv")).expect("data.csv");
+        let names: Vec<String> = table.names().to_vec();
+        let cols: Vec<Vec<f64>> = names
+            .iter()
+            .map(|n| table.numeric(n).expect("numeric"))
+            .collect();
+        let target = names.last().expect("target column").clone();
+        let (mut rmse, mut ll, mut c68, mut c95, mut secs) =
+            (vec![], vec![], vec![], vec![], vec![]);
+        for k in 0..n_splits {
+            let train = read_indices(&dir.join(format!("splits/train_{k}.txt")));
+            let test = read_indices(&dir.join(format!("splits/test_{k}.txt")));
+            let tr = subset("train", &names, &cols, &train);
+            let te = subset("test", &names, &cols, &test);
+            let mut spec = TrainSpec::new(&[target.as_str()]);
+            spec.params = CommitteeParams::default()
+                .hidden(hidden.0, hidden.1)
+                .restarts(restarts)
+                .seed(k as u64);
+            let t0 = Instant::now();
+            let model = Model::train(&tr, &spec, &Silent).expect("training");
+            let dt = t0.elapsed().as_secs_f64();
+            let pred = model.predict(&te).expect("prediction");
+            let y = te.numeric(&target).expect("target");
+            let mean: Vec<f64> = pred.iter().map(|r| r.estimates[0].mean).collect();
+            let sd: Vec<f64> = pred.iter().map(|r| r.estimates[0].sd).collect();
+            let e = evaluate(&y, &mean, &sd).expect("rows");
+            let c = &model.targets[0].committee;
+            eprintln!(
+                "{ds} split {k:2}: RMSE {:.3}  LL {:.3}  cov68 {:.3}  cov95 {:.3}  {:.1} s  members {} (H {})",
+                e.rmse,
+                -e.nlpd,
+                e.coverage_68,
+                e.coverage_95,
+                dt,
+                c.members.len(),
+                c.members.iter().map(|m| m.n_hidden.to_string()).collect::<Vec<_>>().join(",")
+            );
+            rmse.push(e.rmse);
+            ll.push(-e.nlpd);
+            c68.push(e.coverage_68);
+            c95.push(e.coverage_95);
+            secs.push(dt);
+        }
+        let (rm, rse) = mean_se(&rmse);
+        let (lm, lse) = mean_se(&ll);
+        let pubrow = PUBLISHED.iter().find(|p| p.0 == ds);
+        let base = BASELINE.iter().find(|p| p.0 == ds);
+        let (pr, pl) = pubrow.map_or(("—".into(), "—".into()), |p| {
+            (
+                format!("{:.2} ({})", p.1, p.2),
+                format!("{:.2} ({})", p.3, p.4),
+            )
+        });
+        md.push_str(&format!(
+            "| {ds} | {} | {rm:.3} ± {rse:.3} | {pr} | {lm:.3} ± {lse:.3} | {pl} | {:.3} | {:.3} | {:.1} |\n",
+            rmse.len(),
+            mean_se(&c68).0,
+            mean_se(&c95).0,
+            median(&secs)
+        ));
+        if let Some(b) = base {
+            eprintln!(
+                "{ds}: RMSE {rm:.3} ± {rse:.3} (PBP {:.2}, MCD {:.2}); LL {lm:.3} ± {lse:.3} (PBP {:.2}, MCD {:.2})",
+                b.1, b.3, b.2, b.4
+            );
+        }
+    }
+    print!("{md}");
+    if let Some(p) = markdown {
+        std::fs::write(&p, &md).expect("write markdown");
+    }
+}

@@ -1,0 +1,148 @@
+//! The engine on invented data whose truth is known:
+//! 400 rows, x0, x1, x2 ~ U(−1, 1),
+//! y = sin(3·x0) + 0.5·x1² + 0·x2 + N(0, 0.1²).
+//!
+//! The committee's noise estimate, the relevance ARD gives the input that
+//! has no effect, and the growth of the error bar away from the data are
+//! checked against that truth (the generator's own settings; no outside
+//! source is needed).
+//!
+//! The search is `hidden(1, 6)` with 3 restarts (the default is 1..10 × 4):
+//! enough for this smooth two-input function, and it keeps the test at a
+//! few seconds.
+
+use mettle::committee::CommitteeParams;
+use mettle::data::Table;
+use mettle::evidence::GroupKind;
+use mettle::model::TrainSpec;
+use mettle::observer::Silent;
+use mettle::Model;
+use rand::{Rng, SeedableRng};
+use rand_distr::{Distribution, Normal};
+use rand_xoshiro::Xoshiro256PlusPlus;
+
+const NOISE_SD: f64 = 0.1;
+
+fn synthetic_model() -> Model {
+    let mut rng = Xoshiro256PlusPlus::seed_from_u64(42);
+    let noise = Normal::new(0.0, NOISE_SD).expect("positive sd");
+    let mut x: [Vec<f64>; 3] = Default::default();
+    let mut y = Vec::new();
+    for _ in 0..400 {
+        let v: [f64; 3] = std::array::from_fn(|_| rng.random_range(-1.0..1.0));
+        y.push((3.0 * v[0]).sin() + 0.5 * v[1] * v[1] + noise.sample(&mut rng));
+        for (col, vj) in x.iter_mut().zip(v) {
+            col.push(vj);
+        }
+    }
+    let [x0, x1, x2] = x;
+    let table = Table::from_columns(
+        "synthetic",
+        vec![
+            ("x0".into(), x0),
+            ("x1".into(), x1),
+            ("x2".into(), x2),
+            ("y".into(), y),
+        ],
+    )
+    .expect("table");
+    let mut spec = TrainSpec::new(&["y"]);
+    spec.auto_log_inputs = false;
+    spec.params = CommitteeParams::default().hidden(1, 6).restarts(3).seed(3);
+    Model::train(&table, &spec, &Silent).expect("training succeeds")
+}
+
+#[test]
+fn engine_recovers_noise_relevance_and_widening_error_bars() {
+    let model = synthetic_model();
+    let t = model.target("y").expect("target y");
+    let members = &t.committee.members;
+    assert!(!members.is_empty());
+
+    // 1. noise: mean over members of 1/√β (scaled units) times the target's
+    //    scaling width, against the generator's 0.1. The sd of a noise-sd
+    //    estimate from ~400 residuals is about 0.1/√800 ≈ 3.5 %; 10 % allows
+    //    for that and for the γ parameters the fit uses.
+    let noise = members.iter().map(|m| m.noise_sd()).sum::<f64>() / members.len() as f64
+        * t.scaling.width();
+    assert!(
+        (noise - NOISE_SD).abs() <= 0.10 * NOISE_SD,
+        "committee noise sd {noise}, truth {NOISE_SD}"
+    );
+
+    // 2. ARD: in every member the no-effect input x2 has the largest α of
+    //    the three input groups (smallest relevance σ_w = α^−½)
+    let x2 = model
+        .input_names()
+        .iter()
+        .position(|n| *n == "x2")
+        .expect("x2 is an input");
+    for (k, m) in members.iter().enumerate() {
+        let alpha_of = |i: usize| {
+            m.groups
+                .iter()
+                .position(|g| *g == GroupKind::Input(i))
+                .map(|p| m.alpha[p])
+                .unwrap_or_else(|| panic!("member {k} has no group for input {i}: {:?}", m.groups))
+        };
+        let a2 = alpha_of(x2);
+        for i in (0..3).filter(|&i| i != x2) {
+            assert!(
+                a2 > alpha_of(i),
+                "member {k} ({} hidden): α(x2) = {a2} is not above α(input {i}) = {}; α = {:?}",
+                m.n_hidden,
+                alpha_of(i),
+                m.alpha
+            );
+        }
+    }
+
+    // 3. error bars: the model part of the sd grows as x0 leaves the
+    //    training range [−1, 1]; the noise part stays the committee's noise
+    let x0 = [0.0, 0.9, 1.5, 2.0, 3.0];
+    let n = x0.len();
+    let query = Table::from_columns(
+        "query",
+        vec![
+            ("x0".into(), x0.to_vec()),
+            ("x1".into(), vec![0.0; n]),
+            ("x2".into(), vec![0.0; n]),
+        ],
+    )
+    .expect("query table");
+    let rows = model.predict(&query).expect("predict");
+    let model_sd: Vec<f64> = rows.iter().map(|r| r.estimates[0].model_sd).collect();
+    // the noise part of a committee's sd is √(mean of the members' 1/β)
+    let noise_rms = (members.iter().map(|m| 1.0 / m.beta).sum::<f64>() / members.len() as f64)
+        .sqrt()
+        * t.scaling.width();
+    for (i, r) in rows.iter().enumerate() {
+        assert_eq!(r.in_domain, x0[i] <= 1.0, "row {i}: {r:?}");
+        let e = &r.estimates[0];
+        assert!(
+            (e.noise_sd - noise_rms).abs() <= 1e-9 * noise_rms,
+            "row {i}: {e:?}"
+        );
+    }
+    for w in model_sd.windows(2).skip(1) {
+        assert!(
+            w[1] > w[0],
+            "model sd must grow outside the range: {model_sd:?}"
+        );
+    }
+    // far outside (x0 = 3, one range-width beyond the edge) the parameter
+    // uncertainty dominates the noise; at the centre it does not
+    assert!(model_sd[0] < noise, "{model_sd:?}");
+    assert!(model_sd[n - 1] > 3.0 * noise, "{model_sd:?}");
+    assert!(model_sd[n - 1] > 10.0 * model_sd[0], "{model_sd:?}");
+    eprintln!(
+        "synthetic: {} members (hidden {:?}), noise sd {noise:.4} (truth {NOISE_SD}), \
+         α per member {:?}, model sd at x0 = {x0:?}: {model_sd:?}",
+        members.len(),
+        members.iter().map(|m| m.n_hidden).collect::<Vec<_>>(),
+        members
+            .iter()
+            .map(|m| m.alpha[..3].to_vec())
+            .collect::<Vec<_>>()
+    );
+}
