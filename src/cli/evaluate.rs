@@ -4,7 +4,7 @@ use std::path::PathBuf;
 
 use clap::{Args, ValueEnum};
 use mettle::data::Table;
-use mettle::metrics::{evaluate, Evaluation};
+use mettle::metrics::Evaluation;
 use mettle::Model;
 use serde_json::json;
 
@@ -29,7 +29,11 @@ in the target's units; lower is better) and the coverages judge the error bars. 
 bars put about 68 % of rows inside mean ± 1 sd (coverage_68) and about 95 % inside mean ± 2 sd \
 (coverage_95).\n\n\
 JSON output (one target): an object with keys target, n, rmse, mae, r2, nlpd, coverage_68, \
-coverage_95; with several targets, an array of such objects."
+coverage_95; with several targets, an array of such objects.\n\n\
+For a model trained with a schema the table is read through the stored schema (units converted, \
+derived inputs computed), and values are judged in internal units. For a target learnt on a log \
+or bounded scale, nlpd is the density of the measured value on its own scale and the coverages \
+count values inside the back-transformed (asymmetric) intervals."
 )]
 pub struct EvaluateArgs {
     /// Model file written by `mettle train`.
@@ -49,26 +53,15 @@ pub struct EvaluateArgs {
 pub fn run(a: EvaluateArgs) -> anyhow::Result<()> {
     let model = Model::load(&a.model)?;
     let table = Table::read(&a.data)?;
-    let rows = model.predict(&table)?;
     let mut results: Vec<(String, Evaluation)> = Vec::new();
-    for (k, t) in model.targets.iter().enumerate() {
-        let measured = table.numeric_optional(&t.name)?;
-        let (mut y, mut m, mut s) = (Vec::new(), Vec::new(), Vec::new());
-        for (r, v) in rows.iter().zip(&measured) {
-            if let Some(v) = v {
-                y.push(*v);
-                m.push(r.estimates[k].mean);
-                s.push(r.estimates[k].sd);
-            }
-        }
-        let e = evaluate(&y, &m, &s).ok_or_else(|| {
+    for (name, e) in model.evaluate(&table)? {
+        let e = e.ok_or_else(|| {
             UsageError(format!(
-                "{}: no row has a measured '{}'",
-                a.data.display(),
-                t.name
+                "{}: no row has a measured '{name}'",
+                a.data.display()
             ))
         })?;
-        results.push((t.name.clone(), e));
+        results.push((name, e));
     }
     let text = match a.format {
         EvalFormat::Json => {

@@ -94,3 +94,21 @@ pub fn num(v: f64) -> String {
         format!("{v:.4}")
     }
 }
+
+/// Derivation warnings on stderr, one line per kind with the rows it
+/// concerns (they are warnings: the values were still computed).
+pub fn print_row_warnings(warnings: &[mettle::derive::RowWarning]) {
+    const ROWS_SHOWN: usize = 10;
+    for g in mettle::derive::group_warnings(warnings) {
+        let mut rows: Vec<String> = g
+            .rows
+            .iter()
+            .take(ROWS_SHOWN)
+            .map(|r| (r + 1).to_string())
+            .collect();
+        if g.rows.len() > ROWS_SHOWN {
+            rows.push(format!("... ({} rows in all)", g.rows.len()));
+        }
+        eprintln!("warning: {} — rows {}", g.message, rows.join(", "));
+    }
+}

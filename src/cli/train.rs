@@ -6,8 +6,9 @@ use std::time::Instant;
 use anyhow::Context;
 use clap::Args;
 use mettle::committee::CommitteeParams;
+use mettle::data::schema::Schema;
 use mettle::data::Table;
-use mettle::model::TrainSpec;
+use mettle::model::{SchemaTrainOptions, SchemaTrainReport, TrainSpec};
 use mettle::Model;
 
 use super::progress::TrainProgress;
@@ -21,18 +22,43 @@ The table is a CSV with a header row (or a Parquet file). Part of its rows (--ho
 out inside the training data to rank candidate networks and choose the committee; the chosen \
 members are then refitted on all rows. Nothing is tuned on data you later evaluate on: keep your \
 test rows in a separate file and use `mettle evaluate`.\n\n\
-Example:\n  mettle train --data welds.csv --target uts_mpa --out uts.json --seed 7"
+With --schema, a TOML file says what each column is (input, target, auxiliary, identifier, \
+ignored), its unit, its allowed bounds, the scale each target is learnt on (none, log, bounded) \
+and the inputs derived from others (carbon equivalents, heat input, t8/5 ...); see docs/schema.md. \
+Values are converted to internal units and checked on read: a bad cell, a value outside its \
+bounds, a negative concentration or a composition above 100 wt% stops training with the file, \
+row and column named. A row without a target value is left out for that target only; a row \
+without an input value is an error unless --drop-incomplete-rows. Nothing is filled in.\n\n\
+Examples:\n  mettle train --data welds.csv --target uts_mpa --out uts.json --seed 7\n  \
+mettle train --data welds.csv --schema welds.toml --out welds_model.json"
 )]
 pub struct TrainArgs {
     /// Table of test records (CSV with a header row, or .parquet).
     #[arg(long, value_name = "FILE")]
     data: PathBuf,
     /// Target column(s) to learn; repeat or separate with commas for one committee per target.
-    #[arg(long, value_name = "NAME", value_delimiter = ',', required = true)]
+    #[arg(
+        long,
+        value_name = "NAME",
+        value_delimiter = ',',
+        required_unless_present = "schema",
+        conflicts_with = "schema"
+    )]
     target: Vec<String>,
     /// Input columns, comma-separated [default: every other numeric column].
-    #[arg(long, value_name = "A,B,...", value_delimiter = ',')]
+    #[arg(
+        long,
+        value_name = "A,B,...",
+        value_delimiter = ',',
+        conflicts_with = "schema"
+    )]
     inputs: Option<Vec<String>>,
+    /// Schema file (TOML) naming each column's role, unit, bounds, target transform and the derived inputs.
+    #[arg(long, value_name = "SCHEMA.toml")]
+    schema: Option<PathBuf>,
+    /// With --schema: leave out rows that lack an input value (they are listed) instead of stopping.
+    #[arg(long, requires = "schema")]
+    drop_incomplete_rows: bool,
     /// Where to write the model (JSON). Written atomically: a failed run leaves an older file intact.
     #[arg(long, value_name = "MODEL.json")]
     out: PathBuf,
@@ -102,15 +128,32 @@ pub fn run(a: TrainArgs) -> anyhow::Result<()> {
         .max_members(a.max_members)
         .widen(!a.no_widen)
         .ard(!a.no_ard);
-    let spec = TrainSpec {
-        targets: a.target.clone(),
-        inputs: a.inputs.clone(),
-        auto_log_inputs: !a.no_log_inputs,
-        params,
-    };
     let progress = TrainProgress::new(a.quiet);
     let started = Instant::now();
-    let result = Model::train(&table, &spec, &progress);
+    let (result, report) = match &a.schema {
+        Some(path) => {
+            let schema = Schema::load(path)?;
+            let opts = SchemaTrainOptions {
+                params,
+                auto_log_inputs: !a.no_log_inputs,
+                drop_incomplete_rows: a.drop_incomplete_rows,
+            };
+            let name = path.display().to_string();
+            match Model::train_with_schema(&table, &schema, &name, &opts, &progress) {
+                Ok((m, r)) => (Ok(m), Some(r)),
+                Err(e) => (Err(e), None),
+            }
+        }
+        None => {
+            let spec = TrainSpec {
+                targets: a.target.clone(),
+                inputs: a.inputs.clone(),
+                auto_log_inputs: !a.no_log_inputs,
+                params,
+            };
+            (Model::train(&table, &spec, &progress), None)
+        }
+    };
     progress.finish();
     let mut model = result?;
     let secs = started.elapsed().as_secs_f64();
@@ -120,6 +163,9 @@ pub fn run(a: TrainArgs) -> anyhow::Result<()> {
     model
         .save(&a.out)
         .with_context(|| format!("saving the model to {}", a.out.display()))?;
+    if let Some(r) = &report {
+        print_schema_report(r, &a.data);
+    }
     if !a.quiet {
         for s in &model.set_aside {
             eprintln!("warning: input '{}' set aside: {}", s.name, s.reason);
@@ -131,7 +177,7 @@ pub fn run(a: TrainArgs) -> anyhow::Result<()> {
                 * t.scaling.width();
             let failed = c.candidates.iter().filter(|c| c.failure.is_some()).count();
             eprintln!(
-                "{}: {} rows{}, committee of {} (hidden units {}), held-out NLPD {:.3}, noise sd {:.4}; {} of {} candidates discarded",
+                "{}: {} rows{}, committee of {} (hidden units {}), held-out NLPD {:.3}, noise sd {:.4}{}; {} of {} candidates discarded",
                 t.name,
                 t.n_rows,
                 if t.n_missing > 0 { format!(" ({} without this target left out)", t.n_missing) } else { String::new() },
@@ -139,6 +185,10 @@ pub fn run(a: TrainArgs) -> anyhow::Result<()> {
                 c.members.iter().map(|m| m.n_hidden.to_string()).collect::<Vec<_>>().join(","),
                 c.selection.nlpd_by_size[c.selection.n_members - 1],
                 noise,
+                match t.transform.name() {
+                    "none" => String::new(),
+                    other => format!(" (both on the {other} scale the target is learnt on)"),
+                },
                 failed,
                 c.candidates.len()
             );
@@ -146,4 +196,22 @@ pub fn run(a: TrainArgs) -> anyhow::Result<()> {
         eprintln!("model written to {} ({secs:.1} s)", a.out.display());
     }
     Ok(())
+}
+
+/// Warnings of training through a schema, on stderr. Derivation warnings
+/// are shown for the first rows only, with a count of the rest.
+fn print_schema_report(r: &SchemaTrainReport, data: &std::path::Path) {
+    for n in &r.notes {
+        eprintln!("note: {n}");
+    }
+    if !r.dropped_rows.is_empty() {
+        let list: Vec<String> = r.dropped_rows.iter().map(|x| x.to_string()).collect();
+        eprintln!(
+            "warning: {} rows left out of {} because an input value is missing (--drop-incomplete-rows): rows {}",
+            r.dropped_rows.len(),
+            data.display(),
+            list.join(", ")
+        );
+    }
+    super::output::print_row_warnings(&r.row_warnings);
 }

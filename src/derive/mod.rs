@@ -270,6 +270,41 @@ pub struct RowWarning {
     pub message: String,
 }
 
+/// Warnings of the same kind gathered: the message with the row's own
+/// value left out, and the rows (0-based) it applies to.
+#[derive(Debug, Clone, PartialEq, Eq, Serialize, Deserialize)]
+pub struct WarningGroup {
+    /// The message shared by the rows, e.g. "CE(IIW): C outside C ≥ 0.18 wt% ...".
+    pub message: String,
+    /// Rows concerned, 0-based, in the order first met.
+    pub rows: Vec<usize>,
+}
+
+/// Gather row warnings that differ only in the row's value: a validity
+/// message `F: X = v unit is outside X range (basis)` is keyed by `F: X`
+/// and what follows "is outside"; any other message by itself. Groups keep
+/// the order in which they are first met.
+pub fn group_warnings(warnings: &[RowWarning]) -> Vec<WarningGroup> {
+    let mut groups: Vec<WarningGroup> = Vec::new();
+    for w in warnings {
+        let key = match (
+            w.message.split_once(" = "),
+            w.message.split_once(" is outside "),
+        ) {
+            (Some((head, _)), Some((_, tail))) => format!("{head} outside {tail}"),
+            _ => w.message.clone(),
+        };
+        match groups.iter_mut().find(|g| g.message == key) {
+            Some(g) => g.rows.push(w.row),
+            None => groups.push(WarningGroup {
+                message: key,
+                rows: vec![w.row],
+            }),
+        }
+    }
+    groups
+}
+
 /// A derived column with its warnings.
 #[derive(Debug, Clone, PartialEq, Default, Serialize, Deserialize)]
 pub struct Derived {

@@ -418,3 +418,28 @@ fn composition_element_access() {
     assert_eq!(c.element("Zr"), None);
     assert_eq!(c.element("mn"), None);
 }
+
+#[test]
+fn warnings_of_one_kind_are_grouped() {
+    let w = |row: usize, m: &str| RowWarning {
+        row,
+        message: m.to_string(),
+    };
+    let groups = group_warnings(&[
+        w(
+            0,
+            "CE(IIW): C = 0.05 wt% is outside C ≥ 0.18 wt% (published range)",
+        ),
+        w(
+            3,
+            "CE(IIW): C = 0.07 wt% is outside C ≥ 0.18 wt% (published range)",
+        ),
+        w(4, "t85: value of preheat is missing; not computed"),
+    ]);
+    assert_eq!(groups.len(), 2);
+    assert_eq!(
+        groups[0].message,
+        "CE(IIW): C outside C ≥ 0.18 wt% (published range)"
+    );
+    assert_eq!(groups[0].rows, vec![0, 3]);
+}

@@ -157,6 +157,19 @@ impl Model {
         Ok(rows)
     }
 
+    /// The unit estimates of target `name` are given in: with `declared`,
+    /// the unit the schema declares for it (the unit of the training file),
+    /// otherwise the internal unit of its quantity. `None` for a model
+    /// trained without a schema (its units are whatever the file used).
+    pub fn target_unit(&self, name: &str, declared: bool) -> Option<Unit> {
+        let c = self.schema.as_ref()?.column(name)?;
+        Some(if declared {
+            c.unit_or_1()
+        } else {
+            c.internal_unit()
+        })
+    }
+
     /// Per target, per row: the predictive distribution on the scale the
     /// target was learnt on.
     pub fn predict_learnt_scale(&self, scaled: &Array2<f64>) -> Vec<Vec<ScalePrediction>> {
