@@ -397,7 +397,6 @@ fn non_numeric_cells_are_refused_naming_file_row_and_column() {
 /// word: either the train is refused naming the cell, or the column is
 /// recorded as set aside with a reason naming the cell.
 #[test]
-#[ignore = "engine bug: a column with one non-numeric cell is silently dropped from the default inputs (src/model/train.rs, Table::is_numeric); see the test report"]
 fn a_bad_cell_in_a_default_input_is_not_silently_dropped() {
     let w = Workdir::new();
     let text: String = fixture_csv(150, 11)
@@ -655,7 +654,6 @@ fn help_of_each_subcommand_exits_0() {
 /// DEVELOPERS.md, "Adding a command": each command's `long_about` teaches
 /// it, with an example.
 #[test]
-#[ignore = "CLI bug: the variants' doc comments in src/cli/mod.rs replace each subcommand's long_about, so `--help` shows no example; and predict/evaluate/demo-data have none; see the test report"]
 fn help_of_each_subcommand_mentions_an_example() {
     let w = Workdir::new();
     for sub in SUBCOMMANDS {

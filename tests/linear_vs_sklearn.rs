@@ -210,7 +210,6 @@ fn linear_mode_matches_bayesian_ridge_on_diabetes() {
 /// sklearn's, or sharing the weights' α: numpy gives 0.93 % then) meets
 /// it; mettle's pruned bias (module doc) misses it by a factor of ten.
 #[test]
-#[ignore = "design question for the engine: the evidence prunes the linear model's output bias (own α → ∞), shifting means by up to 10 % of the noise sd; see the test report"]
 fn linear_means_agree_within_one_percent_of_the_noise_sd() {
     let r = reference();
     let table = diabetes_table();

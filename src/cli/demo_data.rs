@@ -8,6 +8,7 @@ use mettle::demo::{write_demo_datasets, DemoParams};
 /// Arguments of `mettle demo-data`.
 #[derive(Args, Debug)]
 #[command(
+    about = "Write the invented demo tables (fictional scenario; not test results).",
     long_about = "Write the invented demo tables of the fictional Fellhaven scenario.\n\n\
 The records are INVENTED: generated from published relations (Pickering-type strength terms, \
 the EN 1011-2 cooling time, the tanh Charpy transition curve) plus invented effects and realistic \
@@ -16,7 +17,10 @@ byte-identical files."
 )]
 pub struct DemoDataArgs {
     /// Folder to write the tables into (created if missing).
-    #[arg(long, value_name = "DIR")]
+    #[arg(
+        long,
+        value_name = "DIR\n\nExample:\n  mettle demo-data --out out/demo"
+    )]
     out: PathBuf,
     /// Seed of the generator.
     #[arg(long, value_name = "N", default_value_t = DemoParams::default().seed)]

@@ -23,6 +23,7 @@ pub enum EvalFormat {
 /// Arguments of `mettle evaluate`.
 #[derive(Args, Debug)]
 #[command(
+    about = "Measure a model's accuracy and error-bar honesty on a table with measured values.",
     long_about = "Measure a model on a table that holds the measured targets.\n\n\
 rmse, mae and r2 judge the means; nlpd (mean negative log predictive density, nats per point, \
 in the target's units; lower is better) and the coverages judge the error bars. Honest error \
@@ -37,7 +38,10 @@ count values inside the back-transformed (asymmetric) intervals."
 )]
 pub struct EvaluateArgs {
     /// Model file written by `mettle train`.
-    #[arg(long, value_name = "MODEL.json")]
+    #[arg(
+        long,
+        value_name = "MODEL.json\n\nExample:\n  mettle evaluate --model uts.json --data held_back.csv --format json"
+    )]
     model: PathBuf,
     /// Table with the model's inputs and measured targets.
     #[arg(long, value_name = "FILE")]

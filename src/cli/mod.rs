@@ -2,6 +2,7 @@
 //! Nothing here computes anything the library could.
 
 mod demo_data;
+mod derive;
 mod evaluate;
 mod output;
 mod predict;
@@ -43,13 +44,13 @@ pub struct Cli {
 
 #[derive(Subcommand, Debug)]
 enum Command {
-    /// Train a committee for each target on a table of test records.
+    // about and long_about come from the Args struct: a doc comment here would replace them
     Train(train::TrainArgs),
-    /// Estimate the targets, with error bars and a domain verdict, for new rows.
+    // about and long_about come from the Args struct: a doc comment here would replace them
     Predict(predict::PredictArgs),
-    /// Measure a model's accuracy and error-bar honesty on a table with measured values.
+    // about and long_about come from the Args struct: a doc comment here would replace them
     Evaluate(evaluate::EvaluateArgs),
-    /// Write the invented demo tables (fictional scenario; not test results).
+    // about and long_about come from the Args struct: a doc comment here would replace them
     DemoData(demo_data::DemoDataArgs),
 }
 
@@ -62,6 +63,7 @@ pub fn run(cli: Cli) -> anyhow::Result<()> {
         Command::Train(a) => train::run(a),
         Command::Predict(a) => predict::run(a),
         Command::Evaluate(a) => evaluate::run(a),
+        Command::Derive(a) => derive::run(a),
         Command::DemoData(a) => demo_data::run(a),
     }
 }

@@ -26,6 +26,7 @@ pub enum UnitChoice {
 /// Arguments of `mettle predict`.
 #[derive(Args, Debug)]
 #[command(
+    about = "Estimate the targets, with error bars and a domain verdict, for new rows.",
     long_about = "Estimate every target of a model, with error bars, for each row of a table.\n\n\
 Each estimate has a mean, a median, a standard deviation (sd = noise + model uncertainty), the \
 central 95 % interval (lo95, hi95) and a domain verdict: in_domain is false, with notes naming the \
@@ -43,7 +44,10 @@ Estimates are not test results: qualification testing per the applicable code de
 )]
 pub struct PredictArgs {
     /// Model file written by `mettle train`.
-    #[arg(long, value_name = "MODEL.json")]
+    #[arg(
+        long,
+        value_name = "MODEL.json\n\nExample:\n  mettle predict --model uts.json --input new_heats.csv --format json --out estimates.json"
+    )]
     model: PathBuf,
     /// Rows to estimate (CSV with a header row, or Parquet); must hold every input column of the model.
     #[arg(long, value_name = "FILE")]

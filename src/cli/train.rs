@@ -17,6 +17,7 @@ use super::UsageError;
 /// Arguments of `mettle train`.
 #[derive(Args, Debug)]
 #[command(
+    about = "Train a committee for each target on a table of test records.",
     long_about = "Train a committee of Bayesian-regularised networks for each target.\n\n\
 The table is a CSV with a header row (or a Parquet file). Part of its rows (--holdout) is held \
 out inside the training data to rank candidate networks and choose the committee; the chosen \

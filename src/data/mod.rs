@@ -3,10 +3,12 @@
 //! what each column is ([`schema`]).
 
 mod atomic;
+mod derived;
 mod fingerprint;
 pub mod schema;
 mod table;
 
 pub use atomic::write_atomic;
+pub use derived::{derive_columns, DeriveOutcome};
 pub use fingerprint::fingerprint;
 pub use table::{ColumnData, FileFormat, Table};

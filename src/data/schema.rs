@@ -295,6 +295,19 @@ pub(crate) struct Checked {
     pub problems: Vec<Error>,
 }
 
+/// Derived columns computed from checked values.
+#[derive(Debug, Default)]
+pub(crate) struct DerivedColumns {
+    /// Per derived input, its values (`None` where not computed).
+    pub values: Vec<Vec<Option<f64>>>,
+    /// Validity-range warnings (0-based rows).
+    pub row_warnings: Vec<RowWarning>,
+    /// Per derived input and row, why the value could not be computed.
+    pub not_computed: Vec<Vec<Option<String>>>,
+    /// Elements taken as absent.
+    pub notes: Vec<String>,
+}
+
 impl Schema {
     /// Parse schema TOML; `name` is used in messages.
     ///
@@ -658,6 +671,52 @@ impl Schema {
         Checked { values, problems }
     }
 
+    /// Compute the derived inputs, in order, from the checked values (a
+    /// missing value gives a missing derived value, with its reason).
+    pub(crate) fn compute_derived(
+        &self,
+        values: &[Option<Vec<Option<f64>>>],
+        n: usize,
+        path: &str,
+    ) -> Result<DerivedColumns> {
+        let mut out_cols = DerivedColumns::default();
+        for (k, d) in self.derived.iter().enumerate() {
+            let get = |name: &str| -> Option<Vec<f64>> {
+                let col = match self.provider(name, k)? {
+                    Provider::Column(i) => values[i].as_ref()?,
+                    Provider::Derived(j) => &out_cols.values[j],
+                };
+                Some(col.iter().map(|v| v.unwrap_or(f64::NAN)).collect())
+            };
+            let out = d.spec.apply(&get, n).map_err(|e| Error::Derive {
+                path: path.to_string(),
+                message: format!("derived input '{}': {e}", d.column_name()),
+            })?;
+            for a in &out.assumed_zero {
+                out_cols.notes.push(format!(
+                    "derived input '{}': no column stands for {a}; taken as 0 wt% in every row",
+                    d.column_name()
+                ));
+            }
+            let mut why = vec![None; n];
+            for w in out.warnings {
+                if w.message.contains("not computed") {
+                    why[w.row] = Some(w.message);
+                } else {
+                    out_cols.row_warnings.push(w);
+                }
+            }
+            out_cols.values.push(
+                out.values
+                    .iter()
+                    .map(|v| v.is_finite().then_some(*v))
+                    .collect(),
+            );
+            out_cols.not_computed.push(why);
+        }
+        Ok(out_cols)
+    }
+
     /// Read `table` through the schema: convert to internal units, check
     /// every value, compute the derived inputs, and return the numeric
     /// table the engine uses.
@@ -693,44 +752,13 @@ impl Schema {
             .map(|n| format!("column '{n}' is not in the schema and is not used"))
             .collect();
 
-        // derived inputs, in order
-        let mut derived_values: Vec<Vec<Option<f64>>> = Vec::new();
-        let mut row_warnings = Vec::new();
-        let mut not_computed: Vec<Vec<Option<String>>> = Vec::new();
-        for (k, d) in self.derived.iter().enumerate() {
-            let get = |name: &str| -> Option<Vec<f64>> {
-                let col = match self.provider(name, k)? {
-                    Provider::Column(i) => values[i].as_ref()?,
-                    Provider::Derived(j) => &derived_values[j],
-                };
-                Some(col.iter().map(|v| v.unwrap_or(f64::NAN)).collect())
-            };
-            let out = d.spec.apply(&get, n).map_err(|e| Error::Derive {
-                path: path.clone(),
-                message: format!("derived input '{}': {e}", d.column_name()),
-            })?;
-            for a in &out.assumed_zero {
-                notes.push(format!(
-                    "derived input '{}': no column stands for {a}; taken as 0 wt% in every row",
-                    d.column_name()
-                ));
-            }
-            let mut why = vec![None; n];
-            for w in out.warnings {
-                if w.message.contains("not computed") {
-                    why[w.row] = Some(w.message);
-                } else {
-                    row_warnings.push(w);
-                }
-            }
-            derived_values.push(
-                out.values
-                    .iter()
-                    .map(|v| v.is_finite().then_some(*v))
-                    .collect(),
-            );
-            not_computed.push(why);
-        }
+        let DerivedColumns {
+            values: derived_values,
+            mut row_warnings,
+            not_computed,
+            notes: derived_notes,
+        } = self.compute_derived(&values, n, &path)?;
+        notes.extend(derived_notes);
 
         // rows lacking an input value
         let mut incomplete: Vec<(usize, Vec<String>)> = Vec::new();

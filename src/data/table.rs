@@ -413,6 +413,17 @@ impl Table {
             })
     }
 
+    /// True when at least one cell of the column reads as a number: such a
+    /// column is meant to be numeric, and a text cell in it is an error to
+    /// report, not a reason to drop the column.
+    pub fn has_numbers(&self, name: &str) -> bool {
+        match self.column_data(name) {
+            Ok(ColumnData::Number(v)) => v.iter().any(Option::is_some),
+            Ok(ColumnData::Text(v)) => v.iter().flatten().any(|s| parse_number(s).is_some()),
+            Err(_) => false,
+        }
+    }
+
     /// True when every non-empty cell of the column reads as a number.
     pub fn is_numeric(&self, name: &str) -> bool {
         match self.column_data(name) {

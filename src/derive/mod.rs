@@ -552,6 +552,26 @@ impl Derivation {
             .join(", ")
     }
 
+    /// Parse a comma-separated list of specifications, e.g.
+    /// `ce_iiw,pcm,t85:corner_fillet,F3=0.8,heat_input:SAW`. A comma also
+    /// separates the parameters of `t85`, so an item that does not start
+    /// with a derivation name continues the item before it.
+    pub fn parse_list(list: &str) -> Result<Vec<Derivation>, DeriveError> {
+        let mut items: Vec<String> = Vec::new();
+        for piece in list.split(',').map(str::trim).filter(|p| !p.is_empty()) {
+            let name = piece.split_once(':').map_or(piece, |(n, _)| n);
+            let starts_new = Derivation::parse(name).is_ok();
+            match items.last_mut() {
+                Some(last) if !starts_new => {
+                    last.push(',');
+                    last.push_str(piece);
+                }
+                _ => items.push(piece.to_string()),
+            }
+        }
+        items.iter().map(|i| Derivation::parse(i)).collect()
+    }
+
     /// Parse `name` or `name:parameters` (see the module doc for the syntax).
     pub fn parse(spec: &str) -> Result<Derivation, DeriveError> {
         let spec = spec.trim();

@@ -443,3 +443,18 @@ fn warnings_of_one_kind_are_grouped() {
     );
     assert_eq!(groups[0].rows, vec![0, 3]);
 }
+
+#[test]
+fn lists_split_between_derivations_not_inside_parameters() {
+    let v = Derivation::parse_list("ce_iiw, pcm,t85:corner_fillet,F3=0.8,heat_input:SAW").unwrap();
+    assert_eq!(v.len(), 4);
+    assert_eq!(v[0], Derivation::CeIiw);
+    // F2/F3 of a corner fillet from memory [M]; the override F3 = 0.8 applies
+    assert_eq!(
+        v[2],
+        Derivation::T85 {
+            factors: ShapeFactors { f2: 0.67, f3: 0.8 }
+        }
+    );
+    assert!(Derivation::parse_list("ce_iiw,nonsense").is_err());
+}

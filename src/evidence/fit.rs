@@ -260,6 +260,24 @@ fn rel_change(new: f64, old: f64) -> f64 {
     (new - old).abs() / old.abs().max(f64::MIN_POSITIVE)
 }
 
+/// The output bias gets a near-flat prior (α fixed at [`ALPHA_MIN`]) and is
+/// left out of the α re-estimation: it carries the target's mean level,
+/// which no prior belief pulls towards the middle of the training range.
+/// Re-estimating it would let the evidence prune it (α → ∞) whenever that
+/// level happens to lie near the centre, shifting every estimate. This is
+/// the usual treatment of the intercept in Bayesian linear regression
+/// (Bishop 2006, *Pattern Recognition and Machine Learning*, §3.3, and
+/// scikit-learn's `BayesianRidge`, which centres the data instead). The
+/// constant it adds to the log evidence is the same for every candidate.
+fn flat_output_bias(groups: &Groups, mut alpha: Vec<f64>) -> Vec<f64> {
+    for (a, kind) in alpha.iter_mut().zip(groups.kinds()) {
+        if *kind == GroupKind::OutputBias {
+            *a = ALPHA_MIN;
+        }
+    }
+    alpha
+}
+
 /// Minimise M for fixed hyperparameters from `w0`.
 fn minimise<'a>(
     arch: &Architecture,
@@ -338,7 +356,7 @@ pub fn fit_network<'a>(
     let n = x.nrows() as f64;
     let mut diag = FitDiagnostics::default();
     let mut w = start.weights;
-    let mut alpha = start.alpha;
+    let mut alpha = flat_output_bias(&groups, start.alpha);
     let mut beta = start.beta;
     let mut last: Option<(f64, f64, Vec<f64>)> = None; // (β, γ, α) of the previous cycle
     let mut snapshot: Option<FittedNetwork> = None;
@@ -449,6 +467,11 @@ pub fn fit_network<'a>(
         // re-estimate
         let mut new_alpha = Vec::with_capacity(alpha.len());
         for (c, (&g, &s)) in gamma.iter().zip(&sum_sq).enumerate() {
+            if groups.kinds()[c] == GroupKind::OutputBias {
+                // near-flat prior: see `flat_output_bias`
+                new_alpha.push(ALPHA_MIN);
+                continue;
+            }
             let raw = if s > 0.0 { g / s } else { ALPHA_MAX };
             let bounded = raw.clamp(ALPHA_MIN, ALPHA_MAX);
             if bounded != raw {

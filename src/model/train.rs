@@ -177,7 +177,7 @@ impl Model {
             None => table
                 .names()
                 .iter()
-                .filter(|n| !spec.targets.contains(n) && table.is_numeric(n))
+                .filter(|n| !spec.targets.contains(n) && table.has_numbers(n))
                 .cloned()
                 .collect(),
         };
