@@ -14,6 +14,7 @@ use super::UsageError;
 /// Arguments of `mettle derive`.
 #[derive(Args, Debug)]
 #[command(
+    about = "Add derived metallurgical inputs (carbon equivalents, heat input, t8/5, Ms, Ac1, Ac3) as new columns.",
     long_about = "Add derived metallurgical inputs to a table as new columns.\n\n\
 Known derivations (formula, source and validity range of each in docs/derivations.md):\n  \
 ce_iiw  carbon equivalent CE(IIW)            pcm     Ito-Bessyo Pcm\n  \
@@ -48,7 +49,8 @@ pub struct DeriveArgs {
 }
 
 pub fn run(a: DeriveArgs) -> anyhow::Result<()> {
-    let derivations = Derivation::parse_list(&a.add).map_err(|e| UsageError(format!("--add: {e}")))?;
+    let derivations =
+        Derivation::parse_list(&a.add).map_err(|e| UsageError(format!("--add: {e}")))?;
     let schema = match &a.schema {
         Some(p) => Some((Schema::load(p)?, p.display().to_string())),
         None => None,

@@ -51,6 +51,8 @@ enum Command {
     // about and long_about come from the Args struct: a doc comment here would replace them
     Evaluate(evaluate::EvaluateArgs),
     // about and long_about come from the Args struct: a doc comment here would replace them
+    Derive(derive::DeriveArgs),
+    // about and long_about come from the Args struct: a doc comment here would replace them
     DemoData(demo_data::DemoDataArgs),
 }
 

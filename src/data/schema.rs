@@ -692,10 +692,11 @@ impl Schema {
                 path: path.to_string(),
                 message: format!("derived input '{}': {e}", d.column_name()),
             })?;
-            for a in &out.assumed_zero {
+            if !out.assumed_zero.is_empty() {
                 out_cols.notes.push(format!(
-                    "derived input '{}': no column stands for {a}; taken as 0 wt% in every row",
-                    d.column_name()
+                    "derived input '{}': no column stands for {}; taken as 0 wt% in every row",
+                    d.column_name(),
+                    out.assumed_zero.join(", ")
                 ));
             }
             let mut why = vec![None; n];
