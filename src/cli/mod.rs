@@ -1,6 +1,7 @@
 //! Command-line parsing and the glue from arguments to library calls.
 //! Nothing here computes anything the library could.
 
+mod audit;
 mod demo_data;
 mod derive;
 mod evaluate;
@@ -53,6 +54,8 @@ enum Command {
     // about and long_about come from the Args struct: a doc comment here would replace them
     Derive(derive::DeriveArgs),
     // about and long_about come from the Args struct: a doc comment here would replace them
+    Audit(audit::AuditArgs),
+    // about and long_about come from the Args struct: a doc comment here would replace them
     DemoData(demo_data::DemoDataArgs),
 }
 
@@ -66,6 +69,7 @@ pub fn run(cli: Cli) -> anyhow::Result<()> {
         Command::Predict(a) => predict::run(a),
         Command::Evaluate(a) => evaluate::run(a),
         Command::Derive(a) => derive::run(a),
+        Command::Audit(a) => audit::run(a),
         Command::DemoData(a) => demo_data::run(a),
     }
 }

@@ -3,6 +3,7 @@
 //! what each column is ([`schema`]).
 
 mod atomic;
+pub mod audit;
 mod derived;
 mod fingerprint;
 pub mod schema;

@@ -1,0 +1,214 @@
+//! `mettle audit`
+
+use std::path::PathBuf;
+
+use clap::{Args, ValueEnum};
+use mettle::data::audit::{audit, AuditOptions, AuditReport};
+use mettle::data::schema::Schema;
+use mettle::data::Table;
+
+use super::output::{aligned, emit, num};
+
+/// Output formats of `audit`.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, ValueEnum)]
+pub enum AuditFormat {
+    /// Sections of aligned text.
+    Table,
+    /// One JSON object.
+    Json,
+}
+
+/// Arguments of `mettle audit`.
+#[derive(Args, Debug)]
+#[command(
+    about = "Check a table of test records before trusting it: bad cells, duplicates, replicate scatter, outliers.",
+    long_about = "Check a table of test records before training on it.\n\n\
+Reports rows and columns; per column the count, missing and unusable cells, min, max, median and \
+unit; exact duplicate rows; replicate groups (rows with identical inputs and several measured \
+values of a target) with the pooled replicate standard deviation per target — the measured scatter \
+of repeat tests, which a model's fitted noise level should be compared with; strongly correlated \
+input pairs (|r| ≥ 0.95); outliers by the robust z-score 0.6745·(x − median)/MAD above 3.5; inputs \
+with fewer than 4 distinct values; and a short verdict list of what to fix first.\n\n\
+With --schema the table is read as training would read it: values in internal units, and negative \
+concentrations, values outside declared bounds and compositions above 100 wt% are reported (all of \
+them, not only the first). Without a schema, --target names the targets and every other column \
+holding numbers is taken as an input (or those given with --inputs).\n\n\
+JSON output: one object with keys file, n_rows, n_columns, columns, problems, problems_not_listed, \
+rows_missing_inputs, duplicates, duplicates_compared, replicates, correlated, outliers, few_levels, \
+verdict. Rows are numbered from 1, header excluded.\n\n\
+Example:\n  mettle audit --data welds.csv --schema welds.toml"
+)]
+pub struct AuditArgs {
+    /// Table to check (CSV with a header row, or Parquet).
+    #[arg(long, value_name = "FILE")]
+    data: PathBuf,
+    /// Schema file: roles, units and bounds of the columns.
+    #[arg(long, value_name = "SCHEMA.toml")]
+    schema: Option<PathBuf>,
+    /// Without a schema: the target column(s).
+    #[arg(
+        long,
+        value_name = "NAME",
+        value_delimiter = ',',
+        conflicts_with = "schema"
+    )]
+    target: Vec<String>,
+    /// Without a schema: the input columns [default: every other column holding numbers].
+    #[arg(
+        long,
+        value_name = "A,B,...",
+        value_delimiter = ',',
+        conflicts_with = "schema"
+    )]
+    inputs: Option<Vec<String>>,
+    /// Output format.
+    #[arg(long, value_enum, default_value_t = AuditFormat::Table)]
+    format: AuditFormat,
+    /// Write to this file (atomically) instead of standard output.
+    #[arg(long, value_name = "FILE")]
+    out: Option<PathBuf>,
+}
+
+pub fn run(a: AuditArgs) -> anyhow::Result<()> {
+    let schema = match &a.schema {
+        Some(p) => Some((Schema::load(p)?, p.display().to_string())),
+        None => None,
+    };
+    let table = Table::read(&a.data)?;
+    let opts = AuditOptions {
+        targets: a.target.clone(),
+        inputs: a.inputs.clone(),
+    };
+    let report = audit(&table, schema.as_ref().map(|(s, n)| (s, n.as_str())), &opts)?;
+    let text = match a.format {
+        AuditFormat::Json => serde_json::to_string_pretty(&report)? + "\n",
+        AuditFormat::Table => to_text(&report),
+    };
+    emit(&text, a.out.as_deref())
+}
+
+fn opt(v: Option<f64>) -> String {
+    v.map_or("-".to_string(), num)
+}
+
+fn to_text(r: &AuditReport) -> String {
+    let mut s = format!(
+        "audit of {}: {} rows, {} columns\n\nwhat to fix first:\n",
+        r.file, r.n_rows, r.n_columns
+    );
+    for (i, v) in r.verdict.iter().enumerate() {
+        s.push_str(&format!("  {}. {v}\n", i + 1));
+    }
+    s.push_str("\ncolumns:\n");
+    let h: Vec<String> = [
+        "column", "role", "count", "missing", "bad", "min", "max", "median", "distinct", "unit",
+    ]
+    .iter()
+    .map(|x| x.to_string())
+    .collect();
+    let body: Vec<Vec<String>> = r
+        .columns
+        .iter()
+        .map(|c| {
+            vec![
+                c.name.clone(),
+                c.role.clone(),
+                c.count.to_string(),
+                c.missing.to_string(),
+                c.bad.to_string(),
+                opt(c.min),
+                opt(c.max),
+                opt(c.median),
+                c.distinct.to_string(),
+                match (&c.unit, &c.declared_unit) {
+                    (Some(u), Some(d)) => format!("{u} (file: {d})"),
+                    (Some(u), None) => u.clone(),
+                    _ => "-".to_string(),
+                },
+            ]
+        })
+        .collect();
+    s.push_str(&aligned(&h, &body));
+    if !r.problems.is_empty() {
+        s.push_str("\nvalues that cannot be used:\n");
+        for p in &r.problems {
+            s.push_str(&format!("  {p}\n"));
+        }
+        if r.problems_not_listed > 0 {
+            s.push_str(&format!("  ... and {} more\n", r.problems_not_listed));
+        }
+    }
+    if !r.duplicates.is_empty() {
+        s.push_str(&format!(
+            "\nexact duplicate rows (compared on {}):\n",
+            r.duplicates_compared
+        ));
+        for g in &r.duplicates {
+            let rows: Vec<String> = g.rows.iter().map(|x| x.to_string()).collect();
+            s.push_str(&format!("  rows {}\n", rows.join(", ")));
+        }
+    }
+    for rep in &r.replicates {
+        s.push_str(&format!(
+            "\nreplicates of {}: {} groups with identical inputs",
+            rep.target,
+            rep.groups.len()
+        ));
+        match rep.pooled_sd {
+            Some(sd) => s.push_str(&format!(
+                ", pooled sd {} ({} degrees of freedom)\n",
+                num(sd),
+                rep.dof
+            )),
+            None => s.push('\n'),
+        }
+        for g in rep.groups.iter().take(10) {
+            let rows: Vec<String> = g.rows.iter().map(|x| x.to_string()).collect();
+            let vals: Vec<String> = g.values.iter().map(|x| num(*x)).collect();
+            s.push_str(&format!(
+                "  rows {}: {} (sd {})\n",
+                rows.join(", "),
+                vals.join(", "),
+                num(g.sd)
+            ));
+        }
+        if rep.groups.len() > 10 {
+            s.push_str(&format!(
+                "  ... and {} more groups\n",
+                rep.groups.len() - 10
+            ));
+        }
+    }
+    if !r.correlated.is_empty() {
+        s.push_str("\nstrongly correlated inputs:\n");
+        for p in &r.correlated {
+            s.push_str(&format!(
+                "  {} ~ {}: r = {:.4} ({} rows)\n",
+                p.a, p.b, p.r, p.n
+            ));
+        }
+    }
+    if !r.outliers.is_empty() {
+        s.push_str("\noutliers (robust z above 3.5):\n");
+        for o in r.outliers.iter().take(20) {
+            s.push_str(&format!(
+                "  {} row {}: {} (z = {:.1})\n",
+                o.column,
+                o.row,
+                num(o.value),
+                o.robust_z
+            ));
+        }
+        if r.outliers.len() > 20 {
+            s.push_str(&format!("  ... and {} more\n", r.outliers.len() - 20));
+        }
+    }
+    if !r.few_levels.is_empty() {
+        s.push_str("\ninputs with few distinct values:\n");
+        for f in &r.few_levels {
+            let vals: Vec<String> = f.values.iter().map(|x| num(*x)).collect();
+            s.push_str(&format!("  {}: {}\n", f.column, vals.join(", ")));
+        }
+    }
+    s
+}

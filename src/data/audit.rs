@@ -1,0 +1,669 @@
+//! What to check before trusting a table of test records (the library side
+//! of `mettle audit`).
+//!
+//! # What is computed
+//!
+//! - per column: count, missing, min, max, median, distinct values, unit;
+//! - cells that cannot be used (not a number, NaN, infinity; with a schema
+//!   also negative concentrations, values outside declared bounds,
+//!   compositions above 100 wt%);
+//! - exact duplicate rows (every column equal, identifiers and ignored
+//!   columns aside);
+//! - replicate groups: rows with identical inputs, duplicates counted once,
+//!   and per target the pooled replicate standard deviation
+//!
+//!   ```text
+//!   s_p = √( Σ_g Σ_i (y_gi − ȳ_g)² / Σ_g (n_g − 1) )
+//!   ```
+//!
+//!   the scatter of repeat tests, which a model's fitted noise level should
+//!   be compared with (a noise sd well below s_p means overfitting);
+//! - strongly correlated input pairs, |Pearson r| ≥ [`STRONG_CORRELATION`];
+//! - outliers by the robust z-score z = 0.6745·(x − median)/MAD, flagged
+//!   when |z| > [`ROBUST_Z_OUTLIER`] (Iglewicz & Hoaglin 1993, *How to
+//!   Detect and Handle Outliers*, ASQC); a column whose MAD is zero is not
+//!   judged;
+//! - inputs with fewer than [`FEW_DISTINCT_VALUES`] distinct values;
+//! - a short verdict list, most urgent first.
+
+use serde::Serialize;
+
+use crate::data::schema::{Role, Schema};
+use crate::data::Table;
+use crate::error::Result;
+use crate::prec::{FEW_DISTINCT_VALUES, ROBUST_Z_OUTLIER, STRONG_CORRELATION};
+
+/// What to audit when there is no schema.
+#[derive(Clone, Debug, Default, PartialEq)]
+pub struct AuditOptions {
+    /// Target columns (for replicate groups and missing targets).
+    pub targets: Vec<String>,
+    /// Input columns; `None` means every other column holding numbers.
+    pub inputs: Option<Vec<String>>,
+}
+
+/// One column's summary.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct ColumnSummary {
+    /// Header.
+    pub name: String,
+    /// Role: from the schema, or input/target as asked, or "text".
+    pub role: String,
+    /// Unit of min, max and median (internal unit with a schema).
+    pub unit: Option<String>,
+    /// Unit the file is written in, when the schema declares another.
+    pub declared_unit: Option<String>,
+    /// Cells holding a usable number.
+    pub count: usize,
+    /// Empty cells.
+    pub missing: usize,
+    /// Cells that hold something unusable.
+    pub bad: usize,
+    /// Smallest value.
+    pub min: Option<f64>,
+    /// Largest value.
+    pub max: Option<f64>,
+    /// Median value.
+    pub median: Option<f64>,
+    /// Distinct values (or distinct texts for a text column).
+    pub distinct: usize,
+}
+
+/// Rows (1-based) identical in every compared column.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct DuplicateGroup {
+    /// The rows, first one first.
+    pub rows: Vec<usize>,
+}
+
+/// Rows with identical inputs and several measured values of one target.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct ReplicateGroup {
+    /// The rows (1-based).
+    pub rows: Vec<usize>,
+    /// The target values, in row order.
+    pub values: Vec<f64>,
+    /// Their sample standard deviation.
+    pub sd: f64,
+}
+
+/// Replicate scatter of one target.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct ReplicateSummary {
+    /// Target column.
+    pub target: String,
+    /// Pooled replicate sd (target unit); `None` without replicates.
+    pub pooled_sd: Option<f64>,
+    /// Degrees of freedom of the pooled sd, Σ (n_g − 1).
+    pub dof: usize,
+    /// The groups.
+    pub groups: Vec<ReplicateGroup>,
+}
+
+/// Two strongly correlated inputs.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct CorrelatedPair {
+    /// First input.
+    pub a: String,
+    /// Second input.
+    pub b: String,
+    /// Pearson correlation coefficient.
+    pub r: f64,
+    /// Rows with both values.
+    pub n: usize,
+}
+
+/// A value far from the rest of its column.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct Outlier {
+    /// Column.
+    pub column: String,
+    /// Row (1-based).
+    pub row: usize,
+    /// The value (unit of the column summary).
+    pub value: f64,
+    /// Its robust z-score.
+    pub robust_z: f64,
+}
+
+/// An input with few distinct values.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct FewLevels {
+    /// Input column.
+    pub column: String,
+    /// The distinct values, ascending.
+    pub values: Vec<f64>,
+}
+
+/// Everything `mettle audit` reports.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct AuditReport {
+    /// The file audited.
+    pub file: String,
+    /// Data rows.
+    pub n_rows: usize,
+    /// Columns.
+    pub n_columns: usize,
+    /// Per column.
+    pub columns: Vec<ColumnSummary>,
+    /// Values that cannot be used, each naming file, row and column.
+    pub problems: Vec<String>,
+    /// Problems beyond those listed.
+    pub problems_not_listed: usize,
+    /// Rows (1-based) lacking at least one input value.
+    pub rows_missing_inputs: Vec<usize>,
+    /// Exact duplicate rows.
+    pub duplicates: Vec<DuplicateGroup>,
+    /// Which columns the duplicate check compared, in words.
+    pub duplicates_compared: String,
+    /// Replicate scatter per target.
+    pub replicates: Vec<ReplicateSummary>,
+    /// Strongly correlated input pairs.
+    pub correlated: Vec<CorrelatedPair>,
+    /// Outliers, largest |z| first.
+    pub outliers: Vec<Outlier>,
+    /// Inputs with few distinct values.
+    pub few_levels: Vec<FewLevels>,
+    /// What to fix first, most urgent first.
+    pub verdict: Vec<String>,
+}
+
+/// The most problems an audit lists one by one.
+const PROBLEMS_LISTED: usize = 50;
+
+/// Median of values (sorted copy); `None` when empty.
+pub fn median(values: &[f64]) -> Option<f64> {
+    if values.is_empty() {
+        return None;
+    }
+    let mut v = values.to_vec();
+    v.sort_by(f64::total_cmp);
+    let n = v.len();
+    Some(if n % 2 == 1 {
+        v[n / 2]
+    } else {
+        0.5 * (v[n / 2 - 1] + v[n / 2])
+    })
+}
+
+/// Robust z-scores 0.6745·(x − median)/MAD (Iglewicz & Hoaglin 1993);
+/// `None` when the MAD is zero or there are no values.
+pub fn robust_z(values: &[f64]) -> Option<Vec<f64>> {
+    let med = median(values)?;
+    let dev: Vec<f64> = values.iter().map(|x| (x - med).abs()).collect();
+    let mad = median(&dev)?;
+    if !(mad > 0.0) {
+        return None;
+    }
+    Some(values.iter().map(|x| 0.6745 * (x - med) / mad).collect())
+}
+
+/// Pearson correlation of paired values; `None` for fewer than 3 pairs or
+/// no spread.
+pub fn pearson(x: &[f64], y: &[f64]) -> Option<f64> {
+    let n = x.len();
+    if n < 3 || y.len() != n {
+        return None;
+    }
+    let mx = x.iter().sum::<f64>() / n as f64;
+    let my = y.iter().sum::<f64>() / n as f64;
+    let (mut sxy, mut sxx, mut syy) = (0.0, 0.0, 0.0);
+    for (a, b) in x.iter().zip(y) {
+        sxy += (a - mx) * (b - my);
+        sxx += (a - mx).powi(2);
+        syy += (b - my).powi(2);
+    }
+    (sxx > 0.0 && syy > 0.0).then(|| sxy / (sxx * syy).sqrt())
+}
+
+/// Pooled standard deviation of groups (each with ≥ 2 values):
+/// √(Σ SS_g / Σ (n_g − 1)) and its degrees of freedom.
+pub fn pooled_sd(groups: &[Vec<f64>]) -> Option<(f64, usize)> {
+    let (mut ss, mut dof) = (0.0, 0usize);
+    for g in groups.iter().filter(|g| g.len() >= 2) {
+        let m = g.iter().sum::<f64>() / g.len() as f64;
+        ss += g.iter().map(|y| (y - m).powi(2)).sum::<f64>();
+        dof += g.len() - 1;
+    }
+    (dof > 0).then(|| ((ss / dof as f64).sqrt(), dof))
+}
+
+fn sample_sd(v: &[f64]) -> f64 {
+    pooled_sd(&[v.to_vec()]).map_or(0.0, |p| p.0)
+}
+
+/// A column as the audit sees it.
+struct Col {
+    name: String,
+    role: String,
+    numeric: Option<Vec<Option<f64>>>,
+    compare: bool,
+}
+
+/// Audit `table`, through `schema` when given (values then in internal
+/// units, with the schema's checks), else with `opts` naming the targets.
+///
+/// # Errors
+/// Only a column named in `opts` that the table lacks; every problem in
+/// the data is reported, not raised.
+pub fn audit(
+    table: &Table,
+    schema: Option<(&Schema, &str)>,
+    opts: &AuditOptions,
+) -> Result<AuditReport> {
+    let n = table.n_rows();
+    let mut problems: Vec<String> = Vec::new();
+    let mut n_problems = 0usize;
+    let mut cols: Vec<Col> = Vec::new();
+    let mut units: Vec<(Option<String>, Option<String>)> = Vec::new();
+    let checked = schema.map(|(s, name)| s.check(table, name, true, usize::MAX));
+    if let Some(c) = &checked {
+        n_problems += c.problems.len();
+        problems.extend(c.problems.iter().map(|e| e.to_string()));
+    }
+    for name in &opts.targets {
+        table.numeric_lenient(name)?;
+    }
+    for name in opts.inputs.iter().flatten() {
+        table.numeric_lenient(name)?;
+    }
+    for name in table.names() {
+        let spec = schema.and_then(|(s, _)| s.columns.iter().position(|c| &c.name == name));
+        if let (Some((s, _)), Some(k), Some(c)) = (schema, spec, &checked) {
+            let cs = &s.columns[k];
+            cols.push(Col {
+                name: name.clone(),
+                role: cs.role.name().to_string(),
+                numeric: c.values[k].clone(),
+                compare: !matches!(cs.role, Role::Identifier | Role::Ignored),
+            });
+            let internal = cs.internal_unit();
+            units.push((
+                cs.unit.map(|_| internal.symbol().to_string()),
+                cs.unit
+                    .filter(|u| *u != internal)
+                    .map(|u| u.symbol().to_string()),
+            ));
+            continue;
+        }
+        let has_numbers = table.has_numbers(name);
+        let role = if schema.is_some() {
+            "not in schema"
+        } else if opts.targets.contains(name) {
+            "target"
+        } else if opts
+            .inputs
+            .as_ref()
+            .map_or(has_numbers, |l| l.contains(name))
+        {
+            "input"
+        } else if has_numbers {
+            "other"
+        } else {
+            "text"
+        };
+        let numeric = if has_numbers && schema.is_none() {
+            let (v, bad) = table.numeric_lenient(name)?;
+            n_problems += bad.len();
+            problems.extend(bad.iter().map(|e| e.to_string()));
+            Some(v)
+        } else {
+            None
+        };
+        cols.push(Col {
+            name: name.clone(),
+            role: role.to_string(),
+            numeric,
+            compare: true,
+        });
+        units.push((None, None));
+    }
+    if schema.is_some() {
+        for c in cols.iter_mut().filter(|c| c.role == "not in schema") {
+            c.compare = false;
+        }
+    }
+    problems.truncate(PROBLEMS_LISTED);
+
+    // per column
+    let mut columns = Vec::new();
+    for (i, (c, (unit, declared))) in cols.iter().zip(&units).enumerate() {
+        let mut missing = 0;
+        let mut distinct_text: Vec<String> = Vec::new();
+        for row in 0..n {
+            match table.cell_text(i, row) {
+                None => missing += 1,
+                Some(t) if c.numeric.is_none() => {
+                    if !distinct_text.contains(&t) {
+                        distinct_text.push(t);
+                    }
+                }
+                Some(_) => {}
+            }
+        }
+        let present: Vec<f64> = c.numeric.iter().flatten().flatten().copied().collect();
+        let (count, distinct) = match &c.numeric {
+            Some(_) => (present.len(), distinct_values(&present).len()),
+            None => (n - missing, distinct_text.len()),
+        };
+        columns.push(ColumnSummary {
+            name: c.name.clone(),
+            role: c.role.clone(),
+            unit: unit.clone(),
+            declared_unit: declared.clone(),
+            count,
+            missing,
+            bad: n - missing - count,
+            min: present.iter().copied().reduce(f64::min),
+            max: present.iter().copied().reduce(f64::max),
+            median: median(&present),
+            distinct,
+        });
+    }
+
+    let is_input = |c: &Col| c.role == "input" && c.numeric.is_some();
+    let inputs: Vec<&Col> = cols.iter().filter(|c| is_input(c)).collect();
+    let targets: Vec<&Col> = cols
+        .iter()
+        .filter(|c| c.role == "target" && c.numeric.is_some())
+        .collect();
+
+    let rows_missing_inputs: Vec<usize> = (0..n)
+        .filter(|&r| {
+            inputs
+                .iter()
+                .any(|c| c.numeric.as_ref().is_some_and(|v| v[r].is_none()))
+        })
+        .map(|r| r + 1)
+        .collect();
+
+    // exact duplicates over the compared columns
+    let key_of = |row: usize, which: &dyn Fn(&Col) -> bool| -> Vec<String> {
+        let mut key = Vec::new();
+        for (i, c) in cols.iter().enumerate().filter(|(_, c)| which(c)) {
+            key.push(match &c.numeric {
+                Some(v) => v[row].map_or(String::new(), |x| format!("{:016x}", x.to_bits())),
+                None => table.cell_text(i, row).unwrap_or_default(),
+            });
+        }
+        key
+    };
+    let mut dup_groups: Vec<(Vec<String>, Vec<usize>)> = Vec::new();
+    for row in 0..n {
+        let key = key_of(row, &|c: &Col| c.compare);
+        match dup_groups.iter_mut().find(|g| g.0 == key) {
+            Some(g) => g.1.push(row),
+            None => dup_groups.push((key, vec![row])),
+        }
+    }
+    let duplicates: Vec<DuplicateGroup> = dup_groups
+        .iter()
+        .filter(|g| g.1.len() > 1)
+        .map(|g| DuplicateGroup {
+            rows: g.1.iter().map(|r| r + 1).collect(),
+        })
+        .collect();
+    let representatives: Vec<usize> = dup_groups.iter().map(|g| g.1[0]).collect();
+    let duplicates_compared = if schema.is_some() {
+        "every column of the schema except identifiers and ignored columns".to_string()
+    } else {
+        "every column".to_string()
+    };
+
+    // replicate groups: identical inputs (complete), duplicates once
+    let mut rep_groups: Vec<(Vec<String>, Vec<usize>)> = Vec::new();
+    if !inputs.is_empty() {
+        for &row in &representatives {
+            if rows_missing_inputs.contains(&(row + 1)) {
+                continue;
+            }
+            let key = key_of(row, &|c: &Col| is_input(c));
+            match rep_groups.iter_mut().find(|g| g.0 == key) {
+                Some(g) => g.1.push(row),
+                None => rep_groups.push((key, vec![row])),
+            }
+        }
+    }
+    let replicates: Vec<ReplicateSummary> = targets
+        .iter()
+        .map(|t| {
+            let v = t.numeric.as_ref().map(Vec::as_slice).unwrap_or_default();
+            let groups: Vec<ReplicateGroup> = rep_groups
+                .iter()
+                .filter_map(|g| {
+                    let rows: Vec<usize> =
+                        g.1.iter().copied().filter(|&r| v[r].is_some()).collect();
+                    let values: Vec<f64> = rows.iter().filter_map(|&r| v[r]).collect();
+                    (values.len() >= 2).then(|| ReplicateGroup {
+                        rows: rows.iter().map(|r| r + 1).collect(),
+                        sd: sample_sd(&values),
+                        values,
+                    })
+                })
+                .collect();
+            let pooled = pooled_sd(&groups.iter().map(|g| g.values.clone()).collect::<Vec<_>>());
+            ReplicateSummary {
+                target: t.name.clone(),
+                pooled_sd: pooled.map(|p| p.0),
+                dof: pooled.map_or(0, |p| p.1),
+                groups,
+            }
+        })
+        .collect();
+
+    // correlated inputs
+    let mut correlated = Vec::new();
+    for (a_i, a) in inputs.iter().enumerate() {
+        for b in &inputs[a_i + 1..] {
+            let (va, vb) = (
+                a.numeric.as_ref().map(Vec::as_slice).unwrap_or_default(),
+                b.numeric.as_ref().map(Vec::as_slice).unwrap_or_default(),
+            );
+            let (x, y): (Vec<f64>, Vec<f64>) = va
+                .iter()
+                .zip(vb)
+                .filter_map(|(p, q)| Some(((*p)?, (*q)?)))
+                .unzip();
+            if let Some(r) = pearson(&x, &y) {
+                if r.abs() >= STRONG_CORRELATION {
+                    correlated.push(CorrelatedPair {
+                        a: a.name.clone(),
+                        b: b.name.clone(),
+                        r,
+                        n: x.len(),
+                    });
+                }
+            }
+        }
+    }
+    correlated.sort_by(|p, q| q.r.abs().total_cmp(&p.r.abs()));
+
+    // outliers in inputs and targets
+    let mut outliers = Vec::new();
+    for c in inputs.iter().chain(&targets) {
+        let v = c.numeric.as_ref().map(Vec::as_slice).unwrap_or_default();
+        let rows: Vec<usize> = (0..n).filter(|&r| v[r].is_some()).collect();
+        let values: Vec<f64> = rows.iter().filter_map(|&r| v[r]).collect();
+        if let Some(z) = robust_z(&values) {
+            for ((&r, &x), &z) in rows.iter().zip(&values).zip(&z) {
+                if z.abs() > ROBUST_Z_OUTLIER {
+                    outliers.push(Outlier {
+                        column: c.name.clone(),
+                        row: r + 1,
+                        value: x,
+                        robust_z: z,
+                    });
+                }
+            }
+        }
+    }
+    outliers.sort_by(|p, q| q.robust_z.abs().total_cmp(&p.robust_z.abs()));
+
+    let few_levels: Vec<FewLevels> = inputs
+        .iter()
+        .filter_map(|c| {
+            let present: Vec<f64> = c.numeric.iter().flatten().flatten().copied().collect();
+            let values = distinct_values(&present);
+            (!values.is_empty() && values.len() < FEW_DISTINCT_VALUES).then(|| FewLevels {
+                column: c.name.clone(),
+                values,
+            })
+        })
+        .collect();
+
+    let mut report = AuditReport {
+        file: table.source().display().to_string(),
+        n_rows: n,
+        n_columns: table.names().len(),
+        columns,
+        problems,
+        problems_not_listed: n_problems.saturating_sub(PROBLEMS_LISTED),
+        rows_missing_inputs,
+        duplicates,
+        duplicates_compared,
+        replicates,
+        correlated,
+        outliers,
+        few_levels,
+        verdict: Vec::new(),
+    };
+    report.verdict = verdict(&report, n_problems, targets.is_empty());
+    Ok(report)
+}
+
+fn distinct_values(values: &[f64]) -> Vec<f64> {
+    let mut v = values.to_vec();
+    v.sort_by(f64::total_cmp);
+    v.dedup_by(|a, b| a.to_bits() == b.to_bits());
+    v
+}
+
+fn rows_text(rows: &[usize], most: usize) -> String {
+    let mut s: Vec<String> = rows.iter().take(most).map(|r| r.to_string()).collect();
+    if rows.len() > most {
+        s.push(format!("… ({} in all)", rows.len()));
+    }
+    s.join(", ")
+}
+
+/// The verdict list, most urgent first.
+fn verdict(r: &AuditReport, n_problems: usize, no_targets: bool) -> Vec<String> {
+    let mut v = Vec::new();
+    if n_problems > 0 {
+        v.push(format!(
+            "{n_problems} values cannot be used (first: {}); fix them first: training stops at the first one",
+            r.problems.first().map_or("", String::as_str)
+        ));
+    }
+    if !r.rows_missing_inputs.is_empty() {
+        v.push(format!(
+            "{} rows lack an input value (rows {}); complete them, or leave them out explicitly with --drop-incomplete-rows; nothing is filled in",
+            r.rows_missing_inputs.len(),
+            rows_text(&r.rows_missing_inputs, 10)
+        ));
+    }
+    if !r.duplicates.is_empty() {
+        let extra: usize = r.duplicates.iter().map(|g| g.rows.len() - 1).sum();
+        let shown: Vec<String> = r
+            .duplicates
+            .iter()
+            .take(5)
+            .map(|g| rows_text(&g.rows, 4).replace(", ", " = "))
+            .collect();
+        v.push(format!(
+            "{extra} rows are exact copies of others ({}); remove the copies: they make the data look more certain than it is",
+            shown.join("; ")
+        ));
+    }
+    if let Some(o) = r.outliers.first() {
+        v.push(format!(
+            "{} values lie far from the rest of their column (largest: '{}' row {} = {}, robust z {:.1}); check them against the test records",
+            r.outliers.len(),
+            o.column,
+            o.row,
+            o.value,
+            o.robust_z
+        ));
+    }
+    for f in &r.few_levels {
+        if f.values.len() == 1 {
+            v.push(format!(
+                "input '{}' is constant ({}); it will be set aside",
+                f.column, f.values[0]
+            ));
+        } else {
+            v.push(format!(
+                "input '{}' takes only {} distinct values; its effect is learnt at those levels only",
+                f.column,
+                f.values.len()
+            ));
+        }
+    }
+    for p in r.correlated.iter().take(5) {
+        v.push(format!(
+            "inputs '{}' and '{}' move together (r = {:.3}); the model cannot tell their effects apart",
+            p.a, p.b, p.r
+        ));
+    }
+    for c in r
+        .columns
+        .iter()
+        .filter(|c| c.role == "target" && c.missing > 0)
+    {
+        v.push(format!(
+            "target '{}' is missing in {} rows; those rows are left out for it",
+            c.name, c.missing
+        ));
+    }
+    for s in &r.replicates {
+        if let Some(sd) = s.pooled_sd {
+            v.push(format!(
+                "target '{}': replicate tests scatter with pooled sd {:.4} ({} groups, {} degrees of freedom); a model's noise sd well below this is overfitting",
+                s.target,
+                sd,
+                s.groups.len(),
+                s.dof
+            ));
+        }
+    }
+    if no_targets {
+        v.push(
+            "no target known: give --schema or --target to see replicate scatter and missing targets"
+                .to_string(),
+        );
+    }
+    if v.is_empty() {
+        v.push("nothing found to fix".to_string());
+    }
+    v
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use approx::assert_abs_diff_eq;
+
+    #[test]
+    fn robust_statistics_by_hand() {
+        assert_abs_diff_eq!(median(&[3.0, 1.0, 2.0]).expect("m"), 2.0, epsilon = 0.0);
+        assert_abs_diff_eq!(
+            median(&[4.0, 1.0, 2.0, 3.0]).expect("m"),
+            2.5,
+            epsilon = 0.0
+        );
+        // 1..5 and 100: median 3.5, MAD 1.5, z(100) = 0.6745·96.5/1.5
+        // (Iglewicz & Hoaglin 1993 definition; arithmetic by hand)
+        let z = robust_z(&[1.0, 2.0, 3.0, 4.0, 5.0, 100.0]).expect("z");
+        assert_abs_diff_eq!(z[5], 0.6745 * 96.5 / 1.5, epsilon = 1e-12);
+        assert!(robust_z(&[2.0, 2.0, 2.0, 9.0]).is_none(), "MAD 0");
+        // groups {1, 3} and {10, 14}: SS 2 + 8 over 2 dof → √5
+        let (sd, dof) = pooled_sd(&[vec![1.0, 3.0], vec![10.0, 14.0]]).expect("pooled");
+        assert_abs_diff_eq!(sd, 5.0_f64.sqrt(), epsilon = 1e-12);
+        assert_eq!(dof, 2);
+        assert_abs_diff_eq!(
+            pearson(&[1.0, 2.0, 3.0], &[2.0, 4.0, 6.5]).expect("r"),
+            0.9979487158,
+            epsilon = 1e-9
+        );
+    }
+}
