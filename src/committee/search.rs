@@ -259,13 +259,14 @@ pub fn train_committee(
             .then(a.record.restart.cmp(&b.record.restart))
     });
     let max_size = ranked.len().min(params.max_members);
+    // every ranked trial trained, so each has held-out predictions
+    let (means, vars): (Vec<Array1<f64>>, Vec<Array1<f64>>) = ranked[..max_size]
+        .iter()
+        .filter_map(|t| t.heldout.clone())
+        .unzip();
     let mut nlpd_by_size = Vec::with_capacity(max_size);
     for size in 1..=max_size {
-        let (means, vars): (Vec<Array1<f64>>, Vec<Array1<f64>>) = ranked[..size]
-            .iter()
-            .filter_map(|t| t.heldout.clone())
-            .unzip();
-        let (m, v) = combine(&means, &vars);
+        let (m, v) = combine(&means[..size], &vars[..size]);
         nlpd_by_size.push(nlpd_scaled(&m, &v, t_ho.view()) + ln_width);
     }
     let n_members = nlpd_by_size

@@ -91,10 +91,8 @@ impl Architecture {
     /// The input whose weight parameter `k` is, if it is an input weight.
     pub fn input_of_param(&self, k: usize) -> Option<usize> {
         let lay = self.layout();
-        if k < lay
-            .hidden_bias
-            .max(if self.is_linear() { self.n_inputs } else { 0 })
-        {
+        // input weights (or linear coefficients) come first, up to the hidden biases
+        if k < lay.hidden_bias {
             Some(k % self.n_inputs)
         } else {
             None
@@ -104,7 +102,7 @@ impl Architecture {
     fn split<'a>(&self, w: &'a [f64]) -> Parts<'a> {
         let (d, h) = (self.n_inputs, self.n_hidden);
         let lay = self.layout();
-        let input_w = ArrayView2::from_shape((h.max(1), d), &w[..lay.hidden_bias.max(d)])
+        let input_w = ArrayView2::from_shape((h.max(1), d), &w[..lay.hidden_bias])
             .expect("layout matches n_params by construction");
         Parts {
             input_w,
@@ -175,6 +173,16 @@ impl Architecture {
 
     /// Outputs and the Jacobian `J_nk = ∂y_n/∂w_k` (N × k).
     pub fn jacobian(&self, w: &[f64], x: ArrayView2<f64>) -> (Array1<f64>, Array2<f64>) {
+        let (y, _, jac) = self.jacobian_with_activations(w, x);
+        (y, jac)
+    }
+
+    /// Outputs, hidden activations and the Jacobian from one forward pass.
+    fn jacobian_with_activations(
+        &self,
+        w: &[f64],
+        x: ArrayView2<f64>,
+    ) -> (Array1<f64>, Array2<f64>, Array2<f64>) {
         let (y, act) = self.forward(w, x);
         let n = x.nrows();
         let (d, h) = (self.n_inputs, self.n_hidden);
@@ -183,7 +191,7 @@ impl Architecture {
         if self.is_linear() {
             jac.slice_mut(s![.., ..d]).assign(&x);
             jac.column_mut(lay.output_bias).fill(1.0);
-            return (y, jac);
+            return (y, act, jac);
         }
         let p = self.split(w);
         // D_nj = v_j (1 − a_nj²) = ∂y_n/∂b_j
@@ -201,7 +209,7 @@ impl Architecture {
         jac.slice_mut(s![.., lay.output_weights..lay.output_bias])
             .assign(&act);
         jac.column_mut(lay.output_bias).fill(1.0);
-        (y, jac)
+        (y, act, jac)
     }
 
     /// Exact Hessian of `E_D`: `JᵀJ + Σ_n r_n ∇²y_n` (Bishop 1995, §4.10).
@@ -211,13 +219,12 @@ impl Architecture {
         x: ArrayView2<f64>,
         t: ArrayView1<f64>,
     ) -> Array2<f64> {
-        let (y, jac) = self.jacobian(w, x);
+        let (y, act, jac) = self.jacobian_with_activations(w, x);
         let mut hess = jac.t().dot(&jac);
         if self.is_linear() {
             return hess;
         }
         let r = &y - &t;
-        let (_, act) = self.forward(w, x);
         let p = self.split(w);
         let (n, d) = (x.nrows(), self.n_inputs);
         let lay = self.layout();
