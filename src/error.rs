@@ -155,7 +155,7 @@ pub enum Error {
         total: f64,
     },
     /// Rows lack input values; nothing is imputed.
-    #[error("{path}: {n_rows} rows lack input values, and nothing is ever filled in: {detail}. Complete them, or leave such rows out explicitly (option drop_incomplete_rows; CLI --drop-incomplete-rows)")]
+    #[error("{path}: input values are missing in {n_rows} row(s), and nothing is ever filled in: {detail}. Complete them, or leave such rows out explicitly (option drop_incomplete_rows; CLI --drop-incomplete-rows)")]
     MissingInputs {
         /// The data file.
         path: String,

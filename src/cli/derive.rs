@@ -25,7 +25,8 @@ ms_andrews, ms_steven_haynes, ac1_andrews, ac3_andrews  transformation temperatu
 Columns are read by their conventional names: element symbols (C, Mn, Si ...) in wt%, voltage (V), \
 current (A), travel_speed (mm/s), arc_efficiency, heat_input (kJ/mm), preheat (°C), thickness (mm). \
 Without --schema a header must be that name (letter case aside) and the column is taken in that \
-unit; with --schema columns are found through their stands_for and converted from their declared \
+unit, except that an element may carry a unit suffix: mn_wt or mn_wt% (wt%), b_ppm (ppm by mass); \
+a derivation whose columns are not found is an error naming the headers looked for. With --schema columns are found through their stands_for and converted from their declared \
 units, and the schema's own [[derived]] inputs are added too. An element absent from the table \
 counts as 0 wt% (said in a note). A row outside a formula's validity range gets a warning, not an \
 error; a row whose value cannot be computed gets an empty cell and a warning.\n\n\

@@ -192,7 +192,7 @@ pub fn robust_z(values: &[f64]) -> Option<Vec<f64>> {
     let med = median(values)?;
     let dev: Vec<f64> = values.iter().map(|x| (x - med).abs()).collect();
     let mad = median(&dev)?;
-    if !(mad > 0.0) {
+    if mad.is_nan() || mad <= 0.0 {
         return None;
     }
     Some(values.iter().map(|x| 0.6745 * (x - med) / mad).collect())
@@ -427,7 +427,7 @@ pub fn audit(
     let replicates: Vec<ReplicateSummary> = targets
         .iter()
         .map(|t| {
-            let v = t.numeric.as_ref().map(Vec::as_slice).unwrap_or_default();
+            let v = t.numeric.as_deref().unwrap_or_default();
             let groups: Vec<ReplicateGroup> = rep_groups
                 .iter()
                 .filter_map(|g| {
@@ -456,8 +456,8 @@ pub fn audit(
     for (a_i, a) in inputs.iter().enumerate() {
         for b in &inputs[a_i + 1..] {
             let (va, vb) = (
-                a.numeric.as_ref().map(Vec::as_slice).unwrap_or_default(),
-                b.numeric.as_ref().map(Vec::as_slice).unwrap_or_default(),
+                a.numeric.as_deref().unwrap_or_default(),
+                b.numeric.as_deref().unwrap_or_default(),
             );
             let (x, y): (Vec<f64>, Vec<f64>) = va
                 .iter()
@@ -481,7 +481,7 @@ pub fn audit(
     // outliers in inputs and targets
     let mut outliers = Vec::new();
     for c in inputs.iter().chain(&targets) {
-        let v = c.numeric.as_ref().map(Vec::as_slice).unwrap_or_default();
+        let v = c.numeric.as_deref().unwrap_or_default();
         let rows: Vec<usize> = (0..n).filter(|&r| v[r].is_some()).collect();
         let values: Vec<f64> = rows.iter().filter_map(|&r| v[r]).collect();
         if let Some(z) = robust_z(&values) {

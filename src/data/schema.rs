@@ -277,6 +277,9 @@ pub struct Prepared {
     pub targets: Vec<(String, TargetTransform)>,
     /// Rows of the file (1-based) left out for a missing input.
     pub dropped_rows: Vec<usize>,
+    /// Per target present, the rows of the file (1-based, among those
+    /// kept) without a value: left out for that target only.
+    pub missing_targets: Vec<(String, Vec<usize>)>,
     /// Derivation warnings (validity ranges); `row` is 0-based in the file.
     pub row_warnings: Vec<RowWarning>,
     /// Warnings about the table as a whole (columns not in the schema,
@@ -820,10 +823,18 @@ impl Schema {
             cols.push((d.column_name(), keep.iter().map(|&r| v[r]).collect()));
         }
         let mut targets = Vec::new();
+        let mut missing_targets = Vec::new();
         for (c, v) in self.columns.iter().zip(&values) {
             if let (Role::Target, Some(v)) = (c.role, v) {
                 targets.push((c.name.clone(), c.target_transform()));
                 cols.push((c.name.clone(), keep.iter().map(|&r| v[r]).collect()));
+                missing_targets.push((
+                    c.name.clone(),
+                    keep.iter()
+                        .filter(|&&r| v[r].is_none())
+                        .map(|r| r + 1)
+                        .collect(),
+                ));
             }
         }
         Ok(Prepared {
@@ -831,6 +842,7 @@ impl Schema {
             inputs,
             targets,
             dropped_rows: dropped.iter().map(|r| r + 1).collect(),
+            missing_targets,
             row_warnings,
             notes,
         })
@@ -980,6 +992,10 @@ spec = "pcm"
             )
             .expect("dropped");
         assert_eq!(p.dropped_rows, vec![1]);
+        assert_eq!(
+            p.missing_targets,
+            vec![("kv".to_string(), vec![2]), ("elong".to_string(), vec![])]
+        );
         assert_eq!(p.table.n_rows(), 2);
         assert_eq!(p.table.numeric_optional("kv").expect("kv")[0], None);
     }

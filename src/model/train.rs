@@ -66,6 +66,9 @@ impl Default for SchemaTrainOptions {
 pub struct SchemaTrainReport {
     /// Rows of the file (1-based) left out because an input was missing.
     pub dropped_rows: Vec<usize>,
+    /// Per target, the rows of the file (1-based) without a value, left
+    /// out for that target only.
+    pub missing_targets: Vec<(String, Vec<usize>)>,
     /// Derivation warnings: rows outside a formula's validity range
     /// (0-based rows of the file).
     pub row_warnings: Vec<RowWarning>,
@@ -117,6 +120,7 @@ impl Model {
             model,
             SchemaTrainReport {
                 dropped_rows: prepared.dropped_rows,
+                missing_targets: prepared.missing_targets,
                 row_warnings: prepared.row_warnings,
                 notes: prepared.notes,
             },
