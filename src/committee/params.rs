@@ -121,6 +121,14 @@ impl CommitteeParams {
         self
     }
 
+    /// Settings of each network's training (cycles, optimiser iterations,
+    /// Hessian choice).
+    #[must_use]
+    pub fn fit(mut self, fit: FitSettings) -> Self {
+        self.fit = fit;
+        self
+    }
+
     /// Validate every setting.
     ///
     /// # Errors

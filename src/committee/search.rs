@@ -150,7 +150,10 @@ pub fn train_committee(
         n_candidates: planned,
     });
     loop {
+        // largest networks first, so that no long fit starts last on an
+        // otherwise idle machine
         let specs: Vec<(usize, usize)> = (lo..=hi)
+            .rev()
             .flat_map(|h| (0..if h == 0 { 1 } else { restarts }).map(move |r| (h, r)))
             .collect();
         let new: Vec<Trial> = specs
@@ -214,6 +217,7 @@ pub fn train_committee(
             })
             .collect();
         trials.extend(new);
+        trials.sort_by_key(|t| (t.record.n_hidden, t.record.restart));
         let top = trials
             .iter()
             .filter_map(|t| t.record.heldout_nlpd.map(|v| (v, t.record.n_hidden)))
@@ -280,6 +284,11 @@ pub fn train_committee(
         target: target_name,
         n_members,
     });
+    // warm-started: the first cycle needs no more iterations than the others
+    let refit_settings = crate::evidence::FitSettings {
+        first_iters: params.fit.cycle_iters,
+        ..params.fit.clone()
+    };
     let refits: Vec<std::result::Result<Member, String>> = ranked[..n_members]
         .par_iter()
         .map(|trial| {
@@ -290,23 +299,30 @@ pub fn train_committee(
                 beta: net.beta,
             };
             let rec = &trial.record;
-            fit_network(net.arch, params.ard, x.view(), t.view(), start, &params.fit)
-                .map(|refit| Member {
-                    n_hidden: rec.n_hidden,
-                    restart: rec.restart,
-                    seed: rec.seed,
-                    groups: refit.group_kinds.clone(),
-                    alpha: refit.alpha.clone(),
-                    gamma: refit.gamma.clone(),
-                    beta: refit.beta,
-                    log_evidence: refit.log_evidence,
-                    heldout_nlpd: rec.heldout_nlpd.unwrap_or(f64::NAN),
-                    hessian: refit.hessian,
-                    weights: refit.weights.clone(),
-                    posterior_cov: refit.posterior_cov.clone(),
-                    diagnostics: refit.diagnostics.clone(),
-                })
-                .map_err(|f| format!("{} hidden, restart {}: {f}", rec.n_hidden, rec.restart))
+            fit_network(
+                net.arch,
+                params.ard,
+                x.view(),
+                t.view(),
+                start,
+                &refit_settings,
+            )
+            .map(|refit| Member {
+                n_hidden: rec.n_hidden,
+                restart: rec.restart,
+                seed: rec.seed,
+                groups: refit.group_kinds.clone(),
+                alpha: refit.alpha.clone(),
+                gamma: refit.gamma.clone(),
+                beta: refit.beta,
+                log_evidence: refit.log_evidence,
+                heldout_nlpd: rec.heldout_nlpd.unwrap_or(f64::NAN),
+                hessian: refit.hessian,
+                weights: refit.weights.clone(),
+                posterior_cov: refit.posterior_cov.clone(),
+                diagnostics: refit.diagnostics.clone(),
+            })
+            .map_err(|f| format!("{} hidden, restart {}: {f}", rec.n_hidden, rec.restart))
         })
         .collect();
     let mut members = Vec::new();

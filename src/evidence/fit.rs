@@ -84,9 +84,9 @@ pub struct FitSettings {
 impl Default for FitSettings {
     fn default() -> Self {
         FitSettings {
-            max_cycles: 15,
-            first_iters: 800,
-            cycle_iters: 250,
+            max_cycles: 20,
+            first_iters: 300,
+            cycle_iters: 100,
             lbfgs_memory: 10,
             hessian: HessianChoice::GaussNewton,
         }
