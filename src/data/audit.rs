@@ -323,6 +323,29 @@ pub fn audit(
             c.compare = false;
         }
     }
+    // without a schema, a text column with a different value in every row
+    // names the records (heat, weld, specimen): a row entered twice under
+    // two names is still a copy, so such columns are not compared
+    let mut identifier_like: Vec<String> = Vec::new();
+    if schema.is_none() && n > 1 {
+        for (i, c) in cols.iter_mut().enumerate() {
+            if c.numeric.is_some() {
+                continue;
+            }
+            let mut seen: Vec<String> = Vec::with_capacity(n);
+            let all_distinct = (0..n).all(|row| match table.cell_text(i, row) {
+                Some(t) if !seen.contains(&t) => {
+                    seen.push(t);
+                    true
+                }
+                _ => false,
+            });
+            if all_distinct {
+                c.compare = false;
+                identifier_like.push(format!("'{}'", c.name));
+            }
+        }
+    }
     problems.truncate(PROBLEMS_LISTED);
 
     // per column
@@ -406,8 +429,13 @@ pub fn audit(
     let representatives: Vec<usize> = dup_groups.iter().map(|g| g.1[0]).collect();
     let duplicates_compared = if schema.is_some() {
         "every column of the schema except identifiers and ignored columns".to_string()
-    } else {
+    } else if identifier_like.is_empty() {
         "every column".to_string()
+    } else {
+        format!(
+            "every column except {}, whose value differs in every row (taken as record names)",
+            identifier_like.join(", ")
+        )
     };
 
     // replicate groups: identical inputs (complete), duplicates once
@@ -551,13 +579,13 @@ fn verdict(r: &AuditReport, n_problems: usize, no_targets: bool) -> Vec<String> 
     let mut v = Vec::new();
     if n_problems > 0 {
         v.push(format!(
-            "{n_problems} values cannot be used (first: {}); fix them first: training stops at the first one",
+            "values that cannot be used: {n_problems} (first: {}); fix them first: training stops at the first one",
             r.problems.first().map_or("", String::as_str)
         ));
     }
     if !r.rows_missing_inputs.is_empty() {
         v.push(format!(
-            "{} rows lack an input value (rows {}); complete them, or leave them out explicitly with --drop-incomplete-rows; nothing is filled in",
+            "rows lacking an input value: {} (rows {}); complete them, or leave them out explicitly with --drop-incomplete-rows; nothing is filled in",
             r.rows_missing_inputs.len(),
             rows_text(&r.rows_missing_inputs, 10)
         ));
@@ -571,13 +599,13 @@ fn verdict(r: &AuditReport, n_problems: usize, no_targets: bool) -> Vec<String> 
             .map(|g| rows_text(&g.rows, 4).replace(", ", " = "))
             .collect();
         v.push(format!(
-            "{extra} rows are exact copies of others ({}); remove the copies: they make the data look more certain than it is",
+            "rows that are exact copies of others: {extra} ({}); remove the copies: they make the data look more certain than it is",
             shown.join("; ")
         ));
     }
     if let Some(o) = r.outliers.first() {
         v.push(format!(
-            "{} values lie far from the rest of their column (largest: '{}' row {} = {}, robust z {:.1}); check them against the test records",
+            "values far from the rest of their column: {} (largest: '{}' row {} = {}, robust z {:.1}); check them against the test records",
             r.outliers.len(),
             o.column,
             o.row,
@@ -611,7 +639,7 @@ fn verdict(r: &AuditReport, n_problems: usize, no_targets: bool) -> Vec<String> 
         .filter(|c| c.role == "target" && c.missing > 0)
     {
         v.push(format!(
-            "target '{}' is missing in {} rows; those rows are left out for it",
+            "target '{}' has no value in {} row(s); they are left out for it",
             c.name, c.missing
         ));
     }

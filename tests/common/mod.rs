@@ -155,3 +155,245 @@ pub fn stdout(out: &Output) -> String {
 pub fn stderr(out: &Output) -> String {
     String::from_utf8_lossy(&out.stderr).into_owned()
 }
+
+/// One invented weld record, in internal units: contents in wt%, preheat in
+/// °C, heat input in kJ/mm, plate thickness in mm, tensile strength in MPa.
+#[derive(Clone, Copy, Debug)]
+pub struct Weld {
+    pub c: f64,
+    pub si: f64,
+    pub mn: f64,
+    pub b: f64,
+    pub preheat: f64,
+    pub heat_input: f64,
+    pub thickness: f64,
+    pub uts: f64,
+}
+
+/// `n` invented weld records. The strength is an invented smooth function of
+/// composition, heat input and thickness plus N(0, 8²) MPa; it is no
+/// metallurgical relation.
+pub fn welds(n: usize, seed: u64) -> Vec<Weld> {
+    let mut rng = Xoshiro256PlusPlus::seed_from_u64(seed);
+    let noise = Normal::new(0.0, 8.0).expect("positive sd");
+    (0..n)
+        .map(|_| {
+            let c: f64 = rng.random_range(0.05..0.20);
+            let si: f64 = rng.random_range(0.10..0.50);
+            let mn: f64 = rng.random_range(0.60..1.60);
+            let b: f64 = rng.random_range(0.0..0.003);
+            let preheat: f64 = rng.random_range(20.0..150.0);
+            let heat_input: f64 = rng.random_range(0.8..2.5);
+            let thickness: f64 = rng.random_range(8.0..40.0);
+            let uts = 380.0 + 700.0 * c + 60.0 * mn + 40.0 * si + 3000.0 * b - 30.0 * heat_input
+                + 0.8 * thickness
+                - 0.1 * preheat
+                + noise.sample(&mut rng);
+            Weld {
+                c,
+                si,
+                mn,
+                b,
+                preheat,
+                heat_input,
+                thickness,
+                uts,
+            }
+        })
+        .collect()
+}
+
+/// The units a weld table is written in, as a schema spells them, with the
+/// conversion from the internal unit of each column.
+#[derive(Clone, Copy, Debug)]
+pub struct WeldUnits {
+    pub b: (&'static str, fn(f64) -> f64),
+    pub preheat: (&'static str, fn(f64) -> f64),
+    pub heat_input: (&'static str, fn(f64) -> f64),
+    pub thickness: (&'static str, fn(f64) -> f64),
+    pub uts: (&'static str, fn(f64) -> f64),
+}
+
+/// 1 ksi in MPa from the exact definitions NIST SP 811 gives: 1 lbf =
+/// 4.4482216152605 N, 1 in = 0.0254 m; 1 ksi = 1000 lbf/in².
+pub const MPA_PER_KSI_EXACT: f64 = 1000.0 * 4.4482216152605 / (0.0254 * 0.0254) / 1.0e6;
+
+/// Every column in the internal unit of its quantity.
+pub const INTERNAL_UNITS: WeldUnits = WeldUnits {
+    b: ("wt%", |x| x),
+    preheat: ("degC", |x| x),
+    heat_input: ("kJ/mm", |x| x),
+    thickness: ("mm", |x| x),
+    uts: ("MPa", |x| x),
+};
+
+/// The units of an older US record sheet, converted with the NIST SP 811
+/// definitions: 1 ppm (by mass) = 0.0001 wt%; °F = 1.8·°C + 32;
+/// 1 kJ/mm = 1000 J/mm; 1 in = 25.4 mm (exact); ksi as
+/// [`MPA_PER_KSI_EXACT`].
+pub const US_SHEET_UNITS: WeldUnits = WeldUnits {
+    b: ("ppm", |x| x / 1.0e-4),
+    preheat: ("degF", |x| x * 1.8 + 32.0),
+    heat_input: ("J/mm", |x| x * 1000.0),
+    thickness: ("in", |x| x / 25.4),
+    uts: ("ksi", |x| x / MPA_PER_KSI_EXACT),
+};
+
+/// Header of a weld table.
+pub const WELD_HEADER: [&str; 9] = [
+    "weld_id",
+    "c",
+    "si",
+    "mn",
+    "b",
+    "preheat",
+    "heat_input",
+    "thickness",
+    "uts",
+];
+
+/// The cells of each weld, as numbers in `units` (the identifier aside).
+pub fn weld_values(w: &Weld, units: &WeldUnits) -> [f64; 8] {
+    [
+        w.c,
+        w.si,
+        w.mn,
+        (units.b.1)(w.b),
+        (units.preheat.1)(w.preheat),
+        (units.heat_input.1)(w.heat_input),
+        (units.thickness.1)(w.thickness),
+        (units.uts.1)(w.uts),
+    ]
+}
+
+/// A weld table as CSV text in `units`, identifiers W1, W2, ...
+pub fn weld_csv(rows: &[Weld], units: &WeldUnits) -> String {
+    let mut s = WELD_HEADER.join(",");
+    s.push('\n');
+    for (i, w) in rows.iter().enumerate() {
+        let cells: Vec<String> = weld_values(w, units)
+            .iter()
+            .map(|x| x.to_string())
+            .collect();
+        writeln!(s, "W{},{}", i + 1, cells.join(",")).expect("write to string");
+    }
+    s
+}
+
+/// A schema for a weld table written in `units`: C and Mn are inputs, the
+/// heat input too; Si, B, preheat and thickness serve the derived Pcm and
+/// t8/5; C must lie in 0–0.5 wt%; the strength is the target.
+pub fn weld_schema(units: &WeldUnits) -> String {
+    format!(
+        r#"mettle_schema = 1
+
+[[column]]
+name = "weld_id"
+role = "identifier"
+
+[[column]]
+name = "c"
+role = "input"
+unit = "wt%"
+stands_for = "C"
+min = 0.0
+max = 0.5
+
+[[column]]
+name = "si"
+role = "auxiliary"
+unit = "wt%"
+stands_for = "Si"
+
+[[column]]
+name = "mn"
+role = "input"
+unit = "wt%"
+stands_for = "Mn"
+
+[[column]]
+name = "b"
+role = "auxiliary"
+unit = "{}"
+stands_for = "B"
+
+[[column]]
+name = "preheat"
+role = "auxiliary"
+unit = "{}"
+stands_for = "preheat"
+
+[[column]]
+name = "heat_input"
+role = "input"
+unit = "{}"
+stands_for = "heat_input"
+
+[[column]]
+name = "thickness"
+role = "auxiliary"
+unit = "{}"
+stands_for = "thickness"
+
+[[column]]
+name = "uts"
+role = "target"
+unit = "{}"
+
+[[derived]]
+spec = "pcm"
+
+[[derived]]
+spec = "t85:butt_fill"
+"#,
+        units.b.0, units.preheat.0, units.heat_input.0, units.thickness.0, units.uts.0
+    )
+}
+
+/// A column for [`write_parquet`].
+pub enum ParquetColumn {
+    Text(Vec<Option<String>>),
+    Number(Vec<Option<f64>>),
+}
+
+/// Write a Parquet file with polars directly (not through mettle), text
+/// columns as strings and numbers as 64-bit floats; NaN stays NaN.
+pub fn write_parquet(path: &Path, columns: Vec<(&str, ParquetColumn)>) {
+    use polars::prelude::{Column, DataFrame, ParquetWriter};
+    let height = match columns.first() {
+        Some((_, ParquetColumn::Text(v))) => v.len(),
+        Some((_, ParquetColumn::Number(v))) => v.len(),
+        None => 0,
+    };
+    let cols: Vec<Column> = columns
+        .into_iter()
+        .map(|(name, c)| match c {
+            ParquetColumn::Text(v) => Column::new(name.into(), v),
+            ParquetColumn::Number(v) => Column::new(name.into(), v),
+        })
+        .collect();
+    let mut df = DataFrame::new(height, cols).expect("a frame of equal-length columns");
+    let f = std::fs::File::create(path).expect("create the Parquet file");
+    ParquetWriter::new(f)
+        .finish(&mut df)
+        .expect("write the Parquet file");
+}
+
+/// A weld table as Parquet in `units` (the same cells as [`weld_csv`]).
+pub fn weld_parquet(path: &Path, rows: &[Weld], units: &WeldUnits) {
+    let mut columns = vec![(
+        WELD_HEADER[0],
+        ParquetColumn::Text((1..=rows.len()).map(|i| Some(format!("W{i}"))).collect()),
+    )];
+    for (k, name) in WELD_HEADER[1..].iter().enumerate() {
+        columns.push((
+            name,
+            ParquetColumn::Number(
+                rows.iter()
+                    .map(|w| Some(weld_values(w, units)[k]))
+                    .collect(),
+            ),
+        ));
+    }
+    write_parquet(path, columns);
+}
