@@ -203,41 +203,107 @@ pub fn welds(n: usize, seed: u64) -> Vec<Weld> {
         .collect()
 }
 
-/// The units a weld table is written in, as a schema spells them, with the
-/// conversion from the internal unit of each column.
+/// One column's unit in a weld table: its spelling in a schema, and the
+/// conversions from and to the internal unit.
 #[derive(Clone, Copy, Debug)]
-pub struct WeldUnits {
-    pub b: (&'static str, fn(f64) -> f64),
-    pub preheat: (&'static str, fn(f64) -> f64),
-    pub heat_input: (&'static str, fn(f64) -> f64),
-    pub thickness: (&'static str, fn(f64) -> f64),
-    pub uts: (&'static str, fn(f64) -> f64),
+pub struct ColumnUnit {
+    pub symbol: &'static str,
+    pub from_internal: fn(f64) -> f64,
+    pub to_internal: fn(f64) -> f64,
 }
 
-/// 1 ksi in MPa from the exact definitions NIST SP 811 gives: 1 lbf =
-/// 4.4482216152605 N, 1 in = 0.0254 m; 1 ksi = 1000 lbf/in².
-pub const MPA_PER_KSI_EXACT: f64 = 1000.0 * 4.4482216152605 / (0.0254 * 0.0254) / 1.0e6;
+/// The units a weld table is written in (contents other than B are always
+/// in wt%).
+#[derive(Clone, Copy, Debug)]
+pub struct WeldUnits {
+    pub b: ColumnUnit,
+    pub preheat: ColumnUnit,
+    pub heat_input: ColumnUnit,
+    pub thickness: ColumnUnit,
+    pub uts: ColumnUnit,
+}
+
+/// 1 ksi in MPa, to double precision, from the exact definitions NIST SP 811
+/// gives: 1 lbf = 4.4482216152605 N, 1 in = 0.0254 m; 1 ksi = 1000 lbf/in²
+/// = 6.894757293168361 MPa.
+pub const MPA_PER_KSI_EXACT: f64 = 6.894_757_293_168_361;
+
+const SAME: ColumnUnit = ColumnUnit {
+    symbol: "",
+    from_internal: |x| x,
+    to_internal: |x| x,
+};
 
 /// Every column in the internal unit of its quantity.
 pub const INTERNAL_UNITS: WeldUnits = WeldUnits {
-    b: ("wt%", |x| x),
-    preheat: ("degC", |x| x),
-    heat_input: ("kJ/mm", |x| x),
-    thickness: ("mm", |x| x),
-    uts: ("MPa", |x| x),
+    b: ColumnUnit {
+        symbol: "wt%",
+        ..SAME
+    },
+    preheat: ColumnUnit {
+        symbol: "degC",
+        ..SAME
+    },
+    heat_input: ColumnUnit {
+        symbol: "kJ/mm",
+        ..SAME
+    },
+    thickness: ColumnUnit {
+        symbol: "mm",
+        ..SAME
+    },
+    uts: ColumnUnit {
+        symbol: "MPa",
+        ..SAME
+    },
 };
 
 /// The units of an older US record sheet, converted with the NIST SP 811
-/// definitions: 1 ppm (by mass) = 0.0001 wt%; °F = 1.8·°C + 32;
-/// 1 kJ/mm = 1000 J/mm; 1 in = 25.4 mm (exact); ksi as
+/// definitions: 1 ppm (by mass) = 0.0001 wt%; °C = (°F − 32)/1.8;
+/// 1 J/mm = 0.001 kJ/mm; 1 in = 25.4 mm (exact); ksi as
 /// [`MPA_PER_KSI_EXACT`].
 pub const US_SHEET_UNITS: WeldUnits = WeldUnits {
-    b: ("ppm", |x| x / 1.0e-4),
-    preheat: ("degF", |x| x * 1.8 + 32.0),
-    heat_input: ("J/mm", |x| x * 1000.0),
-    thickness: ("in", |x| x / 25.4),
-    uts: ("ksi", |x| x / MPA_PER_KSI_EXACT),
+    b: ColumnUnit {
+        symbol: "ppm",
+        from_internal: |x| x / 1.0e-4,
+        to_internal: |x| x * 1.0e-4,
+    },
+    preheat: ColumnUnit {
+        symbol: "degF",
+        from_internal: |x| x * 1.8 + 32.0,
+        to_internal: |x| (x - 32.0) / 1.8,
+    },
+    heat_input: ColumnUnit {
+        symbol: "J/mm",
+        from_internal: |x| x * 1000.0,
+        to_internal: |x| x / 1000.0,
+    },
+    thickness: ColumnUnit {
+        symbol: "in",
+        from_internal: |x| x / 25.4,
+        to_internal: |x| x * 25.4,
+    },
+    uts: ColumnUnit {
+        symbol: "ksi",
+        from_internal: |x| x / MPA_PER_KSI_EXACT,
+        to_internal: |x| x * MPA_PER_KSI_EXACT,
+    },
 };
+
+/// The weld as a table in `units` reads back in internal units: each value
+/// written in `units` and converted back with the definitions above (equal
+/// to `w` up to the last bit or so).
+pub fn through_units(w: &Weld, units: &WeldUnits) -> Weld {
+    let there_and_back = |u: &ColumnUnit, x: f64| (u.to_internal)((u.from_internal)(x));
+    Weld {
+        b: there_and_back(&units.b, w.b),
+        preheat: there_and_back(&units.preheat, w.preheat),
+        heat_input: there_and_back(&units.heat_input, w.heat_input),
+        thickness: there_and_back(&units.thickness, w.thickness),
+        uts: there_and_back(&units.uts, w.uts),
+        ..*w
+    }
+}
 
 /// Header of a weld table.
 pub const WELD_HEADER: [&str; 9] = [
@@ -258,11 +324,11 @@ pub fn weld_values(w: &Weld, units: &WeldUnits) -> [f64; 8] {
         w.c,
         w.si,
         w.mn,
-        (units.b.1)(w.b),
-        (units.preheat.1)(w.preheat),
-        (units.heat_input.1)(w.heat_input),
-        (units.thickness.1)(w.thickness),
-        (units.uts.1)(w.uts),
+        (units.b.from_internal)(w.b),
+        (units.preheat.from_internal)(w.preheat),
+        (units.heat_input.from_internal)(w.heat_input),
+        (units.thickness.from_internal)(w.thickness),
+        (units.uts.from_internal)(w.uts),
     ]
 }
 
@@ -346,7 +412,11 @@ spec = "pcm"
 [[derived]]
 spec = "t85:butt_fill"
 "#,
-        units.b.0, units.preheat.0, units.heat_input.0, units.thickness.0, units.uts.0
+        units.b.symbol,
+        units.preheat.symbol,
+        units.heat_input.symbol,
+        units.thickness.symbol,
+        units.uts.symbol
     )
 }
 
