@@ -11,7 +11,9 @@
 //! ```
 //!
 //! The options after `--markdown` exist to study the engine's settings;
-//! the published table uses the defaults.
+//! the published table uses the defaults. With `METTLE_BENCH_WORST` set in
+//! the environment, each split also prints its three test rows with the
+//! largest standardised error.
 
 use std::path::{Path, PathBuf};
 use std::time::Instant;
@@ -159,6 +161,16 @@ fn main() {
             let mean: Vec<f64> = pred.iter().map(|r| r.estimates[0].mean).collect();
             let sd: Vec<f64> = pred.iter().map(|r| r.estimates[0].sd).collect();
             let e = evaluate(&y, &mean, &sd).expect("rows");
+            if std::env::var_os("METTLE_BENCH_WORST").is_some() {
+                let mut z: Vec<(f64, f64, f64, f64)> = y
+                    .iter()
+                    .zip(&mean)
+                    .zip(&sd)
+                    .map(|((y, m), s)| (((y - m) / s).abs(), *y, *m, *s))
+                    .collect();
+                z.sort_by(|a, b| b.0.total_cmp(&a.0));
+                eprintln!("  worst |z|: {:?}", &z[..3.min(z.len())]);
+            }
             let c = &model.targets[0].committee;
             eprintln!(
                 "{ds} split {k:2}: RMSE {:.3}  LL {:.3}  cov68 {:.3}  cov95 {:.3}  {:.1} s  members {} (H {})",

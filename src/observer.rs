@@ -34,6 +34,14 @@ pub enum TrainEvent<'a> {
         /// Best held-out NLPD so far (target units), if any candidate succeeded.
         best_nlpd: Option<f64>,
     },
+    /// The best candidates are being fitted with noise that varies with
+    /// the inputs.
+    NoiseModels {
+        /// Target being trained.
+        target: &'a str,
+        /// Candidates given a noise network.
+        n_candidates: usize,
+    },
     /// The chosen members are being refitted on all the data.
     Refitting {
         /// Target being trained.

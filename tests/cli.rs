@@ -65,7 +65,7 @@ fn train_writes_a_versioned_model_file() {
     let w = trained();
     let model: Value = serde_json::from_slice(&w.read("model.json")).expect("model is JSON");
     assert_eq!(model["format"], "mettle-model");
-    assert_eq!(model["format_version"], 1);
+    assert_eq!(model["format_version"], mettle::model::MODEL_FORMAT_VERSION);
     let inputs: Vec<&str> = model["inputs"]
         .as_array()
         .expect("inputs array")

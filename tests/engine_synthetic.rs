@@ -11,7 +11,7 @@
 //! enough for this smooth two-input function, and it keeps the test at a
 //! few seconds.
 
-use mettle::committee::CommitteeParams;
+use mettle::committee::{CommitteeParams, NoiseMode};
 use mettle::data::Table;
 use mettle::evidence::GroupKind;
 use mettle::model::TrainSpec;
@@ -48,7 +48,13 @@ fn synthetic_model() -> Model {
     .expect("table");
     let mut spec = TrainSpec::new(&["y"]);
     spec.auto_log_inputs = false;
-    spec.params = CommitteeParams::default().hidden(1, 6).restarts(3).seed(3);
+    // constant noise is what this truth has; tests/varying_noise.rs checks
+    // that `auto` keeps it
+    spec.params = CommitteeParams::default()
+        .hidden(1, 6)
+        .restarts(3)
+        .seed(3)
+        .noise(NoiseMode::Constant);
     Model::train(&table, &spec, &Silent).expect("training succeeds")
 }
 

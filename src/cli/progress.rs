@@ -80,6 +80,13 @@ impl TrainObserver for TrainProgress {
                     }
                 }
             }
+            TrainEvent::NoiseModels { n_candidates, .. } => {
+                if let Some(bar) = guard.as_ref() {
+                    bar.set_message(format!(
+                        "fitting varying noise to the best {n_candidates} candidates"
+                    ));
+                }
+            }
             TrainEvent::Refitting { n_members, .. } => {
                 if let Some(bar) = guard.as_ref() {
                     bar.set_message(format!("refitting {n_members} members on all rows"));

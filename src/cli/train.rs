@@ -5,7 +5,7 @@ use std::time::Instant;
 
 use anyhow::Context;
 use clap::Args;
-use mettle::committee::CommitteeParams;
+use mettle::committee::{CommitteeParams, NoiseMode};
 use mettle::data::schema::Schema;
 use mettle::data::Table;
 use mettle::model::{SchemaTrainOptions, SchemaTrainReport, TrainSpec};
@@ -78,6 +78,11 @@ pub struct TrainArgs {
     /// Largest committee considered.
     #[arg(long, value_name = "N", default_value_t = 16)]
     max_members: usize,
+    /// Noise model: `constant` (one noise level), `varying` (a noise level that varies with the
+    /// inputs, learnt by a second small network per member), or `auto` (whichever gives the lower
+    /// held-out NLPD inside the training data).
+    #[arg(long, value_enum, value_name = "MODE", default_value_t = NoiseArg::Auto)]
+    noise: NoiseArg,
     /// Do not widen the hidden-unit range when the best candidates sit at its top.
     #[arg(long)]
     no_widen: bool,
@@ -93,6 +98,27 @@ pub struct TrainArgs {
     /// No progress display.
     #[arg(long, short)]
     quiet: bool,
+}
+
+/// `--noise` values.
+#[derive(Clone, Copy, Debug, clap::ValueEnum)]
+pub enum NoiseArg {
+    /// One noise level for every input.
+    Constant,
+    /// Noise that varies with the inputs.
+    Varying,
+    /// The better of the two on the held-out part.
+    Auto,
+}
+
+impl From<NoiseArg> for NoiseMode {
+    fn from(a: NoiseArg) -> Self {
+        match a {
+            NoiseArg::Constant => NoiseMode::Constant,
+            NoiseArg::Varying => NoiseMode::Varying,
+            NoiseArg::Auto => NoiseMode::Auto,
+        }
+    }
 }
 
 /// Parse `MIN..MAX` or `N`.
@@ -128,6 +154,7 @@ pub fn run(a: TrainArgs) -> anyhow::Result<()> {
         .holdout_fraction(a.holdout)
         .max_members(a.max_members)
         .widen(!a.no_widen)
+        .noise(a.noise.into())
         .ard(!a.no_ard);
     let progress = TrainProgress::new(a.quiet);
     let started = Instant::now();
@@ -177,8 +204,18 @@ pub fn run(a: TrainArgs) -> anyhow::Result<()> {
                 / c.members.len() as f64
                 * t.scaling.width();
             let failed = c.candidates.iter().filter(|c| c.failure.is_some()).count();
+            let ns = &c.selection.noise;
+            let noise_kind = match (ns.varying, ns.constant_nlpd, ns.varying_nlpd) {
+                (true, Some(cn), Some(vn)) => format!(
+                    "noise varies with the inputs (held-out NLPD {vn:.3} against {cn:.3} with constant noise), typical noise sd"
+                ),
+                (false, Some(cn), Some(vn)) => format!(
+                    "constant noise (held-out NLPD {cn:.3} against {vn:.3} with varying noise), noise sd"
+                ),
+                _ => "constant noise, noise sd".to_string(),
+            };
             eprintln!(
-                "{}: {} rows{}, committee of {} (hidden units {}), held-out NLPD {:.3}, noise sd {:.4}{}; {} of {} candidates discarded",
+                "{}: {} rows{}, committee of {} (hidden units {}), held-out NLPD {:.3}, {noise_kind} {:.4}{}; {} of {} candidates discarded",
                 t.name,
                 t.n_rows,
                 if t.n_missing > 0 { format!(" ({} without this target left out)", t.n_missing) } else { String::new() },

@@ -20,10 +20,12 @@
 //! the first term the members' own variances (noise + parameter
 //! uncertainty), the second their disagreement.
 
+mod noise;
 mod params;
 mod search;
 
-pub use params::{CheckedCommitteeParams, CommitteeParams};
+pub use noise::NoiseModel;
+pub use params::{CheckedCommitteeParams, CommitteeParams, NoiseMode};
 pub use search::train_committee;
 
 use ndarray::{Array1, Array2, ArrayView2};
@@ -62,6 +64,10 @@ pub struct Member {
     pub posterior_cov: Array2<f64>,
     /// Training record of the refit.
     pub diagnostics: FitDiagnostics,
+    /// The member's network for ln σ²(x) when its noise varies with the
+    /// inputs; absent under constant noise.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub noise: Option<NoiseModel>,
 }
 
 /// A candidate network as tried during the search.
@@ -100,6 +106,24 @@ pub struct Selection {
     pub n_members: usize,
     /// Members whose refit failed (they were dropped), with the reason.
     pub refit_failures: Vec<String>,
+    /// How the noise model was chosen.
+    #[serde(default)]
+    pub noise: NoiseSelection,
+}
+
+/// The choice between constant and varying noise, on the held-out part.
+#[derive(Clone, Debug, Default, PartialEq, Serialize, Deserialize)]
+pub struct NoiseSelection {
+    /// What the user asked for.
+    pub requested: NoiseMode,
+    /// True when the members' noise varies with the inputs.
+    pub varying: bool,
+    /// Held-out NLPD of the best constant-noise committee (target units).
+    pub constant_nlpd: Option<f64>,
+    /// Held-out NLPD of the best varying-noise committee (target units).
+    pub varying_nlpd: Option<f64>,
+    /// Candidates whose varying-noise fit failed, with the reason.
+    pub varying_failures: Vec<String>,
 }
 
 /// A trained committee.
@@ -150,9 +174,36 @@ impl Member {
         Architecture::new(n_inputs, self.n_hidden)
     }
 
-    /// Noise sd in scaled target units, 1/√β.
+    /// Noise sd in scaled target units, 1/√β (under varying noise, at
+    /// inputs where σ²(x) = 1).
     pub fn noise_sd(&self) -> f64 {
         1.0 / self.beta.sqrt()
+    }
+
+    /// Mean, total variance and noise variance for scaled inputs `x`
+    /// (scaled target units): the noise variance is 1/β, or σ²(x)/β under
+    /// varying noise; the total adds gᵀA⁻¹g.
+    pub fn predictive(
+        &self,
+        n_inputs: usize,
+        x: ArrayView2<f64>,
+    ) -> (Array1<f64>, Array1<f64>, Array1<f64>) {
+        let arch = self.arch(n_inputs);
+        let rho = self
+            .noise
+            .as_ref()
+            .map(|nm| nm.precision_weights(n_inputs, x));
+        let (y, var) = predictive(&arch, &self.weights, &self.posterior_cov, self.beta, x);
+        let constant = 1.0 / self.beta;
+        match rho {
+            None => (y, var, Array1::from_elem(x.nrows(), constant)),
+            Some(rho) => {
+                let noise_var = rho.mapv(|r| constant / r);
+                // replace the constant 1/β inside `var` by σ²(x)/β
+                let total = var - constant + &noise_var;
+                (y, total, noise_var)
+            }
+        }
     }
 }
 
@@ -161,21 +212,15 @@ impl Committee {
     pub fn predict_scaled(&self, x: ArrayView2<f64>) -> ScaledPrediction {
         let mut means = Vec::with_capacity(self.members.len());
         let mut vars = Vec::with_capacity(self.members.len());
-        let mut noise = 0.0;
+        let mut noise = Array1::zeros(x.nrows());
         for m in &self.members {
-            let (y, v) = predictive(
-                &m.arch(self.n_inputs),
-                &m.weights,
-                &m.posterior_cov,
-                m.beta,
-                x,
-            );
+            let (y, v, nv) = m.predictive(self.n_inputs, x);
             means.push(y);
             vars.push(v);
-            noise += 1.0 / m.beta;
+            noise += &nv;
         }
         let (mean, var) = combine(&means, &vars);
-        let noise_var = Array1::from_elem(mean.len(), noise / self.members.len() as f64);
+        let noise_var = noise / self.members.len() as f64;
         ScaledPrediction {
             mean,
             var,
@@ -185,7 +230,7 @@ impl Committee {
 }
 
 /// Serialise a symmetric matrix as its packed lower triangle.
-mod packed_symmetric {
+pub(crate) mod packed_symmetric {
     use ndarray::Array2;
     use serde::{de::Error as _, Deserialize, Deserializer, Serialize, Serializer};
 

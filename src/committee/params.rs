@@ -8,9 +8,10 @@
 //! | `holdout_fraction` | 0.2 | share of the training rows held out to rank candidates | 0.05 ..= 0.5 |
 //! | `ard` | true | one α per input (automatic relevance determination) | — |
 //! | `widen` | true | widen the hidden range when the best candidate sits at its top | — |
-//! | `hidden_cap` | 30 | largest hidden-unit count widening may reach | ≥ max |
+//! | `hidden_cap` | 20 | largest hidden-unit count widening may reach | ≥ max |
 //! | `max_members` | 16 | largest committee considered | 1 ..= 200 |
 //! | `seed` | 0 | seed of every random choice | any u64 |
+//! | `noise` | auto | constant noise, noise that varies with the inputs, or the better of the two on the held-out part | constant, varying, auto |
 
 use serde::{Deserialize, Serialize};
 
@@ -40,6 +41,24 @@ pub struct CommitteeParams {
     pub seed: u64,
     /// Settings of each network's training.
     pub fit: FitSettings,
+    /// Noise model: constant, varying with the inputs, or chosen.
+    #[serde(default)]
+    pub noise: NoiseMode,
+}
+
+/// How the noise level of the target is modelled.
+#[derive(Clone, Copy, Debug, Default, PartialEq, Eq, Serialize, Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum NoiseMode {
+    /// One noise level everywhere (one β per network).
+    Constant,
+    /// A noise level that varies with the inputs (a second network for
+    /// ln σ²(x) per member).
+    Varying,
+    /// Whichever of the two gives the lower held-out NLPD inside the
+    /// training data.
+    #[default]
+    Auto,
 }
 
 impl Default for CommitteeParams {
@@ -51,10 +70,11 @@ impl Default for CommitteeParams {
             holdout_fraction: 0.2,
             ard: true,
             widen: true,
-            hidden_cap: 30,
+            hidden_cap: 20,
             max_members: 16,
             seed: 0,
             fit: FitSettings::default(),
+            noise: NoiseMode::Auto,
         }
     }
 }
@@ -126,6 +146,13 @@ impl CommitteeParams {
     #[must_use]
     pub fn fit(mut self, fit: FitSettings) -> Self {
         self.fit = fit;
+        self
+    }
+
+    /// Noise model.
+    #[must_use]
+    pub fn noise(mut self, mode: NoiseMode) -> Self {
+        self.noise = mode;
         self
     }
 

@@ -10,7 +10,11 @@ use rand_distr::{Distribution, Normal};
 use rand_xoshiro::Xoshiro256PlusPlus;
 use rayon::prelude::*;
 
-use super::{combine, Candidate, CheckedCommitteeParams, Committee, Member, Selection};
+use super::noise::{fit_varying, VaryingFit};
+use super::{
+    combine, Candidate, CheckedCommitteeParams, Committee, Member, NoiseMode, NoiseModel,
+    NoiseSelection, Selection,
+};
 use crate::error::{Error, Result};
 use crate::evidence::{fit_network, FitFailure, FittedNetwork, Groups, StartState};
 use crate::net::Architecture;
@@ -123,7 +127,7 @@ pub fn train_committee(
     }
     let mut order: Vec<usize> = (0..n).collect();
     order.shuffle(&mut Xoshiro256PlusPlus::seed_from_u64(
-        params.seed ^ 0x5EED_0F_5B11,
+        params.seed ^ 0x005E_ED0F_5B11,
     ));
     let (held, train) = order.split_at(n_heldout);
     let mut train = train.to_vec();
@@ -279,6 +283,106 @@ pub fn train_committee(
         .min_by(|a, b| a.1.total_cmp(b.1))
         .map_or(1, |(i, _)| i + 1);
 
+    let constant_nlpd = nlpd_by_size[n_members - 1];
+
+    // the same candidates with noise that varies with the inputs
+    let mut noise_sel = NoiseSelection {
+        requested: params.noise,
+        varying: false,
+        constant_nlpd: Some(constant_nlpd),
+        varying_nlpd: None,
+        varying_failures: Vec::new(),
+    };
+    let mut varying_members: Vec<(&Trial, VaryingFit, f64)> = Vec::new();
+    let mut varying_sizes: Vec<f64> = Vec::new();
+    if params.noise != NoiseMode::Constant {
+        let pool = max_size.min(n_members.max(VARYING_POOL_MIN));
+        observer.observe(&TrainEvent::NoiseModels {
+            target: target_name,
+            n_candidates: pool,
+        });
+        let fits: Vec<(usize, VaryingOutcome)> = ranked[..pool]
+            .par_iter()
+            .enumerate()
+            .map(|(i, trial)| {
+                let net = trial.net.as_ref().expect("ranked trials have networks");
+                let seed = trial.record.seed ^ NOISE_SEED_SALT;
+                let fit = fit_varying(
+                    net,
+                    None,
+                    params.ard,
+                    x_tr.view(),
+                    t_tr.view(),
+                    seed,
+                    &params.fit,
+                )
+                .and_then(|vf| {
+                    let member = provisional_member(trial, &vf);
+                    let (m, v, _) = member.predictive(d, x_ho.view());
+                    let nlpd = nlpd_scaled(&m, &v, t_ho.view()) + ln_width;
+                    if nlpd.is_finite() {
+                        Ok((vf, nlpd))
+                    } else {
+                        Err(FitFailure::Diverged("non-finite held-out NLPD".into()))
+                    }
+                });
+                (i, fit)
+            })
+            .collect();
+        for (i, fit) in fits {
+            match fit {
+                Ok((vf, nlpd)) => varying_members.push((ranked[i], vf, nlpd)),
+                Err(f) => noise_sel.varying_failures.push(format!(
+                    "{} hidden, restart {}: {f}",
+                    ranked[i].record.n_hidden, ranked[i].record.restart
+                )),
+            }
+        }
+        varying_members.sort_by(|a, b| {
+            a.2.total_cmp(&b.2)
+                .then(a.0.record.n_hidden.cmp(&b.0.record.n_hidden))
+                .then(a.0.record.restart.cmp(&b.0.record.restart))
+        });
+        let preds: Vec<(Array1<f64>, Array1<f64>)> = varying_members
+            .iter()
+            .map(|(trial, vf, _)| {
+                let (m, v, _) = provisional_member(trial, vf).predictive(d, x_ho.view());
+                (m, v)
+            })
+            .collect();
+        let (means, vars): (Vec<_>, Vec<_>) = preds.into_iter().unzip();
+        for size in 1..=means.len() {
+            let (m, v) = combine(&means[..size], &vars[..size]);
+            varying_sizes.push(nlpd_scaled(&m, &v, t_ho.view()) + ln_width);
+        }
+        noise_sel.varying_nlpd = varying_sizes.iter().copied().min_by(f64::total_cmp);
+    }
+    let use_varying = match (params.noise, noise_sel.varying_nlpd) {
+        (NoiseMode::Constant, _) | (_, None) => false,
+        (NoiseMode::Varying, Some(_)) => true,
+        (NoiseMode::Auto, Some(v)) => v < constant_nlpd,
+    };
+    if params.noise == NoiseMode::Varying && !use_varying {
+        return Err(Error::AllCandidatesFailed {
+            reasons: format!(
+                "no candidate could be fitted with varying noise: {}",
+                noise_sel.varying_failures.join("; ")
+            ),
+        });
+    }
+    noise_sel.varying = use_varying;
+    let (n_members, nlpd_by_size) = if use_varying {
+        let k = varying_sizes
+            .iter()
+            .enumerate()
+            .min_by(|a, b| a.1.total_cmp(b.1))
+            .map_or(1, |(i, _)| i + 1);
+        varying_members.truncate(k);
+        (k, varying_sizes)
+    } else {
+        (n_members, nlpd_by_size)
+    };
+
     // refit the chosen members on all the data, warm-started
     observer.observe(&TrainEvent::Refitting {
         target: target_name,
@@ -289,42 +393,52 @@ pub fn train_committee(
         first_iters: params.fit.cycle_iters,
         ..params.fit.clone()
     };
-    let refits: Vec<std::result::Result<Member, String>> = ranked[..n_members]
-        .par_iter()
-        .map(|trial| {
-            let net = trial.net.as_ref().expect("ranked trials have networks");
-            let start = StartState {
-                weights: net.weights.clone(),
-                alpha: net.alpha.clone(),
-                beta: net.beta,
-            };
-            let rec = &trial.record;
-            fit_network(
-                net.arch,
-                params.ard,
-                x.view(),
-                t.view(),
-                start,
-                &refit_settings,
-            )
-            .map(|refit| Member {
-                n_hidden: rec.n_hidden,
-                restart: rec.restart,
-                seed: rec.seed,
-                groups: refit.group_kinds.clone(),
-                alpha: refit.alpha.clone(),
-                gamma: refit.gamma.clone(),
-                beta: refit.beta,
-                log_evidence: refit.log_evidence,
-                heldout_nlpd: rec.heldout_nlpd.unwrap_or(f64::NAN),
-                hessian: refit.hessian,
-                weights: refit.weights.clone(),
-                posterior_cov: refit.posterior_cov.clone(),
-                diagnostics: refit.diagnostics.clone(),
+    let refits: Vec<std::result::Result<Member, String>> = if use_varying {
+        varying_members
+            .par_iter()
+            .map(|(trial, vf, nlpd)| {
+                let rec = &trial.record;
+                fit_varying(
+                    &vf.mean,
+                    Some(&vf.noise),
+                    params.ard,
+                    x.view(),
+                    t.view(),
+                    rec.seed ^ NOISE_SEED_SALT,
+                    &params.fit,
+                )
+                .map(|refit| {
+                    let mut m = provisional_member(trial, &refit);
+                    m.heldout_nlpd = *nlpd;
+                    m
+                })
+                .map_err(|f| format!("{} hidden, restart {}: {f}", rec.n_hidden, rec.restart))
             })
-            .map_err(|f| format!("{} hidden, restart {}: {f}", rec.n_hidden, rec.restart))
-        })
-        .collect();
+            .collect()
+    } else {
+        ranked[..n_members]
+            .par_iter()
+            .map(|trial| {
+                let net = trial.net.as_ref().expect("ranked trials have networks");
+                let start = StartState {
+                    weights: net.weights.clone(),
+                    alpha: net.alpha.clone(),
+                    beta: net.beta,
+                };
+                let rec = &trial.record;
+                fit_network(
+                    net.arch,
+                    params.ard,
+                    x.view(),
+                    t.view(),
+                    start,
+                    &refit_settings,
+                )
+                .map(|refit| member_from(rec, &refit, None))
+                .map_err(|f| format!("{} hidden, restart {}: {f}", rec.n_hidden, rec.restart))
+            })
+            .collect()
+    };
     let mut members = Vec::new();
     let mut refit_failures = Vec::new();
     for r in refits {
@@ -359,8 +473,44 @@ pub fn train_committee(
             nlpd_by_size,
             n_members,
             refit_failures,
+            noise: noise_sel,
         },
     })
+}
+
+/// A varying-noise fit with its held-out NLPD, or why it failed.
+type VaryingOutcome = std::result::Result<(VaryingFit, f64), FitFailure>;
+
+/// Candidates given a varying-noise fit: at least this many of the best,
+/// or as many as the constant-noise committee has members.
+const VARYING_POOL_MIN: usize = 4;
+
+/// Mixed into a candidate's seed for its noise network's first weights.
+const NOISE_SEED_SALT: u64 = 0x0A15_E5EE_D000_0001;
+
+fn member_from(rec: &Candidate, net: &FittedNetwork, noise: Option<NoiseModel>) -> Member {
+    Member {
+        n_hidden: rec.n_hidden,
+        restart: rec.restart,
+        seed: rec.seed,
+        groups: net.group_kinds.clone(),
+        alpha: net.alpha.clone(),
+        gamma: net.gamma.clone(),
+        beta: net.beta,
+        log_evidence: net.log_evidence,
+        heldout_nlpd: rec.heldout_nlpd.unwrap_or(f64::NAN),
+        hessian: net.hessian,
+        weights: net.weights.clone(),
+        posterior_cov: net.posterior_cov.clone(),
+        diagnostics: net.diagnostics.clone(),
+        noise,
+    }
+}
+
+/// A member from a varying-noise fit (its held-out NLPD still that of the
+/// constant-noise candidate until the caller sets it).
+fn provisional_member(trial: &Trial, vf: &VaryingFit) -> Member {
+    member_from(&trial.record, &vf.mean, Some(vf.noise.clone()))
 }
 
 fn failed(h: usize, r: usize, seed: u64, f: FitFailure) -> Trial {

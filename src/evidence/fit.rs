@@ -38,7 +38,7 @@ use ndarray_linalg::{Eigh, FactorizeC, InverseC, SolveC, UPLO};
 use serde::{Deserialize, Serialize};
 
 use super::groups::{GroupKind, Groups};
-use super::objective::Objective;
+use super::objective::{DataModel, Objective};
 use crate::net::Architecture;
 use crate::prec::{
     ALPHA_MAX, ALPHA_MIN, BETA_MAX, BETA_MIN, COST_TOL, EIGEN_FLOOR_REL, GAMMA_ACTIVE, GRAD_TOL,
@@ -169,6 +169,13 @@ impl std::fmt::Display for FitFailure {
     }
 }
 
+/// The hyperparameters of one cycle: β and each parameter's α.
+#[derive(Clone, Copy)]
+struct Hyper<'h> {
+    beta: f64,
+    alpha_per_param: &'h [f64],
+}
+
 struct Factorised {
     inv: Array2<f64>,
     ln_det: f64,
@@ -199,38 +206,62 @@ fn eigen_inverse(a: &Array2<f64>) -> Option<(Array2<f64>, f64)> {
     Some((inv, clamped.iter().map(|v| v.ln()).sum()))
 }
 
+/// A = c·JᵀRJ + diag(α) (or the exact Hessian where asked and possible),
+/// factorised. `c` is β for a Gaussian mean and ½ for a log variance (the
+/// expected curvature of ½(s + u·e^(−s)) at its minimum); R is diag(ρ) for
+/// weighted rows, otherwise the identity.
 fn hessian_of_m(
     arch: &Architecture,
     w: &[f64],
     x: ArrayView2<f64>,
-    t: ArrayView1<f64>,
-    beta: f64,
-    alpha_per_param: &[f64],
+    data: &DataModel,
+    hyper: Hyper,
     choice: HessianChoice,
     diag: &mut FitDiagnostics,
 ) -> Option<Factorised> {
+    let Hyper {
+        beta,
+        alpha_per_param,
+    } = hyper;
+    let (curvature, rows) = match *data {
+        DataModel::Gaussian { row_weights, .. } => (beta, row_weights),
+        DataModel::LogVariance { .. } => (0.5, None),
+    };
     let add_prior = |mut h: Array2<f64>| {
-        h *= beta;
+        h *= curvature;
         for (k, a) in alpha_per_param.iter().enumerate() {
             h[[k, k]] += a;
         }
         h
     };
-    if choice == HessianChoice::ExactWherePositiveDefinite && !arch.is_linear() {
-        let exact = add_prior(arch.data_hessian_exact(w, x, t));
-        if let Some((inv, ln_det)) = cholesky_inverse(&exact) {
-            return Some(Factorised {
-                inv,
-                ln_det,
-                kind: HessianKind::Exact,
-                eigen_fallback: false,
-            });
+    if let DataModel::Gaussian {
+        t,
+        row_weights: None,
+    } = *data
+    {
+        if choice == HessianChoice::ExactWherePositiveDefinite && !arch.is_linear() {
+            let exact = add_prior(arch.data_hessian_exact(w, x, t));
+            if let Some((inv, ln_det)) = cholesky_inverse(&exact) {
+                return Some(Factorised {
+                    inv,
+                    ln_det,
+                    kind: HessianKind::Exact,
+                    eigen_fallback: false,
+                });
+            }
+            diag.exact_not_positive_definite += 1;
         }
-        diag.exact_not_positive_definite += 1;
     }
     let (_, jac) = arch.jacobian(w, x);
-    let gn = add_prior(jac.t().dot(&jac));
-    let kind = if arch.is_linear() {
+    let jtj = match rows {
+        None => jac.t().dot(&jac),
+        Some(rho) => {
+            let weighted = &jac * &rho.insert_axis(ndarray::Axis(1));
+            jac.t().dot(&weighted)
+        }
+    };
+    let gn = add_prior(jtj);
+    let kind = if arch.is_linear() && matches!(data, DataModel::Gaussian { .. }) {
         HessianKind::Exact
     } else {
         HessianKind::GaussNewton
@@ -282,20 +313,27 @@ fn flat_output_bias(groups: &Groups, mut alpha: Vec<f64>) -> Vec<f64> {
 fn minimise<'a>(
     arch: &Architecture,
     x: ArrayView2<'a, f64>,
-    t: ArrayView1<'a, f64>,
-    beta: f64,
-    alpha_per_param: &[f64],
+    data: DataModel<'a>,
+    hyper: Hyper,
     w0: Vec<f64>,
     iters: u64,
     memory: usize,
 ) -> Result<(Vec<f64>, u64), FitFailure> {
-    let obj = Objective::new(*arch, x, t, beta, alpha_per_param.to_vec());
-    if arch.is_linear() {
+    let Hyper {
+        beta,
+        alpha_per_param,
+    } = hyper;
+    let obj = Objective::new(*arch, x, data, beta, alpha_per_param.to_vec());
+    if let (true, DataModel::Gaussian { row_weights, .. }) = (arch.is_linear(), data) {
         // M is quadratic: one Newton step w ← w − A⁻¹∇M is exact.
         let w = Array1::from(w0);
         let (_, grad) = obj.value_gradient(&w);
         let (_, jac) = arch.jacobian(w.as_slice().unwrap_or(&[]), x);
-        let mut a = jac.t().dot(&jac) * beta;
+        let jtj = match row_weights {
+            None => jac.t().dot(&jac),
+            Some(rho) => jac.t().dot(&(&jac * &rho.insert_axis(ndarray::Axis(1)))),
+        };
+        let mut a = jtj * beta;
         for (k, al) in alpha_per_param.iter().enumerate() {
             a[[k, k]] += al;
         }
@@ -352,6 +390,41 @@ pub fn fit_network<'a>(
     start: StartState,
     settings: &FitSettings,
 ) -> Result<FittedNetwork, FitFailure> {
+    fit_model(
+        arch,
+        ard,
+        x,
+        DataModel::Gaussian {
+            t,
+            row_weights: None,
+        },
+        start,
+        settings,
+    )
+}
+
+/// Train one network for any [`DataModel`]: the mean under constant or
+/// row-weighted Gaussian noise (β re-estimated), or the log noise variance
+/// (no β: its curvature is fixed by the model).
+///
+/// # Errors
+/// As [`fit_network`].
+pub fn fit_model<'a>(
+    arch: Architecture,
+    ard: bool,
+    x: ArrayView2<'a, f64>,
+    data: DataModel<'a>,
+    start: StartState,
+    settings: &FitSettings,
+) -> Result<FittedNetwork, FitFailure> {
+    let is_gaussian = matches!(data, DataModel::Gaussian { .. });
+    let ln_rho_sum = match data {
+        DataModel::Gaussian {
+            row_weights: Some(rho),
+            ..
+        } => rho.iter().map(|r| r.ln()).sum::<f64>(),
+        _ => 0.0,
+    };
     let groups = Groups::new(&arch, ard);
     let n = x.nrows() as f64;
     let mut diag = FitDiagnostics::default();
@@ -371,9 +444,11 @@ pub fn fit_network<'a>(
         let (w_new, evals) = minimise(
             &arch,
             x,
-            t,
-            beta,
-            &alpha_pp,
+            data,
+            Hyper {
+                beta,
+                alpha_per_param: &alpha_pp,
+            },
             w,
             iters,
             settings.lbfgs_memory,
@@ -385,8 +460,8 @@ pub fn fit_network<'a>(
                 "non-finite weights in cycle {cycle}"
             )));
         }
-        let r = arch.predict(&w, x) - t;
-        let e_d = 0.5 * r.dot(&r);
+        // β·E_D for a mean (E_D itself with β = 1), E_L for a log variance
+        let e_d = data.value(&arch, &w, x, 1.0);
         if !e_d.is_finite() {
             return Err(FitFailure::Diverged(format!(
                 "non-finite error in cycle {cycle}"
@@ -396,9 +471,11 @@ pub fn fit_network<'a>(
             &arch,
             &w,
             x,
-            t,
-            beta,
-            &alpha_pp,
+            &data,
+            Hyper {
+                beta,
+                alpha_per_param: &alpha_pp,
+            },
             settings.hessian,
             &mut diag,
         )
@@ -417,14 +494,19 @@ pub fn fit_network<'a>(
         let gamma_total: f64 = gamma.iter().sum();
         let e_w: f64 = alpha.iter().zip(&sum_sq).map(|(a, s)| 0.5 * a * s).sum();
         let h = arch.n_hidden;
-        let log_evidence = -beta * e_d - e_w - 0.5 * fact.ln_det
+        let (data_term, noise_norm) = if is_gaussian {
+            (beta * e_d, 0.5 * n * beta.ln() + 0.5 * ln_rho_sum)
+        } else {
+            (e_d, 0.0)
+        };
+        let log_evidence = -data_term - e_w - 0.5 * fact.ln_det
             + groups
                 .sizes()
                 .iter()
                 .zip(&alpha)
                 .map(|(&k, a)| 0.5 * k as f64 * a.ln())
                 .sum::<f64>()
-            + 0.5 * n * beta.ln()
+            + noise_norm
             - 0.5 * n * (2.0 * std::f64::consts::PI).ln()
             + ln_factorial(h)
             + h as f64 * std::f64::consts::LN_2;
@@ -474,7 +556,7 @@ pub fn fit_network<'a>(
             }
             let raw = if s > 0.0 { g / s } else { ALPHA_MAX };
             let bounded = raw.clamp(ALPHA_MIN, ALPHA_MAX);
-            if bounded != raw {
+            if (bounded - raw).abs() > 0.0 {
                 let what = format!("alpha bound on group {:?}", groups.kinds()[c]);
                 if !diag.bounds_hit.contains(&what) {
                     diag.bounds_hit.push(what);
@@ -483,15 +565,19 @@ pub fn fit_network<'a>(
             new_alpha.push(bounded);
         }
         let dof = (n - gamma_total).max(MIN_RESIDUAL_DOF_FRACTION * n);
-        if dof > n - gamma_total {
+        if is_gaussian && dof > n - gamma_total {
             let what = "residual degrees of freedom N - gamma bounded".to_string();
             if !diag.bounds_hit.contains(&what) {
                 diag.bounds_hit.push(what);
             }
         }
-        let raw_beta = dof / (2.0 * e_d).max(f64::MIN_POSITIVE);
+        let raw_beta = if is_gaussian {
+            dof / (2.0 * e_d).max(f64::MIN_POSITIVE)
+        } else {
+            beta // a log variance has no noise level of its own
+        };
         let new_beta = raw_beta.clamp(BETA_MIN, BETA_MAX);
-        if new_beta != raw_beta {
+        if is_gaussian && (new_beta - raw_beta).abs() > 0.0 {
             let what = "beta bound".to_string();
             if !diag.bounds_hit.contains(&what) {
                 diag.bounds_hit.push(what);

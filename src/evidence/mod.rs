@@ -6,7 +6,8 @@ mod groups;
 mod objective;
 
 pub use fit::{
-    fit_network, predictive, FitDiagnostics, FitFailure, FitSettings, FittedNetwork, HessianChoice,
-    HessianKind, StartState,
+    fit_model, fit_network, predictive, FitDiagnostics, FitFailure, FitSettings, FittedNetwork,
+    HessianChoice, HessianKind, StartState,
 };
 pub use groups::{GroupKind, Groups};
+pub use objective::DataModel;

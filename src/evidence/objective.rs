@@ -4,9 +4,22 @@
 //!
 //! ```text
 //! M(w) = β·E_D(w) + Σ_c α_c·E_W,c(w),   E_W,c = ½ Σ_{k∈c} w_k²
+//! E_D  = ½ Σ_n ρ_n (y_n − t_n)²                       (Gaussian noise)
 //! ```
 //!
-//! (MacKay 1992, Neural Computation 4(3):448, eq. 2; Bishop 1995 §10.4).
+//! (MacKay 1992, Neural Computation 4(3):448, eq. 2; Bishop 1995 §10.4),
+//! with per-row precision weights ρ_n (all 1 under constant noise). For the
+//! network of the log noise variance s(x) = ln σ²(x) the data term is
+//! instead the Gaussian negative log likelihood of the residuals r_n of the
+//! mean network, up to a constant,
+//!
+//! ```text
+//! E_L = ½ Σ_n (s_n + u_n·e^(−s_n)),   u_n = r_n² / (1 − h_n)
+//! ```
+//!
+//! with h_n the leverage of row n (Bishop & Qazaz 1997, "Regression with
+//! input-dependent noise: a Bayesian treatment", NIPS 9; the leverage
+//! correction makes E[u_n] = σ²(x_n) for a fitted mean).
 //! The optimiser sees M/N so that its tolerances do not depend on the
 //! number of rows.
 
@@ -17,17 +30,98 @@ use ndarray::{Array1, ArrayView1, ArrayView2};
 
 use crate::net::Architecture;
 
+/// What the network's output models, and so its data term.
+#[derive(Clone, Copy, Debug)]
+pub enum DataModel<'a> {
+    /// The mean of a Gaussian target `t` with noise precision β·ρ_n.
+    Gaussian {
+        /// Targets.
+        t: ArrayView1<'a, f64>,
+        /// Per-row precision weights ρ_n; `None` means all 1.
+        row_weights: Option<ArrayView1<'a, f64>>,
+    },
+    /// The log noise variance, from leverage-corrected squared residuals.
+    LogVariance {
+        /// u_n = r_n²/(1 − h_n).
+        u: ArrayView1<'a, f64>,
+    },
+}
+
+impl DataModel<'_> {
+    /// The data term (β·E_D, or E_L) and its gradient at `w`.
+    pub fn value_gradient(
+        &self,
+        arch: &Architecture,
+        w: &[f64],
+        x: ArrayView2<f64>,
+        beta: f64,
+    ) -> (f64, Array1<f64>) {
+        match *self {
+            DataModel::Gaussian {
+                t,
+                row_weights: None,
+            } => {
+                let (e_d, g) = arch.data_error_gradient(w, x, t);
+                (beta * e_d, g * beta)
+            }
+            DataModel::Gaussian {
+                t,
+                row_weights: Some(rho),
+            } => {
+                let (y, act) = arch.outputs_and_activations(w, x);
+                let r = &y - &t;
+                let rho_r = &r * &rho;
+                let e_d = 0.5 * rho_r.dot(&r);
+                let g = arch.gradient_from_output(w, x, &act, &rho_r);
+                (beta * e_d, g * beta)
+            }
+            DataModel::LogVariance { u } => {
+                let (s, act) = arch.outputs_and_activations(w, x);
+                let scaled = &u * &s.mapv(|v| (-v).exp());
+                let value = 0.5 * (s.sum() + scaled.sum());
+                let dl_ds = scaled.mapv(|v| 0.5 * (1.0 - v));
+                (value, arch.gradient_from_output(w, x, &act, &dl_ds))
+            }
+        }
+    }
+
+    /// The data term alone at `w` (β·E_D with β = `beta`, or E_L).
+    pub fn value(&self, arch: &Architecture, w: &[f64], x: ArrayView2<f64>, beta: f64) -> f64 {
+        let y = arch.predict(w, x);
+        match *self {
+            DataModel::Gaussian { t, row_weights } => {
+                let r = &y - &t;
+                let e_d = match row_weights {
+                    None => 0.5 * r.dot(&r),
+                    Some(rho) => 0.5 * (&r * &rho).dot(&r),
+                };
+                beta * e_d
+            }
+            DataModel::LogVariance { u } => {
+                0.5 * y
+                    .iter()
+                    .zip(u)
+                    .map(|(s, u)| s + u * (-s).exp())
+                    .sum::<f64>()
+            }
+        }
+    }
+}
+
+/// (w, M/N, ∇M/N) of the last point evaluated.
+type CachedPoint = (Array1<f64>, f64, Array1<f64>);
+
 /// M(w)/N for fixed hyperparameters, with a one-entry cache so that the
 /// line search's cost and gradient calls at the same point share one
 /// forward and backward pass.
 pub(crate) struct Objective<'a> {
     pub arch: Architecture,
     pub x: ArrayView2<'a, f64>,
-    pub t: ArrayView1<'a, f64>,
+    pub data: DataModel<'a>,
     pub beta: f64,
     /// α of each parameter's group.
     pub alpha: Vec<f64>,
-    cache: RefCell<Option<(Array1<f64>, f64, Array1<f64>)>>,
+    cache: RefCell<Option<CachedPoint>>,
     evaluations: RefCell<u64>,
 }
 
@@ -35,14 +129,14 @@ impl<'a> Objective<'a> {
     pub fn new(
         arch: Architecture,
         x: ArrayView2<'a, f64>,
-        t: ArrayView1<'a, f64>,
+        data: DataModel<'a>,
         beta: f64,
         alpha: Vec<f64>,
     ) -> Self {
         Objective {
             arch,
             x,
-            t,
+            data,
             beta,
             alpha,
             cache: RefCell::new(None),
@@ -65,9 +159,7 @@ impl<'a> Objective<'a> {
         *self.evaluations.borrow_mut() += 1;
         let n = self.x.nrows() as f64;
         let ws = w.as_slice().expect("owned 1-D arrays are contiguous");
-        let (e_d, g_d) = self.arch.data_error_gradient(ws, self.x, self.t);
-        let mut cost = self.beta * e_d;
-        let mut grad = g_d * self.beta;
+        let (mut cost, mut grad) = self.data.value_gradient(&self.arch, ws, self.x, self.beta);
         for (k, (&wk, &ak)) in w.iter().zip(&self.alpha).enumerate() {
             cost += 0.5 * ak * wk * wk;
             grad[k] += ak * wk;
@@ -94,5 +186,54 @@ impl Gradient for Objective<'_> {
 
     fn gradient(&self, w: &Self::Param) -> Result<Self::Gradient, ArgminError> {
         Ok(self.value_gradient(w).1)
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::prec::FD_STEP;
+    use rand::{Rng, SeedableRng};
+    use rand_xoshiro::Xoshiro256PlusPlus;
+
+    /// Gradients of the weighted Gaussian and the log-variance data terms
+    /// against central finite differences.
+    #[test]
+    fn data_term_gradients_match_finite_differences() {
+        let mut rng = Xoshiro256PlusPlus::seed_from_u64(5);
+        let arch = Architecture::new(3, 4);
+        let n = 30;
+        let x = ndarray::Array2::from_shape_fn((n, 3), |_| rng.random_range(-0.5..0.5));
+        let t = Array1::from_shape_fn(n, |_| rng.random_range(-0.5..0.5));
+        let rho = Array1::from_shape_fn(n, |_| rng.random_range(0.2..3.0));
+        let u = Array1::from_shape_fn(n, |_| rng.random_range(0.001..0.2));
+        let w: Vec<f64> = (0..arch.n_params())
+            .map(|_| rng.random_range(-1.0..1.0))
+            .collect();
+        let models = [
+            DataModel::Gaussian {
+                t: t.view(),
+                row_weights: Some(rho.view()),
+            },
+            DataModel::LogVariance { u: u.view() },
+        ];
+        for model in models {
+            let (v, g) = model.value_gradient(&arch, &w, x.view(), 7.0);
+            assert!((v - model.value(&arch, &w, x.view(), 7.0)).abs() < 1e-9 * v.abs());
+            for k in 0..w.len() {
+                let mut wp = w.clone();
+                let mut wm = w.clone();
+                wp[k] += FD_STEP;
+                wm[k] -= FD_STEP;
+                let fd = (model.value(&arch, &wp, x.view(), 7.0)
+                    - model.value(&arch, &wm, x.view(), 7.0))
+                    / (2.0 * FD_STEP);
+                assert!(
+                    (fd - g[k]).abs() < 1e-6 * (1.0 + fd.abs()),
+                    "{model:?} param {k}: analytic {} vs FD {fd}",
+                    g[k]
+                );
+            }
+        }
     }
 }

@@ -62,7 +62,7 @@ impl ColumnScaling {
     pub fn fit(values: &[f64], allow_log: bool) -> Option<ColumnScaling> {
         let min = values.iter().cloned().fold(f64::INFINITY, f64::min);
         let max = values.iter().cloned().fold(f64::NEG_INFINITY, f64::max);
-        if !(max > min) {
+        if max.partial_cmp(&min) != Some(std::cmp::Ordering::Greater) {
             return None;
         }
         let transform = if allow_log && min > 0.0 && skewness(values) > LOG_SKEW_THRESHOLD {

@@ -12,7 +12,7 @@ use crate::error::{Error, Result};
 pub const MODEL_FORMAT: &str = "mettle-model";
 
 /// The newest model format version this build writes and reads.
-pub const MODEL_FORMAT_VERSION: u64 = 1;
+pub const MODEL_FORMAT_VERSION: u64 = 2;
 
 impl Model {
     /// The model as JSON bytes (compact, with a final newline). Identical
@@ -111,12 +111,15 @@ impl Model {
             return Err("the model has no targets".into());
         }
         for inp in &self.inputs {
-            if !(inp.scaling.hi > inp.scaling.lo) || !inp.min.is_finite() || !inp.max.is_finite() {
+            if inp.scaling.hi.partial_cmp(&inp.scaling.lo) != Some(std::cmp::Ordering::Greater)
+                || !inp.min.is_finite()
+                || !inp.max.is_finite()
+            {
                 return Err(format!("input '{}' has an invalid scaling", inp.name));
             }
         }
         for t in &self.targets {
-            if !(t.scaling.hi > t.scaling.lo) {
+            if t.scaling.hi.partial_cmp(&t.scaling.lo) != Some(std::cmp::Ordering::Greater) {
                 return Err(format!("target '{}' has an invalid scaling", t.name));
             }
             if t.committee.members.is_empty() {
@@ -146,7 +149,7 @@ impl Model {
                         m.posterior_cov.nrows()
                     ));
                 }
-                if !(m.beta > 0.0)
+                if m.beta.partial_cmp(&0.0) != Some(std::cmp::Ordering::Greater)
                     || m.weights
                         .iter()
                         .chain(m.posterior_cov.iter())

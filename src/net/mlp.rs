@@ -147,12 +147,44 @@ impl Architecture {
         let (y, act) = self.forward(w, x);
         let r = &y - &t;
         let e_d = 0.5 * r.dot(&r);
+        (e_d, self.backprop(w, x, &act, &r))
+    }
+
+    /// Outputs and hidden activations, for a caller that forms its own
+    /// per-row loss and then calls [`Architecture::gradient_from_output`].
+    pub fn outputs_and_activations(
+        &self,
+        w: &[f64],
+        x: ArrayView2<f64>,
+    ) -> (Array1<f64>, Array2<f64>) {
+        self.forward(w, x)
+    }
+
+    /// `Σ_n (∂L/∂y_n) ∇_w y_n` for any per-row loss derivative `dl_dy`,
+    /// given the activations of the forward pass at `w`.
+    pub fn gradient_from_output(
+        &self,
+        w: &[f64],
+        x: ArrayView2<f64>,
+        act: &Array2<f64>,
+        dl_dy: &Array1<f64>,
+    ) -> Array1<f64> {
+        self.backprop(w, x, act, dl_dy)
+    }
+
+    fn backprop(
+        &self,
+        w: &[f64],
+        x: ArrayView2<f64>,
+        act: &Array2<f64>,
+        r: &Array1<f64>,
+    ) -> Array1<f64> {
         let lay = self.layout();
         let mut g = Array1::zeros(self.n_params());
         if self.is_linear() {
-            g.slice_mut(s![..self.n_inputs]).assign(&x.t().dot(&r));
+            g.slice_mut(s![..self.n_inputs]).assign(&x.t().dot(r));
             g[lay.output_bias] = r.sum();
-            return (e_d, g);
+            return g;
         }
         let p = self.split(w);
         let h = self.n_hidden;
@@ -166,9 +198,9 @@ impl Architecture {
         g.slice_mut(s![lay.hidden_bias..lay.output_weights])
             .assign(&delta.sum_axis(Axis(0)));
         g.slice_mut(s![lay.output_weights..lay.output_weights + h])
-            .assign(&act.t().dot(&r));
+            .assign(&act.t().dot(r));
         g[lay.output_bias] = r.sum();
-        (e_d, g)
+        g
     }
 
     /// Outputs and the Jacobian `J_nk = ∂y_n/∂w_k` (N × k).
