@@ -562,3 +562,207 @@ fn audit_finds_planted_duplicates_replicates_and_an_outlier() {
     assert_eq!(uts["unit"], "MPa");
     assert_eq!(uts["declared_unit"], "ksi");
 }
+
+/// The first ```toml block of a Markdown text.
+fn first_toml_block(markdown: &str) -> &str {
+    let start = markdown
+        .find("```toml\n")
+        .expect("a ```toml block in docs/schema.md")
+        + "```toml\n".len();
+    let len = markdown[start..].find("```").expect("the block's end");
+    &markdown[start..start + len]
+}
+
+/// The columns of the docs/schema.md example, in the order of its header.
+const DOC_EXAMPLE_COLUMNS: [&str; 15] = [
+    "weld",
+    "C",
+    "Si",
+    "Mn",
+    "Ni",
+    "B_ppm",
+    "arc_V",
+    "arc_A",
+    "speed",
+    "interpass",
+    "plate",
+    "operator",
+    "yield",
+    "elongation",
+    "cvn_ftlbf",
+];
+
+/// `n` invented rows for the docs/schema.md example, in its units (B in
+/// ppm, travel speed in mm/min, interpass in °F, plate in inches, yield in
+/// ksi, elongation in %, impact energy in ft·lbf). Invented relations.
+fn doc_example_csv(n: usize, seed: u64) -> String {
+    use rand::{Rng, SeedableRng};
+    let mut rng = rand_xoshiro::Xoshiro256PlusPlus::seed_from_u64(seed);
+    let mut s = DOC_EXAMPLE_COLUMNS.join(",") + "\n";
+    for i in 0..n {
+        let mut u = |lo: f64, hi: f64| rng.random_range(lo..hi);
+        let (c, si, mn, ni, b) = (
+            u(0.04, 0.12),
+            u(0.2, 0.5),
+            u(0.8, 1.8),
+            u(0.0, 2.5),
+            u(0.0, 40.0),
+        );
+        let (volts, amps, speed) = (u(28.0, 34.0), u(450.0, 700.0), u(300.0, 700.0));
+        let (interpass, plate) = (u(100.0, 400.0), u(0.5, 2.0));
+        let noise = u(-1.0, 1.0);
+        let yield_ksi = 55.0 + 100.0 * c + 8.0 * mn + 2.0 * ni + 3.0 * noise;
+        let elongation = 30.0 - 20.0 * c - 2.0 * mn + 2.0 * noise;
+        let cvn = (3.5 + 0.3 * ni - 0.002 * (interpass - 250.0) + 0.2 * noise).exp();
+        s.push_str(&format!(
+            "W{i},{c},{si},{mn},{ni},{b},{volts},{amps},{speed},{interpass},{plate},op{},{yield_ksi},{elongation},{cvn}\n",
+            i % 3
+        ));
+    }
+    s
+}
+
+#[test]
+fn the_schema_example_in_the_docs_trains_and_predicts() {
+    let doc = include_str!("../docs/schema.md");
+    let example = first_toml_block(doc);
+    let schema = mettle::data::schema::Schema::from_toml(example, "docs/schema.md")
+        .expect("the example parses");
+    let names: Vec<&str> = schema.columns.iter().map(|c| c.name.as_str()).collect();
+    assert_eq!(
+        names, DOC_EXAMPLE_COLUMNS,
+        "the test's table must follow the example"
+    );
+    let w = Workdir::new();
+    w.write("weld.toml", example);
+    w.write("welds.csv", doc_example_csv(120, 8));
+    w.ok(&train_args("welds.csv", &["--quiet"]));
+    let model: Value = serde_json::from_slice(&w.read("m.json")).expect("model JSON");
+    let inputs: Vec<&str> = model["inputs"]
+        .as_array()
+        .expect("inputs")
+        .iter()
+        .filter_map(|i| i["name"].as_str())
+        .collect();
+    assert_eq!(
+        inputs,
+        ["C", "Si", "Mn", "Ni", "interpass", "Pcm", "Q", "t85"],
+        "the order the doc describes"
+    );
+    let targets: Vec<(&str, &str)> = model["targets"]
+        .as_array()
+        .expect("targets")
+        .iter()
+        .map(|t| {
+            (
+                t["name"].as_str().unwrap_or_default(),
+                // an untransformed target has no transform written
+                t["transform"]["kind"].as_str().unwrap_or("none"),
+            )
+        })
+        .collect();
+    assert_eq!(
+        targets,
+        [
+            ("yield", "none"),
+            ("elongation", "bounded"),
+            ("cvn_ftlbf", "log")
+        ]
+    );
+    // predict reads new rows through the stored schema, without targets
+    let fresh: String = doc_example_csv(4, 9)
+        .lines()
+        .map(|l| l.split(',').take(12).collect::<Vec<_>>().join(",") + "\n")
+        .collect();
+    w.write("new.csv", fresh);
+    let args = [
+        "predict", "--model", "m.json", "--input", "new.csv", "--format", "json", "--units",
+        "declared",
+    ];
+    let out = w.ok(&args);
+    let rows: Vec<Value> = serde_json::from_slice(&out.stdout).expect("predict JSON");
+    assert_eq!(rows.len(), 4);
+    for r in &rows {
+        let e = &r["estimates"];
+        for (target, unit, kind) in [
+            ("yield", "ksi", "normal"),
+            ("elongation", "%", "logit_normal"),
+            ("cvn_ftlbf", "ft·lbf", "log_normal"),
+        ] {
+            assert_eq!(e[target]["unit"], unit, "{}", describe(&args, &out));
+            assert_eq!(e[target]["interval_kind"], kind, "{r}");
+        }
+    }
+}
+
+#[test]
+fn every_schema_key_unit_and_derivation_is_documented() {
+    use mettle::data::schema::{ColumnSpec, DerivedSpec, Role, Schema, TransformChoice};
+    let schema_doc = include_str!("../docs/schema.md");
+    let derivations_doc = include_str!("../docs/derivations.md");
+    // a column with every key set: a key added to the format without being
+    // documented fails here (and a new field fails to compile until added)
+    let column = ColumnSpec {
+        name: "x".into(),
+        role: Role::Target,
+        unit: Some(mettle::units::Unit::Percent),
+        stands_for: Some("C".into()),
+        min: Some(0.0),
+        max: Some(1.0),
+        transform: TransformChoice::Bounded,
+        margin: Some(0.1),
+    };
+    let derived = DerivedSpec {
+        spec: mettle::derive::Derivation::Pcm,
+        name: Some("P".into()),
+    };
+    let schema = Schema {
+        mettle_schema: 1,
+        columns: vec![column.clone()],
+        derived: vec![derived.clone()],
+    };
+    let keys =
+        |v: Value| -> Vec<String> { v.as_object().expect("an object").keys().cloned().collect() };
+    let mut all = keys(serde_json::to_value(&column).expect("json"));
+    all.extend(keys(serde_json::to_value(&derived).expect("json")));
+    for key in all {
+        assert!(
+            schema_doc.contains(&format!("| `{key}`")),
+            "key {key} not in docs/schema.md"
+        );
+    }
+    for key in keys(serde_json::to_value(&schema).expect("json")) {
+        let shown = match key.as_str() {
+            "mettle_schema" => "`mettle_schema`".to_string(),
+            array => format!("`[[{array}]]`"),
+        };
+        assert!(schema_doc.contains(&shown), "{shown} not in docs/schema.md");
+    }
+    for role in ["input", "target", "auxiliary", "identifier", "ignored"] {
+        assert!(schema_doc.contains(&format!("- **{role}**")), "role {role}");
+    }
+    for u in mettle::units::Unit::ALL {
+        assert!(
+            schema_doc.contains(&format!("`{}`", u.symbol())),
+            "unit {} not in docs/schema.md",
+            u.symbol()
+        );
+    }
+    for d in mettle::derive::Derivation::ALL {
+        assert!(
+            derivations_doc.contains(&format!("## `{}`", d.name())),
+            "derivation {} has no section in docs/derivations.md",
+            d.name()
+        );
+        assert!(
+            derivations_doc.contains(&format!("`{}`", d.output_column())),
+            "output column {} not in docs/derivations.md",
+            d.output_column()
+        );
+        assert!(
+            schema_doc.contains(&format!("`{}", d.name())),
+            "{} in docs/schema.md",
+            d.name()
+        );
+    }
+}

@@ -25,7 +25,7 @@
 //! |---|---|---|
 //! | `ce_iiw` (alias `ce`) | `CE_IIW` | C, Mn; *Cr, Mo, V, Ni, Cu* |
 //! | `pcm` | `Pcm` | C, Si, Mn; *Cu, Cr, Ni, Mo, V, B* |
-//! | `cet` | `CET` | C, Mn; *Mo, Cr, Cu, Ni* |
+//! | `cet` | `CET` | C, Mn; *Mo, Cr, Cu, Ni; Si, Nb, Ti, V, B (validity check only)* |
 //! | `cen` | `CEN` | C, Si, Mn; *Cu, Ni, Cr, Mo, Nb, V, B* |
 //! | `heat_input`, `heat_input:PROCESS` | `heat_input` | voltage (V), current (A), travel_speed (mm/s); *arc_efficiency* |
 //! | `t85`, `t85:PARAMS` (alias `t8/5`) | `t85` | heat_input (kJ/mm), preheat (°C), thickness (mm) |
@@ -323,12 +323,16 @@ pub struct ColumnUse {
     pub name: &'static str,
     /// Whether the column may be absent (see the module doc for what that means).
     pub optional: bool,
+    /// Whether the column is read only to judge the formula's validity
+    /// range, not used by the formula (always optional).
+    pub check_only: bool,
 }
 
 const fn req(name: &'static str) -> ColumnUse {
     ColumnUse {
         name,
         optional: false,
+        check_only: false,
     }
 }
 
@@ -336,6 +340,16 @@ const fn opt(name: &'static str) -> ColumnUse {
     ColumnUse {
         name,
         optional: true,
+        check_only: false,
+    }
+}
+
+/// An optional column read only for the validity check.
+const fn chk(name: &'static str) -> ColumnUse {
+    ColumnUse {
+        name,
+        optional: true,
+        check_only: true,
     }
 }
 
@@ -748,6 +762,11 @@ impl Derivation {
                 opt("Cr"),
                 opt("Cu"),
                 opt("Ni"),
+                chk("Si"),
+                chk("Nb"),
+                chk("Ti"),
+                chk("V"),
+                chk("B"),
             ],
             Derivation::Cen => vec![
                 req("C"),
@@ -774,7 +793,7 @@ impl Derivation {
             Derivation::Ac1Andrews => vec![
                 req("Mn"),
                 req("Si"),
-                opt("C"),
+                chk("C"),
                 opt("Ni"),
                 opt("Cr"),
                 opt("As"),
@@ -972,6 +991,8 @@ fn apply_composition(
         if col.optional {
             match inputs.fetch(col.name)? {
                 Some(v) => cols.push((*col, v)),
+                // a column read only for the validity check enters no formula
+                None if col.check_only => {}
                 None => inputs.assumed_zero.push(col.name.to_string()),
             }
         } else {
@@ -990,10 +1011,15 @@ fn apply_composition(
             if x.is_finite() {
                 comp.set(col.name, x);
             } else if col.optional {
+                let what = if col.check_only {
+                    "its validity limit is not judged"
+                } else {
+                    "taken as 0 wt%"
+                };
                 out.warnings.push(RowWarning {
                     row,
                     message: format!(
-                        "{}: value of {} is missing; taken as 0 wt%",
+                        "{}: value of {} is missing; {what}",
                         inputs.derivation, col.name
                     ),
                 });

@@ -458,3 +458,30 @@ fn lists_split_between_derivations_not_inside_parameters() {
     );
     assert!(Derivation::parse_list("ce_iiw,nonsense").is_err());
 }
+
+#[test]
+fn columns_read_only_for_validity_are_judged_but_never_assumed() {
+    // CET = C + (Mn+Mo)/10 + (Cr+Cu)/20 + Ni/40 (EN 1011-2 method B, reference
+    // [S]) does not use Si, but the method's scope limits Si (≤ 0.8 wt%,
+    // range from memory): a table with Si = 1.2 must get that warning, and
+    // the value must not change. 0.1 + 1.0/10 = 0.2
+    let t = table(&[("C", vec![0.1]), ("Mn", vec![1.0]), ("Si", vec![1.2])]);
+    let cet = run(&Derivation::Cet, &t, 1).unwrap();
+    assert_abs_diff_eq!(cet.values[0], 0.2, epsilon = 1e-12);
+    assert!(
+        cet.warnings.iter().any(|w| w.message.contains("Si = 1.2")),
+        "{:?}",
+        cet.warnings
+    );
+    // absent, such a column is not reported as taken to be 0 wt%
+    assert!(!cet.assumed_zero.contains(&"Si".to_string()));
+    assert!(!cet.assumed_zero.contains(&"B".to_string()));
+    assert_eq!(cet.assumed_zero, vec!["Mo", "Cr", "Cu", "Ni"]);
+    let t = table(&[("Mn", vec![1.0]), ("Si", vec![0.3])]);
+    let ac1 = run(&Derivation::Ac1Andrews, &t, 1).unwrap();
+    assert!(
+        !ac1.assumed_zero.contains(&"C".to_string()),
+        "{:?}",
+        ac1.assumed_zero
+    );
+}
