@@ -11,7 +11,7 @@ BIN  := $(CARGO_TARGET_DIR)/release/mettle
 DEMO := out/demo
 SUDO := $(shell [ "$$(id -u)" = 0 ] || echo sudo)
 
-.PHONY: all deps build demo test lint fmt bench clean-demo
+.PHONY: all deps build demo test lint fmt bench bench-engine clean-demo
 
 all: build
 
@@ -38,7 +38,11 @@ fmt:
 	cargo fmt --all
 
 bench: build
-	cargo run --release --locked --example uci_benchmark
+	cargo run --release --locked --example uci_benchmark -- --markdown docs/benchmark-table.md
+
+# speed and memory targets of the engine (training time, peak memory, prediction rate)
+bench-engine: deps
+	cargo bench --locked --bench engine_targets -- ../shared/datasets/uci
 
 demo: build
 	@mkdir -p $(DEMO)

@@ -7,7 +7,7 @@
 //! cargo run --release --example uci_benchmark -- [--data-dir ../shared/datasets/uci]
 //!     [--datasets concrete,energy,yacht,wine-quality-red] [--splits 20]
 //!     [--hidden 1..10] [--restarts 4] [--markdown FILE]
-//!     [--first-split 0] [--no-widen] [--max-cycles N] [--first-iters N] [--cycle-iters N]
+//!     [--noise auto|constant|varying] [--first-split 0] [--no-widen] [--max-cycles N] [--first-iters N] [--cycle-iters N]
 //! ```
 //!
 //! The options after `--markdown` exist to study the engine's settings;
@@ -18,7 +18,7 @@
 use std::path::{Path, PathBuf};
 use std::time::Instant;
 
-use mettle::committee::CommitteeParams;
+use mettle::committee::{CommitteeParams, NoiseMode};
 use mettle::data::Table;
 use mettle::evidence::FitSettings;
 use mettle::metrics::evaluate;
@@ -100,6 +100,7 @@ fn main() {
     let mut first_split = 0usize;
     let mut widen = true;
     let mut fit = FitSettings::default();
+    let mut noise = NoiseMode::Auto;
     let args: Vec<String> = std::env::args().skip(1).collect();
     let mut i = 0;
     while i < args.len() {
@@ -114,6 +115,14 @@ fn main() {
             }
             "--restarts" => restarts = v.parse().expect("--restarts N"),
             "--markdown" => markdown = Some(PathBuf::from(v)),
+            "--noise" => {
+                noise = match v.as_str() {
+                    "auto" => NoiseMode::Auto,
+                    "constant" => NoiseMode::Constant,
+                    "varying" => NoiseMode::Varying,
+                    other => panic!("--noise {other}: expected auto, constant or varying"),
+                }
+            }
             "--first-split" => first_split = v.parse().expect("--first-split N"),
             "--max-cycles" => fit.max_cycles = v.parse().expect("--max-cycles N"),
             "--first-iters" => fit.first_iters = v.parse().expect("--first-iters N"),
@@ -152,6 +161,7 @@ fn main() {
                 .restarts(restarts)
                 .seed(k as u64)
                 .widen(widen)
+                .noise(noise)
                 .fit(fit.clone());
             let t0 = Instant::now();
             let model = Model::train(&tr, &spec, &Silent).expect("training");

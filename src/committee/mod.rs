@@ -139,6 +139,9 @@ pub struct Committee {
     pub selection: Selection,
 }
 
+/// Rows per block in [`Committee::predict_scaled`].
+pub const PREDICT_BLOCK_ROWS: usize = 4096;
+
 /// A committee's predictive distribution in scaled target units.
 #[derive(Clone, Debug, PartialEq)]
 pub struct ScaledPrediction {
@@ -208,8 +211,28 @@ impl Member {
 }
 
 impl Committee {
-    /// Predictive distribution for scaled inputs `x` (N × d).
+    /// Predictive distribution for scaled inputs `x` (N × d), in blocks of
+    /// [`PREDICT_BLOCK_ROWS`] rows spread over the available cores, so that
+    /// memory stays bounded (one block's Jacobian per thread) whatever N.
     pub fn predict_scaled(&self, x: ArrayView2<f64>) -> ScaledPrediction {
+        use rayon::prelude::*;
+        let blocks: Vec<ScaledPrediction> = x
+            .axis_chunks_iter(ndarray::Axis(0), PREDICT_BLOCK_ROWS)
+            .collect::<Vec<_>>()
+            .into_par_iter()
+            .map(|block| self.predict_block(block))
+            .collect();
+        let cat = |f: fn(&ScaledPrediction) -> &Array1<f64>| {
+            Array1::from_iter(blocks.iter().flat_map(|b| f(b).iter().copied()))
+        };
+        ScaledPrediction {
+            mean: cat(|b| &b.mean),
+            var: cat(|b| &b.var),
+            noise_var: cat(|b| &b.noise_var),
+        }
+    }
+
+    fn predict_block(&self, x: ArrayView2<f64>) -> ScaledPrediction {
         let mut means = Vec::with_capacity(self.members.len());
         let mut vars = Vec::with_capacity(self.members.len());
         let mut noise = Array1::zeros(x.nrows());

@@ -1,0 +1,106 @@
+//! The engine's speed and memory targets, measured (not a timed test):
+//!
+//! 1. a default committee on concrete — the 927 training rows of split 0 of
+//!    the shared UCI set, 8 inputs — trained once, wall time reported
+//!    (target: under 20 s on the 2-core build machine);
+//! 2. peak resident memory of this process after that training, from
+//!    `VmHWM` in /proc/self/status (target: under 200 MB);
+//! 3. prediction throughput of a 10-member committee (the trained
+//!    committee's members repeated to ten) on 200 000 rows (target: at
+//!    least 100 000 rows per second).
+//!
+//! ```text
+//! make bench-engine      # or: cargo bench --bench engine_targets -- [DATA_DIR]
+//! ```
+//!
+//! DATA_DIR defaults to ../shared/datasets/uci.
+
+use std::path::PathBuf;
+use std::time::Instant;
+
+use mettle::data::Table;
+use mettle::model::TrainSpec;
+use mettle::observer::Silent;
+use mettle::Model;
+
+fn peak_resident_mb() -> Option<f64> {
+    let status = std::fs::read_to_string("/proc/self/status").ok()?;
+    let line = status.lines().find(|l| l.starts_with("VmHWM:"))?;
+    let kb: f64 = line.split_whitespace().nth(1)?.parse().ok()?;
+    Some(kb / 1024.0)
+}
+
+fn main() {
+    let dir = std::env::args()
+        .skip(1)
+        .find(|a| !a.starts_with("--"))
+        .map_or_else(|| PathBuf::from("../shared/datasets/uci"), PathBuf::from)
+        .join("concrete");
+    let table = Table::read(&dir.join("data.csv")).expect("concrete data.csv");
+    let names = table.names().to_vec();
+    let cols: Vec<Vec<f64>> = names
+        .iter()
+        .map(|n| table.numeric(n).expect("numeric"))
+        .collect();
+    let rows: Vec<usize> = std::fs::read_to_string(dir.join("splits/train_0.txt"))
+        .expect("split file")
+        .split_whitespace()
+        .map(|s| s.parse().expect("row index"))
+        .collect();
+    let train = Table::from_columns(
+        "concrete train_0",
+        names
+            .iter()
+            .zip(&cols)
+            .map(|(n, c)| (n.clone(), rows.iter().map(|&i| c[i]).collect()))
+            .collect(),
+    )
+    .expect("table");
+    let target = names.last().expect("target").clone();
+    let spec = TrainSpec::new(&[target.as_str()]);
+
+    let t0 = Instant::now();
+    let mut model = Model::train(&train, &spec, &Silent).expect("training");
+    let train_s = t0.elapsed().as_secs_f64();
+    let c = &model.targets[0].committee;
+    println!(
+        "train: {} rows, {} inputs, default committee: {train_s:.1} s wall ({} candidates, {} members, hidden {}..{}, noise {})",
+        rows.len(),
+        names.len() - 1,
+        c.candidates.len(),
+        c.members.len(),
+        c.selection.hidden_searched.0,
+        c.selection.hidden_searched.1,
+        if c.selection.noise.varying { "varying" } else { "constant" }
+    );
+    match peak_resident_mb() {
+        Some(mb) => println!("memory: peak resident {mb:.0} MB after training"),
+        None => println!("memory: /proc/self/status not readable"),
+    }
+
+    // a 10-member committee: the trained members repeated
+    let members = model.targets[0].committee.members.clone();
+    let ten: Vec<_> = members.iter().cycle().take(10).cloned().collect();
+    model.targets[0].committee.members = ten;
+    let n_rows = 200_000;
+    let big = Table::from_columns(
+        "concrete x200k",
+        names
+            .iter()
+            .zip(&cols)
+            .map(|(n, c)| (n.clone(), (0..n_rows).map(|i| c[i % c.len()]).collect()))
+            .collect(),
+    )
+    .expect("table");
+    let t1 = Instant::now();
+    let pred = model.predict(&big).expect("prediction");
+    let pred_s = t1.elapsed().as_secs_f64();
+    assert_eq!(pred.len(), n_rows);
+    println!(
+        "predict: {n_rows} rows, 10 members: {pred_s:.2} s, {:.0} rows/s",
+        n_rows as f64 / pred_s
+    );
+    if let Some(mb) = peak_resident_mb() {
+        println!("memory: peak resident {mb:.0} MB after prediction");
+    }
+}
