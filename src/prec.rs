@@ -25,6 +25,16 @@ pub const BETA_MAX: f64 = 1e10;
 /// as a fraction of N. Stops β from running away when γ approaches N.
 pub const MIN_RESIDUAL_DOF_FRACTION: f64 = 0.05;
 
+/// Largest leverage h_n = β·ρ_n·g_nᵀA⁻¹g_n used in the residual
+/// correction u_n = r_n²/(1 − h_n) of the noise network, so that a row the
+/// mean fits almost exactly does not get an unbounded u_n.
+pub const LEVERAGE_CAP: f64 = 0.9;
+
+/// Bound on |ln σ²(x)| (scaled target units, relative to 1/β) when a noise
+/// network's output becomes a precision weight: e^30 is far beyond any
+/// real spread of scatter and keeps the weights finite.
+pub const LOG_VAR_LIMIT: f64 = 30.0;
+
 /// A group whose well-determined parameter count γ_c is below this is not
 /// used to judge convergence of α: its α may wander without consequence.
 pub const GAMMA_ACTIVE: f64 = 0.05;

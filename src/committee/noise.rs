@@ -38,6 +38,7 @@ use crate::evidence::{
     GroupKind, Groups, StartState,
 };
 use crate::net::Architecture;
+use crate::prec::{LEVERAGE_CAP, LOG_VAR_LIMIT};
 
 /// Hidden units of every noise network: the noise level is assumed to vary
 /// smoothly, and a small network keeps its evidence well determined.
@@ -46,15 +47,8 @@ pub const NOISE_HIDDEN: usize = 2;
 /// Alternations of noise fit and weighted mean refit.
 pub const NOISE_ROUNDS: usize = 2;
 
-/// Largest leverage used in the residual correction, so that a row the
-/// mean fits almost exactly does not get an infinite u_n.
-const LEVERAGE_CAP: f64 = 0.9;
-
 /// Initial α of the noise network's groups.
 const NOISE_ALPHA_START: f64 = 1.0;
-
-/// ln σ²(x) is kept inside ±this (scaled units) when forming precisions.
-const LOG_VAR_LIMIT: f64 = 30.0;
 
 /// A fitted network for ln σ²(x), σ² relative to the member's 1/β, in
 /// scaled target units.
