@@ -56,6 +56,11 @@ demo: build
 	$(BIN) predict --model $(DEMO)/uts_model.json --input $(DEMO)/fellhaven_new_welds.csv
 	@echo "== 4. checking the model against the generator's noise-free truth for those welds"
 	$(BIN) evaluate --model $(DEMO)/uts_model.json --data $(DEMO)/fellhaven_new_welds_truth.csv
+	@echo "== 5. the model card: noise level beside the replicate scatter, committee, input relevance"
+	$(BIN) explain --model $(DEMO)/uts_model.json
+	@echo "== 6. a self-contained HTML report with every chart"
+	$(BIN) report --model $(DEMO)/uts_model.json --training-data $(DEMO)/fellhaven_welds.csv \
+	  --data $(DEMO)/fellhaven_new_welds_truth.csv --out $(DEMO)/uts_report.html
 	@echo "== outputs are in $(DEMO)/"
 
 clean-demo:

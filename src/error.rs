@@ -184,6 +184,24 @@ pub enum Error {
         /// What is wrong.
         problem: String,
     },
+    /// A table given as the model's training data holds other rows.
+    #[error("{path}: not the rows this model was trained on (fingerprint {found}; the model was trained on {data_file}, fingerprint {expected})")]
+    NotTrainingData {
+        /// The table given.
+        path: String,
+        /// Its fingerprint.
+        found: String,
+        /// The fingerprint the model records.
+        expected: String,
+        /// The training file the model records.
+        data_file: String,
+    },
+    /// A chart could not be drawn.
+    #[error("drawing a chart failed: {message}")]
+    Plot {
+        /// What the drawing library said.
+        message: String,
+    },
 }
 
 impl Error {
@@ -193,7 +211,7 @@ impl Error {
     pub fn is_bad_input(&self) -> bool {
         !matches!(
             self,
-            Error::Write { .. } | Error::AllCandidatesFailed { .. }
+            Error::Write { .. } | Error::AllCandidatesFailed { .. } | Error::Plot { .. }
         )
     }
 }

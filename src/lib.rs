@@ -26,6 +26,7 @@ pub mod demo;
 pub mod derive;
 pub mod error;
 pub mod evidence;
+pub mod explain;
 pub mod features;
 pub mod metrics;
 pub mod model;
@@ -33,6 +34,7 @@ pub mod net;
 pub mod observer;
 pub mod prec;
 pub mod predict;
+pub mod report;
 pub mod units;
 
 pub use error::{Error, Result};

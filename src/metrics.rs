@@ -48,6 +48,20 @@ pub struct Evaluation {
     pub coverage_95: f64,
 }
 
+impl Evaluation {
+    /// The measures by name, in the order of the table output.
+    pub fn named(&self) -> [(&'static str, f64); 6] {
+        [
+            ("rmse", self.rmse),
+            ("mae", self.mae),
+            ("r2", self.r2),
+            ("nlpd", self.nlpd),
+            ("coverage_68", self.coverage_68),
+            ("coverage_95", self.coverage_95),
+        ]
+    }
+}
+
 /// Evaluate means and sds against measurements. Returns `None` for no rows.
 pub fn evaluate(measured: &[f64], mean: &[f64], sd: &[f64]) -> Option<Evaluation> {
     let zero = vec![0.0; measured.len()];

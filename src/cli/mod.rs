@@ -2,12 +2,15 @@
 //! Nothing here computes anything the library could.
 
 mod audit;
+mod compare;
 mod demo_data;
 mod derive;
 mod evaluate;
+mod explain;
 mod output;
 mod predict;
 mod progress;
+mod report;
 mod train;
 
 use clap::{Parser, Subcommand};
@@ -57,6 +60,12 @@ enum Command {
     Audit(audit::AuditArgs),
     // about and long_about come from the Args struct: a doc comment here would replace them
     DemoData(demo_data::DemoDataArgs),
+    // about and long_about come from the Args struct: a doc comment here would replace them
+    Explain(explain::ExplainArgs),
+    // about and long_about come from the Args struct: a doc comment here would replace them
+    Report(report::ReportArgs),
+    // about and long_about come from the Args struct: a doc comment here would replace them
+    Compare(compare::CompareArgs),
 }
 
 /// Run the parsed command.
@@ -71,5 +80,8 @@ pub fn run(cli: Cli) -> anyhow::Result<()> {
         Command::Derive(a) => derive::run(a),
         Command::Audit(a) => audit::run(a),
         Command::DemoData(a) => demo_data::run(a),
+        Command::Explain(a) => explain::run(a),
+        Command::Report(a) => report::run(a),
+        Command::Compare(a) => compare::run(a),
     }
 }

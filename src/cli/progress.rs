@@ -1,17 +1,22 @@
 //! A progress bar on stderr for training, drawn only when stderr is a
-//! terminal and `--quiet` was not given.
+//! terminal and `--quiet` was not given, and only once training has run
+//! for [`SHOW_AFTER`]: a short run leaves the terminal untouched.
 
 use std::io::IsTerminal;
 use std::sync::Mutex;
-use std::time::Duration;
+use std::time::{Duration, Instant};
 
 use indicatif::{ProgressBar, ProgressDrawTarget, ProgressStyle};
 use mettle::observer::{TrainEvent, TrainObserver};
+
+/// How long training runs before the bar appears.
+pub const SHOW_AFTER: Duration = Duration::from_secs(2);
 
 /// Draws training progress.
 pub struct TrainProgress {
     bar: Mutex<Option<ProgressBar>>,
     enabled: bool,
+    started: Instant,
 }
 
 impl TrainProgress {
@@ -20,6 +25,7 @@ impl TrainProgress {
         TrainProgress {
             bar: Mutex::new(None),
             enabled: !quiet && std::io::stderr().is_terminal(),
+            started: Instant::now(),
         }
     }
 
@@ -37,6 +43,11 @@ impl TrainObserver for TrainProgress {
             return;
         }
         let mut guard = self.bar.lock().unwrap_or_else(|p| p.into_inner());
+        if let Some(bar) = guard.as_ref() {
+            if bar.is_hidden() && self.started.elapsed() >= SHOW_AFTER {
+                bar.set_draw_target(ProgressDrawTarget::stderr());
+            }
+        }
         match event {
             TrainEvent::SearchStarted {
                 target,
@@ -47,7 +58,7 @@ impl TrainObserver for TrainProgress {
                 }
                 let bar = ProgressBar::with_draw_target(
                     Some(*n_candidates as u64),
-                    ProgressDrawTarget::stderr(),
+                    ProgressDrawTarget::hidden(),
                 );
                 bar.set_style(
                     ProgressStyle::with_template(

@@ -14,6 +14,7 @@ use serde::{Deserialize, Serialize};
 
 use crate::committee::{Committee, CommitteeParams};
 use crate::data::schema::Schema;
+use crate::explain::TrainingSummary;
 use crate::features::ColumnScaling;
 
 /// An input column as the model knows it.
@@ -59,6 +60,10 @@ pub struct TargetModel {
     pub transform: TargetTransform,
     /// The committee.
     pub committee: Committee,
+    /// Noise level and replicate scatter over the training rows (absent
+    /// in files written before mettle recorded them).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub training_summary: Option<TrainingSummary>,
 }
 
 /// How the model was trained.

@@ -11,6 +11,7 @@ use crate::data::schema::{PrepareOptions, Schema};
 use crate::data::{fingerprint, Table};
 use crate::derive::RowWarning;
 use crate::error::{Error, Result};
+use crate::explain::summarise_training;
 use crate::features::{ColumnScaling, Transform};
 use crate::observer::TrainObserver;
 
@@ -282,6 +283,18 @@ impl Model {
                 .iter()
                 .map(|m| m.diagnostics.gradient_evaluations)
                 .sum::<u64>();
+            let raw_rows: Vec<Vec<f64>> = rows
+                .iter()
+                .map(|&i| input_values.iter().map(|v| v[i]).collect())
+                .collect();
+            let summary = summarise_training(
+                &committee,
+                &scaling,
+                &transform,
+                x_t.view(),
+                &raw_rows,
+                &present,
+            );
             let (min, max) = min_max(&present);
             targets.push(TargetModel {
                 name: name.clone(),
@@ -292,6 +305,7 @@ impl Model {
                 n_missing: n - rows.len(),
                 transform,
                 committee,
+                training_summary: Some(summary),
             });
         }
 

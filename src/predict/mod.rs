@@ -18,7 +18,7 @@ use crate::data::schema::PrepareOptions;
 use crate::data::Table;
 use crate::derive::RowWarning;
 use crate::error::{Error, Result};
-use crate::metrics::{evaluate_on_scale, Evaluation};
+use crate::metrics::Evaluation;
 use crate::model::{IntervalKind, Model};
 use crate::units::Unit;
 
@@ -227,43 +227,12 @@ impl Model {
     /// # Errors
     /// As [`Model::predict`], plus a missing or unreadable target column.
     pub fn evaluate(&self, table: &Table) -> Result<Vec<(String, Option<Evaluation>)>> {
-        let (prepared, _) = self.read_through_schema(table, true)?;
-        let (_, scaled) = self.scaled_inputs(&prepared)?;
-        let learnt = self.predict_learnt_scale(&scaled);
-        let z = z975();
-        let mut out = Vec::new();
-        for (t, preds) in self.targets.iter().zip(&learnt) {
-            let measured = prepared.numeric_optional(&t.name)?;
-            let (mut y, mut point, mut zy, mut zm, mut zs, mut jac) =
-                (vec![], vec![], vec![], vec![], vec![], vec![]);
-            for (row, (v, p)) in measured.iter().zip(preds).enumerate() {
-                let Some(v) = *v else { continue };
-                let (Some(g), Some(lj)) = (t.transform.forward(v), t.transform.log_jacobian(v))
-                else {
-                    return Err(Error::Cell {
-                        path: table.source().display().to_string(),
-                        row: row + 1,
-                        line: row + 2,
-                        column: t.name.clone(),
-                        problem: format!(
-                            "{v} cannot be judged on the scale '{}' the model learnt: expected {}",
-                            t.transform.name(),
-                            t.transform.domain_text()
-                        ),
-                    });
-                };
-                y.push(v);
-                point.push(t.transform.back_transform(p.mean, p.sd, p.noise_sd, z).mean);
-                zy.push(g);
-                zm.push(p.mean);
-                zs.push(p.sd);
-                jac.push(lj);
-            }
-            out.push((
-                t.name.clone(),
-                evaluate_on_scale(&y, &point, &zy, &zm, &zs, &jac),
-            ));
-        }
-        Ok(out)
+        Ok(crate::explain::estimate_rows(self, table)?
+            .into_iter()
+            .map(|r| {
+                let e = r.evaluation();
+                (r.target, e)
+            })
+            .collect())
     }
 }

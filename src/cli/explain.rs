@@ -1,0 +1,152 @@
+//! `mettle explain`
+
+use std::path::PathBuf;
+
+use clap::Args;
+use mettle::explain::{model_card, scale_words, ModelCard};
+use mettle::Model;
+
+use super::evaluate::EvalFormat;
+use super::output::{aligned, emit, num};
+
+/// Arguments of `mettle explain`.
+#[derive(Args, Debug)]
+#[command(
+    about = "Show a model's card: training data, noise level, committee members and input relevance.",
+    long_about = "Show what a trained model knows about itself: the model card.\n\n\
+It lists the training data's fingerprint and row count, each input's training range and unit, \
+and per target: the fitted noise sd in the target's units (under noise that varies with the \
+inputs: its median, smallest and largest value over the training rows) beside the measured \
+replicate scatter of repeat tests when the training data had any; the committee members (hidden \
+units, log evidence, held-out NLPD, effective number of parameters γ); and the relevance of each \
+input from its ARD hyperparameter, σ_w = α^−½ averaged over the members, most relevant input = 1. \
+Relevance says how much the networks use an input; it is not a causal effect, a slope or a sign.\n\n\
+JSON output: an object with data_file, data_sha256, n_rows, tool_version, seed, inputs, \
+set_aside and targets; each target has name, unit, scale, n_rows, noise_sd, noise_sd_range, \
+noise_varies, replicate_sd (null without repeat tests), members (array), relevance (an object \
+input → value, or null without ARD) and relevance_note.\n\n\
+Example:\n  mettle explain --model uts.json\n  mettle explain --model uts.json --format json"
+)]
+pub struct ExplainArgs {
+    /// Model file written by `mettle train`.
+    #[arg(long, value_name = "MODEL.json")]
+    model: PathBuf,
+    /// Output format.
+    #[arg(long, value_enum, default_value_t = EvalFormat::Table)]
+    format: EvalFormat,
+    /// Write to this file (atomically) instead of standard output.
+    #[arg(long, value_name = "FILE")]
+    out: Option<PathBuf>,
+}
+
+fn text(card: &ModelCard) -> String {
+    let mut s = format!(
+        "model trained by mettle {} on {} ({} rows, seed {})\nfingerprint {}\n\ninputs:\n",
+        card.tool_version, card.data_file, card.n_rows, card.seed, card.data_sha256
+    );
+    let rows: Vec<Vec<String>> = card
+        .inputs
+        .iter()
+        .map(|i| {
+            vec![
+                i.name.clone(),
+                num(i.min),
+                num(i.max),
+                if i.log_scale { "log" } else { "linear" }.into(),
+                i.unit.clone().unwrap_or_else(|| "as in the file".into()),
+            ]
+        })
+        .collect();
+    let h: Vec<String> = ["input", "min", "max", "scale", "unit"]
+        .iter()
+        .map(|x| x.to_string())
+        .collect();
+    s += &aligned(&h, &rows);
+    for (n, why) in &card.set_aside {
+        s += &format!("set aside: {n} ({why})\n");
+    }
+    for t in &card.targets {
+        let unit = t
+            .unit
+            .clone()
+            .unwrap_or_else(|| "(unit of the training file)".into());
+        s += &format!(
+            "\ntarget {}: {} rows ({} without a value left out), range {} to {} {unit}, learnt {}\n",
+            t.name, t.n_rows, t.n_missing, num(t.min), num(t.max), scale_words(&t.scale)
+        );
+        s += &format!("  noise sd {} {unit}", num(t.noise_sd));
+        if t.noise_sd_range.0.to_bits() != t.noise_sd_range.1.to_bits() {
+            s += &format!(
+                " (from {} to {} over the training rows)",
+                num(t.noise_sd_range.0),
+                num(t.noise_sd_range.1)
+            );
+        }
+        s += &format!(": {}\n", t.noise_basis);
+        s += &match &t.replicate_sd {
+            Some(r) => format!(
+                "  measured replicate scatter: pooled sd {} {unit} ({} groups of repeat tests, {} degrees of freedom)\n",
+                num(r.pooled_sd), r.n_groups, r.dof
+            ),
+            None => "  measured replicate scatter: none (no repeat tests in the training rows)\n".into(),
+        };
+        s += &format!(
+            "  search: hidden units {}..{}, {} candidates ({} discarded), {} rows to train and {} held out\n  committee of {}:\n",
+            t.hidden_searched.0, t.hidden_searched.1, t.candidates.0, t.candidates.1,
+            t.search_rows.0, t.search_rows.1, t.members.len()
+        );
+        let rows: Vec<Vec<String>> = t
+            .members
+            .iter()
+            .map(|m| {
+                vec![
+                    format!("  {}", m.n_hidden),
+                    m.restart.to_string(),
+                    format!("{:.3}", m.log_evidence),
+                    format!("{:.4}", m.heldout_nlpd),
+                    format!("{:.2}", m.gamma),
+                    if m.varying_noise {
+                        "varies"
+                    } else {
+                        "constant"
+                    }
+                    .into(),
+                ]
+            })
+            .collect();
+        let h: Vec<String> = [
+            "  hidden",
+            "restart",
+            "log_evidence",
+            "heldout_nlpd",
+            "gamma",
+            "noise",
+        ]
+        .iter()
+        .map(|x| x.to_string())
+        .collect();
+        s += &aligned(&h, &rows);
+        if let Some(r) = &t.relevance {
+            s += "  input relevance (most relevant = 1):\n";
+            let rows: Vec<Vec<String>> = r
+                .ranked()
+                .into_iter()
+                .map(|(n, v)| vec![format!("  {n}"), format!("{v:.3}")])
+                .collect();
+            let h = vec!["  input".to_string(), "relevance".to_string()];
+            s += &aligned(&h, &rows);
+        }
+        s += &format!("  {}\n", t.relevance_note);
+    }
+    s
+}
+
+pub fn run(a: ExplainArgs) -> anyhow::Result<()> {
+    let model = Model::load(&a.model)?;
+    let card = model_card(&model);
+    let out = match a.format {
+        EvalFormat::Json => serde_json::to_string_pretty(&card)? + "\n",
+        EvalFormat::Table => text(&card),
+    };
+    emit(&out, a.out.as_deref())
+}

@@ -1,0 +1,516 @@
+//! What a trained model knows about itself, in a form a person can check:
+//! the model card (data fingerprint, inputs, noise level beside the
+//! measured replicate scatter, committee members, input relevance), the
+//! model's estimates on a table beside the measured values, the
+//! calibration curve, and the comparison of two models.
+//!
+//! Nothing here prints; the CLI formats what these functions return.
+
+mod calibration;
+mod compare;
+mod relevance;
+mod summary;
+
+pub use calibration::{calibration_curve, CalibrationPoint, CALIBRATION_LEVELS};
+pub use compare::{compare, Comparison, Disagreement, TargetComparison};
+pub use relevance::{relevance, RELEVANCE_MEANING};
+pub use summary::{
+    replicate_scatter, summarise_training, NoiseSpread, ReplicateScatter, TrainingSummary,
+};
+
+use serde::ser::SerializeMap;
+use serde::{Serialize, Serializer};
+
+use crate::data::schema::PrepareOptions;
+use crate::data::{fingerprint, Table};
+use crate::error::{Error, Result};
+use crate::features::Transform;
+use crate::metrics::{evaluate_on_scale, Evaluation};
+use crate::model::{Model, TargetModel};
+use crate::predict::{range_check, z975, Estimate};
+use crate::units::Unit;
+
+/// One input on the model card.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct InputCard {
+    /// Column name.
+    pub name: String,
+    /// Unit of `min` and `max` (`None`: as in the training file).
+    pub unit: Option<String>,
+    /// Smallest training value.
+    pub min: f64,
+    /// Largest training value.
+    pub max: f64,
+    /// True when the networks see the input through its logarithm.
+    pub log_scale: bool,
+}
+
+/// One committee member on the model card.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct MemberCard {
+    /// Hidden units (0 = linear).
+    pub n_hidden: usize,
+    /// Restart of that hidden-unit count.
+    pub restart: usize,
+    /// Log evidence of the refitted network (scaled units).
+    pub log_evidence: f64,
+    /// Held-out NLPD of the candidate (target units, nats per point).
+    pub heldout_nlpd: f64,
+    /// Effective number of well-determined parameters γ.
+    pub gamma: f64,
+    /// Weights in the network.
+    pub n_weights: usize,
+    /// True when its noise level varies with the inputs.
+    pub varying_noise: bool,
+}
+
+/// Input relevance: an object input → value in JSON, in input order.
+#[derive(Clone, Debug, PartialEq)]
+pub struct Relevance(pub Vec<(String, f64)>);
+
+impl Relevance {
+    /// Inputs from most to least relevant.
+    pub fn ranked(&self) -> Vec<(String, f64)> {
+        let mut v = self.0.clone();
+        v.sort_by(|a, b| b.1.total_cmp(&a.1));
+        v
+    }
+}
+
+impl Serialize for Relevance {
+    fn serialize<S: Serializer>(&self, s: S) -> std::result::Result<S::Ok, S::Error> {
+        let mut map = s.serialize_map(Some(self.0.len()))?;
+        for (k, v) in &self.0 {
+            map.serialize_entry(k, v)?;
+        }
+        map.end()
+    }
+}
+
+/// One target on the model card.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct TargetCard {
+    /// Column name.
+    pub name: String,
+    /// Unit of every level and spread of this target (`None`: as in the
+    /// training file).
+    pub unit: Option<String>,
+    /// Scale the target is learnt on: none, log or bounded.
+    pub scale: String,
+    /// Rows used.
+    pub n_rows: usize,
+    /// Rows left out because this target was missing.
+    pub n_missing: usize,
+    /// Smallest training value.
+    pub min: f64,
+    /// Largest training value.
+    pub max: f64,
+    /// Typical fitted noise sd (target units): the median over the
+    /// training rows.
+    pub noise_sd: f64,
+    /// Smallest and largest noise sd over the training rows; equal under
+    /// constant noise on an untransformed target.
+    pub noise_sd_range: (f64, f64),
+    /// True when the noise level varies with the inputs.
+    pub noise_varies: bool,
+    /// Where `noise_sd` comes from, in words.
+    pub noise_basis: String,
+    /// Measured replicate scatter of the training rows (pooled sd of
+    /// repeat tests), when there were repeat tests.
+    pub replicate_sd: Option<ReplicateScatter>,
+    /// Committee members.
+    pub members: Vec<MemberCard>,
+    /// Input relevance, most relevant = 1; `None` without ARD.
+    pub relevance: Option<Relevance>,
+    /// What relevance means and what it does not.
+    pub relevance_note: String,
+    /// Rows in the search's training and held-out parts.
+    pub search_rows: (usize, usize),
+    /// Hidden-unit range searched.
+    pub hidden_searched: (usize, usize),
+    /// Candidates trained and candidates discarded.
+    pub candidates: (usize, usize),
+    /// Held-out NLPD of the committee of the best n candidates, n = 1, 2, …
+    pub nlpd_by_size: Vec<f64>,
+}
+
+/// The model card.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct ModelCard {
+    /// Training file name.
+    pub data_file: String,
+    /// SHA-256 fingerprint of the training rows.
+    pub data_sha256: String,
+    /// Rows in the training table.
+    pub n_rows: usize,
+    /// mettle version that trained the model.
+    pub tool_version: String,
+    /// Seed of the training.
+    pub seed: u64,
+    /// Inputs in network order.
+    pub inputs: Vec<InputCard>,
+    /// Inputs offered but set aside, with the reason.
+    pub set_aside: Vec<(String, String)>,
+    /// One card per target.
+    pub targets: Vec<TargetCard>,
+}
+
+/// The unit an input's values are in once read (internal unit of its
+/// quantity for a model with a schema; `None` without one).
+pub fn input_unit(model: &Model, name: &str) -> Option<Unit> {
+    let s = model.schema.as_ref()?;
+    s.declared_unit(name)
+        .map(|u| Unit::internal_for(u.quantity()))
+}
+
+/// How a target is learnt, in words: `as it is`, `on the log scale`.
+pub fn scale_words(scale: &str) -> String {
+    match scale {
+        "none" => "as it is".into(),
+        other => format!("on the {other} scale"),
+    }
+}
+
+/// An axis or column label: the name and, when known, its unit.
+pub fn label(name: &str, unit: Option<Unit>) -> String {
+    match unit {
+        Some(u) if !u.symbol().is_empty() => format!("{name} ({})", u.symbol()),
+        Some(_) => format!("{name} (dimensionless)"),
+        None => format!("{name} (unit of the training file)"),
+    }
+}
+
+/// The noise sd, its range and where it comes from, in target units.
+fn noise_of(t: &TargetModel) -> (f64, (f64, f64), String) {
+    let varies = t.committee.selection.noise.varying;
+    match &t.training_summary {
+        Some(s) => (
+            s.noise_sd.median,
+            (s.noise_sd.min, s.noise_sd.max),
+            if varies {
+                "median over the training rows of the noise sd, which varies with the inputs".into()
+            } else if t.transform.is_identity() {
+                "constant noise sd of the committee".into()
+            } else {
+                format!(
+                    "median over the training rows; constant on the {} scale the target is learnt on",
+                    t.transform.name()
+                )
+            },
+        ),
+        None => {
+            // file written before the training summary existed: the
+            // members' mean 1/√β at the middle of the learnt range
+            let c = &t.committee;
+            let sd = c.members.iter().map(|m| m.noise_sd()).sum::<f64>() / c.members.len() as f64
+                * t.scaling.width();
+            let e = t
+                .transform
+                .back_transform(t.scaling.unscale_linear(0.0), sd, sd, z975());
+            (
+                e.noise_sd,
+                (e.noise_sd, e.noise_sd),
+                "members' mean noise sd at the middle of the training range (this model file does not record the training rows' noise levels)".into(),
+            )
+        }
+    }
+}
+
+/// The model card of `model`.
+pub fn model_card(model: &Model) -> ModelCard {
+    let inputs = model
+        .inputs
+        .iter()
+        .map(|i| InputCard {
+            name: i.name.clone(),
+            unit: input_unit(model, &i.name).map(|u| u.symbol().to_string()),
+            min: i.min,
+            max: i.max,
+            log_scale: i.scaling.transform == Transform::Log,
+        })
+        .collect();
+    let targets = model
+        .targets
+        .iter()
+        .map(|t| {
+            let c = &t.committee;
+            let (noise_sd, noise_sd_range, noise_basis) = noise_of(t);
+            let members = c
+                .members
+                .iter()
+                .map(|m| MemberCard {
+                    n_hidden: m.n_hidden,
+                    restart: m.restart,
+                    log_evidence: m.log_evidence,
+                    heldout_nlpd: m.heldout_nlpd,
+                    gamma: m.gamma.iter().sum(),
+                    n_weights: m.weights.len(),
+                    varying_noise: m.noise.is_some(),
+                })
+                .collect();
+            let relevance = relevance(c).map(|r| {
+                Relevance(
+                    model
+                        .inputs
+                        .iter()
+                        .zip(r)
+                        .map(|(i, v)| (i.name.clone(), v))
+                        .collect(),
+                )
+            });
+            TargetCard {
+                name: t.name.clone(),
+                unit: model
+                    .target_unit(&t.name, false)
+                    .map(|u| u.symbol().to_string()),
+                scale: t.transform.name().to_string(),
+                n_rows: t.n_rows,
+                n_missing: t.n_missing,
+                min: t.min,
+                max: t.max,
+                noise_sd,
+                noise_sd_range,
+                noise_varies: c.selection.noise.varying,
+                noise_basis,
+                replicate_sd: t
+                    .training_summary
+                    .as_ref()
+                    .and_then(|s| s.replicates.clone()),
+                members,
+                relevance_note: if relevance.is_some() {
+                    RELEVANCE_MEANING.to_string()
+                } else {
+                    "no relevance: the model was trained with one α for all inputs (--no-ard)"
+                        .to_string()
+                },
+                relevance,
+                search_rows: (c.selection.n_train_part, c.selection.n_heldout),
+                hidden_searched: c.selection.hidden_searched,
+                candidates: (
+                    c.candidates.len(),
+                    c.candidates.iter().filter(|k| k.failure.is_some()).count(),
+                ),
+                nlpd_by_size: c.selection.nlpd_by_size.clone(),
+            }
+        })
+        .collect();
+    ModelCard {
+        data_file: model.training.data_file.clone(),
+        data_sha256: model.training.data_sha256.clone(),
+        n_rows: model.training.n_rows,
+        tool_version: model.tool_version.clone(),
+        seed: model.training.settings.seed,
+        inputs,
+        set_aside: model
+            .set_aside
+            .iter()
+            .map(|s| (s.name.clone(), s.reason.clone()))
+            .collect(),
+        targets,
+    }
+}
+
+/// One target's estimates on the rows of a table where it was measured.
+#[derive(Clone, Debug, PartialEq)]
+pub struct TargetRows {
+    /// Target name.
+    pub target: String,
+    /// Rows of the table (0-based) with a measured value.
+    pub rows: Vec<usize>,
+    /// Measured values (target units).
+    pub measured: Vec<f64>,
+    /// Estimates (target units).
+    pub estimates: Vec<Estimate>,
+    /// Measured values on the learnt scale.
+    pub z_measured: Vec<f64>,
+    /// Predictive means on the learnt scale.
+    pub z_mean: Vec<f64>,
+    /// Predictive sds on the learnt scale.
+    pub z_sd: Vec<f64>,
+    /// ln |g′(y)| per row (0 for an untransformed target).
+    pub log_jacobian: Vec<f64>,
+    /// Raw input values per row, model input order.
+    pub inputs: Vec<Vec<f64>>,
+    /// Domain verdict per row.
+    pub in_domain: Vec<bool>,
+}
+
+impl TargetRows {
+    /// RMSE, NLPD, coverage … over the rows (`None` for no rows).
+    pub fn evaluation(&self) -> Option<Evaluation> {
+        let point: Vec<f64> = self.estimates.iter().map(|e| e.mean).collect();
+        evaluate_on_scale(
+            &self.measured,
+            &point,
+            &self.z_measured,
+            &self.z_mean,
+            &self.z_sd,
+            &self.log_jacobian,
+        )
+    }
+
+    /// The calibration curve over the rows.
+    pub fn calibration(&self) -> Vec<CalibrationPoint> {
+        calibration_curve(&self.z_measured, &self.z_mean, &self.z_sd)
+    }
+}
+
+/// Estimates of every target on the rows of `table` that hold its measured
+/// value, read as [`Model::evaluate`] reads a table.
+///
+/// # Errors
+/// As [`Model::evaluate`].
+pub fn estimate_rows(model: &Model, table: &Table) -> Result<Vec<TargetRows>> {
+    let (prepared, _) = model.read_through_schema(table, true)?;
+    let (raw, scaled) = model.scaled_inputs(&prepared)?;
+    let learnt = model.predict_learnt_scale(&scaled);
+    let z = z975();
+    let mut out = Vec::new();
+    for (t, preds) in model.targets.iter().zip(&learnt) {
+        let measured = prepared.numeric_optional(&t.name)?;
+        let mut r = TargetRows {
+            target: t.name.clone(),
+            rows: vec![],
+            measured: vec![],
+            estimates: vec![],
+            z_measured: vec![],
+            z_mean: vec![],
+            z_sd: vec![],
+            log_jacobian: vec![],
+            inputs: vec![],
+            in_domain: vec![],
+        };
+        for (row, (v, p)) in measured.iter().zip(preds).enumerate() {
+            let Some(v) = *v else { continue };
+            let (Some(g), Some(lj)) = (t.transform.forward(v), t.transform.log_jacobian(v)) else {
+                return Err(Error::Cell {
+                    path: table.source().display().to_string(),
+                    row: row + 1,
+                    line: row + 2,
+                    column: t.name.clone(),
+                    problem: format!(
+                        "{v} cannot be judged on the scale '{}' the model learnt: expected {}",
+                        t.transform.name(),
+                        t.transform.domain_text()
+                    ),
+                });
+            };
+            r.rows.push(row);
+            r.measured.push(v);
+            r.estimates
+                .push(t.transform.back_transform(p.mean, p.sd, p.noise_sd, z));
+            r.z_measured.push(g);
+            r.z_mean.push(p.mean);
+            r.z_sd.push(p.sd);
+            r.log_jacobian.push(lj);
+            r.inputs.push(raw.row(row).to_vec());
+            r.in_domain.push(range_check(model, raw.row(row)).in_domain);
+        }
+        out.push(r);
+    }
+    Ok(out)
+}
+
+/// The training-data fingerprint of `table` as the model's training
+/// computed it (inputs then targets, values as read through the model's
+/// schema, rows left out at training left out again). Equal to
+/// `model.training.data_sha256` exactly when `table` holds the training
+/// rows.
+///
+/// # Errors
+/// As [`Model::evaluate`] reading the table.
+pub fn data_fingerprint(model: &Model, table: &Table) -> Result<String> {
+    let prepared = match &model.schema {
+        None => table.clone(),
+        Some(schema) => {
+            schema
+                .prepare(
+                    table,
+                    "stored in the model",
+                    PrepareOptions {
+                        need_targets: true,
+                        drop_incomplete_rows: !model.training.incomplete_rows_dropped.is_empty(),
+                    },
+                )?
+                .table
+        }
+    };
+    let mut names: Vec<&str> = model.input_names();
+    names.extend(model.targets.iter().map(|t| t.name.as_str()));
+    let mut cols: Vec<Vec<Option<f64>>> = Vec::new();
+    for name in &names {
+        cols.push(prepared.numeric_optional(name)?);
+    }
+    let slices: Vec<&[Option<f64>]> = cols.iter().map(|c| c.as_slice()).collect();
+    Ok(fingerprint(&names, &slices))
+}
+
+/// Check that `table` holds the model's training rows.
+///
+/// # Errors
+/// [`Error::NotTrainingData`] when its fingerprint differs; as
+/// [`data_fingerprint`].
+pub fn check_training_data(model: &Model, table: &Table) -> Result<()> {
+    let found = data_fingerprint(model, table)?;
+    if found != model.training.data_sha256 {
+        return Err(Error::NotTrainingData {
+            path: table.source().display().to_string(),
+            found,
+            expected: model.training.data_sha256.clone(),
+            data_file: model.training.data_file.clone(),
+        });
+    }
+    Ok(())
+}
+
+#[cfg(test)]
+pub(crate) mod tests {
+    use crate::committee::{Committee, Member, NoiseSelection, Selection};
+    use crate::evidence::{FitDiagnostics, GroupKind, HessianKind};
+
+    /// A linear committee (no hidden units) of members with the given
+    /// input α's, for tests of what is read from a committee.
+    pub(crate) fn committee_with_alphas(alphas: &[&[f64]]) -> Committee {
+        let d = alphas[0].len();
+        let members = alphas
+            .iter()
+            .map(|a| {
+                let mut groups: Vec<GroupKind> = (0..d).map(GroupKind::Input).collect();
+                groups.push(GroupKind::OutputBias);
+                let mut alpha = a.to_vec();
+                alpha.push(1e-8);
+                Member {
+                    n_hidden: 0,
+                    restart: 0,
+                    seed: 0,
+                    gamma: vec![1.0; d + 1],
+                    groups,
+                    alpha,
+                    beta: 100.0,
+                    log_evidence: 0.0,
+                    heldout_nlpd: 0.0,
+                    hessian: HessianKind::Exact,
+                    weights: vec![0.0; d + 1],
+                    posterior_cov: ndarray::Array2::eye(d + 1),
+                    diagnostics: FitDiagnostics::default(),
+                    noise: None,
+                }
+            })
+            .collect();
+        Committee {
+            n_inputs: d,
+            members,
+            candidates: vec![],
+            selection: Selection {
+                n_train_part: 0,
+                n_heldout: 0,
+                hidden_searched: (0, 0),
+                widened: false,
+                nlpd_by_size: vec![0.0],
+                n_members: alphas.len(),
+                refit_failures: vec![],
+                noise: NoiseSelection::default(),
+            },
+        }
+    }
+}
