@@ -614,7 +614,10 @@ pub fn predictive(
 ) -> (Array1<f64>, Array1<f64>) {
     let (y, jac) = arch.jacobian(w, x);
     let js = jac.dot(cov);
-    let var = (&js * &jac).sum_axis(ndarray::Axis(1)) + 1.0 / beta;
+    let noise = 1.0 / beta;
+    let var = ndarray::Zip::from(js.rows())
+        .and(jac.rows())
+        .map_collect(|a, b| a.dot(&b) + noise);
     (y, var)
 }
 

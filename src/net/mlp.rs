@@ -226,21 +226,22 @@ impl Architecture {
             return (y, act, jac);
         }
         let p = self.split(w);
-        // D_nj = v_j (1 − a_nj²) = ∂y_n/∂b_j
-        let mut dy_db = act.mapv(|a| 1.0 - a * a);
-        dy_db *= &p.output_w;
-        for j in 0..h {
-            let col = dy_db.column(j);
-            for i in 0..d {
-                let mut dst = jac.column_mut(j * d + i);
-                dst.assign(&(&col * &x.column(i)));
+        // one contiguous row at a time: with D_nj = v_j (1 − a_nj²) = ∂y_n/∂b_j,
+        // row n is [D_n1·x_n, …, D_nH·x_n, D_n, a_n, 1]
+        for ((mut row, x_n), a_n) in jac.rows_mut().into_iter().zip(x.rows()).zip(act.rows()) {
+            let row = row
+                .as_slice_mut()
+                .expect("rows of a fresh standard-layout array are contiguous");
+            for j in 0..h {
+                let dj = p.output_w[j] * (1.0 - a_n[j] * a_n[j]);
+                for (dst, xi) in row[j * d..(j + 1) * d].iter_mut().zip(x_n.iter()) {
+                    *dst = dj * xi;
+                }
+                row[lay.hidden_bias + j] = dj;
+                row[lay.output_weights + j] = a_n[j];
             }
+            row[lay.output_bias] = 1.0;
         }
-        jac.slice_mut(s![.., lay.hidden_bias..lay.output_weights])
-            .assign(&dy_db);
-        jac.slice_mut(s![.., lay.output_weights..lay.output_bias])
-            .assign(&act);
-        jac.column_mut(lay.output_bias).fill(1.0);
         (y, act, jac)
     }
 
