@@ -7,7 +7,7 @@
 #[non_exhaustive]
 pub enum Error {
     /// A file could not be opened or read.
-    #[error("{path}: cannot read: {source}")]
+    #[error("{path}: cannot read")]
     Io {
         /// The file.
         path: String,
@@ -15,7 +15,7 @@ pub enum Error {
         source: std::io::Error,
     },
     /// A file could not be written.
-    #[error("{path}: cannot write: {source}")]
+    #[error("{path}: cannot write")]
     Write {
         /// The file.
         path: String,

@@ -13,14 +13,12 @@ use mettle::demo::{write_demo_datasets, DemoParams};
 The records are INVENTED: generated from published relations (Pickering-type strength terms, \
 the EN 1011-2 cooling time, the tanh Charpy transition curve) plus invented effects and realistic \
 scatter. They are not test results and must not be used to qualify any weld. The same seed gives \
-byte-identical files."
+byte-identical files.",
+    after_long_help = "Example:\n  mettle demo-data --out out/demo"
 )]
 pub struct DemoDataArgs {
     /// Folder to write the tables into (created if missing).
-    #[arg(
-        long,
-        value_name = "DIR\n\nExample:\n  mettle demo-data --out out/demo"
-    )]
+    #[arg(long, value_name = "DIR")]
     out: PathBuf,
     /// Seed of the generator.
     #[arg(long, value_name = "N", default_value_t = DemoParams::default().seed)]

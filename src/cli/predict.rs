@@ -40,14 +40,12 @@ columns; estimates are in internal units (MPa, J, %, °C) unless --units declare
 JSON output is an array with one object per row: keys row, target, mean, median, sd, lo95, hi95, \
 noise_sd, model_sd, interval_kind, unit (when known), in_domain, notes (for a model with several \
 targets, an 'estimates' object keyed by target holds mean ... unit).\n\n\
-Estimates are not test results: qualification testing per the applicable code decides."
+Estimates are not test results: qualification testing per the applicable code decides.",
+    after_long_help = "Example:\n  mettle predict --model uts.json --input new_heats.csv --format json --out estimates.json"
 )]
 pub struct PredictArgs {
     /// Model file written by `mettle train`.
-    #[arg(
-        long,
-        value_name = "MODEL.json\n\nExample:\n  mettle predict --model uts.json --input new_heats.csv --format json --out estimates.json"
-    )]
+    #[arg(long, value_name = "MODEL.json")]
     model: PathBuf,
     /// Rows to estimate (CSV with a header row, or Parquet); must hold every input column of the model.
     #[arg(long, value_name = "FILE")]
