@@ -11,7 +11,7 @@ BIN  := $(CARGO_TARGET_DIR)/release/mettle
 DEMO := out/demo
 SUDO := $(shell [ "$$(id -u)" = 0 ] || echo sudo)
 
-.PHONY: all deps build demo test lint fmt bench bench-engine clean-demo
+.PHONY: all deps build demo models test lint fmt bench bench-engine clean-demo
 
 all: build
 
@@ -46,22 +46,32 @@ bench-engine: deps
 
 demo: build
 	@mkdir -p $(DEMO)
-	@echo "== 1. generating the invented Fellhaven demo data into $(DEMO)/ (not test results)"
-	$(BIN) demo-data --out $(DEMO)
-	@echo "== 2. training a committee for UTS on the invented weld records"
-	$(BIN) train --data $(DEMO)/fellhaven_welds.csv --target uts_mpa \
+	@echo "== 1. the bundled INVENTED Fellhaven weld records (datasets/; fictional scenario, not test results)"
+	@echo "==    checking the archive before trusting it: duplicates, replicate scatter, outliers"
+	$(BIN) audit --data datasets/fellhaven_welds.csv --schema datasets/fellhaven_welds.toml
+	@echo "== 2. QA engineer: yield, UTS, elongation and Charpy energy at -40 C for 8 new welds,"
+	@echo "==    from the bundled model (models/fellhaven_welds.json), with error bars and domain verdicts"
+	$(BIN) predict --model models/fellhaven_welds.json --input datasets/fellhaven_new_welds.csv
+	@echo "== 3. the same estimates checked against the generator's noise-free truth"
+	$(BIN) evaluate --model models/fellhaven_welds.json --data datasets/fellhaven_new_welds_truth.csv
+	@echo "== 4. researcher: retraining a UTS committee on the archive (a smaller search, for speed)"
+	$(BIN) train --data datasets/fellhaven_welds.csv --target uts_mpa \
 	  --inputs c_wt,si_wt,mn_wt,ni_wt,cr_wt,mo_wt,cu_wt,co_wt,ti_ppm,b_ppm,o_ppm,n_ppm,heat_input_kj_mm,interpass_temp_c,pwht_temp_c \
 	  --hidden 1..6 --restarts 2 --seed 1 --out $(DEMO)/uts_model.json
-	@echo "== 3. estimating UTS, with error bars and domain verdicts, for new welds"
-	$(BIN) predict --model $(DEMO)/uts_model.json --input $(DEMO)/fellhaven_new_welds.csv
-	@echo "== 4. checking the model against the generator's noise-free truth for those welds"
-	$(BIN) evaluate --model $(DEMO)/uts_model.json --data $(DEMO)/fellhaven_new_welds_truth.csv
 	@echo "== 5. the model card: noise level beside the replicate scatter, committee, input relevance"
 	$(BIN) explain --model $(DEMO)/uts_model.json
 	@echo "== 6. a self-contained HTML report with every chart"
-	$(BIN) report --model $(DEMO)/uts_model.json --training-data $(DEMO)/fellhaven_welds.csv \
-	  --data $(DEMO)/fellhaven_new_welds_truth.csv --out $(DEMO)/uts_report.html
+	$(BIN) report --model $(DEMO)/uts_model.json --training-data datasets/fellhaven_welds.csv \
+	  --data datasets/fellhaven_new_welds_truth.csv --out $(DEMO)/uts_report.html
 	@echo "== outputs are in $(DEMO)/"
+
+# Regenerate the bundled invented data and the bundled model (deterministic: same seeds,
+# byte-identical files). Run after a change to the generator or to the model format;
+# tests/bundled.rs fails when they are out of date.
+models: build
+	$(BIN) demo-data --out datasets/
+	$(BIN) train --data datasets/fellhaven_welds.csv --schema datasets/fellhaven_welds.toml \
+	  --seed 1 --quiet --out models/fellhaven_welds.json
 
 clean-demo:
 	rm -rf $(DEMO)
