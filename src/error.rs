@@ -196,6 +196,22 @@ pub enum Error {
         /// The training file the model records.
         data_file: String,
     },
+    /// A requirement (screening or design) cannot be understood or used.
+    #[error("requirement '{given}': {problem}")]
+    Requirement {
+        /// The requirement as written.
+        given: String,
+        /// What is wrong, with the accepted forms or values.
+        problem: String,
+    },
+    /// A cost-and-limits file is malformed or inconsistent.
+    #[error("{path}: {message}")]
+    Costs {
+        /// The file.
+        path: String,
+        /// What is wrong, with the valid choices or range.
+        message: String,
+    },
     /// A chart could not be drawn.
     #[error("drawing a chart failed: {message}")]
     Plot {

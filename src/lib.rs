@@ -35,6 +35,7 @@ pub mod observer;
 pub mod prec;
 pub mod predict;
 pub mod report;
+pub mod screen;
 pub mod units;
 
 pub use error::{Error, Result};

@@ -73,3 +73,40 @@ pub struct Silent;
 impl TrainObserver for Silent {
     fn observe(&self, _event: &TrainEvent<'_>) {}
 }
+
+/// Something that happened during a design search (`mettle design`).
+#[derive(Clone, Debug, PartialEq)]
+#[non_exhaustive]
+pub enum DesignEvent {
+    /// The search starts.
+    Started {
+        /// Searches (seeded starts) planned.
+        n_starts: usize,
+        /// Iterations per search.
+        iterations: usize,
+    },
+    /// One seeded search finished.
+    StartDone {
+        /// Searches finished so far.
+        done: usize,
+        /// Searches planned.
+        total: usize,
+        /// Best score among feasible, in-domain points so far, if any.
+        best_score: Option<f64>,
+    },
+    /// The diverse set is being chosen and polished.
+    Choosing {
+        /// Points evaluated in all.
+        n_evaluated: usize,
+    },
+}
+
+/// Receives design-search events.
+pub trait DesignObserver: Sync {
+    /// Called for every event.
+    fn observe(&self, event: &DesignEvent);
+}
+
+impl DesignObserver for Silent {
+    fn observe(&self, _event: &DesignEvent) {}
+}

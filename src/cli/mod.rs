@@ -5,12 +5,14 @@ mod audit;
 mod compare;
 mod demo_data;
 mod derive;
+mod design;
 mod evaluate;
 mod explain;
 mod output;
 mod predict;
 mod progress;
 mod report;
+mod screen;
 mod train;
 
 use clap::{Parser, Subcommand};
@@ -66,6 +68,10 @@ enum Command {
     Report(report::ReportArgs),
     // about and long_about come from the Args struct: a doc comment here would replace them
     Compare(compare::CompareArgs),
+    // about and long_about come from the Args struct: a doc comment here would replace them
+    Screen(screen::ScreenArgs),
+    // about and long_about come from the Args struct: a doc comment here would replace them
+    Design(design::DesignArgs),
 }
 
 /// Run the parsed command.
@@ -83,5 +89,7 @@ pub fn run(cli: Cli) -> anyhow::Result<()> {
         Command::Explain(a) => explain::run(a),
         Command::Report(a) => report::run(a),
         Command::Compare(a) => compare::run(a),
+        Command::Screen(a) => screen::run(a),
+        Command::Design(a) => design::run(a),
     }
 }

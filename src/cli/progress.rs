@@ -112,3 +112,61 @@ impl TrainObserver for TrainProgress {
         }
     }
 }
+
+/// Draws design-search progress (same rules as [`TrainProgress`]: only on
+/// a terminal, only without `--quiet`).
+pub struct DesignProgress {
+    bar: Mutex<Option<ProgressBar>>,
+    enabled: bool,
+}
+
+impl DesignProgress {
+    /// A progress reporter; silent when `quiet` or stderr is not a terminal.
+    pub fn new(quiet: bool) -> Self {
+        DesignProgress {
+            bar: Mutex::new(None),
+            enabled: !quiet && std::io::stderr().is_terminal(),
+        }
+    }
+}
+
+impl mettle::observer::DesignObserver for DesignProgress {
+    fn observe(&self, event: &mettle::observer::DesignEvent) {
+        use mettle::observer::DesignEvent;
+        if !self.enabled {
+            return;
+        }
+        let mut guard = self.bar.lock().unwrap_or_else(|p| p.into_inner());
+        match event {
+            DesignEvent::Started { n_starts, .. } => {
+                let bar = ProgressBar::new(*n_starts as u64);
+                bar.set_style(
+                    ProgressStyle::with_template(
+                        "{prefix:>14} [{bar:30}] {pos}/{len} searches  {msg}",
+                    )
+                    .unwrap_or_else(|_| ProgressStyle::default_bar())
+                    .progress_chars("=> "),
+                );
+                bar.set_prefix("design");
+                bar.enable_steady_tick(Duration::from_millis(250));
+                *guard = Some(bar);
+            }
+            DesignEvent::StartDone {
+                done, best_score, ..
+            } => {
+                if let Some(bar) = guard.as_ref() {
+                    bar.set_position(*done as u64);
+                    if let Some(b) = best_score {
+                        bar.set_message(format!("best score {b:.4}"));
+                    }
+                }
+            }
+            DesignEvent::Choosing { .. } => {
+                if let Some(bar) = guard.take() {
+                    bar.finish_and_clear();
+                }
+            }
+            _ => {}
+        }
+    }
+}

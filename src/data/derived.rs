@@ -66,7 +66,11 @@ fn header_patterns(conventional: &str) -> Vec<Vec<(String, Unit)>> {
 ///
 /// # Errors
 /// [`Error::Derive`] when several headers match at the same level.
-fn find_header(table: &Table, conventional: &str, path: &str) -> Result<Option<(usize, Unit)>> {
+pub(crate) fn find_header(
+    table: &Table,
+    conventional: &str,
+    path: &str,
+) -> Result<Option<(usize, Unit)>> {
     for (level, patterns) in header_patterns(conventional).iter().enumerate() {
         let hits: Vec<(usize, Unit)> = (0..table.names().len())
             .filter_map(|i| {

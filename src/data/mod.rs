@@ -10,6 +10,7 @@ pub mod schema;
 mod table;
 
 pub use atomic::write_atomic;
+pub(crate) use derived::find_header;
 pub use derived::{derive_columns, DeriveOutcome};
 pub use fingerprint::fingerprint;
 pub use table::{ColumnData, FileFormat, Table};

@@ -83,6 +83,18 @@ pub struct RowPrediction {
     pub notes: Vec<String>,
 }
 
+/// Everything [`Model::predict_with_scale`] returns.
+#[derive(Clone, Debug, PartialEq)]
+pub struct FullPrediction {
+    /// Estimates and domain verdict per row.
+    pub rows: Vec<RowPrediction>,
+    /// Per target, per row: the distribution on the learnt scale.
+    pub learnt: Vec<Vec<ScalePrediction>>,
+    /// The scaled inputs (rows × inputs); the training range of each
+    /// input maps to [−0.5, 0.5].
+    pub scaled: Array2<f64>,
+}
+
 /// The standard-normal quantile of 0.975 (≈ 1.959964), from statrs.
 pub fn z975() -> f64 {
     Normal::standard().inverse_cdf(0.975)
@@ -146,15 +158,31 @@ impl Model {
     /// # Errors
     /// As [`Model::read_through_schema`] and [`Model::scaled_inputs`].
     pub fn predict(&self, table: &Table) -> Result<Vec<RowPrediction>> {
+        Ok(self.predict_with_scale(table)?.rows)
+    }
+
+    /// As [`Model::predict`], also returning the scaled inputs and, per
+    /// target, per row, the predictive distribution on the scale the target
+    /// was learnt on (what probabilities of meeting a requirement are
+    /// computed from).
+    ///
+    /// # Errors
+    /// As [`Model::predict`].
+    pub fn predict_with_scale(&self, table: &Table) -> Result<FullPrediction> {
         let (prepared, warnings) = self.read_through_schema(table, false)?;
         let (raw, scaled) = self.scaled_inputs(&prepared)?;
-        let mut rows = self.predict_arrays(&raw, &scaled);
+        let learnt = self.predict_learnt_scale(&scaled);
+        let mut rows = self.rows_from_learnt(&raw, &learnt);
         for w in warnings {
             if let Some(r) = rows.get_mut(w.row) {
                 r.notes.push(w.message);
             }
         }
-        Ok(rows)
+        Ok(FullPrediction {
+            rows,
+            learnt,
+            scaled,
+        })
     }
 
     /// The unit estimates of target `name` are given in: with `declared`,
@@ -194,11 +222,21 @@ impl Model {
 
     /// Estimates from raw and scaled input matrices (rows × inputs).
     pub fn predict_arrays(&self, raw: &Array2<f64>, scaled: &Array2<f64>) -> Vec<RowPrediction> {
+        self.rows_from_learnt(raw, &self.predict_learnt_scale(scaled))
+    }
+
+    /// Estimates and domain verdicts from raw inputs and the learnt-scale
+    /// distributions of [`Model::predict_learnt_scale`].
+    fn rows_from_learnt(
+        &self,
+        raw: &Array2<f64>,
+        learnt: &[Vec<ScalePrediction>],
+    ) -> Vec<RowPrediction> {
         let z = z975();
         let per_target: Vec<Vec<Estimate>> = self
             .targets
             .iter()
-            .zip(self.predict_learnt_scale(scaled))
+            .zip(learnt)
             .map(|(t, preds)| {
                 preds
                     .iter()
