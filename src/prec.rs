@@ -99,3 +99,9 @@ pub const STRONG_CORRELATION: f64 = 0.95;
 /// learns little about the shape of an effect from so few levels. Common
 /// practice, no source.
 pub const FEW_DISTINCT_VALUES: usize = 4;
+
+/// |z| beyond which `evaluate` lists a measured value as out of line with
+/// its estimate: outside about 98.8 % of a Gaussian predictive distribution,
+/// so about 1 row in 80 of an honest model is listed by chance. Common
+/// practice, no source.
+pub const OUT_OF_LINE_Z: f64 = 2.5;

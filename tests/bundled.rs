@@ -62,7 +62,9 @@ fn bundled_model_loads_matches_its_data_and_estimates() {
         "--model",
         model_path.to_str().expect("utf-8 path"),
         "--training-data",
-        repo("datasets/fellhaven_welds.csv").to_str().expect("utf-8"),
+        repo("datasets/fellhaven_welds.csv")
+            .to_str()
+            .expect("utf-8"),
         "--out",
         html.to_str().expect("utf-8"),
     ]);

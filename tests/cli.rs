@@ -667,3 +667,35 @@ fn help_of_each_subcommand_mentions_an_example() {
         );
     }
 }
+
+/// QA workflow: a heat whose measured value was mis-keyed (truth + 3, that
+/// is 15 noise sds off) is listed first as out of line, with its row; the
+/// untouched rows of this invented fixture rarely reach |z| > 2.5.
+#[test]
+fn evaluate_lists_a_mis_keyed_heat_as_out_of_line() {
+    let w = trained();
+    let mut lines: Vec<String> = fixture_csv(100, 12).lines().map(str::to_string).collect();
+    // data row 37 is line 38 of the file (after the header)
+    let cells: Vec<f64> = lines[37]
+        .split(',')
+        .map(|c| c.parse().expect("number"))
+        .collect();
+    lines[37] = format!("{},{},{}", cells[0], cells[1], cells[2] + 3.0);
+    w.write("test.csv", lines.join("\n") + "\n");
+    let args = [
+        "evaluate",
+        "--model",
+        "model.json",
+        "--data",
+        "test.csv",
+        "--format",
+        "json",
+    ];
+    let out = w.ok(&args);
+    let v = json(&args, &out);
+    let odd = v["out_of_line"].as_array().expect("out_of_line array");
+    assert!(!odd.is_empty(), "{}", describe(&args, &out));
+    assert_eq!(odd[0]["row"], 37, "{}", describe(&args, &out));
+    assert!(odd[0]["z"].as_f64().expect("z") > 10.0);
+    assert!(odd.len() <= 4, "too many rows flagged: {}", odd.len());
+}

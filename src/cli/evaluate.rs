@@ -4,7 +4,9 @@ use std::path::PathBuf;
 
 use clap::{Args, ValueEnum};
 use mettle::data::Table;
+use mettle::explain::{estimate_rows, OutOfLine};
 use mettle::metrics::Evaluation;
+use mettle::prec::OUT_OF_LINE_Z;
 use mettle::Model;
 use serde_json::json;
 
@@ -30,18 +32,16 @@ in the target's units; lower is better) and the coverages judge the error bars. 
 bars put about 68 % of rows inside mean ± 1 sd (coverage_68) and about 95 % inside mean ± 2 sd \
 (coverage_95).\n\n\
 JSON output (one target): an object with keys target, n, rmse, mae, r2, nlpd, coverage_68, \
-coverage_95; with several targets, an array of such objects.\n\n\
+coverage_95 and out_of_line; with several targets, an array of such objects.\n\nRows whose measured value lies more than 2.5 sd from its estimate (on the scale the target is learnt on) are listed as out of line, largest first, with the estimate, its 95 % interval, the standardised residual z and the domain verdict (JSON: out_of_line, an array of objects with row, measured, mean, sd, lo95, hi95, z, in_domain). An honest model lists about 1 row in 80 by chance; more, or a few with |z| far beyond 3, point to heats worth checking (mix-ups, test faults) or to a region the model does not know.\n\n\
 For a model trained with a schema the table is read through the stored schema (units converted, \
 derived inputs computed), and values are judged in internal units. For a target learnt on a log \
 or bounded scale, nlpd is the density of the measured value on its own scale and the coverages \
-count values inside the back-transformed (asymmetric) intervals."
+count values inside the back-transformed (asymmetric) intervals.",
+    after_long_help = "Example:\n  mettle evaluate --model uts.json --data held_back.csv --format json"
 )]
 pub struct EvaluateArgs {
     /// Model file written by `mettle train`.
-    #[arg(
-        long,
-        value_name = "MODEL.json\n\nExample:\n  mettle evaluate --model uts.json --data held_back.csv --format json"
-    )]
+    #[arg(long, value_name = "MODEL.json")]
     model: PathBuf,
     /// Table with the model's inputs and measured targets.
     #[arg(long, value_name = "FILE")]
@@ -58,23 +58,46 @@ pub fn run(a: EvaluateArgs) -> anyhow::Result<()> {
     let model = Model::load(&a.model)?;
     let table = Table::read(&a.data)?;
     let mut results: Vec<(String, Evaluation)> = Vec::new();
-    for (name, e) in model.evaluate(&table)? {
-        let e = e.ok_or_else(|| {
+    let mut out_of_line: Vec<(String, Vec<OutOfLine>)> = Vec::new();
+    for rows in estimate_rows(&model, &table)? {
+        let name = rows.target.clone();
+        let e = rows.evaluation().ok_or_else(|| {
             UsageError(format!(
                 "{}: no row has a measured '{name}'",
                 a.data.display()
             ))
         })?;
+        out_of_line.push((name.clone(), rows.out_of_line(OUT_OF_LINE_Z)));
         results.push((name, e));
     }
     let text = match a.format {
         EvalFormat::Json => {
             let objs: Vec<serde_json::Value> = results
                 .iter()
-                .map(|(name, e)| {
+                .zip(&out_of_line)
+                .map(|((name, e), (_, odd))| {
                     let mut v = serde_json::to_value(e).unwrap_or_default();
                     if let Some(o) = v.as_object_mut() {
                         o.insert("target".into(), json!(name));
+                        o.insert(
+                            "out_of_line".into(),
+                            serde_json::Value::Array(
+                                odd.iter()
+                                    .map(|r| {
+                                        json!({
+                                            "row": r.row,
+                                            "measured": r.measured,
+                                            "mean": r.estimate.mean,
+                                            "sd": r.estimate.sd,
+                                            "lo95": r.estimate.lo95,
+                                            "hi95": r.estimate.hi95,
+                                            "z": r.z,
+                                            "in_domain": r.in_domain,
+                                        })
+                                    })
+                                    .collect(),
+                            ),
+                        );
                     }
                     v
                 })
@@ -115,7 +138,37 @@ pub fn run(a: EvaluateArgs) -> anyhow::Result<()> {
                     ]
                 })
                 .collect();
-            aligned(&h, &body) + "honest error bars: coverage_68 near 0.68, coverage_95 near 0.95\n"
+            let mut text = aligned(&h, &body)
+                + "honest error bars: coverage_68 near 0.68, coverage_95 near 0.95\n";
+            for (name, odd) in &out_of_line {
+                if odd.is_empty() {
+                    continue;
+                }
+                text += &format!(
+                    "\n{name}: {} row(s) more than {OUT_OF_LINE_Z} sd from the estimate (about 1 in 80 is expected by chance):\n",
+                    odd.len()
+                );
+                let h: Vec<String> = ["row", "measured", "mean", "lo95", "hi95", "z", "domain"]
+                    .iter()
+                    .map(|s| s.to_string())
+                    .collect();
+                let body: Vec<Vec<String>> = odd
+                    .iter()
+                    .map(|r| {
+                        vec![
+                            r.row.to_string(),
+                            num(r.measured),
+                            num(r.estimate.mean),
+                            num(r.estimate.lo95),
+                            num(r.estimate.hi95),
+                            format!("{:+.2}", r.z),
+                            if r.in_domain { "in" } else { "OUT" }.to_string(),
+                        ]
+                    })
+                    .collect();
+                text += &aligned(&h, &body);
+            }
+            text
         }
     };
     emit(&text, a.out.as_deref())

@@ -353,6 +353,41 @@ impl TargetRows {
     pub fn calibration(&self) -> Vec<CalibrationPoint> {
         calibration_curve(&self.z_measured, &self.z_mean, &self.z_sd)
     }
+
+    /// Rows whose measured value lies more than `limit` predictive sds from
+    /// the estimate, on the scale the target is learnt on, largest first:
+    /// heats that look out of line with the rest of the data.
+    pub fn out_of_line(&self, limit: f64) -> Vec<OutOfLine> {
+        let mut found: Vec<OutOfLine> = (0..self.rows.len())
+            .filter_map(|k| {
+                let z = (self.z_measured[k] - self.z_mean[k]) / self.z_sd[k];
+                (z.abs() > limit).then(|| OutOfLine {
+                    row: self.rows[k] + 1,
+                    measured: self.measured[k],
+                    estimate: self.estimates[k].clone(),
+                    z,
+                    in_domain: self.in_domain[k],
+                })
+            })
+            .collect();
+        found.sort_by(|a, b| b.z.abs().total_cmp(&a.z.abs()).then(a.row.cmp(&b.row)));
+        found
+    }
+}
+
+/// A measured value far from its estimate.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct OutOfLine {
+    /// Row of the table (1-based, header not counted).
+    pub row: usize,
+    /// Measured value (target units).
+    pub measured: f64,
+    /// The estimate (target units).
+    pub estimate: Estimate,
+    /// Standardised residual (measured − mean)/sd on the learnt scale.
+    pub z: f64,
+    /// Whether the row lies in the training domain.
+    pub in_domain: bool,
 }
 
 /// Estimates of every target on the rows of `table` that hold its measured
