@@ -95,10 +95,11 @@ fn number(given: &str, what: &str, text: &str) -> Result<f64> {
 
 fn name(given: &str, what: &str, text: &str) -> Result<String> {
     let t = text.trim();
-    if t.is_empty() || t.chars().any(char::is_whitespace) {
+    let allowed = |c: char| c.is_alphanumeric() || matches!(c, '_' | '.' | '-' | '%');
+    if t.is_empty() || !t.chars().all(allowed) {
         return Err(bad(
             given,
-            format!("{what} '{t}' must be a column name without spaces; {FORM}"),
+            format!("{what} '{t}' is not a column name (letters, digits, _ . - %); {FORM}"),
         ));
     }
     Ok(t.to_string())
@@ -244,6 +245,7 @@ mod tests {
     fn rejects_malformed_requirements_naming_the_part() {
         for (text, part) in [
             ("uts_mpa 550", "no comparison operator"),
+            ("uts=>550", "target 'uts='"),
             ("uts_mpa >= lots", "threshold 'lots'"),
             (">= 550", "target ''"),
             ("charpy_j>=47@test_temp_c", "condition 'test_temp_c'"),
