@@ -63,6 +63,15 @@ demo: build
 	@echo "== 6. a self-contained HTML report with every chart"
 	$(BIN) report --model $(DEMO)/uts_model.json --training-data datasets/fellhaven_welds.csv \
 	  --data datasets/fellhaven_new_welds_truth.csv --out $(DEMO)/uts_report.html
+	@echo "== 7. alloy developer: rank the candidate welds by their chance of UTS >= 620 MPa and 47 J at -40 C,"
+	@echo "==    with INVENTED prices and a CE(IIW) limit (datasets/fellhaven_costs.toml)"
+	$(BIN) screen --model models/fellhaven_welds.json --input datasets/fellhaven_candidates.csv \
+	  --require 'uts_mpa>=620' --require 'charpy_j>=47@test_temp_c=-40' --costs datasets/fellhaven_costs.toml
+	@echo "== 8. design: search C, Mn, Ni, Mo for diverse in-domain candidates (cost-vs-probability chart)"
+	$(BIN) design --model models/fellhaven_welds.json --base datasets/fellhaven_candidates.csv \
+	  --require 'uts_mpa>=620' --require 'charpy_j>=47@test_temp_c=-40' --costs datasets/fellhaven_costs.toml \
+	  --vary c_wt=0.05:0.11 --vary mn_wt=0.9:1.7 --vary ni_wt=0.2:3.4 --vary mo_wt=0.02:0.45 \
+	  --count 6 --svg $(DEMO)/design_front.svg
 	@echo "== outputs are in $(DEMO)/"
 
 # Regenerate the bundled invented data and the bundled model (deterministic: same seeds,
