@@ -33,11 +33,24 @@ fn commands(text: &str) -> Vec<(usize, Vec<String>)> {
         if in_block {
             if let Some(rest) = t.strip_prefix("mettle ") {
                 assert!(
-                    !rest.contains('"') && !rest.contains('\'') && !rest.ends_with('\\'),
-                    "line {}: keep documented commands on one line without quotes",
+                    !rest.contains('"') && !rest.ends_with('\\'),
+                    "line {}: keep documented commands on one line, quoting only with '…'",
                     i + 1
                 );
-                found.push((i + 1, rest.split_whitespace().map(str::to_string).collect()));
+                // a shell would strip the single quotes around a token
+                let args: Vec<String> = rest
+                    .split_whitespace()
+                    .map(|a| {
+                        let quoted = a.len() >= 2 && a.starts_with('\'') && a.ends_with('\'');
+                        assert!(
+                            quoted || !a.contains('\''),
+                            "line {}: a quoted argument may not hold spaces",
+                            i + 1
+                        );
+                        a.trim_matches('\'').to_string()
+                    })
+                    .collect();
+                found.push((i + 1, args));
             }
         }
     }
