@@ -21,9 +21,11 @@
 #![deny(clippy::float_cmp)]
 
 pub mod committee;
+pub mod curves;
 pub mod data;
 pub mod demo;
 pub mod derive;
+pub mod domain;
 pub mod error;
 pub mod evidence;
 pub mod explain;

@@ -105,3 +105,31 @@ pub const FEW_DISTINCT_VALUES: usize = 4;
 /// so about 1 row in 80 of an honest model is listed by chance. Common
 /// practice, no source.
 pub const OUT_OF_LINE_Z: f64 = 2.5;
+
+/// Neighbours counted by the joint-domain check: the distance from a query
+/// to its k-th nearest training row (whitened scaled inputs). Measured on
+/// the shared concrete data for k = 1, 2, 3, 5, 8 at equal false flags,
+/// k = 1 detected the most holes (docs/domain.md); a single stray training
+/// row can vouch for its surroundings, which the support count shows.
+pub const DOMAIN_K: usize = 1;
+
+/// Quantile of the training rows' own (leave-one-out) k-NN distances that
+/// serves as the reference distance D of the joint-domain check.
+pub const DOMAIN_REFERENCE_QUANTILE: f64 = 0.99;
+
+/// A query is outside the joint domain when its k-NN distance exceeds
+/// this multiple of D: at 1, when it is farther from the training data
+/// than 99 % of the training rows are from the rest. Checked on the
+/// held-out rows of the shared concrete data (under 1 % flagged,
+/// docs/domain.md).
+pub const DOMAIN_DISTANCE_FACTOR: f64 = 1.0;
+
+/// A value beyond its input's training range by no more than this share of
+/// the range is noted but does not by itself put the row out of domain
+/// (rounding in the records, a test row a hair past the last training row).
+pub const DOMAIN_RANGE_SLACK: f64 = 0.02;
+
+/// Floor of the covariance eigenvalues in the joint-domain metric, relative
+/// to the largest: keeps the whitening finite for an input that is an exact
+/// combination of others.
+pub const DOMAIN_EIGEN_FLOOR: f64 = 1e-6;

@@ -13,6 +13,7 @@ mod predict;
 mod progress;
 mod report;
 mod screen;
+mod sweep;
 mod train;
 
 use clap::{Parser, Subcommand};
@@ -72,6 +73,10 @@ enum Command {
     Screen(screen::ScreenArgs),
     // about and long_about come from the Args struct: a doc comment here would replace them
     Design(design::DesignArgs),
+    // about and long_about come from the Args struct: a doc comment here would replace them
+    Sweep(sweep::SweepArgs),
+    // about and long_about come from the Args struct: a doc comment here would replace them
+    Transition(sweep::TransitionArgs),
 }
 
 /// Run the parsed command.
@@ -91,5 +96,7 @@ pub fn run(cli: Cli) -> anyhow::Result<()> {
         Command::Compare(a) => compare::run(a),
         Command::Screen(a) => screen::run(a),
         Command::Design(a) => design::run(a),
+        Command::Sweep(a) => sweep::run(a),
+        Command::Transition(a) => sweep::run_transition(a),
     }
 }

@@ -14,6 +14,7 @@ use serde::{Deserialize, Serialize};
 
 use crate::committee::{Committee, CommitteeParams};
 use crate::data::schema::Schema;
+use crate::domain::DomainReference;
 use crate::explain::TrainingSummary;
 use crate::features::ColumnScaling;
 
@@ -110,6 +111,10 @@ pub struct Model {
     /// inputs, applied again to every table the model reads.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub schema: Option<Schema>,
+    /// The scaled training inputs for the joint-domain check (absent in
+    /// files written before mettle stored them: only ranges are checked).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub domain: Option<DomainReference>,
 }
 
 impl Model {

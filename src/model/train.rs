@@ -10,6 +10,7 @@ use crate::committee::{train_committee, CommitteeParams};
 use crate::data::schema::{PrepareOptions, Schema};
 use crate::data::{fingerprint, Table};
 use crate::derive::RowWarning;
+use crate::domain::DomainReference;
 use crate::error::{Error, Result};
 use crate::explain::summarise_training;
 use crate::features::{ColumnScaling, Transform};
@@ -340,6 +341,7 @@ impl Model {
                 incomplete_rows_dropped: Vec::new(),
             },
             schema: None,
+            domain: DomainReference::build(x.view()),
         })
     }
 }

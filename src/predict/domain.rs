@@ -1,77 +1,36 @@
-//! Is a query row inside what the training data cover?
-//!
-//! The per-input range check: a value outside the training range of its
-//! input puts the row out of domain, with a note naming the input, the
-//! range and how far outside the value is (in the input's units and as a
-//! share of the range).
+//! Is a query row inside what the training data cover? The checks live in
+//! [`crate::domain`]; this is the model-level entry point.
 
 use ndarray::ArrayView1;
 
+use crate::domain::{self, range_excesses, range_note, DomainVerdict};
 use crate::model::Model;
+use crate::prec::DOMAIN_RANGE_SLACK;
 
-/// The domain verdict for one row.
+/// The range-only verdict for one row.
 #[derive(Clone, Debug, PartialEq, Eq)]
 pub struct DomainReport {
-    /// False when any check failed.
+    /// False when any input lies beyond its range by more than the slack.
     pub in_domain: bool,
-    /// One note per failed check, in plain words.
+    /// One note per input outside its range, in plain words.
     pub notes: Vec<String>,
 }
 
 /// Check each input of `raw` (the row's raw values in model input order)
-/// against its training range.
+/// against its training range only (see [`Model::domain_check`] for the
+/// full guard).
 pub fn range_check(model: &Model, raw: ArrayView1<f64>) -> DomainReport {
-    let mut notes = Vec::new();
-    for (inp, &v) in model.inputs.iter().zip(raw.iter()) {
-        let range = inp.max - inp.min;
-        let (side, by) = if v < inp.min {
-            ("below", inp.min - v)
-        } else if v > inp.max {
-            ("above", v - inp.max)
-        } else {
-            continue;
-        };
-        notes.push(format!(
-            "{} = {} is {side} the training range {} to {} by {} ({:.0} % of the range)",
-            inp.name,
-            fmt_num(v),
-            fmt_num(inp.min),
-            fmt_num(inp.max),
-            fmt_num(by),
-            100.0 * by / range
-        ));
-    }
+    let ex = range_excesses(&model.inputs, raw);
     DomainReport {
-        in_domain: notes.is_empty(),
-        notes,
+        in_domain: ex.iter().all(|e| e.fraction <= DOMAIN_RANGE_SLACK),
+        notes: ex.iter().map(range_note).collect(),
     }
 }
 
-/// A number with up to 4 significant decimals, without trailing zeros.
-fn fmt_num(v: f64) -> String {
-    let s = if v.abs() >= 1000.0 || v.fract() == 0.0 {
-        format!("{v:.0}")
-    } else {
-        let digits = (4 - v.abs().log10().ceil() as i32).clamp(1, 8) as usize;
-        format!("{v:.digits$}")
-    };
-    if s.contains('.') {
-        s.trim_end_matches('0').trim_end_matches('.').to_string()
-    } else {
-        s
-    }
-}
-
-#[cfg(test)]
-mod tests {
-    use super::fmt_num;
-
-    #[test]
-    fn numbers_are_short_and_exact_enough() {
-        assert_eq!(fmt_num(0.12), "0.12");
-        assert_eq!(fmt_num(28.0), "28");
-        assert_eq!(fmt_num(1.23456), "1.235");
-        assert_eq!(fmt_num(-40.0), "-40");
-        assert_eq!(fmt_num(0.0005), "0.0005");
+impl Model {
+    /// The full domain guard for one row (raw values in model input
+    /// order): range, joint domain and support.
+    pub fn domain_check(&self, raw: ArrayView1<f64>) -> DomainVerdict {
+        domain::check(&self.inputs, self.domain.as_ref(), raw)
     }
 }

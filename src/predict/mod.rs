@@ -244,13 +244,23 @@ impl Model {
                     .collect()
             })
             .collect();
+        let bounds: Vec<_> = self
+            .targets
+            .iter()
+            .map(|t| crate::domain::physical_bound(self, &t.name))
+            .collect();
         (0..raw.nrows())
             .map(|i| {
-                let dom = range_check(self, raw.row(i));
+                let dom = self.domain_check(raw.row(i));
+                let estimates: Vec<Estimate> = per_target.iter().map(|e| e[i].clone()).collect();
+                let mut notes = dom.notes;
+                for ((t, b), e) in self.targets.iter().zip(&bounds).zip(&estimates) {
+                    notes.extend(b.as_ref().and_then(|b| b.note(&t.name, e.median)));
+                }
                 RowPrediction {
-                    estimates: per_target.iter().map(|e| e[i].clone()).collect(),
+                    estimates,
                     in_domain: dom.in_domain,
-                    notes: dom.notes,
+                    notes,
                 }
             })
             .collect()

@@ -1,0 +1,496 @@
+//! The domain guard: is a query row inside what the training data can vouch
+//! for?
+//!
+//! Three checks, each turned into plain-language notes that name the inputs
+//! responsible (docs/domain.md explains every verdict and how its threshold
+//! was set):
+//!
+//! 1. **Range.** Each input against its training range, with how far
+//!    outside the value is, in the input's units and as a share of the
+//!    range. Beyond the range by more than
+//!    [`DOMAIN_RANGE_SLACK`](crate::prec::DOMAIN_RANGE_SLACK) of it puts the
+//!    row out of domain; a smaller excess is only noted.
+//! 2. **Joint domain.** Inputs are correlated, so a row can sit inside every
+//!    range and still in an empty region of the joint space. The distance
+//!    d_k(x) from the query to its k-th nearest training row is measured in
+//!    the scaled input space the networks see (every training range mapped
+//!    to [−0.5, 0.5], log inputs on the log scale) after whitening by the
+//!    training rows' covariance, so that it is a Mahalanobis distance
+//!    (Mahalanobis 1936) and a step against the correlation of two inputs
+//!    counts for more than the same step along it. It is compared with the same
+//!    distance measured inside the training data, leaving each training
+//!    row out of its own neighbourhood:
+//!
+//!    ```text
+//!    r(x) = d_k(x) / D,   D = the q-quantile of { d_k(x_i) without row i }
+//!    ```
+//!
+//!    and the row is out of the joint domain when r(x) > f
+//!    (k = [`DOMAIN_K`](crate::prec::DOMAIN_K),
+//!    q = [`DOMAIN_REFERENCE_QUANTILE`](crate::prec::DOMAIN_REFERENCE_QUANTILE),
+//!    f = [`DOMAIN_DISTANCE_FACTOR`](crate::prec::DOMAIN_DISTANCE_FACTOR)).
+//!    A new row drawn like the training rows has r ≤ 1 with probability
+//!    about q (the leave-one-out distance is the distance of a new row to
+//!    n − 1 others), so the check flags about 1 − q of such rows at f = 1:
+//!    k-nearest-neighbour novelty detection (common practice, no source). The inputs named are those that make up most of
+//!    the squared distance to the k nearest rows.
+//!    Repeated rows (replicate tests) count once.
+//! 3. **Support.** How many distinct training rows lie within the reference
+//!    distance D of the query (zero for a row the joint check rejects at
+//!    k = 1, f = 1; a handful for a row inside a well-covered region).
+
+mod physical;
+
+pub use physical::{physical_bound, PhysicalBound};
+
+use ndarray::{Array1, Array2, ArrayView1, ArrayView2, Axis};
+use ndarray_linalg::{Eigh, UPLO};
+use rayon::prelude::*;
+use serde::{Deserialize, Serialize};
+
+use crate::model::InputColumn;
+use crate::prec::{
+    DOMAIN_DISTANCE_FACTOR, DOMAIN_EIGEN_FLOOR, DOMAIN_K, DOMAIN_RANGE_SLACK,
+    DOMAIN_REFERENCE_QUANTILE,
+};
+
+/// What the model file keeps of the training inputs for the joint-domain
+/// check: the scaled training rows and the reference distance.
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+pub struct DomainReference {
+    /// Neighbours counted (k).
+    pub k: usize,
+    /// Inputs per row.
+    pub n_inputs: usize,
+    /// Mean of the scaled training rows.
+    pub mean: Vec<f64>,
+    /// Whitening matrix W (inputs × inputs, row after row): a scaled row s
+    /// maps to (s − mean)·W, whose covariance over the training rows is
+    /// the identity.
+    pub whitening: Vec<f64>,
+    /// Whitened distinct training rows, row after row (repeated rows once).
+    pub rows: Vec<f64>,
+    /// Scaled (not whitened) distinct training rows, row after row, for naming the
+    /// inputs that make up a gap.
+    pub scaled_rows: Vec<f64>,
+    /// D: the [`DOMAIN_REFERENCE_QUANTILE`] quantile of the training rows'
+    /// leave-one-out k-NN distances.
+    pub reference_distance: f64,
+    /// Median of the same distances (for the notes).
+    pub median_distance: f64,
+}
+
+/// One input outside its training range.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct RangeExcess {
+    /// Input name.
+    pub input: String,
+    /// The query's value.
+    pub value: f64,
+    /// Training minimum.
+    pub min: f64,
+    /// Training maximum.
+    pub max: f64,
+    /// How far outside, in the input's units (negative below the range).
+    pub by: f64,
+    /// `|by|` as a share of the range.
+    pub fraction: f64,
+}
+
+/// The guard's verdict for one row.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct DomainVerdict {
+    /// False when any check put the row out of domain.
+    pub in_domain: bool,
+    /// Inputs outside their training range.
+    pub outside_range: Vec<RangeExcess>,
+    /// d_k(x) / D (`None` without a stored reference).
+    pub distance_ratio: Option<f64>,
+    /// Training rows within D of the query.
+    pub support: Option<usize>,
+    /// Plain-language notes, naming the inputs responsible.
+    pub notes: Vec<String>,
+}
+
+/// Euclidean distance between two rows.
+fn dist2(a: &[f64], b: &[f64]) -> f64 {
+    a.iter().zip(b).map(|(x, y)| (x - y) * (x - y)).sum()
+}
+
+/// Quantile q of sorted values by linear interpolation between order
+/// statistics (the "type 7" rule; common practice, no source).
+pub(crate) fn quantile_sorted(sorted: &[f64], q: f64) -> f64 {
+    if sorted.is_empty() {
+        return f64::NAN;
+    }
+    let h = q * (sorted.len() - 1) as f64;
+    let lo = h.floor() as usize;
+    let hi = (lo + 1).min(sorted.len() - 1);
+    sorted[lo] + (h - lo as f64) * (sorted[hi] - sorted[lo])
+}
+
+/// Mean and whitening matrix of scaled rows `x`: W = V·Λ^(−1/2) from the
+/// eigen-decomposition C = V·Λ·Vᵀ of their covariance, eigenvalues floored
+/// at [`DOMAIN_EIGEN_FLOOR`] times the largest (an input that is an exact
+/// combination of others, such as a carbon equivalent beside its elements,
+/// leaves a direction without spread; the floor keeps the metric finite
+/// there while still making a step off that combination far). Distances
+/// after whitening are Mahalanobis distances (Mahalanobis 1936, Proc.
+/// Natl. Inst. Sci. India 2:49). `None` when the decomposition fails.
+fn whitening(x: ArrayView2<f64>) -> Option<(Array1<f64>, Array2<f64>)> {
+    let n = x.nrows() as f64;
+    let mean = x.mean_axis(Axis(0))?;
+    let c = x.to_owned() - &mean;
+    let cov = c.t().dot(&c) / (n - 1.0).max(1.0);
+    let (eig, v) = cov.eigh(UPLO::Lower).ok()?;
+    let top = eig.iter().copied().fold(0.0, f64::max);
+    if top <= 0.0 {
+        return None;
+    }
+    let scale = eig.mapv(|l| 1.0 / l.max(top * DOMAIN_EIGEN_FLOOR).sqrt());
+    Some((mean, v * &scale))
+}
+
+/// The k-th smallest of `d` (1-based k, k ≤ len).
+fn kth_smallest(d: &mut [f64], k: usize) -> f64 {
+    let (_, v, _) = d.select_nth_unstable_by(k - 1, f64::total_cmp);
+    *v
+}
+
+impl DomainReference {
+    /// Build from the scaled training inputs (rows × inputs). `None` with
+    /// fewer than two rows (no neighbourhood to measure) or when the
+    /// covariance cannot be decomposed.
+    pub fn build(x: ArrayView2<f64>) -> Option<DomainReference> {
+        Self::build_with_k(x, DOMAIN_K)
+    }
+
+    /// As [`DomainReference::build`] with `k` neighbours instead of
+    /// [`DOMAIN_K`] (for studies of the setting).
+    pub fn build_with_k(x: ArrayView2<f64>, k: usize) -> Option<DomainReference> {
+        let d = x.ncols();
+        let (mean, w) = whitening(x)?;
+        // repeated rows (replicate tests at one condition) count once: a
+        // row's own replicates are not its neighbours
+        let mut distinct: Vec<Vec<f64>> = x.rows().into_iter().map(|r| r.to_vec()).collect();
+        distinct.sort_by(|a, b| {
+            a.iter()
+                .zip(b)
+                .map(|(p, q)| p.total_cmp(q))
+                .find(|o| o.is_ne())
+                .unwrap_or(std::cmp::Ordering::Equal)
+        });
+        distinct.dedup();
+        let n = distinct.len();
+        if n < 2 {
+            return None;
+        }
+        let x = Array2::from_shape_vec((n, d), distinct.concat()).ok()?;
+        let x = x.view();
+        let white = (&x - &mean).dot(&w);
+        let rows: Vec<f64> = white.iter().copied().collect();
+        let k = k.clamp(1, n - 1);
+        let mut loo: Vec<f64> = (0..n)
+            .into_par_iter()
+            .map(|i| {
+                let xi = &rows[i * d..(i + 1) * d];
+                let mut ds: Vec<f64> = (0..n)
+                    .filter(|&j| j != i)
+                    .map(|j| dist2(xi, &rows[j * d..(j + 1) * d]))
+                    .collect();
+                kth_smallest(&mut ds, k).sqrt()
+            })
+            .collect();
+        loo.sort_by(f64::total_cmp);
+        Some(DomainReference {
+            k,
+            n_inputs: d,
+            reference_distance: quantile_sorted(&loo, DOMAIN_REFERENCE_QUANTILE),
+            median_distance: quantile_sorted(&loo, 0.5),
+            mean: mean.to_vec(),
+            whitening: w.iter().copied().collect(),
+            rows,
+            scaled_rows: x.iter().copied().collect(),
+        })
+    }
+
+    /// Training rows stored.
+    pub fn n_rows(&self) -> usize {
+        self.rows.len() / self.n_inputs.max(1)
+    }
+
+    /// Row `i` of the stored whitened inputs.
+    pub fn row(&self, i: usize) -> &[f64] {
+        &self.rows[i * self.n_inputs..(i + 1) * self.n_inputs]
+    }
+
+    /// d_k(x) / D, the support count and each input's share of the squared
+    /// distance to the k nearest training rows, for a scaled query.
+    pub fn measure(&self, scaled: &[f64]) -> JointMeasure {
+        let d = self.n_inputs;
+        let white: Vec<f64> = (0..d)
+            .map(|c| {
+                (0..d)
+                    .map(|r| (scaled[r] - self.mean[r]) * self.whitening[r * d + c])
+                    .sum()
+            })
+            .collect();
+        let mut ds: Vec<(f64, usize)> = (0..self.n_rows())
+            .map(|i| (dist2(&white, self.row(i)), i))
+            .collect();
+        let k = self.k.min(ds.len()).max(1);
+        ds.select_nth_unstable_by(k - 1, |a, b| a.0.total_cmp(&b.0));
+        let dk = ds[k - 1].0.sqrt();
+        let r2 = self.reference_distance * self.reference_distance;
+        let support = ds.iter().filter(|(d, _)| *d <= r2).count();
+        let mut share = vec![0.0; self.n_inputs];
+        for &(_, i) in &ds[..k] {
+            let t_row = &self.scaled_rows[i * d..(i + 1) * d];
+            for (s, (q, t)) in share.iter_mut().zip(scaled.iter().zip(t_row)) {
+                *s += (q - t) * (q - t);
+            }
+        }
+        let total: f64 = share.iter().sum();
+        if total > 0.0 {
+            share.iter_mut().for_each(|s| *s /= total);
+        }
+        JointMeasure {
+            ratio: if self.reference_distance > 0.0 {
+                dk / self.reference_distance
+            } else if dk > 0.0 {
+                f64::INFINITY
+            } else {
+                0.0
+            },
+            support,
+            share,
+        }
+    }
+}
+
+/// The joint-domain measurements for one query.
+#[derive(Clone, Debug, PartialEq)]
+pub struct JointMeasure {
+    /// d_k(x) / D.
+    pub ratio: f64,
+    /// Training rows within D.
+    pub support: usize,
+    /// Each input's share of the squared distance to the k nearest rows.
+    pub share: Vec<f64>,
+}
+
+/// Inputs outside their training ranges, for raw values in input order.
+pub fn range_excesses(inputs: &[InputColumn], raw: ArrayView1<f64>) -> Vec<RangeExcess> {
+    inputs
+        .iter()
+        .zip(raw.iter())
+        .filter_map(|(inp, &v)| {
+            let by = if v < inp.min {
+                v - inp.min
+            } else if v > inp.max {
+                v - inp.max
+            } else {
+                return None;
+            };
+            Some(RangeExcess {
+                input: inp.name.clone(),
+                value: v,
+                min: inp.min,
+                max: inp.max,
+                by,
+                fraction: by.abs() / (inp.max - inp.min),
+            })
+        })
+        .collect()
+}
+
+/// The note for one range excess.
+pub fn range_note(e: &RangeExcess) -> String {
+    let side = if e.by < 0.0 { "below" } else { "above" };
+    let tail = if e.fraction <= DOMAIN_RANGE_SLACK {
+        " (within the allowance for rounding; not out of domain by itself)"
+    } else {
+        ""
+    };
+    format!(
+        "{} = {} is {side} the training range {} to {} by {} ({:.0} % of the range){tail}",
+        e.input,
+        fmt_num(e.value),
+        fmt_num(e.min),
+        fmt_num(e.max),
+        fmt_num(e.by.abs()),
+        100.0 * e.fraction
+    )
+}
+
+/// Run the guard on one row: `raw` holds the row's values in model input
+/// order; `reference` is the model's stored training reference (`None`
+/// for a model file written before mettle stored one: only the range check
+/// runs, and a note says so).
+pub fn check(
+    inputs: &[InputColumn],
+    reference: Option<&DomainReference>,
+    raw: ArrayView1<f64>,
+) -> DomainVerdict {
+    let outside_range = range_excesses(inputs, raw);
+    let mut notes: Vec<String> = outside_range.iter().map(range_note).collect();
+    let mut in_domain = outside_range
+        .iter()
+        .all(|e| e.fraction <= DOMAIN_RANGE_SLACK);
+    let scaled: Option<Vec<f64>> = inputs
+        .iter()
+        .zip(raw.iter())
+        .map(|(inp, &v)| inp.scaling.scale(v))
+        .collect();
+    let (mut distance_ratio, mut support) = (None, None);
+    match (reference, scaled) {
+        (None, _) => notes.push(
+            "joint-domain check not run: the model file holds no training reference \
+             (retrain with this version to get it)"
+                .into(),
+        ),
+        (Some(_), None) => {
+            in_domain = false;
+            notes.push(
+                "joint-domain check impossible: an input taken through its logarithm is at or below zero"
+                    .into(),
+            );
+        }
+        (Some(r), Some(s)) if r.n_inputs == s.len() => {
+            let m = r.measure(&s);
+            distance_ratio = Some(m.ratio);
+            support = Some(m.support);
+            if m.ratio > DOMAIN_DISTANCE_FACTOR {
+                in_domain = false;
+                notes.push(joint_note(inputs, r, &m));
+            }
+        }
+        (Some(r), Some(s)) => notes.push(format!(
+            "joint-domain check not run: the stored reference has {} inputs, the model {}",
+            r.n_inputs,
+            s.len()
+        )),
+    }
+    DomainVerdict {
+        in_domain,
+        outside_range,
+        distance_ratio,
+        support,
+        notes,
+    }
+}
+
+/// The note for a failed joint-domain check, naming the inputs that make up
+/// most (at least 60 %, at most three inputs) of the gap.
+fn joint_note(inputs: &[InputColumn], r: &DomainReference, m: &JointMeasure) -> String {
+    let mut order: Vec<usize> = (0..m.share.len()).collect();
+    order.sort_by(|&a, &b| m.share[b].total_cmp(&m.share[a]));
+    let mut named = Vec::new();
+    let mut cum = 0.0;
+    for &j in order.iter().take(3) {
+        named.push(format!("{} ({:.0} %)", inputs[j].name, 100.0 * m.share[j]));
+        cum += m.share[j];
+        if cum >= 0.6 {
+            break;
+        }
+    }
+    format!(
+        "no training rows near this combination of inputs: the nearest (k = {}) is {:.2} times as \
+         far as the usual distance between training rows (99th percentile; limit {:.2}); {} \
+         training rows within that distance; the gap lies mostly in {}",
+        r.k,
+        m.ratio,
+        DOMAIN_DISTANCE_FACTOR,
+        m.support,
+        named.join(", ")
+    )
+}
+
+/// A number with up to 4 significant decimals, without trailing zeros.
+pub fn fmt_num(v: f64) -> String {
+    let s = if v.abs() >= 1000.0 || v.fract() == 0.0 {
+        format!("{v:.0}")
+    } else {
+        let digits = (4 - v.abs().log10().ceil() as i32).clamp(1, 8) as usize;
+        format!("{v:.digits$}")
+    };
+    if s.contains('.') {
+        s.trim_end_matches('0').trim_end_matches('.').to_string()
+    } else {
+        s
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::features::ColumnScaling;
+    use ndarray::{array, Array2};
+
+    fn input(name: &str, lo: f64, hi: f64) -> InputColumn {
+        InputColumn {
+            name: name.into(),
+            min: lo,
+            max: hi,
+            scaling: ColumnScaling::fit(&[lo, hi], false).expect("spread"),
+        }
+    }
+
+    #[test]
+    fn numbers_are_short_and_exact_enough() {
+        assert_eq!(fmt_num(0.12), "0.12");
+        assert_eq!(fmt_num(28.0), "28");
+        assert_eq!(fmt_num(1.23456), "1.235");
+        assert_eq!(fmt_num(-40.0), "-40");
+        assert_eq!(fmt_num(0.0005), "0.0005");
+    }
+
+    #[test]
+    fn type7_quantile_interpolates() {
+        // R's quantile(c(1,2,3,4), 0.5, type = 7) = 2.5 (common practice, no source)
+        assert!((quantile_sorted(&[1.0, 2.0, 3.0, 4.0], 0.5) - 2.5).abs() < 1e-15);
+        assert!((quantile_sorted(&[1.0, 2.0, 3.0, 4.0], 0.99) - 3.97).abs() < 1e-12);
+    }
+
+    /// Training rows on the diagonal of the unit square (two perfectly
+    /// correlated inputs): the corner (high, low) is inside both ranges but
+    /// in the empty half of the joint space, and the guard must say so and
+    /// name both inputs; a point on the diagonal passes.
+    #[test]
+    fn a_hole_inside_every_range_is_flagged() {
+        let n = 101;
+        let mut raw = Array2::zeros((n, 2));
+        for i in 0..n {
+            let t = i as f64 / (n - 1) as f64;
+            raw[[i, 0]] = t;
+            raw[[i, 1]] = t;
+        }
+        let inputs = vec![input("mn", 0.0, 1.0), input("ni", 0.0, 1.0)];
+        let scaled = raw.mapv(|v| v - 0.5);
+        let r = DomainReference::build(scaled.view()).expect("rows");
+        let on = check(&inputs, Some(&r), array![0.505, 0.505].view());
+        assert!(on.in_domain, "{:?}", on.notes);
+        assert!(on.support.expect("run") >= DOMAIN_K);
+        let off = check(&inputs, Some(&r), array![0.9, 0.1].view());
+        assert!(!off.in_domain);
+        assert!(off.outside_range.is_empty());
+        let note = off.notes.join(" ");
+        assert!(note.contains("mn") && note.contains("ni"), "{note}");
+        assert_eq!(off.support, Some(0));
+    }
+
+    #[test]
+    fn range_excess_in_units_and_share_with_slack() {
+        let inputs = vec![input("c", 0.1, 0.3)];
+        let v = check(&inputs, None, array![0.34].view());
+        assert!(!v.in_domain);
+        let e = &v.outside_range[0];
+        assert!((e.by - 0.04).abs() < 1e-12 && (e.fraction - 0.2).abs() < 1e-12);
+        assert!(
+            v.notes[0].contains("above the training range 0.1 to 0.3 by 0.04 (20 % of the range)")
+        );
+        // 1 % beyond: noted, still in domain
+        let v = check(&inputs, None, array![0.302].view());
+        assert!(v.in_domain && v.notes[0].contains("allowance"));
+    }
+}
