@@ -106,6 +106,14 @@ pub const FEW_DISTINCT_VALUES: usize = 4;
 /// practice, no source.
 pub const OUT_OF_LINE_Z: f64 = 2.5;
 
+/// An input whose correlation with an earlier input is this close to ±1 is
+/// a copy or a linear restatement of it (the same quantity in other units,
+/// or a sum that repeats a column): it is set aside, as it carries nothing
+/// the earlier column does not. Printed decimals of an exact linear map
+/// leave |r| within about 1e-15 of 1; a measured quantity stays far from
+/// 1e-9 of it.
+pub const COLLINEAR_ONE_MINUS_R: f64 = 1e-9;
+
 /// Neighbours counted by the joint-domain check: the distance from a query
 /// to its k-th nearest training row (whitened scaled inputs). Measured on
 /// the shared concrete data for k = 1, 2, 3, 5, 8 at equal false flags,

@@ -10,8 +10,8 @@
 mod common;
 
 use common::{
-    describe, stderr, weld_csv, weld_schema, welds, write_parquet, ParquetColumn, Workdir,
-    INTERNAL_UNITS,
+    describe, set_cell, stderr, weld_csv, weld_schema, welds, write_parquet, ParquetColumn,
+    Workdir, INTERNAL_UNITS,
 };
 use serde_json::Value;
 
@@ -31,17 +31,6 @@ fn weld_files(edit: impl FnOnce(&mut Vec<String>)) -> Workdir {
     edit(&mut lines);
     w.write("welds.csv", lines.join("\n") + "\n");
     w
-}
-
-/// Set column `col` (a header name) of data row `row` (1-based) to `cell`.
-fn set_cell(lines: &mut [String], row: usize, col: &str, cell: &str) {
-    let k = lines[0]
-        .split(',')
-        .position(|h| h == col)
-        .unwrap_or_else(|| panic!("no column {col}"));
-    let mut cells: Vec<String> = lines[row].split(',').map(str::to_string).collect();
-    cells[k] = cell.to_string();
-    lines[row] = cells.join(",");
 }
 
 /// `mettle train --data DATA --schema weld.toml --out m.json`, quick

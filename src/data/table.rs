@@ -4,6 +4,8 @@
 //! cell is reported with its file, row and column rather than as a parser
 //! message about an inferred type.
 
+mod shape;
+
 use std::path::{Path, PathBuf};
 
 use polars::prelude::*;
@@ -216,7 +218,14 @@ impl Table {
         if meta.len() == 0 {
             return Err(read_error(path, "the file is empty"));
         }
-        let df = match FileFormat::sniff(path)? {
+        let format = FileFormat::sniff(path)?;
+        // rows the shape check counted: the reader underneath may add a
+        // row of empty cells for a trailing blank line
+        let csv_rows = match format {
+            FileFormat::Csv => Some(shape::check(path)?.n_rows),
+            FileFormat::Parquet => None,
+        };
+        let df = match format {
             FileFormat::Csv => CsvReadOptions::default()
                 .with_has_header(true)
                 .with_infer_schema_length(Some(0))
@@ -228,7 +237,21 @@ impl Table {
                 .and_then(|f| ParquetReader::new(f).finish()),
         }
         .map_err(|e| read_error(path, polars_message(&e)))?;
-        Self::from_frame(path, &df)
+        let df = match csv_rows {
+            Some(n) if df.height() > n => df.slice(0, n),
+            _ => df,
+        };
+        let table = Self::from_frame(path, &df)?;
+        if table.n_rows == 0 {
+            return Err(read_error(
+                path,
+                format!(
+                    "the table has a header ({}) but no data rows",
+                    table.names.join(", ")
+                ),
+            ));
+        }
+        Ok(table)
     }
 
     fn from_frame(path: &Path, df: &DataFrame) -> Result<Table> {

@@ -161,6 +161,25 @@ impl Model {
                         i + 1
                     ));
                 }
+                if let Some(nm) = &m.noise {
+                    let k = crate::net::Architecture::new(d, nm.n_hidden).n_params();
+                    if nm.weights.len() != k
+                        || nm.posterior_cov.nrows() != k
+                        || nm
+                            .weights
+                            .iter()
+                            .chain(nm.posterior_cov.iter())
+                            .any(|v| !v.is_finite())
+                    {
+                        return Err(format!(
+                            "target '{}' member {}: its noise network has {} weights and a covariance of size {} (expected {k} each, all finite)",
+                            t.name,
+                            i + 1,
+                            nm.weights.len(),
+                            nm.posterior_cov.nrows()
+                        ));
+                    }
+                }
             }
         }
         Ok(())

@@ -192,6 +192,13 @@ impl Model {
         let mut input_values = Vec::new();
         for name in &offered {
             let values = table.numeric(name)?;
+            if let Some(reason) = restates(&values, &inputs, &input_values) {
+                set_aside.push(SetAside {
+                    name: name.clone(),
+                    reason,
+                });
+                continue;
+            }
             match ColumnScaling::fit(&values, spec.auto_log_inputs) {
                 Some(scaling) => {
                     let (min, max) = min_max(&values);
@@ -344,6 +351,32 @@ impl Model {
             domain: DomainReference::build(x.view()),
         })
     }
+}
+
+/// Why `values` adds nothing to the inputs already kept, if it does not: an
+/// exact copy of one, or perfectly collinear with one (|r| within
+/// [`crate::prec::COLLINEAR_ONE_MINUS_R`] of 1, Pearson's r).
+/// Only copies and linear restatements go: a strong but imperfect
+/// correlation is left to the evidence framework (and named by `audit`).
+fn restates(values: &[f64], kept: &[InputColumn], kept_values: &[Vec<f64>]) -> Option<String> {
+    for (col, other) in kept.iter().zip(kept_values) {
+        if other == values {
+            return Some(format!(
+                "a copy of '{}' (the same value in every row)",
+                col.name
+            ));
+        }
+        let Some(r) = crate::data::audit::pearson(values, other) else {
+            continue;
+        };
+        if 1.0 - r.abs() <= crate::prec::COLLINEAR_ONE_MINUS_R {
+            return Some(format!(
+                "perfectly collinear with '{}' (r = {r:.12}): a linear restatement of it",
+                col.name
+            ));
+        }
+    }
+    None
 }
 
 fn min_max(values: &[f64]) -> (f64, f64) {

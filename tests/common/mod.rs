@@ -33,6 +33,33 @@ pub fn fixture_csv(n: usize, seed: u64) -> String {
     s
 }
 
+/// Set column `col` (a header name) of data row `row` (1-based) of a CSV
+/// split into lines (header first) to `cell`.
+pub fn set_cell(lines: &mut [String], row: usize, col: &str, cell: &str) {
+    let k = lines[0]
+        .split(',')
+        .position(|h| h == col)
+        .unwrap_or_else(|| panic!("no column {col}"));
+    let mut cells: Vec<String> = lines[row].split(',').map(str::to_string).collect();
+    cells[k] = cell.to_string();
+    lines[row] = cells.join(",");
+}
+
+/// CSV text with its header replaced by `header` and every data row by
+/// `row(cells)` (each line gets its newline back).
+pub fn with_rows(text: &str, header: &str, row: impl Fn(&[f64]) -> String) -> String {
+    let mut s = format!("{header}\n");
+    for l in text.lines().skip(1) {
+        let v: Vec<f64> = l
+            .split(',')
+            .map(|c| c.parse().expect("a numeric cell"))
+            .collect();
+        s.push_str(&row(&v));
+        s.push('\n');
+    }
+    s
+}
+
 /// A private temporary directory in which the binary is run.
 pub struct Workdir {
     dir: tempfile::TempDir,
