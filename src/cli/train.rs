@@ -200,14 +200,20 @@ pub fn run(a: TrainArgs) -> anyhow::Result<()> {
         }
         for t in &model.targets {
             let c = &t.committee;
-            let noise: f64 = c.members.iter().map(|m| m.noise_sd()).sum::<f64>()
-                / c.members.len() as f64
-                * t.scaling.width();
+            // the median over the training rows where recorded (it varies
+            // with the inputs under varying noise), else the members' 1/√β
+            let noise: f64 = t.training_summary.as_ref().map_or_else(
+                || {
+                    c.members.iter().map(|m| m.noise_sd()).sum::<f64>() / c.members.len() as f64
+                        * t.scaling.width()
+                },
+                |s| s.noise_sd.median,
+            );
             let failed = c.candidates.iter().filter(|c| c.failure.is_some()).count();
             let ns = &c.selection.noise;
             let noise_kind = match (ns.varying, ns.constant_nlpd, ns.varying_nlpd) {
                 (true, Some(cn), Some(vn)) => format!(
-                    "noise varies with the inputs (held-out NLPD {vn:.3} against {cn:.3} with constant noise), typical noise sd"
+                    "noise varies with the inputs (held-out NLPD {vn:.3} against {cn:.3} with constant noise), median noise sd"
                 ),
                 (false, Some(cn), Some(vn)) => format!(
                     "constant noise (held-out NLPD {cn:.3} against {vn:.3} with varying noise), noise sd"
@@ -223,9 +229,14 @@ pub fn run(a: TrainArgs) -> anyhow::Result<()> {
                 c.members.iter().map(|m| m.n_hidden.to_string()).collect::<Vec<_>>().join(","),
                 c.selection.nlpd_by_size[c.selection.n_members - 1],
                 noise,
-                match t.transform.name() {
-                    "none" => String::new(),
-                    other => format!(" (both on the {other} scale the target is learnt on)"),
+                match (t.transform.name(), t.training_summary.is_some()) {
+                    ("none", _) => String::new(),
+                    (other, true) => format!(
+                        " (NLPD on the {other} scale the target is learnt on, noise sd in its own units)"
+                    ),
+                    (other, false) => {
+                        format!(" (both on the {other} scale the target is learnt on)")
+                    }
                 },
                 failed,
                 c.candidates.len()
