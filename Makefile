@@ -68,10 +68,17 @@ demo: build
 	$(BIN) screen --model models/fellhaven_welds.json --input datasets/fellhaven_candidates.csv \
 	  --require 'uts_mpa>=620' --require 'charpy_j>=47@test_temp_c=-40' --costs datasets/fellhaven_costs.toml
 	@echo "== 8. design: search C, Mn, Ni, Mo for diverse in-domain candidates (cost-vs-probability chart)"
-	$(BIN) design --model models/fellhaven_welds.json --base datasets/fellhaven_candidates.csv \
+	$(BIN) design --model models/fellhaven_welds.json --base datasets/fellhaven_new_welds.csv \
 	  --require 'uts_mpa>=620' --require 'charpy_j>=47@test_temp_c=-40' --costs datasets/fellhaven_costs.toml \
 	  --vary c_wt=0.05:0.11 --vary mn_wt=0.9:1.7 --vary ni_wt=0.2:3.4 --vary mo_wt=0.02:0.45 \
 	  --count 6 --svg $(DEMO)/design_front.svg
+	@echo "== 9. UTS and toughness against nickel for the first new weld, with bands; the stretch outside the data is marked"
+	$(BIN) sweep --model models/fellhaven_welds.json --vary ni_wt=0:3.5:15 --base datasets/fellhaven_new_welds.csv \
+	  --out $(DEMO)/ni_sweep.csv --plot $(DEMO)/ni_sweep.svg
+	@echo "== 10. Charpy transition curve of a lean, high-heat-input variant of that weld: T27J, T47J and P(47 J at -40 C)"
+	$(BIN) transition --model models/fellhaven_welds.json --temperature-input test_temp_c --target charpy_j \
+	  --base datasets/fellhaven_new_welds.csv --set ni_wt=0.3 --set heat_input_kj_mm=2.8 \
+	  --from -80 --to 20 --energy 27,47 --require 47@-40 --plot $(DEMO)/transition.svg
 	@echo "== outputs are in $(DEMO)/"
 
 # Regenerate the bundled invented data and the bundled model (deterministic: same seeds,
