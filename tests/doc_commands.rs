@@ -1,7 +1,9 @@
 //! Every `mettle …` command shown in the README and the user guides runs.
 //!
 //! The command lines are taken from the fenced code blocks of each file, in
-//! document order, and run through the real binary in a scratch folder that
+//! document order (`mettle …`, or `$ mettle …` before pasted output, with
+//! `\` continuation lines joined; a synopsis with `[…]` or `...` is not a
+//! command), and run through the real binary in a scratch folder that
 //! sees the repository's `datasets/` and `models/` (the bundled invented
 //! data) and has an empty `out/`. A command that exits non-zero, or any
 //! panic, fails the test with the file and line of the command.
@@ -13,46 +15,64 @@ use std::path::{Path, PathBuf};
 use common::{describe, Workdir};
 
 /// Files whose commands must run, in the order a reader meets them.
-const DOCUMENTS: [&str; 4] = [
+const DOCUMENTS: [&str; 5] = [
     "README.md",
     "models/README.md",
     "docs/guide-qa.md",
     "docs/guide-researcher.md",
+    "docs/screening.md",
 ];
 
 /// `(line number, arguments after "mettle")` of every command in `text`.
 fn commands(text: &str) -> Vec<(usize, Vec<String>)> {
     let mut found = Vec::new();
     let mut in_block = false;
-    for (i, line) in text.lines().enumerate() {
-        let t = line.trim();
+    let lines: Vec<&str> = text.lines().collect();
+    let mut i = 0;
+    while i < lines.len() {
+        let t = lines[i].trim();
+        let start = i + 1;
+        i += 1;
         if t.starts_with("```") {
             in_block = !in_block;
             continue;
         }
-        if in_block {
-            if let Some(rest) = t.strip_prefix("mettle ") {
-                assert!(
-                    !rest.contains('"') && !rest.ends_with('\\'),
-                    "line {}: keep documented commands on one line, quoting only with '…'",
-                    i + 1
-                );
-                // a shell would strip the single quotes around a token
-                let args: Vec<String> = rest
-                    .split_whitespace()
-                    .map(|a| {
-                        let quoted = a.len() >= 2 && a.starts_with('\'') && a.ends_with('\'');
-                        assert!(
-                            quoted || !a.contains('\''),
-                            "line {}: a quoted argument may not hold spaces",
-                            i + 1
-                        );
-                        a.trim_matches('\'').to_string()
-                    })
-                    .collect();
-                found.push((i + 1, args));
-            }
+        let Some(first) = t
+            .strip_prefix("$ mettle ")
+            .or_else(|| t.strip_prefix("mettle "))
+        else {
+            continue;
+        };
+        if !in_block {
+            continue;
         }
+        let mut command = first.to_string();
+        while command.ends_with('\\') && i < lines.len() {
+            command.pop();
+            command.push(' ');
+            command.push_str(lines[i].trim());
+            i += 1;
+        }
+        if command.contains(" [") || command.contains("...") {
+            continue; // a synopsis, not a command
+        }
+        assert!(
+            !command.contains('"'),
+            "line {start}: quote documented arguments only with '…'"
+        );
+        // a shell would strip the single quotes around a token
+        let args: Vec<String> = command
+            .split_whitespace()
+            .map(|a| {
+                let quoted = a.len() >= 2 && a.starts_with('\'') && a.ends_with('\'');
+                assert!(
+                    quoted || !a.contains('\''),
+                    "line {start}: a quoted argument may not hold spaces"
+                );
+                a.trim_matches('\'').to_string()
+            })
+            .collect();
+        found.push((start, args));
     }
     found
 }
@@ -82,6 +102,6 @@ fn documented_commands_run() {
             n += 1;
         }
     }
-    // the README alone shows seven; a silent parse failure must not pass
-    assert!(n >= 15, "only {n} documented commands found");
+    // the README alone shows eleven; a silent parse failure must not pass
+    assert!(n >= 20, "only {n} documented commands found");
 }
