@@ -369,6 +369,16 @@ fn corpus(m: &Models) -> Vec<Case> {
             &["d.parquet"],
         ),
         case(
+            "Parquet metadata the decoder panics on (found by tests/fuzz.rs)",
+            vec![(
+                "d.parquet",
+                bytes(include_bytes!("corpus/found/parquet_bad_metadata.parquet")),
+            )],
+            train("d.parquet"),
+            2,
+            &["d.parquet", "Parquet file is damaged"],
+        ),
+        case(
             "data file does not exist",
             vec![],
             train("absent.csv"),

@@ -225,18 +225,25 @@ impl Table {
             FileFormat::Csv => Some(shape::check(path)?.n_rows),
             FileFormat::Parquet => None,
         };
+        let polars_error = |e: PolarsError| read_error(path, polars_message(&e));
         let df = match format {
             FileFormat::Csv => CsvReadOptions::default()
                 .with_has_header(true)
                 .with_infer_schema_length(Some(0))
                 .with_raise_if_empty(true)
                 .try_into_reader_with_file_path(Some(path.to_path_buf()))
-                .and_then(|r| r.finish()),
-            FileFormat::Parquet => std::fs::File::open(path)
-                .map_err(PolarsError::from)
-                .and_then(|f| ParquetReader::new(f).finish()),
-        }
-        .map_err(|e| read_error(path, polars_message(&e)))?;
+                .and_then(|r| r.finish())
+                .map_err(polars_error)?,
+            FileFormat::Parquet => {
+                let f = std::fs::File::open(path).map_err(|source| Error::Io {
+                    path: path.display().to_string(),
+                    source,
+                })?;
+                contain_panic(move || ParquetReader::new(f).finish())
+                    .map_err(|m| read_error(path, format!("the Parquet file is damaged ({m})")))?
+                    .map_err(polars_error)?
+            }
+        };
         let df = match csv_rows {
             Some(n) if df.height() > n => df.slice(0, n),
             _ => df,
@@ -556,6 +563,30 @@ fn parse_number(s: &str) -> Option<f64> {
 }
 
 /// A polars error as one line.
+/// Run a decoder that panics on some damaged files instead of returning an
+/// error (the Parquet metadata reader of polars does, found by
+/// tests/fuzz.rs), turning the panic into its message. While it runs the
+/// panic hook is silenced, so that the library prints nothing; a lock
+/// keeps two such calls from restoring each other's hook.
+fn contain_panic<T>(f: impl FnOnce() -> T) -> std::result::Result<T, String> {
+    static HOOK: std::sync::Mutex<()> = std::sync::Mutex::new(());
+    let guard = HOOK
+        .lock()
+        .unwrap_or_else(std::sync::PoisonError::into_inner);
+    let previous = std::panic::take_hook();
+    std::panic::set_hook(Box::new(|_| {}));
+    let result = std::panic::catch_unwind(std::panic::AssertUnwindSafe(f));
+    std::panic::set_hook(previous);
+    drop(guard);
+    result.map_err(|payload| {
+        payload
+            .downcast_ref::<&str>()
+            .map(|s| s.to_string())
+            .or_else(|| payload.downcast_ref::<String>().cloned())
+            .unwrap_or_else(|| "the decoder stopped".to_string())
+    })
+}
+
 fn polars_message(e: &PolarsError) -> String {
     e.to_string()
         .lines()

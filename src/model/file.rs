@@ -182,6 +182,33 @@ impl Model {
                 }
             }
         }
+        if let Some(dom) = &self.domain {
+            let consistent = dom.n_inputs == d
+                && dom.mean.len() == d
+                && d.checked_mul(d) == Some(dom.whitening.len())
+                && !dom.rows.is_empty()
+                && dom.rows.len() % d == 0
+                && dom.scaled_rows.len() == dom.rows.len()
+                && dom.k >= 1
+                && dom.reference_distance >= 0.0
+                && dom.median_distance >= 0.0
+                && dom
+                    .mean
+                    .iter()
+                    .chain(&dom.whitening)
+                    .chain(&dom.rows)
+                    .chain(&dom.scaled_rows)
+                    .chain([&dom.reference_distance, &dom.median_distance])
+                    .all(|v| v.is_finite());
+            if !consistent {
+                return Err(format!(
+                    "the stored training domain does not fit the model's {d} inputs (it holds {} inputs, {} values per row array, k = {})",
+                    dom.n_inputs,
+                    dom.rows.len(),
+                    dom.k
+                ));
+            }
+        }
         Ok(())
     }
 }
