@@ -3,7 +3,9 @@
 //! derives from the master seed). Checked through the real binary with
 //! RAYON_NUM_THREADS=1 and =2 on a small problem (150 invented rows,
 //! `--hidden 1..3 --restarts 2`, which may widen to 5: at least 6
-//! candidates, so two threads really do interleave them).
+//! candidates, so two threads really do interleave them); and the
+//! estimates of `predict` on 9000 rows (three blocks) are byte-identical
+//! on 1 and 2 threads.
 
 mod common;
 
@@ -60,4 +62,27 @@ fn model_file_is_byte_identical_for_one_and_two_threads() {
     // the comparison above is not comparing constants)
     train(&w, "other_seed.json", "6", "2");
     assert!(one != w.read("other_seed.json"));
+
+    // prediction runs in blocks of rows over the threads: 9000 rows make
+    // three blocks, and the estimates must not depend on how they are shared
+    w.write("query.csv", fixture_csv(9000, 22));
+    let estimates = |threads: &str| {
+        let args = [
+            "predict",
+            "--model",
+            "one.json",
+            "--input",
+            "query.csv",
+            "--format",
+            "csv",
+        ];
+        let mut c = w.command(&args);
+        c.env("RAYON_NUM_THREADS", threads);
+        let o = w.run_command(c);
+        assert!(o.status.success(), "{}", describe(&args, &o));
+        o.stdout
+    };
+    let (p1, p2) = (estimates("1"), estimates("2"));
+    assert!(p1.len() > 9000 * 20, "{} bytes of estimates", p1.len());
+    assert!(p1 == p2, "estimates differ between 1 and 2 threads");
 }
