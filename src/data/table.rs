@@ -313,6 +313,21 @@ impl Table {
                     ColumnData::Text(ca.iter().map(|v| v.map(str::to_string)).collect())
                 }
             };
+            let len = match &data {
+                ColumnData::Text(v) => v.len(),
+                ColumnData::Number(v) => v.len(),
+            };
+            if len != df.height() {
+                // a damaged Parquet file can decode to columns of unequal
+                // length (found by tests/fuzz.rs)
+                return Err(read_error(
+                    path,
+                    format!(
+                        "the file is damaged: column '{name}' has {len} values, the table {} rows",
+                        df.height()
+                    ),
+                ));
+            }
             names.push(name);
             columns.push(data);
         }
