@@ -458,3 +458,66 @@ fn transition_interval_contains_the_true_t27j_and_sweep_marks_the_domain() {
     ]);
     assert_eq!(bad.status.code(), Some(2), "{}", stderr(&bad));
 }
+
+/// A 2-D sweep through the real binary on the bundled model: Ni against
+/// heat input over the invented archive's planted hole (no weld with Ni
+/// 1.5–2.2 wt% and heat input above 2.5 kJ/mm; src/demo/sampling.rs, the
+/// generator's own truth). Every grid point well inside the hole (0.1 wt%
+/// Ni and 0.2 kJ/mm from its edges, where training welds lie close by) is
+/// out of domain, the CSV holds the whole grid, and the SVG map is drawn.
+#[test]
+fn sweep_map_marks_the_planted_hole_of_the_demo_archive() {
+    use mettle::demo::{HOLE_MIN_HEAT_INPUT, HOLE_NI_WT};
+    let repo = PathBuf::from(env!("CARGO_MANIFEST_DIR"));
+    let w = Workdir::new();
+    let model = repo.join("models/fellhaven_welds.json");
+    let base = repo.join("datasets/fellhaven_new_welds.csv");
+    w.ok(&[
+        "sweep",
+        "--model",
+        model.to_str().expect("utf-8"),
+        "--vary",
+        "ni_wt=0.5:3.0:11",
+        "--vary",
+        "heat_input_kj_mm=1.0:3.4:9",
+        "--base",
+        base.to_str().expect("utf-8"),
+        "--out",
+        "map.csv",
+        "--plot",
+        "map.svg",
+    ]);
+    let table = Table::read(&w.path("map.csv")).expect("map CSV");
+    let ni = table.numeric("ni_wt").expect("ni column");
+    let hi = table
+        .numeric("heat_input_kj_mm")
+        .expect("heat input column");
+    assert_eq!(ni.len(), 11 * 9);
+    let text = String::from_utf8(w.read("map.csv")).expect("utf-8");
+    let header: Vec<&str> = text.lines().next().expect("header").split(',').collect();
+    let col = header
+        .iter()
+        .position(|h| *h == "in_domain")
+        .expect("in_domain column");
+    let mut inside_hole = 0;
+    for (k, line) in text.lines().skip(1).enumerate() {
+        let cells: Vec<&str> = line.split(',').collect();
+        let in_hole = ni[k] > HOLE_NI_WT.0 + 0.1
+            && ni[k] < HOLE_NI_WT.1 - 0.1
+            && hi[k] > HOLE_MIN_HEAT_INPUT + 0.2;
+        if in_hole {
+            inside_hole += 1;
+            assert_eq!(
+                cells[col], "false",
+                "Ni {} wt%, heat input {} kJ/mm lies in the hole but is in domain",
+                ni[k], hi[k]
+            );
+        }
+    }
+    assert!(
+        inside_hole >= 6,
+        "only {inside_hole} grid points in the hole"
+    );
+    let svg = String::from_utf8(w.read("map.svg")).expect("utf-8");
+    assert!(svg.trim_start().starts_with("<svg") && svg.trim_end().ends_with("</svg>"));
+}

@@ -1,7 +1,7 @@
 //! The domain guard: is a query row inside what the training data can vouch
 //! for?
 //!
-//! Three checks, each turned into plain-language notes that name the inputs
+//! Four checks, each turned into plain-language notes that name the inputs
 //! responsible (docs/domain.md explains every verdict and how its threshold
 //! was set):
 //!
@@ -35,7 +35,16 @@
 //!    k-nearest-neighbour novelty detection (common practice, no source). The inputs named are those that make up most of
 //!    the squared distance to the k nearest rows.
 //!    Repeated rows (replicate tests) count once.
-//! 3. **Support.** How many distinct training rows lie within the reference
+//! 3. **Pairs of inputs.** With many inputs a hole in two of them is
+//!    diluted in the joint distance by all the others. For every pair of
+//!    inputs a G × G grid over the two scaled training ranges marks the
+//!    cells holding a training row ([`PairGrid`]); the row is out of the
+//!    joint domain when, for some pair, its cell and the cells within
+//!    [`DOMAIN_PAIR_RADIUS`](crate::prec::DOMAIN_PAIR_RADIUS) of it are
+//!    all empty (G from the row count, [`pair_cells`]). One look-up of
+//!    (2r + 1)² bits per pair and query. Histogram-based novelty detection
+//!    on low-dimensional projections (common practice, no source).
+//! 4. **Support.** How many distinct training rows lie within the reference
 //!    distance D of the query (zero for a row the joint check rejects at
 //!    k = 1, f = 1; a handful for a row inside a well-covered region).
 
@@ -50,8 +59,8 @@ use serde::{Deserialize, Serialize};
 
 use crate::model::InputColumn;
 use crate::prec::{
-    DOMAIN_DISTANCE_FACTOR, DOMAIN_EIGEN_FLOOR, DOMAIN_K, DOMAIN_RANGE_SLACK,
-    DOMAIN_REFERENCE_QUANTILE,
+    DOMAIN_DISTANCE_FACTOR, DOMAIN_EIGEN_FLOOR, DOMAIN_K, DOMAIN_PAIR_MAX_CELLS,
+    DOMAIN_PAIR_RADIUS, DOMAIN_PAIR_ROWS_PER_CELL, DOMAIN_RANGE_SLACK, DOMAIN_REFERENCE_QUANTILE,
 };
 
 /// What the model file keeps of the training inputs for the joint-domain
@@ -78,6 +87,112 @@ pub struct DomainReference {
     pub reference_distance: f64,
     /// Median of the same distances (for the notes).
     pub median_distance: f64,
+    /// Occupancy of every two-input projection of the training rows (the
+    /// pair check; absent in files written before it existed: the check is
+    /// then skipped).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub pairs: Option<PairGrid>,
+}
+
+/// Which cells of a coarse grid over each pair of inputs hold a training
+/// row: the pair check. Each input's scaled training range [−0.5, 0.5] is
+/// cut into `cells` equal cells; for every pair (a, b), a < b, taken in
+/// input order (a = 0, b = 1, 2, …; then a = 1, …), a bitmap of
+/// `cells × cells` bits marks the cells where at least one distinct
+/// training row falls (bit `i·cells + j` for cell i of input a and cell j
+/// of input b, packed into 64-bit words, lowest bit first).
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+pub struct PairGrid {
+    /// Cells per input.
+    pub cells: usize,
+    /// A query is out of the joint domain when no training row lies in the
+    /// block of cells within `radius` cells of its own, for some pair.
+    pub radius: usize,
+    /// One bitmap per pair.
+    pub occupied: Vec<Vec<u64>>,
+}
+
+impl PairGrid {
+    /// Words per pair bitmap.
+    pub fn words(cells: usize) -> usize {
+        (cells * cells).div_ceil(64)
+    }
+
+    /// The cell of a scaled value (values beyond the training range fall in
+    /// the end cells; the range check judges them).
+    fn cell(&self, u: f64) -> usize {
+        let c = ((u + 0.5) * self.cells as f64).floor();
+        if c.is_nan() || c < 0.0 {
+            0
+        } else {
+            (c as usize).min(self.cells - 1)
+        }
+    }
+
+    /// Build from distinct scaled rows (rows × inputs) with `cells` cells
+    /// per input and the block radius `radius`.
+    pub fn build(x: ArrayView2<f64>, cells: usize, radius: usize) -> PairGrid {
+        let d = x.ncols();
+        let cells = cells.max(1);
+        let mut g = PairGrid {
+            cells,
+            radius,
+            occupied: Vec::new(),
+        };
+        let idx: Vec<Vec<usize>> = x
+            .rows()
+            .into_iter()
+            .map(|r| r.iter().map(|&u| g.cell(u)).collect())
+            .collect();
+        for a in 0..d {
+            for b in a + 1..d {
+                let mut bits = vec![0u64; Self::words(cells)];
+                for r in &idx {
+                    let k = r[a] * cells + r[b];
+                    bits[k / 64] |= 1 << (k % 64);
+                }
+                g.occupied.push(bits);
+            }
+        }
+        g
+    }
+
+    /// The pairs (a, b) in whose projection the scaled query has no
+    /// training row within `radius` cells of its own cell.
+    pub fn empty_pairs(&self, scaled: &[f64]) -> Vec<(usize, usize)> {
+        let d = scaled.len();
+        let idx: Vec<usize> = scaled.iter().map(|&u| self.cell(u)).collect();
+        let span = |i: usize| i.saturating_sub(self.radius)..=(i + self.radius).min(self.cells - 1);
+        let mut out = Vec::new();
+        let mut p = 0;
+        for a in 0..d {
+            for b in a + 1..d {
+                let bits = &self.occupied[p];
+                p += 1;
+                let hit = span(idx[a]).any(|i| {
+                    span(idx[b]).any(|j| {
+                        let k = i * self.cells + j;
+                        bits[k / 64] >> (k % 64) & 1 == 1
+                    })
+                });
+                if !hit {
+                    out.push((a, b));
+                }
+            }
+        }
+        out
+    }
+}
+
+/// Cells per input of the pair check for `n` distinct training rows: as
+/// many that a cell would hold [`DOMAIN_PAIR_ROWS_PER_CELL`] rows on
+/// average if the rows spread evenly over a pair's square, n / G² = c, so
+/// G = ⌊√(n / c)⌋, between 2r + 1 (r = [`DOMAIN_PAIR_RADIUS`]) and
+/// [`DOMAIN_PAIR_MAX_CELLS`]. Real rows cluster, so most cells are empty
+/// and the occupied ones hold more.
+pub fn pair_cells(n: usize) -> usize {
+    let g = (n as f64 / DOMAIN_PAIR_ROWS_PER_CELL).sqrt().floor() as usize;
+    g.clamp(2 * DOMAIN_PAIR_RADIUS + 1, DOMAIN_PAIR_MAX_CELLS)
 }
 
 /// One input outside its training range.
@@ -168,6 +283,18 @@ impl DomainReference {
     /// As [`DomainReference::build`] with `k` neighbours instead of
     /// [`DOMAIN_K`] (for studies of the setting).
     pub fn build_with_k(x: ArrayView2<f64>, k: usize) -> Option<DomainReference> {
+        Self::build_with(x, k, None, DOMAIN_PAIR_RADIUS)
+    }
+
+    /// As [`DomainReference::build_with_k`] with the pair check's cells per
+    /// input (`None`: [`pair_cells`] of the distinct row count; `Some(0)`:
+    /// no pair check) and block radius given (for studies of the setting).
+    pub fn build_with(
+        x: ArrayView2<f64>,
+        k: usize,
+        cells: Option<usize>,
+        radius: usize,
+    ) -> Option<DomainReference> {
         let d = x.ncols();
         let (mean, w) = whitening(x)?;
         // repeated rows (replicate tests at one condition) count once: a
@@ -211,6 +338,10 @@ impl DomainReference {
             whitening: w.iter().copied().collect(),
             rows,
             scaled_rows: x.iter().copied().collect(),
+            pairs: match cells.unwrap_or_else(|| pair_cells(n)) {
+                0 => None,
+                g => Some(PairGrid::build(x, g, radius)),
+            },
         })
     }
 
@@ -364,6 +495,13 @@ pub fn check(
                 in_domain = false;
                 notes.push(joint_note(inputs, r, &m));
             }
+            if let Some(g) = &r.pairs {
+                let empty = g.empty_pairs(&s);
+                if !empty.is_empty() {
+                    in_domain = false;
+                    notes.push(pair_note(inputs, g, raw, &empty));
+                }
+            }
         }
         (Some(r), Some(s)) => notes.push(format!(
             "joint-domain check not run: the stored reference has {} inputs, the model {}",
@@ -403,6 +541,34 @@ fn joint_note(inputs: &[InputColumn], r: &DomainReference, m: &JointMeasure) -> 
         DOMAIN_DISTANCE_FACTOR,
         m.support,
         named.join(", ")
+    )
+}
+
+/// The note for a failed pair check, naming the first pairs whose
+/// projection is empty around the query (input order) and how many more.
+fn pair_note(
+    inputs: &[InputColumn],
+    g: &PairGrid,
+    raw: ArrayView1<f64>,
+    empty: &[(usize, usize)],
+) -> String {
+    const NAMED: usize = 3;
+    let near = |j: usize| format!("{} near {}", inputs[j].name, fmt_num(raw[j]));
+    let named: Vec<String> = empty
+        .iter()
+        .take(NAMED)
+        .map(|&(a, b)| format!("{} together with {}", near(a), near(b)))
+        .collect();
+    let more = match empty.len().saturating_sub(NAMED) {
+        0 => String::new(),
+        1 => " (and 1 more pair of inputs)".to_string(),
+        m => format!(" (and {m} more pairs of inputs)"),
+    };
+    format!(
+        "no training row has {}{more}: none within {:.0} % of either input's range \
+         of those values at once, though each may be common on its own",
+        named.join("; nor "),
+        100.0 * g.radius as f64 / g.cells as f64
     )
 }
 
@@ -477,6 +643,57 @@ mod tests {
         let note = off.notes.join(" ");
         assert!(note.contains("mn") && note.contains("ni"), "{note}");
         assert_eq!(off.support, Some(0));
+    }
+
+    /// A hole in one two-input projection among six inputs (common
+    /// practice, no source): rows on a regular lattice, none with both
+    /// `a` and `b` in the top quarter of their ranges. The pair check flags
+    /// a query there and names that pair; a query on the lattice passes;
+    /// a stored reference without the pair grid (an older file) skips it.
+    #[test]
+    fn a_hole_in_one_pair_is_flagged_and_named() {
+        let mut rows = Vec::new();
+        let lv = |i: usize| i as f64 / 4.0 - 0.5;
+        for m in 0..5usize.pow(6) {
+            let v: Vec<f64> = (0..6).map(|j| lv(m / 5usize.pow(j) % 5)).collect();
+            if !(v[0] > 0.2 && v[1] > 0.2) {
+                rows.extend(v);
+            }
+        }
+        let n = rows.len() / 6;
+        let x = Array2::from_shape_vec((n, 6), rows).expect("shape");
+        let names = ["a", "b", "c", "d", "e", "f"];
+        let inputs: Vec<InputColumn> = names.iter().map(|n| input(n, 0.0, 1.0)).collect();
+        let r = DomainReference::build(x.view()).expect("rows");
+        let g = r.pairs.as_ref().expect("pair grid");
+        assert_eq!(g.cells, pair_cells(n));
+        let hole = array![1.0, 1.0, 0.5, 0.5, 0.5, 0.5];
+        let v = check(&inputs, Some(&r), hole.view());
+        assert!(!v.in_domain);
+        let note = v.notes.join(" ");
+        assert!(
+            note.contains("no training row has a near 1 together with b near 1:"),
+            "{note}"
+        );
+        assert!(!note.contains("c near"), "{note}");
+        let on = check(
+            &inputs,
+            Some(&r),
+            array![0.75, 0.25, 0.5, 0.0, 1.0, 0.5].view(),
+        );
+        assert!(on.in_domain, "{:?}", on.notes);
+        let json = serde_json::to_string(&DomainReference {
+            pairs: None,
+            ..r.clone()
+        })
+        .expect("json");
+        assert!(!json.contains("pairs"));
+        let old: DomainReference = serde_json::from_str(&json).expect("older file");
+        assert!(old.pairs.is_none());
+        assert!(check(&inputs, Some(&old), hole.view())
+            .notes
+            .iter()
+            .all(|n| !n.contains("no training row has")));
     }
 
     #[test]

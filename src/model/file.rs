@@ -199,7 +199,16 @@ impl Model {
                     .chain(&dom.rows)
                     .chain(&dom.scaled_rows)
                     .chain([&dom.reference_distance, &dom.median_distance])
-                    .all(|v| v.is_finite());
+                    .all(|v| v.is_finite())
+                && dom.pairs.as_ref().is_none_or(|g| {
+                    g.cells >= 1
+                        && g.cells <= crate::prec::DOMAIN_PAIR_MAX_CELLS
+                        && g.radius < g.cells
+                        && g.occupied.len() == d * d.saturating_sub(1) / 2
+                        && g.occupied
+                            .iter()
+                            .all(|b| b.len() == crate::domain::PairGrid::words(g.cells))
+                });
             if !consistent {
                 return Err(format!(
                     "the stored training domain does not fit the model's {d} inputs (it holds {} inputs, {} values per row array, k = {})",
