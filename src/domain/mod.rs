@@ -157,30 +157,40 @@ impl PairGrid {
         g
     }
 
+    /// True when no cell within `rho` cells of (i, j) is occupied in `bits`.
+    fn block_empty(&self, bits: &[u64], i: usize, j: usize, rho: usize) -> bool {
+        let span = |c: usize| c.saturating_sub(rho)..=(c + rho).min(self.cells - 1);
+        !span(i).any(|x| {
+            span(j).any(|y| {
+                let k = x * self.cells + y;
+                bits[k / 64] >> (k % 64) & 1 == 1
+            })
+        })
+    }
+
     /// The pairs (a, b) in whose projection the scaled query has no
-    /// training row within `radius` cells of its own cell.
+    /// training row within `radius` cells of its own cell, the widest empty
+    /// neighbourhood first (pairs with equal widths in input order).
     pub fn empty_pairs(&self, scaled: &[f64]) -> Vec<(usize, usize)> {
         let d = scaled.len();
         let idx: Vec<usize> = scaled.iter().map(|&u| self.cell(u)).collect();
-        let span = |i: usize| i.saturating_sub(self.radius)..=(i + self.radius).min(self.cells - 1);
         let mut out = Vec::new();
         let mut p = 0;
         for a in 0..d {
             for b in a + 1..d {
                 let bits = &self.occupied[p];
                 p += 1;
-                let hit = span(idx[a]).any(|i| {
-                    span(idx[b]).any(|j| {
-                        let k = i * self.cells + j;
-                        bits[k / 64] >> (k % 64) & 1 == 1
-                    })
-                });
-                if !hit {
-                    out.push((a, b));
+                if self.block_empty(bits, idx[a], idx[b], self.radius) {
+                    // only for the flagged pairs: how far the emptiness reaches
+                    let depth = (self.radius + 1..self.cells)
+                        .take_while(|&rho| self.block_empty(bits, idx[a], idx[b], rho))
+                        .count();
+                    out.push((depth, a, b));
                 }
             }
         }
-        out
+        out.sort_by_key(|x| std::cmp::Reverse(x.0));
+        out.into_iter().map(|(_, a, b)| (a, b)).collect()
     }
 }
 
@@ -544,8 +554,8 @@ fn joint_note(inputs: &[InputColumn], r: &DomainReference, m: &JointMeasure) -> 
     )
 }
 
-/// The note for a failed pair check, naming the first pairs whose
-/// projection is empty around the query (input order) and how many more.
+/// The note for a failed pair check, naming the pairs whose projection is
+/// empty farthest around the query and how many more there are.
 fn pair_note(
     inputs: &[InputColumn],
     g: &PairGrid,
