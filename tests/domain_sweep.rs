@@ -512,6 +512,16 @@ fn sweep_map_marks_the_planted_hole_of_the_demo_archive() {
                 "Ni {} wt%, heat input {} kJ/mm lies in the hole but is in domain",
                 ni[k], hi[k]
             );
+            // deeper than two cells of the pair grid (2/12 of each range)
+            // into the hole's heat inputs, the note names the pair itself
+            if hi[k] > HOLE_MIN_HEAT_INPUT + 0.5 {
+                let pair = format!(
+                    "ni_wt near {} together with heat_input_kj_mm near {}",
+                    mettle::domain::fmt_num(ni[k]),
+                    mettle::domain::fmt_num(hi[k])
+                );
+                assert!(line.contains(&pair), "{pair} not named: {line}");
+            }
         }
     }
     assert!(
