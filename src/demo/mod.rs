@@ -230,9 +230,9 @@ pub fn generate(params: &DemoParams) -> DemoTable {
 }
 
 /// Invented candidate compositions the alloy developer wants to screen: inputs only,
-/// at a fixed procedure (1.2 or 2.8 kJ/mm, interpass 150 °C, as-welded, tested at
-/// −40 °C). About 30 % have one or two elements outside [`TRAINING_RANGES`], and some
-/// may fall in the hole; their labels say so.
+/// variants of archive welds ([`sampling::sample_candidate`]) tested at −40 °C. About
+/// 30 % have one or two elements outside [`TRAINING_RANGES`], and some may fall in the
+/// hole; their labels say so.
 pub fn candidates(seed: u64, n: usize) -> DemoTable {
     let mut rng = Xoshiro256PlusPlus::seed_from_u64(seed);
     let mut table = DemoTable::new(&[]);

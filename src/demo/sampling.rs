@@ -287,35 +287,43 @@ pub fn sample_archive_weld<R: Rng + ?Sized>(rng: &mut R, test_temp_c: Option<f64
     }
 }
 
-/// Draws one candidate composition for screening (invented): composition broadly
-/// uniform over the training ranges, with probability 0.3 one or two elements pushed
-/// outside them; procedure fixed at either the FCAW (1.2 kJ/mm) or the SAW
-/// (2.8 kJ/mm) qualification procedure, interpass 150 °C, as-welded, tested at
-/// −40 °C. Candidates may fall in the hole — the alloy developer does not know it.
+/// Draws one candidate composition for screening (invented): a variant of an
+/// archive weld — the alloy developer starts from a consumable the archive knows —
+/// with two or three of C, Mn, Ni, Mo and Cr moved by up to 15 % of their training
+/// range, tested at −40 °C; with probability 0.3 one or two elements are pushed
+/// outside the training ranges instead. Candidates may fall in the hole or between
+/// the archive's clusters — the alloy developer does not know it.
 pub fn sample_candidate<R: Rng + ?Sized>(rng: &mut R) -> WeldInputs {
-    let b = [
-        (0.04, 0.12),
-        (0.2, 0.6),
-        (0.8, 1.8),
-        (0.0, 3.5),
-        (0.0, 0.5),
-        (0.0, 0.5),
-        (0.0, 0.3),
-        (0.0, 0.0),
-        (0.0, 500.0),
-        (0.0, 50.0),
-        (200.0, 600.0),
-        (40.0, 120.0),
-        (0.0, 0.0),
-        (0.0, 0.0),
+    let base = sample_archive_weld(rng, Some(-40.0));
+    let mut v = [
+        base.c_wt,
+        base.si_wt,
+        base.mn_wt,
+        base.ni_wt,
+        base.cr_wt,
+        base.mo_wt,
+        base.cu_wt,
+        0.0,
+        base.ti_ppm,
+        base.b_ppm,
+        base.o_ppm,
+        base.n_ppm,
+        base.heat_input_kj_mm,
+        base.interpass_temp_c,
     ];
-    let mut v = [0.0; 14];
-    for (vi, (lo, hi)) in v.iter_mut().zip(b.iter()) {
-        *vi = if hi > lo {
-            rng.random_range(*lo..=*hi)
-        } else {
-            *lo
-        };
+    // (index into v, training low, training high) of the elements varied
+    const VARIED: [(usize, f64, f64); 5] = [
+        (0, 0.04, 0.12),
+        (2, 0.8, 1.8),
+        (3, 0.0, 3.5),
+        (5, 0.0, 0.5),
+        (4, 0.0, 0.5),
+    ];
+    let n_varied = rng.random_range(2..=3);
+    for _ in 0..n_varied {
+        let (i, lo, hi) = VARIED[rng.random_range(0..VARIED.len())];
+        let step = 0.15 * (hi - lo) * rng.random_range(-1.0..=1.0);
+        v[i] = (v[i] + step).clamp(lo, hi);
     }
     // (index into v, low, high) of values beyond the training ranges.
     const OUTSIDE: [(usize, f64, f64); 8] = [
@@ -335,8 +343,5 @@ pub fn sample_candidate<R: Rng + ?Sized>(rng: &mut R) -> WeldInputs {
             v[i] = rng.random_range(lo..=hi);
         }
     }
-    v[12] = if rng.random::<f64>() < 0.5 { 1.2 } else { 2.8 };
-    v[13] = 150.0;
-    let co = 0.05 * rng.random::<f64>();
-    round_inputs(&assemble(&v, co, 0.0, -40.0))
+    round_inputs(&assemble(&v, base.co_wt, base.pwht_temp_c, -40.0))
 }
