@@ -15,9 +15,25 @@ use rand_xoshiro::Xoshiro256PlusPlus;
 use std::path::{Path, PathBuf};
 
 /// UCI concrete compressive strength (Yeh 1998; CC BY 4.0) with its 20
-/// fixed train/test splits, from the shared benchmark data (../shared).
+/// fixed train/test splits, from the shared benchmark data: `$METTLE_SHARED`
+/// if set, else `../shared` beside the checkout, else the build machine's
+/// `/work/shared` (a clone elsewhere, as CI makes, still finds it). Never
+/// copied into the repository.
 fn concrete_dir() -> PathBuf {
-    Path::new(env!("CARGO_MANIFEST_DIR")).join("../shared/datasets/uci/concrete")
+    let rel = "datasets/uci/concrete";
+    let candidates = [
+        std::env::var_os("METTLE_SHARED").map(PathBuf::from),
+        Some(Path::new(env!("CARGO_MANIFEST_DIR")).join("../shared")),
+        Some(PathBuf::from("/work/shared")),
+    ];
+    candidates
+        .into_iter()
+        .flatten()
+        .map(|root| root.join(rel))
+        .find(|dir| dir.join("data.csv").is_file())
+        .unwrap_or_else(|| {
+            panic!("the shared UCI concrete data is not found: set METTLE_SHARED to the folder holding datasets/uci/")
+        })
 }
 
 fn read_split(dir: &Path, name: &str) -> Vec<usize> {
