@@ -376,16 +376,26 @@ impl DomainReference {
                     .sum()
             })
             .collect();
-        let mut ds: Vec<(f64, usize)> = (0..self.n_rows())
-            .map(|i| (dist2(&white, self.row(i)), i))
-            .collect();
-        let k = self.k.min(ds.len()).max(1);
-        ds.select_nth_unstable_by(k - 1, |a, b| a.0.total_cmp(&b.0));
-        let dk = ds[k - 1].0.sqrt();
+        // one pass: the support count, and the k nearest rows kept sorted in
+        // a buffer of k (k is small), without a per-query list of all rows
+        let k = self.k.min(self.n_rows()).max(1);
         let r2 = self.reference_distance * self.reference_distance;
-        let support = ds.iter().filter(|(d, _)| *d <= r2).count();
+        let mut nearest: Vec<(f64, usize)> = Vec::with_capacity(k + 1);
+        let mut support = 0;
+        for i in 0..self.n_rows() {
+            let d2 = dist2(&white, self.row(i));
+            if d2 <= r2 {
+                support += 1;
+            }
+            if nearest.len() < k || d2 < nearest[nearest.len() - 1].0 {
+                let at = nearest.partition_point(|(d, j)| (*d, *j) < (d2, i));
+                nearest.insert(at, (d2, i));
+                nearest.truncate(k);
+            }
+        }
+        let dk = nearest[k - 1].0.sqrt();
         let mut share = vec![0.0; self.n_inputs];
-        for &(_, i) in &ds[..k] {
+        for &(_, i) in &nearest {
             let t_row = &self.scaled_rows[i * d..(i + 1) * d];
             for (s, (q, t)) in share.iter_mut().zip(scaled.iter().zip(t_row)) {
                 *s += (q - t) * (q - t);

@@ -249,7 +249,11 @@ impl Model {
             .iter()
             .map(|t| crate::domain::physical_bound(self, &t.name))
             .collect();
+        // the domain check costs one pass over the training rows per row:
+        // spread over the cores (the order of the output is kept)
+        use rayon::prelude::*;
         (0..raw.nrows())
+            .into_par_iter()
             .map(|i| {
                 let dom = self.domain_check(raw.row(i));
                 let estimates: Vec<Estimate> = per_target.iter().map(|e| e[i].clone()).collect();
