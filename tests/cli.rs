@@ -115,6 +115,9 @@ fn predict_json_has_one_object_per_row_with_error_bars_and_domain() {
         assert!((hi - (mean + Z975 * sd)).abs() <= 1e-5 * sd, "{r}");
         let in_domain = r["in_domain"].as_bool().expect("in_domain is a bool");
         let notes = r["notes"].as_array().expect("notes is an array");
+        // the safety caution travels with every estimate in a file
+        let caution = r["caution"].as_str().expect("caution is a string");
+        assert!(caution.contains("not a test result"), "{r}");
         if x1 <= 1.0 {
             assert!(in_domain && notes.is_empty(), "{r}");
             // the generator's own function: an in-domain estimate is within
@@ -198,6 +201,11 @@ fn predict_csv_and_table_carry_the_same_estimates() {
         assert_eq!(
             cells[col("in_domain")],
             r["in_domain"].to_string(),
+            "{line}"
+        );
+        assert!(
+            line.ends_with(&format!("\"{}\"", r["caution"].as_str().expect("caution")))
+                || line.ends_with(r["caution"].as_str().expect("caution")),
             "{line}"
         );
     }

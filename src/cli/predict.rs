@@ -12,7 +12,7 @@ use mettle::Model;
 use serde_json::{json, Map, Value};
 
 use super::output::{aligned, csv_field, emit, num, Format};
-use super::CAUTION;
+use super::{CAUTION, ROW_CAUTION};
 
 /// Units of the estimates.
 #[derive(Clone, Copy, Debug, PartialEq, Eq, ValueEnum)]
@@ -38,7 +38,7 @@ that scale and mapped back: it is asymmetric about the median, and interval_kind
 through the stored schema: its units are converted and its derived inputs computed from the raw \
 columns; estimates are in internal units (MPa, J, %, °C) unless --units declared.\n\n\
 JSON output is an array with one object per row: keys row, target, mean, median, sd, lo95, hi95, \
-noise_sd, model_sd, interval_kind, unit (when known), in_domain, notes (for a model with several \
+noise_sd, model_sd, interval_kind, unit (when known), in_domain, notes, caution (for a model with several \
 targets, an 'estimates' object keyed by target holds mean ... unit).\n\n\
 Estimates are not test results: qualification testing per the applicable code decides.",
     after_long_help = "Example:\n  mettle predict --model uts.json --input new_heats.csv --format json --out estimates.json"
@@ -164,6 +164,7 @@ fn to_json(cols: &[Column], rows: &[RowPrediction]) -> anyhow::Result<String> {
             }
             obj.insert("in_domain".into(), json!(r.in_domain));
             obj.insert("notes".into(), json!(r.notes));
+            obj.insert("caution".into(), json!(ROW_CAUTION));
             Value::Object(obj)
         })
         .collect();
@@ -183,6 +184,7 @@ fn to_csv(cols: &[Column], rows: &[RowPrediction]) -> String {
     }
     h.push("in_domain".into());
     h.push("notes".into());
+    h.push("caution".into());
     let mut s: String = h.iter().map(|x| csv_field(x)).collect::<Vec<_>>().join(",");
     s.push('\n');
     for (i, r) in rows.iter().enumerate() {
@@ -194,6 +196,7 @@ fn to_csv(cols: &[Column], rows: &[RowPrediction]) -> String {
         }
         cells.push(r.in_domain.to_string());
         cells.push(csv_field(&r.notes.join("; ")));
+        cells.push(csv_field(ROW_CAUTION));
         s.push_str(&cells.join(","));
         s.push('\n');
     }
