@@ -27,7 +27,9 @@ Reports rows and columns; per column the count, missing and unusable cells, min,
 unit; exact duplicate rows; replicate groups (rows with identical inputs and several measured \
 values of a target) with the pooled replicate standard deviation per target — the measured scatter \
 of repeat tests, which a model's fitted noise level should be compared with; strongly correlated \
-input pairs (|r| ≥ 0.95); outliers by the robust z-score 0.6745·(x − median)/MAD above 3.5; inputs \
+input pairs (|r| ≥ 0.95); outliers (robust z-score 0.6745·(x − median)/MAD above 3.5, and outside the fences of the \
+adjusted boxplot for skewed data, so that the long tail of a skewed column is not listed value by \
+value); inputs \
 with fewer than 4 distinct values; and a short verdict list of what to fix first.\n\n\
 With --schema the table is read as training would read it: values in internal units, and negative \
 concentrations, values outside declared bounds and compositions above 100 wt% are reported (all of \
@@ -189,7 +191,7 @@ fn to_text(r: &AuditReport) -> String {
         }
     }
     if !r.outliers.is_empty() {
-        s.push_str("\noutliers (robust z above 3.5):\n");
+        s.push_str("\noutliers (robust z above 3.5 and outside the skew-adjusted fences):\n");
         for o in r.outliers.iter().take(20) {
             s.push_str(&format!(
                 "  {} row {}: {} (z = {:.1})\n",
