@@ -293,7 +293,7 @@ pub fn train_committee(
         varying_nlpd: None,
         varying_failures: Vec::new(),
     };
-    let mut varying_members: Vec<(&Trial, VaryingFit, f64)> = Vec::new();
+    let mut varying_members: Vec<VaryingCandidate> = Vec::new();
     let mut varying_sizes: Vec<f64> = Vec::new();
     if params.noise != NoiseMode::Constant {
         let pool = max_size.min(n_members.max(VARYING_POOL_MIN));
@@ -321,7 +321,7 @@ pub fn train_committee(
                     let (m, v, _) = member.predictive(d, x_ho.view());
                     let nlpd = nlpd_scaled(&m, &v, t_ho.view()) + ln_width;
                     if nlpd.is_finite() {
-                        Ok((vf, nlpd))
+                        Ok((vf, nlpd, (m, v)))
                     } else {
                         Err(FitFailure::Diverged("non-finite held-out NLPD".into()))
                     }
@@ -331,7 +331,12 @@ pub fn train_committee(
             .collect();
         for (i, fit) in fits {
             match fit {
-                Ok((vf, nlpd)) => varying_members.push((ranked[i], vf, nlpd)),
+                Ok((fit, nlpd, heldout)) => varying_members.push(VaryingCandidate {
+                    trial: ranked[i],
+                    fit,
+                    nlpd,
+                    heldout,
+                }),
                 Err(f) => noise_sel.varying_failures.push(format!(
                     "{} hidden, restart {}: {f}",
                     ranked[i].record.n_hidden, ranked[i].record.restart
@@ -339,18 +344,14 @@ pub fn train_committee(
             }
         }
         varying_members.sort_by(|a, b| {
-            a.2.total_cmp(&b.2)
-                .then(a.0.record.n_hidden.cmp(&b.0.record.n_hidden))
-                .then(a.0.record.restart.cmp(&b.0.record.restart))
+            a.nlpd
+                .total_cmp(&b.nlpd)
+                .then(a.trial.record.n_hidden.cmp(&b.trial.record.n_hidden))
+                .then(a.trial.record.restart.cmp(&b.trial.record.restart))
         });
-        let preds: Vec<(Array1<f64>, Array1<f64>)> = varying_members
-            .iter()
-            .map(|(trial, vf, _)| {
-                let (m, v, _) = provisional_member(trial, vf).predictive(d, x_ho.view());
-                (m, v)
-            })
-            .collect();
-        let (means, vars): (Vec<_>, Vec<_>) = preds.into_iter().unzip();
+        // the held-out predictions made when each was scored
+        let (means, vars): (Vec<_>, Vec<_>) =
+            varying_members.iter().map(|c| c.heldout.clone()).unzip();
         for size in 1..=means.len() {
             let (m, v) = combine(&means[..size], &vars[..size]);
             varying_sizes.push(nlpd_scaled(&m, &v, t_ho.view()) + ln_width);
@@ -396,11 +397,11 @@ pub fn train_committee(
     let refits: Vec<std::result::Result<Member, String>> = if use_varying {
         varying_members
             .par_iter()
-            .map(|(trial, vf, nlpd)| {
-                let rec = &trial.record;
+            .map(|c| {
+                let rec = &c.trial.record;
                 fit_varying(
-                    &vf.mean,
-                    Some(&vf.noise),
+                    &c.fit.mean,
+                    Some(&c.fit.noise),
                     params.ard,
                     x.view(),
                     t.view(),
@@ -408,8 +409,8 @@ pub fn train_committee(
                     &params.fit,
                 )
                 .map(|refit| {
-                    let mut m = provisional_member(trial, &refit);
-                    m.heldout_nlpd = *nlpd;
+                    let mut m = provisional_member(c.trial, &refit);
+                    m.heldout_nlpd = c.nlpd;
                     m
                 })
                 .map_err(|f| format!("{} hidden, restart {}: {f}", rec.n_hidden, rec.restart))
@@ -478,8 +479,20 @@ pub fn train_committee(
     })
 }
 
-/// A varying-noise fit with its held-out NLPD, or why it failed.
-type VaryingOutcome = std::result::Result<(VaryingFit, f64), FitFailure>;
+/// A varying-noise fit with its held-out NLPD and held-out (mean,
+/// variance) in scaled units, or why it failed.
+type VaryingOutcome =
+    std::result::Result<(VaryingFit, f64, (Array1<f64>, Array1<f64>)), FitFailure>;
+
+/// A candidate refitted with varying noise, scored on the held-out part.
+struct VaryingCandidate<'t> {
+    trial: &'t Trial,
+    fit: VaryingFit,
+    /// Held-out NLPD (target units).
+    nlpd: f64,
+    /// Held-out predictive mean and variance (scaled units).
+    heldout: (Array1<f64>, Array1<f64>),
+}
 
 /// Candidates given a varying-noise fit: at least this many of the best,
 /// or as many as the constant-noise committee has members.
