@@ -8,6 +8,7 @@
 //!     [--datasets concrete,energy,yacht,wine-quality-red] [--splits 20]
 //!     [--hidden 1..10] [--restarts 4] [--markdown FILE]
 //!     [--noise auto|constant|varying] [--first-split 0] [--no-widen] [--max-cycles N] [--first-iters N] [--cycle-iters N]
+//!     [--max-members N] [--holdout FRACTION]
 //! ```
 //!
 //! The options after `--markdown` exist to study the engine's settings;
@@ -101,6 +102,8 @@ fn main() {
     let mut widen = true;
     let mut fit = FitSettings::default();
     let mut noise = NoiseMode::Auto;
+    let mut max_members: Option<usize> = None;
+    let mut holdout: Option<f64> = None;
     let args: Vec<String> = std::env::args().skip(1).collect();
     let mut i = 0;
     while i < args.len() {
@@ -123,6 +126,8 @@ fn main() {
                     other => panic!("--noise {other}: expected auto, constant or varying"),
                 }
             }
+            "--max-members" => max_members = Some(v.parse().expect("--max-members N")),
+            "--holdout" => holdout = Some(v.parse().expect("--holdout FRACTION")),
             "--first-split" => first_split = v.parse().expect("--first-split N"),
             "--max-cycles" => fit.max_cycles = v.parse().expect("--max-cycles N"),
             "--first-iters" => fit.first_iters = v.parse().expect("--first-iters N"),
@@ -163,6 +168,12 @@ fn main() {
                 .widen(widen)
                 .noise(noise)
                 .fit(fit.clone());
+            if let Some(m) = max_members {
+                spec.params = spec.params.max_members(m);
+            }
+            if let Some(f) = holdout {
+                spec.params = spec.params.holdout_fraction(f);
+            }
             let t0 = Instant::now();
             let model = Model::train(&tr, &spec, &Silent).expect("training");
             let dt = t0.elapsed().as_secs_f64();
@@ -181,16 +192,31 @@ fn main() {
                 z.sort_by(|a, b| b.0.total_cmp(&a.0));
                 eprintln!("  worst |z|: {:?}", &z[..3.min(z.len())]);
             }
+            if std::env::var_os("METTLE_BENCH_DIAG").is_some() {
+                // diagnostics only: the test-optimal sd scale is never used
+                let n = y.len() as f64;
+                let z2 = y
+                    .iter()
+                    .zip(&mean)
+                    .zip(&sd)
+                    .map(|((y, m), s)| ((y - m) / s).powi(2))
+                    .sum::<f64>()
+                    / n;
+                let noise_sd = pred.iter().map(|r| r.estimates[0].noise_sd).sum::<f64>() / n;
+                let model_sd = pred.iter().map(|r| r.estimates[0].model_sd).sum::<f64>() / n;
+                eprintln!("  diag: mean noise_sd {noise_sd:.4}  mean model_sd {model_sd:.4}  test-optimal sd scale {:.3}", z2.sqrt());
+            }
             let c = &model.targets[0].committee;
             eprintln!(
-                "{ds} split {k:2}: RMSE {:.3}  LL {:.3}  cov68 {:.3}  cov95 {:.3}  {:.1} s  members {} (H {})",
+                "{ds} split {k:2}: RMSE {:.3}  LL {:.3}  cov68 {:.3}  cov95 {:.3}  {:.1} s  members {} (H {}){}",
                 e.rmse,
                 -e.nlpd,
                 e.coverage_68,
                 e.coverage_95,
                 dt,
                 c.members.len(),
-                c.members.iter().map(|m| m.n_hidden.to_string()).collect::<Vec<_>>().join(",")
+                c.members.iter().map(|m| m.n_hidden.to_string()).collect::<Vec<_>>().join(","),
+                if c.selection.noise.varying { " varying" } else { " constant" }
             );
             rmse.push(e.rmse);
             ll.push(-e.nlpd);

@@ -294,6 +294,7 @@ fn the_report_has_every_section_and_chart_and_no_external_url() {
     assert!(p.first_section_text.contains("licensed engineers decide"));
     let ids: Vec<&str> = p.figures.iter().map(|f| f.0.as_str()).collect();
     for want in [
+        "fig-noise-y",
         "fig-relevance-y",
         "fig-candidates-y",
         "fig-committee-size-y",

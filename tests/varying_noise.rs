@@ -147,6 +147,44 @@ fn varying_noise_follows_the_transition_scatter() {
         );
     }
 
+    // the noise profile stored for the model card: along temp_c (the one
+    // input), each bin's median fitted noise sd against the median true sd
+    // of the same training rows (the generator's truth)
+    let profile = model
+        .target("energy_j")
+        .expect("target")
+        .training_summary
+        .as_ref()
+        .and_then(|s| s.noise_profile.clone())
+        .expect("noise profile");
+    assert_eq!(profile.input, 0);
+    assert_eq!(profile.bins.len(), mettle::explain::PROFILE_BINS);
+    let train_temps = train_rows.numeric("temp_c").expect("temps");
+    let mut mid_bin_sd = 0.0_f64;
+    for b in &profile.bins {
+        let mut truth: Vec<f64> = train_temps
+            .iter()
+            .filter(|&&t| (b.lo..=b.hi).contains(&t))
+            .map(|&t| true_sd(t))
+            .collect();
+        assert_eq!(truth.len(), b.n_rows, "bin {} to {}", b.lo, b.hi);
+        truth.sort_by(f64::total_cmp);
+        let m = truth.len();
+        let median = 0.5 * (truth[(m - 1) / 2] + truth[m / 2]);
+        assert!(
+            (b.noise_sd - median).abs() <= 0.25 * median,
+            "bin {:.0} to {:.0} °C: fitted {:.2} J, true median {median:.2} J",
+            b.lo,
+            b.hi,
+            b.noise_sd
+        );
+        mid_bin_sd = mid_bin_sd.max(b.noise_sd);
+    }
+    assert!(
+        mid_bin_sd > 2.0 * profile.bins[0].noise_sd,
+        "the transition's scatter stands out from the lower shelf's"
+    );
+
     // coverage, separately on the shelves and in the transition
     let fresh = table(3000, 2, &true_sd);
     let shelves = |t: f64| !(-60.0..=20.0).contains(&t);

@@ -17,13 +17,17 @@ use super::output::{aligned, emit, num};
 It lists the training data's fingerprint and row count, each input's training range and unit, \
 and per target: the fitted noise sd in the target's units (under noise that varies with the \
 inputs: its median, smallest and largest value over the training rows) beside the measured \
-replicate scatter of repeat tests when the training data had any; the committee members (hidden \
+replicate scatter of repeat tests when the training data had any; how the noise sd moves along \
+the most relevant input (the training rows in up to five bins of about equal count, each with \
+its median fitted noise sd and, where the bin holds repeat tests, their pooled sd, the one \
+measurement of the scatter that no model stands between); the committee members (hidden \
 units, log evidence, held-out NLPD, effective number of parameters γ); and the relevance of each \
 input from its ARD hyperparameter, σ_w = α^−½ averaged over the members, most relevant input = 1. \
 Relevance says how much the networks use an input; it is not a causal effect, a slope or a sign.\n\n\
 JSON output: an object with data_file, data_sha256, n_rows, tool_version, seed, inputs, \
 set_aside and targets; each target has name, unit, scale, n_rows, noise_sd, noise_sd_range, \
-noise_varies, replicate_sd (null without repeat tests), members (array), relevance (an object \
+noise_varies, replicate_sd (null without repeat tests), noise_profile (input, input_unit and \
+bins with lo, hi, n_rows, noise_sd and replicates; null in older model files), members (array), relevance (an object \
 input → value, or null without ARD) and relevance_note.\n\n\
 Example:\n  mettle explain --model uts.json\n  mettle explain --model uts.json --format json"
 )]
@@ -90,6 +94,39 @@ fn text(card: &ModelCard) -> String {
             ),
             None => "  measured replicate scatter: none (no repeat tests in the training rows)\n".into(),
         };
+        if let Some(p) = &t.noise_profile {
+            let iu = p
+                .input_unit
+                .as_deref()
+                .map_or(String::new(), |u| format!(" {u}"));
+            s += &format!(
+                "  noise sd along {} (the most relevant input), training rows in {} bins:\n",
+                p.input,
+                p.bins.len()
+            );
+            let rows: Vec<Vec<String>> = p
+                .bins
+                .iter()
+                .map(|b| {
+                    vec![
+                        format!("  {} to {}{iu}", num(b.lo), num(b.hi)),
+                        b.n_rows.to_string(),
+                        num(b.noise_sd),
+                        b.replicates.as_ref().map_or("-".into(), |r| {
+                            format!("{} ({} dof)", num(r.pooled_sd), r.dof)
+                        }),
+                    ]
+                })
+                .collect();
+            let h: Vec<String> = [
+                format!("  {}", p.input),
+                "rows".into(),
+                format!("noise_sd {unit}"),
+                format!("replicate_sd {unit}"),
+            ]
+            .to_vec();
+            s += &aligned(&h, &rows);
+        }
         s += &format!(
             "  search: hidden units {}..{}, {} candidates ({} discarded), {} rows to train and {} held out\n  committee of {}:\n",
             t.hidden_searched.0, t.hidden_searched.1, t.candidates.0, t.candidates.1,

@@ -15,7 +15,8 @@ pub use calibration::{calibration_curve, CalibrationPoint, CALIBRATION_LEVELS};
 pub use compare::{compare, Comparison, Disagreement, TargetComparison};
 pub use relevance::{relevance, RELEVANCE_MEANING};
 pub use summary::{
-    replicate_scatter, summarise_training, NoiseSpread, ReplicateScatter, TrainingSummary,
+    noise_profile, replicate_scatter, summarise_training, NoiseBin, NoiseProfile, NoiseSpread,
+    ReplicateScatter, TrainingSummary, PROFILE_BINS,
 };
 
 use serde::ser::SerializeMap;
@@ -87,6 +88,17 @@ impl Serialize for Relevance {
     }
 }
 
+/// The noise profile as shown on the card: the input named.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct NoiseProfileCard {
+    /// The input along which the noise sd is shown.
+    pub input: String,
+    /// Its unit, when known.
+    pub input_unit: Option<String>,
+    /// Bins from the smallest to the largest input value.
+    pub bins: Vec<NoiseBin>,
+}
+
 /// One target on the model card.
 #[derive(Clone, Debug, PartialEq, Serialize)]
 pub struct TargetCard {
@@ -118,6 +130,10 @@ pub struct TargetCard {
     /// Measured replicate scatter of the training rows (pooled sd of
     /// repeat tests), when there were repeat tests.
     pub replicate_sd: Option<ReplicateScatter>,
+    /// The fitted noise sd along the most relevant input, bin by bin, with
+    /// the replicate scatter of each bin's repeat tests (absent in model
+    /// files written before it was recorded).
+    pub noise_profile: Option<NoiseProfileCard>,
     /// Committee members.
     pub members: Vec<MemberCard>,
     /// Input relevance, most relevant = 1; `None` without ARD.
@@ -276,6 +292,19 @@ pub fn model_card(model: &Model) -> ModelCard {
                     .training_summary
                     .as_ref()
                     .and_then(|s| s.replicates.clone()),
+                noise_profile: t
+                    .training_summary
+                    .as_ref()
+                    .and_then(|s| s.noise_profile.as_ref())
+                    .and_then(|p| {
+                        let input = model.inputs.get(p.input)?;
+                        Some(NoiseProfileCard {
+                            input: input.name.clone(),
+                            input_unit: input_unit(model, &input.name)
+                                .map(|u| u.symbol().to_string()),
+                            bins: p.bins.clone(),
+                        })
+                    }),
                 members,
                 relevance_note: if relevance.is_some() {
                     RELEVANCE_MEANING.to_string()

@@ -17,6 +17,15 @@
 //!   (see [`crate::data::audit::pooled_sd`]) is stored with its degrees of
 //!   freedom. A fitted noise sd well below s_p points to overfitting; well
 //!   above, to inputs missing from the table.
+//! - the noise profile: how the fitted noise sd moves along the most
+//!   relevant input (largest ARD relevance, see [`crate::explain::relevance`];
+//!   the first input without ARD). The training rows are sorted by that
+//!   input and cut into [`PROFILE_BINS`] bins of about equal count, a value
+//!   never split between two bins; each bin keeps its input range, its row
+//!   count, the median fitted noise sd and, when the bin holds repeat tests,
+//!   their pooled sd `s_p` as above. Within a bin the two can be compared
+//!   directly: the replicate scatter is the one measurement of the noise
+//!   that no model stands between.
 
 use ndarray::ArrayView2;
 use serde::{Deserialize, Serialize};
@@ -49,6 +58,36 @@ pub struct ReplicateScatter {
     pub n_groups: usize,
 }
 
+/// Bins of the noise profile (fewer when the input takes fewer distinct
+/// values).
+pub const PROFILE_BINS: usize = 5;
+
+/// One bin of the noise profile.
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+pub struct NoiseBin {
+    /// Smallest input value in the bin (raw units).
+    pub lo: f64,
+    /// Largest input value in the bin (raw units).
+    pub hi: f64,
+    /// Training rows in the bin.
+    pub n_rows: usize,
+    /// Median fitted noise sd over those rows (target units).
+    pub noise_sd: f64,
+    /// Replicate scatter of the repeat tests in the bin, when it holds any.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub replicates: Option<ReplicateScatter>,
+}
+
+/// The fitted noise sd along one input, with the replicate scatter beside
+/// it.
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+pub struct NoiseProfile {
+    /// Index of the input (model input order).
+    pub input: usize,
+    /// Bins from the smallest to the largest input value.
+    pub bins: Vec<NoiseBin>,
+}
+
 /// What a model records about its training rows, per target.
 #[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
 pub struct TrainingSummary {
@@ -57,6 +96,10 @@ pub struct TrainingSummary {
     /// Replicate scatter, when the rows hold repeat tests.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub replicates: Option<ReplicateScatter>,
+    /// The noise sd along the most relevant input (absent in files written
+    /// before it existed).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub noise_profile: Option<NoiseProfile>,
 }
 
 /// The summary for one target: `x` the scaled training inputs of the rows
@@ -84,10 +127,67 @@ pub fn summarise_training(
                 .noise_sd
         })
         .collect();
+    let input = crate::explain::relevance(committee)
+        .and_then(|r| {
+            r.iter()
+                .enumerate()
+                .max_by(|a, b| a.1.total_cmp(b.1).then(b.0.cmp(&a.0)))
+                .map(|(i, _)| i)
+        })
+        .unwrap_or(0);
     TrainingSummary {
         noise_sd: spread(&noise),
         replicates: replicate_scatter(raw_inputs, measured),
+        noise_profile: noise_profile(input, raw_inputs, measured, &noise, PROFILE_BINS),
     }
+}
+
+/// The noise profile along input `input`: rows sorted by its value and cut
+/// into at most `n_bins` bins of about equal count (a cut moves forward to
+/// the next change of value, so equal values share a bin). `None` without
+/// rows or when the input is not in the rows.
+pub fn noise_profile(
+    input: usize,
+    raw_inputs: &[Vec<f64>],
+    measured: &[f64],
+    noise_sd: &[f64],
+    n_bins: usize,
+) -> Option<NoiseProfile> {
+    let n = raw_inputs.len().min(measured.len()).min(noise_sd.len());
+    if n == 0 || n_bins == 0 || raw_inputs.iter().any(|r| r.len() <= input) {
+        return None;
+    }
+    let mut order: Vec<usize> = (0..n).collect();
+    order.sort_by(|&a, &b| raw_inputs[a][input].total_cmp(&raw_inputs[b][input]));
+    let value = |k: usize| raw_inputs[order[k]][input];
+    let mut bins = Vec::new();
+    let mut start = 0;
+    for b in 1..=n_bins {
+        if start >= n {
+            break;
+        }
+        let mut end = if b == n_bins {
+            n
+        } else {
+            (b * n / n_bins).max(start + 1)
+        };
+        while end < n && value(end).to_bits() == value(end - 1).to_bits() {
+            end += 1;
+        }
+        let rows = &order[start..end];
+        let sds: Vec<f64> = rows.iter().map(|&i| noise_sd[i]).collect();
+        let xs: Vec<Vec<f64>> = rows.iter().map(|&i| raw_inputs[i].clone()).collect();
+        let ys: Vec<f64> = rows.iter().map(|&i| measured[i]).collect();
+        bins.push(NoiseBin {
+            lo: value(start),
+            hi: value(end - 1),
+            n_rows: rows.len(),
+            noise_sd: crate::data::audit::median(&sds).unwrap_or(f64::NAN),
+            replicates: replicate_scatter(&xs, &ys),
+        });
+        start = end;
+    }
+    Some(NoiseProfile { input, bins })
 }
 
 /// Median, min and max; NaN for no values.
@@ -151,5 +251,37 @@ mod tests {
         assert_eq!((r.dof, r.n_groups), (3, 2));
         assert_abs_diff_eq!(r.pooled_sd, (4.0_f64 / 3.0).sqrt(), epsilon = 1e-15);
         assert!(replicate_scatter(&x[5..], &y[5..]).is_none());
+    }
+
+    #[test]
+    fn profile_bins_keep_equal_values_together_and_pool_replicates_per_bin() {
+        // input 0 takes 1, 1, 1, 2, 3, 3 (rows 0..6): two bins of three rows
+        // each would cut nothing; three bins would cut between the 1s, so
+        // the first bin takes all three 1s. Rows 0 and 1 repeat each other
+        // (targets 10 and 12: pooled sd √2 by hand); rows 4 and 5 too
+        // (targets 5 and 8: sd √4.5).
+        let x: Vec<Vec<f64>> = [1.0, 1.0, 1.0, 2.0, 3.0, 3.0]
+            .iter()
+            .enumerate()
+            .map(|(i, &v)| vec![v, if i == 2 { 7.0 } else { 0.0 }])
+            .collect();
+        let y = [10.0, 12.0, 4.0, 6.0, 5.0, 8.0];
+        let sd = [1.0, 2.0, 3.0, 4.0, 5.0, 6.0];
+        let p = noise_profile(0, &x, &y, &sd, 3).expect("profile");
+        let got: Vec<(f64, f64, usize, f64)> = p
+            .bins
+            .iter()
+            .map(|b| (b.lo, b.hi, b.n_rows, b.noise_sd))
+            .collect();
+        assert_eq!(
+            got,
+            vec![(1.0, 1.0, 3, 2.0), (2.0, 2.0, 1, 4.0), (3.0, 3.0, 2, 5.5)]
+        );
+        let r0 = p.bins[0].replicates.as_ref().expect("repeats in bin 1");
+        assert_abs_diff_eq!(r0.pooled_sd, 2.0_f64.sqrt(), epsilon = 1e-15);
+        assert!(p.bins[1].replicates.is_none());
+        let r2 = p.bins[2].replicates.as_ref().expect("repeats in bin 3");
+        assert_abs_diff_eq!(r2.pooled_sd, 4.5_f64.sqrt(), epsilon = 1e-15);
+        assert!(noise_profile(5, &x, &y, &sd, 3).is_none(), "no such input");
     }
 }

@@ -31,9 +31,10 @@ use plot::{bar_svg, xy_svg, Band, Line, Mark, Points, XyChart, BLUE, GREY, ORANG
 pub const REPORT_CAUTION: &str = "These are model estimates with error bars, not test results. They support, and never replace, the qualification tests an applicable code requires; local codes and licensed engineers decide.";
 
 /// The section ids, in order.
-pub const SECTIONS: [&str; 9] = [
+pub const SECTIONS: [&str; 10] = [
     "caution",
     "model-card",
+    "noise",
     "relevance",
     "search",
     "evaluation",
@@ -237,6 +238,124 @@ fn card_section(card: &ModelCard) -> String {
     }
     s.push_str("</section>\n");
     s
+}
+
+/// 95 % interval of a standard deviation `sd` estimated with `dof`
+/// degrees of freedom from normal data: `[sd·√(ν/χ²₀.₉₇₅,ν), sd·√(ν/χ²₀.₀₂₅,ν)]`
+/// (the textbook chi-square interval for a variance, e.g. NIST/SEMATECH
+/// e-Handbook of Statistical Methods, §7.2.3.1).
+pub fn sd_interval95(sd: f64, dof: usize) -> Option<(f64, f64)> {
+    use statrs::distribution::{ChiSquared, ContinuousCDF};
+    let nu = dof as f64;
+    let chi = ChiSquared::new(nu).ok()?;
+    Some((
+        sd * (nu / chi.inverse_cdf(0.975)).sqrt(),
+        sd * (nu / chi.inverse_cdf(0.025)).sqrt(),
+    ))
+}
+
+/// The fitted noise sd along the most relevant input, with the replicate
+/// scatter of each bin's repeat tests beside it.
+fn noise_section(card: &ModelCard) -> Result<String> {
+    let mut s = String::from(
+        "<section id=\"noise\">\n<h2>Noise along the most relevant input</h2>\n\
+<p>The training rows sorted by the most relevant input and cut into bins of about equal count. \
+The line is the median fitted noise sd of each bin (the scatter the model expects of repeat \
+tests there); the triangles are the pooled sd of the repeat tests actually found in the bin, \
+with their 95 % chi-square interval. Where the line runs well below the triangles the model \
+claims less scatter than repeat tests show; well above, something the inputs do not capture \
+adds to the scatter.</p>\n",
+    );
+    for t in &card.targets {
+        let Some(p) = &t.noise_profile else {
+            s.push_str(&format!(
+                "<p>{}: this model file does not record a noise profile (written before it existed).</p>\n",
+                esc(&t.name)
+            ));
+            continue;
+        };
+        let unit = t
+            .unit
+            .clone()
+            .unwrap_or_else(|| "unit of the training file".into());
+        let mut line = Vec::new();
+        for b in &p.bins {
+            line.push((b.lo, b.noise_sd));
+            line.push((b.hi, b.noise_sd));
+        }
+        let (mut xy, mut err) = (Vec::new(), Vec::new());
+        for b in &p.bins {
+            if let Some(r) = &b.replicates {
+                xy.push((0.5 * (b.lo + b.hi), r.pooled_sd));
+                err.push(sd_interval95(r.pooled_sd, r.dof).unwrap_or((r.pooled_sd, r.pooled_sd)));
+            }
+        }
+        let chart = XyChart {
+            title: format!("Noise sd of {} along {}", t.name, p.input),
+            x_label: match p.input_unit.as_deref() {
+                Some(u) if !u.is_empty() => format!("{} ({u})", p.input),
+                _ => p.input.clone(),
+            },
+            y_label: format!("noise sd ({unit})"),
+            lines: vec![Line {
+                label: Some("fitted noise sd (median of the bin)".into()),
+                xy: line,
+                colour: BLUE,
+            }],
+            points: if xy.is_empty() {
+                vec![]
+            } else {
+                vec![Points {
+                    label: "replicate sd (95 % interval)".into(),
+                    xy,
+                    y_err: err,
+                    mark: Mark::Triangle,
+                    colour: ORANGE,
+                }]
+            },
+            ..Default::default()
+        };
+        s.push_str(&figure(
+            &format!("fig-noise-{}", id_part(&t.name)),
+            &xy_svg(&chart)?,
+            &format!(
+                "Fitted noise sd of {} along {}, bin by bin{}.",
+                t.name,
+                p.input,
+                if p.bins.iter().any(|b| b.replicates.is_some()) {
+                    ", with the repeat tests' pooled sd"
+                } else {
+                    "; the training rows hold no repeat tests to compare with"
+                }
+            ),
+        ));
+        let rows: Vec<Vec<String>> = p
+            .bins
+            .iter()
+            .map(|b| {
+                vec![
+                    format!("{} to {}", fmt(b.lo), fmt(b.hi)),
+                    b.n_rows.to_string(),
+                    fmt(b.noise_sd),
+                    b.replicates.as_ref().map_or("—".into(), |r| {
+                        format!("{} ({} dof)", fmt(r.pooled_sd), r.dof)
+                    }),
+                ]
+            })
+            .collect();
+        s.push_str(&table(
+            &[
+                &p.input,
+                "rows",
+                &format!("noise sd ({unit})"),
+                &format!("replicate sd ({unit})"),
+            ],
+            &rows,
+            Some(&format!("noise-profile-{}", id_part(&t.name))),
+        ));
+    }
+    s.push_str("</section>\n");
+    Ok(s)
 }
 
 fn relevance_section(card: &ModelCard) -> Result<String> {
@@ -445,6 +564,7 @@ pub fn report_html(model: &Model, inputs: &ReportInputs<'_>) -> Result<String> {
         esc(REPORT_CAUTION)
     ));
     h.push_str(&card_section(&card));
+    h.push_str(&noise_section(&card)?);
     h.push_str(&relevance_section(&card)?);
     h.push_str(&search_section(model, &card)?);
 
@@ -658,6 +778,7 @@ pub fn report_html(model: &Model, inputs: &ReportInputs<'_>) -> Result<String> {
 }
 
 const READING: &str = "<section id=\"reading\">\n<h2>What each view tells you</h2>\n<ul>\n\
+<li><b>Noise along the most relevant input</b>: where the scatter of the tests is large or small, and whether the model's noise level agrees with the repeat tests bin by bin.</li>\n\
 <li><b>Model card</b>: what the model was trained on (the fingerprint identifies the exact rows), the ranges it can vouch for, and how noisy it found the data. Compare the fitted noise sd with the measured replicate scatter: the model cannot honestly claim less scatter than repeat tests show.</li>\n\
 <li><b>Relevance</b>: which inputs the networks lean on. Use it to question the data (an input expected to matter that scores low may vary too little in the table), not as a causal effect.</li>\n\
 <li><b>Candidates and committee size</b>: whether the search was wide enough (the best candidates should not all sit at the largest hidden-unit count) and how much averaging several networks helped.</li>\n\
