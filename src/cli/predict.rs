@@ -65,6 +65,11 @@ pub struct PredictArgs {
     /// Write to this file (atomically) instead of standard output.
     #[arg(long, value_name = "FILE")]
     out: Option<PathBuf>,
+    /// Rows read, estimated and written at a time: fewer take less memory,
+    /// the estimates are the same.
+    #[arg(long, value_name = "N", default_value_t = PREDICT_BATCH_ROWS as u64,
+          value_parser = clap::value_parser!(u64).range(1..))]
+    batch_rows: u64,
 }
 
 /// One target as printed: name, unit, and its estimates per row.
@@ -88,7 +93,8 @@ pub fn run(a: PredictArgs) -> anyhow::Result<()> {
         .collect();
     // the input is read, estimated and written a batch at a time, so a
     // file of millions of rows is estimated in bounded memory
-    let batches = Table::read_batches(&a.input, PREDICT_BATCH_ROWS)?;
+    let rows_per_batch = usize::try_from(a.batch_rows).unwrap_or(usize::MAX);
+    let batches = Table::read_batches(&a.input, rows_per_batch)?;
     let estimate = |batch: mettle::Result<Table>| -> anyhow::Result<Batch> {
         let batch = batch?;
         let mut rows = model
