@@ -17,7 +17,8 @@
 //! 1, 2, 3) and the median reported; larger ones run once.
 //!
 //! ```text
-//! make bench-scale        # or: cargo bench --bench scale -- [--runs 3] [--max-rows 100000]
+//! make bench-scale        # or: cargo bench --bench scale -- [--runs 3] [--min-rows 0]
+//!                         #     [--max-rows 100000] [--curves both|rows|inputs]
 //!                         #     [--markdown FILE] [--svg FILE]
 //! ```
 
@@ -221,6 +222,7 @@ fn arg(args: &[String], name: &str) -> Option<String> {
 fn main() {
     let args: Vec<String> = std::env::args().skip(1).collect();
     let runs: usize = arg(&args, "--runs").map_or(3, |s| s.parse().expect("--runs N"));
+    let min_rows: usize = arg(&args, "--min-rows").map_or(0, |s| s.parse().expect("--min-rows N"));
     let max_rows: usize =
         arg(&args, "--max-rows").map_or(100_000, |s| s.parse().expect("--max-rows N"));
     let uptime = std::fs::read_to_string("/proc/loadavg").unwrap_or_default();
@@ -239,13 +241,15 @@ fn main() {
         println!("{}", t.lines().last().unwrap_or(""));
         s
     };
+    let curves = arg(&args, "--curves").unwrap_or_else(|| "both".into());
     let by_inputs: Vec<Step> = INPUTS
         .iter()
+        .filter(|_| curves != "rows")
         .map(|&d| step(INPUTS_CURVE_ROWS, d, runs))
         .collect();
     let by_rows: Vec<Step> = ROWS
         .iter()
-        .filter(|&&n| n <= max_rows)
+        .filter(|&&n| curves != "inputs" && (min_rows..=max_rows).contains(&n))
         .map(|&n| {
             step(
                 n,
