@@ -11,7 +11,7 @@ BIN  := $(CARGO_TARGET_DIR)/release/mettle
 DEMO := out/demo
 SUDO := $(shell [ "$$(id -u)" = 0 ] || echo sudo)
 
-.PHONY: all deps build demo models test lint fmt bench bench-engine clean-demo
+.PHONY: all deps build demo models test lint fmt bench bench-engine bench-scale clean-demo
 
 all: build
 
@@ -43,6 +43,11 @@ bench: build
 # speed and memory targets of the engine (training time, peak memory, prediction rate)
 bench-engine: deps
 	cargo bench --locked --bench engine_targets -- ../shared/datasets/uci
+
+# growth of training time, memory and prediction rate with rows and inputs
+# (synthetic data; about an hour on the 2-core machine; docs/benchmarks.md)
+bench-scale: deps
+	cargo bench --locked --bench scale -- --markdown out/bench-scale.md --svg out/bench-scale.svg
 
 demo: build
 	@mkdir -p $(DEMO)

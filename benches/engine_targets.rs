@@ -15,6 +15,9 @@
 //!
 //! DATA_DIR defaults to ../shared/datasets/uci.
 
+#[path = "support/memory.rs"]
+mod memory;
+
 use std::path::PathBuf;
 use std::time::Instant;
 
@@ -22,13 +25,6 @@ use mettle::data::Table;
 use mettle::model::TrainSpec;
 use mettle::observer::Silent;
 use mettle::Model;
-
-fn peak_resident_mb() -> Option<f64> {
-    let status = std::fs::read_to_string("/proc/self/status").ok()?;
-    let line = status.lines().find(|l| l.starts_with("VmHWM:"))?;
-    let kb: f64 = line.split_whitespace().nth(1)?.parse().ok()?;
-    Some(kb / 1024.0)
-}
 
 fn main() {
     let dir = std::env::args()
@@ -73,7 +69,7 @@ fn main() {
         c.selection.hidden_searched.1,
         if c.selection.noise.varying { "varying" } else { "constant" }
     );
-    match peak_resident_mb() {
+    match memory::peak_resident_mb() {
         Some(mb) => println!("memory: peak resident {mb:.0} MB after training"),
         None => println!("memory: /proc/self/status not readable"),
     }
@@ -100,7 +96,7 @@ fn main() {
         "predict: {n_rows} rows, 10 members: {pred_s:.2} s, {:.0} rows/s",
         n_rows as f64 / pred_s
     );
-    if let Some(mb) = peak_resident_mb() {
+    if let Some(mb) = memory::peak_resident_mb() {
         println!("memory: peak resident {mb:.0} MB after prediction");
     }
 }

@@ -162,3 +162,26 @@ pub const DOMAIN_PAIR_ROWS_PER_CELL: f64 = 5.0;
 /// Most cells per input of the pair check: bounds the model file (one bit
 /// per cell and pair, so 64 words per pair at most).
 pub const DOMAIN_PAIR_MAX_CELLS: usize = 64;
+
+/// Rows read, estimated and written at a time when a table is streamed
+/// through a model (`mettle predict`). Memory grows with the batch: a CSV
+/// batch is held as text cells (about 60 bytes per cell with the
+/// allocator's overhead), so 50 000 rows of 20 columns take some 60 MB,
+/// plus the estimates and their notes. Throughput hardly changes above a
+/// few thousand rows (the committee predicts in blocks of 4096 rows);
+/// docs/benchmarks.md measures the whole.
+pub const PREDICT_BATCH_ROWS: usize = 50_000;
+
+/// Most distinct training rows the joint-domain check keeps (a seeded
+/// random sample stands for more). Its build costs n² distances and every
+/// query n, and the model file stores 2 n rows: at 100 000 training rows of
+/// 30 inputs that would be 10¹⁰ distances and some 110 MB of JSON. At this
+/// cap a 30-input model stores about 6 MB for the check and a query costs
+/// 150 000 multiply-adds. Both the query's and the reference distance are
+/// measured against the same sample, so the ratio d_k(x)/D keeps its
+/// calibration; the pair check still sees every row. Models trained on
+/// fewer rows (all the bundled and benchmark ones) are unchanged.
+pub const DOMAIN_REFERENCE_MAX_ROWS: usize = 5_000;
+
+/// Seed of the sample of [`DOMAIN_REFERENCE_MAX_ROWS`] rows.
+pub const DOMAIN_REFERENCE_SEED: u64 = 0x6d65_7474_6c65;

@@ -320,6 +320,102 @@ fn evaluate_json_matches_metrics_recomputed_from_predict() {
     }
 }
 
+/// Estimated a few rows at a time (`--batch-rows`), from CSV and from the
+/// same table as Parquet, the output files hold the same rows, text and
+/// estimates (to rounding) as when the table is estimated whole, rows
+/// numbered through the file; a bad cell in
+/// a later batch is named by its row in the file (data row 4, in the
+/// second batch of 3), and no output file is left behind.
+#[test]
+fn predict_in_batches_writes_the_same_estimates_and_names_the_files_row() {
+    let w = trained();
+    let table = fixture_csv(150, 12);
+    w.write("many.csv", &table);
+    let rows: Vec<Vec<f64>> = table
+        .lines()
+        .skip(1)
+        .map(|l| l.split(',').map(|c| c.parse().expect("number")).collect())
+        .collect();
+    let column =
+        |j: usize| common::ParquetColumn::Number(rows.iter().map(|r| Some(r[j])).collect());
+    common::write_parquet(
+        &w.path("many.parquet"),
+        vec![("x1", column(0)), ("x2", column(1)), ("y", column(2))],
+    );
+    for format in ["csv", "json"] {
+        let whole = format!("whole.{format}");
+        w.ok(&[
+            "predict",
+            "--model",
+            "model.json",
+            "--input",
+            "many.csv",
+            "--format",
+            format,
+            "--out",
+            &whole,
+        ]);
+        let expect = w.read(&whole);
+        if format == "csv" {
+            let n = String::from_utf8_lossy(&expect).lines().count();
+            assert_eq!(n, 151, "a header and one line per row");
+        }
+        for input in ["many.csv", "many.parquet"] {
+            for batch in ["1", "7", "149"] {
+                let out = format!("batched_{batch}.{format}");
+                w.ok(&[
+                    "predict",
+                    "--model",
+                    "model.json",
+                    "--input",
+                    input,
+                    "--format",
+                    format,
+                    "--out",
+                    &out,
+                    "--batch-rows",
+                    batch,
+                ]);
+                if let Err(e) = common::same_up_to_rounding(&w.read(&out), &expect) {
+                    panic!("{input} in batches of {batch}: {format} differs from the whole table's: {e}");
+                }
+            }
+        }
+    }
+    let mut lines: Vec<String> = table.lines().map(str::to_string).collect();
+    common::set_cell(&mut lines, 4, "x1", "abc");
+    w.write("bad_late.csv", lines.join("\n") + "\n");
+    let args = [
+        "predict",
+        "--model",
+        "model.json",
+        "--input",
+        "bad_late.csv",
+        "--format",
+        "csv",
+        "--out",
+        "bad.csv",
+        "--batch-rows",
+        "3",
+    ];
+    let out = w.fails(&args, 2);
+    let msg = stderr(&out);
+    assert!(
+        msg.contains("bad_late.csv") && msg.contains("row 4 (line 5)") && msg.contains("'x1'"),
+        "{}",
+        describe(&args, &out)
+    );
+    assert!(
+        !w.path("bad.csv").exists(),
+        "a failed predict wrote its output"
+    );
+    assert!(
+        !w.entries().iter().any(|e| e.ends_with(".tmp")),
+        "a temporary file was left: {:?}",
+        w.entries()
+    );
+}
+
 #[test]
 fn non_numeric_cells_are_refused_naming_file_row_and_column() {
     let w = trained();

@@ -41,6 +41,17 @@ fn predict(w: &Workdir, model: &str, input: &str, units: &str) -> Vec<Value> {
         "predict", "--model", model, "--input", input, "--format", "json", "--units", units,
     ];
     let out = w.ok(&args);
+    // read, converted, derived and estimated a few rows at a time, the
+    // same rows and estimates (to rounding) come out as from the whole table
+    let mut small = args.to_vec();
+    small.extend(["--batch-rows", "3"]);
+    let batched = w.ok(&small);
+    if let Err(e) = common::same_up_to_rounding(&out.stdout, &batched.stdout) {
+        panic!(
+            "batches of 3 rows changed the estimates: {e}\n{}",
+            describe(&small, &batched)
+        );
+    }
     serde_json::from_slice(&out.stdout).unwrap_or_else(|e| panic!("{e}\n{}", describe(&args, &out)))
 }
 

@@ -1,11 +1,13 @@
 //! `mettle predict`
 
+use std::io::{BufWriter, Write};
 use std::path::PathBuf;
 
 use anyhow::Context;
 use clap::{Args, ValueEnum};
-use mettle::data::Table;
+use mettle::data::{AtomicFile, Table};
 use mettle::model::IntervalKind;
+use mettle::prec::PREDICT_BATCH_ROWS;
 use mettle::predict::{Estimate, RowPrediction};
 use mettle::units::Unit;
 use mettle::Model;
@@ -40,6 +42,10 @@ columns; estimates are in internal units (MPa, J, %, °C) unless --units declare
 JSON output is an array with one object per row: keys row, target, mean, median, sd, lo95, hi95, \
 noise_sd, model_sd, interval_kind, unit (when known), in_domain, notes, caution (for a model with several \
 targets, an 'estimates' object keyed by target holds mean ... unit).\n\n\
+Large inputs: the table is read, estimated and written a batch of rows at a time, so csv and json \
+output for millions of rows (CSV or Parquet input) take bounded memory; with --out nothing appears \
+under the name until the last row is written. The table format aligns every row, so it holds them \
+all: use csv or json for large inputs.\n\n\
 Estimates are not test results: qualification testing per the applicable code decides.",
     after_long_help = "Example:\n  mettle predict --model uts.json --input new_heats.csv --format json --out estimates.json"
 )]
@@ -59,6 +65,11 @@ pub struct PredictArgs {
     /// Write to this file (atomically) instead of standard output.
     #[arg(long, value_name = "FILE")]
     out: Option<PathBuf>,
+    /// Rows read, estimated and written at a time: fewer take less memory,
+    /// the estimates are the same.
+    #[arg(long, value_name = "N", default_value_t = PREDICT_BATCH_ROWS as u64,
+          value_parser = clap::value_parser!(u64).range(1..))]
+    batch_rows: u64,
 }
 
 /// One target as printed: name, unit, and its estimates per row.
@@ -70,10 +81,6 @@ struct Column {
 
 pub fn run(a: PredictArgs) -> anyhow::Result<()> {
     let model = Model::load(&a.model)?;
-    let table = Table::read(&a.input)?;
-    let mut rows = model
-        .predict(&table)
-        .with_context(|| format!("estimating with model {}", a.model.display()))?;
     let declared = a.units == UnitChoice::Declared;
     let cols: Vec<Column> = model
         .targets
@@ -84,37 +91,156 @@ pub fn run(a: PredictArgs) -> anyhow::Result<()> {
             kind: t.transform.interval_kind(),
         })
         .collect();
-    if declared {
-        for r in &mut rows {
-            for (e, c) in r.estimates.iter_mut().zip(&cols) {
-                if let Some(u) = c.unit {
-                    *e = e.in_unit(u);
+    // the input is read, estimated and written a batch at a time, so a
+    // file of millions of rows is estimated in bounded memory
+    let rows_per_batch = usize::try_from(a.batch_rows).unwrap_or(usize::MAX);
+    let batches = Table::read_batches(&a.input, rows_per_batch)?;
+    let estimate = |batch: mettle::Result<Table>| -> anyhow::Result<Batch> {
+        let batch = batch?;
+        let mut rows = model
+            .predict(&batch)
+            .with_context(|| format!("estimating with model {}", a.model.display()))?;
+        if declared {
+            for r in &mut rows {
+                for (e, c) in r.estimates.iter_mut().zip(&cols) {
+                    if let Some(u) = c.unit {
+                        *e = e.in_unit(u);
+                    }
+                }
+            }
+        }
+        Ok(Batch {
+            first_row: batch.first_row(),
+            rows,
+        })
+    };
+    let mut tally = Tally::default();
+    match a.format {
+        Format::Table => {
+            // aligned columns need every row: for small inputs
+            let mut all = Vec::new();
+            for b in batches {
+                let b = estimate(b)?;
+                tally.add(&b.rows);
+                all.extend(b.rows);
+            }
+            let mut s = to_table(&cols, &all);
+            s.push('\n');
+            s.push_str(CAUTION);
+            s.push('\n');
+            emit(&s, a.out.as_deref())?;
+        }
+        Format::Csv | Format::Json => {
+            let write = |w: &mut dyn Write| -> anyhow::Result<()> {
+                let mut out = StreamWriter::start(w, a.format, &cols)?;
+                for b in batches {
+                    let b = estimate(b)?;
+                    tally.add(&b.rows);
+                    out.rows(&b)?;
+                }
+                out.finish()
+            };
+            match &a.out {
+                Some(path) => {
+                    let io = || format!("writing {}", path.display());
+                    let mut f = AtomicFile::create(path).with_context(io)?;
+                    write(&mut f).with_context(io)?;
+                    f.commit().with_context(io)?;
+                }
+                None => {
+                    let mut w = BufWriter::new(std::io::stdout().lock());
+                    write(&mut w)?;
+                    w.flush()?;
                 }
             }
         }
     }
-    let text = match a.format {
-        Format::Json => to_json(&cols, &rows)?,
-        Format::Csv => to_csv(&cols, &rows),
-        Format::Table => {
-            let mut s = to_table(&cols, &rows);
-            s.push('\n');
-            s.push_str(CAUTION);
-            s.push('\n');
-            s
-        }
-    };
     if a.format != Format::Table || a.out.is_some() {
         eprintln!("{CAUTION}");
     }
-    let out_of_domain = rows.iter().filter(|r| !r.in_domain).count();
-    if out_of_domain > 0 {
+    if tally.out_of_domain > 0 {
         eprintln!(
-            "warning: {out_of_domain} of {} rows are outside the training domain (see notes)",
-            rows.len()
+            "warning: {} of {} rows are outside the training domain (see notes)",
+            tally.out_of_domain, tally.rows
         );
     }
-    emit(&text, a.out.as_deref())
+    Ok(())
+}
+
+/// The estimates of one batch of input rows.
+struct Batch {
+    /// Data rows of the file before the batch.
+    first_row: usize,
+    rows: Vec<RowPrediction>,
+}
+
+/// Rows estimated, and how many lie outside the domain.
+#[derive(Default)]
+struct Tally {
+    rows: usize,
+    out_of_domain: usize,
+}
+
+impl Tally {
+    fn add(&mut self, rows: &[RowPrediction]) {
+        self.rows += rows.len();
+        self.out_of_domain += rows.iter().filter(|r| !r.in_domain).count();
+    }
+}
+
+/// CSV or JSON estimates written as the batches come: the same bytes as
+/// formatting all rows at once.
+struct StreamWriter<'a> {
+    w: &'a mut dyn Write,
+    format: Format,
+    cols: &'a [Column],
+    written: usize,
+}
+
+impl<'a> StreamWriter<'a> {
+    fn start(w: &'a mut dyn Write, format: Format, cols: &'a [Column]) -> anyhow::Result<Self> {
+        match format {
+            Format::Csv => w.write_all(csv_header(cols).as_bytes())?,
+            _ => w.write_all(b"[")?,
+        }
+        Ok(StreamWriter {
+            w,
+            format,
+            cols,
+            written: 0,
+        })
+    }
+
+    fn rows(&mut self, b: &Batch) -> anyhow::Result<()> {
+        for (i, r) in b.rows.iter().enumerate() {
+            let number = b.first_row + i + 1;
+            if self.format == Format::Csv {
+                self.w.write_all(csv_row(self.cols, number, r).as_bytes())?;
+                continue;
+            }
+            // one element of a pretty-printed array: each line indented by two
+            let text = serde_json::to_string_pretty(&json_row(self.cols, number, r))?;
+            self.w
+                .write_all(if self.written == 0 { b"\n" } else { b",\n" })?;
+            for (k, line) in text.lines().enumerate() {
+                if k > 0 {
+                    self.w.write_all(b"\n")?;
+                }
+                self.w.write_all(b"  ")?;
+                self.w.write_all(line.as_bytes())?;
+            }
+            self.written += 1;
+        }
+        Ok(())
+    }
+
+    fn finish(self) -> anyhow::Result<()> {
+        if self.format == Format::Json {
+            self.w
+                .write_all(if self.written == 0 { b"]\n" } else { b"\n]\n" })?;
+        }
+        Ok(())
+    }
 }
 
 const FIELDS: [&str; 7] = [
@@ -144,36 +270,27 @@ fn estimate_object(c: &Column, e: &Estimate) -> Map<String, Value> {
     m
 }
 
-fn to_json(cols: &[Column], rows: &[RowPrediction]) -> anyhow::Result<String> {
-    let arr: Vec<Value> = rows
-        .iter()
-        .enumerate()
-        .map(|(i, r)| {
-            let mut obj = Map::new();
-            obj.insert("row".into(), json!(i + 1));
-            if cols.len() == 1 {
-                obj.insert("target".into(), json!(cols[0].name));
-                obj.extend(estimate_object(&cols[0], &r.estimates[0]));
-            } else {
-                let est: Map<String, Value> = cols
-                    .iter()
-                    .zip(&r.estimates)
-                    .map(|(c, e)| (c.name.clone(), Value::Object(estimate_object(c, e))))
-                    .collect();
-                obj.insert("estimates".into(), Value::Object(est));
-            }
-            obj.insert("in_domain".into(), json!(r.in_domain));
-            obj.insert("notes".into(), json!(r.notes));
-            obj.insert("caution".into(), json!(ROW_CAUTION));
-            Value::Object(obj)
-        })
-        .collect();
-    let mut s = serde_json::to_string_pretty(&arr)?;
-    s.push('\n');
-    Ok(s)
+fn json_row(cols: &[Column], number: usize, r: &RowPrediction) -> Value {
+    let mut obj = Map::new();
+    obj.insert("row".into(), json!(number));
+    if cols.len() == 1 {
+        obj.insert("target".into(), json!(cols[0].name));
+        obj.extend(estimate_object(&cols[0], &r.estimates[0]));
+    } else {
+        let est: Map<String, Value> = cols
+            .iter()
+            .zip(&r.estimates)
+            .map(|(c, e)| (c.name.clone(), Value::Object(estimate_object(c, e))))
+            .collect();
+        obj.insert("estimates".into(), Value::Object(est));
+    }
+    obj.insert("in_domain".into(), json!(r.in_domain));
+    obj.insert("notes".into(), json!(r.notes));
+    obj.insert("caution".into(), json!(ROW_CAUTION));
+    Value::Object(obj)
 }
 
-fn to_csv(cols: &[Column], rows: &[RowPrediction]) -> String {
+fn csv_header(cols: &[Column]) -> String {
     let mut h = vec!["row".to_string()];
     for c in cols {
         for f in FIELDS {
@@ -187,19 +304,21 @@ fn to_csv(cols: &[Column], rows: &[RowPrediction]) -> String {
     h.push("caution".into());
     let mut s: String = h.iter().map(|x| csv_field(x)).collect::<Vec<_>>().join(",");
     s.push('\n');
-    for (i, r) in rows.iter().enumerate() {
-        let mut cells = vec![(i + 1).to_string()];
-        for (c, e) in cols.iter().zip(&r.estimates) {
-            cells.extend(estimate_values(e).iter().map(|v| v.to_string()));
-            cells.push(kind_name(c.kind).as_str().unwrap_or_default().to_string());
-            cells.push(csv_field(c.unit.map_or("", |u| u.symbol())));
-        }
-        cells.push(r.in_domain.to_string());
-        cells.push(csv_field(&r.notes.join("; ")));
-        cells.push(csv_field(ROW_CAUTION));
-        s.push_str(&cells.join(","));
-        s.push('\n');
+    s
+}
+
+fn csv_row(cols: &[Column], number: usize, r: &RowPrediction) -> String {
+    let mut cells = vec![number.to_string()];
+    for (c, e) in cols.iter().zip(&r.estimates) {
+        cells.extend(estimate_values(e).iter().map(|v| v.to_string()));
+        cells.push(kind_name(c.kind).as_str().unwrap_or_default().to_string());
+        cells.push(csv_field(c.unit.map_or("", |u| u.symbol())));
     }
+    cells.push(r.in_domain.to_string());
+    cells.push(csv_field(&r.notes.join("; ")));
+    cells.push(csv_field(ROW_CAUTION));
+    let mut s = cells.join(",");
+    s.push('\n');
     s
 }
 

@@ -9,8 +9,8 @@ mod fingerprint;
 pub mod schema;
 mod table;
 
-pub use atomic::write_atomic;
+pub use atomic::{write_atomic, AtomicFile};
 pub(crate) use derived::find_header;
 pub use derived::{derive_columns, DeriveOutcome};
 pub use fingerprint::fingerprint;
-pub use table::{ColumnData, FileFormat, Table};
+pub use table::{ColumnData, FileFormat, Table, TableBatches};

@@ -604,8 +604,8 @@ impl Schema {
                 };
                 let cell = |problem: String| Error::Cell {
                     path: path.clone(),
-                    row: row + 1,
-                    line: row + 2,
+                    row: table.first_row() + row + 1,
+                    line: table.first_row() + row + 2,
                     column: c.name.clone(),
                     problem,
                 };
@@ -658,8 +658,8 @@ impl Schema {
                         &mut problems,
                         Error::CompositionSum {
                             path: path.clone(),
-                            row: row + 1,
-                            line: row + 2,
+                            row: table.first_row() + row + 1,
+                            line: table.first_row() + row + 2,
                             columns: parts
                                 .iter()
                                 .map(|(i, x)| format!("'{}' = {x}", self.columns[*i].name))
@@ -794,7 +794,10 @@ impl Schema {
             let mut detail = incomplete
                 .iter()
                 .take(SHOWN)
-                .map(|(r, cols)| format!("row {} (line {}): {}", r + 1, r + 2, cols.join(", ")))
+                .map(|(r, cols)| {
+                    let r = table.first_row() + r;
+                    format!("row {} (line {}): {}", r + 1, r + 2, cols.join(", "))
+                })
                 .collect::<Vec<_>>()
                 .join("; ");
             if incomplete.len() > SHOWN {
@@ -838,7 +841,13 @@ impl Schema {
             }
         }
         Ok(Prepared {
-            table: Table::from_optional_columns(table.source(), cols)?,
+            // rows keep their numbers in messages when none was left out
+            table: if dropped.is_empty() {
+                Table::from_optional_columns(table.source(), cols)?
+                    .with_first_row(table.first_row())
+            } else {
+                Table::from_optional_columns(table.source(), cols)?
+            },
             inputs,
             targets,
             dropped_rows: dropped.iter().map(|r| r + 1).collect(),

@@ -4,7 +4,10 @@
 //! cell is reported with its file, row and column rather than as a parser
 //! message about an inferred type.
 
+mod batches;
 mod shape;
+
+pub use batches::TableBatches;
 
 use std::path::{Path, PathBuf};
 
@@ -28,6 +31,10 @@ pub struct Table {
     names: Vec<String>,
     columns: Vec<ColumnData>,
     n_rows: usize,
+    /// Data rows of the file before this table's first row (0 unless the
+    /// table is one batch of a larger file, [`Table::read_batches`]):
+    /// messages name rows of the file, not of the batch.
+    first_row: usize,
 }
 
 /// The file formats mettle reads.
@@ -134,6 +141,7 @@ impl Table {
             names,
             columns: data,
             n_rows,
+            first_row: 0,
         })
     }
 
@@ -152,6 +160,7 @@ impl Table {
             names: Vec::with_capacity(columns.len()),
             columns: Vec::with_capacity(columns.len()),
             n_rows,
+            first_row: 0,
         };
         for (name, values) in columns {
             t.push_column(name, ColumnData::Number(values))?;
@@ -200,6 +209,7 @@ impl Table {
             names: self.names.clone(),
             columns: self.columns.iter().map(pick).collect(),
             n_rows: rows.len(),
+            first_row: 0,
         }
     }
 
@@ -336,7 +346,21 @@ impl Table {
             names,
             columns,
             n_rows: df.height(),
+            first_row: 0,
         })
+    }
+
+    /// Data rows of the file before this table's first row: 0 for a whole
+    /// file, the batch's start for a batch of [`Table::read_batches`].
+    pub fn first_row(&self) -> usize {
+        self.first_row
+    }
+
+    /// The same table, its rows counted from data row `first_row + 1` of
+    /// its file in every message.
+    pub fn with_first_row(mut self, first_row: usize) -> Table {
+        self.first_row = first_row;
+        self
     }
 
     /// The file the table came from.
@@ -504,8 +528,8 @@ impl Table {
     fn numeric_cell(&self, name: &str, row: usize) -> Result<Option<f64>> {
         let cell_error = |problem: String| Error::Cell {
             path: self.source.display().to_string(),
-            row: row + 1,
-            line: row + 2,
+            row: self.first_row + row + 1,
+            line: self.first_row + row + 2,
             column: name.to_string(),
             problem,
         };
@@ -549,8 +573,8 @@ impl Table {
             .map(|(row, v)| {
                 v.ok_or_else(|| Error::Cell {
                     path: self.source.display().to_string(),
-                    row: row + 1,
-                    line: row + 2,
+                    row: self.first_row + row + 1,
+                    line: self.first_row + row + 2,
                     column: name.to_string(),
                     problem: "the cell is empty".into(),
                 })

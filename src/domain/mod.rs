@@ -34,7 +34,12 @@
 //!    n − 1 others), so the check flags about 1 − q of such rows at f = 1:
 //!    k-nearest-neighbour novelty detection (common practice, no source). The inputs named are those that make up most of
 //!    the squared distance to the k nearest rows.
-//!    Repeated rows (replicate tests) count once.
+//!    Repeated rows (replicate tests) count once. Above
+//!    [`DOMAIN_REFERENCE_MAX_ROWS`](crate::prec::DOMAIN_REFERENCE_MAX_ROWS)
+//!    distinct rows, a seeded random sample of that many stands for them,
+//!    and both d_k(x) and D are measured against the sample, so the ratio
+//!    keeps its meaning while the model file, the build (n² distances) and
+//!    the check of each query (n distances) stop growing with the data.
 //! 3. **Pairs of inputs.** With many inputs a hole in two of them is
 //!    diluted in the joint distance by all the others. For every pair of
 //!    inputs a G × G grid over the two scaled training ranges marks the
@@ -60,7 +65,8 @@ use serde::{Deserialize, Serialize};
 use crate::model::InputColumn;
 use crate::prec::{
     DOMAIN_DISTANCE_FACTOR, DOMAIN_EIGEN_FLOOR, DOMAIN_K, DOMAIN_PAIR_MAX_CELLS,
-    DOMAIN_PAIR_RADIUS, DOMAIN_PAIR_ROWS_PER_CELL, DOMAIN_RANGE_SLACK, DOMAIN_REFERENCE_QUANTILE,
+    DOMAIN_PAIR_RADIUS, DOMAIN_PAIR_ROWS_PER_CELL, DOMAIN_RANGE_SLACK, DOMAIN_REFERENCE_MAX_ROWS,
+    DOMAIN_REFERENCE_QUANTILE, DOMAIN_REFERENCE_SEED,
 };
 
 /// What the model file keeps of the training inputs for the joint-domain
@@ -77,7 +83,9 @@ pub struct DomainReference {
     /// maps to (s − mean)·W, whose covariance over the training rows is
     /// the identity.
     pub whitening: Vec<f64>,
-    /// Whitened distinct training rows, row after row (repeated rows once).
+    /// Whitened distinct training rows, row after row (repeated rows once;
+    /// a seeded sample of [`DOMAIN_REFERENCE_MAX_ROWS`] of them when there
+    /// are more).
     pub rows: Vec<f64>,
     /// Scaled (not whitened) distinct training rows, row after row, for naming the
     /// inputs that make up a gap.
@@ -276,6 +284,23 @@ fn whitening(x: ArrayView2<f64>) -> Option<(Array1<f64>, Array2<f64>)> {
     Some((mean, v * &scale))
 }
 
+/// `m` of the row positions `0..n` (m < n), in increasing order, drawn
+/// without replacement by a partial Fisher–Yates shuffle from the fixed
+/// seed [`DOMAIN_REFERENCE_SEED`]: the same rows for the same data on any
+/// number of threads.
+fn reference_sample(n: usize, m: usize) -> Vec<usize> {
+    use rand::{Rng, SeedableRng};
+    let mut rng = rand_xoshiro::Xoshiro256PlusPlus::seed_from_u64(DOMAIN_REFERENCE_SEED);
+    let mut idx: Vec<usize> = (0..n).collect();
+    for i in 0..m {
+        let j = rng.random_range(i..n);
+        idx.swap(i, j);
+    }
+    idx.truncate(m);
+    idx.sort_unstable();
+    idx
+}
+
 /// The k-th smallest of `d` (1-based k, k ≤ len).
 fn kth_smallest(d: &mut [f64], k: usize) -> f64 {
     let (_, v, _) = d.select_nth_unstable_by(k - 1, f64::total_cmp);
@@ -318,11 +343,26 @@ impl DomainReference {
                 .unwrap_or(std::cmp::Ordering::Equal)
         });
         distinct.dedup();
-        let n = distinct.len();
-        if n < 2 {
+        let n_distinct = distinct.len();
+        if n_distinct < 2 {
             return None;
         }
-        let x = Array2::from_shape_vec((n, d), distinct.concat()).ok()?;
+        let all = Array2::from_shape_vec((n_distinct, d), distinct.concat()).ok()?;
+        // the pair grid sees every distinct row; the nearest-neighbour
+        // reference keeps at most DOMAIN_REFERENCE_MAX_ROWS of them
+        let pairs = match cells.unwrap_or_else(|| pair_cells(n_distinct)) {
+            0 => None,
+            g => Some(PairGrid::build(all.view(), g, radius)),
+        };
+        let x = if n_distinct > DOMAIN_REFERENCE_MAX_ROWS {
+            all.select(
+                Axis(0),
+                &reference_sample(n_distinct, DOMAIN_REFERENCE_MAX_ROWS),
+            )
+        } else {
+            all
+        };
+        let n = x.nrows();
         let x = x.view();
         let white = (&x - &mean).dot(&w);
         let rows: Vec<f64> = white.iter().copied().collect();
@@ -348,10 +388,7 @@ impl DomainReference {
             whitening: w.iter().copied().collect(),
             rows,
             scaled_rows: x.iter().copied().collect(),
-            pairs: match cells.unwrap_or_else(|| pair_cells(n)) {
-                0 => None,
-                g => Some(PairGrid::build(x, g, radius)),
-            },
+            pairs,
         })
     }
 
@@ -620,6 +657,33 @@ mod tests {
             max: hi,
             scaling: ColumnScaling::fit(&[lo, hi], false).expect("spread"),
         }
+    }
+
+    /// Above the cap the reference keeps a sample of the rows, the same
+    /// one on every build, and the ratio keeps its meaning: new rows drawn
+    /// like the training rows exceed D with probability about 1 − q
+    /// (q = DOMAIN_REFERENCE_QUANTILE = 0.99; the property stated in the
+    /// module documentation, k-NN novelty detection).
+    #[test]
+    fn a_sampled_reference_stays_calibrated() {
+        use rand::{Rng, SeedableRng};
+        let mut rng = rand_xoshiro::Xoshiro256PlusPlus::seed_from_u64(5);
+        let mut draw = |n: usize| Array2::from_shape_fn((n, 3), |_| rng.random::<f64>() - 0.5);
+        let train = draw(2 * DOMAIN_REFERENCE_MAX_ROWS + 7);
+        let r = DomainReference::build(train.view()).expect("reference");
+        assert_eq!(r.n_rows(), DOMAIN_REFERENCE_MAX_ROWS);
+        assert_eq!(r.scaled_rows.len(), DOMAIN_REFERENCE_MAX_ROWS * 3);
+        assert_eq!(Some(&r), DomainReference::build(train.view()).as_ref());
+        let fresh = draw(4000);
+        let flagged = fresh
+            .rows()
+            .into_iter()
+            .filter(|q| r.measure(q.as_slice().expect("row")).ratio > 1.0)
+            .count() as f64
+            / 4000.0;
+        // binomial sd of the share at p = 0.01, n = 4000: 0.0016
+        assert!((0.002..=0.025).contains(&flagged), "{flagged}");
+        assert!(r.measure(&[0.9, 0.9, 0.9]).ratio > 1.0);
     }
 
     #[test]

@@ -203,23 +203,26 @@ fn spread(values: &[f64]) -> NoiseSpread {
 /// and target counted once); `None` without repeat tests.
 pub fn replicate_scatter(raw_inputs: &[Vec<f64>], measured: &[f64]) -> Option<ReplicateScatter> {
     let key = |v: &[f64]| v.iter().map(|x| x.to_bits()).collect::<Vec<u64>>();
-    let mut groups: Vec<(Vec<u64>, Vec<f64>)> = Vec::new();
+    // groups in order of first appearance, found through a hash map: a
+    // linear search over the groups made this quadratic in the rows (most
+    // of the time of a 100 000-row training)
+    let mut index: std::collections::HashMap<Vec<u64>, usize> = std::collections::HashMap::new();
+    let mut groups: Vec<Vec<f64>> = Vec::new();
     for (row, &y) in raw_inputs.iter().zip(measured) {
-        let k = key(row);
-        match groups.iter_mut().find(|g| g.0 == k) {
-            Some(g) => {
-                if !g.1.iter().any(|v| v.to_bits() == y.to_bits()) {
-                    g.1.push(y);
+        match index.entry(key(row)) {
+            std::collections::hash_map::Entry::Occupied(e) => {
+                let g = &mut groups[*e.get()];
+                if !g.iter().any(|v| v.to_bits() == y.to_bits()) {
+                    g.push(y);
                 }
             }
-            None => groups.push((k, vec![y])),
+            std::collections::hash_map::Entry::Vacant(e) => {
+                e.insert(groups.len());
+                groups.push(vec![y]);
+            }
         }
     }
-    let reps: Vec<Vec<f64>> = groups
-        .into_iter()
-        .map(|g| g.1)
-        .filter(|g| g.len() >= 2)
-        .collect();
+    let reps: Vec<Vec<f64>> = groups.into_iter().filter(|g| g.len() >= 2).collect();
     let (pooled_sd, dof) = pooled_sd(&reps)?;
     Some(ReplicateScatter {
         pooled_sd,

@@ -116,7 +116,7 @@ impl Model {
                 raw[[i, j]] = v;
                 scaled[[i, j]] = inp.scaling.scale(v).ok_or_else(|| Error::PredictInput {
                     path: table.source().display().to_string(),
-                    row: i + 1,
+                    row: table.first_row() + i + 1,
                     column: inp.name.clone(),
                     problem: format!("{v} is not above zero, but the model takes this input through its logarithm"),
                 })?;
