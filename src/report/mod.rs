@@ -797,4 +797,15 @@ mod tests {
         assert_eq!(esc("a<b & \"c\">"), "a&lt;b &amp; &quot;c&quot;&gt;");
         assert_eq!(id_part("UTS_mpa 2"), "uts-mpa-2");
     }
+
+    #[test]
+    fn sd_interval_matches_the_chi_square_table() {
+        // critical values of χ² with 10 degrees of freedom: 3.247 (2.5 %)
+        // and 20.483 (97.5 %), NIST/SEMATECH e-Handbook §1.3.6.7.4 (values
+        // from memory of that table): s = 1 gives √(10/20.483) to √(10/3.247)
+        let (lo, hi) = sd_interval95(1.0, 10).expect("interval");
+        assert!((lo - (10.0_f64 / 20.483).sqrt()).abs() < 1e-4, "{lo}");
+        assert!((hi - (10.0_f64 / 3.247).sqrt()).abs() < 1e-3, "{hi}");
+        assert!(sd_interval95(1.0, 0).is_none());
+    }
 }
