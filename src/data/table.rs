@@ -4,6 +4,7 @@
 //! cell is reported with its file, row and column rather than as a parser
 //! message about an inferred type.
 
+mod parquet_check;
 mod shape;
 
 use std::path::{Path, PathBuf};
@@ -223,7 +224,12 @@ impl Table {
         // row of empty cells for a trailing blank line
         let csv_rows = match format {
             FileFormat::Csv => Some(shape::check(path)?.n_rows),
-            FileFormat::Parquet => None,
+            FileFormat::Parquet => {
+                // counts polars would trust are checked first: a damaged
+                // one can make it abort on a huge allocation
+                parquet_check::check(path)?;
+                None
+            }
         };
         let polars_error = |e: PolarsError| read_error(path, polars_message(&e));
         let df = match format {
