@@ -13,8 +13,11 @@
 //! PROPTEST_CASES=200000 PROPTEST_RNG_SEED=$RANDOM cargo test --release --test fuzz
 //! ```
 //!
-//! A failing case is shrunk and written to tests/proptest-regressions/,
-//! which is replayed first on every later run.
+//! A failing case is shrunk and written to tests/fuzz.proptest-regressions,
+//! which is replayed first on every later run. A case that aborts the
+//! process (a failed allocation is not a panic) leaves proptest no time to
+//! write it: run with `METTLE_FUZZ_LAST=/tmp/last` and the table input
+//! being read is in `/tmp/last.t.csv` or `/tmp/last.t.parquet`.
 
 use std::path::{Path, PathBuf};
 
