@@ -377,6 +377,24 @@ fn corpus(m: &Models) -> Vec<Case> {
             &["d.parquet", "Parquet file is damaged"],
         ),
         case(
+            "a Parquet page header with a negative value count (found by tests/fuzz.rs; polars aborted on it)",
+            vec![(
+                "d.parquet",
+                bytes(include_bytes!(
+                    "corpus/found/parquet_negative_page_count.parquet"
+                )),
+            )],
+            train("d.parquet"),
+            2,
+            &[
+                "d.parquet",
+                "Parquet file is damaged",
+                "row group 1",
+                "'cu_wt'",
+                "a count of -31",
+            ],
+        ),
+        case(
             "data file does not exist",
             vec![],
             train("absent.csv"),

@@ -13,8 +13,11 @@
 //! PROPTEST_CASES=200000 PROPTEST_RNG_SEED=$RANDOM cargo test --release --test fuzz
 //! ```
 //!
-//! A failing case is shrunk and written to tests/proptest-regressions/,
-//! which is replayed first on every later run.
+//! A failing case is shrunk and written to tests/fuzz.proptest-regressions,
+//! which is replayed first on every later run. A case that aborts the
+//! process (a failed allocation is not a panic) leaves proptest no time to
+//! write it: run with `METTLE_FUZZ_LAST=/tmp/last` and the table input
+//! being read is in `/tmp/last.t.csv` or `/tmp/last.t.parquet`.
 
 use std::path::{Path, PathBuf};
 
@@ -141,7 +144,16 @@ fn noise(max: usize) -> impl Strategy<Value = Vec<u8>> {
 
 /// Read `bytes` as a table file named `name` in a fresh directory, and
 /// parse every cell of every column as a number.
+///
+/// With `METTLE_FUZZ_LAST=FILE` set, each input is first written to
+/// `FILE.<name>` too, so that a case that aborts the process (which
+/// proptest cannot record) is left behind.
 fn read_table(bytes: &[u8], name: &str) {
+    if let Some(last) = std::env::var_os("METTLE_FUZZ_LAST") {
+        let mut last = PathBuf::from(last).into_os_string();
+        last.push(format!(".{name}"));
+        std::fs::write(&last, bytes).expect("write METTLE_FUZZ_LAST");
+    }
     let dir = tempfile::tempdir().expect("a temporary directory");
     let path = dir.path().join(name);
     std::fs::write(&path, bytes).expect("write the table");
@@ -270,6 +282,28 @@ fn model_seeds() -> Vec<Value> {
         .iter()
         .map(|b| serde_json::from_slice(b).expect("a seed model is JSON"))
         .collect()
+}
+
+/// Every input the fuzzer found (tests/corpus/found/) is refused with an
+/// error, not read and not a crash: each one is a damaged file.
+#[test]
+fn found_inputs_are_refused() {
+    let dir = Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/corpus/found");
+    let mut paths: Vec<PathBuf> = std::fs::read_dir(&dir)
+        .expect("tests/corpus/found")
+        .map(|e| e.expect("directory entry").path())
+        .collect();
+    paths.sort();
+    assert!(paths.len() >= 2, "{paths:?}");
+    for p in paths {
+        let e = Table::read(&p).expect_err("a damaged file is refused");
+        let msg = e.to_string();
+        assert!(
+            msg.contains("the Parquet file is damaged"),
+            "{}: {msg}",
+            p.display()
+        );
+    }
 }
 
 proptest! {

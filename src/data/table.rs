@@ -5,6 +5,7 @@
 //! message about an inferred type.
 
 mod batches;
+mod parquet_check;
 mod shape;
 
 pub use batches::TableBatches;
@@ -233,7 +234,12 @@ impl Table {
         // row of empty cells for a trailing blank line
         let csv_rows = match format {
             FileFormat::Csv => Some(shape::check(path)?.n_rows),
-            FileFormat::Parquet => None,
+            FileFormat::Parquet => {
+                // counts polars would trust are checked first: a damaged
+                // one can make it abort on a huge allocation
+                parquet_check::check(path)?;
+                None
+            }
         };
         let polars_error = |e: PolarsError| read_error(path, polars_message(&e));
         let df = match format {

@@ -122,6 +122,9 @@ impl Table {
                 Source::Csv { reader, header }
             }
             FileFormat::Parquet => {
+                // the damaged-file checks of the whole-file reader, once
+                // for the whole file, before any page is decoded
+                super::parquet_check::check(path)?;
                 let f = File::open(path).map_err(io_error(path))?;
                 let footer = contain_panic(move || {
                     let mut r = ParquetReader::new(f);
