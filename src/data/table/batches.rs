@@ -122,19 +122,21 @@ impl Table {
                 Source::Csv { reader, header }
             }
             FileFormat::Parquet => {
-                // the damaged-file checks of the whole-file reader, once
-                // for the whole file, before any page is decoded
-                super::parquet_check::check(path)?;
                 let f = File::open(path).map_err(io_error(path))?;
                 let footer = contain_panic(move || {
                     let mut r = ParquetReader::new(f);
                     r.get_metadata().cloned()
                 });
                 match footer {
-                    Ok(Ok(metadata)) if metadata.num_rows > rows_per_batch => Source::Parquet {
-                        n_rows: metadata.num_rows,
-                        metadata,
-                    },
+                    Ok(Ok(metadata)) if metadata.num_rows > rows_per_batch => {
+                        // the whole-file reader's damaged-file checks, once
+                        // for the whole file, before any page is decoded
+                        super::parquet_check::check(path)?;
+                        Source::Parquet {
+                            n_rows: metadata.num_rows,
+                            metadata,
+                        }
+                    }
                     // small, or a footer polars refuses: the whole-file
                     // reader and its checks say what is wrong
                     _ => return Table::read(path).map(whole),
