@@ -7,14 +7,20 @@
 //! cargo run --release --example uci_benchmark -- [--data-dir ../shared/datasets/uci]
 //!     [--datasets concrete,energy,yacht,wine-quality-red] [--splits 20]
 //!     [--hidden 1..10] [--restarts 4] [--markdown FILE]
-//!     [--noise auto|constant|varying] [--first-split 0] [--no-widen] [--max-cycles N] [--first-iters N] [--cycle-iters N]
+//!     [--noise auto|constant|varying] [--first-split 0] [--no-widen] [--no-ard] [--max-cycles N] [--first-iters N] [--cycle-iters N]
 //!     [--max-members N] [--holdout FRACTION]
 //! ```
 //!
 //! The options after `--markdown` exist to study the engine's settings;
-//! the published table uses the defaults. With `METTLE_BENCH_WORST` set in
-//! the environment, each split also prints its three test rows with the
-//! largest standardised error.
+//! the published table uses the defaults. Environment switches for
+//! diagnosis (none changes what is trained):
+//! - `METTLE_BENCH_WORST`: each split also prints its three test rows with
+//!   the largest standardised error;
+//! - `METTLE_BENCH_DIAG`: mean noise and model sd, and the sd scale and the
+//!   two-part variance scale that would have been best on the test part;
+//! - `METTLE_BENCH_ROWS=DIR`: per-row test and training predictions as
+//!   DIR/<dataset>_<split>.csv and DIR/<dataset>_<split>_train.csv, read by
+//!   benches/grouped_coverage.py.
 
 use std::path::{Path, PathBuf};
 use std::time::Instant;
@@ -49,6 +55,47 @@ const BASELINE: [(&str, f64, f64, f64, f64); 4] = [
     ("yacht", 1.02, -1.63, 1.11, -1.55),
     ("wine-quality-red", 0.64, -0.97, 0.62, -0.93),
 ];
+
+/// Per-row predictions (`row` = index into data.csv) for offline study,
+/// e.g. by benches/grouped_coverage.py.
+fn write_rows(path: &Path, rows: &[usize], pred: &[mettle::predict::RowPrediction], y: &[f64]) {
+    let mut out = String::from("row,y,mean,sd,noise_sd,model_sd\n");
+    for ((row, r), yv) in rows.iter().zip(pred).zip(y) {
+        let e = &r.estimates[0];
+        out.push_str(&format!(
+            "{row},{yv},{},{},{},{}\n",
+            e.mean, e.sd, e.noise_sd, e.model_sd
+        ));
+    }
+    std::fs::write(path, out).unwrap_or_else(|e| panic!("{}: {e}", path.display()));
+}
+
+/// Diagnostic only, never used by the engine: the factors (a, b) of
+/// variance = a·noise_sd² + b·model_sd² that would maximise the test LL,
+/// read off a grid (a 0.3..1.5, b 0..4), with that LL and its coverage_68.
+fn two_part_scale(pred: &[mettle::predict::RowPrediction], y: &[f64]) -> (f64, f64, f64, f64) {
+    let n = y.len() as f64;
+    let mut best = (f64::INFINITY, 1.0, 1.0, 0.0);
+    for ia in 0..=40 {
+        for ib in 0..=40 {
+            let (a, b) = (0.3 + 0.03 * f64::from(ia), 0.1 * f64::from(ib));
+            let (mut nll, mut inside) = (0.0, 0.0);
+            for (r, yv) in pred.iter().zip(y) {
+                let e = &r.estimates[0];
+                let v = (a * e.noise_sd.powi(2) + b * e.model_sd.powi(2)).max(1e-300);
+                let e2 = (yv - e.mean).powi(2);
+                nll += 0.5 * (2.0 * std::f64::consts::PI * v).ln() + e2 / (2.0 * v);
+                if e2 <= v {
+                    inside += 1.0;
+                }
+            }
+            if nll / n < best.0 {
+                best = (nll / n, a, b, inside / n);
+            }
+        }
+    }
+    (best.1, best.2, -best.0, best.3)
+}
 
 fn read_indices(path: &Path) -> Vec<usize> {
     std::fs::read_to_string(path)
@@ -100,6 +147,7 @@ fn main() {
     let mut markdown: Option<PathBuf> = None;
     let mut first_split = 0usize;
     let mut widen = true;
+    let mut ard = true;
     let mut fit = FitSettings::default();
     let mut noise = NoiseMode::Auto;
     let mut max_members: Option<usize> = None;
@@ -132,6 +180,11 @@ fn main() {
             "--max-cycles" => fit.max_cycles = v.parse().expect("--max-cycles N"),
             "--first-iters" => fit.first_iters = v.parse().expect("--first-iters N"),
             "--cycle-iters" => fit.cycle_iters = v.parse().expect("--cycle-iters N"),
+            "--no-ard" => {
+                ard = false;
+                i += 1;
+                continue;
+            }
             "--no-widen" => {
                 widen = false;
                 i += 1;
@@ -166,6 +219,7 @@ fn main() {
                 .restarts(restarts)
                 .seed(k as u64)
                 .widen(widen)
+                .ard(ard)
                 .noise(noise)
                 .fit(fit.clone());
             if let Some(m) = max_members {
@@ -192,6 +246,18 @@ fn main() {
                 z.sort_by(|a, b| b.0.total_cmp(&a.0));
                 eprintln!("  worst |z|: {:?}", &z[..3.min(z.len())]);
             }
+            if let Some(dir) = std::env::var_os("METTLE_BENCH_ROWS") {
+                let dir = PathBuf::from(dir);
+                write_rows(&dir.join(format!("{ds}_{k}.csv")), &test, &pred, &y);
+                let pred_tr = model.predict(&tr).expect("prediction");
+                let y_tr = tr.numeric(&target).expect("target");
+                write_rows(
+                    &dir.join(format!("{ds}_{k}_train.csv")),
+                    &train,
+                    &pred_tr,
+                    &y_tr,
+                );
+            }
             if std::env::var_os("METTLE_BENCH_DIAG").is_some() {
                 // diagnostics only: the test-optimal sd scale is never used
                 let n = y.len() as f64;
@@ -205,6 +271,8 @@ fn main() {
                 let noise_sd = pred.iter().map(|r| r.estimates[0].noise_sd).sum::<f64>() / n;
                 let model_sd = pred.iter().map(|r| r.estimates[0].model_sd).sum::<f64>() / n;
                 eprintln!("  diag: mean noise_sd {noise_sd:.4}  mean model_sd {model_sd:.4}  test-optimal sd scale {:.3}", z2.sqrt());
+                let (a, b, ll_ab, c68_ab) = two_part_scale(&pred, &y);
+                eprintln!("  diag: test-optimal variance = {a:.2}·noise² + {b:.2}·model²: LL {ll_ab:.3}, coverage_68 {c68_ab:.3}");
             }
             let c = &model.targets[0].committee;
             eprintln!(
