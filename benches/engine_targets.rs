@@ -7,7 +7,9 @@
 //!    `VmHWM` in /proc/self/status (target: under 200 MB);
 //! 3. prediction throughput of a 10-member committee (the trained
 //!    committee's members repeated to ten) on 200 000 rows (target: at
-//!    least 100 000 rows per second).
+//!    least 100 000 rows per second), without and, when the trained
+//!    committee kriges its residuals, with the residual process (each
+//!    estimate then costs O(N²) more for the process's variance).
 //!
 //! ```text
 //! make bench-engine      # or: cargo bench --bench engine_targets -- [DATA_DIR]
@@ -60,14 +62,18 @@ fn main() {
     let train_s = t0.elapsed().as_secs_f64();
     let c = &model.targets[0].committee;
     println!(
-        "train: {} rows, {} inputs, default committee: {train_s:.1} s wall ({} candidates, {} members, hidden {}..{}, noise {})",
+        "train: {} rows, {} inputs, default committee: {train_s:.1} s wall ({} candidates, {} members, hidden {}..{}, noise {}, {})",
         rows.len(),
         names.len() - 1,
         c.candidates.len(),
         c.members.len(),
         c.selection.hidden_searched.0,
         c.selection.hidden_searched.1,
-        if c.selection.noise.varying { "varying" } else { "constant" }
+        if c.selection.noise.varying { "varying" } else { "constant" },
+        match &c.kriging {
+            Some(k) => format!("residuals kriged over {} rows", k.x.nrows()),
+            None => "residuals not kriged".to_string(),
+        }
     );
     match memory::peak_resident_mb() {
         Some(mb) => println!("memory: peak resident {mb:.0} MB after training"),
@@ -88,14 +94,27 @@ fn main() {
             .collect(),
     )
     .expect("table");
+    let process = model.targets[0].committee.kriging.take();
     let t1 = Instant::now();
     let pred = model.predict(&big).expect("prediction");
     let pred_s = t1.elapsed().as_secs_f64();
     assert_eq!(pred.len(), n_rows);
     println!(
-        "predict: {n_rows} rows, 10 members: {pred_s:.2} s, {:.0} rows/s",
+        "predict: {n_rows} rows, 10 members, committee alone: {pred_s:.2} s, {:.0} rows/s",
         n_rows as f64 / pred_s
     );
+    if let Some(k) = process {
+        let n_process = k.x.nrows();
+        model.targets[0].committee.kriging = Some(k);
+        let t2 = Instant::now();
+        let pred = model.predict(&big).expect("prediction");
+        let pred_s = t2.elapsed().as_secs_f64();
+        assert_eq!(pred.len(), n_rows);
+        println!(
+            "predict: {n_rows} rows, 10 members and the residual process over {n_process} rows: {pred_s:.2} s, {:.0} rows/s",
+            n_rows as f64 / pred_s
+        );
+    }
     if let Some(mb) = memory::peak_resident_mb() {
         println!("memory: peak resident {mb:.0} MB after prediction");
     }

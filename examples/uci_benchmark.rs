@@ -7,7 +7,7 @@
 //! cargo run --release --example uci_benchmark -- [--data-dir ../shared/datasets/uci]
 //!     [--datasets concrete,energy,yacht,wine-quality-red] [--splits 20]
 //!     [--hidden 1..10] [--restarts 4] [--markdown FILE]
-//!     [--noise auto|constant|varying] [--first-split 0] [--no-widen] [--no-ard] [--max-cycles N] [--first-iters N] [--cycle-iters N]
+//!     [--noise auto|constant|varying] [--kriging auto|on|off] [--first-split 0] [--no-widen] [--no-ard] [--max-cycles N] [--first-iters N] [--cycle-iters N]
 //!     [--max-members N] [--holdout FRACTION]
 //! ```
 //!
@@ -25,7 +25,7 @@
 use std::path::{Path, PathBuf};
 use std::time::Instant;
 
-use mettle::committee::{CommitteeParams, NoiseMode};
+use mettle::committee::{CommitteeParams, KrigingMode, NoiseMode};
 use mettle::data::Table;
 use mettle::evidence::FitSettings;
 use mettle::metrics::evaluate;
@@ -150,6 +150,7 @@ fn main() {
     let mut ard = true;
     let mut fit = FitSettings::default();
     let mut noise = NoiseMode::Auto;
+    let mut kriging = KrigingMode::Auto;
     let mut max_members: Option<usize> = None;
     let mut holdout: Option<f64> = None;
     let args: Vec<String> = std::env::args().skip(1).collect();
@@ -172,6 +173,14 @@ fn main() {
                     "constant" => NoiseMode::Constant,
                     "varying" => NoiseMode::Varying,
                     other => panic!("--noise {other}: expected auto, constant or varying"),
+                }
+            }
+            "--kriging" => {
+                kriging = match v.as_str() {
+                    "auto" => KrigingMode::Auto,
+                    "on" => KrigingMode::On,
+                    "off" => KrigingMode::Off,
+                    other => panic!("--kriging {other}: expected auto, on or off"),
                 }
             }
             "--max-members" => max_members = Some(v.parse().expect("--max-members N")),
@@ -221,6 +230,7 @@ fn main() {
                 .widen(widen)
                 .ard(ard)
                 .noise(noise)
+                .kriging(kriging)
                 .fit(fit.clone());
             if let Some(m) = max_members {
                 spec.params = spec.params.max_members(m);
@@ -276,7 +286,7 @@ fn main() {
             }
             let c = &model.targets[0].committee;
             eprintln!(
-                "{ds} split {k:2}: RMSE {:.3}  LL {:.3}  cov68 {:.3}  cov95 {:.3}  {:.1} s  members {} (H {}){}",
+                "{ds} split {k:2}: RMSE {:.3}  LL {:.3}  cov68 {:.3}  cov95 {:.3}  {:.1} s  members {} (H {}){}{}",
                 e.rmse,
                 -e.nlpd,
                 e.coverage_68,
@@ -284,7 +294,8 @@ fn main() {
                 dt,
                 c.members.len(),
                 c.members.iter().map(|m| m.n_hidden.to_string()).collect::<Vec<_>>().join(","),
-                if c.selection.noise.varying { " varying" } else { " constant" }
+                if c.selection.noise.varying { " varying" } else { " constant" },
+                if c.kriging.is_some() { " kriged" } else { "" }
             );
             rmse.push(e.rmse);
             ll.push(-e.nlpd);

@@ -42,6 +42,13 @@ pub enum TrainEvent<'a> {
         /// Candidates given a noise network.
         n_candidates: usize,
     },
+    /// A Gaussian process is being fitted to the committee's residuals.
+    Kriging {
+        /// Target being trained.
+        target: &'a str,
+        /// Rows the process is fitted on.
+        n_rows: usize,
+    },
     /// The chosen members are being refitted on all the data.
     Refitting {
         /// Target being trained.

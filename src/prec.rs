@@ -58,6 +58,18 @@ pub const EIGEN_FLOOR_REL: f64 = 1e-10;
 /// degenerate member cannot produce an infinite log density.
 pub const VAR_FLOOR: f64 = 1e-12;
 
+/// Gradient norm at which the search for the residual process's
+/// hyperparameters stops (natural-log parameters).
+pub const KRIGING_GRAD_TOL: f64 = 1e-6;
+
+/// Change of the negative log posterior (nats, summed over the rows) below
+/// which the residual process's hyperparameter search stops.
+pub const KRIGING_COST_TOL: f64 = 1e-4;
+
+/// Added to the diagonal of the residual process's kernel matrix so that
+/// its Cholesky factor exists even when rows coincide (scaled units).
+pub const KRIGING_JITTER: f64 = 1e-10;
+
 /// Skewness above which a strictly positive input is modelled on a log
 /// scale (decided on the training data only).
 pub const LOG_SKEW_THRESHOLD: f64 = 2.0;

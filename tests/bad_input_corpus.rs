@@ -669,8 +669,10 @@ fn corpus(m: &Models) -> Vec<Case> {
             &["m.json", "scaling"],
         ),
         model_case(
-            "model format version 3",
-            tampered(&m.plain, |v| v["format_version"] = Value::from(3)),
+            "model format version from a newer mettle",
+            tampered(&m.plain, |v| {
+                v["format_version"] = Value::from(mettle::model::MODEL_FORMAT_VERSION + 1)
+            }),
             &["m.json", "newer", "upgrade"],
         ),
         model_case(

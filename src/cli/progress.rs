@@ -98,6 +98,11 @@ impl TrainObserver for TrainProgress {
                     ));
                 }
             }
+            TrainEvent::Kriging { n_rows, .. } => {
+                if let Some(bar) = guard.as_ref() {
+                    bar.set_message(format!("kriging the residuals of {n_rows} rows"));
+                }
+            }
             TrainEvent::Refitting { n_members, .. } => {
                 if let Some(bar) = guard.as_ref() {
                     bar.set_message(format!("refitting {n_members} members on all rows"));

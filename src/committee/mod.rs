@@ -20,12 +20,14 @@
 //! the first term the members' own variances (noise + parameter
 //! uncertainty), the second their disagreement.
 
+mod kriging;
 mod noise;
 mod params;
 mod search;
 
+pub use kriging::{ResidualKriging, KRIGING_MAX_ROWS};
 pub use noise::NoiseModel;
-pub use params::{CheckedCommitteeParams, CommitteeParams, NoiseMode};
+pub use params::{CheckedCommitteeParams, CommitteeParams, KrigingMode, NoiseMode};
 pub use search::train_committee;
 
 use ndarray::{Array1, Array2, ArrayView2};
@@ -109,6 +111,27 @@ pub struct Selection {
     /// How the noise model was chosen.
     #[serde(default)]
     pub noise: NoiseSelection,
+    /// Whether kriging of the residuals was used, and why.
+    #[serde(default)]
+    pub kriging: KrigingSelection,
+}
+
+/// The choice of kriging the committee's residuals, on the held-out part.
+#[derive(Clone, Debug, Default, PartialEq, Serialize, Deserialize)]
+pub struct KrigingSelection {
+    /// What the user asked for.
+    pub requested: KrigingMode,
+    /// True when the committee carries a residual process.
+    pub used: bool,
+    /// Held-out NLPD of the committee alone (target units).
+    pub committee_nlpd: Option<f64>,
+    /// Held-out NLPD of the committee plus the process fitted on the
+    /// training part (target units).
+    pub kriging_nlpd: Option<f64>,
+    /// Rows the process was fitted on in the end.
+    pub n_rows: usize,
+    /// Why the process could not be fitted, when it could not.
+    pub failure: Option<String>,
 }
 
 /// The choice between constant and varying noise, on the held-out part.
@@ -137,6 +160,9 @@ pub struct Committee {
     pub candidates: Vec<Candidate>,
     /// How the members were chosen.
     pub selection: Selection,
+    /// A Gaussian process on the members' residuals, when kriging is used.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub kriging: Option<ResidualKriging>,
 }
 
 /// Rows per block in [`Committee::predict_scaled`].
@@ -149,7 +175,8 @@ pub struct ScaledPrediction {
     pub mean: Array1<f64>,
     /// Total variance.
     pub var: Array1<f64>,
-    /// Noise part: mean of the members' 1/β.
+    /// Noise part: mean of the members' noise variances (times the
+    /// residual process's noise factor when kriging is used).
     pub noise_var: Array1<f64>,
 }
 
@@ -233,22 +260,50 @@ impl Committee {
     }
 
     fn predict_block(&self, x: ArrayView2<f64>) -> ScaledPrediction {
-        let mut means = Vec::with_capacity(self.members.len());
-        let mut vars = Vec::with_capacity(self.members.len());
-        let mut noise = Array1::zeros(x.nrows());
-        for m in &self.members {
-            let (y, v, nv) = m.predictive(self.n_inputs, x);
-            means.push(y);
-            vars.push(v);
-            noise += &nv;
+        let mut p = members_predict(&self.members, self.n_inputs, x);
+        if let Some((gp_mean, gp_var, factor)) = self.kriging_correction(x) {
+            // var = s·σ²(x) + (parameter + committee variance) + GP variance
+            p.mean += &gp_mean;
+            p.var = &p.var + &(&p.noise_var * (factor - 1.0)) + &gp_var;
+            p.noise_var *= factor;
         }
-        let (mean, var) = combine(&means, &vars);
-        let noise_var = noise / self.members.len() as f64;
-        ScaledPrediction {
-            mean,
-            var,
-            noise_var,
-        }
+        p
+    }
+
+    /// The residual process's mean and variance at scaled inputs `x`, with
+    /// its factor on the members' noise variance; None without kriging.
+    pub fn kriging_correction(
+        &self,
+        x: ArrayView2<f64>,
+    ) -> Option<(Array1<f64>, Array1<f64>, f64)> {
+        let k = self.kriging.as_ref()?;
+        let (m, v) = k.predict(x)?;
+        Some((m, v, k.noise_factor))
+    }
+}
+
+/// The committee of `members` alone (no residual process) at scaled
+/// inputs `x`.
+pub(crate) fn members_predict(
+    members: &[Member],
+    n_inputs: usize,
+    x: ArrayView2<f64>,
+) -> ScaledPrediction {
+    let mut means = Vec::with_capacity(members.len());
+    let mut vars = Vec::with_capacity(members.len());
+    let mut noise = Array1::zeros(x.nrows());
+    for m in members {
+        let (y, v, nv) = m.predictive(n_inputs, x);
+        means.push(y);
+        vars.push(v);
+        noise += &nv;
+    }
+    let (mean, var) = combine(&means, &vars);
+    let noise_var = noise / members.len() as f64;
+    ScaledPrediction {
+        mean,
+        var,
+        noise_var,
     }
 }
 

@@ -44,6 +44,23 @@ pub struct CommitteeParams {
     /// Noise model: constant, varying with the inputs, or chosen.
     #[serde(default)]
     pub noise: NoiseMode,
+    /// Kriging of the committee's residuals: on, off, or chosen.
+    #[serde(default)]
+    pub kriging: KrigingMode,
+}
+
+/// Whether a Gaussian process on the committee's residuals is added.
+#[derive(Clone, Copy, Debug, Default, PartialEq, Eq, Serialize, Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum KrigingMode {
+    /// Always add the process (unless it cannot be fitted).
+    On,
+    /// Never add it: the committee alone.
+    Off,
+    /// Add it when it lowers the held-out NLPD inside the training data
+    /// (never to the linear model, which stays the plain baseline).
+    #[default]
+    Auto,
 }
 
 /// How the noise level of the target is modelled.
@@ -75,6 +92,7 @@ impl Default for CommitteeParams {
             seed: 0,
             fit: FitSettings::default(),
             noise: NoiseMode::Auto,
+            kriging: KrigingMode::Auto,
         }
     }
 }
@@ -146,6 +164,13 @@ impl CommitteeParams {
     #[must_use]
     pub fn fit(mut self, fit: FitSettings) -> Self {
         self.fit = fit;
+        self
+    }
+
+    /// Kriging of the residuals.
+    #[must_use]
+    pub fn kriging(mut self, mode: KrigingMode) -> Self {
+        self.kriging = mode;
         self
     }
 

@@ -10,10 +10,11 @@ use rand_distr::{Distribution, Normal};
 use rand_xoshiro::Xoshiro256PlusPlus;
 use rayon::prelude::*;
 
+use super::kriging::{sample_rows, ResidualKriging};
 use super::noise::{fit_varying, VaryingFit};
 use super::{
-    combine, Candidate, CheckedCommitteeParams, Committee, Member, NoiseMode, NoiseModel,
-    NoiseSelection, Selection,
+    combine, members_predict, Candidate, CheckedCommitteeParams, Committee, KrigingMode,
+    KrigingSelection, Member, NoiseMode, NoiseModel, NoiseSelection, Selection,
 };
 use crate::error::{Error, Result};
 use crate::evidence::{fit_network, FitFailure, FittedNetwork, Groups, StartState};
@@ -384,6 +385,62 @@ pub fn train_committee(
         (n_members, nlpd_by_size)
     };
 
+    // kriging of the residuals, judged on the held-out part
+    let mut kriging_sel = KrigingSelection {
+        requested: params.kriging,
+        committee_nlpd: Some(nlpd_by_size[n_members - 1]),
+        ..KrigingSelection::default()
+    };
+    let mut trial_process: Option<ResidualKriging> = None;
+    // the linear baseline stays a linear model unless the process is asked for
+    let try_kriging = match params.kriging {
+        KrigingMode::Off => false,
+        KrigingMode::Auto => !linear_only,
+        KrigingMode::On => true,
+    };
+    if try_kriging {
+        let provisional: Vec<Member> = if use_varying {
+            varying_members
+                .iter()
+                .map(|c| provisional_member(c.trial, &c.fit))
+                .collect()
+        } else {
+            ranked[..n_members]
+                .iter()
+                .map(|t| member_from(&t.record, t.net.as_ref().expect("trained"), None))
+                .collect()
+        };
+        let rows = sample_rows(x_tr.nrows(), params.seed ^ KRIGING_SEED_SALT);
+        observer.observe(&TrainEvent::Kriging {
+            target: target_name,
+            n_rows: rows.len(),
+        });
+        match fit_process(&provisional, d, x_tr.view(), t_tr.view(), &rows, None) {
+            Ok(process) => {
+                let p = members_predict(&provisional, d, x_ho.view());
+                let nlpd = process.predict(x_ho.view()).map(|(gm, gv)| {
+                    let s = process.noise_factor;
+                    let mean = &p.mean + &gm;
+                    let var = &p.var + &(&p.noise_var * (s - 1.0)) + &gv;
+                    nlpd_scaled(&mean, &var, t_ho.view()) + ln_width
+                });
+                kriging_sel.kriging_nlpd = nlpd.filter(|v| v.is_finite());
+                trial_process = Some(process);
+            }
+            Err(f) => kriging_sel.failure = Some(f.to_string()),
+        }
+    }
+    let use_kriging = match (
+        params.kriging,
+        kriging_sel.kriging_nlpd,
+        kriging_sel.committee_nlpd,
+    ) {
+        (KrigingMode::Off, _, _) | (_, None, _) => false,
+        (KrigingMode::On, Some(_), _) => true,
+        (KrigingMode::Auto, Some(k), Some(c)) => k < c,
+        (KrigingMode::Auto, Some(_), None) => false,
+    };
+
     // refit the chosen members on all the data, warm-started
     observer.observe(&TrainEvent::Refitting {
         target: target_name,
@@ -456,7 +513,39 @@ pub fn train_committee(
             ),
         });
     }
-    let heldout_nlpd = nlpd_by_size[n_members - 1];
+    // the process judged on the held-out part, with its hyperparameters,
+    // on the final members' residuals over all the rows
+    let mut kriging = None;
+    if let (true, Some(trial)) = (use_kriging, trial_process.as_ref()) {
+        let rows = sample_rows(n, params.seed ^ KRIGING_SEED_SALT);
+        observer.observe(&TrainEvent::Kriging {
+            target: target_name,
+            n_rows: rows.len(),
+        });
+        match fit_process(&members, d, x, t, &rows, Some(trial)) {
+            Ok(process) => {
+                kriging_sel.used = true;
+                kriging_sel.n_rows = rows.len();
+                kriging = Some(process);
+            }
+            Err(f) => kriging_sel.failure = Some(format!("on all the rows: {f}")),
+        }
+    }
+    if params.kriging == KrigingMode::On && kriging.is_none() {
+        return Err(Error::AllCandidatesFailed {
+            reasons: format!(
+                "the residual process could not be fitted: {}",
+                kriging_sel
+                    .failure
+                    .as_deref()
+                    .unwrap_or("no finite held-out NLPD")
+            ),
+        });
+    }
+    let heldout_nlpd = match (kriging_sel.used, kriging_sel.kriging_nlpd) {
+        (true, Some(v)) => v,
+        _ => nlpd_by_size[n_members - 1],
+    };
     observer.observe(&TrainEvent::TargetDone {
         target: target_name,
         n_members: members.len(),
@@ -475,8 +564,35 @@ pub fn train_committee(
             n_members,
             refit_failures,
             noise: noise_sel,
+            kriging: kriging_sel,
         },
+        kriging,
     })
+}
+
+/// Mixed into the master seed for the rows a residual process is fitted
+/// on, when there are more than [`super::KRIGING_MAX_ROWS`].
+const KRIGING_SEED_SALT: u64 = 0x6B72_6967_0000_0001;
+
+/// Fit a residual process to the committee of `members` on the rows
+/// `rows` of scaled `x`, `t`; with `fitted`, keep its hyperparameters and
+/// only take the new residuals.
+fn fit_process(
+    members: &[Member],
+    d: usize,
+    x: ArrayView2<f64>,
+    t: ArrayView1<f64>,
+    rows: &[usize],
+    fitted: Option<&ResidualKriging>,
+) -> std::result::Result<ResidualKriging, FitFailure> {
+    let xs = x.select(Axis(0), rows);
+    let ts = t.select(Axis(0), rows);
+    let p = members_predict(members, d, xs.view());
+    let residual = &ts - &p.mean;
+    match fitted {
+        None => ResidualKriging::fit(xs.view(), residual.view(), p.noise_var.view()),
+        Some(k) => k.with_residuals(xs.view(), residual.view(), p.noise_var.view()),
+    }
 }
 
 /// A varying-noise fit with its held-out NLPD and held-out (mean,

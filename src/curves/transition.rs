@@ -179,11 +179,20 @@ type MemberCurves = Vec<(Vec<f64>, Vec<f64>, Vec<f64>)>;
 fn member_curves(model: &Model, k: usize, scaled: &Array2<f64>) -> MemberCurves {
     let t = &model.targets[k];
     let w = t.scaling.width();
+    // the residual process, when there is one, shifts every member's mean
+    // and adds its variance to the parameter part, as in the committee's
+    // own prediction
+    let correction = t.committee.kriging_correction(scaled.view());
     t.committee
         .members
         .iter()
         .map(|m| {
-            let (y, var, nv) = m.predictive(t.committee.n_inputs, scaled.view());
+            let (mut y, mut var, mut nv) = m.predictive(t.committee.n_inputs, scaled.view());
+            if let Some((gm, gv, factor)) = &correction {
+                y += gm;
+                var = &var + &(&nv * (factor - 1.0)) + gv;
+                nv *= *factor;
+            }
             let mean = y.iter().map(|v| t.scaling.unscale_linear(*v)).collect();
             let par = var
                 .iter()

@@ -574,7 +574,9 @@ pub(crate) mod tests {
                 n_members: alphas.len(),
                 refit_failures: vec![],
                 noise: NoiseSelection::default(),
+                kriging: Default::default(),
             },
+            kriging: None,
         }
     }
 }

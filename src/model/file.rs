@@ -12,7 +12,7 @@ use crate::error::{Error, Result};
 pub const MODEL_FORMAT: &str = "mettle-model";
 
 /// The newest model format version this build writes and reads.
-pub const MODEL_FORMAT_VERSION: u64 = 2;
+pub const MODEL_FORMAT_VERSION: u64 = 3;
 
 impl Model {
     /// The model as JSON bytes (compact, with a final newline). Identical
@@ -179,6 +179,28 @@ impl Model {
                             nm.posterior_cov.nrows()
                         ));
                     }
+                }
+            }
+            if let Some(k) = &t.committee.kriging {
+                let ok = k.x.ncols() == d
+                    && k.length_scales.len() == d
+                    && k.x
+                        .iter()
+                        .chain(&k.residual)
+                        .chain(&k.noise_var)
+                        .chain(&k.length_scales)
+                        .all(|v| v.is_finite())
+                    && k.signal_var > 0.0
+                    && k.noise_factor > 0.0
+                    && k.is_usable();
+                if !ok {
+                    return Err(format!(
+                        "target '{}': its residual process is damaged ({} rows × {} inputs, {} length scales; expected {d} inputs, finite numbers and a kernel matrix that factorises)",
+                        t.name,
+                        k.x.nrows(),
+                        k.x.ncols(),
+                        k.length_scales.len()
+                    ));
                 }
             }
         }

@@ -1,0 +1,703 @@
+//! Kriging of the committee's residuals: a Gaussian process on what the
+//! networks leave unexplained.
+//!
+//! # Method
+//!
+//! Regression kriging (Hengl, Heuvelink & Rossiter 2007, "About
+//! regression-kriging: from equations to case studies", Computers &
+//! Geosciences 33:1301): a trend model (here the committee) plus a Gaussian
+//! process on its residuals,
+//!
+//! ```text
+//! r_n = t_n − ȳ(x_n) = g(x_n) + ε_n,   g ~ GP(0, k),   ε_n ~ N(0, s·σ²(x_n))
+//! k(x, x') = τ² · exp(−½ Σ_j (x_j − x'_j)² / ℓ_j²)
+//! ```
+//!
+//! with σ²(x) the committee's noise variance (constant, or varying with the
+//! inputs), one length scale ℓ_j per input (automatic relevance
+//! determination, Rasmussen & Williams 2006, *Gaussian Processes for Machine
+//! Learning*, §5.1). The committee's noise variance already holds all the
+//! scatter it leaves unexplained, so the process splits it rather than
+//! adding to it: a share f is correlated over the inputs, the rest is not,
+//!
+//! ```text
+//! τ² = f·σ̄²,   s = 1 − f,   σ̄² = mean of σ²(x_n) over the rows
+//! ```
+//!
+//! so that far from the rows, where k(x) → 0, the estimate and its variance
+//! are the committee's own. Rows whose groups recur in the data (a mix at
+//! several ages, a weld at several test temperatures) share a residual that
+//! the smooth networks cannot follow; the process picks it up where the
+//! data show it.
+//!
+//! θ = (ln ℓ_1…ln ℓ_d, logit f) maximises the log marginal likelihood
+//! (Rasmussen & Williams 2006, eq. 5.8) plus weak Gaussian hyperpriors on
+//! each component (type-II maximum a posteriori, ibid. §5.2), with K_y =
+//! τ²R + s·diag(σ²(x_n)):
+//!
+//! ```text
+//! ln p(r | θ) = −½ rᵀK_y⁻¹r − ½ ln|K_y| − (N/2) ln 2π
+//! ∂/∂φ_i       = ½ tr((ααᵀ − K_y⁻¹) ∂K_y/∂φ_i),   α = K_y⁻¹r     (eq. 5.9)
+//! ```
+//!
+//! for φ = (ln ℓ, ln τ², ln s), and the chain rule to θ.
+//!
+//! The prediction at x* adds the process's posterior mean and variance
+//! (ibid. eqs. 2.25–2.26) to the committee's:
+//!
+//! ```text
+//! mean = ȳ(x*) + k*ᵀα
+//! var  = s·σ²(x*) + model variance(x*) + τ² − k*ᵀK_y⁻¹k*
+//! ```
+//!
+//! # Approximations
+//!
+//! The residuals are those of the committee on the rows it was trained on,
+//! so part of the structure has already been fitted: the process sees only
+//! what remains. The committee's parameter uncertainty and the process's
+//! variance are added as if independent. At most [`KRIGING_MAX_ROWS`]
+//! rows (a seeded random sample) enter the process, so that its cost,
+//! O(N³) per evaluation, stays bounded on large archives.
+
+use std::sync::{Arc, Mutex, OnceLock};
+
+use argmin::core::{
+    CostFunction, Error as ArgminError, Executor, Gradient, TerminationReason, TerminationStatus,
+};
+use argmin::solver::linesearch::MoreThuenteLineSearch;
+use argmin::solver::quasinewton::LBFGS;
+use ndarray::{Array1, Array2, ArrayView1, ArrayView2, Axis};
+use ndarray_linalg::{
+    CholeskyFactorized, Diag, FactorizeC, InverseC, SolveC, SolveTriangular, UPLO,
+};
+use serde::{Deserialize, Serialize};
+
+use crate::evidence::FitFailure;
+use crate::prec::{KRIGING_COST_TOL, KRIGING_GRAD_TOL, KRIGING_JITTER, VAR_FLOOR};
+
+/// Largest number of rows the process is fitted on.
+pub const KRIGING_MAX_ROWS: usize = 2000;
+
+/// Iterations of the hyperparameter search, over all its restarts.
+const KRIGING_ITERS: u64 = 100;
+
+/// Length scales the search starts from (scaled input units). A start
+/// from 1.0 as well was tried on invented heat data and found nothing
+/// better; each start costs a full search.
+const KRIGING_START_LENGTHS: [f64; 1] = [0.3];
+
+/// Runs of L-BFGS at most (a run cut short by a failed line search is
+/// restarted from its best point).
+const KRIGING_RESTARTS: usize = 4;
+
+/// Weak hyperpriors, centre and sd: on each ln ℓ_j (scaled inputs span
+/// [−0.5, 0.5]) and on the logit of the correlated share f.
+const PRIOR_LN_LENGTH: (f64, f64) = (-1.2, 2.0);
+const PRIOR_SHARE_LOGIT: (f64, f64) = (0.0, 2.0);
+
+/// A Gaussian process fitted to a committee's residuals.
+#[derive(Clone, Debug, Serialize, Deserialize)]
+pub struct ResidualKriging {
+    /// Scaled inputs of the rows the process was fitted on (N × d).
+    pub x: Array2<f64>,
+    /// The committee's residuals at those rows (scaled target units).
+    pub residual: Vec<f64>,
+    /// The committee's noise variance at those rows (scaled units).
+    pub noise_var: Vec<f64>,
+    /// Length scale ℓ_j of each input (scaled input units).
+    pub length_scales: Vec<f64>,
+    /// Signal variance τ² (scaled target units).
+    pub signal_var: f64,
+    /// Factor s on the committee's noise variance.
+    pub noise_factor: f64,
+    /// Log marginal likelihood of the residuals at the chosen θ.
+    pub log_marginal_likelihood: f64,
+    /// The factorised kernel matrix, built on first use.
+    #[serde(skip)]
+    state: OnceLock<Option<Arc<KrigingState>>>,
+}
+
+impl PartialEq for ResidualKriging {
+    fn eq(&self, other: &Self) -> bool {
+        self.x == other.x
+            && self.residual == other.residual
+            && self.noise_var == other.noise_var
+            && self.length_scales == other.length_scales
+            && self.signal_var == other.signal_var
+            && self.noise_factor == other.noise_factor
+            && self.log_marginal_likelihood == other.log_marginal_likelihood
+    }
+}
+
+/// The factorised process, ready to predict.
+#[derive(Debug)]
+pub(crate) struct KrigingState {
+    chol_lower: Array2<f64>,
+    alpha: Array1<f64>,
+}
+
+/// Squared-exponential kernel matrix τ²·exp(−½ Σ_j (a_j − b_j)²/ℓ_j²).
+fn kernel(a: ArrayView2<f64>, b: ArrayView2<f64>, length: &[f64], signal_var: f64) -> Array2<f64> {
+    let inv = Array1::from_iter(length.iter().map(|l| 1.0 / l));
+    let a = &a * &inv;
+    let b = &b * &inv;
+    let na: Array1<f64> = a.map_axis(Axis(1), |r| r.dot(&r));
+    let nb: Array1<f64> = b.map_axis(Axis(1), |r| r.dot(&r));
+    let mut k = a.dot(&b.t());
+    for ((i, j), v) in k.indexed_iter_mut() {
+        let d2 = (na[i] + nb[j] - 2.0 * *v).max(0.0);
+        *v = signal_var * (-0.5 * d2).exp();
+    }
+    k
+}
+
+fn prior(v: f64, (centre, sd): (f64, f64)) -> (f64, f64) {
+    let z = (v - centre) / sd;
+    (0.5 * z * z, z / sd)
+}
+
+/// The negative log marginal likelihood of the residuals and its gradient
+/// in φ = (ln ℓ_1…ln ℓ_d, ln τ², ln s), any τ² and s.
+pub(crate) fn neg_log_marginal(
+    theta: &[f64],
+    x: ArrayView2<f64>,
+    r: ArrayView1<f64>,
+    noise_var: ArrayView1<f64>,
+) -> ValueGradient {
+    let d = x.ncols();
+    let n = x.nrows();
+    let length: Vec<f64> = theta[..d].iter().map(|v| v.exp()).collect();
+    let signal = theta[d].exp();
+    let factor = theta[d + 1].exp();
+    let unit = kernel(x, x, &length, 1.0);
+    let mut ky = &unit * signal;
+    for i in 0..n {
+        ky[[i, i]] += factor * noise_var[i] + KRIGING_JITTER;
+    }
+    let f = ky.factorizec(UPLO::Lower).ok()?;
+    let alpha = f.solvec(&r.to_owned()).ok()?;
+    let ln_det = 2.0 * f.factor.diag().iter().map(|l| l.ln()).sum::<f64>();
+    let inv = f.invc().ok()?;
+    let value =
+        0.5 * r.dot(&alpha) + 0.5 * ln_det + 0.5 * n as f64 * (2.0 * std::f64::consts::PI).ln();
+    // W = ααᵀ − K_y⁻¹; ∂(−ln p)/∂θ_i = −½ tr(W ∂K_y/∂θ_i)
+    let mut w = inv;
+    w.mapv_inplace(|v| -v);
+    for i in 0..n {
+        for j in 0..n {
+            w[[i, j]] += alpha[i] * alpha[j];
+        }
+    }
+    let m = &w * &unit; // W ∘ R
+    let mut grad = Array1::zeros(d + 2);
+    // ln τ²: ∂K/∂ln τ² = τ²R
+    grad[d] = -0.5 * signal * m.sum();
+    // ln s: ∂K/∂ln s = s·diag(σ²)
+    grad[d + 1] = -0.5 * factor * (0..n).map(|i| w[[i, i]] * noise_var[i]).sum::<f64>();
+    // ln ℓ_k: ∂K_ij/∂ln ℓ_k = τ²R_ij (x_ik − x_jk)²/ℓ_k², and
+    // Σ_ij M_ij (x_ik − x_jk)² = 2 Σ_i x_ik² (M1)_i − 2 x_kᵀ M x_k
+    let row_sums = m.sum_axis(Axis(1));
+    let mx = m.dot(&x);
+    for k in 0..d {
+        let xk = x.column(k);
+        let s2: f64 = xk.iter().zip(&row_sums).map(|(v, s)| v * v * s).sum();
+        let cross: f64 = xk.iter().zip(mx.column(k)).map(|(a, b)| a * b).sum();
+        let total = 2.0 * s2 - 2.0 * cross;
+        grad[k] = -0.5 * signal * total / (length[k] * length[k]);
+    }
+    if value.is_finite() && grad.iter().all(|g| g.is_finite()) {
+        Some((value, grad))
+    } else {
+        None
+    }
+}
+
+/// The negative log posterior of the partition θ = (ln ℓ_1…ln ℓ_d, u):
+/// the committee's noise variance is split into a share f = 1/(1 + e^(−u))
+/// correlated over the inputs and the rest uncorrelated,
+///
+/// ```text
+/// τ² = f·σ̄²,   s = 1 − f,   σ̄² = mean of σ²(x_n) over the rows
+/// ```
+///
+/// so that far from the rows (k(x) → 0) the variance is that of the
+/// committee alone. Weak Gaussian hyperpriors on each ln ℓ_j and on u;
+/// the gradient follows from [`neg_log_marginal`] by the chain rule
+/// (∂ln τ²/∂u = 1 − f, ∂ln s/∂u = −f).
+pub(crate) fn neg_log_posterior(
+    theta: &[f64],
+    x: ArrayView2<f64>,
+    r: ArrayView1<f64>,
+    noise_var: ArrayView1<f64>,
+) -> ValueGradient {
+    let d = x.ncols();
+    let (signal, factor, f) = partition(theta[d], noise_var);
+    let mut phi = theta[..d].to_vec();
+    phi.push(signal.ln());
+    phi.push(factor.ln());
+    let (mut value, g) = neg_log_marginal(&phi, x, r, noise_var)?;
+    let mut grad = Array1::zeros(d + 1);
+    for k in 0..d {
+        let (p, gp) = prior(theta[k], PRIOR_LN_LENGTH);
+        value += p;
+        grad[k] = g[k] + gp;
+    }
+    let (p, gp) = prior(theta[d], PRIOR_SHARE_LOGIT);
+    value += p;
+    grad[d] = g[d] * (1.0 - f) - g[d + 1] * f + gp;
+    (value.is_finite() && grad.iter().all(|v| v.is_finite())).then_some((value, grad))
+}
+
+/// τ², s and f of the partition with logit `u` over rows with noise
+/// variances `noise_var`.
+fn partition(u: f64, noise_var: ArrayView1<f64>) -> (f64, f64, f64) {
+    let f = 1.0 / (1.0 + (-u).exp());
+    let mean_var = noise_var.mean().unwrap_or(0.0).max(VAR_FLOOR);
+    (f * mean_var, 1.0 - f, f)
+}
+
+/// θ with the value and gradient of [`neg_log_posterior`] there.
+type Evaluation = (Array1<f64>, f64, Array1<f64>);
+
+/// Value and gradient, or None where K_y does not factorise.
+type ValueGradient = Option<(f64, Array1<f64>)>;
+
+/// The optimiser's view of [`neg_log_posterior`], caching the last
+/// evaluation (argmin asks for cost and gradient separately).
+struct Problem<'a> {
+    x: ArrayView2<'a, f64>,
+    r: ArrayView1<'a, f64>,
+    noise_var: ArrayView1<'a, f64>,
+    cache: Mutex<Option<Evaluation>>,
+}
+
+impl Problem<'_> {
+    fn eval(&self, theta: &Array1<f64>) -> (f64, Array1<f64>) {
+        let mut cache = self.cache.lock().unwrap_or_else(|p| p.into_inner());
+        if let Some((t, v, g)) = cache.as_ref() {
+            if t == theta {
+                return (*v, g.clone());
+            }
+        }
+        let out = neg_log_posterior(
+            theta.as_slice().unwrap_or(&theta.to_vec()),
+            self.x,
+            self.r,
+            self.noise_var,
+        )
+        .unwrap_or_else(|| (f64::INFINITY, Array1::zeros(theta.len())));
+        *cache = Some((theta.clone(), out.0, out.1.clone()));
+        out
+    }
+}
+
+impl CostFunction for Problem<'_> {
+    type Param = Array1<f64>;
+    type Output = f64;
+    fn cost(&self, theta: &Self::Param) -> Result<f64, ArgminError> {
+        Ok(self.eval(theta).0)
+    }
+}
+
+impl Gradient for Problem<'_> {
+    type Param = Array1<f64>;
+    type Gradient = Array1<f64>;
+    fn gradient(&self, theta: &Self::Param) -> Result<Array1<f64>, ArgminError> {
+        Ok(self.eval(theta).1)
+    }
+}
+
+/// Starting θ: every length scale `length`, half the noise variance
+/// correlated (u = 0).
+fn default_start(d: usize, length: f64) -> Vec<f64> {
+    let mut theta = vec![length.ln(); d];
+    theta.push(0.0);
+    theta
+}
+
+/// L-BFGS on [`neg_log_posterior`] from `start`, returning the best value
+/// and θ. A run that ends in a failed line search (a trial step where K_y
+/// does not factorise) is restarted from its best point with a fresh
+/// memory.
+fn minimise<'a>(
+    x: ArrayView2<'a, f64>,
+    r: ArrayView1<'a, f64>,
+    noise_var: ArrayView1<'a, f64>,
+    start: Vec<f64>,
+) -> Result<(f64, Vec<f64>), FitFailure> {
+    let mut theta = start;
+    let mut best = f64::INFINITY;
+    let mut iters_left = KRIGING_ITERS;
+    for _ in 0..KRIGING_RESTARTS {
+        let problem = Problem {
+            x,
+            r,
+            noise_var,
+            cache: Mutex::new(None),
+        };
+        let solver = LBFGS::new(MoreThuenteLineSearch::new(), 7)
+            .with_tolerance_grad(KRIGING_GRAD_TOL)
+            .and_then(|s| s.with_tolerance_cost(KRIGING_COST_TOL))
+            .map_err(|e| FitFailure::Stalled(format!("kriging optimiser set-up: {e}")))?;
+        let Ok(mut res) = Executor::new(problem, solver)
+            .configure(|s| s.param(Array1::from(theta.clone())).max_iters(iters_left))
+            .timer(false)
+            .run()
+        else {
+            break;
+        };
+        let state = &mut res.state;
+        iters_left = iters_left.saturating_sub(state.iter);
+        let cost = state.best_cost;
+        let improved = cost < best - KRIGING_COST_TOL;
+        if cost < best {
+            if let Some(p) = state.take_best_param() {
+                theta = p.to_vec();
+                best = cost;
+            }
+        }
+        let line_search_failed = matches!(
+            state.termination_status,
+            TerminationStatus::Terminated(TerminationReason::SolverExit(_))
+        );
+        if !line_search_failed || !improved || iters_left == 0 {
+            break;
+        }
+    }
+    Ok((best, theta))
+}
+
+impl ResidualKriging {
+    /// Fit the process to residuals `r` at scaled inputs `x`, with the
+    /// committee's noise variance `noise_var` there.
+    ///
+    /// # Errors
+    /// [`FitFailure::Stalled`] when the optimiser fails or the kernel
+    /// matrix cannot be factorised at the start.
+    pub(crate) fn fit<'a>(
+        x: ArrayView2<'a, f64>,
+        r: ArrayView1<'a, f64>,
+        noise_var: ArrayView1<'a, f64>,
+    ) -> Result<ResidualKriging, FitFailure> {
+        let d = x.ncols();
+        // every start in KRIGING_START_LENGTHS; the best end point is kept
+        let mut found: Option<(f64, Vec<f64>)> = None;
+        for &length in &KRIGING_START_LENGTHS {
+            let start = default_start(d, length);
+            if neg_log_posterior(&start, x, r, noise_var).is_none() {
+                continue;
+            }
+            let end = minimise(x, r, noise_var, start)?;
+            if found.as_ref().is_none_or(|(best, _)| end.0 < *best) {
+                found = Some(end);
+            }
+        }
+        let Some((_, theta)) = found else {
+            return Err(FitFailure::Stalled(
+                "kriging: the kernel matrix at the start is not positive definite".into(),
+            ));
+        };
+        let (value, _) = neg_log_posterior(&theta, x, r, noise_var).ok_or_else(|| {
+            FitFailure::Stalled("kriging: the fitted kernel matrix is not positive definite".into())
+        })?;
+        let (signal_var, noise_factor, _) = partition(theta[d], noise_var);
+        Ok(ResidualKriging {
+            x: x.to_owned(),
+            residual: r.to_vec(),
+            noise_var: noise_var.to_vec(),
+            length_scales: theta[..d].iter().map(|v| v.exp()).collect(),
+            signal_var,
+            noise_factor,
+            log_marginal_likelihood: -value,
+            state: OnceLock::new(),
+        })
+    }
+
+    /// The same hyperparameters on other rows: residuals `r` at scaled
+    /// inputs `x` with noise variance `noise_var` (the refitted
+    /// committee's, over all the training rows).
+    ///
+    /// # Errors
+    /// [`FitFailure::Stalled`] when K_y does not factorise on those rows.
+    pub(crate) fn with_residuals(
+        &self,
+        x: ArrayView2<f64>,
+        r: ArrayView1<f64>,
+        noise_var: ArrayView1<f64>,
+    ) -> Result<ResidualKriging, FitFailure> {
+        // the same correlated share f = 1 − s of the (new) noise variance
+        let f = (1.0 - self.noise_factor).clamp(1e-12, 1.0 - 1e-12);
+        let mut theta: Vec<f64> = self.length_scales.iter().map(|l| l.ln()).collect();
+        theta.push((f / (1.0 - f)).ln());
+        let (value, _) = neg_log_posterior(&theta, x, r, noise_var).ok_or_else(|| {
+            FitFailure::Stalled(
+                "kriging: the kernel matrix on all the rows is not positive definite".into(),
+            )
+        })?;
+        let (signal_var, noise_factor, _) = partition(theta[x.ncols()], noise_var);
+        Ok(ResidualKriging {
+            x: x.to_owned(),
+            residual: r.to_vec(),
+            noise_var: noise_var.to_vec(),
+            signal_var,
+            noise_factor,
+            log_marginal_likelihood: -value,
+            state: OnceLock::new(),
+            length_scales: self.length_scales.clone(),
+        })
+    }
+
+    /// The factorised K_y, built once and kept; None when it is not
+    /// positive definite (a damaged model file).
+    fn state(&self) -> Option<&KrigingState> {
+        self.state
+            .get_or_init(|| self.factorise().map(Arc::new))
+            .as_deref()
+    }
+
+    fn factorise(&self) -> Option<KrigingState> {
+        let n = self.x.nrows();
+        if n == 0 || self.residual.len() != n || self.noise_var.len() != n {
+            return None;
+        }
+        let mut ky = kernel(
+            self.x.view(),
+            self.x.view(),
+            &self.length_scales,
+            self.signal_var,
+        );
+        for i in 0..n {
+            ky[[i, i]] += self.noise_factor * self.noise_var[i] + KRIGING_JITTER;
+        }
+        let f: CholeskyFactorized<_> = ky.factorizec(UPLO::Lower).ok()?;
+        let alpha = f.solvec(&Array1::from(self.residual.clone())).ok()?;
+        let mut chol_lower = f.factor;
+        // the factor's upper triangle holds leftovers of K_y
+        for i in 0..n {
+            for j in i + 1..n {
+                chol_lower[[i, j]] = 0.0;
+            }
+        }
+        Some(KrigingState { chol_lower, alpha })
+    }
+
+    /// The process's posterior mean and variance at scaled inputs `x`
+    /// (Rasmussen & Williams 2006, eqs. 2.25–2.26); None when the stored
+    /// process cannot be factorised.
+    pub fn predict(&self, x: ArrayView2<f64>) -> Option<(Array1<f64>, Array1<f64>)> {
+        let st = self.state()?;
+        let ks = kernel(x, self.x.view(), &self.length_scales, self.signal_var); // m × N
+        let mean = ks.dot(&st.alpha);
+        let v = st
+            .chol_lower
+            .solve_triangular(UPLO::Lower, Diag::NonUnit, &ks.t().to_owned())
+            .ok()?;
+        let explained = v.map_axis(Axis(0), |c| c.dot(&c));
+        let var = explained.mapv(|e| (self.signal_var - e).max(VAR_FLOOR));
+        Some((mean, var))
+    }
+
+    /// Whether the stored process can be used (its kernel matrix factorises).
+    pub fn is_usable(&self) -> bool {
+        self.state().is_some()
+    }
+}
+
+/// A seeded random sample of at most [`KRIGING_MAX_ROWS`] row indices out
+/// of `n`, in increasing order.
+pub(crate) fn sample_rows(n: usize, seed: u64) -> Vec<usize> {
+    use rand::seq::index::sample;
+    use rand::SeedableRng;
+    if n <= KRIGING_MAX_ROWS {
+        return (0..n).collect();
+    }
+    let mut rng = rand_xoshiro::Xoshiro256PlusPlus::seed_from_u64(seed);
+    let mut rows = sample(&mut rng, n, KRIGING_MAX_ROWS).into_vec();
+    rows.sort_unstable();
+    rows
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::prec::FD_STEP;
+    use rand::{Rng, SeedableRng};
+    use rand_xoshiro::Xoshiro256PlusPlus;
+
+    fn check_gradient(f: &dyn Fn(&[f64]) -> ValueGradient, theta: &[f64], what: &str) {
+        let (_, g) = f(theta).expect("pd");
+        for k in 0..theta.len() {
+            let mut tp = theta.to_vec();
+            let mut tm = theta.to_vec();
+            tp[k] += FD_STEP;
+            tm[k] -= FD_STEP;
+            let fd = (f(&tp).expect("pd").0 - f(&tm).expect("pd").0) / (2.0 * FD_STEP);
+            assert!(
+                (fd - g[k]).abs() < 1e-5 * (1.0 + fd.abs()),
+                "{what} θ{k}: analytic {} vs FD {fd}",
+                g[k]
+            );
+        }
+    }
+
+    #[test]
+    fn gradients_match_finite_differences() {
+        let mut rng = Xoshiro256PlusPlus::seed_from_u64(11);
+        let (n, d) = (25, 3);
+        let x: Array2<f64> = Array2::from_shape_fn((n, d), |_| rng.random_range(-0.5..0.5));
+        let r = Array1::from_shape_fn(n, |i| {
+            (3.0 * x[[i, 0]]).sin() * 0.1 + rng.random_range(-0.02..0.02)
+        });
+        let nv = Array1::from_shape_fn(n, |_| rng.random_range(0.0005..0.002));
+        let general = |t: &[f64]| neg_log_marginal(t, x.view(), r.view(), nv.view());
+        check_gradient(
+            &general,
+            &[-1.0, -0.5, 0.3, -5.0, -0.2],
+            "marginal likelihood",
+        );
+        let partitioned = |t: &[f64]| neg_log_posterior(t, x.view(), r.view(), nv.view());
+        check_gradient(&partitioned, &[-1.0, -0.5, 0.3, 0.7], "partition posterior");
+        check_gradient(
+            &partitioned,
+            &[-0.2, 0.4, -1.5, -2.0],
+            "partition posterior",
+        );
+    }
+
+    /// Log marginal likelihood, posterior mean and latent variance against
+    /// scikit-learn's `GaussianProcessRegressor` with the same fixed
+    /// kernel and per-row noise, on the diabetes data (Efron et al. 2004,
+    /// from linfa-datasets 0.8.1). Reference values made once by
+    /// tests/reference/gp_residual_diabetes.py (scikit-learn 1.9.1).
+    #[test]
+    fn matches_scikit_learn_gaussian_process() {
+        let path = concat!(
+            env!("CARGO_MANIFEST_DIR"),
+            "/tests/data/gp_residual_diabetes.json"
+        );
+        let v: serde_json::Value =
+            serde_json::from_str(&std::fs::read_to_string(path).expect("reference file"))
+                .expect("json");
+        let vec = |k: &str| -> Vec<f64> {
+            v[k].as_array()
+                .expect(k)
+                .iter()
+                .map(|x| x.as_f64().expect("number"))
+                .collect()
+        };
+        let mat = |k: &str| -> Array2<f64> {
+            let rows: Vec<Vec<f64>> = v[k]
+                .as_array()
+                .expect(k)
+                .iter()
+                .map(|r| {
+                    r.as_array()
+                        .expect("row")
+                        .iter()
+                        .map(|x| x.as_f64().expect("number"))
+                        .collect()
+                })
+                .collect();
+            Array2::from_shape_fn((rows.len(), rows[0].len()), |(i, j)| rows[i][j])
+        };
+        let x = mat("x_train");
+        let x_test = mat("x_test");
+        let r = Array1::from(vec("residual"));
+        let nv = Array1::from(vec("noise_var"));
+        let length = vec("length_scales");
+        let signal = v["signal_var"].as_f64().expect("signal");
+        let factor = v["noise_factor"].as_f64().expect("factor");
+        let mut phi: Vec<f64> = length.iter().map(|l| l.ln()).collect();
+        phi.push(signal.ln());
+        phi.push(factor.ln());
+        let (value, _) = neg_log_marginal(&phi, x.view(), r.view(), nv.view()).expect("pd");
+        let lml = -value;
+        let lml_ref = v["log_marginal_likelihood"].as_f64().expect("lml");
+        assert!(
+            (lml - lml_ref).abs() < 1e-6 * lml_ref.abs(),
+            "log marginal likelihood {lml} vs sklearn {lml_ref}"
+        );
+        let k = ResidualKriging {
+            x,
+            residual: r.to_vec(),
+            noise_var: nv.to_vec(),
+            length_scales: length,
+            signal_var: signal,
+            noise_factor: factor,
+            log_marginal_likelihood: lml,
+            state: OnceLock::new(),
+        };
+        // tolerance: one part in a million of the process's sd (our
+        // KRIGING_JITTER on the diagonal is the only intended difference)
+        let (mean, var) = k.predict(x_test.view()).expect("factorises");
+        let tol = 1e-6 * signal.sqrt();
+        for (i, (m, m_ref)) in mean.iter().zip(vec("mean")).enumerate() {
+            assert!(
+                (m - m_ref).abs() < tol,
+                "row {i}: mean {m} vs sklearn {m_ref}"
+            );
+        }
+        for (i, (s2, s2_ref)) in var.iter().zip(vec("latent_var")).enumerate() {
+            assert!(
+                (s2 - s2_ref).abs() < tol * tol + 1e-6 * s2_ref,
+                "row {i}: variance {s2} vs sklearn {s2_ref}"
+            );
+        }
+    }
+
+    /// The fitted process finds structure the residuals carry and gives
+    /// the noise back where they carry none (synthetic: common practice
+    /// for checking a Gaussian process, no source).
+    #[test]
+    fn fit_recovers_a_smooth_residual_and_pure_noise() {
+        let mut rng = Xoshiro256PlusPlus::seed_from_u64(5);
+        let (n, d) = (200, 2);
+        let x: Array2<f64> = Array2::from_shape_fn((n, d), |_| rng.random_range(-0.5..0.5));
+        let noise_sd = 0.02;
+        let normal = rand_distr::Normal::new(0.0, noise_sd).expect("sd");
+        let eps: Vec<f64> = (0..n)
+            .map(|_| rand_distr::Distribution::sample(&normal, &mut rng))
+            .collect();
+        // the committee's noise variance takes in all it leaves unexplained:
+        // structure variance 0.1²/2 plus the noise
+        let nv = Array1::from_elem(n, 0.005 + noise_sd * noise_sd);
+        // structure along input 0 only
+        let r = Array1::from_shape_fn(n, |i| 0.1 * (6.0 * x[[i, 0]]).sin() + eps[i]);
+        let k = ResidualKriging::fit(x.view(), r.view(), nv.view()).expect("fits");
+        assert!(
+            k.length_scales[0] < 0.5,
+            "relevant input: ℓ = {}",
+            k.length_scales[0]
+        );
+        assert!(
+            k.length_scales[1] > 2.0 * k.length_scales[0],
+            "irrelevant input: ℓ = {:?}",
+            k.length_scales
+        );
+        // uncorrelated share s·σ² should be the true noise variance
+        let noise_var_fitted = k.noise_factor * nv[0];
+        assert!(
+            (0.6..1.6).contains(&(noise_var_fitted / (noise_sd * noise_sd))),
+            "uncorrelated variance {noise_var_fitted} vs true {}",
+            noise_sd * noise_sd
+        );
+        let x_new: Array2<f64> = Array2::from_shape_fn((50, d), |_| rng.random_range(-0.4..0.4));
+        let (m, _) = k.predict(x_new.view()).expect("predicts");
+        let err: f64 = (0..50)
+            .map(|i| (m[i] - 0.1 * (6.0 * x_new[[i, 0]]).sin()).powi(2))
+            .sum::<f64>()
+            / 50.0;
+        assert!(
+            err.sqrt() < 0.5 * noise_sd,
+            "rms error of the process mean {}",
+            err.sqrt()
+        );
+        // pure noise: the process must not claim structure
+        let r0 = Array1::from(eps);
+        let nv0 = Array1::from_elem(n, noise_sd * noise_sd);
+        let k0 = ResidualKriging::fit(x.view(), r0.view(), nv0.view()).expect("fits");
+        let (m0, _) = k0.predict(x_new.view()).expect("predicts");
+        let rms0 = (m0.mapv(|v| v * v).sum() / 50.0).sqrt();
+        assert!(rms0 < 0.3 * noise_sd, "process mean on pure noise {rms0}");
+    }
+}
