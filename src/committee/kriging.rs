@@ -98,7 +98,9 @@ const PRIOR_SHARE_LOGIT: (f64, f64) = (0.0, 2.0);
 /// A Gaussian process fitted to a committee's residuals.
 #[derive(Clone, Debug, Serialize, Deserialize)]
 pub struct ResidualKriging {
-    /// Scaled inputs of the rows the process was fitted on (N × d).
+    /// Scaled inputs of the rows the process was fitted on (N × d),
+    /// stored as a list of rows.
+    #[serde(with = "as_rows")]
     pub x: Array2<f64>,
     /// The committee's residuals at those rows (scaled target units).
     pub residual: Vec<f64>,
@@ -515,6 +517,28 @@ pub(crate) fn sample_rows(n: usize, seed: u64) -> Vec<usize> {
     let mut rows = sample(&mut rng, n, KRIGING_MAX_ROWS).into_vec();
     rows.sort_unstable();
     rows
+}
+
+/// Serialise a matrix as a list of its rows.
+mod as_rows {
+    use ndarray::Array2;
+    use serde::{de::Error as _, Deserialize, Deserializer, Serialize, Serializer};
+
+    pub fn serialize<S: Serializer>(m: &Array2<f64>, s: S) -> Result<S::Ok, S::Error> {
+        let rows: Vec<Vec<f64>> = m.outer_iter().map(|r| r.to_vec()).collect();
+        rows.serialize(s)
+    }
+
+    pub fn deserialize<'de, D: Deserializer<'de>>(d: D) -> Result<Array2<f64>, D::Error> {
+        let rows = Vec::<Vec<f64>>::deserialize(d)?;
+        let n_cols = rows.first().map_or(0, Vec::len);
+        if rows.iter().any(|r| r.len() != n_cols) {
+            return Err(D::Error::custom("rows of unequal length"));
+        }
+        let flat: Vec<f64> = rows.into_iter().flatten().collect();
+        let n_rows = if n_cols == 0 { 0 } else { flat.len() / n_cols };
+        Array2::from_shape_vec((n_rows, n_cols), flat).map_err(D::Error::custom)
+    }
 }
 
 #[cfg(test)]
