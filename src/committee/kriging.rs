@@ -536,7 +536,7 @@ mod as_rows {
             return Err(D::Error::custom("rows of unequal length"));
         }
         let flat: Vec<f64> = rows.into_iter().flatten().collect();
-        let n_rows = if n_cols == 0 { 0 } else { flat.len() / n_cols };
+        let n_rows = flat.len().checked_div(n_cols).unwrap_or(0);
         Array2::from_shape_vec((n_rows, n_cols), flat).map_err(D::Error::custom)
     }
 }
