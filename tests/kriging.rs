@@ -19,8 +19,9 @@
 //! - `--kriging auto` decides on the held-out part; `off` carries no process;
 //! - through the real binary, `train --kriging on|off` writes a model with
 //!   and without the process, `train` says so, and `predict` reports the
-//!   split of the sd into noise and model parts with the process in; a
-//!   model file whose process is damaged is refused.
+//!   split of the sd into noise and model parts with the process in,
+//!   `explain` describes the process; a model file whose process is
+//!   damaged is refused.
 
 mod common;
 

@@ -28,7 +28,8 @@ JSON output: an object with data_file, data_sha256, n_rows, tool_version, seed, 
 set_aside and targets; each target has name, unit, scale, n_rows, noise_sd, noise_sd_range, \
 noise_varies, replicate_sd (null without repeat tests), noise_profile (input, input_unit and \
 bins with lo, hi, n_rows, noise_sd and replicates; null in older model files), members (array), relevance (an object \
-input → value, or null without ARD) and relevance_note.\n\n\
+input → value, or null without ARD), relevance_note and kriging (null when the residuals are not kriged; else n_rows, \
+correlated_share, length_scales as [input, share of its range] pairs, heldout_nlpd_with and heldout_nlpd_without).\n\n\
 Example:\n  mettle explain --model uts.json\n  mettle explain --model uts.json --format json"
 )]
 pub struct ExplainArgs {
@@ -163,6 +164,9 @@ fn text(card: &ModelCard) -> String {
         .map(|x| x.to_string())
         .collect();
         s += &aligned(&h, &rows);
+        if let Some(k) = &t.kriging {
+            s += &format!("  {}\n", k.sentence());
+        }
         if let Some(r) = &t.relevance {
             s += "  input relevance (most relevant = 1):\n";
             let rows: Vec<Vec<String>> = r

@@ -148,6 +148,44 @@ pub struct TargetCard {
     pub candidates: (usize, usize),
     /// Held-out NLPD of the committee of the best n candidates, n = 1, 2, …
     pub nlpd_by_size: Vec<f64>,
+    /// The residual process, when the committee kriges its residuals.
+    pub kriging: Option<KrigingCard>,
+}
+
+impl KrigingCard {
+    /// One sentence on the process, for text and HTML.
+    pub fn sentence(&self) -> String {
+        let nlpd = match (self.heldout_nlpd_with, self.heldout_nlpd_without) {
+            (Some(a), Some(b)) => format!(" Held-out NLPD {a:.3} with it, {b:.3} without."),
+            _ => String::new(),
+        };
+        let mut ls: Vec<&(String, f64)> = self.length_scales.iter().collect();
+        ls.sort_by(|a, b| a.1.total_cmp(&b.1));
+        let ls: Vec<String> = ls.iter().map(|(n, l)| format!("{n} {l:.2}")).collect();
+        format!(
+            "Residuals kriged over {} training rows: {:.0} % of the noise variance is shared between rows close in the inputs, the rest is scatter of single tests. Length scales, as shares of each input's training range (short = the shared residual changes quickly along it): {}.{nlpd} Next to training rows the estimate follows their residuals; far from them it is the committee's.",
+            self.n_rows,
+            100.0 * self.correlated_share,
+            ls.join(", ")
+        )
+    }
+}
+
+/// The residual process on the model card.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct KrigingCard {
+    /// Training rows the process holds.
+    pub n_rows: usize,
+    /// Share f of the committee's noise variance that is correlated over
+    /// the inputs (the rest stays uncorrelated scatter).
+    pub correlated_share: f64,
+    /// Length scale of each input as a share of its training range: small
+    /// means the shared residuals change quickly along that input.
+    pub length_scales: Vec<(String, f64)>,
+    /// Held-out NLPD with the process (fitted on the training part).
+    pub heldout_nlpd_with: Option<f64>,
+    /// Held-out NLPD of the committee alone.
+    pub heldout_nlpd_without: Option<f64>,
 }
 
 /// The model card.
@@ -287,6 +325,18 @@ pub fn model_card(model: &Model) -> ModelCard {
                 noise_sd,
                 noise_sd_range,
                 noise_varies: c.selection.noise.varying,
+                kriging: c.kriging.as_ref().map(|k| KrigingCard {
+                    n_rows: k.x.nrows(),
+                    correlated_share: 1.0 - k.noise_factor,
+                    length_scales: model
+                        .inputs
+                        .iter()
+                        .zip(&k.length_scales)
+                        .map(|(i, l)| (i.name.clone(), *l))
+                        .collect(),
+                    heldout_nlpd_with: c.selection.kriging.kriging_nlpd,
+                    heldout_nlpd_without: c.selection.kriging.committee_nlpd,
+                }),
                 noise_basis,
                 replicate_sd: t
                     .training_summary

@@ -235,6 +235,9 @@ fn card_section(card: &ModelCard) -> String {
             &rows,
             Some(&format!("card-members-{}", id_part(&t.name))),
         ));
+        if let Some(k) = &t.kriging {
+            s.push_str(&format!("<p>{}</p>\n", esc(&k.sentence())));
+        }
     }
     s.push_str("</section>\n");
     s
