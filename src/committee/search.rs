@@ -359,12 +359,8 @@ pub fn train_committee(
         }
         noise_sel.varying_nlpd = varying_sizes.iter().copied().min_by(f64::total_cmp);
     }
-    let use_varying = match (params.noise, noise_sel.varying_nlpd) {
-        (NoiseMode::Constant, _) | (_, None) => false,
-        (NoiseMode::Varying, Some(_)) => true,
-        (NoiseMode::Auto, Some(v)) => v < constant_nlpd,
-    };
-    if params.noise == NoiseMode::Varying && !use_varying {
+    let varying_available = noise_sel.varying_nlpd.is_some();
+    if params.noise == NoiseMode::Varying && !varying_available {
         return Err(Error::AllCandidatesFailed {
             reasons: format!(
                 "no candidate could be fitted with varying noise: {}",
@@ -372,73 +368,121 @@ pub fn train_committee(
             ),
         });
     }
-    noise_sel.varying = use_varying;
-    let (n_members, nlpd_by_size) = if use_varying {
-        let k = varying_sizes
-            .iter()
-            .enumerate()
-            .min_by(|a, b| a.1.total_cmp(b.1))
-            .map_or(1, |(i, _)| i + 1);
-        varying_members.truncate(k);
-        (k, varying_sizes)
-    } else {
-        (n_members, nlpd_by_size)
-    };
+    let n_varying = varying_sizes
+        .iter()
+        .enumerate()
+        .min_by(|a, b| a.1.total_cmp(b.1))
+        .map_or(1, |(i, _)| i + 1);
 
-    // kriging of the residuals, judged on the held-out part
-    let mut kriging_sel = KrigingSelection {
-        requested: params.kriging,
-        committee_nlpd: Some(nlpd_by_size[n_members - 1]),
-        ..KrigingSelection::default()
-    };
-    let mut trial_process: Option<ResidualKriging> = None;
-    // the linear baseline stays a linear model unless the process is asked for
+    // kriging of the residuals, tried on each noise model still in the
+    // running and judged with it on the held-out part: the noise model and
+    // the process are chosen together
+    // (the linear baseline stays a linear model unless the process is asked for)
     let try_kriging = match params.kriging {
         KrigingMode::Off => false,
         KrigingMode::Auto => !linear_only,
         KrigingMode::On => true,
     };
-    if try_kriging {
-        let provisional: Vec<Member> = if use_varying {
-            varying_members
-                .iter()
-                .map(|c| provisional_member(c.trial, &c.fit))
-                .collect()
-        } else {
-            ranked[..n_members]
-                .iter()
-                .map(|t| member_from(&t.record, t.net.as_ref().expect("trained"), None))
-                .collect()
-        };
-        let rows = sample_rows(x_tr.nrows(), params.seed ^ KRIGING_SEED_SALT);
-        observer.observe(&TrainEvent::Kriging {
-            target: target_name,
-            n_rows: rows.len(),
-        });
-        match fit_process(&provisional, d, x_tr.view(), t_tr.view(), &rows, None) {
-            Ok(process) => {
-                let p = members_predict(&provisional, d, x_ho.view());
-                let nlpd = process.predict(x_ho.view()).map(|(gm, gv)| {
-                    let s = process.noise_factor;
-                    let mean = &p.mean + &gm;
-                    let var = &p.var + &(&p.noise_var * (s - 1.0)) + &gv;
-                    nlpd_scaled(&mean, &var, t_ho.view()) + ln_width
+    let allowed: Vec<bool> = [false, true]
+        .into_iter()
+        .filter(|&varying| match params.noise {
+            NoiseMode::Constant => !varying,
+            NoiseMode::Varying => varying,
+            NoiseMode::Auto => !varying || varying_available,
+        })
+        .collect();
+    // one process per noise model, fitted side by side on the cores
+    let options: Vec<NoiseOption> = allowed
+        .par_iter()
+        .map(|&varying| {
+            let committee_nlpd = if varying {
+                varying_sizes[n_varying - 1]
+            } else {
+                constant_nlpd
+            };
+            let mut option = NoiseOption {
+                varying,
+                committee_nlpd,
+                kriging_nlpd: None,
+                process: None,
+                failure: None,
+            };
+            if try_kriging {
+                let provisional: Vec<Member> = if varying {
+                    varying_members[..n_varying]
+                        .iter()
+                        .map(|c| provisional_member(c.trial, &c.fit))
+                        .collect()
+                } else {
+                    ranked[..n_members]
+                        .iter()
+                        .map(|t| member_from(&t.record, t.net.as_ref().expect("trained"), None))
+                        .collect()
+                };
+                let rows = sample_rows(x_tr.nrows(), params.seed ^ KRIGING_SEED_SALT);
+                observer.observe(&TrainEvent::Kriging {
+                    target: target_name,
+                    n_rows: rows.len(),
                 });
-                kriging_sel.kriging_nlpd = nlpd.filter(|v| v.is_finite());
-                trial_process = Some(process);
+                match fit_process(&provisional, d, x_tr.view(), t_tr.view(), &rows, None) {
+                    Ok(process) => {
+                        let p = members_predict(&provisional, d, x_ho.view());
+                        let nlpd = process.predict(x_ho.view()).map(|(gm, gv)| {
+                            let s = process.noise_factor;
+                            let mean = &p.mean + &gm;
+                            let var = &p.var + &(&p.noise_var * (s - 1.0)) + &gv;
+                            nlpd_scaled(&mean, &var, t_ho.view()) + ln_width
+                        });
+                        option.kriging_nlpd = nlpd.filter(|v| v.is_finite());
+                        option.process = Some(process);
+                    }
+                    Err(f) => option.failure = Some(f.to_string()),
+                }
             }
-            Err(f) => kriging_sel.failure = Some(f.to_string()),
+            option
+        })
+        .collect();
+    // (held-out NLPD, varying, kriged) of every allowed combination
+    let mut choices: Vec<(f64, bool, bool)> = Vec::new();
+    for o in &options {
+        if params.kriging != KrigingMode::On {
+            choices.push((o.committee_nlpd, o.varying, false));
+        }
+        if let (true, Some(k)) = (params.kriging != KrigingMode::Off, o.kriging_nlpd) {
+            choices.push((k, o.varying, true));
         }
     }
-    let use_kriging = match (
-        params.kriging,
-        kriging_sel.kriging_nlpd,
-        kriging_sel.committee_nlpd,
-    ) {
-        (KrigingMode::Off, _, _) | (_, None, _) => false,
-        (KrigingMode::On, Some(_), _) => true,
-        (KrigingMode::Auto, Some(k), Some(c)) => k < c,
-        (KrigingMode::Auto, Some(_), None) => false,
+    let Some(&(_, use_varying, use_kriging)) = choices.iter().min_by(|a, b| a.0.total_cmp(&b.0))
+    else {
+        return Err(Error::AllCandidatesFailed {
+            reasons: format!(
+                "the residual process could not be fitted: {}",
+                options
+                    .iter()
+                    .filter_map(|o| o.failure.clone())
+                    .collect::<Vec<_>>()
+                    .join("; ")
+            ),
+        });
+    };
+    let chosen = options
+        .into_iter()
+        .find(|o| o.varying == use_varying)
+        .expect("the choice is one of the options");
+    noise_sel.varying = use_varying;
+    let mut kriging_sel = KrigingSelection {
+        requested: params.kriging,
+        committee_nlpd: Some(chosen.committee_nlpd),
+        kriging_nlpd: chosen.kriging_nlpd,
+        failure: chosen.failure,
+        ..KrigingSelection::default()
+    };
+    let trial_process = if use_kriging { chosen.process } else { None };
+    let (n_members, nlpd_by_size) = if use_varying {
+        varying_members.truncate(n_varying);
+        (n_varying, varying_sizes)
+    } else {
+        (n_members, nlpd_by_size)
     };
 
     // refit the chosen members on all the data, warm-started
@@ -593,6 +637,20 @@ fn fit_process(
         None => ResidualKriging::fit(xs.view(), residual.view(), p.noise_var.view()),
         Some(k) => k.with_residuals(xs.view(), residual.view(), p.noise_var.view()),
     }
+}
+
+/// One noise model in the running, with the residual process tried on it.
+struct NoiseOption {
+    /// True for noise that varies with the inputs.
+    varying: bool,
+    /// Held-out NLPD of its committee alone (target units).
+    committee_nlpd: f64,
+    /// Held-out NLPD with the process, when it could be fitted.
+    kriging_nlpd: Option<f64>,
+    /// The process fitted on the training part.
+    process: Option<ResidualKriging>,
+    /// Why the process could not be fitted.
+    failure: Option<String>,
 }
 
 /// A varying-noise fit with its held-out NLPD and held-out (mean,
