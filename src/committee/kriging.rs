@@ -55,9 +55,10 @@
 //! The residuals are those of the committee on the rows it was trained on,
 //! so part of the structure has already been fitted: the process sees only
 //! what remains. The committee's parameter uncertainty and the process's
-//! variance are added as if independent. At most [`KRIGING_MAX_ROWS`]
-//! rows (a seeded random sample) enter the process, so that its cost,
-//! O(N³) per evaluation, stays bounded on large archives.
+//! variance are added as if independent. Exact duplicate rows enter once
+//! ([`process_rows`]). At most [`KRIGING_MAX_ROWS`] rows (a seeded random
+//! sample) enter the process, so that its cost, O(N³) per evaluation,
+//! stays bounded on large archives.
 
 use std::sync::{Arc, Mutex, OnceLock};
 
@@ -505,18 +506,40 @@ impl ResidualKriging {
     }
 }
 
-/// A seeded random sample of at most [`KRIGING_MAX_ROWS`] row indices out
-/// of `n`, in increasing order.
-pub(crate) fn sample_rows(n: usize, seed: u64) -> Vec<usize> {
+/// The rows of scaled `x`, `t` the process is fitted on, in increasing
+/// order: exact duplicate rows (every input and the target equal) once
+/// each, then a seeded random sample of at most [`KRIGING_MAX_ROWS`].
+///
+/// A row entered twice says nothing about the scatter of repeat tests;
+/// kept twice, its two copies would agree exactly and teach the process
+/// that tests at those inputs do not scatter, so that a query at them
+/// would get an error bar near zero. Repeat tests whose results differ
+/// are kept: they are the evidence for the uncorrelated share.
+pub(crate) fn process_rows(x: ArrayView2<f64>, t: ArrayView1<f64>, seed: u64) -> Vec<usize> {
     use rand::seq::index::sample;
     use rand::SeedableRng;
-    if n <= KRIGING_MAX_ROWS {
-        return (0..n).collect();
+    let mut seen = std::collections::HashSet::new();
+    let distinct: Vec<usize> = (0..x.nrows())
+        .filter(|&i| {
+            let key: Vec<u64> = x
+                .row(i)
+                .iter()
+                .chain(std::iter::once(&t[i]))
+                .map(|v| v.to_bits())
+                .collect();
+            seen.insert(key)
+        })
+        .collect();
+    if distinct.len() <= KRIGING_MAX_ROWS {
+        return distinct;
     }
     let mut rng = rand_xoshiro::Xoshiro256PlusPlus::seed_from_u64(seed);
-    let mut rows = sample(&mut rng, n, KRIGING_MAX_ROWS).into_vec();
-    rows.sort_unstable();
-    rows
+    let mut picked: Vec<usize> = sample(&mut rng, distinct.len(), KRIGING_MAX_ROWS)
+        .into_iter()
+        .map(|k| distinct[k])
+        .collect();
+    picked.sort_unstable();
+    picked
 }
 
 /// Serialise a matrix as a list of its rows.
@@ -562,6 +585,15 @@ mod tests {
                 g[k]
             );
         }
+    }
+
+    #[test]
+    fn double_entries_enter_the_process_once() {
+        let x = ndarray::array![[0.1, 0.2], [0.1, 0.2], [0.1, 0.2], [0.3, 0.2], [0.1, 0.2]];
+        let t = ndarray::array![1.0, 1.0, 1.5, 2.0, 1.0];
+        // rows 1 and 4 repeat row 0 exactly; row 2 is a repeat test with
+        // another result and stays
+        assert_eq!(process_rows(x.view(), t.view(), 0), vec![0, 2, 3]);
     }
 
     #[test]

@@ -10,7 +10,7 @@ use rand_distr::{Distribution, Normal};
 use rand_xoshiro::Xoshiro256PlusPlus;
 use rayon::prelude::*;
 
-use super::kriging::{sample_rows, ResidualKriging};
+use super::kriging::{process_rows, ResidualKriging};
 use super::noise::{fit_varying, VaryingFit};
 use super::{
     combine, members_predict, Candidate, CheckedCommitteeParams, Committee, KrigingMode,
@@ -419,7 +419,7 @@ pub fn train_committee(
                         .map(|t| member_from(&t.record, t.net.as_ref().expect("trained"), None))
                         .collect()
                 };
-                let rows = sample_rows(x_tr.nrows(), params.seed ^ KRIGING_SEED_SALT);
+                let rows = process_rows(x_tr.view(), t_tr.view(), params.seed ^ KRIGING_SEED_SALT);
                 observer.observe(&TrainEvent::Kriging {
                     target: target_name,
                     n_rows: rows.len(),
@@ -561,7 +561,7 @@ pub fn train_committee(
     // on the final members' residuals over all the rows
     let mut kriging = None;
     if let (true, Some(trial)) = (use_kriging, trial_process.as_ref()) {
-        let rows = sample_rows(n, params.seed ^ KRIGING_SEED_SALT);
+        let rows = process_rows(x, t, params.seed ^ KRIGING_SEED_SALT);
         observer.observe(&TrainEvent::Kriging {
             target: target_name,
             n_rows: rows.len(),
