@@ -82,6 +82,9 @@ pub const KRIGING_MAX_ROWS: usize = 2000;
 /// Iterations of the hyperparameter search, over all its restarts.
 const KRIGING_ITERS: u64 = 100;
 
+/// Rows per chunk of a prediction (bounds the cross-kernel's memory).
+const KRIGING_PREDICT_ROWS: usize = 512;
+
 /// Length scales the search starts from (scaled input units). A start
 /// from 1.0 as well was tried on invented heat data and found nothing
 /// better; each start costs a full search.
@@ -489,15 +492,22 @@ impl ResidualKriging {
     /// process cannot be factorised.
     pub fn predict(&self, x: ArrayView2<f64>) -> Option<(Array1<f64>, Array1<f64>)> {
         let st = self.state()?;
-        let ks = kernel(x, self.x.view(), &self.length_scales, self.signal_var); // m × N
-        let mean = ks.dot(&st.alpha);
-        let v = st
-            .chol_lower
-            .solve_triangular(UPLO::Lower, Diag::NonUnit, &ks.t().to_owned())
-            .ok()?;
-        let explained = v.map_axis(Axis(0), |c| c.dot(&c));
-        let var = explained.mapv(|e| (self.signal_var - e).max(VAR_FLOOR));
-        Some((mean, var))
+        let mut mean = Vec::with_capacity(x.nrows());
+        let mut var = Vec::with_capacity(x.nrows());
+        // in chunks, so that the m × N cross-kernel stays small
+        for chunk in x.axis_chunks_iter(Axis(0), KRIGING_PREDICT_ROWS) {
+            let ks = kernel(chunk, self.x.view(), &self.length_scales, self.signal_var); // m × N
+            mean.extend(ks.dot(&st.alpha));
+            let v = st
+                .chol_lower
+                .solve_triangular(UPLO::Lower, Diag::NonUnit, &ks.reversed_axes())
+                .ok()?;
+            var.extend(
+                v.map_axis(Axis(0), |c| c.dot(&c))
+                    .mapv(|e| (self.signal_var - e).max(VAR_FLOOR)),
+            );
+        }
+        Some((Array1::from(mean), Array1::from(var)))
     }
 
     /// Whether the stored process can be used (its kernel matrix factorises).
