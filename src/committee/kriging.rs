@@ -116,7 +116,8 @@ pub struct ResidualKriging {
     pub signal_var: f64,
     /// Factor s on the committee's noise variance.
     pub noise_factor: f64,
-    /// Log marginal likelihood of the residuals at the chosen θ.
+    /// The maximised objective at the chosen θ: log marginal likelihood
+    /// of the residuals plus the log hyperprior (up to its constant).
     pub log_marginal_likelihood: f64,
     /// The factorised kernel matrix, built on first use.
     #[serde(skip)]

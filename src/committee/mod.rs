@@ -18,7 +18,10 @@
 //! ```
 //!
 //! the first term the members' own variances (noise + parameter
-//! uncertainty), the second their disagreement.
+//! uncertainty), the second their disagreement. A committee may also
+//! carry a Gaussian process on its residuals ([`ResidualKriging`]), which
+//! adds its posterior mean and variance and takes a share of the noise
+//! variance (docs/method.md §6a).
 
 mod kriging;
 mod noise;
@@ -116,7 +119,8 @@ pub struct Selection {
     pub kriging: KrigingSelection,
 }
 
-/// The choice of kriging the committee's residuals, on the held-out part.
+/// The choice of kriging the committee's residuals, on the held-out part
+/// (the NLPDs are those of the noise model that was chosen).
 #[derive(Clone, Debug, Default, PartialEq, Serialize, Deserialize)]
 pub struct KrigingSelection {
     /// What the user asked for.
