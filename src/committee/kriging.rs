@@ -60,7 +60,8 @@
 //! sample) enter the process, so that its cost, O(N³) per evaluation,
 //! stays bounded on large archives.
 
-use std::sync::{Arc, Mutex, OnceLock};
+use std::cell::RefCell;
+use std::sync::{Arc, OnceLock};
 
 use argmin::core::{
     CostFunction, Error as ArgminError, Executor, Gradient, TerminationReason, TerminationStatus,
@@ -158,6 +159,19 @@ fn kernel(a: ArrayView2<f64>, b: ArrayView2<f64>, length: &[f64], signal_var: f6
     k
 }
 
+/// K_y = kernel + s·diag(σ²) (+ jitter): add the noise to the diagonal of
+/// a square kernel matrix.
+fn add_noise(k: &mut Array2<f64>, factor: f64, noise_var: ArrayView1<f64>) {
+    for (i, nv) in noise_var.iter().enumerate() {
+        k[[i, i]] += factor * nv + KRIGING_JITTER;
+    }
+}
+
+/// `(value, gradient)` when both are finite.
+fn finite(value: f64, grad: Array1<f64>) -> ValueGradient {
+    (value.is_finite() && grad.iter().all(|v| v.is_finite())).then_some((value, grad))
+}
+
 fn prior(v: f64, (centre, sd): (f64, f64)) -> (f64, f64) {
     let z = (v - centre) / sd;
     (0.5 * z * z, z / sd)
@@ -178,9 +192,7 @@ pub(crate) fn neg_log_marginal(
     let factor = theta[d + 1].exp();
     let unit = kernel(x, x, &length, 1.0);
     let mut ky = &unit * signal;
-    for i in 0..n {
-        ky[[i, i]] += factor * noise_var[i] + KRIGING_JITTER;
-    }
+    add_noise(&mut ky, factor, noise_var);
     let f = ky.factorizec(UPLO::Lower).ok()?;
     let alpha = f.solvec(&r.to_owned()).ok()?;
     let ln_det = 2.0 * f.factor.diag().iter().map(|l| l.ln()).sum::<f64>();
@@ -188,13 +200,8 @@ pub(crate) fn neg_log_marginal(
     let value =
         0.5 * r.dot(&alpha) + 0.5 * ln_det + 0.5 * n as f64 * (2.0 * std::f64::consts::PI).ln();
     // W = ααᵀ − K_y⁻¹; ∂(−ln p)/∂θ_i = −½ tr(W ∂K_y/∂θ_i)
-    let mut w = inv;
-    w.mapv_inplace(|v| -v);
-    for i in 0..n {
-        for j in 0..n {
-            w[[i, j]] += alpha[i] * alpha[j];
-        }
-    }
+    let col = alpha.view().insert_axis(Axis(1));
+    let w = col.dot(&col.t()) - inv;
     let m = &w * &unit; // W ∘ R
     let mut grad = Array1::zeros(d + 2);
     // ln τ²: ∂K/∂ln τ² = τ²R
@@ -212,11 +219,7 @@ pub(crate) fn neg_log_marginal(
         let total = 2.0 * s2 - 2.0 * cross;
         grad[k] = -0.5 * signal * total / (length[k] * length[k]);
     }
-    if value.is_finite() && grad.iter().all(|g| g.is_finite()) {
-        Some((value, grad))
-    } else {
-        None
-    }
+    finite(value, grad)
 }
 
 /// The negative log posterior of the partition θ = (ln ℓ_1…ln ℓ_d, u):
@@ -252,7 +255,7 @@ pub(crate) fn neg_log_posterior(
     let (p, gp) = prior(theta[d], PRIOR_SHARE_LOGIT);
     value += p;
     grad[d] = g[d] * (1.0 - f) - g[d + 1] * f + gp;
-    (value.is_finite() && grad.iter().all(|v| v.is_finite())).then_some((value, grad))
+    finite(value, grad)
 }
 
 /// τ², s and f of the partition with logit `u` over rows with noise
@@ -275,13 +278,12 @@ struct Problem<'a> {
     x: ArrayView2<'a, f64>,
     r: ArrayView1<'a, f64>,
     noise_var: ArrayView1<'a, f64>,
-    cache: Mutex<Option<Evaluation>>,
+    cache: RefCell<Option<Evaluation>>,
 }
 
 impl Problem<'_> {
     fn eval(&self, theta: &Array1<f64>) -> (f64, Array1<f64>) {
-        let mut cache = self.cache.lock().unwrap_or_else(|p| p.into_inner());
-        if let Some((t, v, g)) = cache.as_ref() {
+        if let Some((t, v, g)) = self.cache.borrow().as_ref() {
             if t == theta {
                 return (*v, g.clone());
             }
@@ -293,7 +295,7 @@ impl Problem<'_> {
             self.noise_var,
         )
         .unwrap_or_else(|| (f64::INFINITY, Array1::zeros(theta.len())));
-        *cache = Some((theta.clone(), out.0, out.1.clone()));
+        *self.cache.borrow_mut() = Some((theta.clone(), out.0, out.1.clone()));
         out
     }
 }
@@ -340,7 +342,7 @@ fn minimise<'a>(
             x,
             r,
             noise_var,
-            cache: Mutex::new(None),
+            cache: RefCell::new(None),
         };
         let solver = LBFGS::new(MoreThuenteLineSearch::new(), 7)
             .with_tolerance_grad(KRIGING_GRAD_TOL)
@@ -473,9 +475,11 @@ impl ResidualKriging {
             &self.length_scales,
             self.signal_var,
         );
-        for i in 0..n {
-            ky[[i, i]] += self.noise_factor * self.noise_var[i] + KRIGING_JITTER;
-        }
+        add_noise(
+            &mut ky,
+            self.noise_factor,
+            ArrayView1::from(&self.noise_var[..]),
+        );
         let f: CholeskyFactorized<_> = ky.factorizec(UPLO::Lower).ok()?;
         let alpha = f.solvec(&Array1::from(self.residual.clone())).ok()?;
         let mut chol_lower = f.factor;

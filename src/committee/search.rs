@@ -391,6 +391,15 @@ pub fn train_committee(
             NoiseMode::Auto => !varying || varying_available,
         })
         .collect();
+    // the training part's rows the processes are fitted on, chosen once
+    let kriging_rows = try_kriging.then(|| {
+        let rows = process_rows(x_tr.view(), t_tr.view(), params.seed ^ KRIGING_SEED_SALT);
+        observer.observe(&TrainEvent::Kriging {
+            target: target_name,
+            n_rows: rows.len(),
+        });
+        (x_tr.select(Axis(0), &rows), t_tr.select(Axis(0), &rows))
+    });
     // one process per noise model, fitted side by side on the cores
     let options: Vec<NoiseOption> = allowed
         .par_iter()
@@ -407,7 +416,7 @@ pub fn train_committee(
                 process: None,
                 failure: None,
             };
-            if try_kriging {
+            if let Some((xk, tk)) = &kriging_rows {
                 let provisional: Vec<Member> = if varying {
                     varying_members[..n_varying]
                         .iter()
@@ -419,12 +428,7 @@ pub fn train_committee(
                         .map(|t| member_from(&t.record, t.net.as_ref().expect("trained"), None))
                         .collect()
                 };
-                let rows = process_rows(x_tr.view(), t_tr.view(), params.seed ^ KRIGING_SEED_SALT);
-                observer.observe(&TrainEvent::Kriging {
-                    target: target_name,
-                    n_rows: rows.len(),
-                });
-                match fit_process(&provisional, d, x_tr.view(), t_tr.view(), &rows, None) {
+                match fit_process(&provisional, d, xk.view(), tk.view(), None) {
                     Ok(process) => {
                         let p = members_predict(&provisional, d, x_ho.view());
                         let nlpd = process.predict(x_ho.view()).map(|(gm, gv)| {
@@ -566,7 +570,8 @@ pub fn train_committee(
             target: target_name,
             n_rows: rows.len(),
         });
-        match fit_process(&members, d, x, t, &rows, Some(trial)) {
+        let (xs, ts) = (x.select(Axis(0), &rows), t.select(Axis(0), &rows));
+        match fit_process(&members, d, xs.view(), ts.view(), Some(trial)) {
             Ok(process) => {
                 kriging_sel.used = true;
                 kriging_sel.n_rows = rows.len();
@@ -618,24 +623,21 @@ pub fn train_committee(
 /// on, when there are more than [`super::KRIGING_MAX_ROWS`].
 const KRIGING_SEED_SALT: u64 = 0x6B72_6967_0000_0001;
 
-/// Fit a residual process to the committee of `members` on the rows
-/// `rows` of scaled `x`, `t`; with `fitted`, keep its hyperparameters and
-/// only take the new residuals.
+/// Fit a residual process to the committee of `members` on scaled rows
+/// `xs`, `ts`; with `fitted`, keep its hyperparameters and only take the
+/// new residuals.
 fn fit_process(
     members: &[Member],
     d: usize,
-    x: ArrayView2<f64>,
-    t: ArrayView1<f64>,
-    rows: &[usize],
+    xs: ArrayView2<f64>,
+    ts: ArrayView1<f64>,
     fitted: Option<&ResidualKriging>,
 ) -> std::result::Result<ResidualKriging, FitFailure> {
-    let xs = x.select(Axis(0), rows);
-    let ts = t.select(Axis(0), rows);
-    let p = members_predict(members, d, xs.view());
+    let p = members_predict(members, d, xs);
     let residual = &ts - &p.mean;
     match fitted {
         None => ResidualKriging::fit(xs.view(), residual.view(), p.noise_var.view()),
-        Some(k) => k.with_residuals(xs.view(), residual.view(), p.noise_var.view()),
+        Some(k) => k.with_residuals(xs, residual.view(), p.noise_var.view()),
     }
 }
 
