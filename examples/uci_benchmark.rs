@@ -7,7 +7,7 @@
 //! cargo run --release --example uci_benchmark -- [--data-dir ../shared/datasets/uci]
 //!     [--datasets concrete,energy,yacht,wine-quality-red] [--splits 20]
 //!     [--hidden 1..10] [--restarts 4] [--markdown FILE]
-//!     [--noise auto|constant|varying] [--kriging auto|on|off] [--first-split 0] [--no-widen] [--no-ard] [--max-cycles N] [--first-iters N] [--cycle-iters N]
+//!     [--noise auto|constant|varying] [--kriging auto|on|off] [--gross-errors on|off] [--first-split 0] [--no-widen] [--no-ard] [--max-cycles N] [--first-iters N] [--cycle-iters N]
 //!     [--max-members N] [--holdout FRACTION]
 //! ```
 //!
@@ -28,7 +28,6 @@ use std::time::Instant;
 use mettle::committee::{CommitteeParams, KrigingMode, NoiseMode};
 use mettle::data::Table;
 use mettle::evidence::FitSettings;
-use mettle::metrics::evaluate;
 use mettle::model::TrainSpec;
 use mettle::observer::Silent;
 use mettle::Model;
@@ -153,6 +152,7 @@ fn main() {
     let mut kriging = KrigingMode::Auto;
     let mut max_members: Option<usize> = None;
     let mut holdout: Option<f64> = None;
+    let mut gross_errors = true;
     let args: Vec<String> = std::env::args().skip(1).collect();
     let mut i = 0;
     while i < args.len() {
@@ -194,6 +194,13 @@ fn main() {
                 i += 1;
                 continue;
             }
+            "--gross-errors" => {
+                gross_errors = match v.as_str() {
+                    "on" => true,
+                    "off" => false,
+                    other => panic!("--gross-errors {other}: expected on or off"),
+                }
+            }
             "--no-widen" => {
                 widen = false;
                 i += 1;
@@ -231,6 +238,7 @@ fn main() {
                 .ard(ard)
                 .noise(noise)
                 .kriging(kriging)
+                .gross_errors(gross_errors)
                 .fit(fit.clone());
             if let Some(m) = max_members {
                 spec.params = spec.params.max_members(m);
@@ -245,7 +253,14 @@ fn main() {
             let y = te.numeric(&target).expect("target");
             let mean: Vec<f64> = pred.iter().map(|r| r.estimates[0].mean).collect();
             let sd: Vec<f64> = pred.iter().map(|r| r.estimates[0].sd).collect();
-            let e = evaluate(&y, &mean, &sd).expect("rows");
+            // the model's own predictive density (two-part with a share of
+            // gross errors); equal to metrics::evaluate otherwise
+            let e = model
+                .evaluate(&te)
+                .expect("evaluation")
+                .remove(0)
+                .1
+                .expect("rows");
             if std::env::var_os("METTLE_BENCH_WORST").is_some() {
                 let mut z: Vec<(f64, f64, f64, f64)> = y
                     .iter()
@@ -286,7 +301,7 @@ fn main() {
             }
             let c = &model.targets[0].committee;
             eprintln!(
-                "{ds} split {k:2}: RMSE {:.3}  LL {:.3}  cov68 {:.3}  cov95 {:.3}  {:.1} s  members {} (H {}){}{}",
+                "{ds} split {k:2}: RMSE {:.3}  LL {:.3}  cov68 {:.3}  cov95 {:.3}  {:.1} s  members {} (H {}){}{}{}",
                 e.rmse,
                 -e.nlpd,
                 e.coverage_68,
@@ -295,7 +310,10 @@ fn main() {
                 c.members.len(),
                 c.members.iter().map(|m| m.n_hidden.to_string()).collect::<Vec<_>>().join(","),
                 if c.selection.noise.varying { " varying" } else { " constant" },
-                if c.kriging.is_some() { " kriged" } else { "" }
+                if c.kriging.is_some() { " kriged" } else { "" },
+                c.gross_errors
+                    .as_ref()
+                    .map_or(String::new(), |g| format!(" gross {:.3}", g.share))
             );
             rmse.push(e.rmse);
             ll.push(-e.nlpd);

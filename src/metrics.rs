@@ -26,8 +26,16 @@
 //!
 //! (the coverages then count values inside the back-transformed, asymmetric
 //! intervals); RMSE, MAE and R² use the back-transformed mean.
+//!
+//! For a model with a share π of gross errors
+//! ([`crate::committee::GrossErrorModel`]), s is the sd of a value free of
+//! gross error and the density in the NLPD is the model's two-part predictive
+//! (1 − π)·N(g(y); m, s²) + π·N(g(y); t̄, s_t²) (Box & Tiao 1968); the
+//! coverages still count values inside m ± s and m ± 2s.
 
 use serde::Serialize;
+
+use crate::committee::GrossErrors;
 
 /// Evaluation of estimates against measurements.
 #[derive(Clone, Debug, PartialEq, Serialize)]
@@ -40,7 +48,8 @@ pub struct Evaluation {
     pub mae: f64,
     /// Coefficient of determination.
     pub r2: f64,
-    /// Mean Gaussian negative log predictive density (nats per point).
+    /// Mean negative log predictive density (nats per point): Gaussian, or
+    /// the two-part density of a model with a share of gross errors.
     pub nlpd: f64,
     /// Share of rows inside mean ± 1 sd.
     pub coverage_68: f64,
@@ -65,14 +74,15 @@ impl Evaluation {
 /// Evaluate means and sds against measurements. Returns `None` for no rows.
 pub fn evaluate(measured: &[f64], mean: &[f64], sd: &[f64]) -> Option<Evaluation> {
     let zero = vec![0.0; measured.len()];
-    evaluate_on_scale(measured, mean, measured, mean, sd, &zero)
+    evaluate_on_scale(measured, mean, measured, mean, sd, &zero, None)
 }
 
 /// Evaluate estimates of a target learnt on a transformed scale: `measured`
 /// and `point` (the back-transformed means) on the target's own scale;
 /// `z_measured` = g(y), `z_mean`, `z_sd` on the learnt scale; `log_jacobian`
 /// = ln |g′(y)| per row (all zero for an untransformed target, when this is
-/// exactly [`evaluate`]). Returns `None` for no rows or unequal lengths.
+/// exactly [`evaluate`]); `gross`, the model's gross-error part on the learnt
+/// scale, when it has one. Returns `None` for no rows or unequal lengths.
 pub fn evaluate_on_scale(
     measured: &[f64],
     point: &[f64],
@@ -80,6 +90,7 @@ pub fn evaluate_on_scale(
     z_mean: &[f64],
     z_sd: &[f64],
     log_jacobian: &[f64],
+    gross: Option<GrossErrors>,
 ) -> Option<Evaluation> {
     let n = measured.len();
     if n == 0
@@ -107,8 +118,14 @@ pub fn evaluate_on_scale(
         sst += (y - ybar).powi(2);
         let s = z_sd[i];
         let rz = z_measured[i] - z_mean[i];
-        let v = s * s;
-        nlpd += 0.5 * (2.0 * std::f64::consts::PI * v).ln() + rz * rz / (2.0 * v) - log_jacobian[i];
+        let ln_density = match gross {
+            Some(g) => g.ln_density(z_measured[i], z_mean[i], s),
+            None => {
+                let v = s * s;
+                -0.5 * (2.0 * std::f64::consts::PI * v).ln() - rz * rz / (2.0 * v)
+            }
+        };
+        nlpd += -ln_density - log_jacobian[i];
         if rz.abs() <= s {
             c1 += 1;
         }
@@ -137,7 +154,7 @@ mod tests {
         // log-normal density at y: φ((ln y − m)/s)/(s·y) (Johnson, Kotz &
         // Balakrishnan 1994, ch. 14); y = e, m = 0.5, s = 0.5
         let y = std::f64::consts::E;
-        let e = evaluate_on_scale(&[y], &[y], &[1.0], &[0.5], &[0.5], &[-1.0]).expect("row");
+        let e = evaluate_on_scale(&[y], &[y], &[1.0], &[0.5], &[0.5], &[-1.0], None).expect("row");
         let density = (-0.5_f64).exp() / (0.5 * y * (2.0 * std::f64::consts::PI).sqrt());
         assert_abs_diff_eq!(e.nlpd, -density.ln(), epsilon = 1e-12);
         assert_abs_diff_eq!(e.coverage_68, 1.0, epsilon = 0.0);
@@ -159,5 +176,37 @@ mod tests {
             0.5 * (2.0 * std::f64::consts::PI).ln(),
             epsilon = 1e-15
         );
+    }
+
+    /// The two-part density of a model with gross errors against
+    /// scipy.stats.norm (tests/reference/gross_error_share.py,
+    /// SciPy 1.17.1).
+    #[test]
+    fn gross_error_density_matches_scipy() {
+        let text = std::fs::read_to_string(concat!(
+            env!("CARGO_MANIFEST_DIR"),
+            "/tests/data/gross_error_share.json"
+        ))
+        .expect("reference file");
+        let r: serde_json::Value = serde_json::from_str(&text).expect("json");
+        let singles = r["singles"].as_array().expect("rows");
+        let want = r["single_ln_density"].as_array().expect("densities");
+        for (row, w) in singles.iter().zip(want) {
+            let f: Vec<f64> = row
+                .as_array()
+                .expect("row")
+                .iter()
+                .map(|v| v.as_f64().expect("number"))
+                .collect();
+            let g = GrossErrors {
+                share: f[3],
+                mean: f[4],
+                sd: f[5],
+            };
+            let e = evaluate_on_scale(&[f[0]], &[f[1]], &[f[0]], &[f[1]], &[f[2]], &[0.0], Some(g))
+                .expect("row");
+            let want = w.as_f64().expect("number");
+            assert_abs_diff_eq!(-e.nlpd, want, epsilon = 1e-12);
+        }
     }
 }

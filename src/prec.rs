@@ -197,3 +197,20 @@ pub const DOMAIN_REFERENCE_MAX_ROWS: usize = 5_000;
 
 /// Seed of the sample of [`DOMAIN_REFERENCE_MAX_ROWS`] rows.
 pub const DOMAIN_REFERENCE_SEED: u64 = 0x6d65_7474_6c65;
+
+/// Most EM steps of the gross-error share (committee::gross_errors). Each
+/// step costs one pass over the held-out rows.
+pub const GROSS_ERROR_EM_ITERS: usize = 5000;
+
+/// Change of the held-out mean log-likelihood (nats per row) below which
+/// the gross-error share's EM stops.
+pub const GROSS_ERROR_EM_TOL: f64 = 1e-13;
+
+/// Largest share of gross errors admitted: data with more
+/// than a quarter of their values unrelated to the inputs are not
+/// described by a regression at all.
+pub const GROSS_ERROR_SHARE_MAX: f64 = 0.25;
+
+/// Share of gross errors the EM starts from (0 would be a
+/// fixed point of the iteration).
+pub const GROSS_ERROR_SHARE_START: f64 = 0.01;

@@ -32,7 +32,7 @@ in the target's units; lower is better) and the coverages judge the error bars. 
 bars put about 68 % of rows inside mean ± 1 sd (coverage_68) and about 95 % inside mean ± 2 sd \
 (coverage_95).\n\n\
 JSON output (one target): an object with keys target, n, rmse, mae, r2, nlpd, coverage_68, \
-coverage_95 and out_of_line; with several targets, an array of such objects.\n\nRows whose measured value lies more than 2.5 sd from its estimate (on the scale the target is learnt on) are listed as out of line, largest first, with the estimate, its 95 % interval, the standardised residual z and the domain verdict (JSON: out_of_line, an array of objects with row, measured, mean, sd, lo95, hi95, z, in_domain). An honest model lists about 1 row in 80 by chance; more, or a few with |z| far beyond 3, point to heats worth checking (mix-ups, test faults) or to a region the model does not know.\n\n\
+coverage_95 and out_of_line; with several targets, an array of such objects.\n\nRows whose measured value lies more than 2.5 sd from its estimate (on the scale the target is learnt on) are listed as out of line, largest first, with the estimate, its 95 % interval, the standardised residual z and the domain verdict (JSON: out_of_line, an array of objects with row, measured, mean, sd, lo95, hi95, z, in_domain, gross_error_probability). An honest model lists about 1 row in 80 by chance; more, or a few with |z| far beyond 3, point to heats worth checking (mix-ups, test faults) or to a region the model does not know. For a model with a share of gross errors (train --gross-errors on, the default), p_gross is the probability that the measured value is a gross error rather than a test of the heat described; sd and the intervals are those of a test free of gross error, and nlpd uses the model's two-part density.\n\n\
 For a model trained with a schema the table is read through the stored schema (units converted, \
 derived inputs computed), and values are judged in internal units. For a target learnt on a log \
 or bounded scale, nlpd is the density of the measured value on its own scale and the coverages \
@@ -93,6 +93,7 @@ pub fn run(a: EvaluateArgs) -> anyhow::Result<()> {
                                             "hi95": r.estimate.hi95,
                                             "z": r.z,
                                             "in_domain": r.in_domain,
+                                            "gross_error_probability": r.gross_error_probability,
                                         })
                                     })
                                     .collect(),
@@ -148,10 +149,12 @@ pub fn run(a: EvaluateArgs) -> anyhow::Result<()> {
                     "\n{name}: {} row(s) more than {OUT_OF_LINE_Z} sd from the estimate (about 1 in 80 is expected by chance):\n",
                     odd.len()
                 );
-                let h: Vec<String> = ["row", "measured", "mean", "lo95", "hi95", "z", "domain"]
-                    .iter()
-                    .map(|s| s.to_string())
-                    .collect();
+                let h: Vec<String> = [
+                    "row", "measured", "mean", "lo95", "hi95", "z", "domain", "p_gross",
+                ]
+                .iter()
+                .map(|s| s.to_string())
+                .collect();
                 let body: Vec<Vec<String>> = odd
                     .iter()
                     .map(|r| {
@@ -163,6 +166,8 @@ pub fn run(a: EvaluateArgs) -> anyhow::Result<()> {
                             num(r.estimate.hi95),
                             format!("{:+.2}", r.z),
                             if r.in_domain { "in" } else { "OUT" }.to_string(),
+                            r.gross_error_probability
+                                .map_or("-".to_string(), |p| format!("{p:.2}")),
                         ]
                     })
                     .collect();

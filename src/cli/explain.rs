@@ -167,6 +167,9 @@ fn text(card: &ModelCard) -> String {
         if let Some(k) = &t.kriging {
             s += &format!("  {}\n", k.sentence());
         }
+        if let Some(k) = &t.gross_errors {
+            s += &format!("  {}\n", k.sentence());
+        }
         if let Some(r) = &t.relevance {
             s += "  input relevance (most relevant = 1):\n";
             let rows: Vec<Vec<String>> = r

@@ -21,13 +21,17 @@
 //! uncertainty), the second their disagreement. A committee may also
 //! carry a Gaussian process on its residuals ([`ResidualKriging`]), which
 //! adds its posterior mean and variance and takes a share of the noise
-//! variance (docs/method.md §6a).
+//! variance (docs/method.md §6a), and a share of gross errors estimated on
+//! the held-out part ([`GrossErrorModel`]): measured values unrelated to the
+//! inputs, beside the Gaussian (docs/method.md §6b).
 
+mod gross_errors;
 mod kriging;
 mod noise;
 mod params;
 mod search;
 
+pub use gross_errors::{GrossErrorModel, GrossErrors};
 pub use kriging::{ResidualKriging, KRIGING_MAX_ROWS};
 pub use noise::NoiseModel;
 pub use params::{CheckedCommitteeParams, CommitteeParams, KrigingMode, NoiseMode};
@@ -167,6 +171,10 @@ pub struct Committee {
     /// A Gaussian process on the members' residuals, when kriging is used.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub kriging: Option<ResidualKriging>,
+    /// Share of gross errors, estimated on the held-out part; absent when
+    /// not asked for (and in files before format 4).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub gross_errors: Option<GrossErrorModel>,
 }
 
 /// Rows per block in [`Committee::predict_scaled`].

@@ -47,6 +47,10 @@ pub struct CommitteeParams {
     /// Kriging of the committee's residuals: on, off, or chosen.
     #[serde(default)]
     pub kriging: KrigingMode,
+    /// Estimate a share of gross errors on the held-out part. Files written
+    /// before the share existed read as false.
+    #[serde(default)]
+    pub gross_errors: bool,
 }
 
 /// Whether a Gaussian process on the committee's residuals is added.
@@ -93,6 +97,7 @@ impl Default for CommitteeParams {
             fit: FitSettings::default(),
             noise: NoiseMode::Auto,
             kriging: KrigingMode::Auto,
+            gross_errors: true,
         }
     }
 }
@@ -171,6 +176,13 @@ impl CommitteeParams {
     #[must_use]
     pub fn kriging(mut self, mode: KrigingMode) -> Self {
         self.kriging = mode;
+        self
+    }
+
+    /// Share of gross errors on or off.
+    #[must_use]
+    pub fn gross_errors(mut self, yes: bool) -> Self {
+        self.gross_errors = yes;
         self
     }
 

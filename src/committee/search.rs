@@ -10,6 +10,7 @@ use rand_distr::{Distribution, Normal};
 use rand_xoshiro::Xoshiro256PlusPlus;
 use rayon::prelude::*;
 
+use super::gross_errors::GrossErrorModel;
 use super::kriging::{process_rows, ResidualKriging};
 use super::noise::{fit_varying, VaryingFit};
 use super::{
@@ -400,19 +401,39 @@ pub fn train_committee(
         });
         (x_tr.select(Axis(0), &rows), t_tr.select(Axis(0), &rows))
     });
+    // the share of gross errors on the held-out part, their values spread
+    // as the target over the training part
+    let (bg_mean, bg_sd) = (t_tr.mean().unwrap_or(0.0), t_tr.std(0.0));
+    let gross_errors = |(m, v): &(Array1<f64>, Array1<f64>)| {
+        params
+            .gross_errors
+            .then(|| {
+                GrossErrorModel::fit(m.view(), v.view(), t_ho.view(), bg_mean, bg_sd, ln_width)
+            })
+            .flatten()
+    };
     // one process per noise model, fitted side by side on the cores
     let options: Vec<NoiseOption> = allowed
         .par_iter()
         .map(|&varying| {
-            let committee_nlpd = if varying {
-                varying_sizes[n_varying - 1]
+            let (committee_nlpd, committee_heldout) = if varying {
+                let (means, vars): (Vec<_>, Vec<_>) = varying_members[..n_varying]
+                    .iter()
+                    .map(|c| c.heldout.clone())
+                    .unzip();
+                (varying_sizes[n_varying - 1], combine(&means, &vars))
             } else {
-                constant_nlpd
+                (
+                    constant_nlpd,
+                    combine(&means[..n_members], &vars[..n_members]),
+                )
             };
             let mut option = NoiseOption {
                 varying,
                 committee_nlpd,
+                committee_gross: gross_errors(&committee_heldout),
                 kriging_nlpd: None,
+                kriging_gross: None,
                 process: None,
                 failure: None,
             };
@@ -431,13 +452,16 @@ pub fn train_committee(
                 match fit_process(&provisional, d, xk.view(), tk.view(), None) {
                     Ok(process) => {
                         let p = members_predict(&provisional, d, x_ho.view());
-                        let nlpd = process.predict(x_ho.view()).map(|(gm, gv)| {
+                        if let Some((gm, gv)) = process.predict(x_ho.view()) {
                             let s = process.noise_factor;
                             let mean = &p.mean + &gm;
                             let var = &p.var + &(&p.noise_var * (s - 1.0)) + &gv;
-                            nlpd_scaled(&mean, &var, t_ho.view()) + ln_width
-                        });
-                        option.kriging_nlpd = nlpd.filter(|v| v.is_finite());
+                            let nlpd = nlpd_scaled(&mean, &var, t_ho.view()) + ln_width;
+                            if nlpd.is_finite() {
+                                option.kriging_nlpd = Some(nlpd);
+                                option.kriging_gross = gross_errors(&(mean, var));
+                            }
+                        }
                         option.process = Some(process);
                     }
                     Err(f) => option.failure = Some(f.to_string()),
@@ -446,14 +470,21 @@ pub fn train_committee(
             option
         })
         .collect();
-    // (held-out NLPD, varying, kriged) of every allowed combination
+    // (held-out NLPD, varying, kriged) of every allowed combination, each
+    // judged as it will predict: with its share of gross errors when asked for
+    let judged =
+        |nlpd: f64, g: &Option<GrossErrorModel>| g.as_ref().map_or(nlpd, |g| g.heldout_nlpd);
     let mut choices: Vec<(f64, bool, bool)> = Vec::new();
     for o in &options {
         if params.kriging != KrigingMode::On {
-            choices.push((o.committee_nlpd, o.varying, false));
+            choices.push((
+                judged(o.committee_nlpd, &o.committee_gross),
+                o.varying,
+                false,
+            ));
         }
         if let (true, Some(k)) = (params.kriging != KrigingMode::Off, o.kriging_nlpd) {
-            choices.push((k, o.varying, true));
+            choices.push((judged(k, &o.kriging_gross), o.varying, true));
         }
     }
     let Some(&(_, use_varying, use_kriging)) = choices.iter().min_by(|a, b| a.0.total_cmp(&b.0))
@@ -482,6 +513,11 @@ pub fn train_committee(
         ..KrigingSelection::default()
     };
     let trial_process = if use_kriging { chosen.process } else { None };
+    let gross = if use_kriging {
+        chosen.kriging_gross
+    } else {
+        chosen.committee_gross
+    };
     let (n_members, nlpd_by_size) = if use_varying {
         varying_members.truncate(n_varying);
         (n_varying, varying_sizes)
@@ -616,6 +652,12 @@ pub fn train_committee(
             kriging: kriging_sel,
         },
         kriging,
+        gross_errors: gross.map(|g| GrossErrorModel {
+            // the gross errors' spread over all the training rows
+            background_mean: t.mean().unwrap_or(g.background_mean),
+            background_sd: t.std(0.0),
+            ..g
+        }),
     })
 }
 
@@ -647,8 +689,12 @@ struct NoiseOption {
     varying: bool,
     /// Held-out NLPD of its committee alone (target units).
     committee_nlpd: f64,
+    /// Share of gross errors beside its committee alone, when asked for.
+    committee_gross: Option<GrossErrorModel>,
     /// Held-out NLPD with the process, when it could be fitted.
     kriging_nlpd: Option<f64>,
+    /// Share of gross errors beside the committee with its process.
+    kriging_gross: Option<GrossErrorModel>,
     /// The process fitted on the training part.
     process: Option<ResidualKriging>,
     /// Why the process could not be fitted.

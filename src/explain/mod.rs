@@ -22,6 +22,7 @@ pub use summary::{
 use serde::ser::SerializeMap;
 use serde::{Serialize, Serializer};
 
+use crate::committee::GrossErrors;
 use crate::data::schema::PrepareOptions;
 use crate::data::{fingerprint, Table};
 use crate::error::{Error, Result};
@@ -150,6 +151,41 @@ pub struct TargetCard {
     pub nlpd_by_size: Vec<f64>,
     /// The residual process, when the committee kriges its residuals.
     pub kriging: Option<KrigingCard>,
+    /// The share of gross errors, when the model has one.
+    pub gross_errors: Option<GrossErrorCard>,
+}
+
+/// The share of gross errors on the model card (docs/method.md §6b).
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct GrossErrorCard {
+    /// Share π of measured values taken as gross errors.
+    pub share: f64,
+    /// Held-out rows π was estimated from.
+    pub n_heldout: usize,
+    /// Held-out NLPD of the Gaussian alone (target units, or the learnt
+    /// scale's).
+    pub heldout_nlpd_gaussian: f64,
+    /// Held-out NLPD with the gross-error part.
+    pub heldout_nlpd: f64,
+}
+
+impl GrossErrorCard {
+    /// One sentence on the share, for text and HTML.
+    pub fn sentence(&self) -> String {
+        if self.share <= 0.0 {
+            return format!(
+                "Gross errors: none found; the {} held-out rows are described best by the Gaussian alone (held-out NLPD {:.3}).",
+                self.n_heldout, self.heldout_nlpd_gaussian
+            );
+        }
+        format!(
+            "Gross errors: the {1} held-out rows are best described with a share of {0:.1} % of values unrelated to the inputs beside the Gaussian (held-out NLPD {2:.3}, {3:.3} with the Gaussian alone) — gross errors such as results keyed to the wrong heat, or scatter with heavier tails than a Gaussian. Error bars, intervals and probabilities of meeting a requirement describe a test free of gross error.",
+            100.0 * self.share,
+            self.n_heldout,
+            self.heldout_nlpd,
+            self.heldout_nlpd_gaussian
+        )
+    }
 }
 
 impl KrigingCard {
@@ -337,6 +373,12 @@ pub fn model_card(model: &Model) -> ModelCard {
                     heldout_nlpd_with: c.selection.kriging.kriging_nlpd,
                     heldout_nlpd_without: c.selection.kriging.committee_nlpd,
                 }),
+                gross_errors: c.gross_errors.as_ref().map(|g| GrossErrorCard {
+                    share: g.share,
+                    n_heldout: g.n_heldout,
+                    heldout_nlpd_gaussian: g.heldout_nlpd_gaussian,
+                    heldout_nlpd: g.heldout_nlpd,
+                }),
                 noise_basis,
                 replicate_sd: t
                     .training_summary
@@ -412,6 +454,8 @@ pub struct TargetRows {
     pub inputs: Vec<Vec<f64>>,
     /// Domain verdict per row.
     pub in_domain: Vec<bool>,
+    /// The model's gross-error part on the learnt scale, when it has one.
+    pub gross: Option<GrossErrors>,
 }
 
 impl TargetRows {
@@ -425,6 +469,7 @@ impl TargetRows {
             &self.z_mean,
             &self.z_sd,
             &self.log_jacobian,
+            self.gross,
         )
     }
 
@@ -446,6 +491,9 @@ impl TargetRows {
                     estimate: self.estimates[k].clone(),
                     z,
                     in_domain: self.in_domain[k],
+                    gross_error_probability: self
+                        .gross
+                        .map(|g| g.probability(self.z_measured[k], self.z_mean[k], self.z_sd[k])),
                 })
             })
             .collect();
@@ -467,6 +515,9 @@ pub struct OutOfLine {
     pub z: f64,
     /// Whether the row lies in the training domain.
     pub in_domain: bool,
+    /// Probability that the measured value is a gross error (a value
+    /// unrelated to the inputs), for a model with a share of them.
+    pub gross_error_probability: Option<f64>,
 }
 
 /// Estimates of every target on the rows of `table` that hold its measured
@@ -493,6 +544,12 @@ pub fn estimate_rows(model: &Model, table: &Table) -> Result<Vec<TargetRows>> {
             log_jacobian: vec![],
             inputs: vec![],
             in_domain: vec![],
+            gross: t
+                .committee
+                .gross_errors
+                .as_ref()
+                .filter(|g| g.share > 0.0)
+                .map(|g| g.on_scale(|z| t.scaling.unscale_linear(z), t.scaling.width())),
         };
         for (row, (v, p)) in measured.iter().zip(preds).enumerate() {
             let Some(v) = *v else { continue };
@@ -627,6 +684,7 @@ pub(crate) mod tests {
                 kriging: Default::default(),
             },
             kriging: None,
+            gross_errors: None,
         }
     }
 }

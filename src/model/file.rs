@@ -12,7 +12,7 @@ use crate::error::{Error, Result};
 pub const MODEL_FORMAT: &str = "mettle-model";
 
 /// The newest model format version this build writes and reads.
-pub const MODEL_FORMAT_VERSION: u64 = 3;
+pub const MODEL_FORMAT_VERSION: u64 = 4;
 
 impl Model {
     /// The model as JSON bytes (compact, with a final newline). Identical
@@ -200,6 +200,14 @@ impl Model {
                         k.x.nrows(),
                         k.x.ncols(),
                         k.length_scales.len()
+                    ));
+                }
+            }
+            if let Some(g) = &t.committee.gross_errors {
+                if !g.is_valid() {
+                    return Err(format!(
+                        "target '{}': its share of gross errors is damaged (share {}, background mean {}, sd {}; expected a share in [0, 0.25] and a finite mean and positive sd)",
+                        t.name, g.share, g.background_mean, g.background_sd
                     ));
                 }
             }

@@ -238,6 +238,9 @@ fn card_section(card: &ModelCard) -> String {
         if let Some(k) = &t.kriging {
             s.push_str(&format!("<p>{}</p>\n", esc(&k.sentence())));
         }
+        if let Some(k) = &t.gross_errors {
+            s.push_str(&format!("<p>{}</p>\n", esc(&k.sentence())));
+        }
     }
     s.push_str("</section>\n");
     s

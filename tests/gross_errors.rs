@@ -1,0 +1,199 @@
+//! The share of gross errors (docs/method.md §6b), through the real binary,
+//! on invented tensile data of quenched-and-tempered plate heats.
+//!
+//! The generator: UTS = 380 + 900·C + 90·Mn − 0.6·(T_temper − 600) MPa plus
+//! test scatter of sd 10 MPa — a relation of the generator's own, with
+//! the usual signs (strength rises with carbon and manganese, falls with
+//! tempering temperature: common practice, no source). In the "archive"
+//! tables 4 % of the results are mis-keyed: the result of another, random
+//! heat stands in the row (a kind of gross error labs know; common
+//! practice, no source). Checks, against the generator's own truth:
+//!
+//! - the QA engineer's workflow: `train` (defaults) on an archive with
+//!   mis-keyed rows finds a share of gross errors of the right order and
+//!   says so; `evaluate` on a fresh archive scores it better than the same
+//!   model without the share (`--gross-errors off`), and the rows it gives
+//!   a gross-error probability above 0.9 are mis-keyed ones;
+//! - on a clean archive the share stays near zero and the error bars of
+//!   `predict` are those of the Gaussian alone;
+//! - `explain` states the share; a model file whose share is out of range
+//!   is refused naming the target.
+
+mod common;
+
+use common::{stderr, stdout, Workdir};
+use rand::{Rng, SeedableRng};
+use rand_distr::{Distribution, Normal};
+use rand_xoshiro::Xoshiro256PlusPlus;
+use serde_json::Value;
+
+/// Test scatter (MPa) of the generator.
+const SCATTER_SD: f64 = 10.0;
+/// Share of mis-keyed results in an archive.
+const MIS_KEYED: f64 = 0.04;
+
+fn uts(c: f64, mn: f64, temper: f64) -> f64 {
+    380.0 + 900.0 * c + 90.0 * mn - 0.6 * (temper - 600.0)
+}
+
+/// CSV of `n` heats; with `mis_keyed`, that share of results is replaced by
+/// another heat's. Returns the text and which rows (0-based) are mis-keyed.
+fn archive(n: usize, mis_keyed: f64, seed: u64) -> (String, Vec<bool>) {
+    let mut rng = Xoshiro256PlusPlus::seed_from_u64(seed);
+    let e = Normal::new(0.0, SCATTER_SD).expect("sd");
+    let rows: Vec<(f64, f64, f64, f64)> = (0..n)
+        .map(|_| {
+            let c = rng.random_range(0.08..0.22);
+            let mn = rng.random_range(0.6..1.6);
+            let t = rng.random_range(560.0..680.0);
+            (c, mn, t, uts(c, mn, t) + e.sample(&mut rng))
+        })
+        .collect();
+    let mut text = String::from("c_wt,mn_wt,temper_c,uts_mpa\n");
+    let mut flags = Vec::with_capacity(n);
+    for (i, &(c, mn, t, y)) in rows.iter().enumerate() {
+        let swap = rng.random::<f64>() < mis_keyed;
+        let y = if swap {
+            let mut j = rng.random_range(0..n);
+            if j == i {
+                j = (j + 1) % n;
+            }
+            rows[j].3
+        } else {
+            y
+        };
+        flags.push(swap);
+        text.push_str(&format!("{c},{mn},{t},{y}\n"));
+    }
+    (text, flags)
+}
+
+const SMALL: [&str; 10] = [
+    "--target",
+    "uts_mpa",
+    "--hidden",
+    "1..3",
+    "--restarts",
+    "2",
+    "--no-widen",
+    "--kriging",
+    "off",
+    "-q",
+];
+
+fn train(w: &Workdir, data: &str, out: &str, extra: &[&str]) -> String {
+    let mut args = vec!["train", "--data", data, "--out", out];
+    args.extend(SMALL);
+    args.extend(extra);
+    stderr(&w.ok(&args))
+}
+
+fn evaluate(w: &Workdir, model: &str, data: &str) -> Value {
+    let out = w.ok(&[
+        "evaluate", "--model", model, "--data", data, "--format", "json",
+    ]);
+    serde_json::from_slice(&out.stdout).expect("evaluate JSON")
+}
+
+fn share(w: &Workdir, model: &str) -> Option<f64> {
+    let m: Value = serde_json::from_slice(&w.read(model)).expect("model JSON");
+    m["targets"][0]["committee"]["gross_errors"]["share"].as_f64()
+}
+
+#[test]
+fn mis_keyed_results_are_kept_apart_and_named() {
+    let w = Workdir::new();
+    let (train_csv, _) = archive(700, MIS_KEYED, 1);
+    let (fresh_csv, fresh_flags) = archive(1500, MIS_KEYED, 2);
+    w.write("archive.csv", train_csv);
+    w.write("fresh.csv", fresh_csv);
+    train(&w, "archive.csv", "with.json", &[]);
+    train(
+        &w,
+        "archive.csv",
+        "without.json",
+        &["--gross-errors", "off"],
+    );
+
+    // 140 held-out rows, of which about 5.6 mis-keyed; a mis-keyed value
+    // close to the right one is not a detectable gross error, so the share
+    // found is of the order of MIS_KEYED, not equal to it
+    let found = share(&w, "with.json").expect("a share in the model");
+    assert!((0.005..=0.12).contains(&found), "share {found}");
+    assert!(share(&w, "without.json").is_none());
+
+    let with = evaluate(&w, "with.json", "fresh.csv");
+    let without = evaluate(&w, "without.json", "fresh.csv");
+    let nlpd = |v: &Value| v["nlpd"].as_f64().expect("nlpd");
+    // about 60 mis-keyed rows among 1500; the Gaussian alone was trained
+    // on rows with mis-keyed results too, so its sd is already wide and a
+    // mis-keyed row costs it less than it would a clean model (measured
+    // when written: 4.18 against 3.98 nats per row)
+    assert!(
+        nlpd(&with) < nlpd(&without) - 0.1,
+        "NLPD {} with the share, {} without",
+        nlpd(&with),
+        nlpd(&without)
+    );
+    // rows named as gross errors are mis-keyed ones
+    let odd = with["out_of_line"].as_array().expect("out_of_line");
+    let named: Vec<usize> = odd
+        .iter()
+        .filter(|r| r["gross_error_probability"].as_f64().expect("p") > 0.9)
+        .map(|r| r["row"].as_u64().expect("row") as usize)
+        .collect();
+    // a mis-keyed result within a few sds of the right one cannot be told
+    // from scatter: of about 60 mis-keyed rows 18 were named when written
+    assert!(named.len() >= 10, "only {} rows named", named.len());
+    let right = named.iter().filter(|&&r| fresh_flags[r - 1]).count();
+    assert!(
+        right as f64 >= 0.95 * named.len() as f64,
+        "{right} of {} named rows are mis-keyed",
+        named.len()
+    );
+    assert!(without["out_of_line"][0]["gross_error_probability"].is_null());
+
+    // explain states the share
+    let text = stdout(&w.ok(&["explain", "--model", "with.json"]));
+    assert!(text.contains("Gross errors:"), "{text}");
+
+    // a share out of range is refused, naming the target
+    let mut m: Value = serde_json::from_slice(&w.read("with.json")).expect("model JSON");
+    m["targets"][0]["committee"]["gross_errors"]["share"] = Value::from(0.9);
+    w.write("bad.json", serde_json::to_vec(&m).expect("JSON"));
+    let out = w.fails(
+        &["predict", "--model", "bad.json", "--input", "fresh.csv"],
+        2,
+    );
+    let msg = stderr(&out);
+    assert!(
+        msg.contains("uts_mpa") && msg.contains("gross errors"),
+        "{msg}"
+    );
+}
+
+#[test]
+fn a_clean_archive_keeps_the_gaussian() {
+    let w = Workdir::new();
+    let (train_csv, _) = archive(500, 0.0, 3);
+    w.write("clean.csv", train_csv);
+    train(&w, "clean.csv", "with.json", &[]);
+    train(&w, "clean.csv", "without.json", &["--gross-errors", "off"]);
+    let found = share(&w, "with.json").unwrap_or(0.0);
+    assert!(found < 0.01, "share {found} on clean data");
+    // the error bars are the Gaussian's either way
+    let sds = |model: &str| -> Vec<f64> {
+        let out = w.ok(&[
+            "predict",
+            "--model",
+            model,
+            "--input",
+            "clean.csv",
+            "--format",
+            "json",
+        ]);
+        let v: Vec<Value> = serde_json::from_slice(&out.stdout).expect("JSON");
+        v.iter().map(|r| r["sd"].as_f64().expect("sd")).collect()
+    };
+    assert_eq!(sds("with.json"), sds("without.json"));
+}
