@@ -211,6 +211,5 @@ pub const GROSS_ERROR_EM_TOL: f64 = 1e-13;
 /// described by a regression at all.
 pub const GROSS_ERROR_SHARE_MAX: f64 = 0.25;
 
-/// Share of gross errors the EM starts from (0 would be a
-/// fixed point of the iteration).
+/// Share of gross errors the EM starts from.
 pub const GROSS_ERROR_SHARE_START: f64 = 0.01;

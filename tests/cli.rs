@@ -261,7 +261,7 @@ fn evaluate_json_matches_metrics_recomputed_from_predict() {
     // recompute the metrics from predict's output and the measured y, with
     // the definitions of the uncertainty-benchmark literature
     // (Hernández-Lobato & Adams 2015, ICML: RMSE, and NLPD = −mean log
-    // N(y | mean, sd²) in the target's units); coverage = share within
+    // predictive density in the target's units); coverage = share within
     // 1 sd / 2 sd (common practice, no source)
     let pargs = [
         "predict",
@@ -283,13 +283,29 @@ fn evaluate_json_matches_metrics_recomputed_from_predict() {
     let rows = p.as_array().expect("array");
     assert_eq!(rows.len(), measured.len());
     let n = measured.len() as f64;
+    // the model's share of gross errors (docs/method.md §6b; Box & Tiao
+    // 1968): density (1 − π)·N(y; mean, sd²) + π·N(y; t̄, s_t²), with t̄ and
+    // s_t stored in scaled units, scaled = (y − lo)/(hi − lo) − 0.5
+    let model: Value = serde_json::from_slice(&w.read("model.json")).expect("model JSON");
+    let target = &model["targets"][0];
+    let gross = &target["committee"]["gross_errors"];
+    let (lo, hi) = (
+        target["scaling"]["lo"].as_f64().expect("lo"),
+        target["scaling"]["hi"].as_f64().expect("hi"),
+    );
+    let share = gross["share"].as_f64().expect("a share of gross errors");
+    let bg_mean = (gross["background_mean"].as_f64().expect("mean") + 0.5) * (hi - lo) + lo;
+    let bg_sd = gross["background_sd"].as_f64().expect("sd") * (hi - lo);
+    let normal = |y: f64, m: f64, s: f64| {
+        (-(y - m).powi(2) / (2.0 * s * s)).exp() / (s * (2.0 * std::f64::consts::PI).sqrt())
+    };
     let (mut sse, mut sae, mut nlpd, mut c1, mut c2) = (0.0, 0.0, 0.0, 0.0, 0.0);
     for (r, y) in rows.iter().zip(&measured) {
         let (m, s) = (num(r, "mean"), num(r, "sd"));
         let d = y - m;
         sse += d * d;
         sae += d.abs();
-        nlpd += 0.5 * (2.0 * std::f64::consts::PI * s * s).ln() + d * d / (2.0 * s * s);
+        nlpd -= ((1.0 - share) * normal(*y, m, s) + share * normal(*y, bg_mean, bg_sd)).ln();
         c1 += f64::from(u8::from(d.abs() <= s));
         c2 += f64::from(u8::from(d.abs() <= 2.0 * s));
     }

@@ -1,11 +1,11 @@
 #!/usr/bin/env python3
 """Reference values for mettle's share of gross errors
-(committee::gross_errors): the maximum-likelihood share pi of the
+(committee::gross_errors): the posterior mode of the share pi of the
 contamination model of Box & Tiao (1968),
 
     p(t) = (1 - pi) * N(t; m, v) + pi * N(t; tbar, s_t^2),
 
-found here by SciPy's general-purpose bounded scalar minimiser
+under a Beta(2, 2) prior on pi, found here by SciPy's general-purpose bounded scalar minimiser
 (scipy.optimize.minimize_scalar, densities from scipy.stats.norm), not by EM
 as in mettle.
 
@@ -13,7 +13,7 @@ Usage:
     python3 tests/reference/gross_error_share.py
 
 Writes tests/data/gross_error_share.json: the rows (t, m, v), the background
-(tbar, s_t), the optimum pi, the mean negative log density there and with
+(tbar, s_t), the mode pi, the mean negative log density there and with
 pi = 0; also the two-part log density of three single rows for the
 evaluation test in src/metrics.rs. The rows are invented (NumPy seed
 20261203): 300 values, 5 % of them gross errors drawn from the background,
@@ -43,7 +43,12 @@ def nll(pi):
     return -np.mean(np.log(dens))
 
 
-res = minimize_scalar(nll, bounds=(0.0, 0.25), method="bounded", options={"xatol": 1e-12})
+def neg_log_post(pi):
+    # mean negative log posterior per row: likelihood plus ln Beta(2, 2) / n
+    return nll(pi) - (np.log(pi) + np.log(1 - pi)) / n
+
+
+res = minimize_scalar(neg_log_post, bounds=(1e-9, 0.25), method="bounded", options={"xatol": 1e-12})
 pi = float(res.x)
 
 singles = [
@@ -67,7 +72,7 @@ out = {
     "background_mean": tbar,
     "background_sd": s_t,
     "share": pi,
-    "nlpd_at_optimum": float(res.fun),
+    "nlpd_at_mode": float(nll(pi)),
     "nlpd_gaussian": float(-np.mean(norm.logpdf(t, m, np.sqrt(v)))),
     "singles": [list(s) for s in singles],
     "single_ln_density": single_ln,
@@ -75,4 +80,4 @@ out = {
 path = os.path.join(os.path.dirname(__file__), "..", "data", "gross_error_share.json")
 with open(path, "w") as f:
     json.dump(out, f, indent=1)
-print(f"pi = {pi:.8f}, nlpd {res.fun:.10f}; wrote {path}")
+print(f"pi = {pi:.8f}, nlpd {nll(pi):.10f}; wrote {path}")
