@@ -183,12 +183,7 @@ mod tests {
     /// SciPy 1.17.1).
     #[test]
     fn gross_error_density_matches_scipy() {
-        let text = std::fs::read_to_string(concat!(
-            env!("CARGO_MANIFEST_DIR"),
-            "/tests/data/gross_error_share.json"
-        ))
-        .expect("reference file");
-        let r: serde_json::Value = serde_json::from_str(&text).expect("json");
+        let r = crate::committee::gross_errors_reference();
         let singles = r["singles"].as_array().expect("rows");
         let want = r["single_ln_density"].as_array().expect("densities");
         for (row, w) in singles.iter().zip(want) {

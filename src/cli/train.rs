@@ -93,7 +93,7 @@ pub struct TrainArgs {
     #[arg(long, value_enum, value_name = "MODE", default_value_t = KrigingArg::Auto)]
     kriging: KrigingArg,
     /// Gross errors: `on` estimates, on the held-out rows inside the training data, the share of
-    /// measured values that no smooth function of the inputs explains (transcription slips, a
+    /// measured values that no smooth function of the inputs explains (copying slips, a
     /// specimen from another heat) and keeps it beside the Gaussian error bar: the sd and
     /// intervals stay those of a test free of gross error, `evaluate` scores measured values with
     /// the two-part density and names the probability that an out-of-line row is a gross error.

@@ -4,7 +4,7 @@
 //! # Method
 //!
 //! Test archives hold a few values that no smooth function of the inputs
-//! explains — transcription slips, a specimen from another heat, a test
+//! explains — copying slips, a specimen from another heat, a test
 //! outside its validity conditions. A Gaussian predictive gives such a value
 //! a density of e^(−z²/2): one row 20 sds out costs 200 nats, more than a
 //! hundred good rows gain. The contamination model of Box & Tiao (1968),
@@ -49,13 +49,12 @@
 
 use ndarray::ArrayView1;
 use serde::{Deserialize, Serialize};
+use statrs::consts::LN_SQRT_2PI;
 
 use crate::prec::{
     GROSS_ERROR_EM_ITERS, GROSS_ERROR_EM_TOL, GROSS_ERROR_SHARE_MAX, GROSS_ERROR_SHARE_START,
     VAR_FLOOR,
 };
-
-const LN_2PI: f64 = 1.837_877_066_409_345_5;
 
 /// The share of gross errors of one target, estimated on the held-out part,
 /// in the scaled units the committee works in.
@@ -77,7 +76,7 @@ pub struct GrossErrorModel {
 
 /// ln N(t; m, v).
 fn ln_normal(t: f64, m: f64, v: f64) -> f64 {
-    -0.5 * (LN_2PI + v.ln() + (t - m).powi(2) / v)
+    -LN_SQRT_2PI - 0.5 * (v.ln() + (t - m).powi(2) / v)
 }
 
 /// ln(e^a + e^b) without overflow.
@@ -212,6 +211,18 @@ impl GrossErrors {
     }
 }
 
+/// The SciPy reference values of tests/reference/gross_error_share.py,
+/// shared by the tests of this module and of `metrics`.
+#[cfg(test)]
+pub(crate) fn scipy_reference() -> serde_json::Value {
+    let text = std::fs::read_to_string(concat!(
+        env!("CARGO_MANIFEST_DIR"),
+        "/tests/data/gross_error_share.json"
+    ))
+    .expect("reference file");
+    serde_json::from_str(&text).expect("json")
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -266,12 +277,7 @@ mod tests {
     /// (tests/reference/gross_error_share.py, SciPy 1.17.1).
     #[test]
     fn em_agrees_with_scipy_on_the_mode() {
-        let text = std::fs::read_to_string(concat!(
-            env!("CARGO_MANIFEST_DIR"),
-            "/tests/data/gross_error_share.json"
-        ))
-        .expect("reference file");
-        let r: serde_json::Value = serde_json::from_str(&text).expect("json");
+        let r = scipy_reference();
         let arr = |k: &str| -> Array1<f64> {
             r[k].as_array()
                 .expect("array")

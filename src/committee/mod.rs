@@ -31,6 +31,8 @@ mod noise;
 mod params;
 mod search;
 
+#[cfg(test)]
+pub(crate) use gross_errors::scipy_reference as gross_errors_reference;
 pub use gross_errors::{GrossErrorModel, GrossErrors};
 pub use kriging::{ResidualKriging, KRIGING_MAX_ROWS};
 pub use noise::NoiseModel;

@@ -175,7 +175,7 @@ impl GrossErrorCard {
         // at the posterior mode π = (k + 1)/(N + 2), k the expected count
         let k = (self.share * (self.n_heldout as f64 + 2.0) - 1.0).max(0.0);
         format!(
-            "Gross errors: about {:.1} % of tests are expected to be values unrelated to the inputs (results keyed to the wrong heat, transcription slips, or scatter with heavier tails than a Gaussian): {:.1} of the {} held-out rows look like them, and a share is kept even when none does, since clean rows do not show that the next test cannot be a blunder (held-out NLPD {:.3}, {:.3} with the Gaussian alone). Error bars, intervals and probabilities of meeting a requirement describe a test free of gross error.",
+            "Gross errors: about {:.1} % of tests are expected to be values unrelated to the inputs (results keyed to the wrong heat, copying slips, or scatter with heavier tails than a Gaussian): {:.1} of the {} held-out rows look like them, and a share is kept even when none does, since clean rows do not show that the next test cannot be a blunder (held-out NLPD {:.3}, {:.3} with the Gaussian alone). Error bars, intervals and probabilities of meeting a requirement describe a test free of gross error.",
             100.0 * self.share,
             k,
             self.n_heldout,
@@ -545,7 +545,6 @@ pub fn estimate_rows(model: &Model, table: &Table) -> Result<Vec<TargetRows>> {
                 .committee
                 .gross_errors
                 .as_ref()
-                .filter(|g| g.share > 0.0)
                 .map(|g| g.on_scale(|z| t.scaling.unscale_linear(z), t.scaling.width())),
         };
         for (row, (v, p)) in measured.iter().zip(preds).enumerate() {
