@@ -213,3 +213,8 @@ pub const GROSS_ERROR_SHARE_MAX: f64 = 0.25;
 
 /// Share of gross errors the EM starts from.
 pub const GROSS_ERROR_SHARE_START: f64 = 0.01;
+
+/// Smallest responsibility a row keeps in a refit under the contamination
+/// model: a row is never weighted out entirely, so that ln r_n and the
+/// weighted Hessian stay finite.
+pub const RESPONSIBILITY_FLOOR: f64 = 1e-9;

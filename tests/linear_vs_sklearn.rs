@@ -103,11 +103,14 @@ fn diabetes_table() -> Table {
 fn linear_model(table: &Table) -> Model {
     let mut spec = TrainSpec::new(&["y"]);
     spec.auto_log_inputs = false;
-    // BayesianRidge has one noise level, so the comparison is with constant noise
+    // BayesianRidge has one Gaussian noise level, so the comparison is with
+    // constant noise and without the share of gross errors (whose refit
+    // weights rows by their responsibilities)
     spec.params = CommitteeParams::default()
         .hidden(0, 0)
         .ard(false)
-        .noise(NoiseMode::Constant);
+        .noise(NoiseMode::Constant)
+        .gross_errors(false);
     Model::train(table, &spec, &Silent).expect("linear fit")
 }
 

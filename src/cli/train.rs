@@ -97,6 +97,8 @@ pub struct TrainArgs {
     /// specimen from another heat) and keeps it beside the Gaussian error bar: the sd and
     /// intervals stay those of a test free of gross error, `evaluate` scores measured values with
     /// the two-part density and names the probability that an out-of-line row is a gross error.
+    /// The chosen networks are then refitted on all the rows with that share, so that rows that
+    /// look like gross errors neither pull the estimates nor widen everyone's error bar.
     /// `off` keeps the Gaussian alone.
     #[arg(long, value_enum, value_name = "MODE", default_value_t = Switch::On)]
     gross_errors: Switch,

@@ -33,6 +33,7 @@ use rand_distr::{Distribution, Normal};
 use rand_xoshiro::Xoshiro256PlusPlus;
 use serde::{Deserialize, Serialize};
 
+use super::gross_errors::{GrossErrorModel, GROSS_ERROR_REFIT_ROUNDS};
 use crate::evidence::{
     fit_model, predictive, DataModel, FitDiagnostics, FitFailure, FitSettings, FittedNetwork,
     GroupKind, Groups, StartState,
@@ -114,6 +115,8 @@ impl NoiseModel {
 pub(crate) struct VaryingFit {
     pub mean: FittedNetwork,
     pub noise: NoiseModel,
+    /// Σ(1 − r_n) of the last E-step when refitted with gross errors.
+    pub gross_rows: Option<f64>,
 }
 
 /// Leverage-corrected squared residuals u_n of a mean network whose rows
@@ -162,13 +165,18 @@ fn noise_start(n_inputs: usize, seed: u64, u: &Array1<f64>) -> StartState {
 /// Fit varying noise for a mean network: [`NOISE_ROUNDS`] alternations of
 /// noise fit and row-weighted mean refit, warm-started from `mean` (and
 /// from `noise` when given). `seed` fixes the noise network's first
-/// weights.
+/// weights. With `gross`, each round starts with the E-step of the
+/// contamination model (see [`GrossErrorModel`]): the rows' responsibilities
+/// weight both the noise fit and the mean refit, over at least
+/// [`GROSS_ERROR_REFIT_ROUNDS`] rounds.
 ///
 /// # Errors
 /// The [`FitFailure`] of whichever fit failed.
+#[allow(clippy::too_many_arguments)]
 pub(crate) fn fit_varying(
     mean: &FittedNetwork,
     noise: Option<&NoiseModel>,
+    gross: Option<&GrossErrorModel>,
     ard: bool,
     x: ArrayView2<f64>,
     t: ArrayView1<f64>,
@@ -181,10 +189,28 @@ pub(crate) fn fit_varying(
         ..settings.clone()
     };
     let mut rho: Option<Array1<f64>> = noise.map(|nm| nm.precision_weights(d, x));
+    // the weight of each row in the fit that gave the current mean network
+    let mut fit_weights = rho.clone();
     let mut noise_model: Option<NoiseModel> = noise.cloned();
     let mut mean_net = mean.clone();
-    for _ in 0..NOISE_ROUNDS {
-        let u = corrected_squares(&mean_net, rho.as_ref(), x, t);
+    let mut gross_rows = None;
+    let rounds = if gross.is_some() {
+        NOISE_ROUNDS.max(GROSS_ERROR_REFIT_ROUNDS)
+    } else {
+        NOISE_ROUNDS
+    };
+    for _ in 0..rounds {
+        let resp = gross.map(|g| {
+            let (m, _) = mean_net.predict(x);
+            let beta = mean_net.beta;
+            g.responsibilities(t, m.view(), |n| {
+                1.0 / (beta * rho.as_ref().map_or(1.0, |r| r[n]))
+            })
+        });
+        if let Some(r) = &resp {
+            gross_rows = Some(r.iter().map(|v| 1.0 - v).sum::<f64>());
+        }
+        let u = corrected_squares(&mean_net, fit_weights.as_ref(), x, t);
         let start = match &noise_model {
             Some(nm) => nm.start(),
             None => noise_start(d, seed, &u),
@@ -193,7 +219,10 @@ pub(crate) fn fit_varying(
             Architecture::new(d, NOISE_HIDDEN),
             ard,
             x.view(),
-            DataModel::LogVariance { u: u.view() },
+            DataModel::LogVariance {
+                u: u.view(),
+                row_weights: resp.as_ref().map(|r| r.view()),
+            },
             start,
             if noise_model.is_some() {
                 &warm
@@ -203,6 +232,10 @@ pub(crate) fn fit_varying(
         )?;
         let nm = NoiseModel::from_fit(noise_fit);
         let weights = nm.precision_weights(d, x);
+        let data_weights = match &resp {
+            Some(r) => &weights * r,
+            None => weights.clone(),
+        };
         let start = StartState {
             weights: mean_net.weights.clone(),
             alpha: mean_net.alpha.clone(),
@@ -214,18 +247,21 @@ pub(crate) fn fit_varying(
             x.view(),
             DataModel::Gaussian {
                 t: t.view(),
-                row_weights: Some(weights.view()),
+                row_weights: Some(data_weights.view()),
+                responsibilities: resp.as_ref().map(|r| r.view()),
             },
             start,
             &warm,
         )?;
         rho = Some(weights);
+        fit_weights = Some(data_weights);
         noise_model = Some(nm);
     }
     let noise = noise_model.ok_or_else(|| FitFailure::Stalled("no noise round ran".into()))?;
     Ok(VaryingFit {
         mean: mean_net,
         noise,
+        gross_rows,
     })
 }
 
@@ -257,7 +293,8 @@ mod tests {
         };
         let settings = FitSettings::default();
         let mean = fit_network(arch, true, x.view(), t.view(), start, &settings).expect("mean");
-        let fit = fit_varying(&mean, None, true, x.view(), t.view(), 3, &settings).expect("noise");
+        let fit =
+            fit_varying(&mean, None, None, true, x.view(), t.view(), 3, &settings).expect("noise");
         let probe = Array2::from_shape_fn((5, 2), |(i, j)| {
             if j == 0 {
                 -0.45 + 0.225 * i as f64

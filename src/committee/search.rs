@@ -312,6 +312,7 @@ pub fn train_committee(
                 let fit = fit_varying(
                     net,
                     None,
+                    None,
                     params.ard,
                     x_tr.view(),
                     t_tr.view(),
@@ -535,7 +536,15 @@ pub fn train_committee(
         first_iters: params.fit.cycle_iters,
         ..params.fit.clone()
     };
-    let refits: Vec<std::result::Result<Member, String>> = if use_varying {
+    // the gross errors' spread over all the training rows; the members are
+    // refitted under the contamination model with the held-out share
+    let final_gross = gross.map(|g| GrossErrorModel {
+        background_mean: t.mean().unwrap_or(g.background_mean),
+        background_sd: t.std(0.0),
+        ..g
+    });
+    type Refit = std::result::Result<(Member, Option<f64>), String>;
+    let refits: Vec<Refit> = if use_varying {
         varying_members
             .par_iter()
             .map(|c| {
@@ -543,6 +552,7 @@ pub fn train_committee(
                 fit_varying(
                     &c.fit.mean,
                     Some(&c.fit.noise),
+                    final_gross.as_ref(),
                     params.ard,
                     x.view(),
                     t.view(),
@@ -552,7 +562,7 @@ pub fn train_committee(
                 .map(|refit| {
                     let mut m = provisional_member(c.trial, &refit);
                     m.heldout_nlpd = c.nlpd;
-                    m
+                    (m, refit.gross_rows)
                 })
                 .map_err(|f| format!("{} hidden, restart {}: {f}", rec.n_hidden, rec.restart))
             })
@@ -576,16 +586,26 @@ pub fn train_committee(
                     start,
                     &refit_settings,
                 )
-                .map(|refit| member_from(rec, &refit, None))
+                .and_then(|refit| match &final_gross {
+                    Some(g) => g
+                        .refit_constant(refit, params.ard, x, t, &refit_settings)
+                        .map(|(net, rows)| (net, Some(rows))),
+                    None => Ok((refit, None)),
+                })
+                .map(|(refit, rows)| (member_from(rec, &refit, None), rows))
                 .map_err(|f| format!("{} hidden, restart {}: {f}", rec.n_hidden, rec.restart))
             })
             .collect()
     };
     let mut members = Vec::new();
     let mut refit_failures = Vec::new();
+    let mut gross_rows = Vec::new();
     for r in refits {
         match r {
-            Ok(m) => members.push(m),
+            Ok((m, rows)) => {
+                members.push(m);
+                gross_rows.extend(rows);
+            }
             Err(e) => refit_failures.push(e),
         }
     }
@@ -652,10 +672,9 @@ pub fn train_committee(
             kriging: kriging_sel,
         },
         kriging,
-        gross_errors: gross.map(|g| GrossErrorModel {
-            // the gross errors' spread over all the training rows
-            background_mean: t.mean().unwrap_or(g.background_mean),
-            background_sd: t.std(0.0),
+        gross_errors: final_gross.map(|g| GrossErrorModel {
+            refit_gross_rows: (!gross_rows.is_empty())
+                .then(|| gross_rows.iter().sum::<f64>() / gross_rows.len() as f64),
             ..g
         }),
     })

@@ -225,7 +225,7 @@ fn hessian_of_m(
     } = hyper;
     let (curvature, rows) = match *data {
         DataModel::Gaussian { row_weights, .. } => (beta, row_weights),
-        DataModel::LogVariance { .. } => (0.5, None),
+        DataModel::LogVariance { row_weights, .. } => (0.5, row_weights),
     };
     let add_prior = |mut h: Array2<f64>| {
         h *= curvature;
@@ -237,6 +237,7 @@ fn hessian_of_m(
     if let DataModel::Gaussian {
         t,
         row_weights: None,
+        ..
     } = *data
     {
         if choice == HessianChoice::ExactWherePositiveDefinite && !arch.is_linear() {
@@ -397,6 +398,7 @@ pub fn fit_network<'a>(
         DataModel::Gaussian {
             t,
             row_weights: None,
+            responsibilities: None,
         },
         start,
         settings,
@@ -418,15 +420,29 @@ pub fn fit_model<'a>(
     settings: &FitSettings,
 ) -> Result<FittedNetwork, FitFailure> {
     let is_gaussian = matches!(data, DataModel::Gaussian { .. });
-    let ln_rho_sum = match data {
+    // rows counted (Σ r_n under a contamination model, else N) and
+    // Σ r_n ln ρ_n, the precision weights' share of the normalisation
+    let (n, ln_rho_sum) = match data {
         DataModel::Gaussian {
-            row_weights: Some(rho),
+            row_weights,
+            responsibilities,
             ..
-        } => rho.iter().map(|r| r.ln()).sum::<f64>(),
-        _ => 0.0,
+        } => {
+            let resp = |k: usize| responsibilities.map_or(1.0, |r| r[k]);
+            let ln_rho: f64 = row_weights.map_or(0.0, |w| {
+                w.iter()
+                    .enumerate()
+                    .map(|(k, w)| resp(k) * (w / resp(k)).ln())
+                    .sum()
+            });
+            let counted = responsibilities.map_or(x.nrows() as f64, |r| r.sum());
+            (counted, ln_rho)
+        }
+        DataModel::LogVariance { row_weights, .. } => {
+            (row_weights.map_or(x.nrows() as f64, |w| w.sum()), 0.0)
+        }
     };
     let groups = Groups::new(&arch, ard);
-    let n = x.nrows() as f64;
     let mut diag = FitDiagnostics::default();
     let mut w = start.weights;
     let mut alpha = flat_output_bias(&groups, start.alpha);

@@ -8,18 +8,24 @@
 //! ```
 //!
 //! (MacKay 1992, Neural Computation 4(3):448, eq. 2; Bishop 1995 §10.4),
-//! with per-row precision weights ρ_n (all 1 under constant noise). For the
+//! with per-row precision weights ρ_n (all 1 under constant noise). Under a
+//! contamination model (a share of gross errors beside the Gaussian; Box &
+//! Tiao 1968, Biometrika 55:119) the EM algorithm (Dempster, Laird & Rubin
+//! 1977, JRSS B 39:1) weights each row's term further by its responsibility
+//! r_n, the probability that it is free of gross error: E_D = ½ Σ r_n ρ_n
+//! (y_n − t_n)². For the
 //! network of the log noise variance s(x) = ln σ²(x) the data term is
 //! instead the Gaussian negative log likelihood of the residuals r_n of the
 //! mean network, up to a constant,
 //!
 //! ```text
-//! E_L = ½ Σ_n (s_n + u_n·e^(−s_n)),   u_n = r_n² / (1 − h_n)
+//! E_L = ½ Σ_n w_n (s_n + u_n·e^(−s_n)),   u_n = r_n² / (1 − h_n)
 //! ```
 //!
 //! with h_n the leverage of row n (Bishop & Qazaz 1997, "Regression with
 //! input-dependent noise: a Bayesian treatment", NIPS 9; the leverage
-//! correction makes E[u_n] = σ²(x_n) for a fitted mean).
+//! correction makes E[u_n] = σ²(x_n) for a fitted mean), w_n the rows'
+//! responsibilities (all 1 without gross errors).
 //! The optimiser sees M/N so that its tolerances do not depend on the
 //! number of rows.
 
@@ -37,13 +43,20 @@ pub enum DataModel<'a> {
     Gaussian {
         /// Targets.
         t: ArrayView1<'a, f64>,
-        /// Per-row precision weights ρ_n; `None` means all 1.
+        /// Weight of each row's term: its precision weight ρ_n times its
+        /// responsibility r_n; `None` means all 1.
         row_weights: Option<ArrayView1<'a, f64>>,
+        /// Responsibilities r_n ∈ (0, 1] (already inside `row_weights`):
+        /// row n counts as r_n rows in β's re-estimation and the evidence;
+        /// `None` means all 1.
+        responsibilities: Option<ArrayView1<'a, f64>>,
     },
     /// The log noise variance, from leverage-corrected squared residuals.
     LogVariance {
         /// u_n = r_n²/(1 − h_n).
         u: ArrayView1<'a, f64>,
+        /// Responsibilities w_n of the rows; `None` means all 1.
+        row_weights: Option<ArrayView1<'a, f64>>,
     },
 }
 
@@ -60,6 +73,7 @@ impl DataModel<'_> {
             DataModel::Gaussian {
                 t,
                 row_weights: None,
+                ..
             } => {
                 let (e_d, g) = arch.data_error_gradient(w, x, t);
                 (beta * e_d, g * beta)
@@ -67,6 +81,7 @@ impl DataModel<'_> {
             DataModel::Gaussian {
                 t,
                 row_weights: Some(rho),
+                ..
             } => {
                 let (y, act) = arch.outputs_and_activations(w, x);
                 let r = &y - &t;
@@ -75,12 +90,19 @@ impl DataModel<'_> {
                 let g = arch.gradient_from_output(w, x, &act, &rho_r);
                 (beta * e_d, g * beta)
             }
-            DataModel::LogVariance { u } => {
+            DataModel::LogVariance { u, row_weights } => {
                 let (s, act) = arch.outputs_and_activations(w, x);
                 let scaled = &u * &s.mapv(|v| (-v).exp());
-                let value = 0.5 * (s.sum() + scaled.sum());
-                let dl_ds = scaled.mapv(|v| 0.5 * (1.0 - v));
-                (value, arch.gradient_from_output(w, x, &act, &dl_ds))
+                let mut terms = &s + &scaled;
+                let mut dl_ds = scaled.mapv(|v| 0.5 * (1.0 - v));
+                if let Some(wt) = row_weights {
+                    terms *= &wt;
+                    dl_ds *= &wt;
+                }
+                (
+                    0.5 * terms.sum(),
+                    arch.gradient_from_output(w, x, &act, &dl_ds),
+                )
             }
         }
     }
@@ -89,7 +111,7 @@ impl DataModel<'_> {
     pub fn value(&self, arch: &Architecture, w: &[f64], x: ArrayView2<f64>, beta: f64) -> f64 {
         let y = arch.predict(w, x);
         match *self {
-            DataModel::Gaussian { t, row_weights } => {
+            DataModel::Gaussian { t, row_weights, .. } => {
                 let r = &y - &t;
                 let e_d = match row_weights {
                     None => 0.5 * r.dot(&r),
@@ -97,11 +119,12 @@ impl DataModel<'_> {
                 };
                 beta * e_d
             }
-            DataModel::LogVariance { u } => {
+            DataModel::LogVariance { u, row_weights } => {
                 0.5 * y
                     .iter()
                     .zip(u)
-                    .map(|(s, u)| s + u * (-s).exp())
+                    .enumerate()
+                    .map(|(n, (s, u))| row_weights.map_or(1.0, |wt| wt[n]) * (s + u * (-s).exp()))
                     .sum::<f64>()
             }
         }
@@ -207,6 +230,7 @@ mod tests {
         let t = Array1::from_shape_fn(n, |_| rng.random_range(-0.5..0.5));
         let rho = Array1::from_shape_fn(n, |_| rng.random_range(0.2..3.0));
         let u = Array1::from_shape_fn(n, |_| rng.random_range(0.001..0.2));
+        let resp = Array1::from_shape_fn(n, |_| rng.random_range(0.01..1.0));
         let w: Vec<f64> = (0..arch.n_params())
             .map(|_| rng.random_range(-1.0..1.0))
             .collect();
@@ -214,8 +238,16 @@ mod tests {
             DataModel::Gaussian {
                 t: t.view(),
                 row_weights: Some(rho.view()),
+                responsibilities: None,
             },
-            DataModel::LogVariance { u: u.view() },
+            DataModel::LogVariance {
+                u: u.view(),
+                row_weights: None,
+            },
+            DataModel::LogVariance {
+                u: u.view(),
+                row_weights: Some(resp.view()),
+            },
         ];
         for model in models {
             let (v, g) = model.value_gradient(&arch, &w, x.view(), 7.0);

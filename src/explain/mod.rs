@@ -167,6 +167,11 @@ pub struct GrossErrorCard {
     pub heldout_nlpd_gaussian: f64,
     /// Held-out NLPD with the gross-error part.
     pub heldout_nlpd: f64,
+    /// Rows' worth of weight the final refit gave the gross-error part, of
+    /// `n_rows` training rows (None before model format 5).
+    pub refit_gross_rows: Option<f64>,
+    /// Training rows of the final refit.
+    pub n_rows: usize,
 }
 
 impl GrossErrorCard {
@@ -174,8 +179,14 @@ impl GrossErrorCard {
     pub fn sentence(&self) -> String {
         // at the posterior mode π = (k + 1)/(N + 2), k the expected count
         let k = (self.share * (self.n_heldout as f64 + 2.0) - 1.0).max(0.0);
+        let refit = self.refit_gross_rows.map_or(String::new(), |rows| {
+            format!(
+                " The networks were refitted on all {} training rows with this share: {rows:.1} rows' worth of weight went to the gross-error part, so those rows neither pulled the estimates nor widened the noise level.",
+                self.n_rows
+            )
+        });
         format!(
-            "Gross errors: about {:.1} % of tests are expected to be values unrelated to the inputs (results keyed to the wrong heat, copying slips, or scatter with heavier tails than a Gaussian): {:.1} of the {} held-out rows look like them, and a share is kept even when none does, since clean rows do not show that the next test cannot be a blunder (held-out NLPD {:.3}, {:.3} with the Gaussian alone). Error bars, intervals and probabilities of meeting a requirement describe a test free of gross error.",
+            "Gross errors: about {:.1} % of tests are expected to be values unrelated to the inputs (results keyed to the wrong heat, copying slips, or scatter with heavier tails than a Gaussian): {:.1} of the {} held-out rows look like them, and a share is kept even when none does, since clean rows do not show that the next test cannot be a blunder (held-out NLPD {:.3}, {:.3} with the Gaussian alone).{refit} Error bars, intervals and probabilities of meeting a requirement describe a test free of gross error.",
             100.0 * self.share,
             k,
             self.n_heldout,
@@ -375,6 +386,8 @@ pub fn model_card(model: &Model) -> ModelCard {
                     n_heldout: g.n_heldout,
                     heldout_nlpd_gaussian: g.heldout_nlpd_gaussian,
                     heldout_nlpd: g.heldout_nlpd,
+                    refit_gross_rows: g.refit_gross_rows,
+                    n_rows: t.n_rows,
                 }),
                 noise_basis,
                 replicate_sd: t
