@@ -29,6 +29,12 @@
 //! the last two terms counting the 2^H·H! equivalent weight vectors of a
 //! tanh network (Bishop 1995, eq. 10.67, without its two
 //! hyperparameter-error terms, which diverge for groups whose γ_c → 0).
+//!
+//! Rows that carry responsibilities r_n (the refit under a share of gross
+//! errors, `committee::gross_errors`) count as r_n rows: N becomes Σ r_n
+//! in β's re-estimation and in the normalisation terms, whose precision
+//! weights enter as Σ r_n ln ρ_n (the Gaussian part of the expected
+//! complete-data log likelihood of EM; Dempster, Laird & Rubin 1977).
 
 use argmin::core::{Executor, State, TerminationReason};
 use argmin::solver::linesearch::MoreThuenteLineSearch;
