@@ -102,6 +102,10 @@ pub struct GrossErrorModel {
     /// before format 5).
     #[serde(default)]
     pub refit_gross_rows: Option<f64>,
+    /// Members whose refit with the share failed and which were refitted
+    /// with the Gaussian likelihood instead, with the reason.
+    #[serde(default, skip_serializing_if = "Vec::is_empty")]
+    pub refit_fallbacks: Vec<String>,
 }
 
 /// ln N(t; m, v).
@@ -177,6 +181,7 @@ impl GrossErrorModel {
             heldout_nlpd_gaussian: -gaussian + ln_width,
             heldout_nlpd: -mean_ln(share) + ln_width,
             refit_gross_rows: None,
+            refit_fallbacks: Vec::new(),
         })
     }
 
@@ -455,6 +460,7 @@ mod tests {
             heldout_nlpd_gaussian: 0.0,
             heldout_nlpd: 0.0,
             refit_gross_rows: None,
+            refit_fallbacks: Vec::new(),
         };
         let (net, gross_rows) = model
             .refit_constant(plain, true, x.view(), t.view(), &settings)

@@ -543,26 +543,34 @@ pub fn train_committee(
         background_sd: t.std(0.0),
         ..g
     });
-    type Refit = std::result::Result<(Member, Option<f64>), String>;
+    // (member, Σ(1 − r_n) when refitted with the share, why the refit with
+    // the share failed and the Gaussian one was kept instead)
+    type Refit = std::result::Result<(Member, Option<f64>, Option<String>), String>;
     let refits: Vec<Refit> = if use_varying {
         varying_members
             .par_iter()
             .map(|c| {
                 let rec = &c.trial.record;
-                fit_varying(
-                    &c.fit.mean,
-                    Some(&c.fit.noise),
-                    final_gross.as_ref(),
-                    params.ard,
-                    x.view(),
-                    t.view(),
-                    rec.seed ^ NOISE_SEED_SALT,
-                    &params.fit,
-                )
-                .map(|refit| {
+                let refit = |gross: Option<&GrossErrorModel>| {
+                    fit_varying(
+                        &c.fit.mean,
+                        Some(&c.fit.noise),
+                        gross,
+                        params.ard,
+                        x.view(),
+                        t.view(),
+                        rec.seed ^ NOISE_SEED_SALT,
+                        &params.fit,
+                    )
+                };
+                let (fit, fallback) = match refit(final_gross.as_ref()) {
+                    Err(f) if final_gross.is_some() => (refit(None), Some(f.to_string())),
+                    other => (other, None),
+                };
+                fit.map(|refit| {
                     let mut m = provisional_member(c.trial, &refit);
                     m.heldout_nlpd = c.nlpd;
-                    (m, refit.gross_rows)
+                    (m, refit.gross_rows, fallback)
                 })
                 .map_err(|f| format!("{} hidden, restart {}: {f}", rec.n_hidden, rec.restart))
             })
@@ -586,13 +594,16 @@ pub fn train_committee(
                     start,
                     &refit_settings,
                 )
-                .and_then(|refit| match &final_gross {
-                    Some(g) => g
-                        .refit_constant(refit, params.ard, x, t, &refit_settings)
-                        .map(|(net, rows)| (net, Some(rows))),
-                    None => Ok((refit, None)),
+                .map(|refit| match &final_gross {
+                    Some(g) => {
+                        match g.refit_constant(refit.clone(), params.ard, x, t, &refit_settings) {
+                            Ok((net, rows)) => (net, Some(rows), None),
+                            Err(f) => (refit, None, Some(f.to_string())),
+                        }
+                    }
+                    None => (refit, None, None),
                 })
-                .map(|(refit, rows)| (member_from(rec, &refit, None), rows))
+                .map(|(refit, rows, fallback)| (member_from(rec, &refit, None), rows, fallback))
                 .map_err(|f| format!("{} hidden, restart {}: {f}", rec.n_hidden, rec.restart))
             })
             .collect()
@@ -600,9 +611,16 @@ pub fn train_committee(
     let mut members = Vec::new();
     let mut refit_failures = Vec::new();
     let mut gross_rows = Vec::new();
+    let mut gross_fallbacks = Vec::new();
     for r in refits {
         match r {
-            Ok((m, rows)) => {
+            Ok((m, rows, fallback)) => {
+                if let Some(why) = fallback {
+                    gross_fallbacks.push(format!(
+                        "{} hidden, restart {}: {why}",
+                        m.n_hidden, m.restart
+                    ));
+                }
                 members.push(m);
                 gross_rows.extend(rows);
             }
@@ -675,6 +693,7 @@ pub fn train_committee(
         gross_errors: final_gross.map(|g| GrossErrorModel {
             refit_gross_rows: (!gross_rows.is_empty())
                 .then(|| gross_rows.iter().sum::<f64>() / gross_rows.len() as f64),
+            refit_fallbacks: gross_fallbacks,
             ..g
         }),
     })

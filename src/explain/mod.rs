@@ -172,6 +172,9 @@ pub struct GrossErrorCard {
     pub refit_gross_rows: Option<f64>,
     /// Training rows of the final refit.
     pub n_rows: usize,
+    /// Members whose refit with the share failed (they kept the Gaussian
+    /// refit).
+    pub refit_fallbacks: usize,
 }
 
 impl GrossErrorCard {
@@ -184,7 +187,10 @@ impl GrossErrorCard {
                 " The networks were refitted on all {} training rows with this share: {rows:.1} rows' worth of weight went to the gross-error part, so those rows neither pulled the estimates nor widened the noise level.",
                 self.n_rows
             )
-        });
+        }) + &match self.refit_fallbacks {
+            0 => String::new(),
+            k => format!(" {k} member(s) could not be refitted with the share and kept the refit with the Gaussian likelihood (the model file records why)."),
+        };
         format!(
             "Gross errors: about {:.1} % of tests are expected to be values unrelated to the inputs (results keyed to the wrong heat, copying slips, or scatter with heavier tails than a Gaussian): {:.1} of the {} held-out rows look like them, and a share is kept even when none does, since clean rows do not show that the next test cannot be a blunder (held-out NLPD {:.3}, {:.3} with the Gaussian alone).{refit} Error bars, intervals and probabilities of meeting a requirement describe a test free of gross error.",
             100.0 * self.share,
@@ -388,6 +394,7 @@ pub fn model_card(model: &Model) -> ModelCard {
                     heldout_nlpd: g.heldout_nlpd,
                     refit_gross_rows: g.refit_gross_rows,
                     n_rows: t.n_rows,
+                    refit_fallbacks: g.refit_fallbacks.len(),
                 }),
                 noise_basis,
                 replicate_sd: t
