@@ -491,7 +491,8 @@ mod tests {
     /// The M-step counts a row as r_n rows: in linear mode (an exact
     /// Newton step) rows with responsibility at the floor give the same
     /// weights and β as a fit on the other rows alone, β = (N − γ)/(2 E_D)
-    /// on them (MacKay 1992, eq. 4.21 of "Bayesian interpolation").
+    /// on them (MacKay 1992, "Bayesian interpolation", Neural Computation
+    /// 4:415, §4; no equation number given, as it was not checked).
     #[test]
     fn rows_weighted_out_count_as_dropped() {
         use crate::evidence::{fit_model, fit_network, DataModel, Groups};
