@@ -185,19 +185,24 @@ impl GrossErrorModel {
         })
     }
 
-    /// Responsibilities r_n: the probability that row n, with target `t`,
-    /// is free of gross error given an estimate `mean` and noise variance
-    /// `noise_var` (scaled units), floored at [`RESPONSIBILITY_FLOOR`].
+    /// The E-step for a mean network `net` whose row n has noise precision
+    /// β·ρ_n (`rho` None: all ρ_n = 1): each row's responsibility r_n, the
+    /// probability that its target in `t` is free of gross error, floored
+    /// at [`RESPONSIBILITY_FLOOR`] (scaled units). Only the network's
+    /// outputs are evaluated, not its predictive variance.
     pub(crate) fn responsibilities(
         &self,
+        net: &FittedNetwork,
+        rho: Option<&Array1<f64>>,
+        x: ArrayView2<f64>,
         t: ArrayView1<f64>,
-        mean: ArrayView1<f64>,
-        noise_var: impl Fn(usize) -> f64,
     ) -> Array1<f64> {
+        let mean = net.arch.predict(&net.weights, x);
         let bg_var = self.background_sd.powi(2);
         Array1::from_shape_fn(t.len(), |n| {
+            let noise_var = 1.0 / (net.beta * rho.map_or(1.0, |r| r[n]));
             let ln_bulk =
-                (1.0 - self.share).ln() + ln_normal(t[n], mean[n], noise_var(n).max(VAR_FLOOR));
+                (1.0 - self.share).ln() + ln_normal(t[n], mean[n], noise_var.max(VAR_FLOOR));
             let ln_gross = self.share.ln() + ln_normal(t[n], self.background_mean, bg_var);
             (ln_bulk - ln_add(ln_bulk, ln_gross))
                 .exp()
@@ -222,9 +227,7 @@ impl GrossErrorModel {
     ) -> Result<(FittedNetwork, f64), FitFailure> {
         let mut gross_rows = 0.0;
         for _ in 0..GROSS_ERROR_REFIT_ROUNDS {
-            let (mean, _) = net.predict(x);
-            let noise_var = 1.0 / net.beta;
-            let resp = self.responsibilities(t, mean.view(), |_| noise_var);
+            let resp = self.responsibilities(&net, None, x, t);
             gross_rows = resp.iter().map(|r| 1.0 - r).sum();
             let start = StartState {
                 weights: net.weights.clone(),
@@ -474,8 +477,7 @@ mod tests {
             gross_rows > 0.6 * n_replaced && gross_rows < 1.1 * n_replaced,
             "{gross_rows} rows weighted out, {n_replaced} replaced"
         );
-        let (mean, _) = net.predict(x.view());
-        let resp = model.responsibilities(t.view(), mean.view(), |_| 1.0 / net.beta);
+        let resp = model.responsibilities(&net, None, x.view(), t.view());
         let flagged: Vec<usize> = (0..n).filter(|&i| resp[i] < 0.5).collect();
         let clean_flagged = flagged.iter().filter(|&&i| !replaced[i]).count();
         // a clean row is flagged beyond about 3 sds here, where

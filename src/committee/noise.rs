@@ -200,13 +200,7 @@ pub(crate) fn fit_varying(
         NOISE_ROUNDS
     };
     for _ in 0..rounds {
-        let resp = gross.map(|g| {
-            let (m, _) = mean_net.predict(x);
-            let beta = mean_net.beta;
-            g.responsibilities(t, m.view(), |n| {
-                1.0 / (beta * rho.as_ref().map_or(1.0, |r| r[n]))
-            })
-        });
+        let resp = gross.map(|g| g.responsibilities(&mean_net, rho.as_ref(), x, t));
         if let Some(r) = &resp {
             gross_rows = Some(r.iter().map(|v| 1.0 - v).sum::<f64>());
         }
