@@ -7,7 +7,7 @@
 //! cargo run --release --example uci_benchmark -- [--data-dir ../shared/datasets/uci]
 //!     [--datasets concrete,energy,yacht,wine-quality-red] [--splits 20]
 //!     [--hidden 1..10] [--restarts 4] [--markdown FILE]
-//!     [--noise auto|constant|varying] [--kriging auto|on|off] [--gross-errors on|off] [--first-split 0] [--no-widen] [--no-ard] [--max-cycles N] [--first-iters N] [--cycle-iters N]
+//!     [--noise auto|constant|varying] [--kriging auto|on|off] [--gross-errors on|off] [--heavy-tails on|off] [--first-split 0] [--no-widen] [--no-ard] [--max-cycles N] [--first-iters N] [--cycle-iters N]
 //!     [--max-members N] [--holdout FRACTION]
 //! ```
 //!
@@ -153,6 +153,7 @@ fn main() {
     let mut max_members: Option<usize> = None;
     let mut holdout: Option<f64> = None;
     let mut gross_errors = true;
+    let mut heavy_tails = true;
     let args: Vec<String> = std::env::args().skip(1).collect();
     let mut i = 0;
     while i < args.len() {
@@ -201,6 +202,13 @@ fn main() {
                     other => panic!("--gross-errors {other}: expected on or off"),
                 }
             }
+            "--heavy-tails" => {
+                heavy_tails = match v.as_str() {
+                    "on" => true,
+                    "off" => false,
+                    other => panic!("--heavy-tails {other}: expected on or off"),
+                }
+            }
             "--no-widen" => {
                 widen = false;
                 i += 1;
@@ -239,6 +247,7 @@ fn main() {
                 .noise(noise)
                 .kriging(kriging)
                 .gross_errors(gross_errors)
+                .heavy_tails(heavy_tails)
                 .fit(fit.clone());
             if let Some(m) = max_members {
                 spec.params = spec.params.max_members(m);
@@ -311,9 +320,11 @@ fn main() {
                 c.members.iter().map(|m| m.n_hidden.to_string()).collect::<Vec<_>>().join(","),
                 if c.selection.noise.varying { " varying" } else { " constant" },
                 if c.kriging.is_some() { " kriged" } else { "" },
-                c.gross_errors
-                    .as_ref()
-                    .map_or(String::new(), |g| format!(" gross {:.3}", g.share))
+                c.gross_errors.as_ref().map_or(String::new(), |g| format!(
+                    " gross {:.3} nu {}",
+                    g.share,
+                    g.tail_dof.map_or("inf".into(), |v| v.to_string())
+                ))
             );
             rmse.push(e.rmse);
             ll.push(-e.nlpd);

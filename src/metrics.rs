@@ -30,12 +30,16 @@
 //! For a model with a share π of gross errors
 //! ([`crate::committee::GrossErrorModel`]), s is the sd of a value free of
 //! gross error and the density in the NLPD is the model's two-part predictive
-//! (1 − π)·N(g(y); m, s²) + π·N(g(y); t̄, s_t²) (Box & Tiao 1968); the
-//! coverages still count values inside m ± s and m ± 2s.
+//! (1 − π)·p_ν(g(y); m, s²) + π·N(g(y); t̄, s_t²) (Box & Tiao 1968), p_ν the
+//! shape of a value free of gross error: Gaussian, or a unit-variance
+//! Student-t ([`crate::committee::TailShape`]). The coverages count values
+//! inside that shape's central 68.27 % and 95.45 % intervals, m ± q₆₈·s and
+//! m ± q₉₅·s (q₆₈ = 1, q₉₅ = 2 for the Gaussian); `within_1sd` and
+//! `within_2sd` count m ± s and m ± 2s whatever the shape.
 
 use serde::Serialize;
 
-use crate::committee::GrossErrors;
+use crate::committee::{GrossErrors, TailShape, ONE_SD_SHARE, TWO_SD_SHARE};
 
 /// Evaluation of estimates against measurements.
 #[derive(Clone, Debug, PartialEq, Serialize)]
@@ -51,10 +55,16 @@ pub struct Evaluation {
     /// Mean negative log predictive density (nats per point): Gaussian, or
     /// the two-part density of a model with a share of gross errors.
     pub nlpd: f64,
-    /// Share of rows inside mean ± 1 sd.
+    /// Share of rows inside the central 68.27 % predictive interval (mean
+    /// ± 1 sd when Gaussian).
     pub coverage_68: f64,
-    /// Share of rows inside mean ± 2 sd.
+    /// Share of rows inside the central 95.45 % predictive interval
+    /// (mean ± 2 sd when Gaussian).
     pub coverage_95: f64,
+    /// Share of rows inside mean ± 1 sd, whatever the shape.
+    pub within_1sd: f64,
+    /// Share of rows inside mean ± 2 sd, whatever the shape.
+    pub within_2sd: f64,
 }
 
 impl Evaluation {
@@ -110,6 +120,13 @@ pub fn evaluate_on_scale(
     let mut nlpd = 0.0;
     let mut c1 = 0usize;
     let mut c2 = 0usize;
+    let mut w1 = 0usize;
+    let mut w2 = 0usize;
+    let shape = gross.map_or(TailShape::new(None), |g| g.shape);
+    let (q68, q95) = (
+        shape.central_halfwidth(ONE_SD_SHARE),
+        shape.central_halfwidth(TWO_SD_SHARE),
+    );
     for i in 0..n {
         let (y, m) = (measured[i], point[i]);
         let r = y - m;
@@ -126,11 +143,17 @@ pub fn evaluate_on_scale(
             }
         };
         nlpd += -ln_density - log_jacobian[i];
-        if rz.abs() <= s {
+        if rz.abs() <= q68 * s {
             c1 += 1;
         }
-        if rz.abs() <= 2.0 * s {
+        if rz.abs() <= q95 * s {
             c2 += 1;
+        }
+        if rz.abs() <= s {
+            w1 += 1;
+        }
+        if rz.abs() <= 2.0 * s {
+            w2 += 1;
         }
     }
     Some(Evaluation {
@@ -141,6 +164,8 @@ pub fn evaluate_on_scale(
         nlpd: nlpd / nf,
         coverage_68: c1 as f64 / nf,
         coverage_95: c2 as f64 / nf,
+        within_1sd: w1 as f64 / nf,
+        within_2sd: w2 as f64 / nf,
     })
 }
 
@@ -197,6 +222,7 @@ mod tests {
                 share: f[3],
                 mean: f[4],
                 sd: f[5],
+                shape: crate::committee::TailShape::new(None),
             };
             let e = evaluate_on_scale(&[f[0]], &[f[1]], &[f[0]], &[f[1]], &[f[2]], &[0.0], Some(g))
                 .expect("row");

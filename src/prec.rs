@@ -214,6 +214,20 @@ pub const GROSS_ERROR_SHARE_MAX: f64 = 0.25;
 /// Share of gross errors the EM starts from.
 pub const GROSS_ERROR_SHARE_START: f64 = 0.01;
 
+/// Degrees of freedom of the Student-t shapes tried on the held-out part
+/// besides the Gaussian (committee::tails): from heavy (ν = 3, the
+/// smallest integer with a finite variance) to nearly Gaussian (ν = 50,
+/// whose central 68.27 % interval is ±0.99 sd).
+pub const TAIL_DOF_GRID: [f64; 7] = [3.0, 4.0, 5.0, 7.0, 10.0, 20.0, 50.0];
+
+/// What a Student-t shape must gain over the Gaussian in held-out log
+/// posterior, in nats summed over the held-out rows, to be chosen: its one
+/// parameter more, counted as Akaike's criterion counts it (Akaike 1974,
+/// "A new look at the statistical model identification", IEEE Trans.
+/// Automatic Control 19:716–723). On Gaussian scatter a t is then chosen
+/// by chance in under one case in ten (½·P(χ²₁ > 2) = 0.08).
+pub const TAIL_SHAPE_PENALTY_NATS: f64 = 1.0;
+
 /// Smallest responsibility a row keeps in a refit under the contamination
 /// model: a row is never weighted out entirely, so that ln r_n and the
 /// weighted Hessian stay finite.

@@ -110,7 +110,8 @@ fn linear_model(table: &Table) -> Model {
         .hidden(0, 0)
         .ard(false)
         .noise(NoiseMode::Constant)
-        .gross_errors(false);
+        .gross_errors(false)
+        .heavy_tails(false);
     Model::train(table, &spec, &Silent).expect("linear fit")
 }
 

@@ -29,10 +29,13 @@ pub enum EvalFormat {
     long_about = "Measure a model on a table that holds the measured targets.\n\n\
 rmse, mae and r2 judge the means; nlpd (mean negative log predictive density, nats per point, \
 in the target's units; lower is better) and the coverages judge the error bars. Honest error \
-bars put about 68 % of rows inside mean ± 1 sd (coverage_68) and about 95 % inside mean ± 2 sd \
-(coverage_95).\n\n\
+bars put about 68 % of rows inside the central 68.27 % predictive interval (coverage_68) and \
+about 95 % inside the central 95.45 % one (coverage_95). With a Gaussian error shape these are \
+mean ± 1 sd and mean ± 2 sd; with the Student-t shape a model may choose (train --heavy-tails) \
+the first is narrower than ± 1 sd and the second close to ± 2 sd. within_1sd and within_2sd \
+count the rows inside mean ± 1 sd and ± 2 sd whatever the shape.\n\n\
 JSON output (one target): an object with keys target, n, rmse, mae, r2, nlpd, coverage_68, \
-coverage_95 and out_of_line; with several targets, an array of such objects.\n\nRows whose measured value lies more than 2.5 sd from its estimate (on the scale the target is learnt on) are listed as out of line, largest first, with the estimate, its 95 % interval, the standardised residual z and the domain verdict (JSON: out_of_line, an array of objects with row, measured, mean, sd, lo95, hi95, z, in_domain, gross_error_probability). An honest model lists about 1 row in 80 by chance; more, or a few with |z| far beyond 3, point to heats worth checking (mix-ups, test faults) or to a region the model does not know. For a model with a share of gross errors (train --gross-errors on, the default), p_gross is the probability that the measured value is a gross error rather than a test of the heat described; sd and the intervals are those of a test free of gross error, and nlpd uses the model's two-part density.\n\n\
+coverage_95, within_1sd, within_2sd and out_of_line; with several targets, an array of such objects.\n\nRows whose measured value lies more than 2.5 sd from its estimate (on the scale the target is learnt on) are listed as out of line, largest first, with the estimate, its 95 % interval, the standardised residual z and the domain verdict (JSON: out_of_line, an array of objects with row, measured, mean, sd, lo95, hi95, z, in_domain, gross_error_probability). An honest model lists about 1 row in 80 by chance with Gaussian error bars, about 1 in 40 to 1 in 70 with a Student-t shape (train --heavy-tails); the text output says how many for the model at hand; more, or a few with |z| far beyond 3, point to heats worth checking (mix-ups, test faults) or to a region the model does not know. For a model with a share of gross errors (train --gross-errors on, the default), p_gross is the probability that the measured value is a gross error rather than a test of the heat described; sd and the intervals are those of a test free of gross error, and nlpd uses the model's two-part density.\n\n\
 For a model trained with a schema the table is read through the stored schema (units converted, \
 derived inputs computed), and values are judged in internal units. For a target learnt on a log \
 or bounded scale, nlpd is the density of the measured value on its own scale and the coverages \
@@ -58,7 +61,7 @@ pub fn run(a: EvaluateArgs) -> anyhow::Result<()> {
     let model = Model::load(&a.model)?;
     let table = Table::read(&a.data)?;
     let mut results: Vec<(String, Evaluation)> = Vec::new();
-    let mut out_of_line: Vec<(String, Vec<OutOfLine>)> = Vec::new();
+    let mut out_of_line: Vec<(String, Vec<OutOfLine>, f64)> = Vec::new();
     for rows in estimate_rows(&model, &table)? {
         let name = rows.target.clone();
         let e = rows.evaluation().ok_or_else(|| {
@@ -67,7 +70,11 @@ pub fn run(a: EvaluateArgs) -> anyhow::Result<()> {
                 a.data.display()
             ))
         })?;
-        out_of_line.push((name.clone(), rows.out_of_line(OUT_OF_LINE_Z)));
+        out_of_line.push((
+            name.clone(),
+            rows.out_of_line(OUT_OF_LINE_Z),
+            rows.expected_share_beyond(OUT_OF_LINE_Z),
+        ));
         results.push((name, e));
     }
     let text = match a.format {
@@ -75,7 +82,7 @@ pub fn run(a: EvaluateArgs) -> anyhow::Result<()> {
             let objs: Vec<serde_json::Value> = results
                 .iter()
                 .zip(&out_of_line)
-                .map(|((name, e), (_, odd))| {
+                .map(|((name, e), (_, odd, _))| {
                     let mut v = serde_json::to_value(e).unwrap_or_default();
                     if let Some(o) = v.as_object_mut() {
                         o.insert("target".into(), json!(name));
@@ -141,13 +148,14 @@ pub fn run(a: EvaluateArgs) -> anyhow::Result<()> {
                 .collect();
             let mut text = aligned(&h, &body)
                 + "honest error bars: coverage_68 near 0.68, coverage_95 near 0.95\n";
-            for (name, odd) in &out_of_line {
+            for (name, odd, chance) in &out_of_line {
                 if odd.is_empty() {
                     continue;
                 }
                 text += &format!(
-                    "\n{name}: {} row(s) more than {OUT_OF_LINE_Z} sd from the estimate (about 1 in 80 is expected by chance):\n",
-                    odd.len()
+                    "\n{name}: {} row(s) more than {OUT_OF_LINE_Z} sd from the estimate (about 1 in {:.0} is expected by chance with this model's error shape):\n",
+                    odd.len(),
+                    1.0 / chance.max(1e-12)
                 );
                 let h: Vec<String> = [
                     "row", "measured", "mean", "lo95", "hi95", "z", "domain", "p_gross",

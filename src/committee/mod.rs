@@ -30,6 +30,7 @@ mod kriging;
 mod noise;
 mod params;
 mod search;
+mod tails;
 
 #[cfg(test)]
 pub(crate) use gross_errors::scipy_reference as gross_errors_reference;
@@ -38,6 +39,7 @@ pub use kriging::{ResidualKriging, KRIGING_MAX_ROWS};
 pub use noise::NoiseModel;
 pub use params::{CheckedCommitteeParams, CommitteeParams, KrigingMode, NoiseMode};
 pub use search::train_committee;
+pub use tails::{TailShape, ONE_SD_SHARE, TWO_SD_SHARE};
 
 use ndarray::{Array1, Array2, ArrayView2};
 use serde::{Deserialize, Serialize};
@@ -252,6 +254,14 @@ impl Member {
 }
 
 impl Committee {
+    /// The shape of a test's scatter about an estimate: the Student-t the
+    /// held-out part chose, or the Gaussian.
+    pub fn shape(&self) -> TailShape {
+        self.gross_errors
+            .as_ref()
+            .map_or(TailShape::new(None), GrossErrorModel::shape)
+    }
+
     /// Predictive distribution for scaled inputs `x` (N × d), in blocks of
     /// [`PREDICT_BLOCK_ROWS`] rows spread over the available cores, so that
     /// memory stays bounded (one block's Jacobian per thread) whatever N.

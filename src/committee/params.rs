@@ -51,6 +51,11 @@ pub struct CommitteeParams {
     /// before the share existed read as false.
     #[serde(default)]
     pub gross_errors: bool,
+    /// Let the held-out part choose a Student-t shape of the scatter
+    /// (committee::tails) instead of the Gaussian. Files written before
+    /// the shape existed read as false.
+    #[serde(default)]
+    pub heavy_tails: bool,
 }
 
 /// Whether a Gaussian process on the committee's residuals is added.
@@ -98,6 +103,7 @@ impl Default for CommitteeParams {
             noise: NoiseMode::Auto,
             kriging: KrigingMode::Auto,
             gross_errors: true,
+            heavy_tails: true,
         }
     }
 }
@@ -183,6 +189,14 @@ impl CommitteeParams {
     #[must_use]
     pub fn gross_errors(mut self, yes: bool) -> Self {
         self.gross_errors = yes;
+        self
+    }
+
+    /// Student-t shape of the scatter, chosen on the held-out part, on or
+    /// off (off: Gaussian).
+    #[must_use]
+    pub fn heavy_tails(mut self, yes: bool) -> Self {
+        self.heavy_tails = yes;
         self
     }
 

@@ -406,10 +406,17 @@ pub fn train_committee(
     // as the target over the training part
     let (bg_mean, bg_sd) = (t_tr.mean().unwrap_or(0.0), t_tr.std(0.0));
     let gross_errors = |(m, v): &(Array1<f64>, Array1<f64>)| {
-        params
-            .gross_errors
+        (params.gross_errors || params.heavy_tails)
             .then(|| {
-                GrossErrorModel::fit(m.view(), v.view(), t_ho.view(), bg_mean, bg_sd, ln_width)
+                GrossErrorModel::fit(
+                    m.view(),
+                    v.view(),
+                    t_ho.view(),
+                    (bg_mean, bg_sd),
+                    params.gross_errors,
+                    params.heavy_tails,
+                    ln_width,
+                )
             })
             .flatten()
     };
@@ -543,6 +550,8 @@ pub fn train_committee(
         background_sd: t.std(0.0),
         ..g
     });
+    // without a share (only the shape asked for) the refit stays Gaussian
+    let refit_gross = final_gross.as_ref().filter(|g| g.share > 0.0);
     // (member, Σ(1 − r_n) when refitted with the share, why the refit with
     // the share failed and the Gaussian one was kept instead)
     type Refit = std::result::Result<(Member, Option<f64>, Option<String>), String>;
@@ -563,8 +572,8 @@ pub fn train_committee(
                         &params.fit,
                     )
                 };
-                let (fit, fallback) = match refit(final_gross.as_ref()) {
-                    Err(f) if final_gross.is_some() => (refit(None), Some(f.to_string())),
+                let (fit, fallback) = match refit(refit_gross) {
+                    Err(f) if refit_gross.is_some() => (refit(None), Some(f.to_string())),
                     other => (other, None),
                 };
                 fit.map(|refit| {
@@ -594,7 +603,7 @@ pub fn train_committee(
                     start,
                     &refit_settings,
                 )
-                .map(|refit| match &final_gross {
+                .map(|refit| match refit_gross {
                     Some(g) => {
                         match g.refit_constant(refit.clone(), params.ard, x, t, &refit_settings) {
                             Ok((net, rows)) => (net, Some(rows), None),

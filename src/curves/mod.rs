@@ -12,12 +12,12 @@ mod transition;
 pub use plot::{sweep_map_svg, sweep_svg};
 pub use transition::{crossing, transition, Crossing, Requirement, Transition, TransitionOptions};
 
+use crate::committee::ONE_SD_SHARE;
 use crate::data::Table;
 use crate::domain::{physical_bound, DomainVerdict};
 use crate::error::{Error, Result};
 use crate::features::Transform;
 use crate::model::Model;
-use crate::predict::z975;
 
 /// One varied input: NAME=FROM:TO[:STEPS].
 #[derive(Clone, Debug, PartialEq)]
@@ -240,7 +240,16 @@ pub fn band_rows(model: &Model, table: &Table) -> Result<Vec<BandRow>> {
     let (prepared, warnings) = model.read_through_schema(table, false)?;
     let (raw, scaled) = model.scaled_inputs(&prepared)?;
     let learnt = model.predict_learnt_scale(&scaled);
-    let z = z975();
+    // per target: the half-widths, in sds, of the central 95 % and 68.27 %
+    // intervals of its shape
+    let widths: Vec<(f64, f64)> = model
+        .targets
+        .iter()
+        .map(|t| {
+            let shape = t.committee.shape();
+            (shape.quantile(0.975), shape.central_halfwidth(ONE_SD_SHARE))
+        })
+        .collect();
     let bounds: Vec<_> = model
         .targets
         .iter()
@@ -255,10 +264,11 @@ pub fn band_rows(model: &Model, table: &Table) -> Result<Vec<BandRow>> {
                 .iter()
                 .zip(&learnt)
                 .zip(&bounds)
-                .map(|((t, p), b)| {
+                .zip(&widths)
+                .map(|(((t, p), b), &(q95, q68))| {
                     let p = p[i];
-                    let e95 = t.transform.back_transform(p.mean, p.sd, p.noise_sd, z);
-                    let e68 = t.transform.back_transform(p.mean, p.sd, p.noise_sd, 1.0);
+                    let e95 = t.transform.back_transform(p.mean, p.sd, p.noise_sd, q95);
+                    let e68 = t.transform.back_transform(p.mean, p.sd, p.noise_sd, q68);
                     let note = b.as_ref().and_then(|b| b.note(&t.name, e95.median));
                     let impossible = note.is_some();
                     notes.extend(note);

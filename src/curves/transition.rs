@@ -27,7 +27,6 @@ use ndarray::Array2;
 use rand::{Rng, SeedableRng};
 use rand_distr::StandardNormal;
 use rand_xoshiro::Xoshiro256PlusPlus;
-use statrs::distribution::{ContinuousCDF, Normal};
 
 use super::{grid_table, sweep, Axis, Sweep};
 use crate::derive::charpy::SubGrade;
@@ -356,7 +355,7 @@ fn judge(
     let scaled = scaled_grid(model, base, std::slice::from_ref(&at))?;
     let members = member_curves(model, k, &scaled);
     let tm = &model.targets[k];
-    let n = Normal::standard();
+    let n = tm.committee.shape();
     let (p_single, p_mean) = match tm.transform.forward(r.energy) {
         // an energy below the transform's domain is met by every value
         None => (1.0, 1.0),

@@ -22,7 +22,7 @@ pub use summary::{
 use serde::ser::SerializeMap;
 use serde::{Serialize, Serializer};
 
-use crate::committee::GrossErrors;
+use crate::committee::{GrossErrors, TailShape, ONE_SD_SHARE};
 use crate::data::schema::PrepareOptions;
 use crate::data::{fingerprint, Table};
 use crate::error::{Error, Result};
@@ -175,11 +175,36 @@ pub struct GrossErrorCard {
     /// Members whose refit with the share failed (they kept the Gaussian
     /// refit).
     pub refit_fallbacks: usize,
+    /// ν of the Student-t shape chosen on the held-out part (None:
+    /// Gaussian).
+    pub tail_dof: Option<f64>,
+    /// True when the share of gross errors was estimated (false: only the
+    /// shape was chosen, the share held at 0).
+    pub share_estimated: bool,
 }
 
 impl GrossErrorCard {
-    /// One sentence on the share, for text and HTML.
+    /// One or two sentences on the share and the shape, for text and HTML.
     pub fn sentence(&self) -> String {
+        let shape = match self.tail_dof {
+            None => " Error shape: Gaussian.".to_string(),
+            Some(nu) => {
+                let s = TailShape::new(Some(nu));
+                format!(
+                    " Error shape: the held-out rows favour a Student-t with {nu} degrees of freedom over the Gaussian — tests scatter with a narrower peak and longer tails than a Gaussian of the same sd — so the central 68 % interval is ±{:.2} sd and the central 95 % interval ±{:.2} sd.",
+                    s.central_halfwidth(ONE_SD_SHARE),
+                    s.quantile(0.975)
+                )
+            }
+        };
+        if !self.share_estimated {
+            return format!(
+                "{} (held-out NLPD {:.3}, {:.3} with the Gaussian).",
+                shape.trim_start().trim_end_matches('.'),
+                self.heldout_nlpd,
+                self.heldout_nlpd_gaussian
+            );
+        }
         // at the posterior mode π = (k + 1)/(N + 2), k the expected count
         let k = (self.share * (self.n_heldout as f64 + 2.0) - 1.0).max(0.0);
         let refit = self.refit_gross_rows.map_or(String::new(), |rows| {
@@ -192,7 +217,7 @@ impl GrossErrorCard {
             k => format!(" {k} member(s) could not be refitted with the share and kept the refit with the Gaussian likelihood (the model file records why)."),
         };
         format!(
-            "Gross errors: about {:.1} % of tests are expected to be values unrelated to the inputs (results keyed to the wrong heat, copying slips, or scatter with heavier tails than a Gaussian): {:.1} of the {} held-out rows look like them, and a share is kept even when none does, since clean rows do not show that the next test cannot be a blunder (held-out NLPD {:.3}, {:.3} with the Gaussian alone).{refit} Error bars, intervals and probabilities of meeting a requirement describe a test free of gross error.",
+            "Gross errors: about {:.1} % of tests are expected to be values unrelated to the inputs (results keyed to the wrong heat, copying slips, or scatter with heavier tails than a Gaussian): {:.1} of the {} held-out rows look like them, and a share is kept even when none does, since clean rows do not show that the next test cannot be a blunder (held-out NLPD {:.3}, {:.3} with the Gaussian alone).{refit}{shape} Error bars, intervals and probabilities of meeting a requirement describe a test free of gross error.",
             100.0 * self.share,
             k,
             self.n_heldout,
@@ -395,6 +420,11 @@ pub fn model_card(model: &Model) -> ModelCard {
                     refit_gross_rows: g.refit_gross_rows,
                     n_rows: t.n_rows,
                     refit_fallbacks: g.refit_fallbacks.len(),
+                    tail_dof: g.tail_dof,
+                    // files before format 6 have no heavy_tails setting
+                    // (read as false): their part is always the share's
+                    share_estimated: model.training.settings.gross_errors
+                        || !model.training.settings.heavy_tails,
                 }),
                 noise_basis,
                 replicate_sd: t
@@ -492,7 +522,19 @@ impl TargetRows {
 
     /// The calibration curve over the rows.
     pub fn calibration(&self) -> Vec<CalibrationPoint> {
-        calibration_curve(&self.z_measured, &self.z_mean, &self.z_sd)
+        calibration_curve(&self.z_measured, &self.z_mean, &self.z_sd, self.shape())
+    }
+
+    /// The shape of the scatter the model gives a test free of gross error.
+    pub fn shape(&self) -> TailShape {
+        self.gross.map_or(TailShape::new(None), |g| g.shape)
+    }
+
+    /// Share of tests free of gross error expected more than `limit` sds
+    /// from their estimate by chance: 2·(1 − F(limit)), F the shape's
+    /// distribution function (0.0124 for the Gaussian at 2.5 sd).
+    pub fn expected_share_beyond(&self, limit: f64) -> f64 {
+        2.0 * (1.0 - self.shape().cdf(limit))
     }
 
     /// Rows whose measured value lies more than `limit` predictive sds from
@@ -546,9 +588,9 @@ pub fn estimate_rows(model: &Model, table: &Table) -> Result<Vec<TargetRows>> {
     let (prepared, _) = model.read_through_schema(table, true)?;
     let (raw, scaled) = model.scaled_inputs(&prepared)?;
     let learnt = model.predict_learnt_scale(&scaled);
-    let z = z975();
     let mut out = Vec::new();
     for (t, preds) in model.targets.iter().zip(&learnt) {
+        let z = t.committee.shape().quantile(0.975);
         let measured = prepared.numeric_optional(&t.name)?;
         let mut r = TargetRows {
             target: t.name.clone(),

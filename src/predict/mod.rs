@@ -14,6 +14,7 @@ use ndarray::Array2;
 use serde::Serialize;
 use statrs::distribution::{ContinuousCDF, Normal};
 
+use crate::committee::TailShape;
 use crate::data::schema::PrepareOptions;
 use crate::data::Table;
 use crate::derive::RowWarning;
@@ -61,7 +62,8 @@ impl Estimate {
 }
 
 /// One target's predictive distribution on the scale it was learnt on
-/// (transformed target units): z ~ N(mean, sd²).
+/// (transformed target units): z = mean + sd·ε, ε of unit variance with
+/// the committee's shape (Gaussian or Student-t).
 #[derive(Clone, Copy, Debug, PartialEq)]
 pub struct ScalePrediction {
     /// Mean on the learnt scale.
@@ -70,6 +72,8 @@ pub struct ScalePrediction {
     pub sd: f64,
     /// Noise part of the sd on the learnt scale.
     pub noise_sd: f64,
+    /// Shape of the scatter about the mean (in sds).
+    pub shape: TailShape,
 }
 
 /// Estimates for one row, every target, with the domain verdict.
@@ -206,6 +210,7 @@ impl Model {
             .map(|t| {
                 let p = t.committee.predict_scaled(scaled.view());
                 let w = t.scaling.width();
+                let shape = t.committee.shape();
                 p.mean
                     .iter()
                     .zip(&p.var)
@@ -214,6 +219,7 @@ impl Model {
                         mean: t.scaling.unscale_linear(*m),
                         sd: v.sqrt() * w,
                         noise_sd: nv.sqrt() * w,
+                        shape,
                     })
                     .collect()
             })
@@ -232,12 +238,12 @@ impl Model {
         raw: &Array2<f64>,
         learnt: &[Vec<ScalePrediction>],
     ) -> Vec<RowPrediction> {
-        let z = z975();
         let per_target: Vec<Vec<Estimate>> = self
             .targets
             .iter()
             .zip(learnt)
             .map(|(t, preds)| {
+                let z = t.committee.shape().quantile(0.975);
                 preds
                     .iter()
                     .map(|p| t.transform.back_transform(p.mean, p.sd, p.noise_sd, z))

@@ -33,7 +33,6 @@
 use std::fmt;
 
 use serde::Serialize;
-use statrs::distribution::{ContinuousCDF, Normal};
 
 use crate::error::{Error, Result};
 use crate::model::TargetTransform;
@@ -159,7 +158,7 @@ impl Requirement {
                     // sd = 0 and the mean on the threshold: met (≥ holds)
                     1.0
                 } else {
-                    Normal::standard().cdf(z)
+                    p.shape.cdf(z)
                 }
             }
             None => {
@@ -216,6 +215,7 @@ mod tests {
             mean,
             sd,
             noise_sd: sd,
+            shape: crate::committee::TailShape::new(None),
         }
     }
 
