@@ -7,7 +7,7 @@
 //! cargo run --release --example uci_benchmark -- [--data-dir ../shared/datasets/uci]
 //!     [--datasets concrete,energy,yacht,wine-quality-red] [--splits 20]
 //!     [--hidden 1..10] [--restarts 4] [--markdown FILE]
-//!     [--noise auto|constant|varying] [--kriging auto|on|off] [--gross-errors on|off] [--heavy-tails on|off] [--first-split 0] [--no-widen] [--no-ard] [--max-cycles N] [--first-iters N] [--cycle-iters N]
+//!     [--noise auto|constant|varying] [--kriging auto|on|off] [--gross-errors on|off] [--heavy-tails on|off] [--reweight-mean] [--first-split 0] [--no-widen] [--no-ard] [--max-cycles N] [--first-iters N] [--cycle-iters N]
 //!     [--max-members N] [--holdout FRACTION]
 //! ```
 //!
@@ -154,6 +154,7 @@ fn main() {
     let mut holdout: Option<f64> = None;
     let mut gross_errors = true;
     let mut heavy_tails = true;
+    let mut reweight_mean = false;
     let args: Vec<String> = std::env::args().skip(1).collect();
     let mut i = 0;
     while i < args.len() {
@@ -209,6 +210,11 @@ fn main() {
                     other => panic!("--heavy-tails {other}: expected on or off"),
                 }
             }
+            "--reweight-mean" => {
+                reweight_mean = true;
+                i += 1;
+                continue;
+            }
             "--no-widen" => {
                 widen = false;
                 i += 1;
@@ -248,6 +254,7 @@ fn main() {
                 .kriging(kriging)
                 .gross_errors(gross_errors)
                 .heavy_tails(heavy_tails)
+                .reweight_mean(reweight_mean)
                 .fit(fit.clone());
             if let Some(m) = max_members {
                 spec.params = spec.params.max_members(m);

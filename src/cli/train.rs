@@ -110,6 +110,13 @@ pub struct TrainArgs {
     /// requirement and `evaluate` use the chosen shape. `off` keeps the Gaussian.
     #[arg(long, value_enum, value_name = "MODE", default_value_t = Switch::On)]
     heavy_tails: Switch,
+    /// With noise that varies with the inputs, refit the mean networks with each row weighted by
+    /// its fitted noise precision (the efficient estimate when the noise model is right). By
+    /// default the means fitted with every row alike are kept and the noise networks describe
+    /// their residuals: reweighting gives up accuracy where the fit is poorest, because the
+    /// residuals there hold the misfit as well as the scatter (docs/method.md §5).
+    #[arg(long)]
+    reweight_mean: bool,
     /// Do not widen the hidden-unit range when the best candidates sit at its top.
     #[arg(long)]
     no_widen: bool,
@@ -215,6 +222,7 @@ pub fn run(a: TrainArgs) -> anyhow::Result<()> {
         .kriging(a.kriging.into())
         .gross_errors(a.gross_errors == Switch::On)
         .heavy_tails(a.heavy_tails == Switch::On)
+        .reweight_mean(a.reweight_mean)
         .ard(!a.no_ard);
     let progress = TrainProgress::new(a.quiet);
     let started = Instant::now();

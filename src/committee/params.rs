@@ -56,6 +56,17 @@ pub struct CommitteeParams {
     /// the shape existed read as false.
     #[serde(default)]
     pub heavy_tails: bool,
+    /// With varying noise, refit the mean network with each row weighted
+    /// by its fitted noise precision (committee::noise); false: the mean
+    /// fitted with every row alike is kept. Files written before the
+    /// choice existed reweighted and read as true.
+    #[serde(default = "reweighted_before")]
+    pub reweight_mean: bool,
+}
+
+/// What model files before `reweight_mean` existed did.
+fn reweighted_before() -> bool {
+    true
 }
 
 /// Whether a Gaussian process on the committee's residuals is added.
@@ -104,6 +115,7 @@ impl Default for CommitteeParams {
             kriging: KrigingMode::Auto,
             gross_errors: true,
             heavy_tails: true,
+            reweight_mean: false,
         }
     }
 }
@@ -197,6 +209,14 @@ impl CommitteeParams {
     #[must_use]
     pub fn heavy_tails(mut self, yes: bool) -> Self {
         self.heavy_tails = yes;
+        self
+    }
+
+    /// With varying noise, reweight the mean network by the fitted noise
+    /// precision (true) or keep the mean fitted with every row alike.
+    #[must_use]
+    pub fn reweight_mean(mut self, yes: bool) -> Self {
+        self.reweight_mean = yes;
         self
     }
 
