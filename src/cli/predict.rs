@@ -36,7 +36,9 @@ inputs, when a row lies outside what the training data cover. An estimate outsid
 extrapolation: treat it with suspicion whatever its error bar.\n\n\
 For a target learnt on the log or a bounded scale (schema transform), the interval is computed on \
 that scale and mapped back: it is asymmetric about the median, and interval_kind says so \
-(normal, log_normal, logit_normal). For a model trained with a schema, the input table is read \
+(normal, log_normal, logit_normal). When the model chose a heavy-tailed (Student-t) error shape \
+(train --heavy-tails; explain names it), the interval is that shape's central 95 % interval: the sd \
+is unchanged, the interval a little narrower than ± 1.96 sd. For a model trained with a schema, the input table is read \
 through the stored schema: its units are converted and its derived inputs computed from the raw \
 columns; estimates are in internal units (MPa, J, %, °C) unless --units declared.\n\n\
 JSON output is an array with one object per row: keys row, target, mean, median, sd, lo95, hi95, \

@@ -112,8 +112,9 @@ impl Problem {
 meeting every requirement, ties going to the cheaper candidate.\n\n\
 Each requirement is TARGET OP VALUE, OP one of >= <= > <, optionally with inputs set for it alone \
 after @ (a test temperature): `uts_mpa>=550`, `charpy_j>=47@test_temp_c=-40`. The probability of \
-meeting it comes from the committee's predictive distribution (Gaussian on the scale the target \
-was learnt on, so a log-scale target is judged on its log-normal distribution). The joint \
+meeting it comes from the committee's predictive distribution on the scale the target was learnt \
+on (Gaussian, or the Student-t error shape the model chose; a log-scale target is judged on that \
+scale). The joint \
 probability is the product: the targets are assumed independent, which they are not exactly.\n\n\
 With --costs, a TOML file of prices (currency per kg per element and for the balance) gives each \
 candidate's alloy cost per tonne, and its [limits] (maximum CE(IIW), Pcm or CET, element bounds, \

@@ -63,7 +63,8 @@ pub enum TargetTransform {
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize, Deserialize)]
 #[serde(rename_all = "snake_case")]
 pub enum IntervalKind {
-    /// Gaussian on the target's own scale: mean ± 1.96 sd, symmetric.
+    /// On the target's own scale: symmetric, mean ± 1.96 sd for the
+    /// Gaussian shape (± the Student-t's quantile for a heavy-tailed one).
     Normal,
     /// Gaussian on the log scale, mapped back: median and an asymmetric interval.
     LogNormal,
@@ -76,7 +77,7 @@ impl IntervalKind {
     /// The words used in output.
     pub fn describe(self) -> &'static str {
         match self {
-            IntervalKind::Normal => "mean ± 1.96 sd on the target's own scale (symmetric)",
+            IntervalKind::Normal => "central 95 % interval on the target's own scale, symmetric (mean ± 1.96 sd for a Gaussian error shape)",
             IntervalKind::LogNormal => {
                 "learnt on the log scale: median and central 95 % interval mapped back (asymmetric)"
             }
