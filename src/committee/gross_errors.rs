@@ -1,5 +1,7 @@
-//! A share of gross errors beside the committee's Gaussian predictive,
-//! estimated on the held-out part.
+//! A share of gross errors beside the committee's predictive, estimated on
+//! the held-out part together with the predictive's shape (Gaussian or
+//! Student-t, [`super::TailShape`]): below, N(t; m, v) stands for that
+//! shape with mean m and variance v.
 //!
 //! # Method
 //!
