@@ -29,6 +29,7 @@ use mettle::observer::Silent;
 use mettle::Model;
 
 fn main() {
+    mettle::single_threaded_blas();
     let dir = std::env::args()
         .skip(1)
         .find(|a| !a.starts_with("--"))

@@ -41,4 +41,22 @@ pub mod screen;
 pub mod units;
 
 pub use error::{Error, Result};
+
+/// Run OpenBLAS on one thread. Parallelism comes from training candidates
+/// on separate threads; OpenBLAS threads on top of that would oversubscribe
+/// the cores, and a different number of them changes the order of
+/// floating-point sums, so that near-ties (the committee size, a noise
+/// model) can fall the other way. Every program that trains — the binary,
+/// the benchmark example, the benches — calls this first, so that they
+/// give the same models. The one `unsafe` call of the library (the crate
+/// denies unsafe code elsewhere).
+#[allow(unsafe_code)]
+pub fn single_threaded_blas() {
+    extern "C" {
+        fn openblas_set_num_threads(n: std::ffi::c_int);
+    }
+    // SAFETY: a plain setter exported by the OpenBLAS that ndarray-linalg
+    // links; called before any BLAS routine runs.
+    unsafe { openblas_set_num_threads(1) };
+}
 pub use model::Model;

@@ -8,7 +8,7 @@ use std::process::ExitCode;
 use clap::Parser;
 
 fn main() -> ExitCode {
-    single_threaded_blas();
+    mettle::single_threaded_blas();
     let args = match cli::Cli::try_parse() {
         Ok(a) => a,
         Err(e) => {
@@ -41,16 +41,4 @@ fn is_broken_pipe(e: &anyhow::Error) -> bool {
         c.downcast_ref::<std::io::Error>()
             .is_some_and(|io| io.kind() == std::io::ErrorKind::BrokenPipe)
     })
-}
-
-/// Parallelism comes from training candidates on separate threads; OpenBLAS
-/// threads on top of that would oversubscribe the cores and could change
-/// the order of floating-point sums between runs.
-fn single_threaded_blas() {
-    extern "C" {
-        fn openblas_set_num_threads(n: std::ffi::c_int);
-    }
-    // SAFETY: a plain setter exported by the OpenBLAS that ndarray-linalg
-    // links; called once, before any BLAS routine runs.
-    unsafe { openblas_set_num_threads(1) };
 }
