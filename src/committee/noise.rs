@@ -27,9 +27,9 @@
 //! right, but the squared residuals it is fitted to also hold the mean's
 //! misfit, and the reweighted mean then gives up exactly where the misfit
 //! is largest: on the shared benchmark (docs/benchmarks.md) the held mean
-//! had test RMSE 0.393 against 0.604 on yacht and 0.44 against 0.470 on
-//! energy, for a test log-likelihood lower by 0.14 nats on yacht and equal
-//! on energy. With a share of gross errors the mean is still refitted, with
+//! had test RMSE 0.393 against 0.604 on yacht and 0.446 against 0.470 on
+//! energy, for a test log-likelihood lower by 0.14 nats on yacht and by
+//! 0.02 on energy. With a share of gross errors the mean is still refitted, with
 //! the rows' responsibilities as weights (see [`GrossErrorModel`]).
 //!
 //! # Approximations
