@@ -185,6 +185,29 @@ mod tests {
         assert_abs_diff_eq!(e.coverage_68, 1.0, epsilon = 0.0);
     }
 
+    /// With a Student-t shape (ν = 3) the coverages count the t's central
+    /// intervals: ±0.691 sd and ±1.909 sd (SciPy 1.17.1, stats.t.ppf with
+    /// ν = 3 scaled to unit variance, computed for this project), while
+    /// within_1sd and within_2sd still count ±1 and ±2 sd.
+    #[test]
+    fn coverages_follow_the_shape() {
+        let g = GrossErrors {
+            share: 0.0,
+            mean: 0.0,
+            sd: 10.0,
+            shape: crate::committee::TailShape::new(Some(3.0)),
+        };
+        // residuals of 0.5, 0.8, 1.5 and 1.95 sd
+        let y = [0.5, 0.8, 1.5, 1.95];
+        let zero = [0.0; 4];
+        let one = [1.0; 4];
+        let e = evaluate_on_scale(&y, &zero, &y, &zero, &one, &zero, Some(g)).expect("rows");
+        assert_abs_diff_eq!(e.coverage_68, 0.25, epsilon = 1e-15);
+        assert_abs_diff_eq!(e.within_1sd, 0.5, epsilon = 1e-15);
+        assert_abs_diff_eq!(e.coverage_95, 0.75, epsilon = 1e-15);
+        assert_abs_diff_eq!(e.within_2sd, 1.0, epsilon = 1e-15);
+    }
+
     #[test]
     fn metrics_by_hand() {
         let e = evaluate(&[1.0, 2.0, 3.0], &[1.0, 2.5, 2.0], &[1.0, 1.0, 0.4]).expect("rows");
