@@ -355,7 +355,7 @@ fn judge(
     let scaled = scaled_grid(model, base, std::slice::from_ref(&at))?;
     let members = member_curves(model, k, &scaled);
     let tm = &model.targets[k];
-    let n = tm.committee.shape();
+    let shape = tm.committee.shape();
     let (p_single, p_mean) = match tm.transform.forward(r.energy) {
         // an energy below the transform's domain is met by every value
         None => (1.0, 1.0),
@@ -367,7 +367,7 @@ fn judge(
                     .map(|m| {
                         let s = sd(m);
                         if s > 0.0 {
-                            n.cdf((m.0[0] - g) / s)
+                            shape.cdf((m.0[0] - g) / s)
                         } else {
                             f64::from(u8::from(m.0[0] >= g))
                         }

@@ -14,7 +14,6 @@ use ndarray::Array2;
 use serde::Serialize;
 use statrs::distribution::{ContinuousCDF, Normal};
 
-use crate::committee::TailShape;
 use crate::data::schema::PrepareOptions;
 use crate::data::Table;
 use crate::derive::RowWarning;
@@ -63,7 +62,7 @@ impl Estimate {
 
 /// One target's predictive distribution on the scale it was learnt on
 /// (transformed target units): z = mean + sd·ε, ε of unit variance with
-/// the committee's shape (Gaussian or Student-t).
+/// the committee's shape ([`crate::committee::Committee::shape`]).
 #[derive(Clone, Copy, Debug, PartialEq)]
 pub struct ScalePrediction {
     /// Mean on the learnt scale.
@@ -72,8 +71,6 @@ pub struct ScalePrediction {
     pub sd: f64,
     /// Noise part of the sd on the learnt scale.
     pub noise_sd: f64,
-    /// Shape of the scatter about the mean (in sds).
-    pub shape: TailShape,
 }
 
 /// Estimates for one row, every target, with the domain verdict.
@@ -210,7 +207,6 @@ impl Model {
             .map(|t| {
                 let p = t.committee.predict_scaled(scaled.view());
                 let w = t.scaling.width();
-                let shape = t.committee.shape();
                 p.mean
                     .iter()
                     .zip(&p.var)
@@ -219,7 +215,6 @@ impl Model {
                         mean: t.scaling.unscale_linear(*m),
                         sd: v.sqrt() * w,
                         noise_sd: nv.sqrt() * w,
-                        shape,
                     })
                     .collect()
             })

@@ -270,6 +270,12 @@ impl<'a> Screening<'a> {
         } else {
             None
         };
+        // the error shape of each requirement's target, once
+        let shapes: Vec<_> = self
+            .serve
+            .iter()
+            .map(|&(mi, ti)| self.models[mi].targets[ti].committee.shape())
+            .collect();
         let mut out = Vec::with_capacity(table.n_rows());
         for row in 0..table.n_rows() {
             let mut notes: Vec<String> = Vec::new();
@@ -292,11 +298,12 @@ impl<'a> Screening<'a> {
             }
             let mut requirements = Vec::new();
             let mut joint = 1.0;
-            for ((req, &(mi, ti)), cond) in self
+            for (((req, &(mi, ti)), cond), &shape) in self
                 .requirements
                 .iter()
                 .zip(&self.serve)
                 .zip(&at_conditions)
+                .zip(&shapes)
             {
                 let p = cond.as_ref().unwrap_or(&base[mi]);
                 if cond.is_some() {
@@ -309,7 +316,7 @@ impl<'a> Screening<'a> {
                     }
                 }
                 let transform = &self.models[mi].targets[ti].transform;
-                let prob = req.probability(transform, &p.learnt[ti][row]);
+                let prob = req.probability(transform, shape, &p.learnt[ti][row]);
                 joint *= prob;
                 requirements.push(RequirementOutcome {
                     requirement: req.to_string(),

@@ -34,6 +34,7 @@ use std::fmt;
 
 use serde::Serialize;
 
+use crate::committee::TailShape;
 use crate::error::{Error, Result};
 use crate::model::TargetTransform;
 use crate::predict::ScalePrediction;
@@ -148,9 +149,14 @@ impl Requirement {
     }
 
     /// Probability that the target meets the requirement, given its
-    /// learnt-scale distribution `p` and the transform it was learnt
-    /// through.
-    pub fn probability(&self, transform: &TargetTransform, p: &ScalePrediction) -> f64 {
+    /// learnt-scale mean and sd `p`, the committee's error `shape` and the
+    /// transform it was learnt through.
+    pub fn probability(
+        &self,
+        transform: &TargetTransform,
+        shape: TailShape,
+        p: &ScalePrediction,
+    ) -> f64 {
         let at_least = match transform.forward(self.threshold) {
             Some(g) => {
                 let z = (p.mean - g) / p.sd;
@@ -158,7 +164,7 @@ impl Requirement {
                     // sd = 0 and the mean on the threshold: met (≥ holds)
                     1.0
                 } else {
-                    p.shape.cdf(z)
+                    shape.cdf(z)
                 }
             }
             None => {
@@ -215,7 +221,6 @@ mod tests {
             mean,
             sd,
             noise_sd: sd,
-            shape: crate::committee::TailShape::new(None),
         }
     }
 
@@ -261,10 +266,18 @@ mod tests {
     fn probability_is_the_normal_cdf() {
         // Φ(1) = 0.841345 (standard normal table; any statistics handbook)
         let r = Requirement::parse("uts>=550").expect("ok");
-        let p = r.probability(&TargetTransform::Identity, &gauss(560.0, 10.0));
+        let p = r.probability(
+            &TargetTransform::Identity,
+            TailShape::new(None),
+            &gauss(560.0, 10.0),
+        );
         assert_abs_diff_eq!(p, 0.841_345, epsilon = 1e-6);
         let r = Requirement::parse("uts<=550").expect("ok");
-        let p = r.probability(&TargetTransform::Identity, &gauss(560.0, 10.0));
+        let p = r.probability(
+            &TargetTransform::Identity,
+            TailShape::new(None),
+            &gauss(560.0, 10.0),
+        );
         assert_abs_diff_eq!(p, 0.158_655, epsilon = 1e-6);
     }
 
@@ -273,19 +286,34 @@ mod tests {
         // learnt as ln y ~ N(ln 60, 0.5²): P(y ≥ 60) = 1/2 exactly, and
         // P(y ≥ 60·e^{0.5}) = 1 − Φ(1) = 0.158655 (standard normal table)
         let r = Requirement::parse("charpy_j>=60").expect("ok");
-        let p = r.probability(&TargetTransform::Log, &gauss(60f64.ln(), 0.5));
+        let p = r.probability(
+            &TargetTransform::Log,
+            TailShape::new(None),
+            &gauss(60f64.ln(), 0.5),
+        );
         assert_abs_diff_eq!(p, 0.5, epsilon = 1e-12);
         let r2 = Requirement {
             threshold: 60.0 * 0.5f64.exp(),
             ..r.clone()
         };
-        let p = r2.probability(&TargetTransform::Log, &gauss(60f64.ln(), 0.5));
+        let p = r2.probability(
+            &TargetTransform::Log,
+            TailShape::new(None),
+            &gauss(60f64.ln(), 0.5),
+        );
         assert_abs_diff_eq!(p, 0.158_655, epsilon = 1e-6);
         // a threshold at or below zero is always met by a log target
         let r3 = Requirement {
             threshold: 0.0,
             ..r
         };
-        assert_abs_diff_eq!(r3.probability(&TargetTransform::Log, &gauss(1.0, 0.5)), 1.0);
+        assert_abs_diff_eq!(
+            r3.probability(
+                &TargetTransform::Log,
+                TailShape::new(None),
+                &gauss(1.0, 0.5)
+            ),
+            1.0
+        );
     }
 }
