@@ -234,11 +234,17 @@ fn mis_keyed_results_are_kept_apart_and_named() {
     let truth: Vec<f64> = fresh_csv_targets(&w, "fresh.csv");
     let summary = |model: &str| -> (f64, f64) {
         let r = rows(model);
-        let noise = r
+        // the median, as the model card summarises a noise level that may
+        // vary with the inputs: a mean is pulled up by the few rows where a
+        // small network's misfit is booked as noise (with varying noise
+        // chosen, as with OpenBLAS's generic kernels: mean 12.1 MPa, median
+        // 10.25; without the share 17.2, coverage 0.705 and 0.924)
+        let mut noise_sds: Vec<f64> = r
             .iter()
             .map(|v| v["noise_sd"].as_f64().expect("noise_sd"))
-            .sum::<f64>()
-            / r.len() as f64;
+            .collect();
+        noise_sds.sort_by(f64::total_cmp);
+        let noise = noise_sds[noise_sds.len() / 2];
         let clean: Vec<usize> = (0..r.len()).filter(|&i| !fresh_flags[i]).collect();
         let inside = clean
             .iter()
