@@ -68,9 +68,9 @@ use argmin::core::{
 };
 use argmin::solver::linesearch::MoreThuenteLineSearch;
 use argmin::solver::quasinewton::LBFGS;
-use ndarray::{Array1, Array2, ArrayView1, ArrayView2, Axis};
+use ndarray::{Array1, Array2, ArrayView1, ArrayView2, Axis, ShapeBuilder};
 use ndarray_linalg::{
-    CholeskyFactorized, Diag, FactorizeC, InverseC, SolveC, SolveTriangular, UPLO,
+    CholeskyFactorized, Diag, FactorizeC, InverseC, SolveC, SolveTriangularInto, UPLO,
 };
 use serde::{Deserialize, Serialize};
 
@@ -140,6 +140,7 @@ impl PartialEq for ResidualKriging {
 /// The factorised process, ready to predict.
 #[derive(Debug)]
 pub(crate) struct KrigingState {
+    /// Lower Cholesky factor of K_y, column-major.
     chol_lower: Array2<f64>,
     alpha: Array1<f64>,
 }
@@ -489,7 +490,13 @@ impl ResidualKriging {
                 chol_lower[[i, j]] = 0.0;
             }
         }
-        Some(KrigingState { chol_lower, alpha })
+        // column-major, as LAPACK takes it: no transposed copy per solve
+        let mut chol_f = Array2::zeros((n, n).f());
+        chol_f.assign(&chol_lower);
+        Some(KrigingState {
+            chol_lower: chol_f,
+            alpha,
+        })
     }
 
     /// The process's posterior mean and variance at scaled inputs `x`
@@ -503,9 +510,10 @@ impl ResidualKriging {
         for chunk in x.axis_chunks_iter(Axis(0), KRIGING_PREDICT_ROWS) {
             let ks = kernel(chunk, self.x.view(), &self.length_scales, self.signal_var); // m × N
             mean.extend(ks.dot(&st.alpha));
+            // Kᵀ of the row-major cross-kernel is column-major: solved in place
             let v = st
                 .chol_lower
-                .solve_triangular(UPLO::Lower, Diag::NonUnit, &ks.reversed_axes())
+                .solve_triangular_into(UPLO::Lower, Diag::NonUnit, ks.reversed_axes())
                 .ok()?;
             var.extend(
                 v.map_axis(Axis(0), |c| c.dot(&c))

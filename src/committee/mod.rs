@@ -44,7 +44,10 @@ pub use tails::{TailShape, ONE_SD_SHARE, TWO_SD_SHARE};
 use ndarray::{Array1, Array2, ArrayView2};
 use serde::{Deserialize, Serialize};
 
-use crate::evidence::{predictive, FitDiagnostics, FitFailure, GroupKind, HessianKind};
+use crate::evidence::{
+    predictive, predictive_factored, FitDiagnostics, FitFailure, GroupKind, HessianKind,
+    PosteriorFactor,
+};
 use crate::net::Architecture;
 
 /// One member of a committee, as stored in a model file.
@@ -234,18 +237,49 @@ impl Member {
         n_inputs: usize,
         x: ArrayView2<f64>,
     ) -> (Array1<f64>, Array1<f64>, Array1<f64>) {
-        let arch = self.arch(n_inputs);
-        let rho = self
-            .noise
-            .as_ref()
-            .map(|nm| nm.precision_weights(n_inputs, x));
-        let (y, var) = predictive(&arch, &self.weights, &self.posterior_cov, self.beta, x);
+        let (y, var) = predictive(
+            &self.arch(n_inputs),
+            &self.weights,
+            &self.posterior_cov,
+            self.beta,
+            x,
+        );
+        self.with_noise(n_inputs, x, y, var)
+    }
+
+    /// The member's posterior covariance factored for its error bars
+    /// ([`PosteriorFactor`]); computed once for a prediction in blocks.
+    pub fn posterior_factor(&self) -> PosteriorFactor {
+        PosteriorFactor::new(&self.posterior_cov)
+    }
+
+    /// [`Member::predictive`] with the factor of [`Member::posterior_factor`].
+    pub fn predictive_factored(
+        &self,
+        factor: &PosteriorFactor,
+        n_inputs: usize,
+        x: ArrayView2<f64>,
+    ) -> (Array1<f64>, Array1<f64>, Array1<f64>) {
+        let (y, var) =
+            predictive_factored(&self.arch(n_inputs), &self.weights, factor, self.beta, x);
+        self.with_noise(n_inputs, x, y, var)
+    }
+
+    /// Mean, total variance and noise variance from the network's mean `y`
+    /// and variance `var` = 1/β + gᵀΣg: under varying noise the constant
+    /// 1/β inside `var` is replaced by σ²(x)/β.
+    fn with_noise(
+        &self,
+        n_inputs: usize,
+        x: ArrayView2<f64>,
+        y: Array1<f64>,
+        var: Array1<f64>,
+    ) -> (Array1<f64>, Array1<f64>, Array1<f64>) {
         let constant = 1.0 / self.beta;
-        match rho {
+        match &self.noise {
             None => (y, var, Array1::from_elem(x.nrows(), constant)),
-            Some(rho) => {
-                let noise_var = rho.mapv(|r| constant / r);
-                // replace the constant 1/β inside `var` by σ²(x)/β
+            Some(nm) => {
+                let noise_var = nm.precision_weights(n_inputs, x).mapv(|r| constant / r);
                 let total = var - constant + &noise_var;
                 (y, total, noise_var)
             }
@@ -267,11 +301,13 @@ impl Committee {
     /// memory stays bounded (one block's Jacobian per thread) whatever N.
     pub fn predict_scaled(&self, x: ArrayView2<f64>) -> ScaledPrediction {
         use rayon::prelude::*;
+        let factors: Vec<PosteriorFactor> =
+            self.members.iter().map(Member::posterior_factor).collect();
         let blocks: Vec<ScaledPrediction> = x
             .axis_chunks_iter(ndarray::Axis(0), PREDICT_BLOCK_ROWS)
             .collect::<Vec<_>>()
             .into_par_iter()
-            .map(|block| self.predict_block(block))
+            .map(|block| self.predict_block(&factors, block))
             .collect();
         let cat = |f: fn(&ScaledPrediction) -> &Array1<f64>| {
             Array1::from_iter(blocks.iter().flat_map(|b| f(b).iter().copied()))
@@ -283,8 +319,8 @@ impl Committee {
         }
     }
 
-    fn predict_block(&self, x: ArrayView2<f64>) -> ScaledPrediction {
-        let mut p = members_predict(&self.members, self.n_inputs, x);
+    fn predict_block(&self, factors: &[PosteriorFactor], x: ArrayView2<f64>) -> ScaledPrediction {
+        let mut p = members_predict_factored(&self.members, factors, self.n_inputs, x);
         if let Some((gp_mean, gp_var, factor)) = self.kriging_correction(x) {
             // var = s·σ²(x) + (parameter + committee variance) + GP variance
             p.mean += &gp_mean;
@@ -313,11 +349,22 @@ pub(crate) fn members_predict(
     n_inputs: usize,
     x: ArrayView2<f64>,
 ) -> ScaledPrediction {
+    let factors: Vec<PosteriorFactor> = members.iter().map(Member::posterior_factor).collect();
+    members_predict_factored(members, &factors, n_inputs, x)
+}
+
+/// [`members_predict`] with each member's [`PosteriorFactor`] given.
+fn members_predict_factored(
+    members: &[Member],
+    factors: &[PosteriorFactor],
+    n_inputs: usize,
+    x: ArrayView2<f64>,
+) -> ScaledPrediction {
     let mut means = Vec::with_capacity(members.len());
     let mut vars = Vec::with_capacity(members.len());
     let mut noise = Array1::zeros(x.nrows());
-    for m in members {
-        let (y, v, nv) = m.predictive(n_inputs, x);
+    for (m, f) in members.iter().zip(factors) {
+        let (y, v, nv) = m.predictive_factored(f, n_inputs, x);
         means.push(y);
         vars.push(v);
         noise += &nv;

@@ -44,6 +44,7 @@ use ndarray_linalg::{Eigh, FactorizeC, InverseC, SolveC, UPLO};
 use serde::{Deserialize, Serialize};
 
 use super::groups::{GroupKind, Groups};
+use super::laplace::{quadratic_forms_by_product, PosteriorFactor};
 use super::objective::{DataModel, Objective};
 use crate::net::Architecture;
 use crate::prec::{
@@ -626,7 +627,9 @@ impl FittedNetwork {
 }
 
 /// Mean and variance `1/β + gᵀΣg` for a network with weights `w` and
-/// posterior covariance `cov` (scaled units).
+/// posterior covariance `cov` (scaled units), gᵀΣg by the product JΣ:
+/// the form every choice of the training procedure is made with (see
+/// [`PosteriorFactor`] for the one prediction in blocks uses).
 pub fn predictive(
     arch: &Architecture,
     w: &[f64],
@@ -635,11 +638,22 @@ pub fn predictive(
     x: ArrayView2<f64>,
 ) -> (Array1<f64>, Array1<f64>) {
     let (y, jac) = arch.jacobian(w, x);
-    let js = jac.dot(cov);
+    let var = quadratic_forms_by_product(cov, jac.view()) + 1.0 / beta;
+    (y, var)
+}
+
+/// [`predictive`] with the posterior covariance factored, gᵀΣg by one
+/// triangular solve: for prediction of many rows in blocks.
+pub fn predictive_factored(
+    arch: &Architecture,
+    w: &[f64],
+    factor: &PosteriorFactor,
+    beta: f64,
+    x: ArrayView2<f64>,
+) -> (Array1<f64>, Array1<f64>) {
+    let (y, jac) = arch.jacobian(w, x);
     let noise = 1.0 / beta;
-    let var = ndarray::Zip::from(js.rows())
-        .and(jac.rows())
-        .map_collect(|a, b| a.dot(&b) + noise);
+    let var = factor.quadratic_forms(jac) + noise;
     (y, var)
 }
 

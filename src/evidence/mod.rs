@@ -3,11 +3,13 @@
 
 mod fit;
 mod groups;
+mod laplace;
 mod objective;
 
 pub use fit::{
-    fit_model, fit_network, predictive, FitDiagnostics, FitFailure, FitSettings, FittedNetwork,
-    HessianChoice, HessianKind, StartState,
+    fit_model, fit_network, predictive, predictive_factored, FitDiagnostics, FitFailure,
+    FitSettings, FittedNetwork, HessianChoice, HessianKind, StartState,
 };
 pub use groups::{GroupKind, Groups};
+pub use laplace::PosteriorFactor;
 pub use objective::DataModel;
