@@ -343,34 +343,50 @@ impl Committee {
 }
 
 /// The committee of `members` alone (no residual process) at scaled
-/// inputs `x`.
+/// inputs `x`, each member's gᵀΣg by the product form the training
+/// procedure makes its choices with ([`crate::evidence::predictive`]).
 pub(crate) fn members_predict(
     members: &[Member],
     n_inputs: usize,
     x: ArrayView2<f64>,
 ) -> ScaledPrediction {
-    let factors: Vec<PosteriorFactor> = members.iter().map(Member::posterior_factor).collect();
-    members_predict_factored(members, &factors, n_inputs, x)
+    committee_of(members.iter().map(|m| m.predictive(n_inputs, x)), x.nrows())
 }
 
-/// [`members_predict`] with each member's [`PosteriorFactor`] given.
+/// [`members_predict`] with each member's [`PosteriorFactor`] given: the
+/// triangular form, for prediction in blocks.
 fn members_predict_factored(
     members: &[Member],
     factors: &[PosteriorFactor],
     n_inputs: usize,
     x: ArrayView2<f64>,
 ) -> ScaledPrediction {
-    let mut means = Vec::with_capacity(members.len());
-    let mut vars = Vec::with_capacity(members.len());
-    let mut noise = Array1::zeros(x.nrows());
-    for (m, f) in members.iter().zip(factors) {
-        let (y, v, nv) = m.predictive_factored(f, n_inputs, x);
+    committee_of(
+        members
+            .iter()
+            .zip(factors)
+            .map(|(m, f)| m.predictive_factored(f, n_inputs, x)),
+        x.nrows(),
+    )
+}
+
+/// The committee from its members' (mean, total variance, noise variance)
+/// over `n_rows` rows.
+fn committee_of(
+    members: impl ExactSizeIterator<Item = (Array1<f64>, Array1<f64>, Array1<f64>)>,
+    n_rows: usize,
+) -> ScaledPrediction {
+    let n_members = members.len();
+    let mut means = Vec::with_capacity(n_members);
+    let mut vars = Vec::with_capacity(n_members);
+    let mut noise = Array1::zeros(n_rows);
+    for (y, v, nv) in members {
         means.push(y);
         vars.push(v);
         noise += &nv;
     }
     let (mean, var) = combine(&means, &vars);
-    let noise_var = noise / members.len() as f64;
+    let noise_var = noise / n_members as f64;
     ScaledPrediction {
         mean,
         var,
