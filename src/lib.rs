@@ -41,6 +41,7 @@ pub mod screen;
 pub mod units;
 
 pub use error::{Error, Result};
+pub use model::Model;
 
 /// Run OpenBLAS on one thread. Parallelism comes from training candidates
 /// on separate threads; OpenBLAS threads on top of that would oversubscribe
@@ -59,4 +60,3 @@ pub fn single_threaded_blas() {
     // links; called before any BLAS routine runs.
     unsafe { openblas_set_num_threads(1) };
 }
-pub use model::Model;
