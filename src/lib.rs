@@ -30,6 +30,7 @@ pub mod error;
 pub mod evidence;
 pub mod explain;
 pub mod features;
+mod matmul;
 pub mod metrics;
 pub mod model;
 pub mod net;
@@ -49,8 +50,9 @@ pub use model::Model;
 /// floating-point sums, so that near-ties (the committee size, a noise
 /// model) can fall the other way. Every program that trains — the binary,
 /// the benchmark example, the benches — calls this first, so that they
-/// give the same models. The one `unsafe` call of the library (the crate
-/// denies unsafe code elsewhere).
+/// give the same models. One of the library's two `unsafe` calls (the
+/// other is the matrix product of `matmul`; the crate denies unsafe code
+/// elsewhere).
 #[allow(unsafe_code)]
 pub fn single_threaded_blas() {
     extern "C" {

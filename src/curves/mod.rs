@@ -255,9 +255,10 @@ pub fn band_rows(model: &Model, table: &Table) -> Result<Vec<BandRow>> {
         .iter()
         .map(|t| physical_bound(model, &t.name))
         .collect();
+    let verdicts = model.domain_guard().check_many(raw.view());
     let mut out: Vec<_> = (0..raw.nrows())
-        .map(|i| {
-            let verdict = model.domain_check(raw.row(i));
+        .zip(verdicts)
+        .map(|(i, verdict)| {
             let mut notes = verdict.notes.clone();
             let bands = model
                 .targets

@@ -57,7 +57,7 @@ mod physical;
 
 pub use physical::{physical_bound, PhysicalBound};
 
-use ndarray::{Array1, Array2, ArrayView1, ArrayView2, Axis};
+use ndarray::{s, Array1, Array2, ArrayView1, ArrayView2, Axis};
 use ndarray_linalg::{Eigh, UPLO};
 use rayon::prelude::*;
 use serde::{Deserialize, Serialize};
@@ -65,8 +65,9 @@ use serde::{Deserialize, Serialize};
 use crate::model::InputColumn;
 use crate::prec::{
     DOMAIN_DISTANCE_FACTOR, DOMAIN_EIGEN_FLOOR, DOMAIN_K, DOMAIN_PAIR_MAX_CELLS,
-    DOMAIN_PAIR_RADIUS, DOMAIN_PAIR_ROWS_PER_CELL, DOMAIN_RANGE_SLACK, DOMAIN_REFERENCE_MAX_ROWS,
-    DOMAIN_REFERENCE_QUANTILE, DOMAIN_REFERENCE_SEED,
+    DOMAIN_PAIR_RADIUS, DOMAIN_PAIR_ROWS_PER_CELL, DOMAIN_QUERY_BLOCK, DOMAIN_RANGE_SLACK,
+    DOMAIN_REFERENCE_MAX_ROWS, DOMAIN_REFERENCE_QUANTILE, DOMAIN_REFERENCE_SEED,
+    DOMAIN_SCREEN_SLACK,
 };
 
 /// What the model file keeps of the training inputs for the joint-domain
@@ -250,35 +251,6 @@ fn dist2(a: &[f64], b: &[f64]) -> f64 {
     a.iter().zip(b).map(|(x, y)| (x - y) * (x - y)).sum()
 }
 
-/// [`dist2`] from `q` to every row of `rows` (row after row, `q.len()`
-/// values each), four rows at a time: their four sums run side by side
-/// instead of one after another, each still adding its inputs in order,
-/// so every distance is bit for bit that of [`dist2`].
-fn dist2_all(q: &[f64], rows: &[f64]) -> Vec<f64> {
-    let d = q.len();
-    let mut out = Vec::with_capacity(rows.len() / d.max(1));
-    if d == 0 {
-        return out;
-    }
-    let mut quads = rows.chunks_exact(4 * d);
-    for quad in &mut quads {
-        let (r0, rest) = quad.split_at(d);
-        let (r1, rest) = rest.split_at(d);
-        let (r2, r3) = rest.split_at(d);
-        let mut acc = [0.0_f64; 4];
-        for c in 0..d {
-            let x = q[c];
-            acc[0] += (x - r0[c]) * (x - r0[c]);
-            acc[1] += (x - r1[c]) * (x - r1[c]);
-            acc[2] += (x - r2[c]) * (x - r2[c]);
-            acc[3] += (x - r3[c]) * (x - r3[c]);
-        }
-        out.extend_from_slice(&acc);
-    }
-    out.extend(quads.remainder().chunks_exact(d).map(|r| dist2(q, r)));
-    out
-}
-
 /// Quantile q of sorted values by linear interpolation between order
 /// statistics (the "type 7" rule; common practice, no source).
 pub(crate) fn quantile_sorted(sorted: &[f64], q: f64) -> f64 {
@@ -432,36 +404,140 @@ impl DomainReference {
     }
 
     /// d_k(x) / D, the support count and each input's share of the squared
-    /// distance to the k nearest training rows, for a scaled query.
+    /// distance to the k nearest training rows, for a scaled query. For
+    /// many queries, use [`DomainIndex::measure_many`].
     pub fn measure(&self, scaled: &[f64]) -> JointMeasure {
-        let d = self.n_inputs;
-        let white: Vec<f64> = (0..d)
-            .map(|c| {
-                (0..d)
-                    .map(|r| (scaled[r] - self.mean[r]) * self.whitening[r * d + c])
-                    .sum()
-            })
-            .collect();
-        // one pass: the support count, and the k nearest rows kept sorted in
-        // a buffer of k (k is small), without a per-query list of all rows
-        let k = self.k.min(self.n_rows()).max(1);
-        let r2 = self.reference_distance * self.reference_distance;
-        let mut nearest: Vec<(f64, usize)> = Vec::with_capacity(k + 1);
+        let query = ArrayView2::from_shape((1, scaled.len()), scaled).expect("one row");
+        self.index().measure_many(query).remove(0)
+    }
+
+    /// The reference prepared for measuring many queries.
+    pub fn index(&self) -> DomainIndex<'_> {
+        let (n, d) = (self.n_rows(), self.n_inputs);
+        let mut screen_rows = Array2::zeros((n, d + 1));
+        for (mut out, row) in screen_rows
+            .rows_mut()
+            .into_iter()
+            .zip(self.rows.chunks_exact(d.max(1)))
+        {
+            for (o, v) in out.iter_mut().zip(row) {
+                *o = -2.0 * v;
+            }
+            out[d] = row.iter().map(|v| v * v).sum();
+        }
+        let max_norm = screen_rows.column(d).iter().copied().fold(0.0, f64::max);
+        DomainIndex {
+            reference: self,
+            screen_rows,
+            max_norm,
+        }
+    }
+}
+
+/// A [`DomainReference`] prepared for screening a block of queries'
+/// distances to every training row by one matrix product.
+#[derive(Clone, Debug)]
+pub struct DomainIndex<'a> {
+    reference: &'a DomainReference,
+    /// Row i: [−2 rᵢ, ‖rᵢ‖²] for whitened training row rᵢ (n × (d + 1)).
+    screen_rows: Array2<f64>,
+    /// The largest ‖rᵢ‖².
+    max_norm: f64,
+}
+
+impl<'a> DomainIndex<'a> {
+    /// The reference indexed.
+    pub fn reference(&self) -> &'a DomainReference {
+        self.reference
+    }
+
+    /// [`DomainReference::measure`] for every row of `scaled` (queries ×
+    /// inputs), in blocks of [`DOMAIN_QUERY_BLOCK`] queries.
+    ///
+    /// A query q's squared distance to training row rᵢ is ‖q‖² + hᵢ with
+    /// hᵢ = ‖rᵢ‖² − 2 q·rᵢ, and the hᵢ of a block of queries come from one
+    /// matrix product, [q, 1] · [−2 rᵢ, ‖rᵢ‖²]ᵀ, each ‖q‖² + hᵢ within ±ε
+    /// of the true distance (ε = [`DOMAIN_SCREEN_SLACK`] · (‖q‖² + maxᵢ
+    /// ‖rᵢ‖²)). The k-th smallest ‖q‖² + hᵢ, plus ε, bounds the k-th nearest
+    /// distance from above; a row screened more than ε above that bound and
+    /// D² can neither be among the k nearest nor within D. The rows left (a
+    /// few per query) get their distance summed input by input, as the
+    /// reference distance was, so ratios, support counts and shares are
+    /// those of the plain pass over every row, bit for bit (unit test).
+    pub fn measure_many(&self, scaled: ArrayView2<f64>) -> Vec<JointMeasure> {
+        let r = self.reference;
+        let (n, d) = (r.n_rows(), r.n_inputs);
+        let mut h = Array2::zeros((DOMAIN_QUERY_BLOCK.min(scaled.nrows()), n));
+        let mut out = Vec::with_capacity(scaled.nrows());
+        for block in scaled.axis_chunks_iter(Axis(0), DOMAIN_QUERY_BLOCK) {
+            // [white, 1] per query
+            let mut white = Array2::ones((block.nrows(), d + 1));
+            for (mut w, q) in white.rows_mut().into_iter().zip(block.rows()) {
+                for c in 0..d {
+                    w[c] = (0..d)
+                        .map(|i| (q[i] - r.mean[i]) * r.whitening[i * d + c])
+                        .sum();
+                }
+            }
+            let mut h = h.slice_mut(s![..block.nrows(), ..]);
+            crate::matmul::multiply_into(white.view(), self.screen_rows.t(), h.view_mut());
+            for ((q, w), h) in block.rows().into_iter().zip(white.rows()).zip(h.rows()) {
+                let w = w.as_slice().expect("rows of a standard-layout array");
+                let h = h.as_slice().expect("rows of a standard-layout array");
+                out.push(self.measure_screened(q, &w[..d], h));
+            }
+        }
+        out
+    }
+
+    /// One query's measure from its scaled and whitened values and its
+    /// screened hᵢ for every training row.
+    fn measure_screened(&self, scaled: ArrayView1<f64>, white: &[f64], h: &[f64]) -> JointMeasure {
+        let r = self.reference;
+        let (n, d) = (r.n_rows(), r.n_inputs);
+        let k = r.k.min(n).max(1);
+        let r2 = r.reference_distance * r.reference_distance;
+        let q_norm: f64 = white.iter().map(|v| v * v).sum();
+        let slack = DOMAIN_SCREEN_SLACK * (q_norm + self.max_norm);
+        let kth_h = if k == 1 {
+            // four running minima: no chain of dependent comparisons
+            let mut lanes = [f64::INFINITY; 4];
+            let mut quads = h.chunks_exact(4);
+            for quad in &mut quads {
+                for (m, v) in lanes.iter_mut().zip(quad) {
+                    *m = m.min(*v);
+                }
+            }
+            quads
+                .remainder()
+                .iter()
+                .chain(&lanes)
+                .copied()
+                .fold(f64::INFINITY, f64::min)
+        } else {
+            let mut copy = h.to_vec();
+            *copy.select_nth_unstable_by(k - 1, f64::total_cmp).1
+        };
+        // rows with hᵢ above this cannot count; NaN (a query beyond the
+        // range of f64) screens nothing out: the plain path
+        let keep_below = (q_norm + kth_h + slack).max(r2) - q_norm + slack;
+        let mut nearest = KNearest::new(k);
         let mut support = 0;
-        for (i, d2) in dist2_all(&white, &self.rows).into_iter().enumerate() {
+        for (i, hi) in h.iter().enumerate() {
+            if *hi > keep_below {
+                continue;
+            }
+            let d2 = dist2(white, r.row(i));
             if d2 <= r2 {
                 support += 1;
             }
-            if nearest.len() < k || d2 < nearest[nearest.len() - 1].0 {
-                let at = nearest.partition_point(|(d, j)| (*d, *j) < (d2, i));
-                nearest.insert(at, (d2, i));
-                nearest.truncate(k);
-            }
+            nearest.offer(d2, i);
         }
+        let nearest = nearest.into_vec();
         let dk = nearest[k - 1].0.sqrt();
-        let mut share = vec![0.0; self.n_inputs];
+        let mut share = vec![0.0; d];
         for &(_, i) in &nearest {
-            let t_row = &self.scaled_rows[i * d..(i + 1) * d];
+            let t_row = &r.scaled_rows[i * d..(i + 1) * d];
             for (s, (q, t)) in share.iter_mut().zip(scaled.iter().zip(t_row)) {
                 *s += (q - t) * (q - t);
             }
@@ -471,8 +547,8 @@ impl DomainReference {
             share.iter_mut().for_each(|s| *s /= total);
         }
         JointMeasure {
-            ratio: if self.reference_distance > 0.0 {
-                dk / self.reference_distance
+            ratio: if r.reference_distance > 0.0 {
+                dk / r.reference_distance
             } else if dk > 0.0 {
                 f64::INFINITY
             } else {
@@ -481,6 +557,34 @@ impl DomainReference {
             support,
             share,
         }
+    }
+}
+
+/// The k smallest (squared distance, row) pairs offered, in ascending
+/// order of (distance, row): k is small, so a sorted buffer of k.
+struct KNearest {
+    k: usize,
+    kept: Vec<(f64, usize)>,
+}
+
+impl KNearest {
+    fn new(k: usize) -> Self {
+        KNearest {
+            k,
+            kept: Vec::with_capacity(k + 1),
+        }
+    }
+
+    fn offer(&mut self, d2: f64, i: usize) {
+        if self.kept.len() < self.k || d2 < self.kept[self.kept.len() - 1].0 {
+            let at = self.kept.partition_point(|(d, j)| (*d, *j) < (d2, i));
+            self.kept.insert(at, (d2, i));
+            self.kept.truncate(self.k);
+        }
+    }
+
+    fn into_vec(self) -> Vec<(f64, usize)> {
+        self.kept
     }
 }
 
@@ -548,32 +652,79 @@ pub fn check(
     reference: Option<&DomainReference>,
     raw: ArrayView1<f64>,
 ) -> DomainVerdict {
+    let index = reference.map(DomainReference::index);
+    check_many(inputs, index.as_ref(), raw.insert_axis(Axis(0))).remove(0)
+}
+
+/// [`check`] for every row of `raw` (rows × inputs), the joint-domain
+/// distances of all rows measured together ([`DomainIndex::measure_many`]).
+pub fn check_many(
+    inputs: &[InputColumn],
+    index: Option<&DomainIndex>,
+    raw: ArrayView2<f64>,
+) -> Vec<DomainVerdict> {
+    let scaled: Vec<Option<Vec<f64>>> = raw
+        .rows()
+        .into_iter()
+        .map(|row| {
+            inputs
+                .iter()
+                .zip(row.iter())
+                .map(|(inp, &v)| inp.scaling.scale(v))
+                .collect()
+        })
+        .collect();
+    let mut measures: Vec<Option<JointMeasure>> = vec![None; raw.nrows()];
+    if let Some(index) = index {
+        let d = index.reference().n_inputs;
+        let measurable: Vec<usize> = (0..raw.nrows())
+            .filter(|&i| scaled[i].as_ref().is_some_and(|s| s.len() == d))
+            .collect();
+        let queries = Array2::from_shape_fn((measurable.len(), d), |(j, c)| {
+            scaled[measurable[j]].as_ref().expect("measurable")[c]
+        });
+        for (i, m) in measurable.iter().zip(index.measure_many(queries.view())) {
+            measures[*i] = Some(m);
+        }
+    }
+    raw.rows()
+        .into_iter()
+        .zip(scaled)
+        .zip(measures)
+        .map(|((row, s), m)| verdict(inputs, index.map(DomainIndex::reference), row, s, m))
+        .collect()
+}
+
+/// The verdict on one row from its raw and scaled values (`None` when an
+/// input could not be scaled) and its joint-domain measure (`None` when
+/// the check could not run).
+fn verdict(
+    inputs: &[InputColumn],
+    reference: Option<&DomainReference>,
+    raw: ArrayView1<f64>,
+    scaled: Option<Vec<f64>>,
+    measure: Option<JointMeasure>,
+) -> DomainVerdict {
     let outside_range = range_excesses(inputs, raw);
     let mut notes: Vec<String> = outside_range.iter().map(range_note).collect();
     let mut in_domain = outside_range
         .iter()
         .all(|e| e.fraction <= DOMAIN_RANGE_SLACK);
-    let scaled: Option<Vec<f64>> = inputs
-        .iter()
-        .zip(raw.iter())
-        .map(|(inp, &v)| inp.scaling.scale(v))
-        .collect();
     let (mut distance_ratio, mut support) = (None, None);
-    match (reference, scaled) {
-        (None, _) => notes.push(
+    match (reference, scaled, measure) {
+        (None, _, _) => notes.push(
             "joint-domain check not run: the model file holds no training reference \
              (retrain with this version to get it)"
                 .into(),
         ),
-        (Some(_), None) => {
+        (Some(_), None, _) => {
             in_domain = false;
             notes.push(
                 "joint-domain check impossible: an input taken through its logarithm is at or below zero"
                     .into(),
             );
         }
-        (Some(r), Some(s)) if r.n_inputs == s.len() => {
-            let m = r.measure(&s);
+        (Some(r), Some(s), Some(m)) => {
             distance_ratio = Some(m.ratio);
             support = Some(m.support);
             if m.ratio > DOMAIN_DISTANCE_FACTOR {
@@ -588,7 +739,7 @@ pub fn check(
                 }
             }
         }
-        (Some(r), Some(s)) => notes.push(format!(
+        (Some(r), Some(s), None) => notes.push(format!(
             "joint-domain check not run: the stored reference has {} inputs, the model {}",
             r.n_inputs,
             s.len()
@@ -687,25 +838,105 @@ mod tests {
         }
     }
 
-    /// The four-at-a-time distances are those of the plain sum, bit for
-    /// bit, whatever the remainder of rows after the groups of four.
+    /// The measure of the plain pass: every row's distance summed input by
+    /// input, the support count and the k nearest by (distance, row).
+    fn measure_plainly(r: &DomainReference, scaled: &[f64]) -> JointMeasure {
+        let d = r.n_inputs;
+        let white: Vec<f64> = (0..d)
+            .map(|c| {
+                (0..d)
+                    .map(|i| (scaled[i] - r.mean[i]) * r.whitening[i * d + c])
+                    .sum()
+            })
+            .collect();
+        let mut all: Vec<(f64, usize)> = (0..r.n_rows())
+            .map(|i| (dist2(&white, r.row(i)), i))
+            .collect();
+        let r2 = r.reference_distance * r.reference_distance;
+        let support = all.iter().filter(|(d2, _)| *d2 <= r2).count();
+        all.sort_by(|a, b| a.0.total_cmp(&b.0).then(a.1.cmp(&b.1)));
+        let k = r.k.min(r.n_rows()).max(1);
+        let mut share = vec![0.0; d];
+        for &(_, i) in &all[..k] {
+            for (c, s) in share.iter_mut().enumerate() {
+                let gap = scaled[c] - r.scaled_rows[i * d + c];
+                *s += gap * gap;
+            }
+        }
+        let total: f64 = share.iter().sum();
+        if total > 0.0 {
+            share.iter_mut().for_each(|s| *s /= total);
+        }
+        JointMeasure {
+            ratio: all[k - 1].0.sqrt() / r.reference_distance,
+            support,
+            share,
+        }
+    }
+
+    /// The screened pass gives the plain pass's ratio, support and shares
+    /// bit for bit, queries measured together or one at a time: for k = 1,
+    /// 3 and 7, over references of 2 to 900 rows (some repeated, so that
+    /// distances tie) and 1 to 9 inputs, with queries inside, far outside,
+    /// at 10⁸ and on a training row, in more than one block.
     #[test]
-    fn distances_four_at_a_time_equal_the_plain_sum() {
+    fn screened_measure_equals_the_plain_pass() {
         use rand::{Rng, SeedableRng};
         let mut rng = rand_xoshiro::Xoshiro256PlusPlus::seed_from_u64(11);
-        for (n, d) in [(0, 3), (1, 1), (7, 8), (13, 5), (928, 8)] {
-            let mut rows: Vec<f64> = (0..n * d).map(|_| rng.random::<f64>() - 0.5).collect();
-            let q: Vec<f64> = (0..d).map(|_| rng.random::<f64>() - 0.5).collect();
-            // a training row equal to the query: distance zero, of the same sign
-            if n > 2 {
-                rows[2 * d..3 * d].copy_from_slice(&q);
+        for (n, d) in [(2, 1), (7, 2), (40, 3), (300, 8), (900, 9)] {
+            let mut x = Array2::from_shape_fn((n, d), |_| rng.random::<f64>() - 0.5);
+            // rows 3 and 4 a step either side of row 2: equal distances
+            if n > 4 {
+                let mid = x.row(2).to_owned();
+                x.row_mut(3).assign(&(&mid + 0.125));
+                x.row_mut(4).assign(&(&mid - 0.125));
             }
-            let all = dist2_all(&q, &rows);
-            assert_eq!(all.len(), n);
-            for (i, v) in all.iter().enumerate() {
-                let plain = dist2(&q, &rows[i * d..(i + 1) * d]);
-                assert_eq!(v.to_bits(), plain.to_bits(), "n = {n}, d = {d}, row {i}");
+            for k in [1, 3, 7] {
+                let r = DomainReference::build_with_k(x.view(), k).expect("reference");
+                let mut queries = Array2::from_shape_fn((DOMAIN_QUERY_BLOCK + 30, d), |_| {
+                    rng.random::<f64>() - 0.5
+                });
+                queries.row_mut(0).fill(2.0);
+                queries.row_mut(1).fill(1e8);
+                queries.row_mut(2).assign(&x.row(n / 2));
+                if n > 4 {
+                    queries.row_mut(3).assign(&x.row(2));
+                }
+                let together = r.index().measure_many(queries.view());
+                assert_eq!(together.len(), queries.nrows());
+                let bits = |m: &JointMeasure| {
+                    let mut b = vec![m.ratio.to_bits(), m.support as u64];
+                    b.extend(m.share.iter().map(|v| v.to_bits()));
+                    b
+                };
+                for (q, fast) in queries.rows().into_iter().zip(&together) {
+                    let q = q.to_vec();
+                    let plain = measure_plainly(&r, &q);
+                    assert_eq!(bits(fast), bits(&plain), "n {n} d {d} k {k} query {q:?}");
+                    assert_eq!(bits(&r.measure(&q)), bits(&plain), "one at a time");
+                }
             }
+        }
+    }
+
+    /// A table's verdicts checked together are those of each row checked
+    /// alone, notes and all.
+    #[test]
+    fn rows_checked_together_match_rows_checked_alone() {
+        use rand::{Rng, SeedableRng};
+        let mut rng = rand_xoshiro::Xoshiro256PlusPlus::seed_from_u64(12);
+        let x = Array2::from_shape_fn((120, 3), |_| rng.random::<f64>() - 0.5);
+        let r = DomainReference::build(x.view()).expect("reference");
+        let inputs = vec![
+            input("a", -0.5, 0.5),
+            input("b", -0.5, 0.5),
+            input("c", -0.5, 0.5),
+        ];
+        let raw = Array2::from_shape_fn((300, 3), |_| 1.6 * (rng.random::<f64>() - 0.5));
+        let together = check_many(&inputs, Some(&r.index()), raw.view());
+        assert!(together.iter().any(|v| v.in_domain) && together.iter().any(|v| !v.in_domain));
+        for (row, v) in raw.rows().into_iter().zip(&together) {
+            assert_eq!(v, &check(&inputs, Some(&r), row));
         }
     }
 

@@ -642,8 +642,8 @@ pub fn predictive(
     (y, var)
 }
 
-/// [`predictive`] with the posterior covariance factored, gᵀΣg by one
-/// triangular solve: for prediction of many rows in blocks.
+/// [`predictive`] with the posterior covariance factored, gᵀΣg as ‖Lᵀg‖²
+/// with Σ = L Lᵀ: for prediction of many rows in blocks.
 pub fn predictive_factored(
     arch: &Architecture,
     w: &[f64],
@@ -653,7 +653,7 @@ pub fn predictive_factored(
 ) -> (Array1<f64>, Array1<f64>) {
     let (y, jac) = arch.jacobian(w, x);
     let noise = 1.0 / beta;
-    let var = factor.quadratic_forms(jac) + noise;
+    let var = factor.quadratic_forms(jac.view()) + noise;
     (y, var)
 }
 

@@ -8,7 +8,7 @@
 
 mod domain;
 
-pub use domain::{range_check, DomainReport};
+pub use domain::{range_check, DomainGuard, DomainReport};
 
 use ndarray::Array2;
 use serde::Serialize;
@@ -250,13 +250,13 @@ impl Model {
             .iter()
             .map(|t| crate::domain::physical_bound(self, &t.name))
             .collect();
-        // the domain check costs one pass over the training rows per row:
-        // spread over the cores (the order of the output is kept)
-        use rayon::prelude::*;
-        (0..raw.nrows())
-            .into_par_iter()
-            .map(|i| {
-                let dom = self.domain_check(raw.row(i));
+        // the domain check costs one pass over the training rows per row;
+        // check_many spreads it over the cores
+        let verdicts = self.domain_guard().check_many(raw.view());
+        verdicts
+            .into_iter()
+            .enumerate()
+            .map(|(i, dom)| {
                 let estimates: Vec<Estimate> = per_target.iter().map(|e| e[i].clone()).collect();
                 let mut notes = dom.notes;
                 for ((t, b), e) in self.targets.iter().zip(&bounds).zip(&estimates) {
