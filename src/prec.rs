@@ -205,13 +205,14 @@ pub const DOMAIN_REFERENCE_SEED: u64 = 0x6d65_7474_6c65;
 pub const DOMAIN_QUERY_BLOCK: usize = 256;
 
 /// Bound on the rounding error of a squared distance screened as
-/// ‖q‖² + ‖r‖² − 2 q·r, relative to ‖q‖² + ‖r‖². The error of the two norms
-/// and the inner product over d inputs is at most (2d + 4)·u times that sum
-/// (u = 2⁻⁵³; inner-product bound γ_d = d·u / (1 − d·u), Higham 2002,
-/// *Accuracy and Stability of Numerical Algorithms*, 2nd ed., §3.1), so
+/// ‖q‖² + (‖r‖² − 2 q·r), relative to ‖q‖² + max ‖r‖² over the training
+/// rows. The norms and the inner product over d inputs, and the two sums,
+/// are off by at most (2d + 5)·u times that (u = 2⁻⁵³; inner-product bound
+/// γ_d = d·u / (1 − d·u), Higham 2002, *Accuracy and Stability of
+/// Numerical Algorithms*, 2nd ed., §3.1, with 2|q·r| ≤ ‖q‖² + ‖r‖²), so
 /// this bound holds for fewer than 400 000 inputs. It only widens the
-/// screen: every distance that decides a verdict is then summed exactly
-/// as before.
+/// screen: every distance that decides a verdict is then summed exactly as
+/// before.
 pub const DOMAIN_SCREEN_SLACK: f64 = 1e-10;
 
 /// Most EM steps of the gross-error share (committee::gross_errors). Each

@@ -42,8 +42,11 @@ use ndarray_linalg::{Cholesky, UPLO};
 
 /// Columns of Z = J L computed per matrix product in
 /// [`PosteriorFactor::quadratic_forms`]: narrower panels skip more of L's
-/// zero upper triangle, wider ones make longer products (48 was the
-/// fastest of 16, 32, 48, 64 and 128 on k = 61 … 131, bench engine_targets).
+/// zero upper triangle, wider ones make longer products. For 4096 rows and
+/// k = 81 … 131, panels of 32 or 64 columns took 1.3–2.7 ms, of 16 columns
+/// 1.7–3.5 ms and one full product 1.5–3.1 ms (2026-12-03, build machine);
+/// 48 lies between the two best. In the whole prediction bench, widths 16
+/// to 128 differed by less than the machine's scatter from run to run.
 pub const PANEL_COLUMNS: usize = 48;
 
 /// The posterior covariance of one network in the form its error bars are
