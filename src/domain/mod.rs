@@ -521,19 +521,27 @@ impl<'a> DomainIndex<'a> {
         // rows with hᵢ above this cannot count; NaN (a query beyond the
         // range of f64) screens nothing out: the plain path
         let keep_below = (q_norm + kth_h + slack).max(r2) - q_norm + slack;
-        let mut nearest = KNearest::new(k);
-        let mut support = 0;
-        for (i, hi) in h.iter().enumerate() {
-            if *hi > keep_below {
-                continue;
+        let pass = |keep_below: f64| {
+            let mut nearest = KNearest::new(k);
+            let mut support = 0;
+            for (i, hi) in h.iter().enumerate() {
+                if *hi > keep_below {
+                    continue;
+                }
+                let d2 = dist2(white, r.row(i));
+                if d2 <= r2 {
+                    support += 1;
+                }
+                nearest.offer(d2, i);
             }
-            let d2 = dist2(white, r.row(i));
-            if d2 <= r2 {
-                support += 1;
-            }
-            nearest.offer(d2, i);
+            (nearest.into_vec(), support)
+        };
+        let (mut nearest, mut support) = pass(keep_below);
+        if nearest.len() < k {
+            // the k rows the bound came from always pass; should rounding
+            // ever say otherwise, every row is summed
+            (nearest, support) = pass(f64::INFINITY);
         }
-        let nearest = nearest.into_vec();
         let dk = nearest[k - 1].0.sqrt();
         let mut share = vec![0.0; d];
         for &(_, i) in &nearest {
