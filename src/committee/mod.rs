@@ -25,12 +25,23 @@
 //! the held-out part ([`GrossErrorModel`]): measured values unrelated to the
 //! inputs, beside the Gaussian (docs/method.md §6b).
 
+mod assemble;
+mod by_size;
+mod candidates;
+mod choice;
 mod gross_errors;
 mod kriging;
 mod noise;
+mod noise_models;
 mod params;
-mod search;
+mod pipeline;
+mod refit;
+mod residual;
+mod split;
+#[cfg(test)]
+mod stage_fixture;
 mod tails;
+mod varying;
 
 #[cfg(test)]
 pub(crate) use gross_errors::scipy_reference as gross_errors_reference;
@@ -38,7 +49,7 @@ pub use gross_errors::{GrossErrorModel, GrossErrors};
 pub use kriging::{ResidualKriging, KRIGING_MAX_ROWS};
 pub use noise::NoiseModel;
 pub use params::{CheckedCommitteeParams, CommitteeParams, KrigingMode, NoiseMode};
-pub use search::train_committee;
+pub use pipeline::train_committee;
 pub use tails::{TailShape, ONE_SD_SHARE, TWO_SD_SHARE};
 
 use ndarray::{Array1, Array2, ArrayView2};
