@@ -40,6 +40,7 @@ pub mod predict;
 pub mod report;
 pub mod screen;
 pub mod units;
+pub mod validate;
 
 pub use error::{Error, Result};
 pub use model::Model;

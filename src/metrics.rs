@@ -37,12 +37,12 @@
 //! m ± q₉₅·s (q₆₈ = 1, q₉₅ = 2 for the Gaussian); `within_1sd` and
 //! `within_2sd` count m ± s and m ± 2s whatever the shape.
 
-use serde::Serialize;
+use serde::{Deserialize, Serialize};
 
 use crate::committee::{GrossErrors, TailShape, ONE_SD_SHARE, TWO_SD_SHARE};
 
 /// Evaluation of estimates against measurements.
-#[derive(Clone, Debug, PartialEq, Serialize)]
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
 pub struct Evaluation {
     /// Rows evaluated.
     pub n: usize,

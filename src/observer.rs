@@ -56,6 +56,18 @@ pub enum TrainEvent<'a> {
         /// Members to refit.
         n_members: usize,
     },
+    /// A cross-validation fold's training starts (its training events
+    /// follow).
+    FoldStarted {
+        /// Repeat, 1-based.
+        repeat: usize,
+        /// Repeats planned.
+        n_repeats: usize,
+        /// Fold, 1-based.
+        fold: usize,
+        /// Folds per repeat.
+        n_folds: usize,
+    },
     /// A target's committee is complete.
     TargetDone {
         /// Target trained.

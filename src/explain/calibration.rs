@@ -14,13 +14,13 @@
 //! for p = 10 %, 20 %, …, 90 %, 95 %, 99 %.
 
 use crate::committee::TailShape;
-use serde::Serialize;
+use serde::{Deserialize, Serialize};
 
 /// The nominal levels of the calibration curve.
 pub const CALIBRATION_LEVELS: [f64; 11] = [0.1, 0.2, 0.3, 0.4, 0.5, 0.6, 0.7, 0.8, 0.9, 0.95, 0.99];
 
 /// One point of the calibration curve.
-#[derive(Clone, Debug, PartialEq, Serialize)]
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
 pub struct CalibrationPoint {
     /// Nominal coverage p.
     pub nominal: f64,

@@ -13,7 +13,10 @@ mod summary;
 
 pub use calibration::{calibration_curve, CalibrationPoint, CALIBRATION_LEVELS};
 pub use compare::{compare, Comparison, Disagreement, TargetComparison};
-pub use relevance::{relevance, RELEVANCE_MEANING};
+pub use relevance::{
+    member_relevance, relevance, relevance_over, relevance_with_spread, RelevanceRange,
+    RELEVANCE_MEANING,
+};
 pub use summary::{
     noise_profile, replicate_scatter, summarise_training, NoiseBin, NoiseProfile, NoiseSpread,
     ReplicateScatter, TrainingSummary, PROFILE_BINS,

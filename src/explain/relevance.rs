@@ -34,17 +34,35 @@
 //! tanh units (with large output weights), so a linear input may rank below
 //! a curved one whose effect on the target is smaller.
 
+use serde::{Deserialize, Serialize};
+
 use crate::committee::Committee;
 use crate::evidence::GroupKind;
 
 /// The sentence shown beside every relevance table and chart.
 pub const RELEVANCE_MEANING: &str = "Relevance is the prior weight size σ_w = α^−½ the evidence allowed each input (most relevant = 1): how much the networks use the input to fit the data, on inputs scaled to their training range. It is not a causal effect, not a slope and not a sign; correlated inputs can share or swap relevance, and a straight-line effect can rank below a smaller curved one.";
 
-/// Relevance R_i of each input (model input order), most relevant = 1;
-/// `None` when the members were trained without ARD (one α for all inputs).
-pub fn relevance(committee: &Committee) -> Option<Vec<f64>> {
+/// Relevance of one input with its spread: the committee's value and the
+/// smallest and largest over the members (or over cross-validation folds),
+/// on the same scale.
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+pub struct RelevanceRange {
+    /// Input name.
+    pub input: String,
+    /// Relevance (committee, or median over folds).
+    pub value: f64,
+    /// Smallest over the members (folds).
+    pub low: f64,
+    /// Largest over the members (folds).
+    pub high: f64,
+}
+
+/// Per member m the values r_mi = σ_w,i / max_j σ_w,j (model input order);
+/// `None` when the members were trained without ARD (one α for all
+/// inputs).
+pub fn member_relevance(committee: &Committee) -> Option<Vec<Vec<f64>>> {
     let d = committee.n_inputs;
-    let mut mean = vec![0.0; d];
+    let mut out = Vec::with_capacity(committee.members.len());
     for m in &committee.members {
         let mut sigma = vec![f64::NAN; d];
         for (kind, alpha) in m.groups.iter().zip(&m.alpha) {
@@ -60,12 +78,74 @@ pub fn relevance(committee: &Committee) -> Option<Vec<f64>> {
         {
             return None;
         }
-        for (acc, s) in mean.iter_mut().zip(&sigma) {
-            *acc += s / top;
+        out.push(sigma.iter().map(|s| s / top).collect());
+    }
+    Some(out)
+}
+
+/// Relevance R_i of each input (model input order), most relevant = 1;
+/// `None` when the members were trained without ARD (one α for all inputs).
+pub fn relevance(committee: &Committee) -> Option<Vec<f64>> {
+    relevance_with_spread(committee).map(|v| v.into_iter().map(|(r, _, _)| r).collect())
+}
+
+/// Per input (R_i, low_i, high_i): the relevance and the smallest and
+/// largest member value r_mi / max_j r̄_j, on the committee's scale (so the
+/// range holds R_i, the members' mean on that scale). A wide range says the
+/// members lean on the input differently: its rank is not settled.
+pub fn relevance_with_spread(committee: &Committee) -> Option<Vec<(f64, f64, f64)>> {
+    let members = member_relevance(committee)?;
+    let d = committee.n_inputs;
+    let mut mean = vec![0.0; d];
+    for r in &members {
+        for (acc, v) in mean.iter_mut().zip(r) {
+            *acc += v;
         }
     }
     let top = mean.iter().copied().fold(f64::NAN, f64::max);
-    (top > 0.0).then(|| mean.iter().map(|r| r / top).collect())
+    if top.partial_cmp(&0.0) != Some(std::cmp::Ordering::Greater) {
+        return None;
+    }
+    // mean/top = r̄_i / max_j r̄_j: the members' count cancels
+    Some(
+        (0..d)
+            .map(|i| {
+                let (lo, hi) = members
+                    .iter()
+                    .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), r| {
+                        (a.min(r[i]), b.max(r[i]))
+                    });
+                let scale = members.len() as f64 / top;
+                (mean[i] / top, lo * scale, hi * scale)
+            })
+            .collect(),
+    )
+}
+
+/// Median, smallest and largest of each input's relevance over several
+/// committees (the folds of a cross-validation), each normalised to its
+/// own most relevant input = 1.
+pub fn relevance_over(fits: &[Vec<f64>]) -> Vec<(f64, f64, f64)> {
+    let d = fits.first().map_or(0, |f| f.len());
+    (0..d)
+        .map(|i| {
+            let mut v: Vec<f64> = fits.iter().filter_map(|f| f.get(i).copied()).collect();
+            v.sort_by(f64::total_cmp);
+            let n = v.len();
+            let median = if n == 0 {
+                f64::NAN
+            } else if n % 2 == 1 {
+                v[n / 2]
+            } else {
+                0.5 * (v[n / 2 - 1] + v[n / 2])
+            };
+            (
+                median,
+                v.first().copied().unwrap_or(f64::NAN),
+                v.last().copied().unwrap_or(f64::NAN),
+            )
+        })
+        .collect()
 }
 
 #[cfg(test)]
@@ -82,5 +162,19 @@ mod tests {
         let r = relevance(&c).expect("ard");
         assert!((r[0] - 1.0).abs() < 1e-12 && (r[1] - 1.0).abs() < 1e-12);
         assert!((r[2] - 0.1 / 0.75).abs() < 1e-12);
+        // spread by hand: members' r on the committee scale r/0.75:
+        // input 0: 1/0.75 and 0.5/0.75 → (0.6667, 1.3333)
+        let s = relevance_with_spread(&c).expect("ard");
+        assert!((s[0].1 - 0.5 / 0.75).abs() < 1e-12 && (s[0].2 - 1.0 / 0.75).abs() < 1e-12);
+        assert!((s[2].1 - 0.1 / 0.75).abs() < 1e-12 && (s[2].2 - 0.1 / 0.75).abs() < 1e-12);
+        // the range holds the committee's value
+        assert!(s.iter().all(|(r, lo, hi)| lo <= r && r <= hi));
+    }
+
+    #[test]
+    fn over_folds_median_and_range() {
+        let v = relevance_over(&[vec![1.0, 0.2], vec![0.8, 1.0], vec![1.0, 0.5]]);
+        assert_eq!(v[0], (1.0, 0.8, 1.0));
+        assert_eq!(v[1], (0.5, 0.2, 1.0));
     }
 }
