@@ -15,6 +15,7 @@ mod report;
 mod screen;
 mod sweep;
 mod train;
+mod validate;
 
 use clap::{Parser, Subcommand};
 
@@ -81,6 +82,8 @@ enum Command {
     Sweep(sweep::SweepArgs),
     // about and long_about come from the Args struct: a doc comment here would replace them
     Transition(sweep::TransitionArgs),
+    // about and long_about come from the Args struct: a doc comment here would replace them
+    Validate(validate::ValidateArgs),
 }
 
 /// Run the parsed command.
@@ -102,5 +105,6 @@ pub fn run(cli: Cli) -> anyhow::Result<()> {
         Command::Design(a) => design::run(a),
         Command::Sweep(a) => sweep::run(a),
         Command::Transition(a) => sweep::run_transition(a),
+        Command::Validate(a) => validate::run(a),
     }
 }

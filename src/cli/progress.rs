@@ -15,6 +15,8 @@ pub const SHOW_AFTER: Duration = Duration::from_secs(2);
 /// Draws training progress.
 pub struct TrainProgress {
     bar: Mutex<Option<ProgressBar>>,
+    /// "fold 3/10 " while cross-validating, shown before the target.
+    fold: Mutex<String>,
     enabled: bool,
     started: Instant,
 }
@@ -24,6 +26,7 @@ impl TrainProgress {
     pub fn new(quiet: bool) -> Self {
         TrainProgress {
             bar: Mutex::new(None),
+            fold: Mutex::new(String::new()),
             enabled: !quiet && std::io::stderr().is_terminal(),
             started: Instant::now(),
         }
@@ -67,7 +70,8 @@ impl TrainObserver for TrainProgress {
                     .unwrap_or_else(|_| ProgressStyle::default_bar())
                     .progress_chars("=> "),
                 );
-                bar.set_prefix(target.to_string());
+                let fold = self.fold.lock().unwrap_or_else(|p| p.into_inner());
+                bar.set_prefix(format!("{fold}{target}"));
                 bar.enable_steady_tick(Duration::from_millis(250));
                 *guard = Some(bar);
             }
@@ -107,6 +111,19 @@ impl TrainObserver for TrainProgress {
                 if let Some(bar) = guard.as_ref() {
                     bar.set_message(format!("refitting {n_members} members on all rows"));
                 }
+            }
+            TrainEvent::FoldStarted {
+                repeat,
+                n_repeats,
+                fold,
+                n_folds,
+            } => {
+                let mut f = self.fold.lock().unwrap_or_else(|p| p.into_inner());
+                *f = if *n_repeats > 1 {
+                    format!("repeat {repeat}/{n_repeats} fold {fold}/{n_folds} ")
+                } else {
+                    format!("fold {fold}/{n_folds} ")
+                };
             }
             TrainEvent::TargetDone { .. } => {
                 if let Some(bar) = guard.take() {

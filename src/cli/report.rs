@@ -22,7 +22,8 @@ with the caution that estimates support, never replace, the qualification tests 
 code requires.\n\n\
 --data is a table with measured values not used in training (its rows are the held-out rows). \
 --training-data is the model's own training table; it is checked against the fingerprint the \
-model records, and its rows are drawn as training rows. Either, both or neither may be given.\n\n\
+model records, and its rows are drawn as training rows. Either, both or neither may be given. --validation adds the cross-validation \
+written by `mettle validate --out`.\n\n\
 Example:\n  mettle report --model uts.json --data held_back.csv --training-data welds.csv --out uts_report.html"
 )]
 pub struct ReportArgs {
@@ -35,6 +36,10 @@ pub struct ReportArgs {
     /// The model's training table (checked against its fingerprint).
     #[arg(long, value_name = "FILE")]
     training_data: Option<PathBuf>,
+    /// A cross-validation written by `mettle validate --out FILE.json`: shown in a section of
+    /// its own (figures with standard errors, relevance over the folds, out-of-fold estimates).
+    #[arg(long, value_name = "VALIDATION.json")]
+    validation: Option<PathBuf>,
     /// Where to write the report (HTML, written atomically).
     #[arg(long, value_name = "REPORT.html")]
     out: PathBuf,
@@ -47,6 +52,11 @@ pub fn run(a: ReportArgs) -> anyhow::Result<()> {
         check_training_data(&model, t)?;
     }
     let data = a.data.as_deref().map(Table::read).transpose()?;
+    let validation = a
+        .validation
+        .as_deref()
+        .map(super::validate::load)
+        .transpose()?;
     let name = a.model.file_name().map_or_else(
         || a.model.display().to_string(),
         |f| f.to_string_lossy().into_owned(),
@@ -57,6 +67,7 @@ pub fn run(a: ReportArgs) -> anyhow::Result<()> {
             model_name: &name,
             training: training.as_ref(),
             data: data.as_ref(),
+            validation: validation.as_ref(),
         },
     )?;
     mettle::data::write_atomic(&a.out, html.as_bytes())

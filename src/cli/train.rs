@@ -34,9 +34,27 @@ Examples:\n  mettle train --data welds.csv --target uts_mpa --out uts.json --see
 mettle train --data welds.csv --schema welds.toml --out welds_model.json"
 )]
 pub struct TrainArgs {
+    #[command(flatten)]
+    pub columns: TrainColumns,
+    /// Where to write the model (JSON). Written atomically: a failed run leaves an older file intact.
+    #[arg(long, value_name = "MODEL.json")]
+    out: PathBuf,
+    #[command(flatten)]
+    pub settings: TrainSettings,
+    /// Record the wall-clock training time in the model file (the file then differs between runs).
+    #[arg(long)]
+    record_time: bool,
+    /// No progress display.
+    #[arg(long, short)]
+    quiet: bool,
+}
+
+/// The table and the columns to learn from: shared by `train` and `validate`.
+#[derive(Args, Debug)]
+pub struct TrainColumns {
     /// Table of test records (CSV with a header row, or .parquet).
     #[arg(long, value_name = "FILE")]
-    data: PathBuf,
+    pub data: PathBuf,
     /// Target column(s) to learn; repeat or separate with commas for one committee per target.
     #[arg(
         long,
@@ -45,7 +63,7 @@ pub struct TrainArgs {
         required_unless_present = "schema",
         conflicts_with = "schema"
     )]
-    target: Vec<String>,
+    pub target: Vec<String>,
     /// Input columns, comma-separated [default: every other numeric column].
     #[arg(
         long,
@@ -53,36 +71,38 @@ pub struct TrainArgs {
         value_delimiter = ',',
         conflicts_with = "schema"
     )]
-    inputs: Option<Vec<String>>,
+    pub inputs: Option<Vec<String>>,
     /// Schema file (TOML) naming each column's role, unit, bounds, target transform and the derived inputs.
     #[arg(long, value_name = "SCHEMA.toml")]
-    schema: Option<PathBuf>,
+    pub schema: Option<PathBuf>,
     /// With --schema: leave out rows that lack an input value (they are listed) instead of stopping.
     #[arg(long, requires = "schema")]
-    drop_incomplete_rows: bool,
-    /// Where to write the model (JSON). Written atomically: a failed run leaves an older file intact.
-    #[arg(long, value_name = "MODEL.json")]
-    out: PathBuf,
+    pub drop_incomplete_rows: bool,
+}
+
+/// How the committees are trained: shared by `train` and `validate`.
+#[derive(Args, Debug)]
+pub struct TrainSettings {
     /// Hidden units to try: MIN..MAX or N; 0 trains the linear model.
     #[arg(long, value_name = "MIN..MAX", default_value = "1..10")]
-    hidden: String,
+    pub hidden: String,
     /// Random starts per hidden-unit count.
     #[arg(long, value_name = "N", default_value_t = 4)]
-    restarts: usize,
+    pub restarts: usize,
     /// Seed of every random choice; the same data, options and seed give a byte-identical model.
     #[arg(long, value_name = "N", default_value_t = 0)]
-    seed: u64,
+    pub seed: u64,
     /// Share of the training rows held out to rank candidates (0.05 to 0.5).
     #[arg(long, value_name = "F", default_value_t = 0.2)]
-    holdout: f64,
+    pub holdout: f64,
     /// Largest committee considered.
     #[arg(long, value_name = "N", default_value_t = 16)]
-    max_members: usize,
+    pub max_members: usize,
     /// Noise model: `constant` (one noise level), `varying` (a noise level that varies with the
     /// inputs, learnt by a second small network per member), or `auto` (whichever gives the lower
     /// held-out NLPD inside the training data).
     #[arg(long, value_enum, value_name = "MODE", default_value_t = NoiseArg::Auto)]
-    noise: NoiseArg,
+    pub noise: NoiseArg,
     /// Kriging of the residuals: `on` adds a Gaussian process on what the committee leaves
     /// unexplained (it follows rows that share a residual, such as one mix tested at several
     /// ages, and returns to the committee away from the data), `off` keeps the committee alone,
@@ -91,7 +111,7 @@ pub struct TrainArgs {
     /// makes prediction slower (its cost grows with the training rows, at most 2000 of which
     /// enter it).
     #[arg(long, value_enum, value_name = "MODE", default_value_t = KrigingArg::Auto)]
-    kriging: KrigingArg,
+    pub kriging: KrigingArg,
     /// Gross errors: `on` estimates, on the held-out rows inside the training data, the share of
     /// measured values that no smooth function of the inputs explains (copying slips, a
     /// specimen from another heat) and keeps it beside the Gaussian error bar: the sd and
@@ -101,7 +121,7 @@ pub struct TrainArgs {
     /// look like gross errors neither pull the estimates nor widen everyone's error bar.
     /// `off` keeps the Gaussian alone.
     #[arg(long, value_enum, value_name = "MODE", default_value_t = Switch::On)]
-    gross_errors: Switch,
+    pub gross_errors: Switch,
     /// Heavy tails: `on` lets the held-out rows inside the training data choose the shape of the
     /// scatter about an estimate — the Gaussian or a Student-t with 3 to 50 degrees of freedom and
     /// the same sd. Test archives are often more peaked and longer-tailed than a Gaussian: the
@@ -109,29 +129,23 @@ pub struct TrainArgs {
     /// density to values far out. The sd is unchanged; intervals, probabilities of meeting a
     /// requirement and `evaluate` use the chosen shape. `off` keeps the Gaussian.
     #[arg(long, value_enum, value_name = "MODE", default_value_t = Switch::On)]
-    heavy_tails: Switch,
+    pub heavy_tails: Switch,
     /// With noise that varies with the inputs, refit the mean networks with each row weighted by
     /// its fitted noise precision (the efficient estimate when the noise model is right). By
     /// default the means fitted with every row alike are kept and the noise networks describe
     /// their residuals: reweighting gives up accuracy where the fit is poorest, because the
     /// residuals there hold the misfit as well as the scatter (docs/method.md §5).
     #[arg(long)]
-    reweight_mean: bool,
+    pub reweight_mean: bool,
     /// Do not widen the hidden-unit range when the best candidates sit at its top.
     #[arg(long)]
-    no_widen: bool,
+    pub no_widen: bool,
     /// One regularisation constant for all input weights instead of one per input (no ARD).
     #[arg(long)]
-    no_ard: bool,
+    pub no_ard: bool,
     /// Never model an input through its logarithm (by default strictly positive, strongly skewed inputs are).
     #[arg(long)]
-    no_log_inputs: bool,
-    /// Record the wall-clock training time in the model file (the file then differs between runs).
-    #[arg(long)]
-    record_time: bool,
-    /// No progress display.
-    #[arg(long, short)]
-    quiet: bool,
+    pub no_log_inputs: bool,
 }
 
 /// `on` / `off` values.
@@ -208,47 +222,78 @@ pub fn parse_range(s: &str) -> Result<(usize, usize), UsageError> {
     }
 }
 
+impl TrainSettings {
+    /// The committee settings these options ask for.
+    ///
+    /// # Errors
+    /// A malformed `--hidden`.
+    pub fn params(&self) -> Result<CommitteeParams, UsageError> {
+        let (lo, hi) = parse_range(&self.hidden)?;
+        Ok(CommitteeParams::default()
+            .hidden(lo, hi)
+            .restarts(self.restarts)
+            .seed(self.seed)
+            .holdout_fraction(self.holdout)
+            .max_members(self.max_members)
+            .widen(!self.no_widen)
+            .noise(self.noise.into())
+            .kriging(self.kriging.into())
+            .gross_errors(self.gross_errors == Switch::On)
+            .heavy_tails(self.heavy_tails == Switch::On)
+            .reweight_mean(self.reweight_mean)
+            .ard(!self.no_ard))
+    }
+}
+
+/// How `train` (and each fold of `validate`) trains: the schema with its
+/// options, or the named columns.
+pub enum Plan {
+    /// Through a schema: the schema, its file name, the options.
+    Schema(Schema, String, SchemaTrainOptions),
+    /// Named columns.
+    Columns(TrainSpec),
+}
+
+impl Plan {
+    /// The plan the columns and settings ask for (reads the schema file).
+    ///
+    /// # Errors
+    /// A malformed `--hidden`; an unreadable schema.
+    pub fn new(c: &TrainColumns, s: &TrainSettings) -> anyhow::Result<Plan> {
+        let params = s.params()?;
+        Ok(match &c.schema {
+            Some(path) => Plan::Schema(
+                Schema::load(path)?,
+                path.display().to_string(),
+                SchemaTrainOptions {
+                    params,
+                    auto_log_inputs: !s.no_log_inputs,
+                    drop_incomplete_rows: c.drop_incomplete_rows,
+                },
+            ),
+            None => Plan::Columns(TrainSpec {
+                targets: c.target.clone(),
+                inputs: c.inputs.clone(),
+                auto_log_inputs: !s.no_log_inputs,
+                params,
+            }),
+        })
+    }
+}
+
 pub fn run(a: TrainArgs) -> anyhow::Result<()> {
-    let (lo, hi) = parse_range(&a.hidden)?;
-    let table = Table::read(&a.data)?;
-    let params = CommitteeParams::default()
-        .hidden(lo, hi)
-        .restarts(a.restarts)
-        .seed(a.seed)
-        .holdout_fraction(a.holdout)
-        .max_members(a.max_members)
-        .widen(!a.no_widen)
-        .noise(a.noise.into())
-        .kriging(a.kriging.into())
-        .gross_errors(a.gross_errors == Switch::On)
-        .heavy_tails(a.heavy_tails == Switch::On)
-        .reweight_mean(a.reweight_mean)
-        .ard(!a.no_ard);
+    let table = Table::read(&a.columns.data)?;
+    let plan = Plan::new(&a.columns, &a.settings)?;
     let progress = TrainProgress::new(a.quiet);
     let started = Instant::now();
-    let (result, report) = match &a.schema {
-        Some(path) => {
-            let schema = Schema::load(path)?;
-            let opts = SchemaTrainOptions {
-                params,
-                auto_log_inputs: !a.no_log_inputs,
-                drop_incomplete_rows: a.drop_incomplete_rows,
-            };
-            let name = path.display().to_string();
-            match Model::train_with_schema(&table, &schema, &name, &opts, &progress) {
+    let (result, report) = match &plan {
+        Plan::Schema(schema, name, opts) => {
+            match Model::train_with_schema(&table, schema, name, opts, &progress) {
                 Ok((m, r)) => (Ok(m), Some(r)),
                 Err(e) => (Err(e), None),
             }
         }
-        None => {
-            let spec = TrainSpec {
-                targets: a.target.clone(),
-                inputs: a.inputs.clone(),
-                auto_log_inputs: !a.no_log_inputs,
-                params,
-            };
-            (Model::train(&table, &spec, &progress), None)
-        }
+        Plan::Columns(spec) => (Model::train(&table, spec, &progress), None),
     };
     progress.finish();
     let mut model = result?;
@@ -260,7 +305,7 @@ pub fn run(a: TrainArgs) -> anyhow::Result<()> {
         .save(&a.out)
         .with_context(|| format!("saving the model to {}", a.out.display()))?;
     if let Some(r) = &report {
-        print_schema_report(r, &a.data);
+        print_schema_report(r, &a.columns.data);
     }
     if !a.quiet {
         for s in &model.set_aside {

@@ -16,6 +16,7 @@
 //! which the report then says.
 
 pub mod plot;
+pub mod validation;
 
 use crate::data::Table;
 use crate::error::Result;
@@ -54,6 +55,8 @@ pub struct ReportInputs<'a> {
     pub training: Option<&'a Table>,
     /// A table to evaluate the model on.
     pub data: Option<&'a Table>,
+    /// A cross-validation (`mettle validate`) to show in its own section.
+    pub validation: Option<&'a crate::validate::Validation>,
 }
 
 /// HTML text escaping for element content and attribute values.
@@ -778,6 +781,9 @@ pub fn report_html(model: &Model, inputs: &ReportInputs<'_>) -> Result<String> {
     h.push_str(&est);
     h.push_str(&cal);
     h.push_str(&res);
+    if let Some(v) = inputs.validation {
+        h.push_str(&validation::section(v)?);
+    }
     h.push_str(READING);
     h.push_str("</body>\n</html>\n");
     Ok(h)

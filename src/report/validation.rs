@@ -1,0 +1,149 @@
+//! The cross-validation section of the report and the chart of
+//! out-of-fold estimates against measured values (also written by
+//! `mettle validate --svg`).
+
+use super::plot::{padded, xy_svg, Line, Mark, Points, XyChart, BLUE, GREY};
+use super::{esc, figure, table};
+use crate::error::Result;
+use crate::validate::{Figure, TargetValidation, Validation};
+
+/// `value ± se` with four significant figures.
+pub fn with_se(f: &Figure) -> String {
+    format!("{} ± {}", sig(f.value), sig(f.se))
+}
+
+fn sig(v: f64) -> String {
+    if !v.is_finite() {
+        return v.to_string();
+    }
+    let a = v.abs();
+    if a != 0.0 && !(1e-3..1e6).contains(&a) {
+        format!("{v:.3e}")
+    } else if a >= 100.0 {
+        format!("{v:.1}")
+    } else {
+        format!("{v:.4}")
+    }
+}
+
+/// Estimated against measured for the out-of-fold rows of the first repeat
+/// (each row once), bars the central 95 % intervals.
+///
+/// # Errors
+/// [`crate::Error::Plot`].
+pub fn out_of_fold_svg(t: &TargetValidation) -> Result<String> {
+    let rows: Vec<_> = t.rows.iter().filter(|r| r.repeat == 1).collect();
+    let (lo, hi) = padded(
+        rows.iter()
+            .flat_map(|r| [r.measured, r.lo95, r.hi95].into_iter()),
+    );
+    let chart = XyChart {
+        title: format!("Out-of-fold estimates against measured, {}", t.target),
+        x_label: format!("measured {}", t.label),
+        y_label: format!("estimated {}", t.label),
+        points: vec![Points {
+            label: "out-of-fold rows (95 % interval)".into(),
+            xy: rows.iter().map(|r| (r.measured, r.mean)).collect(),
+            y_err: rows.iter().map(|r| (r.lo95, r.hi95)).collect(),
+            mark: Mark::Circle,
+            colour: BLUE,
+        }],
+        lines: vec![Line {
+            label: Some("estimate = measured".into()),
+            xy: vec![(lo, lo), (hi, hi)],
+            colour: GREY,
+        }],
+        x_range: Some((lo, hi)),
+        y_range: Some((lo, hi)),
+        ..Default::default()
+    };
+    xy_svg(&chart)
+}
+
+/// The report section: settings, the figures with their standard errors,
+/// the relevance range over folds and the chart, per target.
+///
+/// # Errors
+/// [`crate::Error::Plot`].
+pub fn section(v: &Validation) -> Result<String> {
+    let mut h = String::from("<section id=\"validation\">\n<h2>Cross-validation</h2>\n");
+    h.push_str(&format!(
+        "<p>{} rows of {} in {} folds{}{}, seed {}: each fold's model was trained as <code>train</code> trains on the other folds and estimated the rows it never saw. ± is the standard error over folds (folds share training rows, so it is if anything too small).</p>\n",
+        v.n_rows,
+        esc(&v.data_file),
+        v.n_folds,
+        if v.n_repeats > 1 { format!(", repeated {} times", v.n_repeats) } else { String::new() },
+        v.group.as_ref().map_or(String::new(), |g| format!(
+            ", rows with the same '{}' kept in one fold ({} groups)",
+            esc(g),
+            v.n_groups
+        )),
+        v.seed
+    ));
+    let rows: Vec<Vec<String>> = v
+        .targets
+        .iter()
+        .map(|t| {
+            vec![
+                t.target.clone(),
+                t.n.to_string(),
+                with_se(&t.rmse),
+                with_se(&t.mae),
+                with_se(&t.r2),
+                with_se(&t.nlpd),
+                with_se(&t.coverage_68),
+                with_se(&t.coverage_95),
+            ]
+        })
+        .collect();
+    h.push_str(&table(
+        &[
+            "target",
+            "n",
+            "rmse",
+            "mae",
+            "r2",
+            "nlpd",
+            "coverage_68",
+            "coverage_95",
+        ],
+        &rows,
+        Some("validation-figures"),
+    ));
+    for t in &v.targets {
+        if let Some(rel) = &t.relevance {
+            let mut ranked = rel.clone();
+            ranked.sort_by(|a, b| b.value.total_cmp(&a.value));
+            let body: Vec<Vec<String>> = ranked
+                .iter()
+                .map(|r| {
+                    vec![
+                        r.input.clone(),
+                        format!("{:.2}", r.value),
+                        format!("{:.2} to {:.2}", r.low, r.high),
+                    ]
+                })
+                .collect();
+            h.push_str(&format!(
+                "<h3>{}: relevance over the folds</h3>\n",
+                esc(&t.target)
+            ));
+            h.push_str(&table(
+                &["input", "median", "range over folds"],
+                &body,
+                None,
+            ));
+            h.push_str(&format!(
+                "<p class=\"note\">{}</p>\n",
+                esc(crate::explain::RELEVANCE_MEANING)
+            ));
+        }
+        h.push_str(&figure(
+            &format!("fig-validation-{}", super::id_part(&t.target)),
+            &out_of_fold_svg(t)?,
+            "Each mark is one row estimated by the fold model that never saw it: measured across, estimate up, the bar its central 95 % interval. This is what to expect on new heats like these; the estimates on training rows are optimistic.",
+        ));
+    }
+    h.push_str("</section>\n");
+    Ok(h)
+}
