@@ -249,3 +249,8 @@ pub const TAIL_SHAPE_PENALTY_NATS: f64 = 1.0;
 /// model: a row is never weighted out entirely, so that ln r_n and the
 /// weighted Hessian stay finite.
 pub const RESPONSIBILITY_FLOOR: f64 = 1e-9;
+
+/// A paired difference between two models (compare) is called shown when
+/// it exceeds this many standard errors: about the two-sided 95 % level of
+/// a normal (common practice, no source).
+pub const PAIRED_SHOWN_SE: f64 = 2.0;

@@ -5,6 +5,7 @@ use std::path::PathBuf;
 use clap::Args;
 use mettle::data::Table;
 use mettle::explain::{compare, Comparison};
+use mettle::prec::PAIRED_SHOWN_SE;
 use mettle::Model;
 
 use super::evaluate::EvalFormat;
@@ -17,12 +18,16 @@ use super::output::{aligned, emit, num};
     long_about = "Compare an old and a new model (for instance before and after retraining) on the \
 same held-out table.\n\n\
 For each target both models estimate: rmse, mae, r2, nlpd and the coverages side by side; the \
+paired differences new − old of RMSE and NLPD on the rows both estimate, with their standard \
+errors (paired t for NLPD, delta method for RMSE) and a verdict: better or worse by so much, or \
+no difference this table can show (within 2 standard errors; a small table rarely shows one); the \
 rows where the two estimates differ by more than their combined error bars (the 95 % interval \
 half-widths added in quadrature); and what changed in the training: fingerprint, file, row \
 counts, inputs added or removed, input and target ranges, settings. The last line counts every \
-difference found: a model compared with itself has none.\n\n\
+difference found, and says how many of each kind and how many rows are left out of the listing: a \
+model compared with itself has none.\n\n\
 JSON output: an object with n_rows, targets (each with target, old, new, metric_changes, \
-disagreements), training_changes and n_differences.\n\n\
+disagreements, paired: n, rmse and nlpd each with old, new, difference, se, t), training_changes and n_differences.\n\n\
 Example:\n  mettle compare --old uts_2024.json --new uts_2025.json --data held_back.csv"
 )]
 pub struct CompareArgs {
@@ -55,15 +60,16 @@ fn text(c: &Comparison) -> String {
             .map(|x| x.to_string())
             .collect();
         let rows: Vec<Vec<String>> = match (&t.old, &t.new) {
-            (Some(o), Some(n)) => std::iter::once(("n", o.n as f64, n.n as f64))
-                .chain(
-                    o.named()
-                        .into_iter()
-                        .zip(n.named())
-                        .map(|((k, a), (_, b))| (k, a, b)),
-                )
-                .map(|(k, a, b)| vec![k.to_string(), num(a), num(b)])
-                .collect(),
+            (Some(o), Some(n)) => {
+                std::iter::once(vec!["n".to_string(), o.n.to_string(), n.n.to_string()])
+                    .chain(
+                        o.named()
+                            .into_iter()
+                            .zip(n.named())
+                            .map(|((k, a), (_, b))| vec![k.to_string(), num(a), num(b)]),
+                    )
+                    .collect()
+            }
             _ => vec![vec![
                 "(no measured rows)".into(),
                 String::new(),
@@ -71,6 +77,14 @@ fn text(c: &Comparison) -> String {
             ]],
         };
         s += &aligned(&h, &rows);
+        if let Some(p) = &t.paired {
+            s += &format!(
+                "paired on the {} row(s) both estimate (± one standard error; a difference is shown beyond {PAIRED_SHOWN_SE} SE):\n  {}\n  {}\n",
+                p.n,
+                p.rmse.verdict("RMSE", ""),
+                p.nlpd.verdict("NLPD", " nats per row")
+            );
+        }
         s += &format!(
             "{} row(s) where the estimates differ by more than their combined 95 % error bars\n",
             t.disagreements.len()
@@ -109,7 +123,23 @@ fn text(c: &Comparison) -> String {
             s += &format!("  {ch}\n");
         }
     }
-    s += &format!("{} difference(s) in all\n", c.n_differences);
+    let metrics: usize = c.targets.iter().map(|t| t.metric_changes.len()).sum();
+    let rows: usize = c.targets.iter().map(|t| t.disagreements.len()).sum();
+    let listed: usize = c
+        .targets
+        .iter()
+        .map(|t| t.disagreements.len().min(ROWS_SHOWN))
+        .sum();
+    s += &format!(
+        "{} difference(s) in all: {} training change(s) (listed), {metrics} metric value(s) that changed (in the tables), {rows} row(s) of disagreement ({})\n",
+        c.n_differences,
+        c.training_changes.len(),
+        if listed == rows {
+            "all listed".to_string()
+        } else {
+            format!("{listed} listed, {} left out", rows - listed)
+        }
+    );
     s
 }
 

@@ -17,6 +17,7 @@
 
 use serde::Serialize;
 
+use super::paired::{paired, PairedComparison};
 use super::{estimate_rows, TargetRows};
 use crate::data::Table;
 use crate::error::Result;
@@ -53,6 +54,9 @@ pub struct TargetComparison {
     pub metric_changes: Vec<(String, f64, f64)>,
     /// Rows where the estimates disagree beyond their error bars.
     pub disagreements: Vec<Disagreement>,
+    /// RMSE and NLPD differences on the rows both estimate, with their
+    /// standard errors (`None` without such rows).
+    pub paired: Option<PairedComparison>,
 }
 
 /// The comparison of two models.
@@ -107,6 +111,22 @@ fn disagreements(old: &TargetRows, new: &TargetRows) -> Vec<Disagreement> {
         .collect()
 }
 
+/// The paired comparison on the rows both models estimate.
+fn paired_rows(old: &TargetRows, new: &TargetRows) -> Option<PairedComparison> {
+    let (lo, ln) = (old.row_nlpd(), new.row_nlpd());
+    let mut v: [Vec<f64>; 4] = Default::default();
+    for (k, row) in old.rows.iter().enumerate() {
+        let Some(j) = new.rows.iter().position(|r| r == row) else {
+            continue;
+        };
+        v[0].push(old.measured[k] - old.estimates[k].mean);
+        v[1].push(new.measured[j] - new.estimates[j].mean);
+        v[2].push(lo[k]);
+        v[3].push(ln[j]);
+    }
+    paired(&v[0], &v[1], &v[2], &v[3])
+}
+
 fn range_change(what: &str, old: (f64, f64), new: (f64, f64)) -> Option<String> {
     (old.0.to_bits() != new.0.to_bits() || old.1.to_bits() != new.1.to_bits()).then(|| {
         format!(
@@ -116,15 +136,46 @@ fn range_change(what: &str, old: (f64, f64), new: (f64, f64)) -> Option<String> 
     })
 }
 
+/// The fingerprint covers the values of the inputs and targets a model
+/// learns, so two models of different columns differ in it even on the
+/// same rows: say so rather than claim the rows differ.
+fn fingerprint_change(old: &Model, new: &Model) -> String {
+    let names = |m: &Model| {
+        let mut v: Vec<String> = m.input_names().iter().map(|s| s.to_string()).collect();
+        v.sort();
+        let mut t: Vec<String> = m.targets.iter().map(|t| t.name.clone()).collect();
+        t.sort();
+        (v, t)
+    };
+    let ((oi, ot), (ni, nt)) = (names(old), names(new));
+    let (a, b) = (&old.training, &new.training);
+    if oi == ni && ot == nt {
+        format!(
+            "training rows differ: fingerprint {} → {}",
+            a.data_sha256, b.data_sha256
+        )
+    } else {
+        format!(
+            "training fingerprints differ ({} → {}), but the models learn different columns (targets {} → {}{}): the fingerprint covers the columns a model learns, so it cannot say whether the rows are the same",
+            short(&a.data_sha256),
+            short(&b.data_sha256),
+            ot.join(", "),
+            nt.join(", "),
+            if oi == ni { String::new() } else { "; inputs differ too".to_string() }
+        )
+    }
+}
+
+fn short(sha: &str) -> &str {
+    sha.get(..12).unwrap_or(sha)
+}
+
 /// What changed between the two models' training, in words.
 fn training_changes(old: &Model, new: &Model) -> Vec<String> {
     let (a, b) = (&old.training, &new.training);
     let mut out = Vec::new();
     if a.data_sha256 != b.data_sha256 {
-        out.push(format!(
-            "training rows differ: fingerprint {} → {}",
-            a.data_sha256, b.data_sha256
-        ));
+        out.push(fingerprint_change(old, new));
     }
     if a.data_file != b.data_file {
         out.push(format!("training file: {} → {}", a.data_file, b.data_file));
@@ -209,6 +260,7 @@ pub fn compare(old: &Model, new: &Model, table: &Table) -> Result<Comparison> {
             old: eo,
             new: en,
             disagreements: disagreements(o, n),
+            paired: paired_rows(o, n),
         });
     }
     let training_changes = training_changes(old, new);

@@ -8,11 +8,13 @@
 
 mod calibration;
 mod compare;
+mod paired;
 mod relevance;
 mod summary;
 
 pub use calibration::{calibration_curve, CalibrationPoint, CALIBRATION_LEVELS};
 pub use compare::{compare, Comparison, Disagreement, TargetComparison};
+pub use paired::{paired, PairedComparison, PairedFigure};
 pub use relevance::{
     member_relevance, relevance, relevance_over, relevance_with_spread, RelevanceRange,
     RELEVANCE_MEANING,
@@ -521,6 +523,25 @@ impl TargetRows {
             &self.log_jacobian,
             self.gross,
         )
+    }
+
+    /// Each row's negative log predictive density (as in the NLPD of
+    /// [`Self::evaluation`], one row at a time).
+    pub fn row_nlpd(&self) -> Vec<f64> {
+        (0..self.rows.len())
+            .map(|k| {
+                evaluate_on_scale(
+                    &self.measured[k..=k],
+                    &[self.estimates[k].mean],
+                    &self.z_measured[k..=k],
+                    &self.z_mean[k..=k],
+                    &self.z_sd[k..=k],
+                    &self.log_jacobian[k..=k],
+                    self.gross,
+                )
+                .map_or(f64::NAN, |e| e.nlpd)
+            })
+            .collect()
     }
 
     /// The calibration curve over the rows.
