@@ -254,3 +254,42 @@ pub const RESPONSIBILITY_FLOOR: f64 = 1e-9;
 /// it exceeds this many standard errors: about the two-sided 95 % level of
 /// a normal (common practice, no source).
 pub const PAIRED_SHOWN_SE: f64 = 2.0;
+
+/// Training RMSE / fitted noise sd below which the card notes likely
+/// overfitting: at the evidence optimum the ratio is √(1 − γ/N), so 0.7
+/// means γ/N above ½ (explain::fit). On invented data with a known noise sd
+/// well-specified committees gave ratios of 0.97 to 1.02 (docs/insight.md).
+pub const FIT_RMSE_RATIO_MIN: f64 = 0.7;
+
+/// Held-out NLPD minus training NLPD (nats per row) above which the card
+/// notes likely overfitting (explain::fit); the expected gap of a
+/// well-specified model is about γ/N.
+pub const FIT_NLPD_GAP_MAX: f64 = 0.5;
+
+/// Training RMSE / repeat tests' pooled sd above which the card notes
+/// likely underfitting (explain::fit).
+pub const FIT_REPLICATE_RATIO_MAX: f64 = 1.5;
+
+/// Degrees of freedom the repeat tests need before the underfitting note
+/// is judged (explain::fit).
+pub const FIT_REPLICATE_DOF_MIN: usize = 20;
+
+/// Points of the grid on which a column's kernel density is read for its
+/// modes (data::modes).
+pub const MODE_GRID: usize = 512;
+
+/// A dip in a column's kernel density separates two modes when it falls
+/// below this share of the lower of the two peaks (data::modes). Two equal
+/// normal modes of sd σ dip to 0.5 of a peak when their means lie about
+/// 3.3σ apart, σ that of the kernel estimate (the data's widened by the
+/// bandwidth): a clear valley, not a shoulder (arithmetic on the normal
+/// density: 2φ(1.65)/(φ(0) + φ(3.3)) ≈ 0.5).
+pub const MODE_VALLEY_SHARE: f64 = 0.5;
+
+/// Fewest values a group of a column needs to count as a mode
+/// (data::modes), or [`MODE_MIN_SHARE`] of the values when that is more:
+/// a handful of equal slips must not make a mode of their own.
+pub const MODE_MIN_ROWS: usize = 8;
+
+/// Smallest share of a column's values that can form a mode.
+pub const MODE_MIN_SHARE: f64 = 0.02;

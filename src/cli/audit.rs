@@ -29,15 +29,20 @@ values of a target) with the pooled replicate standard deviation per target — 
 of repeat tests, which a model's fitted noise level should be compared with; strongly correlated \
 input pairs (|r| ≥ 0.95); outliers (robust z-score 0.6745·(x − median)/MAD above 3.5, and outside the fences of the \
 adjusted boxplot for skewed data, so that the long tail of a skewed column is not listed value by \
-value); inputs \
-with fewer than 4 distinct values; and a short verdict list of what to fix first.\n\n\
+value), each value judged within its column's group: a column whose values fall into separate \
+groups (two grades, a family of heats at another Mn level; found as the clear modes of a kernel \
+density estimate, each of at least 8 values and 2 % of the column) is judged group by group, and \
+a lone typing slip is judged against the group it strayed from; inputs with fewer than 4 distinct \
+values; a short list of what to fix first (likely faults only: unusable values, missing inputs, \
+exact copies, outliers); and notes that are not faults (groups of values, few levels, correlated \
+inputs, missing targets, replicate scatter).\n\n\
 With --schema the table is read as training would read it: values in internal units, and negative \
 concentrations, values outside declared bounds and compositions above 100 wt% are reported (all of \
 them, not only the first). Without a schema, --target names the targets and every other column \
 holding numbers is taken as an input (or those given with --inputs).\n\n\
 JSON output: one object with keys file, n_rows, n_columns, columns, problems, problems_not_listed, \
-rows_missing_inputs, duplicates, duplicates_compared, replicates, correlated, outliers, few_levels, \
-verdict. Rows are numbered from 1, header excluded.\n\n\
+rows_missing_inputs, duplicates, duplicates_compared, replicates, correlated, outliers, clusters \
+(column and its modes, each with lo, hi, n), few_levels, verdict, notes. Rows are numbered from 1, header excluded.\n\n\
 Example:\n  mettle audit --data welds.csv --schema welds.toml"
 )]
 pub struct AuditArgs {
@@ -100,6 +105,12 @@ fn to_text(r: &AuditReport) -> String {
     );
     for (i, v) in r.verdict.iter().enumerate() {
         s.push_str(&format!("  {}. {v}\n", i + 1));
+    }
+    if !r.notes.is_empty() {
+        s.push_str("\nto know (not faults):\n");
+        for v in &r.notes {
+            s.push_str(&format!("  - {v}\n"));
+        }
     }
     s.push_str("\ncolumns:\n");
     let h: Vec<String> = [
@@ -191,7 +202,7 @@ fn to_text(r: &AuditReport) -> String {
         }
     }
     if !r.outliers.is_empty() {
-        s.push_str("\noutliers (robust z above 3.5 and outside the skew-adjusted fences):\n");
+        s.push_str("\noutliers (robust z above 3.5 and outside the skew-adjusted fences, within the value's group):\n");
         for o in r.outliers.iter().take(20) {
             s.push_str(&format!(
                 "  {} row {}: {} (z = {:.1})\n",

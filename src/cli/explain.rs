@@ -28,7 +28,9 @@ JSON output: an object with data_file, data_sha256, n_rows, tool_version, seed, 
 set_aside and targets; each target has name, unit, scale, n_rows, noise_sd, noise_sd_range, \
 noise_varies, replicate_sd (null without repeat tests), noise_profile (input, input_unit and \
 bins with lo, hi, n_rows, noise_sd and replicates; null in older model files), members (array), relevance (an object \
-input → value, or null without ARD), relevance_note and kriging (null when the residuals are not kriged; else n_rows, \
+input → value, or null without ARD), relevance_range (an array of input, value, low, high: the \
+smallest and largest over the members; null without ARD), relevance_note, fit_notes (plain notes on \
+likely overfitting or underfitting; empty when nothing is flagged) and kriging (null when the residuals are not kriged; else n_rows, \
 correlated_share, length_scales as [input, share of its range] pairs, heldout_nlpd_with and heldout_nlpd_without).\n\n\
 Example:\n  mettle explain --model uts.json\n  mettle explain --model uts.json --format json"
 )]
@@ -170,17 +172,31 @@ fn text(card: &ModelCard) -> String {
         if let Some(k) = &t.gross_errors {
             s += &format!("  {}\n", k.sentence());
         }
-        if let Some(r) = &t.relevance {
-            s += "  input relevance (most relevant = 1):\n";
-            let rows: Vec<Vec<String>> = r
-                .ranked()
-                .into_iter()
-                .map(|(n, v)| vec![format!("  {n}"), format!("{v:.3}")])
+        if let Some(r) = &t.relevance_range {
+            s += "  input relevance (most relevant = 1), with its range over the committee members:\n";
+            let mut ranked = r.clone();
+            ranked.sort_by(|a, b| b.value.total_cmp(&a.value));
+            let rows: Vec<Vec<String>> = ranked
+                .iter()
+                .map(|r| {
+                    vec![
+                        format!("  {}", r.input),
+                        format!("{:.3}", r.value),
+                        format!("{:.3} to {:.3}", r.low, r.high),
+                    ]
+                })
                 .collect();
-            let h = vec!["  input".to_string(), "relevance".to_string()];
+            let h = vec![
+                "  input".to_string(),
+                "relevance".to_string(),
+                "members".to_string(),
+            ];
             s += &aligned(&h, &rows);
         }
         s += &format!("  {}\n", t.relevance_note);
+        for n in &t.fit_notes {
+            s += &format!("  note: {n}\n");
+        }
     }
     s
 }

@@ -375,6 +375,9 @@ pub fn run(a: TrainArgs) -> anyhow::Result<()> {
                 failed,
                 c.candidates.len()
             );
+            for n in mettle::explain::fit_notes(t) {
+                eprintln!("note: {}: {n}", t.name);
+            }
         }
         eprintln!("model written to {} ({secs:.1} s)", a.out.display());
     }

@@ -37,6 +37,7 @@
 
 use serde::Serialize;
 
+use crate::data::modes::{modes, Mode};
 use crate::data::schema::{Role, Schema};
 use crate::data::Table;
 use crate::error::Result;
@@ -169,12 +170,27 @@ pub struct AuditReport {
     pub replicates: Vec<ReplicateSummary>,
     /// Strongly correlated input pairs.
     pub correlated: Vec<CorrelatedPair>,
-    /// Outliers, largest |z| first.
+    /// Outliers, largest |z| first, each judged within its column's mode.
     pub outliers: Vec<Outlier>,
+    /// Columns whose values fall into several modes (grades, families of
+    /// heats at another level): judged mode by mode, not faults.
+    pub clusters: Vec<ColumnModes>,
     /// Inputs with few distinct values.
     pub few_levels: Vec<FewLevels>,
-    /// What to fix first, most urgent first.
+    /// What to fix first, most urgent first: likely faults only.
     pub verdict: Vec<String>,
+    /// What to know about the data that is not a fault (modes, few
+    /// levels, correlated inputs, missing targets, replicate scatter).
+    pub notes: Vec<String>,
+}
+
+/// A column whose values fall into several modes.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct ColumnModes {
+    /// Column.
+    pub column: String,
+    /// Its modes, ascending.
+    pub modes: Vec<Mode>,
 }
 
 /// The most problems an audit lists one by one.
@@ -309,45 +325,48 @@ struct Col {
     compare: bool,
 }
 
-/// Audit `table`, through `schema` when given (values then in internal
-/// units, with the schema's checks), else with `opts` naming the targets.
-///
-/// # Errors
-/// Only a column named in `opts` that the table lacks; every problem in
-/// the data is reported, not raised.
-pub fn audit(
+/// The columns as the audit reads them, with the cells that cannot be used.
+struct Read {
+    cols: Vec<Col>,
+    /// (internal unit, declared unit when it differs) per column.
+    units: Vec<(Option<String>, Option<String>)>,
+    problems: Vec<String>,
+    n_problems: usize,
+}
+
+/// Read every column: through the schema's checks when given, else as
+/// `opts` names the targets and inputs.
+fn read_columns(
     table: &Table,
     schema: Option<(&Schema, &str)>,
     opts: &AuditOptions,
-) -> Result<AuditReport> {
-    let n = table.n_rows();
-    let mut problems: Vec<String> = Vec::new();
-    let mut n_problems = 0usize;
-    let mut cols: Vec<Col> = Vec::new();
-    let mut units: Vec<(Option<String>, Option<String>)> = Vec::new();
+) -> Result<Read> {
+    let mut r = Read {
+        cols: Vec::new(),
+        units: Vec::new(),
+        problems: Vec::new(),
+        n_problems: 0,
+    };
     let checked = schema.map(|(s, name)| s.check(table, name, true, usize::MAX));
     if let Some(c) = &checked {
-        n_problems += c.problems.len();
-        problems.extend(c.problems.iter().map(|e| e.to_string()));
+        r.n_problems += c.problems.len();
+        r.problems.extend(c.problems.iter().map(|e| e.to_string()));
     }
-    for name in &opts.targets {
-        table.numeric_lenient(name)?;
-    }
-    for name in opts.inputs.iter().flatten() {
+    for name in opts.targets.iter().chain(opts.inputs.iter().flatten()) {
         table.numeric_lenient(name)?;
     }
     for name in table.names() {
         let spec = schema.and_then(|(s, _)| s.columns.iter().position(|c| &c.name == name));
         if let (Some((s, _)), Some(k), Some(c)) = (schema, spec, &checked) {
             let cs = &s.columns[k];
-            cols.push(Col {
+            r.cols.push(Col {
                 name: name.clone(),
                 role: cs.role.name().to_string(),
                 numeric: c.values[k].clone(),
                 compare: !matches!(cs.role, Role::Identifier | Role::Ignored),
             });
             let internal = cs.internal_unit();
-            units.push((
+            r.units.push((
                 cs.unit.map(|_| internal.symbol().to_string()),
                 cs.unit
                     .filter(|u| *u != internal)
@@ -373,53 +392,64 @@ pub fn audit(
         };
         let numeric = if has_numbers && schema.is_none() {
             let (v, bad) = table.numeric_lenient(name)?;
-            n_problems += bad.len();
-            problems.extend(bad.iter().map(|e| e.to_string()));
+            r.n_problems += bad.len();
+            r.problems.extend(bad.iter().map(|e| e.to_string()));
             Some(v)
         } else {
             None
         };
-        cols.push(Col {
+        r.cols.push(Col {
             name: name.clone(),
             role: role.to_string(),
             numeric,
-            compare: true,
+            // a column the schema does not name is not compared
+            compare: schema.is_none(),
         });
-        units.push((None, None));
+        r.units.push((None, None));
     }
-    if schema.is_some() {
-        for c in cols.iter_mut().filter(|c| c.role == "not in schema") {
-            c.compare = false;
-        }
-    }
-    // without a schema, a text column with a different value in every row
-    // names the records (heat, weld, specimen): a row entered twice under
-    // two names is still a copy, so such columns are not compared
-    let mut identifier_like: Vec<String> = Vec::new();
-    if schema.is_none() && n > 1 {
-        for (i, c) in cols.iter_mut().enumerate() {
-            if c.numeric.is_some() {
-                continue;
-            }
-            let mut seen: Vec<String> = Vec::with_capacity(n);
-            let all_distinct = (0..n).all(|row| match table.cell_text(i, row) {
-                Some(t) if !seen.contains(&t) => {
-                    seen.push(t);
-                    true
-                }
-                _ => false,
-            });
-            if all_distinct {
-                c.compare = false;
-                identifier_like.push(format!("'{}'", c.name));
-            }
-        }
-    }
-    problems.truncate(PROBLEMS_LISTED);
+    r.problems.truncate(PROBLEMS_LISTED);
+    Ok(r)
+}
 
-    // per column
+/// Without a schema, a text column with a different value in every row
+/// names the records (heat, weld, specimen): a row entered twice under two
+/// names is still a copy, so such columns are not compared. Returns their
+/// names, quoted.
+fn skip_identifier_like(table: &Table, cols: &mut [Col]) -> Vec<String> {
+    let n = table.n_rows();
+    let mut found: Vec<String> = Vec::new();
+    if n < 2 {
+        return found;
+    }
+    for (i, c) in cols.iter_mut().enumerate() {
+        if c.numeric.is_some() {
+            continue;
+        }
+        let mut seen: Vec<String> = Vec::with_capacity(n);
+        let all_distinct = (0..n).all(|row| match table.cell_text(i, row) {
+            Some(t) if !seen.contains(&t) => {
+                seen.push(t);
+                true
+            }
+            _ => false,
+        });
+        if all_distinct {
+            c.compare = false;
+            found.push(format!("'{}'", c.name));
+        }
+    }
+    found
+}
+
+/// Count, missing, range, median and distinct values of every column.
+fn summarise_columns(
+    table: &Table,
+    cols: &[Col],
+    units: &[(Option<String>, Option<String>)],
+) -> Vec<ColumnSummary> {
+    let n = table.n_rows();
     let mut columns = Vec::new();
-    for (i, (c, (unit, declared))) in cols.iter().zip(&units).enumerate() {
+    for (i, (c, (unit, declared))) in cols.iter().zip(units).enumerate() {
         let mut missing = 0;
         let mut distinct_text: Vec<String> = Vec::new();
         for row in 0..n {
@@ -452,76 +482,63 @@ pub fn audit(
             distinct,
         });
     }
+    columns
+}
 
-    let is_input = |c: &Col| c.role == "input" && c.numeric.is_some();
-    let inputs: Vec<&Col> = cols.iter().filter(|c| is_input(c)).collect();
-    let targets: Vec<&Col> = cols
-        .iter()
-        .filter(|c| c.role == "target" && c.numeric.is_some())
-        .collect();
+/// The key of a row over the columns `which` selects: exact bits of
+/// numbers, text as written.
+fn row_key(table: &Table, cols: &[Col], row: usize, which: &dyn Fn(&Col) -> bool) -> Vec<String> {
+    let mut key = Vec::new();
+    for (i, c) in cols.iter().enumerate().filter(|(_, c)| which(c)) {
+        key.push(match &c.numeric {
+            Some(v) => v[row].map_or(String::new(), |x| format!("{:016x}", x.to_bits())),
+            None => table.cell_text(i, row).unwrap_or_default(),
+        });
+    }
+    key
+}
 
-    let rows_missing_inputs: Vec<usize> = (0..n)
-        .filter(|&r| {
-            inputs
-                .iter()
-                .any(|c| c.numeric.as_ref().is_some_and(|v| v[r].is_none()))
-        })
-        .map(|r| r + 1)
-        .collect();
-
-    // exact duplicates over the compared columns
-    let key_of = |row: usize, which: &dyn Fn(&Col) -> bool| -> Vec<String> {
-        let mut key = Vec::new();
-        for (i, c) in cols.iter().enumerate().filter(|(_, c)| which(c)) {
-            key.push(match &c.numeric {
-                Some(v) => v[row].map_or(String::new(), |x| format!("{:016x}", x.to_bits())),
-                None => table.cell_text(i, row).unwrap_or_default(),
-            });
-        }
-        key
-    };
-    let mut dup_groups: Vec<(Vec<String>, Vec<usize>)> = Vec::new();
-    for row in 0..n {
-        let key = key_of(row, &|c: &Col| c.compare);
-        match dup_groups.iter_mut().find(|g| g.0 == key) {
+/// Rows of `rows` grouped by their key, in order of first appearance.
+fn group_rows(
+    table: &Table,
+    cols: &[Col],
+    rows: impl Iterator<Item = usize>,
+    which: &dyn Fn(&Col) -> bool,
+) -> Vec<(Vec<String>, Vec<usize>)> {
+    let mut groups: Vec<(Vec<String>, Vec<usize>)> = Vec::new();
+    for row in rows {
+        let key = row_key(table, cols, row, which);
+        match groups.iter_mut().find(|g| g.0 == key) {
             Some(g) => g.1.push(row),
-            None => dup_groups.push((key, vec![row])),
+            None => groups.push((key, vec![row])),
         }
     }
-    let duplicates: Vec<DuplicateGroup> = dup_groups
-        .iter()
-        .filter(|g| g.1.len() > 1)
-        .map(|g| DuplicateGroup {
-            rows: g.1.iter().map(|r| r + 1).collect(),
-        })
-        .collect();
-    let representatives: Vec<usize> = dup_groups.iter().map(|g| g.1[0]).collect();
-    let duplicates_compared = if schema.is_some() {
-        "every column of the schema except identifiers and ignored columns".to_string()
-    } else if identifier_like.is_empty() {
-        "every column".to_string()
-    } else {
-        format!(
-            "every column except {}, whose value differs in every row (taken as record names)",
-            identifier_like.join(", ")
-        )
-    };
+    groups
+}
 
-    // replicate groups: identical inputs (complete), duplicates once
-    let mut rep_groups: Vec<(Vec<String>, Vec<usize>)> = Vec::new();
-    if !inputs.is_empty() {
-        for &row in &representatives {
-            if rows_missing_inputs.contains(&(row + 1)) {
-                continue;
-            }
-            let key = key_of(row, &|c: &Col| is_input(c));
-            match rep_groups.iter_mut().find(|g| g.0 == key) {
-                Some(g) => g.1.push(row),
-                None => rep_groups.push((key, vec![row])),
-            }
-        }
-    }
-    let replicates: Vec<ReplicateSummary> = targets
+fn is_input(c: &Col) -> bool {
+    c.role == "input" && c.numeric.is_some()
+}
+
+/// Replicate groups per target: rows with identical (complete) inputs,
+/// each exact copy counted once (`representatives`), with their pooled sd.
+fn replicate_summaries(
+    table: &Table,
+    cols: &[Col],
+    targets: &[&Col],
+    representatives: &[usize],
+    rows_missing_inputs: &[usize],
+) -> Vec<ReplicateSummary> {
+    let rep_groups = if cols.iter().any(is_input) {
+        let complete = representatives
+            .iter()
+            .copied()
+            .filter(|r| !rows_missing_inputs.contains(&(r + 1)));
+        group_rows(table, cols, complete, &is_input)
+    } else {
+        Vec::new()
+    };
+    targets
         .iter()
         .map(|t| {
             let v = t.numeric.as_deref().unwrap_or_default();
@@ -546,9 +563,11 @@ pub fn audit(
                 groups,
             }
         })
-        .collect();
+        .collect()
+}
 
-    // correlated inputs
+/// Input pairs with |r| ≥ [`STRONG_CORRELATION`], strongest first.
+fn correlated_pairs(inputs: &[&Col]) -> Vec<CorrelatedPair> {
     let mut correlated = Vec::new();
     for (a_i, a) in inputs.iter().enumerate() {
         for b in &inputs[a_i + 1..] {
@@ -574,30 +593,43 @@ pub fn audit(
         }
     }
     correlated.sort_by(|p, q| q.r.abs().total_cmp(&p.r.abs()));
+    correlated
+}
 
-    // outliers in inputs and targets
-    let mut outliers = Vec::new();
-    for c in inputs.iter().chain(&targets) {
-        let v = c.numeric.as_deref().unwrap_or_default();
-        let rows: Vec<usize> = (0..n).filter(|&r| v[r].is_some()).collect();
-        let values: Vec<f64> = rows.iter().filter_map(|&r| v[r]).collect();
-        if let Some(z) = robust_z(&values) {
-            let (lo, hi) = adjusted_fences(&values).unwrap_or((f64::INFINITY, f64::NEG_INFINITY));
-            for ((&r, &x), &z) in rows.iter().zip(&values).zip(&z) {
-                if z.abs() > ROBUST_Z_OUTLIER && (x < lo || x > hi) {
-                    outliers.push(Outlier {
-                        column: c.name.clone(),
-                        row: r + 1,
-                        value: x,
-                        robust_z: z,
-                    });
-                }
+/// Outliers of one column, each judged within its mode (robust z above
+/// [`ROBUST_Z_OUTLIER`] and outside the adjusted fences of the mode's
+/// values); the modes when there are several.
+pub fn column_outliers(name: &str, v: &[Option<f64>]) -> (Vec<Outlier>, Option<ColumnModes>) {
+    let rows: Vec<usize> = (0..v.len()).filter(|&r| v[r].is_some()).collect();
+    let values: Vec<f64> = rows.iter().filter_map(|&r| v[r]).collect();
+    let (found, mode_of) = modes(&values);
+    let mut out = Vec::new();
+    for g in 0..found.len() {
+        let members: Vec<usize> = (0..values.len()).filter(|&k| mode_of[k] == g).collect();
+        let x: Vec<f64> = members.iter().map(|&k| values[k]).collect();
+        let Some(z) = robust_z(&x) else { continue };
+        let (lo, hi) = adjusted_fences(&x).unwrap_or((f64::INFINITY, f64::NEG_INFINITY));
+        for ((&k, &x), &z) in members.iter().zip(&x).zip(&z) {
+            if z.abs() > ROBUST_Z_OUTLIER && (x < lo || x > hi) {
+                out.push(Outlier {
+                    column: name.to_string(),
+                    row: rows[k] + 1,
+                    value: x,
+                    robust_z: z,
+                });
             }
         }
     }
-    outliers.sort_by(|p, q| q.robust_z.abs().total_cmp(&p.robust_z.abs()));
+    let several = (found.len() > 1).then(|| ColumnModes {
+        column: name.to_string(),
+        modes: found,
+    });
+    (out, several)
+}
 
-    let few_levels: Vec<FewLevels> = inputs
+/// Inputs with fewer than [`FEW_DISTINCT_VALUES`] distinct values.
+fn few_levels(inputs: &[&Col]) -> Vec<FewLevels> {
+    inputs
         .iter()
         .filter_map(|c| {
             let present: Vec<f64> = c.numeric.iter().flatten().flatten().copied().collect();
@@ -607,8 +639,65 @@ pub fn audit(
                 values,
             })
         })
-        .collect();
+        .collect()
+}
 
+/// Audit `table`, through `schema` when given (values then in internal
+/// units, with the schema's checks), else with `opts` naming the targets.
+///
+/// # Errors
+/// Only a column named in `opts` that the table lacks; every problem in
+/// the data is reported, not raised.
+pub fn audit(
+    table: &Table,
+    schema: Option<(&Schema, &str)>,
+    opts: &AuditOptions,
+) -> Result<AuditReport> {
+    let n = table.n_rows();
+    let Read {
+        mut cols,
+        units,
+        problems,
+        n_problems,
+    } = read_columns(table, schema, opts)?;
+    let identifier_like = if schema.is_none() {
+        skip_identifier_like(table, &mut cols)
+    } else {
+        Vec::new()
+    };
+    let columns = summarise_columns(table, &cols, &units);
+    let inputs: Vec<&Col> = cols.iter().filter(|c| is_input(c)).collect();
+    let targets: Vec<&Col> = cols
+        .iter()
+        .filter(|c| c.role == "target" && c.numeric.is_some())
+        .collect();
+    let rows_missing_inputs: Vec<usize> = (0..n)
+        .filter(|&r| {
+            inputs
+                .iter()
+                .any(|c| c.numeric.as_ref().is_some_and(|v| v[r].is_none()))
+        })
+        .map(|r| r + 1)
+        .collect();
+    let dup_groups = group_rows(table, &cols, 0..n, &|c: &Col| c.compare);
+    let representatives: Vec<usize> = dup_groups.iter().map(|g| g.1[0]).collect();
+    let duplicates_compared = if schema.is_some() {
+        "every column of the schema except identifiers and ignored columns".to_string()
+    } else if identifier_like.is_empty() {
+        "every column".to_string()
+    } else {
+        format!(
+            "every column except {}, whose value differs in every row (taken as record names)",
+            identifier_like.join(", ")
+        )
+    };
+    let (mut outliers, mut clusters) = (Vec::new(), Vec::new());
+    for c in inputs.iter().chain(&targets) {
+        let (o, m) = column_outliers(&c.name, c.numeric.as_deref().unwrap_or_default());
+        outliers.extend(o);
+        clusters.extend(m);
+    }
+    outliers.sort_by(|p, q| q.robust_z.abs().total_cmp(&p.robust_z.abs()));
     let mut report = AuditReport {
         file: table.source().display().to_string(),
         n_rows: n,
@@ -616,16 +705,31 @@ pub fn audit(
         columns,
         problems,
         problems_not_listed: n_problems.saturating_sub(PROBLEMS_LISTED),
+        duplicates: dup_groups
+            .iter()
+            .filter(|g| g.1.len() > 1)
+            .map(|g| DuplicateGroup {
+                rows: g.1.iter().map(|r| r + 1).collect(),
+            })
+            .collect(),
+        replicates: replicate_summaries(
+            table,
+            &cols,
+            &targets,
+            &representatives,
+            &rows_missing_inputs,
+        ),
         rows_missing_inputs,
-        duplicates,
         duplicates_compared,
-        replicates,
-        correlated,
+        correlated: correlated_pairs(&inputs),
         outliers,
-        few_levels,
+        clusters,
+        few_levels: few_levels(&inputs),
         verdict: Vec::new(),
+        notes: Vec::new(),
     };
-    report.verdict = verdict(&report, n_problems, targets.is_empty());
+    report.verdict = verdict(&report, n_problems);
+    report.notes = notes(&report, targets.is_empty());
     Ok(report)
 }
 
@@ -645,7 +749,8 @@ fn rows_text(rows: &[usize], most: usize) -> String {
 }
 
 /// The verdict list, most urgent first.
-fn verdict(r: &AuditReport, n_problems: usize, no_targets: bool) -> Vec<String> {
+/// What to fix first: likely faults only, most urgent first.
+fn verdict(r: &AuditReport, n_problems: usize) -> Vec<String> {
     let mut v = Vec::new();
     if n_problems > 0 {
         v.push(format!(
@@ -675,12 +780,34 @@ fn verdict(r: &AuditReport, n_problems: usize, no_targets: bool) -> Vec<String> 
     }
     if let Some(o) = r.outliers.first() {
         v.push(format!(
-            "values far from the rest of their column: {} (largest: '{}' row {} = {}, robust z {:.1}); check them against the test records",
+            "values far from the rest of their group in their column: {} (largest: '{}' row {} = {}, robust z {:.1}); check them against the test records",
             r.outliers.len(),
             o.column,
             o.row,
             o.value,
             o.robust_z
+        ));
+    }
+    if v.is_empty() {
+        v.push("nothing found to fix".to_string());
+    }
+    v
+}
+
+/// What to know that is not a fault.
+fn notes(r: &AuditReport, no_targets: bool) -> Vec<String> {
+    let mut v = Vec::new();
+    for c in &r.clusters {
+        let groups: Vec<String> = c
+            .modes
+            .iter()
+            .map(|m| format!("{} to {}: {} rows", m.lo, m.hi, m.n))
+            .collect();
+        v.push(format!(
+            "'{}' falls into {} groups of values ({}); each is judged on its own, so a family of heats at another level is not reported value by value. Make sure the groups are what you expect (grades, processes), and that the model sees what sets them apart",
+            c.column,
+            c.modes.len(),
+            groups.join("; ")
         ));
     }
     for f in &r.few_levels {
@@ -729,9 +856,6 @@ fn verdict(r: &AuditReport, n_problems: usize, no_targets: bool) -> Vec<String> 
             "no target known: give --schema or --target to see replicate scatter and missing targets"
                 .to_string(),
         );
-    }
-    if v.is_empty() {
-        v.push("nothing found to fix".to_string());
     }
     v
 }
@@ -791,6 +915,45 @@ mod tests {
             pearson(&[1.0, 2.0, 3.0], &[2.0, 4.0, 6.5]).expect("r"),
             0.9979487158,
             epsilon = 1e-9
+        );
+    }
+
+    /// Two grades in one column (Mn 0.8 and 1.5 wt%, invented): the robust
+    /// z-score and adjusted fences (Iglewicz & Hoaglin 1993; Hubert &
+    /// Vandervieren 2008) applied within each mode find no outlier inside
+    /// either grade, while a typing slip (0.8 keyed as 8.0, ×10) is still
+    /// found, judged against the grade it strayed from. The whole-column
+    /// test would list the smaller grade value by value (checked here too).
+    #[test]
+    fn two_grades_are_no_outliers_but_a_slip_is() {
+        use rand::SeedableRng;
+        use rand_distr::{Distribution, Normal};
+        let mut rng = rand_xoshiro::Xoshiro256PlusPlus::seed_from_u64(17);
+        let a = Normal::new(0.8, 0.06).expect("sd");
+        let b = Normal::new(1.5, 0.06).expect("sd");
+        let mut v: Vec<Option<f64>> = (0..300).map(|_| Some(a.sample(&mut rng))).collect();
+        v.extend((0..57).map(|_| Some(b.sample(&mut rng))));
+        // the old whole-column judgement flags the Mn 1.5 family
+        let all: Vec<f64> = v.iter().flatten().copied().collect();
+        let z = robust_z(&all).expect("spread");
+        let (lo, hi) = adjusted_fences(&all).expect("fences");
+        let old = all
+            .iter()
+            .zip(&z)
+            .filter(|(x, z)| z.abs() > ROBUST_Z_OUTLIER && (**x < lo || **x > hi))
+            .count();
+        assert!(old >= 50, "{old}");
+        let (found, modes) = column_outliers("mn_wt", &v);
+        assert!(found.is_empty(), "{found:?}");
+        assert_eq!(modes.expect("two modes").modes.len(), 2);
+        // plant the slip in row 10
+        let keyed = v[9].expect("value") * 10.0;
+        v[9] = Some(keyed);
+        let (found, _) = column_outliers("mn_wt", &v);
+        assert_eq!(found.len(), 1, "{found:?}");
+        assert_eq!(
+            (found[0].row, found[0].value.to_bits()),
+            (10, keyed.to_bits())
         );
     }
 }

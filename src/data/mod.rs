@@ -6,6 +6,7 @@ mod atomic;
 pub mod audit;
 mod derived;
 mod fingerprint;
+pub mod modes;
 pub mod schema;
 mod table;
 

@@ -8,12 +8,14 @@
 
 mod calibration;
 mod compare;
+mod fit;
 mod paired;
 mod relevance;
 mod summary;
 
 pub use calibration::{calibration_curve, CalibrationPoint, CALIBRATION_LEVELS};
 pub use compare::{compare, Comparison, Disagreement, TargetComparison};
+pub use fit::fit_notes;
 pub use paired::{paired, PairedComparison, PairedFigure};
 pub use relevance::{
     member_relevance, relevance, relevance_over, relevance_with_spread, RelevanceRange,
@@ -144,8 +146,14 @@ pub struct TargetCard {
     pub members: Vec<MemberCard>,
     /// Input relevance, most relevant = 1; `None` without ARD.
     pub relevance: Option<Relevance>,
+    /// Relevance with its smallest and largest value over the committee
+    /// members, on the committee's scale; `None` without ARD.
+    pub relevance_range: Option<Vec<RelevanceRange>>,
     /// What relevance means and what it does not.
     pub relevance_note: String,
+    /// Plain notes on likely overfitting or underfitting (empty when
+    /// nothing is flagged).
+    pub fit_notes: Vec<String>,
     /// Rows in the search's training and held-out parts.
     pub search_rows: (usize, usize),
     /// Hidden-unit range searched.
@@ -457,6 +465,20 @@ pub fn model_card(model: &Model) -> ModelCard {
                         .to_string()
                 },
                 relevance,
+                relevance_range: relevance_with_spread(c).map(|v| {
+                    model
+                        .inputs
+                        .iter()
+                        .zip(v)
+                        .map(|(i, (value, low, high))| RelevanceRange {
+                            input: i.name.clone(),
+                            value,
+                            low,
+                            high,
+                        })
+                        .collect()
+                }),
+                fit_notes: fit_notes(t),
                 search_rows: (c.selection.n_train_part, c.selection.n_heldout),
                 hidden_searched: c.selection.hidden_searched,
                 candidates: (

@@ -100,6 +100,14 @@ pub struct TrainingSummary {
     /// before it existed).
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub noise_profile: Option<NoiseProfile>,
+    /// RMSE of the committee on its own training rows (target units;
+    /// absent in files written before it was recorded).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub training_rmse: Option<f64>,
+    /// Gaussian NLPD of the committee on its own training rows, on the
+    /// scale the target is learnt on (as the search's held-out NLPD).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub training_nlpd: Option<f64>,
 }
 
 /// The summary for one target: `x` the scaled training inputs of the rows
@@ -135,11 +143,43 @@ pub fn summarise_training(
                 .map(|(i, _)| i)
         })
         .unwrap_or(0);
+    let fit = training_fit(&p, scaling, transform, measured);
     TrainingSummary {
         noise_sd: spread(&noise),
         replicates: replicate_scatter(raw_inputs, measured),
         noise_profile: noise_profile(input, raw_inputs, measured, &noise, PROFILE_BINS),
+        training_rmse: fit.as_ref().map(|e| e.rmse),
+        training_nlpd: fit.map(|e| e.nlpd),
     }
+}
+
+/// The committee on its own training rows: RMSE in target units, Gaussian
+/// NLPD on the learnt scale (no Jacobian, no gross-error part), as the
+/// search scores its held-out rows.
+fn training_fit(
+    p: &crate::committee::ScaledPrediction,
+    scaling: &ColumnScaling,
+    transform: &TargetTransform,
+    measured: &[f64],
+) -> Option<crate::metrics::Evaluation> {
+    let w = scaling.width();
+    let z = z975();
+    let n = measured.len();
+    let (mut point, mut zy, mut zm, mut zs) = (
+        Vec::with_capacity(n),
+        Vec::with_capacity(n),
+        Vec::with_capacity(n),
+        Vec::with_capacity(n),
+    );
+    for (k, y) in measured.iter().enumerate() {
+        let m = scaling.unscale_linear(p.mean[k]);
+        let (sd, nsd) = (p.var[k].sqrt() * w, p.noise_var[k].sqrt() * w);
+        point.push(transform.back_transform(m, sd, nsd, z).mean);
+        zy.push(transform.forward(*y)?);
+        zm.push(m);
+        zs.push(sd);
+    }
+    crate::metrics::evaluate_on_scale(measured, &point, &zy, &zm, &zs, &vec![0.0; n], None)
 }
 
 /// The noise profile along input `input`: rows sorted by its value and cut

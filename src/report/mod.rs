@@ -16,6 +16,7 @@
 //! which the report then says.
 
 pub mod plot;
+pub mod spread;
 pub mod validation;
 
 use crate::data::Table;
@@ -244,6 +245,9 @@ fn card_section(card: &ModelCard) -> String {
         if let Some(k) = &t.gross_errors {
             s.push_str(&format!("<p>{}</p>\n", esc(&k.sentence())));
         }
+        for n in &t.fit_notes {
+            s.push_str(&format!("<p class=\"note\">Note: {}</p>\n", esc(n)));
+        }
     }
     s.push_str("</section>\n");
     s
@@ -390,6 +394,9 @@ fn relevance_section(card: &ModelCard) -> Result<String> {
                     &svg,
                     "Bars: each input's prior weight size α^−½, averaged over the members, most relevant input = 1.",
                 ));
+                if let Some(r) = &t.relevance_range {
+                    s.push_str(&spread::relevance_range_table(r, "the committee members"));
+                }
             }
             None => s.push_str(&format!("<p>{}</p>\n", esc(&t.relevance_note))),
         }

@@ -112,27 +112,11 @@ pub fn section(v: &Validation) -> Result<String> {
     ));
     for t in &v.targets {
         if let Some(rel) = &t.relevance {
-            let mut ranked = rel.clone();
-            ranked.sort_by(|a, b| b.value.total_cmp(&a.value));
-            let body: Vec<Vec<String>> = ranked
-                .iter()
-                .map(|r| {
-                    vec![
-                        r.input.clone(),
-                        format!("{:.2}", r.value),
-                        format!("{:.2} to {:.2}", r.low, r.high),
-                    ]
-                })
-                .collect();
             h.push_str(&format!(
                 "<h3>{}: relevance over the folds</h3>\n",
                 esc(&t.target)
             ));
-            h.push_str(&table(
-                &["input", "median", "range over folds"],
-                &body,
-                None,
-            ));
+            h.push_str(&super::spread::relevance_range_table(rel, "the folds"));
             h.push_str(&format!(
                 "<p class=\"note\">{}</p>\n",
                 esc(crate::explain::RELEVANCE_MEANING)
