@@ -5,7 +5,7 @@ use std::path::{Path, PathBuf};
 use anyhow::Context;
 use clap::{Args, ValueEnum};
 use mettle::data::Table;
-use mettle::report::validation::{out_of_fold_svg, with_se};
+use mettle::report::validation::{figure_row, out_of_fold_svg, FIGURE_HEADER};
 use mettle::validate::{cross_validate, CvOptions, Recipe, TargetValidation, Validation};
 
 use super::output::{aligned, csv_field, emit};
@@ -159,35 +159,8 @@ fn summary_text(v: &Validation) -> String {
         )),
         v.seed
     );
-    let head: Vec<String> = [
-        "target",
-        "n",
-        "rmse",
-        "mae",
-        "r2",
-        "nlpd",
-        "coverage_68",
-        "coverage_95",
-    ]
-    .iter()
-    .map(|x| x.to_string())
-    .collect();
-    let body: Vec<Vec<String>> = v
-        .targets
-        .iter()
-        .map(|t| {
-            vec![
-                t.target.clone(),
-                t.n.to_string(),
-                with_se(&t.rmse),
-                with_se(&t.mae),
-                with_se(&t.r2),
-                with_se(&t.nlpd),
-                with_se(&t.coverage_68),
-                with_se(&t.coverage_95),
-            ]
-        })
-        .collect();
+    let head: Vec<String> = FIGURE_HEADER.iter().map(|x| x.to_string()).collect();
+    let body: Vec<Vec<String>> = v.targets.iter().map(figure_row).collect();
     s += &aligned(&head, &body);
     s += "out-of-fold rows, ± the standard error over folds; honest error bars: coverage_68 near 0.68, coverage_95 near 0.95\n";
     for t in &v.targets {

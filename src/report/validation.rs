@@ -9,21 +9,33 @@ use crate::validate::{Figure, TargetValidation, Validation};
 
 /// `value ± se` with four significant figures.
 pub fn with_se(f: &Figure) -> String {
-    format!("{} ± {}", sig(f.value), sig(f.se))
+    format!("{} ± {}", super::fmt(f.value), super::fmt(f.se))
 }
 
-fn sig(v: f64) -> String {
-    if !v.is_finite() {
-        return v.to_string();
-    }
-    let a = v.abs();
-    if a != 0.0 && !(1e-3..1e6).contains(&a) {
-        format!("{v:.3e}")
-    } else if a >= 100.0 {
-        format!("{v:.1}")
-    } else {
-        format!("{v:.4}")
-    }
+/// Header of the table of cross-validated figures.
+pub const FIGURE_HEADER: [&str; 8] = [
+    "target",
+    "n",
+    "rmse",
+    "mae",
+    "r2",
+    "nlpd",
+    "coverage_68",
+    "coverage_95",
+];
+
+/// One target's row of [`FIGURE_HEADER`].
+pub fn figure_row(t: &TargetValidation) -> Vec<String> {
+    vec![
+        t.target.clone(),
+        t.n.to_string(),
+        with_se(&t.rmse),
+        with_se(&t.mae),
+        with_se(&t.r2),
+        with_se(&t.nlpd),
+        with_se(&t.coverage_68),
+        with_se(&t.coverage_95),
+    ]
 }
 
 /// Estimated against measured for the out-of-fold rows of the first repeat
@@ -80,36 +92,8 @@ pub fn section(v: &Validation) -> Result<String> {
         )),
         v.seed
     ));
-    let rows: Vec<Vec<String>> = v
-        .targets
-        .iter()
-        .map(|t| {
-            vec![
-                t.target.clone(),
-                t.n.to_string(),
-                with_se(&t.rmse),
-                with_se(&t.mae),
-                with_se(&t.r2),
-                with_se(&t.nlpd),
-                with_se(&t.coverage_68),
-                with_se(&t.coverage_95),
-            ]
-        })
-        .collect();
-    h.push_str(&table(
-        &[
-            "target",
-            "n",
-            "rmse",
-            "mae",
-            "r2",
-            "nlpd",
-            "coverage_68",
-            "coverage_95",
-        ],
-        &rows,
-        Some("validation-figures"),
-    ));
+    let rows: Vec<Vec<String>> = v.targets.iter().map(figure_row).collect();
+    h.push_str(&table(&FIGURE_HEADER, &rows, Some("validation-figures")));
     for t in &v.targets {
         if let Some(rel) = &t.relevance {
             h.push_str(&format!(
