@@ -68,14 +68,7 @@ pub fn aligned(header: &[String], rows: &[Vec<String>]) -> String {
     out
 }
 
-/// Quote a CSV field when it needs it (RFC 4180).
-pub fn csv_field(s: &str) -> String {
-    if s.contains([',', '"', '\n', '\r']) {
-        format!("\"{}\"", s.replace('"', "\"\""))
-    } else {
-        s.to_string()
-    }
-}
+pub use mettle::data::csv_field;
 
 /// A number for a table: 4 significant figures at least, no exponent for
 /// ordinary magnitudes.

@@ -8,13 +8,13 @@ use clap::{Args, ValueEnum};
 use mettle::data::{AtomicFile, Table};
 use mettle::model::IntervalKind;
 use mettle::prec::PREDICT_BATCH_ROWS;
-use mettle::predict::{Estimate, RowPrediction};
-use mettle::units::Unit;
+use mettle::predict::{
+    to_column_units, EstimateFormat, EstimateWriter, RowPrediction, TargetColumn as Column,
+};
 use mettle::Model;
-use serde_json::{json, Map, Value};
 
-use super::output::{aligned, csv_field, emit, num, Format};
-use super::{CAUTION, ROW_CAUTION};
+use super::output::{aligned, emit, num, Format};
+use super::CAUTION;
 
 /// Units of the estimates.
 #[derive(Clone, Copy, Debug, PartialEq, Eq, ValueEnum)]
@@ -74,25 +74,10 @@ pub struct PredictArgs {
     batch_rows: u64,
 }
 
-/// One target as printed: name, unit, and its estimates per row.
-struct Column {
-    name: String,
-    unit: Option<Unit>,
-    kind: IntervalKind,
-}
-
 pub fn run(a: PredictArgs) -> anyhow::Result<()> {
     let model = Model::load(&a.model)?;
     let declared = a.units == UnitChoice::Declared;
-    let cols: Vec<Column> = model
-        .targets
-        .iter()
-        .map(|t| Column {
-            name: t.name.clone(),
-            unit: model.target_unit(&t.name, declared),
-            kind: t.transform.interval_kind(),
-        })
-        .collect();
+    let cols = model.target_columns(declared);
     // the input is read, estimated and written a batch at a time, so a
     // file of millions of rows is estimated in bounded memory
     let rows_per_batch = usize::try_from(a.batch_rows).unwrap_or(usize::MAX);
@@ -103,13 +88,7 @@ pub fn run(a: PredictArgs) -> anyhow::Result<()> {
             .predict(&batch)
             .with_context(|| format!("estimating with model {}", a.model.display()))?;
         if declared {
-            for r in &mut rows {
-                for (e, c) in r.estimates.iter_mut().zip(&cols) {
-                    if let Some(u) = c.unit {
-                        *e = e.in_unit(u);
-                    }
-                }
-            }
+            to_column_units(&cols, &mut rows);
         }
         Ok(Batch {
             first_row: batch.first_row(),
@@ -134,13 +113,18 @@ pub fn run(a: PredictArgs) -> anyhow::Result<()> {
         }
         Format::Csv | Format::Json => {
             let write = |w: &mut dyn Write| -> anyhow::Result<()> {
-                let mut out = StreamWriter::start(w, a.format, &cols)?;
+                let format = if a.format == Format::Csv {
+                    EstimateFormat::Csv
+                } else {
+                    EstimateFormat::Json
+                };
+                let mut out = EstimateWriter::start(w, format, &cols)?;
                 for b in batches {
                     let b = estimate(b)?;
                     tally.add(&b.rows);
-                    out.rows(&b)?;
+                    out.rows(b.first_row, &b.rows)?;
                 }
-                out.finish()
+                Ok(out.finish()?)
             };
             match &a.out {
                 Some(path) => {
@@ -188,140 +172,6 @@ impl Tally {
         self.rows += rows.len();
         self.out_of_domain += rows.iter().filter(|r| !r.in_domain).count();
     }
-}
-
-/// CSV or JSON estimates written as the batches come: the same bytes as
-/// formatting all rows at once.
-struct StreamWriter<'a> {
-    w: &'a mut dyn Write,
-    format: Format,
-    cols: &'a [Column],
-    written: usize,
-}
-
-impl<'a> StreamWriter<'a> {
-    fn start(w: &'a mut dyn Write, format: Format, cols: &'a [Column]) -> anyhow::Result<Self> {
-        match format {
-            Format::Csv => w.write_all(csv_header(cols).as_bytes())?,
-            _ => w.write_all(b"[")?,
-        }
-        Ok(StreamWriter {
-            w,
-            format,
-            cols,
-            written: 0,
-        })
-    }
-
-    fn rows(&mut self, b: &Batch) -> anyhow::Result<()> {
-        for (i, r) in b.rows.iter().enumerate() {
-            let number = b.first_row + i + 1;
-            if self.format == Format::Csv {
-                self.w.write_all(csv_row(self.cols, number, r).as_bytes())?;
-                continue;
-            }
-            // one element of a pretty-printed array: each line indented by two
-            let text = serde_json::to_string_pretty(&json_row(self.cols, number, r))?;
-            self.w
-                .write_all(if self.written == 0 { b"\n" } else { b",\n" })?;
-            for (k, line) in text.lines().enumerate() {
-                if k > 0 {
-                    self.w.write_all(b"\n")?;
-                }
-                self.w.write_all(b"  ")?;
-                self.w.write_all(line.as_bytes())?;
-            }
-            self.written += 1;
-        }
-        Ok(())
-    }
-
-    fn finish(self) -> anyhow::Result<()> {
-        if self.format == Format::Json {
-            self.w
-                .write_all(if self.written == 0 { b"]\n" } else { b"\n]\n" })?;
-        }
-        Ok(())
-    }
-}
-
-const FIELDS: [&str; 7] = [
-    "mean", "median", "sd", "lo95", "hi95", "noise_sd", "model_sd",
-];
-
-fn estimate_values(e: &Estimate) -> [f64; 7] {
-    [
-        e.mean, e.median, e.sd, e.lo95, e.hi95, e.noise_sd, e.model_sd,
-    ]
-}
-
-fn kind_name(k: IntervalKind) -> Value {
-    serde_json::to_value(k).unwrap_or(Value::Null)
-}
-
-fn estimate_object(c: &Column, e: &Estimate) -> Map<String, Value> {
-    let mut m: Map<String, Value> = FIELDS
-        .iter()
-        .zip(estimate_values(e))
-        .map(|(k, v)| ((*k).to_string(), json!(v)))
-        .collect();
-    m.insert("interval_kind".into(), kind_name(c.kind));
-    if let Some(u) = c.unit {
-        m.insert("unit".into(), json!(u.symbol()));
-    }
-    m
-}
-
-fn json_row(cols: &[Column], number: usize, r: &RowPrediction) -> Value {
-    let mut obj = Map::new();
-    obj.insert("row".into(), json!(number));
-    if cols.len() == 1 {
-        obj.insert("target".into(), json!(cols[0].name));
-        obj.extend(estimate_object(&cols[0], &r.estimates[0]));
-    } else {
-        let est: Map<String, Value> = cols
-            .iter()
-            .zip(&r.estimates)
-            .map(|(c, e)| (c.name.clone(), Value::Object(estimate_object(c, e))))
-            .collect();
-        obj.insert("estimates".into(), Value::Object(est));
-    }
-    obj.insert("in_domain".into(), json!(r.in_domain));
-    obj.insert("notes".into(), json!(r.notes));
-    obj.insert("caution".into(), json!(ROW_CAUTION));
-    Value::Object(obj)
-}
-
-fn csv_header(cols: &[Column]) -> String {
-    let mut h = vec!["row".to_string()];
-    for c in cols {
-        for f in FIELDS {
-            h.push(format!("{}_{f}", c.name));
-        }
-        h.push(format!("{}_interval_kind", c.name));
-        h.push(format!("{}_unit", c.name));
-    }
-    h.push("in_domain".into());
-    h.push("notes".into());
-    h.push("caution".into());
-    let mut s: String = h.iter().map(|x| csv_field(x)).collect::<Vec<_>>().join(",");
-    s.push('\n');
-    s
-}
-
-fn csv_row(cols: &[Column], number: usize, r: &RowPrediction) -> String {
-    let mut cells = vec![number.to_string()];
-    for (c, e) in cols.iter().zip(&r.estimates) {
-        cells.extend(estimate_values(e).iter().map(|v| v.to_string()));
-        cells.push(kind_name(c.kind).as_str().unwrap_or_default().to_string());
-        cells.push(csv_field(c.unit.map_or("", |u| u.symbol())));
-    }
-    cells.push(r.in_domain.to_string());
-    cells.push(csv_field(&r.notes.join("; ")));
-    cells.push(csv_field(ROW_CAUTION));
-    let mut s = cells.join(",");
-    s.push('\n');
-    s
 }
 
 fn to_table(cols: &[Column], rows: &[RowPrediction]) -> String {

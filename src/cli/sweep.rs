@@ -274,20 +274,7 @@ pub fn run_transition(a: TransitionArgs) -> anyhow::Result<()> {
         eprintln!("note: {n}");
     }
     let text = if a.json {
-        let cr: Vec<_> = t
-            .crossings
-            .iter()
-            .map(|c| {
-                serde_json::json!({"energy": c.energy, "centre": c.centre, "median": c.median,
-                    "lo95": c.lo95, "hi95": c.hi95, "reached": c.reached})
-            })
-            .collect();
-        let req = t.requirement.as_ref().map(|(r, ps, pm)| {
-            serde_json::json!({"requirement": r.label, "energy": r.energy, "temperature": r.temperature,
-                "p_single_test": ps, "p_mean": pm})
-        });
-        let v = serde_json::json!({"target": t.curve.targets[t.target], "from": from, "to": to,
-            "crossings": cr, "requirement": req, "notes": t.notes, "caution": CAUTION});
+        let v = t.summary_json(from, to);
         format!("{}\n", serde_json::to_string_pretty(&v)?)
     } else {
         let mut s = format!(

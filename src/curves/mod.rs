@@ -156,6 +156,18 @@ pub fn base_row(model: &Model, base: Option<&Table>, set: &[(String, f64)]) -> R
     Ok((cols, notes))
 }
 
+/// The median training value of every input, in network order and
+/// internal units (`None` for an input of an older model file without the
+/// stored training reference): the heat a form starts from.
+pub fn training_medians(model: &Model) -> Vec<(String, Option<f64>)> {
+    model
+        .inputs
+        .iter()
+        .enumerate()
+        .map(|(j, i)| (i.name.clone(), training_median(model, j)))
+        .collect()
+}
+
 /// Median of input `j`'s training values, from the stored training
 /// reference (`None` for an older model file without it).
 fn training_median(model: &Model, j: usize) -> Option<f64> {

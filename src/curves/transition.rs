@@ -136,6 +136,30 @@ pub struct Transition {
     pub notes: Vec<String>,
 }
 
+impl Transition {
+    /// The summary as `mettle transition --json` writes it (and the local
+    /// web server returns): the target, the temperature range, each
+    /// crossing with its interval, the requirement's probabilities, the
+    /// notes and the caution.
+    pub fn summary_json(&self, from: f64, to: f64) -> serde_json::Value {
+        let cr: Vec<_> = self
+            .crossings
+            .iter()
+            .map(|c| {
+                serde_json::json!({"energy": c.energy, "centre": c.centre, "median": c.median,
+                    "lo95": c.lo95, "hi95": c.hi95, "reached": c.reached})
+            })
+            .collect();
+        let req = self.requirement.as_ref().map(|(r, ps, pm)| {
+            serde_json::json!({"requirement": r.label, "energy": r.energy, "temperature": r.temperature,
+                "p_single_test": ps, "p_mean": pm})
+        });
+        serde_json::json!({"target": self.curve.targets[self.target], "from": from, "to": to,
+            "crossings": cr, "requirement": req, "notes": self.notes,
+            "caution": crate::predict::CAUTION})
+    }
+}
+
 /// First temperature in [lo, hi] at which `f` rises through `level`: the
 /// first grid interval (of `grid` points) where f − level changes sign
 /// upwards, refined by bisection to 1e-9 of the range. `None` when it does

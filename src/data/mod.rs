@@ -14,4 +14,4 @@ pub use atomic::{write_atomic, AtomicFile};
 pub(crate) use derived::find_header;
 pub use derived::{derive_columns, DeriveOutcome};
 pub use fingerprint::fingerprint;
-pub use table::{ColumnData, FileFormat, Table, TableBatches};
+pub use table::{csv_field, ColumnData, FileFormat, Table, TableBatches};

@@ -590,7 +590,7 @@ impl Table {
 }
 
 /// Quote a CSV field when it needs it (RFC 4180).
-fn csv_field(s: &str) -> String {
+pub fn csv_field(s: &str) -> String {
     if s.contains([',', '"', '\n', '\r']) {
         format!("\"{}\"", s.replace('"', "\"\""))
     } else {

@@ -7,8 +7,13 @@
 //! says so.
 
 mod domain;
+mod output;
 
 pub use domain::{range_check, DomainGuard, DomainReport};
+pub use output::{
+    csv_header, csv_row, json_row, to_column_units, EstimateFormat, EstimateWriter, TargetColumn,
+    CAUTION, ROW_CAUTION,
+};
 
 use ndarray::Array2;
 use serde::Serialize;
