@@ -11,7 +11,7 @@ BIN  := $(CARGO_TARGET_DIR)/release/mettle
 DEMO := out/demo
 SUDO := $(shell [ "$$(id -u)" = 0 ] || echo sudo)
 
-.PHONY: all deps build demo models test lint fmt bench bench-engine bench-scale clean-demo
+.PHONY: all deps browser build demo models test lint fmt bench bench-engine bench-scale bench-serve clean-demo
 
 all: build
 
@@ -22,11 +22,18 @@ deps:
 	fi
 	@command -v cargo >/dev/null || { echo "cargo not found: install the Rust toolchain (rustup) first"; exit 1; }
 
+# the browser tests (tests/serve_browser.rs) drive Debian's chromium through chromium-driver
+browser:
+	@if ! command -v chromium >/dev/null 2>&1 || ! command -v chromedriver >/dev/null 2>&1; then \
+	  echo "== installing chromium and chromium-driver (Debian) for the browser tests with apt-get"; \
+	  $(SUDO) apt-get update -qq && DEBIAN_FRONTEND=noninteractive $(SUDO) apt-get install -y -qq chromium chromium-driver; \
+	fi
+
 build: deps
 	@echo "== building mettle (release; first build takes several minutes, target dir $(CARGO_TARGET_DIR))"
 	cargo build --release --locked
 
-test: deps
+test: deps browser
 	@echo "== running the test suite (release build)"
 	cargo test --release --locked
 
@@ -48,6 +55,10 @@ bench-engine: deps
 # (synthetic data; about an hour on the 2-core machine; docs/benchmarks.md)
 bench-scale: deps
 	cargo bench --locked --bench scale -- --markdown out/bench-scale.md --svg out/bench-scale.svg
+
+# the full load run of `mettle serve`: 32 clients, 2 000 requests of 100 rows (docs/serve.md)
+bench-serve: deps
+	cargo bench --locked --bench serve_load
 
 demo: build
 	@mkdir -p $(DEMO)

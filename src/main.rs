@@ -2,6 +2,7 @@
 //! to exit codes (0 success, 1 runtime failure, 2 bad usage or bad input).
 
 mod cli;
+mod serve;
 
 use std::process::ExitCode;
 

@@ -81,6 +81,54 @@ fn link(from: &Path, to: &Path) {
     std::os::unix::fs::symlink(from, to).expect("symlink into the scratch folder");
 }
 
+/// A documented `mettle serve …` runs until stopped: it must start (on a
+/// free loopback port instead of the documented one, which a second run
+/// of the suite could hold), answer its page, and stop on SIGTERM with
+/// exit status 0.
+fn serve_starts_and_stops(w: &Workdir, args: &[&str], doc: &str, line: usize) {
+    use std::io::{BufRead, BufReader, Read, Write};
+    let mut c = w.command(args);
+    c.args(["--listen", "127.0.0.1:0"])
+        .stdout(std::process::Stdio::null())
+        .stderr(std::process::Stdio::piped());
+    let mut child = c.spawn().expect("start mettle serve");
+    let err = child.stderr.take().expect("stderr");
+    let mut addr = None;
+    let mut seen = String::new();
+    let mut lines = BufReader::new(err).lines();
+    for l in lines.by_ref().map_while(Result::ok) {
+        seen.push_str(&l);
+        seen.push('\n');
+        if let Some(rest) = l.split("listening on http://").nth(1) {
+            addr = rest.split('/').next().map(str::to_string);
+            break;
+        }
+    }
+    let Some(addr) = addr else {
+        let _ = child.kill();
+        panic!("{doc}:{line}: mettle serve did not start\n{seen}");
+    };
+    // keep reading what it prints, so that its last lines find a reader
+    let drain = std::thread::spawn(move || lines.map_while(Result::ok).count());
+    let mut s = std::net::TcpStream::connect(&addr).expect("connect");
+    s.write_all(b"GET / HTTP/1.1\r\nHost: x\r\nConnection: close\r\n\r\n")
+        .expect("send");
+    let mut page = String::new();
+    let _ = s.read_to_string(&mut page);
+    assert!(page.starts_with("HTTP/1.1 200"), "{doc}:{line}: {page}");
+    let killed = std::process::Command::new("kill")
+        .args(["-TERM", &child.id().to_string()])
+        .status()
+        .expect("kill");
+    assert!(killed.success());
+    let status = child.wait().expect("wait");
+    let _ = drain.join();
+    assert!(
+        status.success(),
+        "{doc}:{line}: mettle serve ended with {status:?}"
+    );
+}
+
 #[test]
 fn documented_commands_run() {
     let repo = PathBuf::from(env!("CARGO_MANIFEST_DIR"));
@@ -93,6 +141,11 @@ fn documented_commands_run() {
         let text = std::fs::read_to_string(repo.join(doc)).expect("document");
         for (line, args) in commands(&text) {
             let refs: Vec<&str> = args.iter().map(String::as_str).collect();
+            if refs.first() == Some(&"serve") {
+                serve_starts_and_stops(&w, &refs, doc, line);
+                n += 1;
+                continue;
+            }
             let out = w.run(&refs);
             assert!(
                 out.status.success(),

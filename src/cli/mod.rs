@@ -13,6 +13,7 @@ mod predict;
 mod progress;
 mod report;
 mod screen;
+mod serve;
 mod sweep;
 mod train;
 mod validate;
@@ -79,6 +80,8 @@ enum Command {
     Transition(sweep::TransitionArgs),
     // about and long_about come from the Args struct: a doc comment here would replace them
     Validate(validate::ValidateArgs),
+    // about and long_about come from the Args struct: a doc comment here would replace them
+    Serve(serve::ServeArgs),
 }
 
 /// Run the parsed command.
@@ -101,5 +104,6 @@ pub fn run(cli: Cli) -> anyhow::Result<()> {
         Command::Sweep(a) => sweep::run(a),
         Command::Transition(a) => sweep::run_transition(a),
         Command::Validate(a) => validate::run(a),
+        Command::Serve(a) => serve::run(a),
     }
 }
