@@ -162,7 +162,7 @@
     const v = verdictOf(r);
     const box = $("verdict");
     const text = { in: "Inside the training domain", out: "OUTSIDE the training domain: an extrapolation, whatever its interval" }[verdictClass(v)] ||
-      "At the edge of the training domain";
+      "Thin support (" + v + "): near the training data but with few close rows; usable, check the error bar";
     box.className = "verdict " + verdictClass(v);
     box.dataset.verdict = v;
     box.innerHTML = "<b>Domain: " + esc(text) + "</b>" +
