@@ -22,7 +22,8 @@ deps:
 	fi
 	@command -v cargo >/dev/null || { echo "cargo not found: install the Rust toolchain (rustup) first"; exit 1; }
 
-# the browser tests (tests/serve_browser.rs) drive Debian's chromium through chromium-driver
+# the browser tests drive Debian's chromium: tests/serve_browser.rs through chromium-driver,
+# tests/browser.rs (the report and the charts) from its command line
 browser:
 	@if ! command -v chromium >/dev/null 2>&1 || ! command -v chromedriver >/dev/null 2>&1; then \
 	  echo "== installing chromium and chromium-driver (Debian) for the browser tests with apt-get"; \

@@ -151,34 +151,18 @@ fn table(title: &str, steps: &[Step]) -> String {
     s
 }
 
-/// A log-log chart of training time against rows and against inputs.
+/// Log-log charts of training time against rows and against inputs, one
+/// above the other, as a standalone SVG document.
 fn svg(path: &str, by_rows: &[Step], by_inputs: &[Step]) -> Result<(), String> {
-    use plotters::prelude::*;
-    let root = SVGBackend::new(path, (900, 380)).into_drawing_area();
-    root.fill(&WHITE).map_err(|e| e.to_string())?;
-    let (left, right) = root.split_horizontally(450);
-    let t_max = by_rows
-        .iter()
-        .chain(by_inputs)
-        .map(|s| s.train_s)
-        .fold(1.0, f64::max)
-        * 2.0;
-    let t_min = by_rows
-        .iter()
-        .chain(by_inputs)
-        .map(|s| s.train_s)
-        .fold(f64::INFINITY, f64::min)
-        .min(1.0)
-        / 2.0;
-    for (area, steps, label, x_of) in [
+    use mettle::chart::{draw_panels, Line, Mark, Points, XyChart, BLUE};
+    let mut panels = Vec::new();
+    for (steps, label, x_of) in [
         (
-            &left,
             by_rows,
             "rows (8 inputs)",
             (|s: &Step| s.rows as f64) as fn(&Step) -> f64,
         ),
         (
-            &right,
             by_inputs,
             "inputs (1 000 rows)",
             (|s: &Step| s.inputs as f64) as fn(&Step) -> f64,
@@ -187,30 +171,32 @@ fn svg(path: &str, by_rows: &[Step], by_inputs: &[Step]) -> Result<(), String> {
         if steps.is_empty() {
             continue;
         }
-        let x_min = steps.iter().map(x_of).fold(f64::INFINITY, f64::min) / 1.5;
-        let x_max = steps.iter().map(x_of).fold(0.0, f64::max) * 1.5;
-        let mut chart = ChartBuilder::on(area)
-            .caption(format!("training time against {label}"), ("sans-serif", 16))
-            .margin(10)
-            .x_label_area_size(35)
-            .y_label_area_size(50)
-            .build_cartesian_2d((x_min..x_max).log_scale(), (t_min..t_max).log_scale())
-            .map_err(|e| e.to_string())?;
-        chart
-            .configure_mesh()
-            .x_desc(label)
-            .y_desc("wall seconds")
-            .draw()
-            .map_err(|e| e.to_string())?;
         let pts: Vec<(f64, f64)> = steps.iter().map(|s| (x_of(s), s.train_s)).collect();
-        chart
-            .draw_series(std::iter::once(PathElement::new(pts.clone(), BLUE)))
-            .map_err(|e| e.to_string())?;
-        chart
-            .draw_series(pts.iter().map(|&p| Circle::new(p, 3, BLUE.filled())))
-            .map_err(|e| e.to_string())?;
+        panels.push(XyChart {
+            title: format!("Training time against {label}"),
+            x_label: format!("{label} (count, log scale)"),
+            y_label: "wall time (s, log scale)".into(),
+            lines: vec![Line {
+                label: None,
+                xy: pts.clone(),
+                colour: BLUE,
+                dashed: false,
+            }],
+            points: vec![Points {
+                label: "measured".into(),
+                xy: pts,
+                y_err: vec![],
+                mark: Mark::Circle,
+                colour: BLUE,
+            }],
+            x_log: true,
+            y_log: true,
+            ..Default::default()
+        });
     }
-    root.present().map_err(|e| e.to_string())
+    let doc = draw_panels(&panels, None, "Training time against rows and inputs")
+        .map_err(|e| e.to_string())?;
+    std::fs::write(path, doc).map_err(|e| e.to_string())
 }
 
 fn arg(args: &[String], name: &str) -> Option<String> {

@@ -20,6 +20,7 @@
 #![warn(missing_docs)]
 #![deny(clippy::float_cmp)]
 
+pub mod chart;
 pub mod committee;
 pub mod curves;
 pub mod data;

@@ -379,6 +379,33 @@ impl Unit {
         }
     }
 
+    /// The unit a column name's suffix spells, for charts of a model trained
+    /// without a schema: `ni_wt` → wt%, `uts_mpa` → MPa, `charpy_j` → J,
+    /// `test_temp_c` → °C, `heat_input_kj_mm` → kJ/mm, `elong_pct` → %,
+    /// `o_ppm` → ppm. Only suffixes after an underscore count, the last two
+    /// parts (read as a ratio, `kj_mm`) before the last one; the one-letter
+    /// spellings of volts and amperes, and seconds, are not read from a
+    /// suffix (too easily a name's own letter). The naming habit is common
+    /// practice, no source.
+    pub fn from_column_suffix(name: &str) -> Option<Unit> {
+        let parts: Vec<&str> = name.split('_').collect();
+        if parts.len() < 2 {
+            return None;
+        }
+        let n = parts.len();
+        if n >= 3 {
+            if let Ok(u) = Unit::parse(&format!("{}/{}", parts[n - 2], parts[n - 1])) {
+                return Some(u);
+            }
+        }
+        let last = parts[n - 1].to_ascii_lowercase();
+        match last.as_str() {
+            "wt" => Some(Unit::WtPercent),
+            "" | "1" | "-" | "v" | "a" | "s" | "in" | "f" | "k" => None,
+            other => Unit::parse(other).ok(),
+        }
+    }
+
     /// Whether this unit is the internal unit of its quantity.
     pub fn is_internal(self) -> bool {
         Unit::internal_for(self.quantity()) == self
@@ -504,6 +531,20 @@ impl<'de> Deserialize<'de> for Unit {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn units_from_column_suffixes() {
+        let u = |n: &str| Unit::from_column_suffix(n).map(Unit::symbol);
+        assert_eq!(u("ni_wt"), Some("wt%"));
+        assert_eq!(u("uts_mpa"), Some("MPa"));
+        assert_eq!(u("charpy_j"), Some("J"));
+        assert_eq!(u("test_temp_c"), Some("°C"));
+        assert_eq!(u("heat_input_kj_mm"), Some("kJ/mm"));
+        assert_eq!(u("o_ppm"), Some("ppm"));
+        assert_eq!(u("elong_pct"), Some("%"));
+        assert_eq!(u("hardness"), None);
+        assert_eq!(u("grade_a"), None);
+    }
     use approx::assert_abs_diff_eq;
 
     #[test]

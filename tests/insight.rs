@@ -332,6 +332,15 @@ fn the_report_has_every_section_and_chart_and_no_external_url() {
         );
     }
     assert!(!p.style_text.contains("url(") && !p.style_text.contains("@import"));
+    // a document: the summary right after the caution, a table of contents,
+    // the effect curves of the main inputs, explanations folded, a print style
+    assert_eq!(p.sections[1], "summary");
+    assert!(p.elements.iter().any(|e| e == "nav"));
+    assert!(p.elements.iter().filter(|e| *e == "details").count() >= 3);
+    for want in ["fig-effect-y-x1", "fig-effect-y-x2"] {
+        assert!(ids.contains(&want), "{want} missing from {ids:?}");
+    }
+    assert!(p.style_text.contains("@media print"));
     // both parts have a calibration table
     assert!(p.calibration.contains_key("calibration-y-training-rows"));
     assert!(p.calibration.contains_key("calibration-y-held-out-rows"));

@@ -4,8 +4,8 @@ use std::path::PathBuf;
 
 use anyhow::Context;
 use clap::Args;
+use mettle::chart::{draw_panels, Line, Mark, Points, XyChart, BLUE, GREY, ORANGE};
 use mettle::data::Table;
-use mettle::report::plot::{xy_svg, Line, Mark, Points, XyChart, BLUE, GREY, ORANGE};
 use mettle::screen::{design, DesignOptions, DesignOutcome, DesignSpace};
 
 use super::progress::DesignProgress;
@@ -248,7 +248,7 @@ fn front_svg(o: &DesignOutcome, currency: &str) -> anyhow::Result<String> {
     let chart = XyChart {
         title: "Design: alloy cost against joint probability (estimates, not test results)".into(),
         x_label: format!("alloy cost per tonne ({currency})"),
-        y_label: "joint probability of meeting the requirements".into(),
+        y_label: "joint probability of meeting the requirements (0 to 1)".into(),
         points: vec![
             Points {
                 label: "points tried (in domain, within limits)".into(),
@@ -269,12 +269,14 @@ fn front_svg(o: &DesignOutcome, currency: &str) -> anyhow::Result<String> {
             label: Some("front: highest probability for the cost".into()),
             xy: front,
             colour: BLUE,
+            dashed: false,
         }],
-        bands: Vec::new(),
-        x_range: None,
-        y_range: Some((0.0, 1.05)),
+        y_range: Some((0.0, 1.0)),
+        ..Default::default()
     };
-    let mut svg = xy_svg(&chart)?;
-    svg.push_str(&format!("<!-- {CAUTION} -->\n"));
-    Ok(svg)
+    Ok(draw_panels(
+        std::slice::from_ref(&chart),
+        Some(CAUTION),
+        &chart.title,
+    )?)
 }

@@ -4,8 +4,8 @@ use std::path::PathBuf;
 
 use clap::Args;
 use mettle::curves::{
-    base_row, parse_set, sweep, sweep_map_svg, sweep_svg, transition, Axis, Requirement, Sweep,
-    TransitionOptions, DEFAULT_STEPS_1D, DEFAULT_STEPS_2D,
+    base_row, parse_set, sweep, sweep_map_svg, sweep_svg, transition, transition_svg, Axis,
+    Requirement, Sweep, TransitionOptions, DEFAULT_STEPS_1D, DEFAULT_STEPS_2D,
 };
 use mettle::data::{write_atomic, Table};
 use mettle::Model;
@@ -22,7 +22,8 @@ and estimate every target along the way with 68 % and 95 % bands. A second --var
 The base heat is the first row of --base, with --set values on top; an input given nowhere is held \
 at its training median (said on stderr). Each point carries the domain guard's verdict: in the CSV \
 the in_domain column and notes; in the SVG the out-of-domain stretch is dashed over a grey \
-background (on a map, crossed-out cells). Physically impossible estimates (negative energy, \
+background (a map draws one panel per target, or per --target: contours labelled with their \
+values, cells shaded by the error bar with its scale beside, out-of-domain cells hatched). Physically impossible estimates (negative energy, \
 elongation above 100 %) are flagged in the *_impossible column and the notes, never clipped.\n\n\
 CSV columns: the varied inputs, then per target <t>_centre, <t>_mean, <t>_sd, <t>_lo68, <t>_hi68, \
 <t>_lo95, <t>_hi95, <t>_impossible, then in_domain, distance_ratio, support, notes.\n\n\
@@ -48,6 +49,9 @@ pub struct SweepArgs {
     /// Draw the curve (or map) as SVG.
     #[arg(long, value_name = "FILE.svg")]
     plot: Option<PathBuf>,
+    /// Draw only this target (repeatable; every target by default).
+    #[arg(long, value_name = "NAME")]
+    target: Vec<String>,
 }
 
 fn load_base(
@@ -148,10 +152,27 @@ pub fn run(a: SweepArgs) -> anyhow::Result<()> {
     let base = load_base(&model, a.base.as_ref(), &a.set)?;
     let s = sweep(&model, base, &axes)?;
     if let Some(p) = &a.plot {
+        let mut chosen = Vec::new();
+        for t in &a.target {
+            let k = s.targets.iter().position(|n| n == t).ok_or_else(|| {
+                UsageError(format!(
+                    "--target {t}: not a target of the model ({})",
+                    s.targets.join(", ")
+                ))
+            })?;
+            chosen.push(k);
+        }
         let svg = if axes.len() == 1 {
-            sweep_svg(&s, CAUTION)?
+            let mut one = s.clone();
+            if !chosen.is_empty() {
+                one.targets = chosen.iter().map(|&k| s.targets[k].clone()).collect();
+                for p in &mut one.points {
+                    p.bands = chosen.iter().map(|&k| p.bands[k].clone()).collect();
+                }
+            }
+            sweep_svg(&model, &one, CAUTION)?
         } else {
-            sweep_map_svg(&s, 0, CAUTION)?
+            sweep_map_svg(&model, &s, &chosen, CAUTION)?
         };
         write_plot(p, &svg)?;
     }
@@ -221,7 +242,8 @@ pub struct TransitionArgs {
     /// Write the curve as CSV.
     #[arg(long, value_name = "FILE.csv")]
     out: Option<PathBuf>,
-    /// Draw the curve as SVG.
+    /// Draw the curve as SVG: the energy target only, the --energy levels as lines with the
+    /// crossing temperatures' 95 % intervals on them, the requirement's point with its probability.
     #[arg(long, value_name = "FILE.svg")]
     plot: Option<PathBuf>,
     /// Print the summary as JSON.
@@ -267,7 +289,7 @@ pub fn run_transition(a: TransitionArgs) -> anyhow::Result<()> {
         eprintln!("wrote {}", p.display());
     }
     if let Some(p) = &a.plot {
-        write_plot(p, &sweep_svg(&t.curve, CAUTION)?)?;
+        write_plot(p, &transition_svg(&model, &t, CAUTION)?)?;
     }
     warn_out(&t.curve);
     for n in &t.notes {

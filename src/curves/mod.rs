@@ -9,7 +9,7 @@
 mod plot;
 mod transition;
 
-pub use plot::{sweep_map_svg, sweep_svg};
+pub use plot::{effect_chart, sweep_map_svg, sweep_svg, transition_svg};
 pub use transition::{crossing, transition, Crossing, Requirement, Transition, TransitionOptions};
 
 use crate::committee::ONE_SD_SHARE;

@@ -1,58 +1,159 @@
-//! SVG drawings of sweeps, with plotters.
+//! SVG drawings of sweeps, maps and transition curves (through
+//! [`crate::chart`]).
 //!
 //! A curve: the 95 % band pale, the 68 % band darker, the centre line
 //! solid where the guard finds the point in domain and dashed where it
 //! does not, the out-of-domain stretch also shaded grey behind the curve
-//! and named in the legend (shape and shade, not colour alone). A map:
-//! cells shaded by the predictive sd (darker = wider error bar), contour
-//! lines of the centre, out-of-domain cells crossed out.
+//! and named in the legend (shape and shade, not colour alone). A map: one
+//! panel per target, cells shaded by the predictive sd with a scale,
+//! labelled contours of the centre, out-of-domain cells hatched. A
+//! transition curve: the energy target only, the requested energies as
+//! lines with the crossing temperatures' 95 % intervals on them, and the
+//! requirement's point with its probability.
 
-use plotters::prelude::*;
-
-use super::Sweep;
+use super::{Sweep, Transition};
+use crate::chart::{
+    draw_panels, map_svg, Band, HLine, Line, MapPanel, Mark, Note, Points, XInterval, XyChart,
+    BLUE, GREY, INK, VERMILION,
+};
 use crate::error::{Error, Result};
+use crate::explain::{chart_label, chart_unit};
+use crate::model::Model;
 
-const INK: RGBColor = RGBColor(0x22, 0x22, 0x28);
-const LINE: RGBColor = RGBColor(0x1d, 0x4e, 0x89);
-const BAND95: RGBColor = RGBColor(0xc9, 0xd9, 0xee);
-const BAND68: RGBColor = RGBColor(0x8f, 0xb1, 0xdb);
-const OUTSIDE: RGBColor = RGBColor(0xdd, 0xdd, 0xdd);
-
-fn err(e: impl std::fmt::Display) -> Error {
-    Error::Write {
-        path: "SVG drawing".into(),
-        source: std::io::Error::other(e.to_string()),
-    }
+/// The unit symbol of `name` for text ("MPa"), empty when unknown.
+fn unit_text(model: &Model, name: &str) -> String {
+    chart_unit(model, name)
+        .map(|u| u.symbol().to_string())
+        .filter(|s| s != "1")
+        .unwrap_or_default()
 }
 
-fn span(v: impl Iterator<Item = f64>) -> (f64, f64) {
-    let (lo, hi) = v
-        .filter(|x| x.is_finite())
-        .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), x| {
-            (a.min(x), b.max(x))
-        });
-    if !lo.is_finite() {
-        return (0.0, 1.0);
-    }
-    let pad = if hi > lo { 0.05 * (hi - lo) } else { 1.0 };
-    (lo - pad, hi + pad)
-}
-
-/// Dashes of a polyline: every other piece of length `dash` (data units of x).
-fn dashes(xy: &[(f64, f64)], dash: f64) -> Vec<Vec<(f64, f64)>> {
-    let mut out = Vec::new();
-    for w in xy.windows(2) {
-        let (a, b) = (w[0], w[1]);
-        let n = (((b.0 - a.0).abs() / dash).ceil() as usize).max(1);
-        for i in (0..n).step_by(2) {
-            let p = |t: f64| (a.0 + (b.0 - a.0) * t, a.1 + (b.1 - a.1) * t);
-            out.push(vec![
-                p(i as f64 / n as f64),
-                p(((i + 1) as f64 / n as f64).min(1.0)),
-            ]);
+/// The curve of target `k` along the sweep's single axis: bands, the
+/// centre line (dashed outside the domain), the out-of-domain stretch
+/// shaded, impossible estimates crossed.
+fn curve_chart(model: &Model, s: &Sweep, k: usize, title: String) -> XyChart {
+    let x: Vec<f64> = s.points.iter().map(|p| p.at[0]).collect();
+    let b: Vec<_> = s.points.iter().map(|p| &p.bands[k]).collect();
+    let inside: Vec<bool> = s.points.iter().map(|p| p.verdict.in_domain).collect();
+    let (y0, y1) = crate::chart::padded(b.iter().flat_map(|b| [b.lo95, b.hi95]));
+    // the dashed runs reach one point into the solid ones, so they join
+    let run = |solid: bool| -> Vec<(f64, f64)> {
+        let out = |i: usize| !inside[i];
+        (0..x.len())
+            .map(|i| {
+                let keep = if solid {
+                    inside[i]
+                } else {
+                    out(i) || (i > 0 && out(i - 1)) || (i + 1 < x.len() && out(i + 1))
+                };
+                if keep {
+                    (x[i], b[i].median)
+                } else {
+                    (f64::NAN, f64::NAN)
+                }
+            })
+            .collect()
+    };
+    let dx = if x.len() > 1 {
+        0.5 * (x[1] - x[0]).abs()
+    } else {
+        0.0
+    };
+    // the shade reaches past the fixed y range: the chart clips it to the plot
+    let far = 1e3 * (y1 - y0).abs().max(1.0);
+    let mut shade = Vec::new();
+    for i in 0..x.len() {
+        if inside[i] {
+            shade.push((f64::NAN, f64::NAN, f64::NAN));
+        } else {
+            shade.push((x[i] - dx, y0 - far, y1 + far));
+            shade.push((x[i] + dx, y0 - far, y1 + far));
         }
     }
-    out
+    let mut bands = Vec::new();
+    if inside.iter().any(|v| !v) {
+        bands.push(Band {
+            label: "outside the training domain (centre line dashed)".into(),
+            x_lo_hi: shade,
+            colour: GREY,
+            opacity: 0.2,
+        });
+    }
+    bands.push(Band {
+        label: "95 % band".into(),
+        x_lo_hi: x
+            .iter()
+            .zip(&b)
+            .map(|(x, b)| (*x, b.lo95, b.hi95))
+            .collect(),
+        colour: BLUE,
+        opacity: 0.16,
+    });
+    bands.push(Band {
+        label: "68 % band".into(),
+        x_lo_hi: x
+            .iter()
+            .zip(&b)
+            .map(|(x, b)| (*x, b.lo68, b.hi68))
+            .collect(),
+        colour: BLUE,
+        opacity: 0.28,
+    });
+    let mut lines = vec![Line {
+        label: Some("centre estimate (median)".into()),
+        xy: run(true),
+        colour: BLUE,
+        dashed: false,
+    }];
+    if inside.iter().any(|v| !v) {
+        lines.push(Line {
+            label: None,
+            xy: run(false),
+            colour: BLUE,
+            dashed: true,
+        });
+    }
+    let impossible: Vec<(f64, f64)> = x
+        .iter()
+        .zip(&b)
+        .filter(|(_, b)| b.impossible)
+        .map(|(x, b)| (*x, b.median))
+        .collect();
+    let points = if impossible.is_empty() {
+        vec![]
+    } else {
+        vec![Points {
+            label: "physically impossible estimate".into(),
+            xy: impossible,
+            y_err: vec![],
+            mark: Mark::Cross,
+            colour: VERMILION,
+        }]
+    };
+    XyChart {
+        title,
+        x_label: chart_label(model, &s.axes[0].name),
+        y_label: chart_label(model, &s.targets[k]),
+        bands,
+        lines,
+        points,
+        x_range: Some((x[0].min(x[x.len() - 1]), x[0].max(x[x.len() - 1]))),
+        y_range: Some((y0, y1)),
+        size: Some((720, 380)),
+        ..Default::default()
+    }
+}
+
+/// The curve of target `k` of a one-axis sweep as a chart (bands, centre
+/// line dashed outside the domain, the out-of-domain stretch shaded), for
+/// drawing elsewhere (the report's effect curves).
+pub fn effect_chart(model: &Model, s: &Sweep, k: usize) -> XyChart {
+    curve_chart(
+        model,
+        s,
+        k,
+        format!("{} along {}", s.targets[k], s.axes[0].name),
+    )
 }
 
 /// One panel per target of a one-axis sweep; `caution` is printed under
@@ -60,8 +161,8 @@ fn dashes(xy: &[(f64, f64)], dash: f64) -> Vec<Vec<(f64, f64)>> {
 ///
 /// # Errors
 /// [`Error::InvalidParameter`] for a sweep without exactly one axis;
-/// [`Error::Write`] when drawing fails.
-pub fn sweep_svg(s: &Sweep, caution: &str) -> Result<String> {
+/// [`Error::Plot`] when drawing fails.
+pub fn sweep_svg(model: &Model, s: &Sweep, caution: &str) -> Result<String> {
     if s.axes.len() != 1 {
         return Err(Error::InvalidParameter {
             name: "vary",
@@ -69,159 +170,29 @@ pub fn sweep_svg(s: &Sweep, caution: &str) -> Result<String> {
             expected: "one axis for a curve".into(),
         });
     }
-    let (w, ph) = (720u32, 340u32);
-    let h = ph * s.targets.len() as u32 + 40;
-    let mut svg = String::new();
-    {
-        let root = SVGBackend::with_string(&mut svg, (w, h)).into_drawing_area();
-        root.fill(&WHITE).map_err(err)?;
-        let (body, foot) = root.split_vertically(h - 40);
-        foot.draw(&Text::new(
-            caution.to_string(),
-            (10, 12),
-            ("sans-serif", 11).into_font().color(&INK),
-        ))
-        .map_err(err)?;
-        let x: Vec<f64> = s.points.iter().map(|p| p.at[0]).collect();
-        let (x0, x1) = (x[0].min(x[x.len() - 1]), x[0].max(x[x.len() - 1]));
-        for (k, panel) in body.split_evenly((s.targets.len(), 1)).iter().enumerate() {
-            let b: Vec<_> = s.points.iter().map(|p| &p.bands[k]).collect();
-            let (y0, y1) = span(b.iter().flat_map(|b| [b.lo95, b.hi95]));
-            let mut chart = ChartBuilder::on(panel)
-                .caption(
-                    format!(
-                        "{} against {} (other inputs at the base heat)",
-                        s.targets[k], s.axes[0].name
-                    ),
-                    ("sans-serif", 15).into_font().color(&INK),
-                )
-                .margin(10)
-                .x_label_area_size(36)
-                .y_label_area_size(56)
-                .build_cartesian_2d(x0..x1, y0..y1)
-                .map_err(err)?;
-            chart
-                .configure_mesh()
-                .x_desc(s.axes[0].name.as_str())
-                .y_desc(s.targets[k].as_str())
-                .light_line_style(WHITE.mix(0.0))
-                .label_style(("sans-serif", 11).into_font().color(&INK))
-                .draw()
-                .map_err(err)?;
-            // out-of-domain stretch: grey background per grid interval
-            let dx = if x.len() > 1 {
-                (x[1] - x[0]).abs() / 2.0
-            } else {
-                0.0
-            };
-            let outside: Vec<_> = s
-                .points
-                .iter()
-                .filter(|p| !p.verdict.in_domain)
-                .map(|p| Rectangle::new([(p.at[0] - dx, y0), (p.at[0] + dx, y1)], OUTSIDE.filled()))
-                .collect();
-            chart
-                .draw_series(outside)
-                .map_err(err)?
-                .label("outside the training domain (dashed)")
-                .legend(|(a, b)| Rectangle::new([(a, b - 5), (a + 14, b + 5)], OUTSIDE.filled()));
-            type Edge = fn(&super::Band) -> f64;
-            let bands: [(Edge, Edge, RGBColor, &str); 2] = [
-                (|b| b.lo95, |b| b.hi95, BAND95, "95 % band"),
-                (|b| b.lo68, |b| b.hi68, BAND68, "68 % band"),
-            ];
-            for (lo, hi, c, label) in bands {
-                let mut poly: Vec<(f64, f64)> =
-                    x.iter().zip(&b).map(|(x, b)| (*x, hi(b))).collect();
-                poly.extend(x.iter().zip(&b).rev().map(|(x, b)| (*x, lo(b))));
-                chart
-                    .draw_series(std::iter::once(Polygon::new(poly, c.mix(0.8).filled())))
-                    .map_err(err)?
-                    .label(label)
-                    .legend(move |(a, y)| {
-                        Rectangle::new([(a, y - 5), (a + 14, y + 5)], c.filled())
-                    });
-            }
-            // centre line: solid inside the domain, dashed outside
-            let mut inside_runs: Vec<Vec<(f64, f64)>> = Vec::new();
-            let mut outside_runs: Vec<Vec<(f64, f64)>> = Vec::new();
-            for (i, p) in s.points.iter().enumerate() {
-                let runs = if p.verdict.in_domain {
-                    &mut inside_runs
-                } else {
-                    &mut outside_runs
-                };
-                let pt = (x[i], b[i].median);
-                let prev_same = i > 0 && s.points[i - 1].verdict.in_domain == p.verdict.in_domain;
-                match runs.last_mut() {
-                    Some(r) if prev_same => r.push(pt),
-                    _ => {
-                        // start a run at the previous point so the line joins up
-                        let mut r = Vec::new();
-                        if i > 0 {
-                            r.push((x[i - 1], b[i - 1].median));
-                        }
-                        r.push(pt);
-                        runs.push(r);
-                    }
-                }
-            }
-            let style = ShapeStyle::from(&LINE).stroke_width(2);
-            chart
-                .draw_series(inside_runs.into_iter().map(|r| PathElement::new(r, style)))
-                .map_err(err)?
-                .label("centre estimate")
-                .legend(move |(a, y)| PathElement::new(vec![(a, y), (a + 14, y)], style));
-            let dash = (x1 - x0) / 80.0;
-            chart
-                .draw_series(
-                    outside_runs
-                        .iter()
-                        .flat_map(|r| dashes(r, dash))
-                        .map(|d| PathElement::new(d, style)),
-                )
-                .map_err(err)?;
-            let impossible: Vec<_> = s
-                .points
-                .iter()
-                .zip(&b)
-                .filter(|(_, b)| b.impossible)
-                .map(|(p, b)| {
-                    Cross::new(
-                        (p.at[0], b.median),
-                        4,
-                        ShapeStyle::from(&RED).stroke_width(2),
-                    )
-                })
-                .collect();
-            if !impossible.is_empty() {
-                chart
-                    .draw_series(impossible)
-                    .map_err(err)?
-                    .label("physically impossible estimate")
-                    .legend(|(a, y)| {
-                        Cross::new((a + 7, y), 4, ShapeStyle::from(&RED).stroke_width(2))
-                    });
-            }
-            chart
-                .configure_series_labels()
-                .background_style(WHITE.mix(0.85))
-                .border_style(INK)
-                .label_font(("sans-serif", 11).into_font().color(&INK))
-                .draw()
-                .map_err(err)?;
-        }
-        root.present().map_err(err)?;
-    }
-    Ok(svg)
+    let panels: Vec<XyChart> = (0..s.targets.len())
+        .map(|k| {
+            let title = format!(
+                "{} against {} (other inputs held at the base)",
+                s.targets[k], s.axes[0].name
+            );
+            curve_chart(model, s, k, title)
+        })
+        .collect();
+    draw_panels(
+        &panels,
+        Some(caution),
+        &format!("Sweep of {} along {}", s.targets.join(", "), s.axes[0].name),
+    )
 }
 
-/// A two-axis sweep of target `k` as a map.
+/// A two-axis sweep as maps, one panel per target in `targets` (indices
+/// into the sweep's targets; every target when empty).
 ///
 /// # Errors
-/// [`Error::InvalidParameter`] for a sweep without exactly two axes;
-/// [`Error::Write`] when drawing fails.
-pub fn sweep_map_svg(s: &Sweep, k: usize, caution: &str) -> Result<String> {
+/// [`Error::InvalidParameter`] for a sweep without exactly two axes or a
+/// target index out of range; [`Error::Plot`] when drawing fails.
+pub fn sweep_map_svg(model: &Model, s: &Sweep, targets: &[usize], caution: &str) -> Result<String> {
     if s.axes.len() != 2 {
         return Err(Error::InvalidParameter {
             name: "vary",
@@ -229,118 +200,123 @@ pub fn sweep_map_svg(s: &Sweep, k: usize, caution: &str) -> Result<String> {
             expected: "two axes for a map".into(),
         });
     }
-    let (nx, ny) = (s.axes[0].steps, s.axes[1].steps);
-    let xs = s.axes[0].values();
-    let ys = s.axes[1].values();
-    let at = |i: usize, j: usize| &s.points[j * nx + i];
-    let (sd_lo, sd_hi) = s
-        .points
-        .iter()
-        .map(|p| p.bands[k].sd)
-        .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), v| {
-            (a.min(v), b.max(v))
+    let all: Vec<usize> = (0..s.targets.len()).collect();
+    let chosen = if targets.is_empty() {
+        &all[..]
+    } else {
+        targets
+    };
+    let mut panels = Vec::new();
+    for &k in chosen {
+        let name = s.targets.get(k).ok_or_else(|| Error::InvalidParameter {
+            name: "target",
+            value: k.to_string(),
+            expected: format!("one of the model's {} targets", s.targets.len()),
+        })?;
+        let unit = unit_text(model, name);
+        panels.push(MapPanel {
+            title: format!("{name} over {} and {}", s.axes[0].name, s.axes[1].name),
+            x_label: chart_label(model, &s.axes[0].name),
+            y_label: chart_label(model, &s.axes[1].name),
+            xs: s.axes[0].values(),
+            ys: s.axes[1].values(),
+            centre: s.points.iter().map(|p| p.bands[k].median).collect(),
+            sd: s.points.iter().map(|p| p.bands[k].sd).collect(),
+            outside: s.points.iter().map(|p| !p.verdict.in_domain).collect(),
+            sd_label: format!(
+                "error bar: sd of the estimate ({})",
+                if unit.is_empty() {
+                    "unit of the training file"
+                } else {
+                    unit.as_str()
+                }
+            ),
+            contour_label: chart_label(model, name),
         });
-    let mut svg = String::new();
-    {
-        let root = SVGBackend::with_string(&mut svg, (720, 600)).into_drawing_area();
-        root.fill(&WHITE).map_err(err)?;
-        let (body, foot) = root.split_vertically(560);
-        foot.draw(&Text::new(
-            caution.to_string(),
-            (10, 12),
-            ("sans-serif", 11).into_font().color(&INK),
-        ))
-        .map_err(err)?;
-        let hx = (xs[1] - xs[0]).abs() / 2.0;
-        let hy = (ys[1] - ys[0]).abs() / 2.0;
-        let (x0, x1) = (xs[0].min(xs[nx - 1]) - hx, xs[0].max(xs[nx - 1]) + hx);
-        let (y0, y1) = (ys[0].min(ys[ny - 1]) - hy, ys[0].max(ys[ny - 1]) + hy);
-        let mut chart = ChartBuilder::on(&body)
-            .caption(
-                format!(
-                    "{}: contours of the centre, shade = sd (darker wider), × outside the domain",
-                    s.targets[k]
-                ),
-                ("sans-serif", 14).into_font().color(&INK),
-            )
-            .margin(10)
-            .x_label_area_size(36)
-            .y_label_area_size(56)
-            .build_cartesian_2d(x0..x1, y0..y1)
-            .map_err(err)?;
-        chart
-            .configure_mesh()
-            .x_desc(s.axes[0].name.as_str())
-            .y_desc(s.axes[1].name.as_str())
-            .label_style(("sans-serif", 11).into_font().color(&INK))
-            .draw()
-            .map_err(err)?;
-        let shade = |sd: f64| {
-            let t = if sd_hi > sd_lo {
-                (sd - sd_lo) / (sd_hi - sd_lo)
-            } else {
-                0.0
-            };
-            let g = (235.0 - 150.0 * t) as u8;
-            RGBColor(g, g, g)
-        };
-        let mut cells = Vec::new();
-        let mut crosses = Vec::new();
-        for (j, &y) in ys.iter().enumerate() {
-            for (i, &x) in xs.iter().enumerate() {
-                let p = at(i, j);
-                cells.push(Rectangle::new(
-                    [(x - hx, y - hy), (x + hx, y + hy)],
-                    shade(p.bands[k].sd).filled(),
-                ));
-                if !p.verdict.in_domain {
-                    crosses.push(Cross::new(
-                        (xs[i], ys[j]),
-                        3,
-                        ShapeStyle::from(&INK).stroke_width(1),
-                    ));
-                }
-            }
-        }
-        chart.draw_series(cells).map_err(err)?;
-        chart.draw_series(crosses).map_err(err)?;
-        // contours by marching squares on the cell centres, 8 levels
-        let (c_lo, c_hi) = s
-            .points
-            .iter()
-            .map(|p| p.bands[k].median)
-            .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), v| {
-                (a.min(v), b.max(v))
-            });
-        let mut segs = Vec::new();
-        for l in 1..8 {
-            let level = c_lo + (c_hi - c_lo) * l as f64 / 8.0;
-            for j in 0..ny - 1 {
-                for i in 0..nx - 1 {
-                    let corner = [(i, j), (i + 1, j), (i + 1, j + 1), (i, j + 1)];
-                    let mut pts = Vec::new();
-                    for e in 0..4 {
-                        let (a, b) = (corner[e], corner[(e + 1) % 4]);
-                        let (va, vb) = (at(a.0, a.1).bands[k].median, at(b.0, b.1).bands[k].median);
-                        if (va < level) != (vb < level) {
-                            let t = (level - va) / (vb - va);
-                            pts.push((
-                                xs[a.0] + t * (xs[b.0] - xs[a.0]),
-                                ys[a.1] + t * (ys[b.1] - ys[a.1]),
-                            ));
-                        }
-                    }
-                    for pair in pts.chunks(2).filter(|c| c.len() == 2) {
-                        segs.push(PathElement::new(
-                            pair.to_vec(),
-                            ShapeStyle::from(&LINE).stroke_width(1),
-                        ));
-                    }
-                }
-            }
-        }
-        chart.draw_series(segs).map_err(err)?;
-        root.present().map_err(err)?;
     }
-    Ok(svg)
+    map_svg(
+        &panels,
+        Some(caution),
+        &format!("Map over {} and {}", s.axes[0].name, s.axes[1].name),
+    )
+}
+
+/// The transition curve of the energy target: bands, centre line, the
+/// requested energies as lines with the crossings' 95 % intervals, the
+/// requirement's point with its probability.
+///
+/// # Errors
+/// [`Error::Plot`] when drawing fails.
+pub fn transition_svg(model: &Model, t: &Transition, caution: &str) -> Result<String> {
+    let s = &t.curve;
+    let name = &s.targets[t.target];
+    let tu = unit_text(model, &s.axes[0].name);
+    let tu = if tu.is_empty() { "°C".to_string() } else { tu };
+    let eu = unit_text(model, name);
+    let eu = if eu.is_empty() { "J".to_string() } else { eu };
+    let mut c = curve_chart(
+        model,
+        s,
+        t.target,
+        format!("Transition curve of {name}: crossings with 95 % intervals"),
+    );
+    c.x_label = format!("test temperature {} ({tu})", s.axes[0].name);
+    c.y_label = format!("impact energy {name} ({eu})");
+    let t_fmt = |v: f64| format!("{v:.0}");
+    // short labels on the chart, the numbers in full under it
+    let mut foot = Vec::new();
+    for x in &t.crossings {
+        let e = format!("{}", x.energy);
+        let text = match (x.lo95, x.hi95) {
+            (Some(lo), Some(hi)) => {
+                let mid = x.median.or(x.centre);
+                c.x_intervals.push(XInterval {
+                    y: x.energy,
+                    lo,
+                    hi,
+                    centre: mid,
+                    label: format!("T{e}J"),
+                    colour: INK,
+                });
+                foot.push(format!(
+                    "T{e}J {}(95 % interval {} to {} {tu}).",
+                    mid.map_or(String::new(), |m| format!("{} {tu} ", t_fmt(m))),
+                    t_fmt(lo),
+                    t_fmt(hi)
+                ));
+                format!("{e} {eu}")
+            }
+            _ => {
+                foot.push(format!(
+                    "{e} {eu}: crossed inside the range by {:.0} % of the drawn curves, too few for an interval.",
+                    100.0 * x.reached
+                ));
+                format!("{e} {eu} (no interval)")
+            }
+        };
+        c.h_lines.push(HLine {
+            y: x.energy,
+            label: text,
+            colour: GREY,
+        });
+    }
+    if let Some((r, p_test, p_mean)) = &t.requirement {
+        c.notes.push(Note {
+            xy: (r.temperature, r.energy),
+            text: format!("P = {p_test:.2}"),
+            mark: Mark::Diamond,
+            colour: VERMILION,
+        });
+        foot.push(format!(
+            "Requirement {}: probability {p_test:.2} that one test meets it, {p_mean:.2} that the heat's mean energy does.",
+            r.label
+        ));
+    }
+    c.size = Some((760, 500));
+    foot.push(caution.to_string());
+    draw_panels(
+        std::slice::from_ref(&c),
+        Some(&foot.join(" ")),
+        &c.title.clone(),
+    )
 }

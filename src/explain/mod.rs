@@ -305,6 +305,21 @@ pub fn input_unit(model: &Model, name: &str) -> Option<Unit> {
         .map(|u| Unit::internal_for(u.quantity()))
 }
 
+/// The unit of a model's input or target on charts: the schema's (the
+/// internal unit of the declared quantity, as predictions are reported),
+/// else the one the column name's suffix spells
+/// ([`Unit::from_column_suffix`]), else `None`.
+pub fn chart_unit(model: &Model, name: &str) -> Option<Unit> {
+    input_unit(model, name)
+        .or_else(|| model.target_unit(name, false))
+        .or_else(|| Unit::from_column_suffix(name))
+}
+
+/// An axis label with the unit: `ni_wt (wt%)`; see [`chart_unit`].
+pub fn chart_label(model: &Model, name: &str) -> String {
+    label(name, chart_unit(model, name))
+}
+
 /// How a target is learnt, in words: `as it is`, `on the log scale`.
 pub fn scale_words(scale: &str) -> String {
     match scale {

@@ -2,8 +2,8 @@
 //! out-of-fold estimates against measured values (also written by
 //! `mettle validate --svg`).
 
-use super::plot::{padded, xy_svg, Line, Mark, Points, XyChart, BLUE, GREY};
 use super::{esc, figure, table};
+use crate::chart::{padded, xy_svg, Line, Mark, Points, XyChart, BLUE, GREY};
 use crate::error::Result;
 use crate::validate::{Figure, TargetValidation, Validation};
 
@@ -64,6 +64,7 @@ pub fn out_of_fold_svg(t: &TargetValidation) -> Result<String> {
             label: Some("estimate = measured".into()),
             xy: vec![(lo, lo), (hi, hi)],
             colour: GREY,
+            dashed: false,
         }],
         x_range: Some((lo, hi)),
         y_range: Some((lo, hi)),
