@@ -40,8 +40,8 @@ use serde::{Deserialize, Serialize};
 use crate::data::Table;
 use crate::derive::{Composition, Derivation, RowWarning};
 use crate::error::{Error, Result};
-use crate::model::TargetTransform;
 use crate::prec::{BOUNDED_MARGIN_DEFAULT, COMPOSITION_SUM_SLACK};
+use crate::transform::TargetTransform;
 use crate::units::{Quantity, Unit};
 
 /// The schema format version this build reads and writes.

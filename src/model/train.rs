@@ -3,16 +3,14 @@
 use ndarray::{Array1, Array2};
 
 use super::{
-    InputColumn, Model, SetAside, TargetModel, TargetTransform, TrainingRecord, MODEL_FORMAT,
-    MODEL_FORMAT_VERSION,
+    summarise_training, DomainReference, InputColumn, Model, SetAside, TargetModel,
+    TargetTransform, TrainingRecord, MODEL_FORMAT, MODEL_FORMAT_VERSION,
 };
 use crate::committee::{train_committee, CommitteeParams};
 use crate::data::schema::{PrepareOptions, Schema};
 use crate::data::{fingerprint, Table};
 use crate::derive::RowWarning;
-use crate::domain::DomainReference;
 use crate::error::{Error, Result};
-use crate::explain::summarise_training;
 use crate::features::{ColumnScaling, Transform};
 use crate::observer::TrainObserver;
 
