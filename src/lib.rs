@@ -7,7 +7,9 @@
 //! Neural Computation 4:415 and 4:448; Bishop 1995, *Neural Networks for
 //! Pattern Recognition*, ch. 10).
 //!
-//! The modules follow the data's path: [`data`] (tables in, files out) →
+//! The modules follow the data's path (imports run only down it; the layer
+//! order is stated in DEVELOPERS.md): [`transform`] (a target's learnt
+//! scale) → [`data`] (tables in, files out) →
 //! [`features`] (transforms and scaling) → [`net`] (the network) →
 //! [`evidence`] (one network's Bayesian training) → [`committee`] (the
 //! candidate search and the committee) → [`model`] (the trained model and
@@ -40,6 +42,7 @@ pub mod prec;
 pub mod predict;
 pub mod report;
 pub mod screen;
+pub mod transform;
 pub mod units;
 pub mod validate;
 

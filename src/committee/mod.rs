@@ -36,6 +36,7 @@ mod noise_models;
 mod params;
 mod pipeline;
 mod refit;
+mod relevance;
 mod residual;
 mod split;
 #[cfg(test)]
@@ -50,6 +51,10 @@ pub use kriging::{ResidualKriging, KRIGING_MAX_ROWS};
 pub use noise::NoiseModel;
 pub use params::{CheckedCommitteeParams, CommitteeParams, KrigingMode, NoiseMode};
 pub use pipeline::train_committee;
+pub use relevance::{
+    member_relevance, relevance, relevance_over, relevance_with_spread, RelevanceRange,
+    RELEVANCE_MEANING,
+};
 pub use tails::{TailShape, ONE_SD_SHARE, TWO_SD_SHARE};
 
 use ndarray::{Array1, Array2, ArrayView2};

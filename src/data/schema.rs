@@ -40,8 +40,8 @@ use serde::{Deserialize, Serialize};
 use crate::data::Table;
 use crate::derive::{Composition, Derivation, RowWarning};
 use crate::error::{Error, Result};
-use crate::model::TargetTransform;
 use crate::prec::{BOUNDED_MARGIN_DEFAULT, COMPOSITION_SUM_SLACK};
+use crate::transform::TargetTransform;
 use crate::units::{Quantity, Unit};
 
 /// The schema format version this build reads and writes.
@@ -369,95 +369,108 @@ impl Schema {
                 return Err(col("declared twice".into()));
             }
             seen.push(&c.name);
-            if c.role.is_numeric() && c.unit.is_none() {
-                return Err(col(format!(
-                    "role {} needs a unit (write unit = \"1\" for a pure number); known units: {}",
-                    c.role.name(),
-                    Unit::known_list()
-                )));
-            }
-            for (k, v) in [("min", c.min), ("max", c.max), ("margin", c.margin)] {
-                if v.is_some_and(|x| !x.is_finite()) {
-                    return Err(col(format!("{k} must be a finite number")));
-                }
-            }
-            if let (Some(lo), Some(hi)) = (c.min, c.max) {
-                if lo >= hi {
-                    return Err(col(format!("min = {lo} must be below max = {hi}")));
-                }
-            }
-            if (c.min.is_some() || c.max.is_some()) && !c.role.is_numeric() {
-                return Err(col(format!(
-                    "bounds are for input, target and auxiliary columns, not {}",
-                    c.role.name()
-                )));
-            }
-            if c.transform != TransformChoice::None && c.role != Role::Target {
-                return Err(col(format!(
-                    "transform is for targets only (this column is {})",
-                    c.role.name()
-                )));
-            }
-            match c.transform {
-                TransformChoice::Log if c.unit_or_1().quantity() == Quantity::Temperature => {
-                    return Err(col(
-                        "a log transform needs a quantity with a true zero; a temperature has none (use transform = \"bounded\" or none)".into(),
-                    ))
-                }
-                TransformChoice::Bounded if c.min.is_none() || c.max.is_none() => {
-                    return Err(col(
-                        "transform = \"bounded\" needs both min and max: the interval the values are confined to".into(),
-                    ))
-                }
-                _ => {}
-            }
-            if let Some(m) = c.margin {
-                if c.transform != TransformChoice::Bounded {
-                    return Err(col("margin is for bounded targets only".into()));
-                }
-                if !(m > 0.0 && m < 0.5) {
-                    return Err(col(format!(
-                        "margin = {m}: expected a share of the interval between 0 and 0.5 (default {BOUNDED_MARGIN_DEFAULT})"
-                    )));
-                }
-            }
-            if let Some(s) = &c.stands_for {
-                let Some(q) = conventional_quantity(s) else {
-                    return Err(col(format!(
-                        "stands_for = \"{s}\" is not a name derivations read; known names: {}",
-                        conventional_names()
-                    )));
-                };
-                if !matches!(c.role, Role::Input | Role::Auxiliary) {
-                    return Err(col("stands_for is for input and auxiliary columns".into()));
-                }
-                if c.unit_or_1().quantity() != q {
-                    return Err(col(format!(
-                        "stands_for = \"{s}\" is a {q}, but unit {} measures {}",
-                        c.unit_or_1(),
-                        c.unit_or_1().quantity()
-                    )));
-                }
-                if self
-                    .columns
-                    .iter()
-                    .filter(|o| o.stands_for.as_deref() == Some(s.as_str()))
-                    .count()
-                    > 1
-                {
-                    return Err(col(format!(
-                        "stands_for = \"{s}\" is given to more than one column"
-                    )));
-                }
+            self.validate_column(c).map_err(col)?;
+        }
+        self.validate_derived(&mut seen).map_err(bad)
+    }
+
+    /// The checks of one column (its name already checked), as the message
+    /// after "column 'NAME': ".
+    fn validate_column(&self, c: &ColumnSpec) -> std::result::Result<(), String> {
+        if c.role.is_numeric() && c.unit.is_none() {
+            return Err(format!(
+                "role {} needs a unit (write unit = \"1\" for a pure number); known units: {}",
+                c.role.name(),
+                Unit::known_list()
+            ));
+        }
+        for (k, v) in [("min", c.min), ("max", c.max), ("margin", c.margin)] {
+            if v.is_some_and(|x| !x.is_finite()) {
+                return Err(format!("{k} must be a finite number"));
             }
         }
+        if let (Some(lo), Some(hi)) = (c.min, c.max) {
+            if lo >= hi {
+                return Err(format!("min = {lo} must be below max = {hi}"));
+            }
+        }
+        if (c.min.is_some() || c.max.is_some()) && !c.role.is_numeric() {
+            return Err(format!(
+                "bounds are for input, target and auxiliary columns, not {}",
+                c.role.name()
+            ));
+        }
+        if c.transform != TransformChoice::None && c.role != Role::Target {
+            return Err(format!(
+                "transform is for targets only (this column is {})",
+                c.role.name()
+            ));
+        }
+        match c.transform {
+            TransformChoice::Log if c.unit_or_1().quantity() == Quantity::Temperature => {
+                return Err(
+                    "a log transform needs a quantity with a true zero; a temperature has none (use transform = \"bounded\" or none)".into(),
+                )
+            }
+            TransformChoice::Bounded if c.min.is_none() || c.max.is_none() => {
+                return Err(
+                    "transform = \"bounded\" needs both min and max: the interval the values are confined to".into(),
+                )
+            }
+            _ => {}
+        }
+        if let Some(m) = c.margin {
+            if c.transform != TransformChoice::Bounded {
+                return Err("margin is for bounded targets only".into());
+            }
+            if !(m > 0.0 && m < 0.5) {
+                return Err(format!(
+                    "margin = {m}: expected a share of the interval between 0 and 0.5 (default {BOUNDED_MARGIN_DEFAULT})"
+                ));
+            }
+        }
+        if let Some(s) = &c.stands_for {
+            let Some(q) = conventional_quantity(s) else {
+                return Err(format!(
+                    "stands_for = \"{s}\" is not a name derivations read; known names: {}",
+                    conventional_names()
+                ));
+            };
+            if !matches!(c.role, Role::Input | Role::Auxiliary) {
+                return Err("stands_for is for input and auxiliary columns".into());
+            }
+            if c.unit_or_1().quantity() != q {
+                return Err(format!(
+                    "stands_for = \"{s}\" is a {q}, but unit {} measures {}",
+                    c.unit_or_1(),
+                    c.unit_or_1().quantity()
+                ));
+            }
+            if self
+                .columns
+                .iter()
+                .filter(|o| o.stands_for.as_deref() == Some(s.as_str()))
+                .count()
+                > 1
+            {
+                return Err(format!(
+                    "stands_for = \"{s}\" is given to more than one column"
+                ));
+            }
+        }
+        Ok(())
+    }
+
+    /// The checks of the derived inputs: each a new name (added to `seen`),
+    /// each column it reads present with the right quantity; as the message.
+    fn validate_derived<'a>(&'a self, seen: &mut Vec<&'a str>) -> std::result::Result<(), String> {
         for (k, d) in self.derived.iter().enumerate() {
             let out = d.column_name();
-            let der = |m: String| bad(format!("derived '{out}' ({}): {m}", d.spec.spec()));
+            let der = |m: String| format!("derived '{out}' ({}): {m}", d.spec.spec());
             if seen.contains(&out.as_str()) {
                 return Err(der(
-                    "its name is already a column or an earlier derived input; give it another with name = \"...\"".into(),
-                ));
+                "its name is already a column or an earlier derived input; give it another with name = \"...\"".into(),
+            ));
             }
             seen.push(
                 self.derived[k]
@@ -484,9 +497,9 @@ impl Schema {
                     None if use_.optional => {}
                     None => {
                         return Err(der(format!(
-                        "needs {}: declare an input or auxiliary column with stands_for = \"{}\"",
-                        use_.name, use_.name
-                    )))
+                    "needs {}: declare an input or auxiliary column with stands_for = \"{}\"",
+                    use_.name, use_.name
+                )))
                     }
                 }
             }
@@ -551,11 +564,9 @@ impl Schema {
         max_problems: usize,
     ) -> Checked {
         let path = table.source().display().to_string();
-        let mut problems: Vec<Error> = Vec::new();
-        let push = |problems: &mut Vec<Error>, e: Error| {
-            if problems.len() < max_problems {
-                problems.push(e);
-            }
+        let mut problems = Problems {
+            list: Vec::new(),
+            max: max_problems,
         };
         let mut values = Vec::with_capacity(self.columns.len());
         for c in &self.columns {
@@ -566,15 +577,12 @@ impl Schema {
             };
             if table.index_of(&c.name).is_none() {
                 if required {
-                    push(
-                        &mut problems,
-                        Error::DeclaredColumnMissing {
-                            path: path.clone(),
-                            schema: schema_name.to_string(),
-                            name: c.name.clone(),
-                            available: table.names().join(", "),
-                        },
-                    );
+                    problems.push(Error::DeclaredColumnMissing {
+                        path: path.clone(),
+                        schema: schema_name.to_string(),
+                        name: c.name.clone(),
+                        available: table.names().join(", "),
+                    });
                 }
                 values.push(None);
                 continue;
@@ -586,59 +594,32 @@ impl Schema {
             let (raw, cell_problems) = match table.numeric_lenient(&c.name) {
                 Ok(v) => v,
                 Err(e) => {
-                    push(&mut problems, e);
+                    problems.push(e);
                     values.push(None);
                     continue;
                 }
             };
             for e in cell_problems {
-                push(&mut problems, e);
+                problems.push(e);
             }
-            let unit = c.unit_or_1();
-            let transform = c.target_transform();
-            let mut converted = Vec::with_capacity(raw.len());
-            for (row, v) in raw.iter().enumerate() {
-                let Some(v) = *v else {
-                    converted.push(None);
-                    continue;
-                };
-                let cell = |problem: String| Error::Cell {
-                    path: path.clone(),
-                    row: table.first_row() + row + 1,
-                    line: table.first_row() + row + 2,
-                    column: c.name.clone(),
-                    problem,
-                };
-                let x = unit.to_internal(v);
-                let problem = if unit.quantity() == Quantity::Composition && v < 0.0 {
-                    Some(format!(
-                        "negative concentration {v} {unit}: a content cannot be below 0"
-                    ))
-                } else if c.min.is_some_and(|lo| v < lo) || c.max.is_some_and(|hi| v > hi) {
-                    Some(format!(
-                        "{v} {unit} is outside the declared bounds {}",
-                        c.bounds_text()
-                    ))
-                } else if c.role == Role::Target && transform.forward(x).is_none() {
-                    Some(format!(
-                        "{v} {unit} cannot be learnt through transform '{}': expected {}",
-                        transform.name(),
-                        transform.domain_text()
-                    ))
-                } else {
-                    None
-                };
-                match problem {
-                    Some(p) => {
-                        push(&mut problems, cell(p));
-                        converted.push(None);
-                    }
-                    None => converted.push(Some(x)),
-                }
-            }
-            values.push(Some(converted));
+            values.push(Some(convert_column(c, &raw, table, &path, &mut problems)));
         }
-        // the elements of one row cannot sum above 100 wt%
+        self.check_composition_sums(&values, table, &path, &mut problems);
+        Checked {
+            values,
+            problems: problems.list,
+        }
+    }
+
+    /// The elements of one row cannot sum above 100 wt%: a problem for every
+    /// row whose composition columns do.
+    fn check_composition_sums(
+        &self,
+        values: &[Option<Vec<Option<f64>>>],
+        table: &Table,
+        path: &str,
+        problems: &mut Problems,
+    ) {
         let comp: Vec<usize> = (0..self.columns.len())
             .filter(|&i| {
                 self.columns[i].role.is_numeric()
@@ -646,32 +627,29 @@ impl Schema {
                     && values[i].is_some()
             })
             .collect();
-        if !comp.is_empty() {
-            for row in 0..table.n_rows() {
-                let parts: Vec<(usize, f64)> = comp
-                    .iter()
-                    .filter_map(|&i| values[i].as_ref().and_then(|v| v[row]).map(|x| (i, x)))
-                    .collect();
-                let total: f64 = parts.iter().map(|p| p.1).sum();
-                if total > 100.0 + COMPOSITION_SUM_SLACK {
-                    push(
-                        &mut problems,
-                        Error::CompositionSum {
-                            path: path.clone(),
-                            row: table.first_row() + row + 1,
-                            line: table.first_row() + row + 2,
-                            columns: parts
-                                .iter()
-                                .map(|(i, x)| format!("'{}' = {x}", self.columns[*i].name))
-                                .collect::<Vec<_>>()
-                                .join(", "),
-                            total,
-                        },
-                    );
-                }
+        if comp.is_empty() {
+            return;
+        }
+        for row in 0..table.n_rows() {
+            let parts: Vec<(usize, f64)> = comp
+                .iter()
+                .filter_map(|&i| values[i].as_ref().and_then(|v| v[row]).map(|x| (i, x)))
+                .collect();
+            let total: f64 = parts.iter().map(|p| p.1).sum();
+            if total > 100.0 + COMPOSITION_SUM_SLACK {
+                problems.push(Error::CompositionSum {
+                    path: path.to_string(),
+                    row: table.first_row() + row + 1,
+                    line: table.first_row() + row + 2,
+                    columns: parts
+                        .iter()
+                        .map(|(i, x)| format!("'{}' = {x}", self.columns[*i].name))
+                        .collect::<Vec<_>>()
+                        .join(", "),
+                    total,
+                });
             }
         }
-        Checked { values, problems }
     }
 
     /// Compute the derived inputs, in order, from the checked values (a
@@ -765,49 +743,9 @@ impl Schema {
         notes.extend(derived_notes);
 
         // rows lacking an input value
-        let mut incomplete: Vec<(usize, Vec<String>)> = Vec::new();
-        for row in 0..n {
-            let mut lacking: Vec<String> = Vec::new();
-            for (c, v) in self.columns.iter().zip(&values) {
-                if matches!(c.role, Role::Input | Role::Auxiliary)
-                    && v.as_ref().is_some_and(|v| v[row].is_none())
-                {
-                    lacking.push(format!("'{}'", c.name));
-                }
-            }
-            if lacking.is_empty() {
-                for (k, d) in self.derived.iter().enumerate() {
-                    if derived_values[k][row].is_none() {
-                        lacking.push(match &not_computed[k][row] {
-                            Some(why) => format!("derived '{}' ({why})", d.column_name()),
-                            None => format!("derived '{}'", d.column_name()),
-                        });
-                    }
-                }
-            }
-            if !lacking.is_empty() {
-                incomplete.push((row, lacking));
-            }
-        }
+        let incomplete = self.incomplete_rows(&values, &derived_values, &not_computed, n);
         if !incomplete.is_empty() && !opts.drop_incomplete_rows {
-            const SHOWN: usize = 10;
-            let mut detail = incomplete
-                .iter()
-                .take(SHOWN)
-                .map(|(r, cols)| {
-                    let r = table.first_row() + r;
-                    format!("row {} (line {}): {}", r + 1, r + 2, cols.join(", "))
-                })
-                .collect::<Vec<_>>()
-                .join("; ");
-            if incomplete.len() > SHOWN {
-                detail.push_str(&format!("; and {} more rows", incomplete.len() - SHOWN));
-            }
-            return Err(Error::MissingInputs {
-                path,
-                n_rows: incomplete.len(),
-                detail,
-            });
+            return Err(missing_inputs(&incomplete, table, path));
         }
         let dropped: Vec<usize> = incomplete.iter().map(|(r, _)| *r).collect();
         let keep: Vec<usize> = (0..n).filter(|r| !dropped.contains(r)).collect();
@@ -856,6 +794,137 @@ impl Schema {
             notes,
         })
     }
+
+    /// Rows lacking an input value (0-based), with what each lacks: the
+    /// input columns, else the derived inputs that could not be computed
+    /// (with the reason when known).
+    fn incomplete_rows(
+        &self,
+        values: &[Option<Vec<Option<f64>>>],
+        derived_values: &[Vec<Option<f64>>],
+        not_computed: &[Vec<Option<String>>],
+        n: usize,
+    ) -> Vec<(usize, Vec<String>)> {
+        let mut incomplete: Vec<(usize, Vec<String>)> = Vec::new();
+        for row in 0..n {
+            let mut lacking: Vec<String> = Vec::new();
+            for (c, v) in self.columns.iter().zip(values) {
+                if matches!(c.role, Role::Input | Role::Auxiliary)
+                    && v.as_ref().is_some_and(|v| v[row].is_none())
+                {
+                    lacking.push(format!("'{}'", c.name));
+                }
+            }
+            if lacking.is_empty() {
+                for (k, d) in self.derived.iter().enumerate() {
+                    if derived_values[k][row].is_none() {
+                        lacking.push(match &not_computed[k][row] {
+                            Some(why) => format!("derived '{}' ({why})", d.column_name()),
+                            None => format!("derived '{}'", d.column_name()),
+                        });
+                    }
+                }
+            }
+            if !lacking.is_empty() {
+                incomplete.push((row, lacking));
+            }
+        }
+        incomplete
+    }
+}
+
+/// The error for rows lacking an input value: how many, and the first
+/// few with what each lacks.
+fn missing_inputs(incomplete: &[(usize, Vec<String>)], table: &Table, path: String) -> Error {
+    const SHOWN: usize = 10;
+    let mut detail = incomplete
+        .iter()
+        .take(SHOWN)
+        .map(|(r, cols)| {
+            let r = table.first_row() + r;
+            format!("row {} (line {}): {}", r + 1, r + 2, cols.join(", "))
+        })
+        .collect::<Vec<_>>()
+        .join("; ");
+    if incomplete.len() > SHOWN {
+        detail.push_str(&format!("; and {} more rows", incomplete.len() - SHOWN));
+    }
+    Error::MissingInputs {
+        path,
+        n_rows: incomplete.len(),
+        detail,
+    }
+}
+
+/// Problems found while checking a table, at most `max` of them kept.
+struct Problems {
+    list: Vec<Error>,
+    max: usize,
+}
+
+impl Problems {
+    fn push(&mut self, e: Error) {
+        if self.list.len() < self.max {
+            self.list.push(e);
+        }
+    }
+}
+
+/// One numeric column's values `raw` (in the file's unit) converted to the
+/// internal unit, each value that breaks a rule of its column left out
+/// with a problem naming file, row and column: a negative concentration, a
+/// value outside the declared bounds, a target value outside its
+/// transform's domain.
+fn convert_column(
+    c: &ColumnSpec,
+    raw: &[Option<f64>],
+    table: &Table,
+    path: &str,
+    problems: &mut Problems,
+) -> Vec<Option<f64>> {
+    let unit = c.unit_or_1();
+    let transform = c.target_transform();
+    let mut converted = Vec::with_capacity(raw.len());
+    for (row, v) in raw.iter().enumerate() {
+        let Some(v) = *v else {
+            converted.push(None);
+            continue;
+        };
+        let cell = |problem: String| Error::Cell {
+            path: path.to_string(),
+            row: table.first_row() + row + 1,
+            line: table.first_row() + row + 2,
+            column: c.name.clone(),
+            problem,
+        };
+        let x = unit.to_internal(v);
+        let problem = if unit.quantity() == Quantity::Composition && v < 0.0 {
+            Some(format!(
+                "negative concentration {v} {unit}: a content cannot be below 0"
+            ))
+        } else if c.min.is_some_and(|lo| v < lo) || c.max.is_some_and(|hi| v > hi) {
+            Some(format!(
+                "{v} {unit} is outside the declared bounds {}",
+                c.bounds_text()
+            ))
+        } else if c.role == Role::Target && transform.forward(x).is_none() {
+            Some(format!(
+                "{v} {unit} cannot be learnt through transform '{}': expected {}",
+                transform.name(),
+                transform.domain_text()
+            ))
+        } else {
+            None
+        };
+        match problem {
+            Some(p) => {
+                problems.push(cell(p));
+                converted.push(None);
+            }
+            None => converted.push(Some(x)),
+        }
+    }
+    converted
 }
 
 #[cfg(test)]

@@ -426,29 +426,7 @@ pub fn fit_model<'a>(
     start: StartState,
     settings: &FitSettings,
 ) -> Result<FittedNetwork, FitFailure> {
-    let is_gaussian = matches!(data, DataModel::Gaussian { .. });
-    // rows counted (Σ r_n under a contamination model, else N) and
-    // Σ r_n ln ρ_n, the precision weights' share of the normalisation
-    let (n, ln_rho_sum) = match data {
-        DataModel::Gaussian {
-            row_weights,
-            responsibilities,
-            ..
-        } => {
-            let resp = |k: usize| responsibilities.map_or(1.0, |r| r[k]);
-            let ln_rho: f64 = row_weights.map_or(0.0, |w| {
-                w.iter()
-                    .enumerate()
-                    .map(|(k, w)| resp(k) * (w / resp(k)).ln())
-                    .sum()
-            });
-            let counted = responsibilities.map_or(x.nrows() as f64, |r| r.sum());
-            (counted, ln_rho)
-        }
-        DataModel::LogVariance { row_weights, .. } => {
-            (row_weights.map_or(x.nrows() as f64, |w| w.sum()), 0.0)
-        }
-    };
+    let rows = RowCount::of(x.nrows(), &data);
     let groups = Groups::new(&arch, ard);
     let mut diag = FitDiagnostics::default();
     let mut w = start.weights;
@@ -464,18 +442,11 @@ pub fn fit_model<'a>(
         } else {
             settings.cycle_iters
         };
-        let (w_new, evals) = minimise(
-            &arch,
-            x,
-            data,
-            Hyper {
-                beta,
-                alpha_per_param: &alpha_pp,
-            },
-            w,
-            iters,
-            settings.lbfgs_memory,
-        )?;
+        let hyper = || Hyper {
+            beta,
+            alpha_per_param: &alpha_pp,
+        };
+        let (w_new, evals) = minimise(&arch, x, data, hyper(), w, iters, settings.lbfgs_memory)?;
         diag.gradient_evaluations += evals;
         w = w_new;
         if w.iter().any(|v| !v.is_finite()) {
@@ -490,61 +461,21 @@ pub fn fit_model<'a>(
                 "non-finite error in cycle {cycle}"
             )));
         }
-        let fact = hessian_of_m(
-            &arch,
-            &w,
-            x,
-            &data,
-            Hyper {
-                beta,
-                alpha_per_param: &alpha_pp,
-            },
-            settings.hessian,
-            &mut diag,
-        )
-        .ok_or_else(|| {
-            FitFailure::NotPositiveDefinite(format!("no factorisation in cycle {cycle}"))
-        })?;
+        let fact = hessian_of_m(&arch, &w, x, &data, hyper(), settings.hessian, &mut diag)
+            .ok_or_else(|| {
+                FitFailure::NotPositiveDefinite(format!("no factorisation in cycle {cycle}"))
+            })?;
         let sum_sq = groups.sum_squares(&w);
-        let traces = groups.diag_sums(fact.inv.diag().iter().copied());
-        let gamma: Vec<f64> = groups
-            .sizes()
-            .iter()
-            .zip(&alpha)
-            .zip(&traces)
-            .map(|((&k, &a), &tr)| (k as f64 - a * tr).clamp(0.0, k as f64))
-            .collect();
+        let gamma = well_determined(&groups, &alpha, &fact.inv);
         let gamma_total: f64 = gamma.iter().sum();
         let e_w: f64 = alpha.iter().zip(&sum_sq).map(|(a, s)| 0.5 * a * s).sum();
-        let h = arch.n_hidden;
-        let (data_term, noise_norm) = if is_gaussian {
-            (beta * e_d, 0.5 * n * beta.ln() + 0.5 * ln_rho_sum)
-        } else {
-            (e_d, 0.0)
-        };
-        let log_evidence = -data_term - e_w - 0.5 * fact.ln_det
-            + groups
-                .sizes()
-                .iter()
-                .zip(&alpha)
-                .map(|(&k, a)| 0.5 * k as f64 * a.ln())
-                .sum::<f64>()
-            + noise_norm
-            - 0.5 * n * (2.0 * std::f64::consts::PI).ln()
-            + ln_factorial(h)
-            + h as f64 * std::f64::consts::LN_2;
+        let log_evidence =
+            rows.log_evidence(&groups, &alpha, e_w, e_d, beta, fact.ln_det, arch.n_hidden);
 
         diag.cycles = cycle + 1;
-        let converged = match &last {
-            Some((b0, g0, a0)) => {
-                rel_change(beta, *b0) < HYPER_REL_TOL
-                    && (gamma_total - g0).abs() < HYPER_REL_TOL * gamma_total.max(1.0)
-                    && alpha.iter().zip(a0).zip(&gamma).all(|((a, a_old), g)| {
-                        *g < GAMMA_ACTIVE || rel_change(*a, *a_old) < HYPER_REL_TOL
-                    })
-            }
-            None => false,
-        };
+        let converged = last.as_ref().is_some_and(|(b0, g0, a0)| {
+            hyper_converged((beta, gamma_total, &alpha), (*b0, *g0, a0), &gamma)
+        });
         snapshot = Some(FittedNetwork {
             arch,
             group_kinds: groups.kinds().to_vec(),
@@ -570,42 +501,8 @@ pub fn fit_model<'a>(
         last = Some((beta, gamma_total, alpha.clone()));
 
         // re-estimate
-        let mut new_alpha = Vec::with_capacity(alpha.len());
-        for (c, (&g, &s)) in gamma.iter().zip(&sum_sq).enumerate() {
-            if groups.kinds()[c] == GroupKind::OutputBias {
-                // near-flat prior: see `flat_output_bias`
-                new_alpha.push(ALPHA_MIN);
-                continue;
-            }
-            let raw = if s > 0.0 { g / s } else { ALPHA_MAX };
-            let bounded = raw.clamp(ALPHA_MIN, ALPHA_MAX);
-            if (bounded - raw).abs() > 0.0 {
-                let what = format!("alpha bound on group {:?}", groups.kinds()[c]);
-                if !diag.bounds_hit.contains(&what) {
-                    diag.bounds_hit.push(what);
-                }
-            }
-            new_alpha.push(bounded);
-        }
-        let dof = (n - gamma_total).max(MIN_RESIDUAL_DOF_FRACTION * n);
-        if is_gaussian && dof > n - gamma_total {
-            let what = "residual degrees of freedom N - gamma bounded".to_string();
-            if !diag.bounds_hit.contains(&what) {
-                diag.bounds_hit.push(what);
-            }
-        }
-        let raw_beta = if is_gaussian {
-            dof / (2.0 * e_d).max(f64::MIN_POSITIVE)
-        } else {
-            beta // a log variance has no noise level of its own
-        };
-        let new_beta = raw_beta.clamp(BETA_MIN, BETA_MAX);
-        if is_gaussian && (new_beta - raw_beta).abs() > 0.0 {
-            let what = "beta bound".to_string();
-            if !diag.bounds_hit.contains(&what) {
-                diag.bounds_hit.push(what);
-            }
-        }
+        let new_alpha = reestimate_alpha(&groups, &gamma, &sum_sq, &mut diag);
+        let new_beta = rows.reestimate_beta(gamma_total, e_d, beta, &mut diag);
         if !new_beta.is_finite() || new_alpha.iter().any(|a| !a.is_finite()) {
             return Err(FitFailure::Diverged("non-finite hyperparameters".into()));
         }
@@ -615,6 +512,177 @@ pub fn fit_model<'a>(
     let mut net = snapshot.ok_or_else(|| FitFailure::Stalled("no cycle was run".into()))?;
     net.diagnostics = diag;
     Ok(net)
+}
+
+/// The rows as the evidence counts them.
+#[derive(Clone, Copy)]
+struct RowCount {
+    /// Rows counted: Σ r_n under a contamination model, else N (for a log
+    /// variance, the sum of its row weights when given).
+    n: f64,
+    /// Σ r_n ln ρ_n, the precision weights' share of the normalisation.
+    ln_rho_sum: f64,
+    /// True for a Gaussian mean (β re-estimated), false for a log variance.
+    gaussian: bool,
+}
+
+impl RowCount {
+    fn of(n_rows: usize, data: &DataModel) -> Self {
+        match *data {
+            DataModel::Gaussian {
+                row_weights,
+                responsibilities,
+                ..
+            } => {
+                let resp = |k: usize| responsibilities.map_or(1.0, |r| r[k]);
+                let ln_rho: f64 = row_weights.map_or(0.0, |w| {
+                    w.iter()
+                        .enumerate()
+                        .map(|(k, w)| resp(k) * (w / resp(k)).ln())
+                        .sum()
+                });
+                let counted = responsibilities.map_or(n_rows as f64, |r| r.sum());
+                RowCount {
+                    n: counted,
+                    ln_rho_sum: ln_rho,
+                    gaussian: true,
+                }
+            }
+            DataModel::LogVariance { row_weights, .. } => RowCount {
+                n: row_weights.map_or(n_rows as f64, |w| w.sum()),
+                ln_rho_sum: 0.0,
+                gaussian: false,
+            },
+        }
+    }
+
+    /// ln p(D | α, β) of one cycle, as in the module's documentation
+    /// (Bishop 1995, eq. 10.67):
+    /// `−β·E_D − E_W − ½ ln|A| + Σ_c ½ k_c ln α_c + ½ N ln β + ½ Σ r_n ln ρ_n − ½ N ln 2π + ln H! + H ln 2`;
+    /// a log variance has no β terms.
+    #[allow(clippy::too_many_arguments)]
+    fn log_evidence(
+        &self,
+        groups: &Groups,
+        alpha: &[f64],
+        e_w: f64,
+        e_d: f64,
+        beta: f64,
+        ln_det: f64,
+        h: usize,
+    ) -> f64 {
+        let n = self.n;
+        let (data_term, noise_norm) = if self.gaussian {
+            (beta * e_d, 0.5 * n * beta.ln() + 0.5 * self.ln_rho_sum)
+        } else {
+            (e_d, 0.0)
+        };
+        -data_term - e_w - 0.5 * ln_det
+            + groups
+                .sizes()
+                .iter()
+                .zip(alpha)
+                .map(|(&k, a)| 0.5 * k as f64 * a.ln())
+                .sum::<f64>()
+            + noise_norm
+            - 0.5 * n * (2.0 * std::f64::consts::PI).ln()
+            + ln_factorial(h)
+            + h as f64 * std::f64::consts::LN_2
+    }
+
+    /// β ← (N − γ) / (2·E_D) (MacKay 1992; module docs), the degrees of freedom
+    /// kept above [`MIN_RESIDUAL_DOF_FRACTION`]·N and β within its bounds,
+    /// each bound noted once in `diag`; a log variance keeps its β.
+    fn reestimate_beta(
+        &self,
+        gamma_total: f64,
+        e_d: f64,
+        beta: f64,
+        diag: &mut FitDiagnostics,
+    ) -> f64 {
+        let n = self.n;
+        let dof = (n - gamma_total).max(MIN_RESIDUAL_DOF_FRACTION * n);
+        if self.gaussian && dof > n - gamma_total {
+            note_bound(
+                diag,
+                "residual degrees of freedom N - gamma bounded".to_string(),
+            );
+        }
+        let raw_beta = if self.gaussian {
+            dof / (2.0 * e_d).max(f64::MIN_POSITIVE)
+        } else {
+            beta // a log variance has no noise level of its own
+        };
+        let new_beta = raw_beta.clamp(BETA_MIN, BETA_MAX);
+        if self.gaussian && (new_beta - raw_beta).abs() > 0.0 {
+            note_bound(diag, "beta bound".to_string());
+        }
+        new_beta
+    }
+}
+
+/// γ_c = k_c − α_c·Tr_c(A⁻¹) per weight group, its well-determined
+/// parameters (MacKay 1992; module docs), within [0, k_c].
+fn well_determined(groups: &Groups, alpha: &[f64], inv: &Array2<f64>) -> Vec<f64> {
+    let traces = groups.diag_sums(inv.diag().iter().copied());
+    groups
+        .sizes()
+        .iter()
+        .zip(alpha)
+        .zip(&traces)
+        .map(|((&k, &a), &tr)| (k as f64 - a * tr).clamp(0.0, k as f64))
+        .collect()
+}
+
+/// True when β, γ and the α of every active group (γ_c ≥ [`GAMMA_ACTIVE`])
+/// moved by less than [`HYPER_REL_TOL`] since the previous cycle.
+fn hyper_converged(
+    (beta, gamma_total, alpha): (f64, f64, &[f64]),
+    (b0, g0, a0): (f64, f64, &[f64]),
+    gamma: &[f64],
+) -> bool {
+    rel_change(beta, b0) < HYPER_REL_TOL
+        && (gamma_total - g0).abs() < HYPER_REL_TOL * gamma_total.max(1.0)
+        && alpha
+            .iter()
+            .zip(a0)
+            .zip(gamma)
+            .all(|((a, a_old), g)| *g < GAMMA_ACTIVE || rel_change(*a, *a_old) < HYPER_REL_TOL)
+}
+
+/// α_c ← γ_c / (2·E_W,c) = γ_c / Σ_c w² per group (module docs), within its bounds,
+/// each bound noted once in `diag`; the output bias keeps its near-flat
+/// prior (see `flat_output_bias`).
+fn reestimate_alpha(
+    groups: &Groups,
+    gamma: &[f64],
+    sum_sq: &[f64],
+    diag: &mut FitDiagnostics,
+) -> Vec<f64> {
+    let mut new_alpha = Vec::with_capacity(gamma.len());
+    for (c, (&g, &s)) in gamma.iter().zip(sum_sq).enumerate() {
+        if groups.kinds()[c] == GroupKind::OutputBias {
+            new_alpha.push(ALPHA_MIN);
+            continue;
+        }
+        let raw = if s > 0.0 { g / s } else { ALPHA_MAX };
+        let bounded = raw.clamp(ALPHA_MIN, ALPHA_MAX);
+        if (bounded - raw).abs() > 0.0 {
+            note_bound(
+                diag,
+                format!("alpha bound on group {:?}", groups.kinds()[c]),
+            );
+        }
+        new_alpha.push(bounded);
+    }
+    new_alpha
+}
+
+/// Note a bound that was hit, once.
+fn note_bound(diag: &mut FitDiagnostics, what: String) {
+    if !diag.bounds_hit.contains(&what) {
+        diag.bounds_hit.push(what);
+    }
 }
 
 impl FittedNetwork {

@@ -10,33 +10,31 @@ mod calibration;
 mod compare;
 mod fit;
 mod paired;
-mod relevance;
-mod summary;
 
+pub use crate::committee::{
+    member_relevance, relevance, relevance_over, relevance_with_spread, RelevanceRange,
+    RELEVANCE_MEANING,
+};
+pub use crate::model::{
+    noise_profile, replicate_scatter, summarise_training, NoiseBin, NoiseProfile, NoiseSpread,
+    ReplicateScatter, TrainingSummary, PROFILE_BINS,
+};
+pub use crate::predict::{estimate_rows, TargetRows};
 pub use calibration::{calibration_curve, CalibrationPoint, CALIBRATION_LEVELS};
 pub use compare::{compare, Comparison, Disagreement, TargetComparison};
 pub use fit::fit_notes;
 pub use paired::{paired, PairedComparison, PairedFigure};
-pub use relevance::{
-    member_relevance, relevance, relevance_over, relevance_with_spread, RelevanceRange,
-    RELEVANCE_MEANING,
-};
-pub use summary::{
-    noise_profile, replicate_scatter, summarise_training, NoiseBin, NoiseProfile, NoiseSpread,
-    ReplicateScatter, TrainingSummary, PROFILE_BINS,
-};
 
 use serde::ser::SerializeMap;
 use serde::{Serialize, Serializer};
 
-use crate::committee::{GrossErrors, TailShape, ONE_SD_SHARE};
+use crate::committee::{TailShape, ONE_SD_SHARE};
 use crate::data::schema::PrepareOptions;
 use crate::data::{fingerprint, Table};
 use crate::error::{Error, Result};
 use crate::features::Transform;
-use crate::metrics::{evaluate_on_scale, Evaluation};
 use crate::model::{Model, TargetModel};
-use crate::predict::{range_check, z975, Estimate};
+use crate::predict::{z975, Estimate};
 use crate::units::Unit;
 
 /// One input on the model card.
@@ -520,67 +518,9 @@ pub fn model_card(model: &Model) -> ModelCard {
     }
 }
 
-/// One target's estimates on the rows of a table where it was measured.
-#[derive(Clone, Debug, PartialEq)]
-pub struct TargetRows {
-    /// Target name.
-    pub target: String,
-    /// Rows of the table (0-based) with a measured value.
-    pub rows: Vec<usize>,
-    /// Measured values (target units).
-    pub measured: Vec<f64>,
-    /// Estimates (target units).
-    pub estimates: Vec<Estimate>,
-    /// Measured values on the learnt scale.
-    pub z_measured: Vec<f64>,
-    /// Predictive means on the learnt scale.
-    pub z_mean: Vec<f64>,
-    /// Predictive sds on the learnt scale.
-    pub z_sd: Vec<f64>,
-    /// ln |g′(y)| per row (0 for an untransformed target).
-    pub log_jacobian: Vec<f64>,
-    /// Raw input values per row, model input order.
-    pub inputs: Vec<Vec<f64>>,
-    /// Domain verdict per row.
-    pub in_domain: Vec<bool>,
-    /// The model's gross-error part on the learnt scale, when it has one.
-    pub gross: Option<GrossErrors>,
-}
-
+/// What the model card and the report read from a target's rows beside
+/// its estimates ([`TargetRows`] and [`estimate_rows`] are `predict`'s).
 impl TargetRows {
-    /// RMSE, NLPD, coverage … over the rows (`None` for no rows).
-    pub fn evaluation(&self) -> Option<Evaluation> {
-        let point: Vec<f64> = self.estimates.iter().map(|e| e.mean).collect();
-        evaluate_on_scale(
-            &self.measured,
-            &point,
-            &self.z_measured,
-            &self.z_mean,
-            &self.z_sd,
-            &self.log_jacobian,
-            self.gross,
-        )
-    }
-
-    /// Each row's negative log predictive density (as in the NLPD of
-    /// [`Self::evaluation`], one row at a time).
-    pub fn row_nlpd(&self) -> Vec<f64> {
-        (0..self.rows.len())
-            .map(|k| {
-                evaluate_on_scale(
-                    &self.measured[k..=k],
-                    &[self.estimates[k].mean],
-                    &self.z_measured[k..=k],
-                    &self.z_mean[k..=k],
-                    &self.z_sd[k..=k],
-                    &self.log_jacobian[k..=k],
-                    self.gross,
-                )
-                .map_or(f64::NAN, |e| e.nlpd)
-            })
-            .collect()
-    }
-
     /// The calibration curve over the rows.
     pub fn calibration(&self) -> Vec<CalibrationPoint> {
         calibration_curve(&self.z_measured, &self.z_mean, &self.z_sd, self.shape())
@@ -640,67 +580,6 @@ pub struct OutOfLine {
     pub gross_error_probability: Option<f64>,
 }
 
-/// Estimates of every target on the rows of `table` that hold its measured
-/// value, read as [`Model::evaluate`] reads a table.
-///
-/// # Errors
-/// As [`Model::evaluate`].
-pub fn estimate_rows(model: &Model, table: &Table) -> Result<Vec<TargetRows>> {
-    let (prepared, _) = model.read_through_schema(table, true)?;
-    let (raw, scaled) = model.scaled_inputs(&prepared)?;
-    let learnt = model.predict_learnt_scale(&scaled);
-    let mut out = Vec::new();
-    for (t, preds) in model.targets.iter().zip(&learnt) {
-        let z = t.committee.shape().quantile(0.975);
-        let measured = prepared.numeric_optional(&t.name)?;
-        let mut r = TargetRows {
-            target: t.name.clone(),
-            rows: vec![],
-            measured: vec![],
-            estimates: vec![],
-            z_measured: vec![],
-            z_mean: vec![],
-            z_sd: vec![],
-            log_jacobian: vec![],
-            inputs: vec![],
-            in_domain: vec![],
-            gross: t
-                .committee
-                .gross_errors
-                .as_ref()
-                .map(|g| g.on_scale(|z| t.scaling.unscale_linear(z), t.scaling.width())),
-        };
-        for (row, (v, p)) in measured.iter().zip(preds).enumerate() {
-            let Some(v) = *v else { continue };
-            let (Some(g), Some(lj)) = (t.transform.forward(v), t.transform.log_jacobian(v)) else {
-                return Err(Error::Cell {
-                    path: table.source().display().to_string(),
-                    row: row + 1,
-                    line: row + 2,
-                    column: t.name.clone(),
-                    problem: format!(
-                        "{v} cannot be judged on the scale '{}' the model learnt: expected {}",
-                        t.transform.name(),
-                        t.transform.domain_text()
-                    ),
-                });
-            };
-            r.rows.push(row);
-            r.measured.push(v);
-            r.estimates
-                .push(t.transform.back_transform(p.mean, p.sd, p.noise_sd, z));
-            r.z_measured.push(g);
-            r.z_mean.push(p.mean);
-            r.z_sd.push(p.sd);
-            r.log_jacobian.push(lj);
-            r.inputs.push(raw.row(row).to_vec());
-            r.in_domain.push(range_check(model, raw.row(row)).in_domain);
-        }
-        out.push(r);
-    }
-    Ok(out)
-}
-
 /// The training-data fingerprint of `table` as the model's training
 /// computed it (inputs then targets, values as read through the model's
 /// schema, rows left out at training left out again). Equal to
@@ -751,59 +630,4 @@ pub fn check_training_data(model: &Model, table: &Table) -> Result<()> {
         });
     }
     Ok(())
-}
-
-#[cfg(test)]
-pub(crate) mod tests {
-    use crate::committee::{Committee, Member, NoiseSelection, Selection};
-    use crate::evidence::{FitDiagnostics, GroupKind, HessianKind};
-
-    /// A linear committee (no hidden units) of members with the given
-    /// input α's, for tests of what is read from a committee.
-    pub(crate) fn committee_with_alphas(alphas: &[&[f64]]) -> Committee {
-        let d = alphas[0].len();
-        let members = alphas
-            .iter()
-            .map(|a| {
-                let mut groups: Vec<GroupKind> = (0..d).map(GroupKind::Input).collect();
-                groups.push(GroupKind::OutputBias);
-                let mut alpha = a.to_vec();
-                alpha.push(1e-8);
-                Member {
-                    n_hidden: 0,
-                    restart: 0,
-                    seed: 0,
-                    gamma: vec![1.0; d + 1],
-                    groups,
-                    alpha,
-                    beta: 100.0,
-                    log_evidence: 0.0,
-                    heldout_nlpd: 0.0,
-                    hessian: HessianKind::Exact,
-                    weights: vec![0.0; d + 1],
-                    posterior_cov: ndarray::Array2::eye(d + 1),
-                    diagnostics: FitDiagnostics::default(),
-                    noise: None,
-                }
-            })
-            .collect();
-        Committee {
-            n_inputs: d,
-            members,
-            candidates: vec![],
-            selection: Selection {
-                n_train_part: 0,
-                n_heldout: 0,
-                hidden_searched: (0, 0),
-                widened: false,
-                nlpd_by_size: vec![0.0],
-                n_members: alphas.len(),
-                refit_failures: vec![],
-                noise: NoiseSelection::default(),
-                kriging: Default::default(),
-            },
-            kriging: None,
-            gross_errors: None,
-        }
-    }
 }

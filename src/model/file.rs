@@ -237,7 +237,7 @@ impl Model {
                         && g.occupied.len() == d * d.saturating_sub(1) / 2
                         && g.occupied
                             .iter()
-                            .all(|b| b.len() == crate::domain::PairGrid::words(g.cells))
+                            .all(|b| b.len() == super::PairGrid::words(g.cells))
                 });
             if !consistent {
                 return Err(format!(

@@ -3,19 +3,23 @@
 //! trained.
 
 mod file;
+pub(crate) mod reference;
+mod summary;
 mod train;
-mod transform;
 
+pub use crate::transform::{IntervalKind, TargetTransform};
 pub use file::{MODEL_FORMAT, MODEL_FORMAT_VERSION};
+pub use reference::{pair_cells, DomainReference, PairGrid};
+pub use summary::{
+    noise_profile, replicate_scatter, summarise_training, NoiseBin, NoiseProfile, NoiseSpread,
+    ReplicateScatter, TrainingSummary, PROFILE_BINS,
+};
 pub use train::{SchemaTrainOptions, SchemaTrainReport, TrainSpec};
-pub use transform::{IntervalKind, TargetTransform};
 
 use serde::{Deserialize, Serialize};
 
 use crate::committee::{Committee, CommitteeParams};
 use crate::data::schema::Schema;
-use crate::domain::DomainReference;
-use crate::explain::TrainingSummary;
 use crate::features::ColumnScaling;
 
 /// An input column as the model knows it.

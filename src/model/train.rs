@@ -3,16 +3,14 @@
 use ndarray::{Array1, Array2};
 
 use super::{
-    InputColumn, Model, SetAside, TargetModel, TargetTransform, TrainingRecord, MODEL_FORMAT,
-    MODEL_FORMAT_VERSION,
+    summarise_training, DomainReference, InputColumn, Model, SetAside, TargetModel,
+    TargetTransform, TrainingRecord, MODEL_FORMAT, MODEL_FORMAT_VERSION,
 };
-use crate::committee::{train_committee, CommitteeParams};
+use crate::committee::{train_committee, CheckedCommitteeParams, CommitteeParams};
 use crate::data::schema::{PrepareOptions, Schema};
 use crate::data::{fingerprint, Table};
 use crate::derive::RowWarning;
-use crate::domain::DomainReference;
 use crate::error::{Error, Result};
-use crate::explain::summarise_training;
 use crate::features::{ColumnScaling, Transform};
 use crate::observer::TrainObserver;
 
@@ -167,156 +165,37 @@ impl Model {
         for name in &spec.targets {
             target_values.push(table.numeric_optional(name)?);
         }
-        let offered: Vec<String> = match &spec.inputs {
-            Some(list) => {
-                for name in list {
-                    if spec.targets.contains(name) {
-                        return Err(Error::InvalidParameter {
-                            name: "inputs",
-                            value: name.clone(),
-                            expected: "input columns other than the target".into(),
-                        });
-                    }
-                }
-                list.clone()
-            }
-            None => table
-                .names()
-                .iter()
-                .filter(|n| !spec.targets.contains(n) && table.has_numbers(n))
-                .cloned()
-                .collect(),
-        };
-        let mut inputs = Vec::new();
-        let mut set_aside = Vec::new();
-        let mut input_values = Vec::new();
-        for name in &offered {
-            let values = table.numeric(name)?;
-            if let Some(reason) = restates(&values, &inputs, &input_values) {
-                set_aside.push(SetAside {
-                    name: name.clone(),
-                    reason,
-                });
-                continue;
-            }
-            match ColumnScaling::fit(&values, spec.auto_log_inputs) {
-                Some(scaling) => {
-                    let (min, max) = min_max(&values);
-                    inputs.push(InputColumn {
-                        name: name.clone(),
-                        min,
-                        max,
-                        scaling,
-                    });
-                    input_values.push(values);
-                }
-                None => set_aside.push(SetAside {
-                    name: name.clone(),
-                    reason: format!(
-                        "constant: every row is {}",
-                        values.first().copied().unwrap_or(f64::NAN)
-                    ),
-                }),
-            }
-        }
-        if inputs.is_empty() {
-            let detail = if set_aside.is_empty() {
-                "no numeric input columns".to_string()
-            } else {
-                set_aside
-                    .iter()
-                    .map(|s| format!("{} ({})", s.name, s.reason))
-                    .collect::<Vec<_>>()
-                    .join(", ")
-            };
-            return Err(Error::NoInputs { path, detail });
-        }
-        let n = table.n_rows();
-        let d = inputs.len();
-        let mut x = Array2::zeros((n, d));
-        for (j, (col, values)) in inputs.iter().zip(&input_values).enumerate() {
-            for (i, v) in values.iter().enumerate() {
-                // training values are inside the fitted range, and a log
-                // transform is only chosen for strictly positive columns
-                x[[i, j]] = col.scaling.scale(*v).unwrap_or(f64::NAN);
-            }
-        }
+        let offered = offered_inputs(table, spec)?;
+        let kept = KeptInputs::choose(table, &offered, spec.auto_log_inputs, &path)?;
+        let x = kept.scaled(table.n_rows());
 
         let mut targets = Vec::new();
         let mut evals = 0;
         for (k, (name, values)) in spec.targets.iter().zip(&target_values).enumerate() {
             let transform = transforms.get(k).copied().unwrap_or_default();
-            let rows: Vec<usize> = (0..n).filter(|&i| values[i].is_some()).collect();
-            let present: Vec<f64> = rows
-                .iter()
-                .map(|&i| values[i].unwrap_or(f64::NAN))
-                .collect();
-            let mut learnt = Vec::with_capacity(present.len());
-            for (&i, &y) in rows.iter().zip(&present) {
-                learnt.push(transform.forward(y).ok_or_else(|| Error::Cell {
-                    path: path.clone(),
-                    row: i + 1,
-                    line: i + 2,
-                    column: name.clone(),
-                    problem: format!(
-                        "{y} cannot be learnt through transform '{}': expected {}",
-                        transform.name(),
-                        transform.domain_text()
-                    ),
-                })?);
-            }
-            let scaling =
-                ColumnScaling::fit(&learnt, false).ok_or_else(|| Error::ConstantTarget {
-                    path: path.clone(),
-                    name: name.clone(),
-                    value: present.first().copied().unwrap_or(f64::NAN),
-                })?;
-            debug_assert_eq!(scaling.transform, Transform::Identity);
-            let t: Array1<f64> = learnt
-                .iter()
-                .map(|v| scaling.scale(*v).unwrap_or(f64::NAN))
-                .collect();
-            let x_t = x.select(ndarray::Axis(0), &rows);
-            let committee = train_committee(
-                &params,
-                x_t.view(),
-                t.view(),
-                scaling.width(),
-                name,
-                &path,
+            let target = TargetRun {
+                params: &params,
+                x: &x,
+                input_values: &kept.values,
+                path: &path,
                 observer,
-            )?;
-            evals += committee
+            }
+            .train(name, values, transform)?;
+            evals += target
+                .committee
                 .members
                 .iter()
                 .map(|m| m.diagnostics.gradient_evaluations)
                 .sum::<u64>();
-            let raw_rows: Vec<Vec<f64>> = rows
-                .iter()
-                .map(|&i| input_values.iter().map(|v| v[i]).collect())
-                .collect();
-            let summary = summarise_training(
-                &committee,
-                &scaling,
-                &transform,
-                x_t.view(),
-                &raw_rows,
-                &present,
-            );
-            let (min, max) = min_max(&present);
-            targets.push(TargetModel {
-                name: name.clone(),
-                min,
-                max,
-                scaling,
-                n_rows: rows.len(),
-                n_missing: n - rows.len(),
-                transform,
-                committee,
-                training_summary: Some(summary),
-            });
+            targets.push(target);
         }
 
+        let KeptInputs {
+            columns: inputs,
+            set_aside,
+            values: input_values,
+        } = kept;
+        let n = table.n_rows();
         let mut names: Vec<&str> = inputs.iter().map(|c| c.name.as_str()).collect();
         names.extend(spec.targets.iter().map(String::as_str));
         let input_opt: Vec<Vec<Option<f64>>> = input_values
@@ -349,6 +228,203 @@ impl Model {
             },
             schema: None,
             domain: DomainReference::build(x.view()),
+        })
+    }
+}
+
+/// The input columns offered: those listed (none of them a target), else
+/// every numeric column that is not a target.
+fn offered_inputs(table: &Table, spec: &TrainSpec) -> Result<Vec<String>> {
+    Ok(match &spec.inputs {
+        Some(list) => {
+            for name in list {
+                if spec.targets.contains(name) {
+                    return Err(Error::InvalidParameter {
+                        name: "inputs",
+                        value: name.clone(),
+                        expected: "input columns other than the target".into(),
+                    });
+                }
+            }
+            list.clone()
+        }
+        None => table
+            .names()
+            .iter()
+            .filter(|n| !spec.targets.contains(n) && table.has_numbers(n))
+            .cloned()
+            .collect(),
+    })
+}
+
+/// The inputs kept, with their training values, and those set aside.
+struct KeptInputs {
+    columns: Vec<InputColumn>,
+    set_aside: Vec<SetAside>,
+    /// Each kept input's values, row by row.
+    values: Vec<Vec<f64>>,
+}
+
+impl KeptInputs {
+    /// Keep each offered column that is neither a restatement of one kept
+    /// before it nor constant, with its scaling.
+    ///
+    /// # Errors
+    /// [`Error::NoInputs`] when none is kept; a column's read error.
+    fn choose(table: &Table, offered: &[String], auto_log: bool, path: &str) -> Result<Self> {
+        let mut inputs = Vec::new();
+        let mut set_aside = Vec::new();
+        let mut input_values = Vec::new();
+        for name in offered {
+            let values = table.numeric(name)?;
+            if let Some(reason) = restates(&values, &inputs, &input_values) {
+                set_aside.push(SetAside {
+                    name: name.clone(),
+                    reason,
+                });
+                continue;
+            }
+            match ColumnScaling::fit(&values, auto_log) {
+                Some(scaling) => {
+                    let (min, max) = min_max(&values);
+                    inputs.push(InputColumn {
+                        name: name.clone(),
+                        min,
+                        max,
+                        scaling,
+                    });
+                    input_values.push(values);
+                }
+                None => set_aside.push(SetAside {
+                    name: name.clone(),
+                    reason: format!(
+                        "constant: every row is {}",
+                        values.first().copied().unwrap_or(f64::NAN)
+                    ),
+                }),
+            }
+        }
+        if inputs.is_empty() {
+            let detail = if set_aside.is_empty() {
+                "no numeric input columns".to_string()
+            } else {
+                set_aside
+                    .iter()
+                    .map(|s| format!("{} ({})", s.name, s.reason))
+                    .collect::<Vec<_>>()
+                    .join(", ")
+            };
+            return Err(Error::NoInputs {
+                path: path.to_string(),
+                detail,
+            });
+        }
+        Ok(KeptInputs {
+            columns: inputs,
+            set_aside,
+            values: input_values,
+        })
+    }
+
+    /// The scaled input matrix (`n` rows × kept inputs).
+    fn scaled(&self, n: usize) -> Array2<f64> {
+        let mut x = Array2::zeros((n, self.columns.len()));
+        for (j, (col, values)) in self.columns.iter().zip(&self.values).enumerate() {
+            for (i, v) in values.iter().enumerate() {
+                // training values are inside the fitted range, and a log
+                // transform is only chosen for strictly positive columns
+                x[[i, j]] = col.scaling.scale(*v).unwrap_or(f64::NAN);
+            }
+        }
+        x
+    }
+}
+
+/// What training each target shares.
+struct TargetRun<'a> {
+    params: &'a CheckedCommitteeParams,
+    x: &'a Array2<f64>,
+    input_values: &'a [Vec<f64>],
+    path: &'a str,
+    observer: &'a dyn TrainObserver,
+}
+
+impl TargetRun<'_> {
+    /// Train target `name` on the rows where it has a value, learnt through
+    /// `transform`, with its training summary.
+    ///
+    /// # Errors
+    /// [`Error::Cell`] for a value outside the transform's domain,
+    /// [`Error::ConstantTarget`], and the committee's errors.
+    fn train(
+        &self,
+        name: &str,
+        values: &[Option<f64>],
+        transform: TargetTransform,
+    ) -> Result<TargetModel> {
+        let n = values.len();
+        let rows: Vec<usize> = (0..n).filter(|&i| values[i].is_some()).collect();
+        let present: Vec<f64> = rows
+            .iter()
+            .map(|&i| values[i].unwrap_or(f64::NAN))
+            .collect();
+        let mut learnt = Vec::with_capacity(present.len());
+        for (&i, &y) in rows.iter().zip(&present) {
+            learnt.push(transform.forward(y).ok_or_else(|| Error::Cell {
+                path: self.path.to_string(),
+                row: i + 1,
+                line: i + 2,
+                column: name.to_string(),
+                problem: format!(
+                    "{y} cannot be learnt through transform '{}': expected {}",
+                    transform.name(),
+                    transform.domain_text()
+                ),
+            })?);
+        }
+        let scaling = ColumnScaling::fit(&learnt, false).ok_or_else(|| Error::ConstantTarget {
+            path: self.path.to_string(),
+            name: name.to_string(),
+            value: present.first().copied().unwrap_or(f64::NAN),
+        })?;
+        debug_assert_eq!(scaling.transform, Transform::Identity);
+        let t: Array1<f64> = learnt
+            .iter()
+            .map(|v| scaling.scale(*v).unwrap_or(f64::NAN))
+            .collect();
+        let x_t = self.x.select(ndarray::Axis(0), &rows);
+        let committee = train_committee(
+            self.params,
+            x_t.view(),
+            t.view(),
+            scaling.width(),
+            name,
+            self.path,
+            self.observer,
+        )?;
+        let raw_rows: Vec<Vec<f64>> = rows
+            .iter()
+            .map(|&i| self.input_values.iter().map(|v| v[i]).collect())
+            .collect();
+        let summary = summarise_training(
+            &committee,
+            &scaling,
+            &transform,
+            x_t.view(),
+            &raw_rows,
+            &present,
+        );
+        let (min, max) = min_max(&present);
+        Ok(TargetModel {
+            name: name.to_string(),
+            min,
+            max,
+            scaling,
+            n_rows: rows.len(),
+            n_missing: n - rows.len(),
+            transform,
+            committee,
+            training_summary: Some(summary),
         })
     }
 }

@@ -6,14 +6,17 @@
 //! the interval is asymmetric about the median, and [`Estimate::interval_kind`]
 //! says so.
 
+mod back_transform;
 mod domain;
 mod output;
+mod rows;
 
 pub use domain::{range_check, DomainGuard, DomainReport};
 pub use output::{
     csv_header, csv_row, json_row, to_column_units, EstimateFormat, EstimateWriter, TargetColumn,
     CAUTION, ROW_CAUTION,
 };
+pub use rows::{estimate_rows, TargetRows};
 
 use ndarray::Array2;
 use serde::Serialize;
@@ -285,7 +288,7 @@ impl Model {
     /// # Errors
     /// As [`Model::predict`], plus a missing or unreadable target column.
     pub fn evaluate(&self, table: &Table) -> Result<Vec<(String, Option<Evaluation>)>> {
-        Ok(crate::explain::estimate_rows(self, table)?
+        Ok(estimate_rows(self, table)?
             .into_iter()
             .map(|r| {
                 let e = r.evaluation();

@@ -33,8 +33,7 @@ use serde::{Deserialize, Serialize};
 use crate::committee::Committee;
 use crate::data::audit::pooled_sd;
 use crate::features::ColumnScaling;
-use crate::model::TargetTransform;
-use crate::predict::z975;
+use crate::transform::TargetTransform;
 
 /// Noise sd over the training rows, in target units.
 #[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
@@ -123,19 +122,13 @@ pub fn summarise_training(
 ) -> TrainingSummary {
     let p = committee.predict_scaled(x);
     let w = scaling.width();
-    let z = z975();
     let noise: Vec<f64> = p
         .mean
         .iter()
-        .zip(&p.var)
         .zip(&p.noise_var)
-        .map(|((m, v), nv)| {
-            transform
-                .back_transform(scaling.unscale_linear(*m), v.sqrt() * w, nv.sqrt() * w, z)
-                .noise_sd
-        })
+        .map(|(m, nv)| transform.noise_sd_back(scaling.unscale_linear(*m), nv.sqrt() * w))
         .collect();
-    let input = crate::explain::relevance(committee)
+    let input = crate::committee::relevance(committee)
         .and_then(|r| {
             r.iter()
                 .enumerate()
@@ -163,7 +156,6 @@ fn training_fit(
     measured: &[f64],
 ) -> Option<crate::metrics::Evaluation> {
     let w = scaling.width();
-    let z = z975();
     let n = measured.len();
     let (mut point, mut zy, mut zm, mut zs) = (
         Vec::with_capacity(n),
@@ -173,8 +165,8 @@ fn training_fit(
     );
     for (k, y) in measured.iter().enumerate() {
         let m = scaling.unscale_linear(p.mean[k]);
-        let (sd, nsd) = (p.var[k].sqrt() * w, p.noise_var[k].sqrt() * w);
-        point.push(transform.back_transform(m, sd, nsd, z).mean);
+        let sd = p.var[k].sqrt() * w;
+        point.push(transform.mean_back(m, sd));
         zy.push(transform.forward(*y)?);
         zm.push(m);
         zs.push(sd);

@@ -36,7 +36,7 @@
 
 use serde::{Deserialize, Serialize};
 
-use crate::committee::Committee;
+use super::Committee;
 use crate::evidence::GroupKind;
 
 /// The sentence shown beside every relevance table and chart.
@@ -151,14 +151,64 @@ pub fn relevance_over(fits: &[Vec<f64>]) -> Vec<(f64, f64, f64)> {
 #[cfg(test)]
 mod tests {
     use super::*;
+    use crate::committee::{Member, NoiseSelection, Selection};
+    use crate::evidence::{FitDiagnostics, HessianKind};
+
+    /// A linear committee (no hidden units) of members with the given
+    /// input α's, for tests of what is read from a committee.
+    pub(crate) fn committee_with_alphas(alphas: &[&[f64]]) -> Committee {
+        let d = alphas[0].len();
+        let members = alphas
+            .iter()
+            .map(|a| {
+                let mut groups: Vec<GroupKind> = (0..d).map(GroupKind::Input).collect();
+                groups.push(GroupKind::OutputBias);
+                let mut alpha = a.to_vec();
+                alpha.push(1e-8);
+                Member {
+                    n_hidden: 0,
+                    restart: 0,
+                    seed: 0,
+                    gamma: vec![1.0; d + 1],
+                    groups,
+                    alpha,
+                    beta: 100.0,
+                    log_evidence: 0.0,
+                    heldout_nlpd: 0.0,
+                    hessian: HessianKind::Exact,
+                    weights: vec![0.0; d + 1],
+                    posterior_cov: ndarray::Array2::eye(d + 1),
+                    diagnostics: FitDiagnostics::default(),
+                    noise: None,
+                }
+            })
+            .collect();
+        Committee {
+            n_inputs: d,
+            members,
+            candidates: vec![],
+            selection: Selection {
+                n_train_part: 0,
+                n_heldout: 0,
+                hidden_searched: (0, 0),
+                widened: false,
+                nlpd_by_size: vec![0.0],
+                n_members: alphas.len(),
+                refit_failures: vec![],
+                noise: NoiseSelection::default(),
+                kriging: Default::default(),
+            },
+            kriging: None,
+            gross_errors: None,
+        }
+    }
 
     #[test]
     fn normalised_per_member_then_averaged() {
         // member 1: α = (1, 4, 100) → σ = (1, 0.5, 0.1), r = (1, 0.5, 0.1)
         // member 2: α = (4, 1, 100) → σ = (0.5, 1, 0.1), r = (0.5, 1, 0.1)
         // mean (0.75, 0.75, 0.1) → R = (1, 1, 0.1333…); by hand
-        let c =
-            crate::explain::tests::committee_with_alphas(&[&[1.0, 4.0, 100.0], &[4.0, 1.0, 100.0]]);
+        let c = committee_with_alphas(&[&[1.0, 4.0, 100.0], &[4.0, 1.0, 100.0]]);
         let r = relevance(&c).expect("ard");
         assert!((r[0] - 1.0).abs() < 1e-12 && (r[1] - 1.0).abs() < 1e-12);
         assert!((r[2] - 0.1 / 0.75).abs() < 1e-12);

@@ -1,0 +1,319 @@
+//! What the model file keeps of the training inputs for the domain guard
+//! ([`crate::domain`]): the whitened distinct training rows with their
+//! leave-one-out nearest-neighbour reference distance, and the pair grids.
+//! Built once at training time from the scaled training inputs; the guard
+//! measures queries against it. The method and its sources are in
+//! [`crate::domain`]'s documentation.
+
+use ndarray::{Array1, Array2, ArrayView2, Axis};
+use ndarray_linalg::{Eigh, UPLO};
+use rayon::prelude::*;
+use serde::{Deserialize, Serialize};
+
+use crate::prec::{
+    DOMAIN_EIGEN_FLOOR, DOMAIN_K, DOMAIN_PAIR_MAX_CELLS, DOMAIN_PAIR_RADIUS,
+    DOMAIN_PAIR_ROWS_PER_CELL, DOMAIN_REFERENCE_MAX_ROWS, DOMAIN_REFERENCE_QUANTILE,
+    DOMAIN_REFERENCE_SEED,
+};
+
+/// What the model file keeps of the training inputs for the joint-domain
+/// check: the scaled training rows and the reference distance.
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+pub struct DomainReference {
+    /// Neighbours counted (k).
+    pub k: usize,
+    /// Inputs per row.
+    pub n_inputs: usize,
+    /// Mean of the scaled training rows.
+    pub mean: Vec<f64>,
+    /// Whitening matrix W (inputs × inputs, row after row): a scaled row s
+    /// maps to (s − mean)·W, whose covariance over the training rows is
+    /// the identity.
+    pub whitening: Vec<f64>,
+    /// Whitened distinct training rows, row after row (repeated rows once;
+    /// a seeded sample of [`DOMAIN_REFERENCE_MAX_ROWS`] of them when there
+    /// are more).
+    pub rows: Vec<f64>,
+    /// Scaled (not whitened) distinct training rows, row after row, for naming the
+    /// inputs that make up a gap.
+    pub scaled_rows: Vec<f64>,
+    /// D: the [`DOMAIN_REFERENCE_QUANTILE`] quantile of the training rows'
+    /// leave-one-out k-NN distances.
+    pub reference_distance: f64,
+    /// Median of the same distances (for the notes).
+    pub median_distance: f64,
+    /// Occupancy of every two-input projection of the training rows (the
+    /// pair check; absent in files written before it existed: the check is
+    /// then skipped).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub pairs: Option<PairGrid>,
+}
+
+/// Which cells of a coarse grid over each pair of inputs hold a training
+/// row: the pair check. Each input's scaled training range [−0.5, 0.5] is
+/// cut into `cells` equal cells; for every pair (a, b), a < b, taken in
+/// input order (a = 0, b = 1, 2, …; then a = 1, …), a bitmap of
+/// `cells × cells` bits marks the cells where at least one distinct
+/// training row falls (bit `i·cells + j` for cell i of input a and cell j
+/// of input b, packed into 64-bit words, lowest bit first).
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+pub struct PairGrid {
+    /// Cells per input.
+    pub cells: usize,
+    /// A query is out of the joint domain when no training row lies in the
+    /// block of cells within `radius` cells of its own, for some pair.
+    pub radius: usize,
+    /// One bitmap per pair.
+    pub occupied: Vec<Vec<u64>>,
+}
+
+impl PairGrid {
+    /// Words per pair bitmap.
+    pub fn words(cells: usize) -> usize {
+        (cells * cells).div_ceil(64)
+    }
+
+    /// The cell of a scaled value (values beyond the training range fall in
+    /// the end cells; the range check judges them).
+    fn cell(&self, u: f64) -> usize {
+        let c = ((u + 0.5) * self.cells as f64).floor();
+        if c.is_nan() || c < 0.0 {
+            0
+        } else {
+            (c as usize).min(self.cells - 1)
+        }
+    }
+
+    /// Build from distinct scaled rows (rows × inputs) with `cells` cells
+    /// per input and the block radius `radius`.
+    pub fn build(x: ArrayView2<f64>, cells: usize, radius: usize) -> PairGrid {
+        let d = x.ncols();
+        let cells = cells.max(1);
+        let mut g = PairGrid {
+            cells,
+            radius,
+            occupied: Vec::new(),
+        };
+        let idx: Vec<Vec<usize>> = x
+            .rows()
+            .into_iter()
+            .map(|r| r.iter().map(|&u| g.cell(u)).collect())
+            .collect();
+        for a in 0..d {
+            for b in a + 1..d {
+                let mut bits = vec![0u64; Self::words(cells)];
+                for r in &idx {
+                    let k = r[a] * cells + r[b];
+                    bits[k / 64] |= 1 << (k % 64);
+                }
+                g.occupied.push(bits);
+            }
+        }
+        g
+    }
+
+    /// True when no cell within `rho` cells of (i, j) is occupied in `bits`.
+    fn block_empty(&self, bits: &[u64], i: usize, j: usize, rho: usize) -> bool {
+        let span = |c: usize| c.saturating_sub(rho)..=(c + rho).min(self.cells - 1);
+        !span(i).any(|x| {
+            span(j).any(|y| {
+                let k = x * self.cells + y;
+                bits[k / 64] >> (k % 64) & 1 == 1
+            })
+        })
+    }
+
+    /// The pairs (a, b) in whose projection the scaled query has no
+    /// training row within `radius` cells of its own cell, the widest empty
+    /// neighbourhood first (pairs with equal widths in input order).
+    pub fn empty_pairs(&self, scaled: &[f64]) -> Vec<(usize, usize)> {
+        let d = scaled.len();
+        let idx: Vec<usize> = scaled.iter().map(|&u| self.cell(u)).collect();
+        let mut out = Vec::new();
+        let mut p = 0;
+        for a in 0..d {
+            for b in a + 1..d {
+                let bits = &self.occupied[p];
+                p += 1;
+                if self.block_empty(bits, idx[a], idx[b], self.radius) {
+                    // only for the flagged pairs: how far the emptiness reaches
+                    let depth = (self.radius + 1..self.cells)
+                        .take_while(|&rho| self.block_empty(bits, idx[a], idx[b], rho))
+                        .count();
+                    out.push((depth, a, b));
+                }
+            }
+        }
+        out.sort_by_key(|x| std::cmp::Reverse(x.0));
+        out.into_iter().map(|(_, a, b)| (a, b)).collect()
+    }
+}
+
+/// Cells per input of the pair check for `n` distinct training rows: as
+/// many that a cell would hold [`DOMAIN_PAIR_ROWS_PER_CELL`] rows on
+/// average if the rows spread evenly over a pair's square, n / G² = c, so
+/// G = ⌊√(n / c)⌋, between 2r + 1 (r = [`DOMAIN_PAIR_RADIUS`]) and
+/// [`DOMAIN_PAIR_MAX_CELLS`]. Real rows cluster, so most cells are empty
+/// and the occupied ones hold more.
+pub fn pair_cells(n: usize) -> usize {
+    let g = (n as f64 / DOMAIN_PAIR_ROWS_PER_CELL).sqrt().floor() as usize;
+    g.clamp(2 * DOMAIN_PAIR_RADIUS + 1, DOMAIN_PAIR_MAX_CELLS)
+}
+
+/// Euclidean distance between two rows.
+pub(crate) fn dist2(a: &[f64], b: &[f64]) -> f64 {
+    a.iter().zip(b).map(|(x, y)| (x - y) * (x - y)).sum()
+}
+
+/// Quantile q of sorted values by linear interpolation between order
+/// statistics (the "type 7" rule; common practice, no source).
+pub(crate) fn quantile_sorted(sorted: &[f64], q: f64) -> f64 {
+    if sorted.is_empty() {
+        return f64::NAN;
+    }
+    let h = q * (sorted.len() - 1) as f64;
+    let lo = h.floor() as usize;
+    let hi = (lo + 1).min(sorted.len() - 1);
+    sorted[lo] + (h - lo as f64) * (sorted[hi] - sorted[lo])
+}
+
+/// Mean and whitening matrix of scaled rows `x`: W = V·Λ^(−1/2) from the
+/// eigen-decomposition C = V·Λ·Vᵀ of their covariance, eigenvalues floored
+/// at [`DOMAIN_EIGEN_FLOOR`] times the largest (an input that is an exact
+/// combination of others, such as a carbon equivalent beside its elements,
+/// leaves a direction without spread; the floor keeps the metric finite
+/// there while still making a step off that combination far). Distances
+/// after whitening are Mahalanobis distances (Mahalanobis 1936, Proc.
+/// Natl. Inst. Sci. India 2:49). `None` when the decomposition fails.
+fn whitening(x: ArrayView2<f64>) -> Option<(Array1<f64>, Array2<f64>)> {
+    let n = x.nrows() as f64;
+    let mean = x.mean_axis(Axis(0))?;
+    let c = x.to_owned() - &mean;
+    let cov = c.t().dot(&c) / (n - 1.0).max(1.0);
+    let (eig, v) = cov.eigh(UPLO::Lower).ok()?;
+    let top = eig.iter().copied().fold(0.0, f64::max);
+    if top <= 0.0 {
+        return None;
+    }
+    let scale = eig.mapv(|l| 1.0 / l.max(top * DOMAIN_EIGEN_FLOOR).sqrt());
+    Some((mean, v * &scale))
+}
+
+/// `m` of the row positions `0..n` (m < n), in increasing order, drawn
+/// without replacement by a partial Fisher–Yates shuffle from the fixed
+/// seed [`DOMAIN_REFERENCE_SEED`]: the same rows for the same data on any
+/// number of threads.
+fn reference_sample(n: usize, m: usize) -> Vec<usize> {
+    use rand::{Rng, SeedableRng};
+    let mut rng = rand_xoshiro::Xoshiro256PlusPlus::seed_from_u64(DOMAIN_REFERENCE_SEED);
+    let mut idx: Vec<usize> = (0..n).collect();
+    for i in 0..m {
+        let j = rng.random_range(i..n);
+        idx.swap(i, j);
+    }
+    idx.truncate(m);
+    idx.sort_unstable();
+    idx
+}
+
+/// The k-th smallest of `d` (1-based k, k ≤ len).
+fn kth_smallest(d: &mut [f64], k: usize) -> f64 {
+    let (_, v, _) = d.select_nth_unstable_by(k - 1, f64::total_cmp);
+    *v
+}
+
+impl DomainReference {
+    /// Build from the scaled training inputs (rows × inputs). `None` with
+    /// fewer than two rows (no neighbourhood to measure) or when the
+    /// covariance cannot be decomposed.
+    pub fn build(x: ArrayView2<f64>) -> Option<DomainReference> {
+        Self::build_with_k(x, DOMAIN_K)
+    }
+
+    /// As [`DomainReference::build`] with `k` neighbours instead of
+    /// [`DOMAIN_K`] (for studies of the setting).
+    pub fn build_with_k(x: ArrayView2<f64>, k: usize) -> Option<DomainReference> {
+        Self::build_with(x, k, None, DOMAIN_PAIR_RADIUS)
+    }
+
+    /// As [`DomainReference::build_with_k`] with the pair check's cells per
+    /// input (`None`: [`pair_cells`] of the distinct row count; `Some(0)`:
+    /// no pair check) and block radius given (for studies of the setting).
+    pub fn build_with(
+        x: ArrayView2<f64>,
+        k: usize,
+        cells: Option<usize>,
+        radius: usize,
+    ) -> Option<DomainReference> {
+        let d = x.ncols();
+        let (mean, w) = whitening(x)?;
+        // repeated rows (replicate tests at one condition) count once: a
+        // row's own replicates are not its neighbours
+        let mut distinct: Vec<Vec<f64>> = x.rows().into_iter().map(|r| r.to_vec()).collect();
+        distinct.sort_by(|a, b| {
+            a.iter()
+                .zip(b)
+                .map(|(p, q)| p.total_cmp(q))
+                .find(|o| o.is_ne())
+                .unwrap_or(std::cmp::Ordering::Equal)
+        });
+        distinct.dedup();
+        let n_distinct = distinct.len();
+        if n_distinct < 2 {
+            return None;
+        }
+        let all = Array2::from_shape_vec((n_distinct, d), distinct.concat()).ok()?;
+        // the pair grid sees every distinct row; the nearest-neighbour
+        // reference keeps at most DOMAIN_REFERENCE_MAX_ROWS of them
+        let pairs = match cells.unwrap_or_else(|| pair_cells(n_distinct)) {
+            0 => None,
+            g => Some(PairGrid::build(all.view(), g, radius)),
+        };
+        let x = if n_distinct > DOMAIN_REFERENCE_MAX_ROWS {
+            all.select(
+                Axis(0),
+                &reference_sample(n_distinct, DOMAIN_REFERENCE_MAX_ROWS),
+            )
+        } else {
+            all
+        };
+        let n = x.nrows();
+        let x = x.view();
+        let white = (&x - &mean).dot(&w);
+        let rows: Vec<f64> = white.iter().copied().collect();
+        let k = k.clamp(1, n - 1);
+        let mut loo: Vec<f64> = (0..n)
+            .into_par_iter()
+            .map(|i| {
+                let xi = &rows[i * d..(i + 1) * d];
+                let mut ds: Vec<f64> = (0..n)
+                    .filter(|&j| j != i)
+                    .map(|j| dist2(xi, &rows[j * d..(j + 1) * d]))
+                    .collect();
+                kth_smallest(&mut ds, k).sqrt()
+            })
+            .collect();
+        loo.sort_by(f64::total_cmp);
+        Some(DomainReference {
+            k,
+            n_inputs: d,
+            reference_distance: quantile_sorted(&loo, DOMAIN_REFERENCE_QUANTILE),
+            median_distance: quantile_sorted(&loo, 0.5),
+            mean: mean.to_vec(),
+            whitening: w.iter().copied().collect(),
+            rows,
+            scaled_rows: x.iter().copied().collect(),
+            pairs,
+        })
+    }
+
+    /// Training rows stored.
+    pub fn n_rows(&self) -> usize {
+        self.rows.len() / self.n_inputs.max(1)
+    }
+
+    /// Row `i` of the stored whitened inputs.
+    pub fn row(&self, i: usize) -> &[f64] {
+        &self.rows[i * self.n_inputs..(i + 1) * self.n_inputs]
+    }
+}
