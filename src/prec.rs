@@ -144,6 +144,47 @@ pub const DOMAIN_REFERENCE_QUANTILE: f64 = 0.99;
 /// docs/domain.md).
 pub const DOMAIN_DISTANCE_FACTOR: f64 = 1.0;
 
+/// The relevance-weighted distance from a row to its nearest training row
+/// (range-widths of a fully relevant input, `domain::near`) beyond which
+/// the row is outside, unless the training rows' own 99th percentile of
+/// that distance is larger: a gap of a fifth of carbon's whole range, or
+/// the same spread over several relevant inputs. Real archives are
+/// clusters of grades with tight replicates, whose own nearest-neighbour
+/// spacing is far smaller than a grade's tolerance; this floor keeps a
+/// step of a grade tolerance in one or two elements (under a tenth of the
+/// range in the generated archives of tests/domain_clustered.rs) from
+/// being called an extrapolation, while a point midway between distant
+/// grades is one. Set on those generated archives.
+pub const DOMAIN_FAR_FLOOR: f64 = 0.2;
+
+/// An input whose effect on some target (the committee's sensitivity to
+/// it over the training rows) is at least this share of the strongest
+/// input's counts in full in the relevance-weighted distance; weaker ones
+/// count in proportion, so an input the networks ignore adds next to
+/// nothing. Set on the generated archives of tests/domain_clustered.rs.
+pub const DOMAIN_RELEVANT_SHARE: f64 = 0.2;
+
+/// Share of the outside distance ([`DOMAIN_FAR_FLOOR`] or the training
+/// rows' own percentile) beyond which a row is thinly supported.
+pub const DOMAIN_THIN_SHARE_OF_FAR: f64 = 0.5;
+
+/// A hole in the projection on two inputs puts a row outside only when
+/// both inputs have at least this relevance (most relevant = 1); a hole
+/// involving an input the networks make little use of marks thin support.
+pub const DOMAIN_PAIR_MIN_RELEVANCE: f64 = 0.1;
+
+/// The committee's model sd at a row over its 99th percentile on the
+/// training rows above which the row is outside: the networks disagree or
+/// are unsure far beyond their usual (above the percentile itself the row
+/// is thinly supported).
+pub const DOMAIN_SD_OUT: f64 = 2.0;
+
+/// Quantile of the training rows' own leave-one-out relevance-weighted
+/// nearest distances above which (and above [`DOMAIN_THIN_SHARE_OF_FAR`] of
+/// the outside distance) a row is thinly supported: about one new row in
+/// ten drawn like the training rows.
+pub const DOMAIN_THIN_QUANTILE: f64 = 0.9;
+
 /// A value beyond its input's training range by no more than this share of
 /// the range is noted but does not by itself put the row out of domain
 /// (rounding in the records, a test row a hair past the last training row).

@@ -31,9 +31,12 @@ pub enum UnitChoice {
     about = "Estimate the targets, with error bars and a domain verdict, for new rows.",
     long_about = "Estimate every target of a model, with error bars, for each row of a table.\n\n\
 Each estimate has a mean, a median, a standard deviation (sd = noise + model uncertainty), the \
-central 95 % interval (lo95, hi95) and a domain verdict: in_domain is false, with notes naming the \
-inputs, when a row lies outside what the training data cover. An estimate outside the domain is an \
-extrapolation: treat it with suspicion whatever its error bar.\n\n\
+central 95 % interval (lo95, hi95) and a graded domain verdict (domain): inside (training rows \
+like it in every input that matters), thin (near the data but with few close training rows or a \
+raised model uncertainty: usable, check the error bar) or outside (beyond a range, in an empty \
+region of the inputs that matter, or where the committee's uncertainty is far above its usual). \
+in_domain is false only for outside; the notes name the inputs responsible. An estimate outside \
+the domain is an extrapolation: treat it with suspicion whatever its error bar.\n\n\
 For a target learnt on the log or a bounded scale (schema transform), the interval is computed on \
 that scale and mapped back: it is asymmetric about the median, and interval_kind says so \
 (normal, log_normal, logit_normal). When the model chose a heavy-tailed (Student-t) error shape \
@@ -42,7 +45,7 @@ is unchanged, the interval a little narrower than ± 1.96 sd. For a model traine
 through the stored schema: its units are converted and its derived inputs computed from the raw \
 columns; estimates are in internal units (MPa, J, %, °C) unless --units declared.\n\n\
 JSON output is an array with one object per row: keys row, target, mean, median, sd, lo95, hi95, \
-noise_sd, model_sd, interval_kind, unit (when known), in_domain, notes, caution (for a model with several \
+noise_sd, model_sd, interval_kind, unit (when known), in_domain, domain, notes, caution (for a model with several \
 targets, an 'estimates' object keyed by target holds mean ... unit).\n\n\
 Large inputs: the table is read, estimated and written a batch of rows at a time, so csv and json \
 output for millions of rows (CSV or Parquet input) take bounded memory; with --out nothing appears \
@@ -150,6 +153,13 @@ pub fn run(a: PredictArgs) -> anyhow::Result<()> {
             tally.out_of_domain, tally.rows
         );
     }
+    if tally.thin > 0 {
+        eprintln!(
+            "note: {} of {} rows have thin support (domain = thin: near the data, few close \
+             training rows or a raised model uncertainty; see notes)",
+            tally.thin, tally.rows
+        );
+    }
     Ok(())
 }
 
@@ -165,12 +175,26 @@ struct Batch {
 struct Tally {
     rows: usize,
     out_of_domain: usize,
+    thin: usize,
 }
 
 impl Tally {
     fn add(&mut self, rows: &[RowPrediction]) {
         self.rows += rows.len();
         self.out_of_domain += rows.iter().filter(|r| !r.in_domain).count();
+        self.thin += rows
+            .iter()
+            .filter(|r| r.level == mettle::domain::DomainLevel::Thin)
+            .count();
+    }
+}
+
+/// The verdict cell of a table: `in`, `thin` or `OUT`, then the notes.
+pub(crate) fn domain_cell(level: mettle::domain::DomainLevel, notes: &[String]) -> String {
+    match (level, notes.is_empty()) {
+        (mettle::domain::DomainLevel::Outside, _) => format!("OUT: {}", notes.join("; ")),
+        (_, true) => level.short().to_string(),
+        (_, false) => format!("{}; {}", level.short(), notes.join("; ")),
     }
 }
 
@@ -204,15 +228,7 @@ fn to_table(cols: &[Column], rows: &[RowPrediction]) -> String {
                 };
                 cells.extend([centre, e.sd, e.lo95, e.hi95].iter().map(|v| num(*v)));
             }
-            cells.push(if r.in_domain {
-                if r.notes.is_empty() {
-                    "in".to_string()
-                } else {
-                    format!("in; {}", r.notes.join("; "))
-                }
-            } else {
-                format!("OUT: {}", r.notes.join("; "))
-            });
+            cells.push(domain_cell(r.level, &r.notes));
             cells
         })
         .collect();

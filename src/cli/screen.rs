@@ -120,7 +120,9 @@ With --costs, a TOML file of prices (currency per kg per element and for the bal
 candidate's alloy cost per tonne, and its [limits] (maximum CE(IIW), Pcm or CET, element bounds, \
 bounds on sums of elements) are checked; --max-ce sets the carbon-equivalent limit on the command \
 line. Candidates outside the training domain or breaking a limit are shown but ranked after every \
-other one (--allow-out-of-domain ranks out-of-domain candidates by probability too).\n\n\
+other one (--allow-out-of-domain ranks out-of-domain candidates by probability too); candidates \
+with thin support (verdict thin: near the data, but few close training rows or a raised model \
+uncertainty) are ranked and marked.\n\n\
 Output: a table (rank, row of the input, each requirement's estimate, sd and probability, the \
 joint probability, cost, carbon equivalent, verdict), or CSV or JSON with every target's estimate.\n\n\
 Estimates are not test results: qualification testing per the applicable code decides; local \
@@ -168,6 +170,17 @@ pub fn run(a: ScreenArgs) -> anyhow::Result<()> {
         .collect();
     let mut notes = Vec::new();
     let n_out = cands.iter().filter(|c| !c.in_domain).count();
+    let n_thin = cands
+        .iter()
+        .filter(|c| c.level == mettle::domain::DomainLevel::Thin)
+        .count();
+    if n_thin > 0 {
+        notes.push(format!(
+            "{n_thin} of {} candidates have thin support (verdict 'thin'): ranked, but their \
+             estimates lean on the model's interpolation; check the notes and error bars",
+            cands.len()
+        ));
+    }
     if n_out > 0 {
         notes.push(format!(
             "{n_out} of {} candidates are outside the training domain{}",
@@ -214,7 +227,7 @@ pub fn render(
 fn verdict(c: &Candidate) -> String {
     let mut parts = Vec::new();
     if c.in_domain {
-        parts.push("in".to_string());
+        parts.push(c.level.short().to_string());
     } else {
         parts.push(format!("OUT: {}", c.notes.join("; ")));
     }
@@ -327,6 +340,7 @@ fn csv(s: &Screening<'_>, shown: &[Shown<'_>]) -> String {
             "cost_per_tonne",
             "carbon_equivalent",
             "in_domain",
+            "domain",
             "notes",
         ]
         .map(String::from),
@@ -354,6 +368,7 @@ fn csv(s: &Screening<'_>, shown: &[Shown<'_>]) -> String {
         cells.push(opt(c.cost_per_tonne));
         cells.push(opt(c.carbon_equivalent));
         cells.push(c.in_domain.to_string());
+        cells.push(c.level.name().to_string());
         let mut n = c.notes.clone();
         n.extend(c.violations.iter().map(|v| format!("limit: {}", v.text)));
         cells.push(csv_field(&n.join("; ")));
@@ -395,6 +410,7 @@ fn to_json(s: &Screening<'_>, shown: &[Shown<'_>], notes: &[String], what: &str)
             o.insert("carbon_equivalent".into(), json!(c.carbon_equivalent));
             o.insert("violations".into(), json!(c.violations));
             o.insert("in_domain".into(), json!(c.in_domain));
+            o.insert("domain".into(), json!(c.level.name()));
             o.insert("notes".into(), json!(c.notes));
             Value::Object(o)
         })

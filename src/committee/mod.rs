@@ -38,6 +38,7 @@ mod pipeline;
 mod refit;
 mod relevance;
 mod residual;
+mod sensitivity;
 mod split;
 #[cfg(test)]
 mod stage_fixture;
@@ -213,6 +214,11 @@ pub struct ScaledPrediction {
     /// Noise part: mean of the members' noise variances (times the
     /// residual process's noise factor when kriging is used).
     pub noise_var: Array1<f64>,
+    /// The committee's model variance alone: the members' parameter
+    /// variance gᵀA⁻¹g and their spread about the committee mean, without
+    /// the noise and without the residual process (what the domain guard
+    /// compares with its typical value on the training rows).
+    pub committee_var: Array1<f64>,
 }
 
 /// Mean and variance of a committee from its members' means and variances.
@@ -332,6 +338,7 @@ impl Committee {
             mean: cat(|b| &b.mean),
             var: cat(|b| &b.var),
             noise_var: cat(|b| &b.noise_var),
+            committee_var: cat(|b| &b.committee_var),
         }
     }
 
@@ -403,10 +410,12 @@ fn committee_of(
     }
     let (mean, var) = combine(&means, &vars);
     let noise_var = noise / n_members as f64;
+    let committee_var = (&var - &noise_var).mapv(|v| v.max(0.0));
     ScaledPrediction {
         mean,
         var,
         noise_var,
+        committee_var,
     }
 }
 

@@ -267,7 +267,7 @@ pub fn band_rows(model: &Model, table: &Table) -> Result<Vec<BandRow>> {
         .iter()
         .map(|t| physical_bound(model, &t.name))
         .collect();
-    let verdicts = model.domain_guard().check_many(raw.view());
+    let verdicts = model.domain_guard().check_many_with(raw.view(), &learnt);
     let mut out: Vec<_> = (0..raw.nrows())
         .zip(verdicts)
         .map(|(i, verdict)| {

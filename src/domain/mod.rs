@@ -55,18 +55,21 @@
 
 mod physical;
 
-pub use crate::model::{pair_cells, DomainReference, PairGrid};
+pub use crate::model::{pair_cells, DomainReference, NearMeasure, PairGrid};
 pub use physical::{physical_bound, PhysicalBound};
 
 use ndarray::{s, Array2, ArrayView1, ArrayView2, Axis};
-use serde::Serialize;
+use serde::{Deserialize, Serialize};
 
+use crate::model::near;
 use crate::model::reference::dist2;
 pub(crate) use crate::model::reference::quantile_sorted;
 use crate::model::InputColumn;
 use crate::prec::{
-    DOMAIN_DISTANCE_FACTOR, DOMAIN_QUERY_BLOCK, DOMAIN_RANGE_SLACK, DOMAIN_SCREEN_SLACK,
+    DOMAIN_DISTANCE_FACTOR, DOMAIN_PAIR_MIN_RELEVANCE, DOMAIN_QUERY_BLOCK, DOMAIN_RANGE_SLACK,
+    DOMAIN_SCREEN_SLACK, DOMAIN_SD_OUT,
 };
+use crate::units::Unit;
 
 /// One input outside its training range.
 #[derive(Clone, Debug, PartialEq, Serialize)]
@@ -85,15 +88,83 @@ pub struct RangeExcess {
     pub fraction: f64,
 }
 
+/// How far the training data vouch for a row: three levels.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, PartialOrd, Ord, Serialize, Deserialize)]
+#[serde(rename_all = "lowercase")]
+pub enum DomainLevel {
+    /// Training rows like it in every input that matters; the model's
+    /// uncertainty is ordinary.
+    Inside,
+    /// Within the ranges and near the data in the inputs that matter, but
+    /// with few close training rows or a raised model uncertainty: the
+    /// estimate leans on the model's interpolation; its error bars say by
+    /// how much.
+    Thin,
+    /// Beyond a range, in an empty region of the inputs that matter, or
+    /// where the model's uncertainty is far above its usual: an
+    /// extrapolation.
+    Outside,
+}
+
+impl DomainLevel {
+    /// The level in plain words: `inside`, `thin support`, `outside`.
+    pub fn words(self) -> &'static str {
+        match self {
+            DomainLevel::Inside => "inside",
+            DomainLevel::Thin => "thin support",
+            DomainLevel::Outside => "outside",
+        }
+    }
+
+    /// The short form for tables: `in`, `thin`, `OUT`.
+    pub fn short(self) -> &'static str {
+        match self {
+            DomainLevel::Inside => "in",
+            DomainLevel::Thin => "thin",
+            DomainLevel::Outside => "OUT",
+        }
+    }
+
+    /// The machine-readable name: `inside`, `thin`, `outside`.
+    pub fn name(self) -> &'static str {
+        match self {
+            DomainLevel::Inside => "inside",
+            DomainLevel::Thin => "thin",
+            DomainLevel::Outside => "outside",
+        }
+    }
+}
+
+/// The committee's model sd at a row relative to its typical value on
+/// the training rows, for the target where it is largest.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct UncertaintyRatio {
+    /// model sd / median model sd over the training rows.
+    pub ratio: f64,
+    /// model sd / its 99th percentile over the training rows: above 1 thin
+    /// support, above [`DOMAIN_SD_OUT`] outside.
+    pub over_high: f64,
+    /// The target it belongs to.
+    pub target: String,
+}
+
 /// The guard's verdict for one row.
 #[derive(Clone, Debug, PartialEq, Serialize)]
 pub struct DomainVerdict {
-    /// False when any check put the row out of domain.
+    /// False only when the row is [`DomainLevel::Outside`].
     pub in_domain: bool,
+    /// The graded verdict.
+    pub level: DomainLevel,
     /// Inputs outside their training range.
     pub outside_range: Vec<RangeExcess>,
     /// d_k(x) / D (`None` without a stored reference).
     pub distance_ratio: Option<f64>,
+    /// Relevance-weighted nearest distance over the distance that puts a
+    /// row outside (`None` without a stored reference).
+    pub relevant_distance_ratio: Option<f64>,
+    /// The model's uncertainty against its typical value (`None` when not
+    /// known: a guard run without the model's estimates, an older file).
+    pub uncertainty: Option<UncertaintyRatio>,
     /// Training rows within D of the query.
     pub support: Option<usize>,
     /// Plain-language notes, naming the inputs responsible.
@@ -128,6 +199,8 @@ impl DomainReference {
             reference: self,
             screen_rows,
             max_norm,
+            near: near::NearIndex::new(&self.scaled_rows, d, &self.weights()),
+            far: self.distances(),
         }
     }
 }
@@ -141,12 +214,27 @@ pub struct DomainIndex<'a> {
     screen_rows: Array2<f64>,
     /// The largest ‖rᵢ‖².
     max_norm: f64,
+    /// The relevance-weighted search.
+    near: near::NearIndex,
+    /// [`DomainReference::distances`].
+    far: (f64, f64),
 }
 
 impl<'a> DomainIndex<'a> {
     /// The reference indexed.
     pub fn reference(&self) -> &'a DomainReference {
         self.reference
+    }
+
+    /// The relevance-weighted nearest stored row of every scaled query
+    /// (queries × inputs).
+    pub fn near_many(&self, scaled: ArrayView2<f64>) -> Vec<NearMeasure> {
+        near::measure_all(&self.near, scaled)
+    }
+
+    /// [`DomainReference::distances`]: outside and thin.
+    pub fn distances(&self) -> (f64, f64) {
+        self.far
     }
 
     /// [`DomainReference::measure`] for every row of `scaled` (queries ×
@@ -332,6 +420,14 @@ pub fn range_excesses(inputs: &[InputColumn], raw: ArrayView1<f64>) -> Vec<Range
 
 /// The note for one range excess.
 pub fn range_note(e: &RangeExcess) -> String {
+    range_note_in(e, None)
+}
+
+/// [`range_note`] with the values shown in `unit` (the column's declared
+/// unit, when it differs from the internal unit the model works in).
+pub fn range_note_in(e: &RangeExcess, unit: Option<Unit>) -> String {
+    let v = |x: f64| fmt_num(unit.map_or(x, |u| u.from_internal(x)));
+    let by = unit.map_or(e.by.abs(), |u| u.interval_from_internal(e.by.abs()));
     let side = if e.by < 0.0 { "below" } else { "above" };
     let tail = if e.fraction <= DOMAIN_RANGE_SLACK {
         " (within the allowance for rounding; not out of domain by itself)"
@@ -341,10 +437,10 @@ pub fn range_note(e: &RangeExcess) -> String {
     format!(
         "{} = {} is {side} the training range {} to {} by {} ({:.0} % of the range){tail}",
         e.input,
-        fmt_num(e.value),
-        fmt_num(e.min),
-        fmt_num(e.max),
-        fmt_num(e.by.abs()),
+        v(e.value),
+        v(e.min),
+        v(e.max),
+        fmt_num(by),
         100.0 * e.fraction
     )
 }
@@ -352,23 +448,30 @@ pub fn range_note(e: &RangeExcess) -> String {
 /// Run the guard on one row: `raw` holds the row's values in model input
 /// order; `reference` is the model's stored training reference (`None`
 /// for a model file written before mettle stored one: only the range check
-/// runs, and a note says so).
+/// runs, and a note says so). Without the model's estimates, the
+/// uncertainty signal is left out.
 pub fn check(
     inputs: &[InputColumn],
     reference: Option<&DomainReference>,
     raw: ArrayView1<f64>,
 ) -> DomainVerdict {
     let index = reference.map(DomainReference::index);
-    check_many(inputs, index.as_ref(), raw.insert_axis(Axis(0))).remove(0)
+    check_many(inputs, index.as_ref(), raw.insert_axis(Axis(0)), &[], &[]).remove(0)
 }
 
 /// [`check`] for every row of `raw` (rows × inputs), the joint-domain
-/// distances of all rows measured together ([`DomainIndex::measure_many`]).
+/// distances of all rows measured together ([`DomainIndex::measure_many`]),
+/// with each row's model uncertainty ratio (`uncertainty`: one per row, or
+/// empty when not known). Notes show each input's values in its entry of
+/// `units` (the column's declared unit; `None` or missing: as they are).
 pub fn check_many(
     inputs: &[InputColumn],
     index: Option<&DomainIndex>,
     raw: ArrayView2<f64>,
+    uncertainty: &[Option<UncertaintyRatio>],
+    units: &[Option<Unit>],
 ) -> Vec<DomainVerdict> {
+    let shown = Shown { inputs, units };
     let scaled: Vec<Option<Vec<f64>>> = raw
         .rows()
         .into_iter()
@@ -380,7 +483,7 @@ pub fn check_many(
                 .collect()
         })
         .collect();
-    let mut measures: Vec<Option<JointMeasure>> = vec![None; raw.nrows()];
+    let mut measures: Vec<Option<(JointMeasure, NearMeasure)>> = vec![None; raw.nrows()];
     if let Some(index) = index {
         let d = index.reference().n_inputs;
         let measurable: Vec<usize> = (0..raw.nrows())
@@ -389,113 +492,258 @@ pub fn check_many(
         let queries = Array2::from_shape_fn((measurable.len(), d), |(j, c)| {
             scaled[measurable[j]].as_ref().expect("measurable")[c]
         });
-        for (i, m) in measurable.iter().zip(index.measure_many(queries.view())) {
-            measures[*i] = Some(m);
+        let joint = index.measure_many(queries.view());
+        let near = index.near_many(queries.view());
+        for ((i, m), n) in measurable.iter().zip(joint).zip(near) {
+            measures[*i] = Some((m, n));
         }
     }
     raw.rows()
         .into_iter()
         .zip(scaled)
         .zip(measures)
-        .map(|((row, s), m)| verdict(inputs, index.map(DomainIndex::reference), row, s, m))
+        .enumerate()
+        .map(|(i, ((row, s), m))| {
+            let u = uncertainty.get(i).cloned().flatten();
+            verdict(&shown, index, row, s, m, u)
+        })
         .collect()
 }
 
+/// The inputs and the units their values are shown in.
+struct Shown<'a> {
+    inputs: &'a [InputColumn],
+    units: &'a [Option<Unit>],
+}
+
+impl Shown<'_> {
+    fn unit(&self, j: usize) -> Option<Unit> {
+        self.units.get(j).copied().flatten()
+    }
+
+    /// Input `j`'s value `v` (internal unit) as the notes show it.
+    fn value(&self, j: usize, v: f64) -> String {
+        fmt_num(self.unit(j).map_or(v, |u| u.from_internal(v)))
+    }
+}
+
+/// The graded verdict builder: the worst level seen and the notes.
+struct Grading {
+    level: DomainLevel,
+    notes: Vec<String>,
+}
+
+impl Grading {
+    fn raise(&mut self, level: DomainLevel, note: String) {
+        self.level = self.level.max(level);
+        self.notes.push(note);
+    }
+}
+
 /// The verdict on one row from its raw and scaled values (`None` when an
-/// input could not be scaled) and its joint-domain measure (`None` when
-/// the check could not run).
+/// input could not be scaled), its joint-domain measures (`None` when the
+/// check could not run) and its model uncertainty ratio.
 fn verdict(
-    inputs: &[InputColumn],
-    reference: Option<&DomainReference>,
+    shown: &Shown,
+    index: Option<&DomainIndex>,
     raw: ArrayView1<f64>,
     scaled: Option<Vec<f64>>,
-    measure: Option<JointMeasure>,
+    measure: Option<(JointMeasure, NearMeasure)>,
+    uncertainty: Option<UncertaintyRatio>,
 ) -> DomainVerdict {
+    let inputs = shown.inputs;
     let outside_range = range_excesses(inputs, raw);
-    let mut notes: Vec<String> = outside_range.iter().map(range_note).collect();
-    let mut in_domain = outside_range
-        .iter()
-        .all(|e| e.fraction <= DOMAIN_RANGE_SLACK);
-    let (mut distance_ratio, mut support) = (None, None);
-    match (reference, scaled, measure) {
-        (None, _, _) => notes.push(
+    let mut g = Grading {
+        level: DomainLevel::Inside,
+        notes: Vec::new(),
+    };
+    for e in &outside_range {
+        let level = if e.fraction <= DOMAIN_RANGE_SLACK {
+            DomainLevel::Inside
+        } else {
+            DomainLevel::Outside
+        };
+        let j = inputs.iter().position(|c| c.name == e.input).unwrap_or(0);
+        g.raise(level, range_note_in(e, shown.unit(j)));
+    }
+    let (mut distance_ratio, mut relevant_distance_ratio, mut support) = (None, None, None);
+    match (index, scaled, measure) {
+        (None, _, _) => g.notes.push(
             "joint-domain check not run: the model file holds no training reference \
              (retrain with this version to get it)"
                 .into(),
         ),
-        (Some(_), None, _) => {
-            in_domain = false;
-            notes.push(
-                "joint-domain check impossible: an input taken through its logarithm is at or below zero"
-                    .into(),
-            );
-        }
-        (Some(r), Some(s), Some(m)) => {
+        (Some(_), None, _) => g.raise(
+            DomainLevel::Outside,
+            "joint-domain check impossible: an input taken through its logarithm is at or below zero"
+                .into(),
+        ),
+        (Some(ix), Some(s), Some((m, near))) => {
+            let r = ix.reference();
+            let w = r.weights();
             distance_ratio = Some(m.ratio);
             support = Some(m.support);
-            if m.ratio > DOMAIN_DISTANCE_FACTOR {
-                in_domain = false;
-                notes.push(joint_note(inputs, r, &m));
+            let (far, thin) = ix.distances();
+            relevant_distance_ratio = Some(near.distance / far);
+            if near.distance > far {
+                g.raise(DomainLevel::Outside, far_note(shown, r, raw, &near, far));
+            } else if near.distance > thin {
+                g.raise(DomainLevel::Thin, far_note(shown, r, raw, &near, thin));
             }
-            if let Some(g) = &r.pairs {
-                let empty = g.empty_pairs(&s);
-                if !empty.is_empty() {
-                    in_domain = false;
-                    notes.push(pair_note(inputs, g, raw, &empty));
+            if m.ratio > DOMAIN_DISTANCE_FACTOR {
+                g.raise(DomainLevel::Thin, joint_note(inputs, r, &m, &w));
+            }
+            if let Some(grid) = &r.pairs {
+                let (relevant, minor): (Vec<_>, Vec<_>) =
+                    grid.empty_pairs(&s).into_iter().partition(|&(a, b)| {
+                        w[a] >= DOMAIN_PAIR_MIN_RELEVANCE && w[b] >= DOMAIN_PAIR_MIN_RELEVANCE
+                    });
+                if !relevant.is_empty() {
+                    g.raise(DomainLevel::Outside, pair_note(shown, grid, raw, &relevant));
+                }
+                if !minor.is_empty() {
+                    g.raise(
+                        DomainLevel::Thin,
+                        format!(
+                            "{} (inputs the networks make little use of: thin support, not outside)",
+                            pair_note(shown, grid, raw, &minor)
+                        ),
+                    );
                 }
             }
         }
-        (Some(r), Some(s), None) => notes.push(format!(
+        (Some(ix), Some(s), None) => g.notes.push(format!(
             "joint-domain check not run: the stored reference has {} inputs, the model {}",
-            r.n_inputs,
+            ix.reference().n_inputs,
             s.len()
         )),
     }
+    if let Some(u) = &uncertainty {
+        if u.over_high > DOMAIN_SD_OUT {
+            g.raise(DomainLevel::Outside, uncertainty_note(u, true));
+        } else if u.over_high > 1.0 {
+            g.raise(DomainLevel::Thin, uncertainty_note(u, false));
+        }
+    }
     DomainVerdict {
-        in_domain,
+        in_domain: g.level != DomainLevel::Outside,
+        level: g.level,
         outside_range,
         distance_ratio,
+        relevant_distance_ratio,
+        uncertainty,
         support,
-        notes,
+        notes: g.notes,
     }
 }
 
-/// The note for a failed joint-domain check, naming the inputs that make up
-/// most (at least 60 %, at most three inputs) of the gap.
-fn joint_note(inputs: &[InputColumn], r: &DomainReference, m: &JointMeasure) -> String {
-    let mut order: Vec<usize> = (0..m.share.len()).collect();
-    order.sort_by(|&a, &b| m.share[b].total_cmp(&m.share[a]));
+/// The note for a raised model uncertainty.
+fn uncertainty_note(u: &UncertaintyRatio, outside: bool) -> String {
+    let (level, limit) = if outside {
+        ("outside", format!("{DOMAIN_SD_OUT:.0} times"))
+    } else {
+        ("thin support", "above".to_string())
+    };
+    format!(
+        "{level}: the committee's model uncertainty for {} is {:.1} times its median on the \
+         training rows and {:.1} times their 99th percentile (limit: {limit} that percentile): \
+         the networks disagree or are unsure here",
+        u.target, u.ratio, u.over_high
+    )
+}
+
+/// The inputs making up most (at least 60 %, at most three) of a gap,
+/// given each input's share, largest first.
+fn main_inputs(share: &[f64]) -> Vec<usize> {
+    let mut order: Vec<usize> = (0..share.len()).collect();
+    order.sort_by(|&a, &b| share[b].total_cmp(&share[a]));
     let mut named = Vec::new();
     let mut cum = 0.0;
     for &j in order.iter().take(3) {
-        named.push(format!("{} ({:.0} %)", inputs[j].name, 100.0 * m.share[j]));
-        cum += m.share[j];
+        if share[j] <= 0.0 {
+            break;
+        }
+        named.push(j);
+        cum += share[j];
         if cum >= 0.6 {
             break;
         }
     }
+    named
+}
+
+/// The note for a row far from every training row in the inputs that
+/// matter, naming the inputs that make up most of the weighted gap with
+/// the query's value against the nearest training row's (input units).
+fn far_note(
+    shown: &Shown,
+    r: &DomainReference,
+    raw: ArrayView1<f64>,
+    near: &NearMeasure,
+    limit: f64,
+) -> String {
+    let d = r.n_inputs;
+    let row = &r.scaled_rows[near.nearest * d..(near.nearest + 1) * d];
+    let named: Vec<String> = main_inputs(&near.share)
+        .into_iter()
+        .map(|j| {
+            format!(
+                "{} {} against {}",
+                shown.inputs[j].name,
+                shown.value(j, raw[j]),
+                shown.value(j, shown.inputs[j].scaling.unscale(row[j]))
+            )
+        })
+        .collect();
+    let level = if r.distances().0 < near.distance {
+        "outside"
+    } else {
+        "thin support"
+    };
     format!(
-        "no training rows near this combination of inputs: the nearest (k = {}) is {:.2} times as \
-         far as the usual distance between training rows (99th percentile; limit {:.2}); {} \
-         training rows within that distance; the gap lies mostly in {}",
-        r.k,
-        m.ratio,
-        DOMAIN_DISTANCE_FACTOR,
-        m.support,
+        "{level}: the nearest training row differs by {:.2} of a full training range in the \
+         inputs that matter (weighted by relevance; limit {:.2}): {}",
+        near.distance,
+        limit,
         named.join(", ")
+    )
+}
+
+/// The note for a failed strict joint-domain check (thin support), naming
+/// the inputs that make up most of the gap, weighted by relevance.
+fn joint_note(inputs: &[InputColumn], r: &DomainReference, m: &JointMeasure, w: &[f64]) -> String {
+    let mut share: Vec<f64> = m.share.iter().zip(w).map(|(s, w)| s * w * w).collect();
+    let total: f64 = share.iter().sum();
+    if total > 0.0 {
+        share.iter_mut().for_each(|s| *s /= total);
+    }
+    let named: Vec<String> = main_inputs(&share)
+        .into_iter()
+        .map(|j| format!("{} ({:.0} %)", inputs[j].name, 100.0 * share[j]))
+        .collect();
+    let gap = if named.is_empty() {
+        "inputs the networks make little use of".to_string()
+    } else {
+        named.join(", ")
+    };
+    format!(
+        "thin support: no training row this close in every input: the nearest (k = {}) is {:.2} \
+         times as far as the usual distance between training rows (99th percentile; limit {:.2}); \
+         {} training rows within that distance; the difference lies mostly in {gap}",
+        r.k, m.ratio, DOMAIN_DISTANCE_FACTOR, m.support,
     )
 }
 
 /// The note for a failed pair check, naming the pairs whose projection is
 /// empty farthest around the query and how many more there are.
 fn pair_note(
-    inputs: &[InputColumn],
+    shown: &Shown,
     g: &PairGrid,
     raw: ArrayView1<f64>,
     empty: &[(usize, usize)],
 ) -> String {
     const NAMED: usize = 3;
-    let near = |j: usize| format!("{} near {}", inputs[j].name, fmt_num(raw[j]));
+    let near = |j: usize| format!("{} near {}", shown.inputs[j].name, shown.value(j, raw[j]));
     let named: Vec<String> = empty
         .iter()
         .take(NAMED)
@@ -533,7 +781,6 @@ pub fn fmt_num(v: f64) -> String {
 mod tests {
     use super::*;
     use crate::features::ColumnScaling;
-    use crate::prec::{DOMAIN_K, DOMAIN_REFERENCE_MAX_ROWS};
     use ndarray::{array, Array2};
 
     fn input(name: &str, lo: f64, hi: f64) -> InputColumn {
@@ -640,7 +887,7 @@ mod tests {
             input("c", -0.5, 0.5),
         ];
         let raw = Array2::from_shape_fn((300, 3), |_| 1.6 * (rng.random::<f64>() - 0.5));
-        let together = check_many(&inputs, Some(&r.index()), raw.view());
+        let together = check_many(&inputs, Some(&r.index()), raw.view(), &[], &[]);
         assert!(together.iter().any(|v| v.in_domain) && together.iter().any(|v| !v.in_domain));
         for (row, v) in raw.rows().into_iter().zip(&together) {
             assert_eq!(v, &check(&inputs, Some(&r), row));

@@ -93,6 +93,15 @@ impl ColumnScaling {
         (s + 0.5) * (self.hi - self.lo) + self.lo
     }
 
+    /// Scaled value → raw value (the inverse of [`ColumnScaling::scale`]).
+    pub fn unscale(&self, s: f64) -> f64 {
+        let z = self.unscale_linear(s);
+        match self.transform {
+            Transform::Identity => z,
+            Transform::Log => z.exp(),
+        }
+    }
+
     /// Width of the transformed range: one scaled unit in transformed units.
     pub fn width(&self) -> f64 {
         self.hi - self.lo

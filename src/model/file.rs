@@ -12,7 +12,7 @@ use crate::error::{Error, Result};
 pub const MODEL_FORMAT: &str = "mettle-model";
 
 /// The newest model format version this build writes and reads.
-pub const MODEL_FORMAT_VERSION: u64 = 6;
+pub const MODEL_FORMAT_VERSION: u64 = 7;
 
 impl Model {
     /// The model as JSON bytes (compact, with a final newline). Identical

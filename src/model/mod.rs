@@ -3,12 +3,14 @@
 //! trained.
 
 mod file;
+pub(crate) mod near;
 pub(crate) mod reference;
 mod summary;
 mod train;
 
 pub use crate::transform::{IntervalKind, TargetTransform};
 pub use file::{MODEL_FORMAT, MODEL_FORMAT_VERSION};
+pub use near::NearMeasure;
 pub use reference::{pair_cells, DomainReference, PairGrid};
 pub use summary::{
     noise_profile, replicate_scatter, summarise_training, NoiseBin, NoiseProfile, NoiseSpread,
@@ -69,6 +71,17 @@ pub struct TargetModel {
     /// in files written before mettle recorded them).
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub training_summary: Option<TrainingSummary>,
+    /// Median over the training rows of the committee's model sd alone
+    /// (learnt scale, without noise or residual process): the domain
+    /// guard's yardstick for the model uncertainty of a new row (absent in
+    /// files before version 7).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub typical_committee_sd: Option<f64>,
+    /// The 99th percentile of the same sds over the training rows: above
+    /// it a row is thinly supported, above twice it outside (absent in
+    /// files before version 7).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub high_committee_sd: Option<f64>,
 }
 
 /// How the model was trained.

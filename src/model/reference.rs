@@ -11,10 +11,12 @@ use rayon::prelude::*;
 use serde::{Deserialize, Serialize};
 
 use crate::prec::{
-    DOMAIN_EIGEN_FLOOR, DOMAIN_K, DOMAIN_PAIR_MAX_CELLS, DOMAIN_PAIR_RADIUS,
+    DOMAIN_EIGEN_FLOOR, DOMAIN_FAR_FLOOR, DOMAIN_K, DOMAIN_PAIR_MAX_CELLS, DOMAIN_PAIR_RADIUS,
     DOMAIN_PAIR_ROWS_PER_CELL, DOMAIN_REFERENCE_MAX_ROWS, DOMAIN_REFERENCE_QUANTILE,
-    DOMAIN_REFERENCE_SEED,
+    DOMAIN_REFERENCE_SEED, DOMAIN_THIN_QUANTILE, DOMAIN_THIN_SHARE_OF_FAR,
 };
+
+use super::near;
 
 /// What the model file keeps of the training inputs for the joint-domain
 /// check: the scaled training rows and the reference distance.
@@ -47,6 +49,19 @@ pub struct DomainReference {
     /// then skipped).
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub pairs: Option<PairGrid>,
+    /// Weight of each input in the relevance-weighted distance (the
+    /// largest relevance it has for any target; absent without ARD and in
+    /// files before version 7: every input weighs 1).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub relevance: Option<Vec<f64>>,
+    /// The [`DOMAIN_REFERENCE_QUANTILE`] quantile of the stored rows'
+    /// leave-one-out relevance-weighted nearest distances (range-widths;
+    /// absent in files before version 7: computed when the guard is built).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub relevant_distance: Option<f64>,
+    /// The [`DOMAIN_THIN_QUANTILE`] quantile of the same distances.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub relevant_thin_distance: Option<f64>,
 }
 
 /// Which cells of a coarse grid over each pair of inputs hold a training
@@ -294,18 +309,90 @@ impl DomainReference {
             })
             .collect();
         loo.sort_by(f64::total_cmp);
-        Some(DomainReference {
-            k,
-            n_inputs: d,
-            reference_distance: quantile_sorted(&loo, DOMAIN_REFERENCE_QUANTILE),
-            median_distance: quantile_sorted(&loo, 0.5),
-            mean: mean.to_vec(),
-            whitening: w.iter().copied().collect(),
-            rows,
-            scaled_rows: x.iter().copied().collect(),
-            pairs,
-        })
+        let scaled_rows: Vec<f64> = x.iter().copied().collect();
+        Some(
+            DomainReference {
+                k,
+                n_inputs: d,
+                reference_distance: quantile_sorted(&loo, DOMAIN_REFERENCE_QUANTILE),
+                median_distance: quantile_sorted(&loo, 0.5),
+                mean: mean.to_vec(),
+                whitening: w.iter().copied().collect(),
+                rows,
+                relevant_distance: None,
+                relevant_thin_distance: None,
+                scaled_rows,
+                pairs,
+                relevance: None,
+            }
+            .with_weights(vec![1.0; d], None),
+        )
     }
+
+    /// The reference with the inputs weighed by `relevance` (one weight per
+    /// input, the most relevant 1) in the relevance-weighted distance, its
+    /// reference distance measured again with them. `None` leaves every
+    /// input at weight 1.
+    pub fn with_relevance(self, relevance: Option<Vec<f64>>) -> DomainReference {
+        match relevance.filter(|w| w.len() == self.n_inputs) {
+            Some(w) => self.with_weights(w.clone(), Some(w)),
+            None => self,
+        }
+    }
+
+    /// Measure the relevance-weighted reference distances with `w`; keep
+    /// `stored` as the relevance.
+    fn with_weights(mut self, w: Vec<f64>, stored: Option<Vec<f64>>) -> DomainReference {
+        let q = near::loo_quantiles(
+            &self.scaled_rows,
+            self.n_inputs,
+            &w,
+            &[DOMAIN_REFERENCE_QUANTILE, DOMAIN_THIN_QUANTILE],
+        );
+        self.relevant_distance = Some(q[0]).filter(|v| v.is_finite());
+        self.relevant_thin_distance = Some(q[1]).filter(|v| v.is_finite());
+        self.relevance = stored;
+        self
+    }
+
+    /// Each input's weight in the relevance-weighted distance.
+    pub fn weights(&self) -> Vec<f64> {
+        self.relevance
+            .clone()
+            .unwrap_or_else(|| vec![1.0; self.n_inputs])
+    }
+
+    /// The relevance-weighted distance beyond which a row is outside: the
+    /// larger of [`DOMAIN_FAR_FLOOR`] and the training rows' own 99th
+    /// percentile (range-widths).
+    pub fn far_distance(&self) -> f64 {
+        self.distances().0
+    }
+
+    /// The relevance-weighted distances beyond which a row is outside
+    /// ([`DomainReference::far_distance`]) and thinly supported: the larger
+    /// of [`DOMAIN_THIN_SHARE_OF_FAR`] of the floor and the training rows'
+    /// own [`DOMAIN_THIN_QUANTILE`] quantile, at most the first. Files
+    /// before version 7 have them measured here.
+    pub fn distances(&self) -> (f64, f64) {
+        let (q_far, q_thin) = match (self.relevant_distance, self.relevant_thin_distance) {
+            (Some(a), Some(b)) => (a, b),
+            _ => {
+                let q = near::loo_quantiles(
+                    &self.scaled_rows,
+                    self.n_inputs,
+                    &self.weights(),
+                    &[DOMAIN_REFERENCE_QUANTILE, DOMAIN_THIN_QUANTILE],
+                );
+                (q[0], q[1])
+            }
+        };
+        let finite_or = |v: f64, or: f64| if v.is_finite() { v.max(or) } else { or };
+        let far = finite_or(q_far, DOMAIN_FAR_FLOOR);
+        let thin = finite_or(q_thin, DOMAIN_THIN_SHARE_OF_FAR * DOMAIN_FAR_FLOOR).min(far);
+        (far, thin)
+    }
+
 
     /// Training rows stored.
     pub fn n_rows(&self) -> usize {

@@ -13,6 +13,7 @@ use crate::derive::RowWarning;
 use crate::error::{Error, Result};
 use crate::features::{ColumnScaling, Transform};
 use crate::observer::TrainObserver;
+use crate::prec::{DOMAIN_REFERENCE_QUANTILE, DOMAIN_RELEVANT_SHARE};
 
 /// What to train: targets, inputs and committee settings.
 #[derive(Clone, Debug, PartialEq)]
@@ -170,9 +171,11 @@ impl Model {
         let x = kept.scaled(table.n_rows());
 
         let mut targets = Vec::new();
+        let mut target_rows = Vec::new();
         let mut evals = 0;
         for (k, (name, values)) in spec.targets.iter().zip(&target_values).enumerate() {
             let transform = transforms.get(k).copied().unwrap_or_default();
+            target_rows.push((0..values.len()).filter(|&i| values[i].is_some()).collect());
             let target = TargetRun {
                 params: &params,
                 x: &x,
@@ -216,7 +219,6 @@ impl Model {
             tool_version: env!("CARGO_PKG_VERSION").to_string(),
             inputs,
             set_aside,
-            targets,
             training: TrainingRecord {
                 data_file,
                 n_rows: n,
@@ -227,7 +229,9 @@ impl Model {
                 incomplete_rows_dropped: Vec::new(),
             },
             schema: None,
-            domain: DomainReference::build(x.view()),
+            domain: DomainReference::build(x.view())
+                .map(|r| r.with_relevance(input_weights(&targets, x.view(), &target_rows))),
+            targets,
         })
     }
 }
@@ -414,6 +418,8 @@ impl TargetRun<'_> {
             &raw_rows,
             &present,
         );
+        let (typical_committee_sd, high_committee_sd) =
+            committee_sd_quantiles(&committee, x_t.view(), scaling.width());
         let (min, max) = min_max(&present);
         Ok(TargetModel {
             name: name.to_string(),
@@ -425,8 +431,61 @@ impl TargetRun<'_> {
             transform,
             committee,
             training_summary: Some(summary),
+            typical_committee_sd,
+            high_committee_sd,
         })
     }
+}
+
+/// The median and the [`DOMAIN_REFERENCE_QUANTILE`] quantile over the
+/// training rows `x` (scaled inputs) of the committee's model sd alone
+/// (learnt-scale target units: scaled sd times `width`): the domain
+/// guard's yardsticks. `None` without rows.
+fn committee_sd_quantiles(
+    committee: &crate::committee::Committee,
+    x: ndarray::ArrayView2<f64>,
+    width: f64,
+) -> (Option<f64>, Option<f64>) {
+    let p = committee.predict_scaled(x);
+    let mut sd: Vec<f64> = p.committee_var.iter().map(|v| v.sqrt() * width).collect();
+    sd.sort_by(f64::total_cmp);
+    let q = |q: f64| Some(super::reference::quantile_sorted(&sd, q)).filter(|v| v.is_finite());
+    (q(0.5), q(DOMAIN_REFERENCE_QUANTILE))
+}
+
+/// Each input's weight in the domain guard's relevance-weighted distance:
+/// per target, the committee's sensitivity to the input on its training
+/// rows ([`crate::committee::Committee::input_sensitivity`]) over that of
+/// the input it uses most; the largest over the targets; then
+/// w = min(1, s / [`DOMAIN_RELEVANT_SHARE`]): an input moving a target by
+/// at least that share of what the strongest input does counts in full,
+/// one the networks ignore hardly at all. `None` when no committee has a
+/// sensitivity to measure.
+fn input_weights(
+    targets: &[TargetModel],
+    x: ndarray::ArrayView2<f64>,
+    rows: &[Vec<usize>],
+) -> Option<Vec<f64>> {
+    let mut w: Option<Vec<f64>> = None;
+    for (t, r) in targets.iter().zip(rows) {
+        let s = t
+            .committee
+            .input_sensitivity(x.select(ndarray::Axis(0), r).view());
+        let top = s.iter().copied().fold(0.0, f64::max);
+        if top.partial_cmp(&0.0) != Some(std::cmp::Ordering::Greater) {
+            continue;
+        }
+        let s: Vec<f64> = s.iter().map(|v| v / top).collect();
+        w = Some(match w {
+            None => s,
+            Some(w) => w.iter().zip(&s).map(|(a, b)| a.max(*b)).collect(),
+        });
+    }
+    w.map(|w| {
+        w.iter()
+            .map(|v| (v / DOMAIN_RELEVANT_SHARE).min(1.0))
+            .collect()
+    })
 }
 
 /// Why `values` adds nothing to the inputs already kept, if it does not: an

@@ -1,13 +1,14 @@
 //! Is a query row inside what the training data cover? The checks live in
 //! [`crate::domain`]; this is the model-level entry point.
 
-use ndarray::{ArrayView1, ArrayView2, Axis};
+use ndarray::{Array2, ArrayView1, ArrayView2, Axis};
 
 use crate::domain::{
-    self, range_excesses, range_note, DomainIndex, DomainReference, DomainVerdict,
+    self, range_excesses, range_note, DomainIndex, DomainReference, DomainVerdict, UncertaintyRatio,
 };
 use crate::model::Model;
 use crate::prec::{DOMAIN_QUERY_BLOCK, DOMAIN_RANGE_SLACK};
+use crate::predict::ScalePrediction;
 
 /// The range-only verdict for one row.
 #[derive(Clone, Debug, PartialEq, Eq)]
@@ -30,6 +31,21 @@ pub fn range_check(model: &Model, raw: ArrayView1<f64>) -> DomainReport {
 }
 
 impl Model {
+    /// The unit each input's values are shown in by the domain notes: the
+    /// unit the schema declares for the column when it differs from the
+    /// internal unit the model works in (ppm for a column read in ppm and
+    /// learnt in wt%), else `None` (as they are).
+    pub fn input_note_units(&self) -> Vec<Option<crate::units::Unit>> {
+        self.inputs
+            .iter()
+            .map(|inp| {
+                let c = self.schema.as_ref()?.column(&inp.name)?;
+                let declared = c.unit_or_1();
+                (declared != c.internal_unit()).then_some(declared)
+            })
+            .collect()
+    }
+
     /// The full domain guard for one row (raw values in model input
     /// order): range, joint domain and support. For many rows, use
     /// [`Model::domain_guard`].
@@ -61,16 +77,67 @@ impl DomainGuard<'_> {
     }
 
     /// The guard for every row of `raw` (rows × inputs, raw values in
-    /// model input order), in order; blocks of [`DOMAIN_QUERY_BLOCK`] rows
-    /// are spread over the cores.
+    /// model input order), in order, the committees' model uncertainty
+    /// estimated here; see [`DomainGuard::check_many_with`].
     pub fn check_many(&self, raw: ArrayView2<f64>) -> Vec<DomainVerdict> {
+        let scaled = Array2::from_shape_fn(raw.dim(), |(i, j)| {
+            self.model.inputs[j]
+                .scaling
+                .scale(raw[[i, j]])
+                .unwrap_or(f64::NAN)
+        });
+        let learnt = self.model.predict_learnt_scale(&scaled);
+        self.check_many_with(raw, &learnt)
+    }
+
+    /// The guard for every row of `raw` with the model's estimates on the
+    /// learnt scale (per target, per row, [`Model::predict_learnt_scale`]):
+    /// each row's committee model sd against its typical value on the
+    /// training rows is part of the verdict. Blocks of
+    /// [`DOMAIN_QUERY_BLOCK`] rows are spread over the cores.
+    pub fn check_many_with(
+        &self,
+        raw: ArrayView2<f64>,
+        learnt: &[Vec<ScalePrediction>],
+    ) -> Vec<DomainVerdict> {
         use rayon::prelude::*;
+        let units = self.model.input_note_units();
+        let uncertainty: Vec<Option<UncertaintyRatio>> = (0..raw.nrows())
+            .map(|i| uncertainty_ratio(self.model, learnt, i))
+            .collect();
         let blocks: Vec<Vec<DomainVerdict>> = raw
             .axis_chunks_iter(Axis(0), DOMAIN_QUERY_BLOCK)
+            .zip(uncertainty.chunks(DOMAIN_QUERY_BLOCK))
             .collect::<Vec<_>>()
             .into_par_iter()
-            .map(|block| domain::check_many(&self.model.inputs, self.index.as_ref(), block))
+            .map(|(block, u)| {
+                domain::check_many(&self.model.inputs, self.index.as_ref(), block, u, &units)
+            })
             .collect();
         blocks.into_iter().flatten().collect()
     }
+}
+
+/// Row `i`'s largest ratio, over the targets with a recorded typical value,
+/// of the committee's model sd to its median on the training rows.
+fn uncertainty_ratio(
+    model: &Model,
+    learnt: &[Vec<ScalePrediction>],
+    i: usize,
+) -> Option<UncertaintyRatio> {
+    model
+        .targets
+        .iter()
+        .zip(learnt)
+        .filter_map(|(t, p)| {
+            let typical = t.typical_committee_sd.filter(|v| *v > 0.0)?;
+            let high = t.high_committee_sd.filter(|v| *v > 0.0)?;
+            let sd = p.get(i)?.committee_sd;
+            sd.is_finite().then(|| UncertaintyRatio {
+                ratio: sd / typical,
+                over_high: sd / high,
+                target: t.name.clone(),
+            })
+        })
+        .max_by(|a, b| a.over_high.total_cmp(&b.over_high))
 }

@@ -25,6 +25,7 @@ use statrs::distribution::{ContinuousCDF, Normal};
 use crate::data::schema::PrepareOptions;
 use crate::data::Table;
 use crate::derive::RowWarning;
+use crate::domain::DomainLevel;
 use crate::error::{Error, Result};
 use crate::metrics::Evaluation;
 use crate::model::{IntervalKind, Model};
@@ -79,6 +80,10 @@ pub struct ScalePrediction {
     pub sd: f64,
     /// Noise part of the sd on the learnt scale.
     pub noise_sd: f64,
+    /// The committee's model sd alone on the learnt scale (parameter
+    /// uncertainty and committee spread, without noise or residual
+    /// process): the domain guard's signal.
+    pub committee_sd: f64,
 }
 
 /// Estimates for one row, every target, with the domain verdict.
@@ -86,8 +91,11 @@ pub struct ScalePrediction {
 pub struct RowPrediction {
     /// One estimate per target, in the model's target order.
     pub estimates: Vec<Estimate>,
-    /// False when the row lies outside what the training data cover.
+    /// False when the row lies outside what the training data cover
+    /// (level [`DomainLevel::Outside`]).
     pub in_domain: bool,
+    /// The graded domain verdict.
+    pub level: DomainLevel,
     /// Plain-language notes, naming the inputs responsible.
     pub notes: Vec<String>,
 }
@@ -219,10 +227,12 @@ impl Model {
                     .iter()
                     .zip(&p.var)
                     .zip(&p.noise_var)
-                    .map(|((m, v), nv)| ScalePrediction {
+                    .zip(&p.committee_var)
+                    .map(|(((m, v), nv), cv)| ScalePrediction {
                         mean: t.scaling.unscale_linear(*m),
                         sd: v.sqrt() * w,
                         noise_sd: nv.sqrt() * w,
+                        committee_sd: cv.sqrt() * w,
                     })
                     .collect()
             })
@@ -260,7 +270,7 @@ impl Model {
             .collect();
         // the domain check costs one pass over the training rows per row;
         // check_many spreads it over the cores
-        let verdicts = self.domain_guard().check_many(raw.view());
+        let verdicts = self.domain_guard().check_many_with(raw.view(), learnt);
         verdicts
             .into_iter()
             .enumerate()
@@ -273,6 +283,7 @@ impl Model {
                 RowPrediction {
                     estimates,
                     in_domain: dom.in_domain,
+                    level: dom.level,
                     notes,
                 }
             })

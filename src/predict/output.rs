@@ -4,7 +4,7 @@
 //!
 //! CSV: one header row (`row`, then per target `<target>_mean`, `_median`,
 //! `_sd`, `_lo95`, `_hi95`, `_noise_sd`, `_model_sd`, `_interval_kind`,
-//! `_unit`, then `in_domain`, `notes`, `caution`), one line per row.
+//! `_unit`, then `in_domain`, `domain`, `notes`, `caution`), one line per row.
 //! JSON: a pretty-printed array with one object per row (keys in
 //! docs/guide-qa.md); every row carries [`ROW_CAUTION`].
 
@@ -187,6 +187,7 @@ pub fn json_row(cols: &[TargetColumn], number: usize, r: &RowPrediction) -> Valu
         obj.insert("estimates".into(), Value::Object(est));
     }
     obj.insert("in_domain".into(), json!(r.in_domain));
+    obj.insert("domain".into(), json!(r.level.name()));
     obj.insert("notes".into(), json!(r.notes));
     obj.insert("caution".into(), json!(ROW_CAUTION));
     Value::Object(obj)
@@ -203,6 +204,7 @@ pub fn csv_header(cols: &[TargetColumn]) -> String {
         h.push(format!("{}_unit", c.name));
     }
     h.push("in_domain".into());
+    h.push("domain".into());
     h.push("notes".into());
     h.push("caution".into());
     let mut s: String = h.iter().map(|x| csv_field(x)).collect::<Vec<_>>().join(",");
@@ -219,6 +221,7 @@ pub fn csv_row(cols: &[TargetColumn], number: usize, r: &RowPrediction) -> Strin
         cells.push(csv_field(c.unit.map_or("", |u| u.symbol())));
     }
     cells.push(r.in_domain.to_string());
+    cells.push(r.level.name().to_string());
     cells.push(csv_field(&r.notes.join("; ")));
     cells.push(csv_field(ROW_CAUTION));
     let mut s = cells.join(",");

@@ -20,6 +20,7 @@ use serde::Serialize;
 
 use crate::data::{ColumnData, Table};
 use crate::derive::Composition;
+use crate::domain::DomainLevel;
 use crate::error::{Error, Result};
 use crate::model::Model;
 use crate::predict::{Estimate, FullPrediction};
@@ -73,6 +74,9 @@ pub struct Candidate {
     /// False when any model (at any requirement's conditions) finds the
     /// candidate outside its training domain.
     pub in_domain: bool,
+    /// The graded verdict: the worst level of any model at any
+    /// requirement's conditions.
+    pub level: DomainLevel,
     /// How far outside the training ranges, summed over inputs in shares
     /// of each range (0 inside).
     pub domain_excess: f64,
@@ -280,11 +284,13 @@ impl<'a> Screening<'a> {
         for row in 0..table.n_rows() {
             let mut notes: Vec<String> = Vec::new();
             let mut in_domain = true;
+            let mut level = DomainLevel::Inside;
             let mut excess = 0.0;
             let mut estimates = Vec::new();
             for (m, p) in self.models.iter().zip(&base) {
                 let r = &p.rows[row];
                 in_domain &= r.in_domain;
+                level = level.max(r.level);
                 excess += scaled_excess(p, row);
                 for n in &r.notes {
                     push_unique(&mut notes, n.clone());
@@ -308,6 +314,7 @@ impl<'a> Screening<'a> {
                 let p = cond.as_ref().unwrap_or(&base[mi]);
                 if cond.is_some() {
                     in_domain &= p.rows[row].in_domain;
+                    level = level.max(p.rows[row].level);
                     excess += scaled_excess(p, row);
                     for n in &p.rows[row].notes {
                         if !notes.contains(n) {
@@ -342,6 +349,7 @@ impl<'a> Screening<'a> {
                     .map(|((idx, _), c)| idx.value(&c)),
                 violations: comp.map_or_else(Vec::new, |c| self.limits.violations(&c)),
                 in_domain,
+                level,
                 domain_excess: excess,
                 notes,
             });
@@ -431,6 +439,11 @@ mod tests {
             carbon_equivalent: None,
             violations: Vec::new(),
             in_domain,
+            level: if in_domain {
+                DomainLevel::Inside
+            } else {
+                DomainLevel::Outside
+            },
             domain_excess: if in_domain { 0.0 } else { 0.3 },
             notes: Vec::new(),
         }

@@ -221,6 +221,7 @@ mod tests {
             mean,
             sd,
             noise_sd: sd,
+            committee_sd: 0.0,
         }
     }
 
