@@ -138,3 +138,52 @@ fn validate_refuses_more_folds_than_groups_and_unknown_group() {
     );
     assert!(stdout(&out).is_empty());
 }
+
+/// The schema's `group` key does what `--group` does (docs/schema.md), and
+/// a group that names no identifier column is refused naming it.
+#[test]
+fn validate_takes_the_group_column_from_the_schema() {
+    let w = Workdir::new();
+    w.write("d.csv", grouped_fixture(60));
+    let schema = |group: &str, role: &str| {
+        format!(
+            "mettle_schema = 1\ngroup = \"{group}\"\n\n\
+             [[column]]\nname = \"heat\"\nrole = \"{role}\"\n{}\n\
+             [[column]]\nname = \"x1\"\nrole = \"input\"\nunit = \"1\"\n\n\
+             [[column]]\nname = \"x2\"\nrole = \"input\"\nunit = \"1\"\n\n\
+             [[column]]\nname = \"y\"\nrole = \"target\"\nunit = \"1\"\n",
+            if role == "input" {
+                "unit = \"1\"\n"
+            } else {
+                ""
+            }
+        )
+    };
+    w.write("s.toml", schema("heat", "identifier"));
+    let mut args = vec![
+        "validate", "--data", "d.csv", "--schema", "s.toml", "--folds", "4", "--format", "json",
+    ];
+    args.extend(SMALL);
+    let out = w.ok(&args);
+    let v: Value = serde_json::from_slice(&out.stdout)
+        .unwrap_or_else(|e| panic!("not JSON ({e})\n{}", describe(&args, &out)));
+    assert_eq!(v["n_groups"], 20, "{}", describe(&args, &out));
+    assert_eq!(v["group"], "heat", "{}", describe(&args, &out));
+
+    for (group, role, said) in [
+        ("furnace", "identifier", "names no declared column"),
+        ("heat", "input", "has role input"),
+    ] {
+        w.write("bad.toml", schema(group, role));
+        let args = [
+            "validate", "--data", "d.csv", "--schema", "bad.toml", "--quiet",
+        ];
+        let out = w.fails(&args, 2);
+        let err = String::from_utf8_lossy(&out.stderr);
+        assert!(
+            err.contains("bad.toml") && err.contains(said),
+            "{}",
+            describe(&args, &out)
+        );
+    }
+}

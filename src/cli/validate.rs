@@ -33,8 +33,8 @@ figures say what to expect on new heats like those in the file, unlike `evaluate
 table, which is optimistic. The candidate search and every choice training makes happen inside \
 each fold's training rows.\n\n\
 Rows that are not independent must not straddle folds: a heat tested at several temperatures, \
-one weld cut into several specimens. Name the column that identifies them with --group; its equal \
-values stay in one fold (an empty cell is a group of its own).\n\n\
+one weld cut into several specimens. Name the column that identifies them with --group (or with \
+group = \"COLUMN\" in the schema); its equal values stay in one fold (an empty cell is a group of its own).\n\n\
 Per target: RMSE, MAE, R², NLPD (nats per point, lower is better) and the coverages of the 68 % \
 and 95 % intervals over the out-of-fold rows, each with its standard error over folds (folds share \
 training rows, so it is if anything too small); the calibration of the error bars; and the input \
@@ -59,7 +59,8 @@ pub struct ValidateArgs {
     /// Repeats with a fresh partition of the rows.
     #[arg(long, value_name = "R", default_value_t = 1)]
     repeats: usize,
-    /// Column whose equal values (a heat, a weld) must stay in one fold.
+    /// Column whose equal values (a heat, a weld) must stay in one fold
+    /// (default: the column the schema names with `group = "…"`).
     #[arg(long, value_name = "COLUMN")]
     group: Option<String>,
     #[command(flatten)]
@@ -111,7 +112,11 @@ pub fn run(a: ValidateArgs) -> anyhow::Result<()> {
         n_folds: a.folds,
         n_repeats: a.repeats,
         seed: a.settings.seed,
-        group: a.group.clone(),
+        // --group, else the group column the schema names
+        group: a.group.clone().or_else(|| match &plan {
+            Plan::Schema(schema, ..) => schema.group.clone(),
+            Plan::Columns(_) => None,
+        }),
     };
     let progress = TrainProgress::new(a.quiet);
     let started = std::time::Instant::now();

@@ -210,6 +210,7 @@ fn implicit_schema(table: &Table, derivations: &[Derivation]) -> Result<Schema> 
         mettle_schema: crate::data::schema::SCHEMA_VERSION,
         columns,
         derived: Vec::new(),
+        group: None,
     })
 }
 

@@ -212,6 +212,12 @@ pub struct Schema {
     /// earlier one: `t85` reads the `heat_input` derived before it).
     #[serde(default, skip_serializing_if = "Vec::is_empty")]
     pub derived: Vec<DerivedSpec>,
+    /// The column whose equal values mark rows of one record tested
+    /// several times (a heat at several test temperatures, a weld cut into
+    /// several specimens): `mettle validate` keeps each group in one fold.
+    /// It must be a declared column of role identifier or ignored.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub group: Option<String>,
 }
 
 /// The conventional names derivations read, with the quantity of each.
@@ -370,6 +376,22 @@ impl Schema {
             }
             seen.push(&c.name);
             self.validate_column(c).map_err(col)?;
+        }
+        if let Some(g) = &self.group {
+            match self.columns.iter().find(|c| &c.name == g) {
+                None => {
+                    return Err(bad(format!(
+                        "group = \"{g}\" names no declared column: declare it with role \"identifier\""
+                    )))
+                }
+                Some(c) if !matches!(c.role, Role::Identifier | Role::Ignored) => {
+                    return Err(bad(format!(
+                        "group = \"{g}\": column '{g}' has role {}; a group column names records, so give it role \"identifier\"",
+                        c.role.name()
+                    )))
+                }
+                Some(_) => {}
+            }
         }
         self.validate_derived(&mut seen).map_err(bad)
     }

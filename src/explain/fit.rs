@@ -95,3 +95,70 @@ pub fn notes(s: &TrainingSummary, heldout_nlpd: Option<f64>) -> Vec<String> {
     }
     out
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::model::{NoiseSpread, ReplicateScatter};
+
+    /// A summary with noise sd 10 (target units) and the given figures.
+    fn summary(
+        rmse: Option<f64>,
+        nlpd: Option<f64>,
+        replicates: Option<(f64, usize)>,
+    ) -> TrainingSummary {
+        TrainingSummary {
+            noise_sd: NoiseSpread {
+                median: 10.0,
+                min: 10.0,
+                max: 10.0,
+            },
+            replicates: replicates.map(|(pooled_sd, dof)| ReplicateScatter {
+                pooled_sd,
+                dof,
+                n_groups: dof,
+            }),
+            noise_profile: None,
+            training_rmse: rmse,
+            training_nlpd: nlpd,
+        }
+    }
+
+    // The expected training RMSE of a well-specified fit is σ·√(1 − γ/N)
+    // (MacKay 1992, eq. 28): with γ/N = 0.1 that is 0.949 σ, no note; an
+    // interpolating fit with γ/N = 0.75 gives 0.5 σ, below the 0.7 line.
+    #[test]
+    fn a_well_specified_fit_gets_no_note() {
+        let s = summary(Some(10.0 * 0.9_f64.sqrt()), Some(1.0), Some((9.5, 40)));
+        assert!(notes(&s, Some(1.05)).is_empty());
+    }
+
+    #[test]
+    fn an_interpolating_fit_is_named_overfitting() {
+        let s = summary(Some(10.0 * 0.25_f64.sqrt()), None, None);
+        let n = notes(&s, None);
+        assert_eq!(n.len(), 1, "{n:?}");
+        assert!(n[0].starts_with("overfitting likely") && n[0].contains("ratio 0.50"));
+    }
+
+    #[test]
+    fn a_held_out_gap_beyond_the_line_is_named_and_one_within_is_not() {
+        let s = summary(Some(9.6), Some(2.0), None);
+        assert!(notes(&s, Some(2.0 + FIT_NLPD_GAP_MAX - 0.01)).is_empty());
+        let n = notes(&s, Some(2.0 + FIT_NLPD_GAP_MAX + 0.01));
+        assert_eq!(n.len(), 1, "{n:?}");
+        assert!(n[0].contains("held-out NLPD"));
+    }
+
+    #[test]
+    fn scatter_well_beyond_the_repeat_tests_is_underfitting_with_enough_dof() {
+        // RMSE 9.6 against a pooled replicate sd of 5: ratio 1.92 > 1.5
+        let s = summary(Some(9.6), None, Some((5.0, FIT_REPLICATE_DOF_MIN)));
+        let n = notes(&s, None);
+        assert_eq!(n.len(), 1, "{n:?}");
+        assert!(n[0].starts_with("underfitting likely"));
+        // too few degrees of freedom to judge
+        let s = summary(Some(9.6), None, Some((5.0, FIT_REPLICATE_DOF_MIN - 1)));
+        assert!(notes(&s, None).is_empty());
+    }
+}
