@@ -45,7 +45,7 @@ pub enum Error {
         problem: String,
     },
     /// A column that was asked for is not in the table.
-    #[error("{path}: no column named '{name}'; the columns are: {available}")]
+    #[error("{path}: no column named '{name}'{suggestion}; the columns are: {available}")]
     MissingColumn {
         /// The file.
         path: String,
@@ -53,6 +53,8 @@ pub enum Error {
         name: String,
         /// The columns the file has.
         available: String,
+        /// " (did you mean 'X'?)" when a column's name is close, else empty.
+        suggestion: String,
     },
     /// A setting is outside its valid range.
     #[error("invalid {name} = {value}: {expected}")]

@@ -835,8 +835,7 @@ fn json_rows(w: &Workdir, model: &str, input: &str) -> Vec<Value> {
     let out = w.ok(&[
         "predict", "--model", model, "--input", input, "--format", "json",
     ]);
-    let v: Value = serde_json::from_slice(&out.stdout).expect("predict JSON");
-    v.as_array().expect("predict JSON is an array").clone()
+    common::predict_rows(&out.stdout)
 }
 
 fn trained_ok(w: &Workdir, data: &str, extra: &[&str]) -> (Value, String) {

@@ -28,10 +28,6 @@ pub struct UsageError(pub String);
 pub const CAUTION: &str = "Caution: these are model estimates with error bars, not test results. \
 Qualification testing per the applicable code decides; local codes and licensed engineers have the final word.";
 
-/// The caution carried by every row of a machine-readable estimate file
-/// (`predict --format json|csv`), so that it travels with the numbers.
-pub const ROW_CAUTION: &str = "model estimate, not a test result: qualification testing per the applicable code decides; local codes and licensed engineers have the final word";
-
 #[derive(Parser, Debug)]
 #[command(
     name = "mettle",

@@ -5,16 +5,17 @@ use std::path::PathBuf;
 
 use anyhow::Context;
 use clap::{Args, ValueEnum};
+use mettle::data::RowLabels;
 use mettle::data::{AtomicFile, Table};
 use mettle::model::IntervalKind;
 use mettle::prec::PREDICT_BATCH_ROWS;
-use mettle::predict::{Estimate, RowPrediction};
+use mettle::predict::{Estimate, PredictiveForm, RowPrediction, ScalePrediction};
 use mettle::units::Unit;
 use mettle::Model;
 use serde_json::{json, Map, Value};
 
-use super::output::{aligned, csv_field, emit, num, Format};
-use super::{CAUTION, ROW_CAUTION};
+use super::output::{aligned, csv_line, emit, num, wrap, Cell, Format, DEFAULT_DIGITS};
+use super::CAUTION;
 
 /// Units of the estimates.
 #[derive(Clone, Copy, Debug, PartialEq, Eq, ValueEnum)]
@@ -41,9 +42,20 @@ that scale and mapped back: it is asymmetric about the median, and interval_kind
 is unchanged, the interval a little narrower than ± 1.96 sd. For a model trained with a schema, the input table is read \
 through the stored schema: its units are converted and its derived inputs computed from the raw \
 columns; estimates are in internal units (MPa, J, %, °C) unless --units declared.\n\n\
-JSON output is an array with one object per row: keys row, target, mean, median, sd, lo95, hi95, \
-noise_sd, model_sd, interval_kind, unit (when known), in_domain, notes, caution (for a model with several \
-targets, an 'estimates' object keyed by target holds mean ... unit).\n\n\
+Rows are named by their number in the file (1 = first data row) and, when the table has one, by \
+an identifier: the column --id names, else the column the model's schema declares as identifier, \
+else a first column of text such as heat codes (FH-1023) that is not an input.\n\n\
+The table shows one block per target (--wide: all targets side by side), the domain verdict \
+beside the row, and the notes below. CSV has one line per row: row, the identifier, in_domain, \
+then per target TARGET_mean, _median, _sd, _lo95, _hi95, _noise_sd, _model_sd and _unit, then \
+notes; numbers to 6 significant digits (--digits); the caution in the first row's caution cell.\n\n\
+JSON output is one object: caution; id_column; targets, keyed by target, each with unit, \
+interval_kind and the predictive distribution's form (shape gaussian or student_t, dof, scale, \
+gross_error_share, gross_error_mean, gross_error_sd); and rows, one object per row with row, id, \
+in_domain, notes and estimates keyed by target (mean, median, sd, lo95, hi95, noise_sd, model_sd; \
+for a target learnt on a log or logit scale also scale_mean and scale_sd on that scale). With \
+these a measured value's density is (1 − π)·t_ν((z − m)/(a·s))/(a·s) + π·N(z; μ_g, σ_g²), \
+a = √((ν − 2)/ν), the density `mettle evaluate` scores (docs/model-format.md).\n\n\
 Large inputs: the table is read, estimated and written a batch of rows at a time, so csv and json \
 output for millions of rows (CSV or Parquet input) take bounded memory; with --out nothing appears \
 under the name until the last row is written. The table format aligns every row, so it holds them \
@@ -67,6 +79,16 @@ pub struct PredictArgs {
     /// Write to this file (atomically) instead of standard output.
     #[arg(long, value_name = "FILE")]
     out: Option<PathBuf>,
+    /// Column naming each row (heat, weld, specimen), echoed in the output.
+    #[arg(long, value_name = "COLUMN")]
+    id: Option<String>,
+    /// Significant digits of the numbers in CSV output.
+    #[arg(long, value_name = "N", default_value_t = DEFAULT_DIGITS as u64,
+          value_parser = clap::value_parser!(u64).range(1..=17))]
+    digits: u64,
+    /// Table format: every target side by side in one table (default: one block per target).
+    #[arg(long)]
+    wide: bool,
     /// Rows read, estimated and written at a time: fewer take less memory,
     /// the estimates are the same.
     #[arg(long, value_name = "N", default_value_t = PREDICT_BATCH_ROWS as u64,
@@ -74,11 +96,20 @@ pub struct PredictArgs {
     batch_rows: u64,
 }
 
-/// One target as printed: name, unit, and its estimates per row.
+/// One target as printed: name, unit, and the form of its distribution.
 struct Column {
     name: String,
     unit: Option<Unit>,
     kind: IntervalKind,
+    form: PredictiveForm,
+}
+
+/// How the output is laid out.
+struct Layout {
+    cols: Vec<Column>,
+    id_column: Option<String>,
+    digits: usize,
+    wide: bool,
 }
 
 pub fn run(a: PredictArgs) -> anyhow::Result<()> {
@@ -87,33 +118,59 @@ pub fn run(a: PredictArgs) -> anyhow::Result<()> {
     let cols: Vec<Column> = model
         .targets
         .iter()
-        .map(|t| Column {
-            name: t.name.clone(),
-            unit: model.target_unit(&t.name, declared),
-            kind: t.transform.interval_kind(),
+        .map(|t| {
+            let unit = model.target_unit(&t.name, declared);
+            let form = PredictiveForm::of(t);
+            Column {
+                name: t.name.clone(),
+                unit,
+                kind: t.transform.interval_kind(),
+                form: match (declared, unit) {
+                    (true, Some(u)) => form.in_unit(u),
+                    _ => form,
+                },
+            }
         })
         .collect();
     // the input is read, estimated and written a batch at a time, so a
     // file of millions of rows is estimated in bounded memory
     let rows_per_batch = usize::try_from(a.batch_rows).unwrap_or(usize::MAX);
-    let batches = Table::read_batches(&a.input, rows_per_batch)?;
+    let mut batches = Table::read_batches(&a.input, rows_per_batch)?.peekable();
+    // the identifier column is chosen on the first batch and kept
+    let id_column = match batches.peek() {
+        Some(Ok(first)) => model.row_labels(first, a.id.as_deref())?.map(|l| l.column),
+        _ => None,
+    };
+    let layout = Layout {
+        cols,
+        id_column,
+        digits: usize::try_from(a.digits).unwrap_or(DEFAULT_DIGITS),
+        wide: a.wide,
+    };
     let estimate = |batch: mettle::Result<Table>| -> anyhow::Result<Batch> {
         let batch = batch?;
-        let mut rows = model
-            .predict(&batch)
+        let full = model
+            .predict_with_scale(&batch)
             .with_context(|| format!("estimating with model {}", a.model.display()))?;
+        let mut rows = full.rows;
         if declared {
             for r in &mut rows {
-                for (e, c) in r.estimates.iter_mut().zip(&cols) {
+                for (e, c) in r.estimates.iter_mut().zip(&layout.cols) {
                     if let Some(u) = c.unit {
                         *e = e.in_unit(u);
                     }
                 }
             }
         }
+        let labels = match &layout.id_column {
+            Some(c) => Some(RowLabels::read(&batch, c)?),
+            None => None,
+        };
         Ok(Batch {
             first_row: batch.first_row(),
             rows,
+            learnt: full.learnt,
+            labels,
         })
     };
     let mut tally = Tally::default();
@@ -124,17 +181,16 @@ pub fn run(a: PredictArgs) -> anyhow::Result<()> {
             for b in batches {
                 let b = estimate(b)?;
                 tally.add(&b.rows);
-                all.extend(b.rows);
+                all.push(b);
             }
-            let mut s = to_table(&cols, &all);
+            let mut s = to_table(&layout, &all);
             s.push('\n');
-            s.push_str(CAUTION);
-            s.push('\n');
+            s.push_str(&wrap("", CAUTION, 0));
             emit(&s, a.out.as_deref())?;
         }
         Format::Csv | Format::Json => {
             let write = |w: &mut dyn Write| -> anyhow::Result<()> {
-                let mut out = StreamWriter::start(w, a.format, &cols)?;
+                let mut out = StreamWriter::start(w, a.format, &layout)?;
                 for b in batches {
                     let b = estimate(b)?;
                     tally.add(&b.rows);
@@ -174,6 +230,16 @@ struct Batch {
     /// Data rows of the file before the batch.
     first_row: usize,
     rows: Vec<RowPrediction>,
+    /// Per target, per row: the distribution on the learnt scale.
+    learnt: Vec<Vec<ScalePrediction>>,
+    /// The rows' identifiers, when the table has an identifier column.
+    labels: Option<RowLabels>,
+}
+
+impl Batch {
+    fn label(&self, i: usize) -> Option<&str> {
+        self.labels.as_ref().map(|l| l.get(i))
+    }
 }
 
 /// Rows estimated, and how many lie outside the domain.
@@ -195,20 +261,26 @@ impl Tally {
 struct StreamWriter<'a> {
     w: &'a mut dyn Write,
     format: Format,
-    cols: &'a [Column],
+    layout: &'a Layout,
     written: usize,
 }
 
 impl<'a> StreamWriter<'a> {
-    fn start(w: &'a mut dyn Write, format: Format, cols: &'a [Column]) -> anyhow::Result<Self> {
+    fn start(w: &'a mut dyn Write, format: Format, layout: &'a Layout) -> anyhow::Result<Self> {
         match format {
-            Format::Csv => w.write_all(csv_header(cols).as_bytes())?,
-            _ => w.write_all(b"[")?,
+            Format::Csv => w.write_all(csv_header(layout).as_bytes())?,
+            _ => {
+                // the head object, left open for the rows
+                let head = serde_json::to_string_pretty(&json_head(layout))?;
+                let head = head.strip_suffix("\n}").unwrap_or(&head);
+                w.write_all(head.as_bytes())?;
+                w.write_all(b",\n  \"rows\": [")?;
+            }
         }
         Ok(StreamWriter {
             w,
             format,
-            cols,
+            layout,
             written: 0,
         })
     }
@@ -217,18 +289,23 @@ impl<'a> StreamWriter<'a> {
         for (i, r) in b.rows.iter().enumerate() {
             let number = b.first_row + i + 1;
             if self.format == Format::Csv {
-                self.w.write_all(csv_row(self.cols, number, r).as_bytes())?;
+                let cells = csv_cells(self.layout, number, b.label(i), r, self.written == 0);
+                self.w
+                    .write_all(csv_line(&cells, self.layout.digits).as_bytes())?;
+                self.written += 1;
                 continue;
             }
-            // one element of a pretty-printed array: each line indented by two
-            let text = serde_json::to_string_pretty(&json_row(self.cols, number, r))?;
+            let learnt: Vec<&ScalePrediction> = b.learnt.iter().map(|t| &t[i]).collect();
+            // one element of a pretty-printed array: each line indented by four
+            let row = json_row(self.layout, number, b.label(i), r, &learnt);
+            let text = serde_json::to_string_pretty(&row)?;
             self.w
                 .write_all(if self.written == 0 { b"\n" } else { b",\n" })?;
             for (k, line) in text.lines().enumerate() {
                 if k > 0 {
                     self.w.write_all(b"\n")?;
                 }
-                self.w.write_all(b"  ")?;
+                self.w.write_all(b"    ")?;
                 self.w.write_all(line.as_bytes())?;
             }
             self.written += 1;
@@ -238,8 +315,11 @@ impl<'a> StreamWriter<'a> {
 
     fn finish(self) -> anyhow::Result<()> {
         if self.format == Format::Json {
-            self.w
-                .write_all(if self.written == 0 { b"]\n" } else { b"\n]\n" })?;
+            self.w.write_all(if self.written == 0 {
+                b"]\n}\n"
+            } else {
+                b"\n  ]\n}\n"
+            })?;
         }
         Ok(())
     }
@@ -259,132 +339,217 @@ fn kind_name(k: IntervalKind) -> Value {
     serde_json::to_value(k).unwrap_or(Value::Null)
 }
 
-fn estimate_object(c: &Column, e: &Estimate) -> Map<String, Value> {
-    let mut m: Map<String, Value> = FIELDS
+/// What stays the same for every row: the caution, the identifier column,
+/// and per target its unit, interval kind and distribution's form.
+fn json_head(layout: &Layout) -> Value {
+    let targets: Map<String, Value> = layout
+        .cols
         .iter()
-        .zip(estimate_values(e))
-        .map(|(k, v)| ((*k).to_string(), json!(v)))
+        .map(|c| {
+            let mut m = Map::new();
+            m.insert("unit".into(), json!(c.unit.map(|u| u.symbol())));
+            m.insert("interval_kind".into(), kind_name(c.kind));
+            if let Value::Object(f) = json!(c.form) {
+                m.extend(f);
+            }
+            (c.name.clone(), Value::Object(m))
+        })
         .collect();
-    m.insert("interval_kind".into(), kind_name(c.kind));
-    if let Some(u) = c.unit {
-        m.insert("unit".into(), json!(u.symbol()));
-    }
-    m
+    json!({
+        "caution": CAUTION,
+        "id_column": layout.id_column,
+        "targets": targets,
+    })
 }
 
-fn json_row(cols: &[Column], number: usize, r: &RowPrediction) -> Value {
+fn json_row(
+    layout: &Layout,
+    number: usize,
+    label: Option<&str>,
+    r: &RowPrediction,
+    learnt: &[&ScalePrediction],
+) -> Value {
     let mut obj = Map::new();
     obj.insert("row".into(), json!(number));
-    if cols.len() == 1 {
-        obj.insert("target".into(), json!(cols[0].name));
-        obj.extend(estimate_object(&cols[0], &r.estimates[0]));
-    } else {
-        let est: Map<String, Value> = cols
-            .iter()
-            .zip(&r.estimates)
-            .map(|(c, e)| (c.name.clone(), Value::Object(estimate_object(c, e))))
-            .collect();
-        obj.insert("estimates".into(), Value::Object(est));
+    if let Some(l) = label {
+        obj.insert("id".into(), json!(l));
     }
     obj.insert("in_domain".into(), json!(r.in_domain));
     obj.insert("notes".into(), json!(r.notes));
-    obj.insert("caution".into(), json!(ROW_CAUTION));
+    let est: Map<String, Value> = layout
+        .cols
+        .iter()
+        .zip(&r.estimates)
+        .zip(learnt)
+        .map(|((c, e), p)| {
+            let mut m: Map<String, Value> = FIELDS
+                .iter()
+                .zip(estimate_values(e))
+                .map(|(k, v)| ((*k).to_string(), json!(v)))
+                .collect();
+            if c.form.scale != "target" {
+                m.insert("scale_mean".into(), json!(p.mean));
+                m.insert("scale_sd".into(), json!(p.sd));
+            }
+            (c.name.clone(), Value::Object(m))
+        })
+        .collect();
+    obj.insert("estimates".into(), Value::Object(est));
     Value::Object(obj)
 }
 
-fn csv_header(cols: &[Column]) -> String {
-    let mut h = vec!["row".to_string()];
-    for c in cols {
+fn csv_header(layout: &Layout) -> String {
+    let mut h = vec![Cell::Text("row".into())];
+    if let Some(c) = &layout.id_column {
+        h.push(Cell::Text(c.clone()));
+    }
+    h.push(Cell::Text("in_domain".into()));
+    for c in &layout.cols {
         for f in FIELDS {
-            h.push(format!("{}_{f}", c.name));
+            h.push(Cell::Text(format!("{}_{f}", c.name)));
         }
-        h.push(format!("{}_interval_kind", c.name));
-        h.push(format!("{}_unit", c.name));
+        h.push(Cell::Text(format!("{}_unit", c.name)));
     }
-    h.push("in_domain".into());
-    h.push("notes".into());
-    h.push("caution".into());
-    let mut s: String = h.iter().map(|x| csv_field(x)).collect::<Vec<_>>().join(",");
-    s.push('\n');
-    s
+    h.push(Cell::Text("notes".into()));
+    h.push(Cell::Text("caution".into()));
+    csv_line(&h, layout.digits)
 }
 
-fn csv_row(cols: &[Column], number: usize, r: &RowPrediction) -> String {
-    let mut cells = vec![number.to_string()];
-    for (c, e) in cols.iter().zip(&r.estimates) {
-        cells.extend(estimate_values(e).iter().map(|v| v.to_string()));
-        cells.push(kind_name(c.kind).as_str().unwrap_or_default().to_string());
-        cells.push(csv_field(c.unit.map_or("", |u| u.symbol())));
+fn csv_cells(
+    layout: &Layout,
+    number: usize,
+    label: Option<&str>,
+    r: &RowPrediction,
+    first: bool,
+) -> Vec<Cell> {
+    let mut cells = vec![Cell::Int(number)];
+    if let Some(l) = label {
+        cells.push(Cell::Text(l.to_string()));
     }
-    cells.push(r.in_domain.to_string());
-    cells.push(csv_field(&r.notes.join("; ")));
-    cells.push(csv_field(ROW_CAUTION));
-    let mut s = cells.join(",");
-    s.push('\n');
-    s
+    cells.push(Cell::Bool(r.in_domain));
+    for (c, e) in layout.cols.iter().zip(&r.estimates) {
+        cells.extend(estimate_values(e).map(Cell::Num));
+        cells.push(Cell::Text(c.unit.map_or("", |u| u.symbol()).to_string()));
+    }
+    cells.push(Cell::Text(r.notes.join("; ")));
+    cells.push(if first {
+        Cell::Text(CAUTION.into())
+    } else {
+        Cell::Empty
+    });
+    cells
 }
 
-fn to_table(cols: &[Column], rows: &[RowPrediction]) -> String {
-    let mut h = vec!["row".to_string()];
-    for c in cols {
-        let centre = if c.kind == IntervalKind::Normal {
-            "mean"
-        } else {
-            "median"
-        };
-        for f in [centre, "sd", "lo95", "hi95"] {
-            h.push(if cols.len() == 1 {
-                f.to_string()
-            } else {
-                format!("{}_{f}", c.name)
-            });
-        }
+/// The estimate's centre: the mean on the target's own scale, the median
+/// for a transformed target.
+fn centre(c: &Column, e: &Estimate) -> f64 {
+    if c.kind == IntervalKind::Normal {
+        e.mean
+    } else {
+        e.median
     }
-    h.push("domain".into());
-    let body: Vec<Vec<String>> = rows
+}
+
+/// The name of [`centre`].
+fn centre_name(c: &Column) -> &'static str {
+    if c.kind == IntervalKind::Normal {
+        "mean"
+    } else {
+        "median"
+    }
+}
+
+fn to_table(layout: &Layout, batches: &[Batch]) -> String {
+    let unit_of = |c: &Column| c.unit.map_or(String::new(), |u| format!(" [{u}]"));
+    let lead = |h: &mut Vec<String>| {
+        h.push("row".into());
+        if let Some(c) = &layout.id_column {
+            h.push(c.clone());
+        }
+        h.push("domain".into());
+    };
+    let rows: Vec<(usize, Option<&str>, &RowPrediction)> = batches
         .iter()
-        .enumerate()
-        .map(|(i, r)| {
-            let mut cells = vec![(i + 1).to_string()];
-            for (c, e) in cols.iter().zip(&r.estimates) {
-                let centre = if c.kind == IntervalKind::Normal {
-                    e.mean
-                } else {
-                    e.median
-                };
-                cells.extend([centre, e.sd, e.lo95, e.hi95].iter().map(|v| num(*v)));
-            }
-            cells.push(if r.in_domain {
-                if r.notes.is_empty() {
-                    "in".to_string()
-                } else {
-                    format!("in; {}", r.notes.join("; "))
-                }
-            } else {
-                format!("OUT: {}", r.notes.join("; "))
-            });
-            cells
+        .flat_map(|b| {
+            b.rows
+                .iter()
+                .enumerate()
+                .map(move |(i, r)| (b.first_row + i + 1, b.label(i), r))
         })
         .collect();
-    let unit_of = |c: &Column| c.unit.map_or(String::new(), |u| format!(" [{u}]"));
-    let mut title = if cols.len() == 1 {
-        format!(
-            "estimates of {}{} (sd = noise + model uncertainty; lo95..hi95 = central 95 % interval)\n",
-            cols[0].name,
-            unit_of(&cols[0])
-        )
-    } else {
-        let names: Vec<String> = cols
-            .iter()
-            .map(|c| format!("{}{}", c.name, unit_of(c)))
-            .collect();
-        format!(
-            "estimates of {} (sd = noise + model uncertainty; lo95..hi95 = central 95 % interval)\n",
-            names.join(", ")
-        )
+    let lead_cells = |number: usize, label: Option<&str>, r: &RowPrediction| {
+        let mut cells = vec![number.to_string()];
+        if let Some(l) = label {
+            cells.push(l.to_string());
+        }
+        cells.push(if r.in_domain { "in" } else { "OUT" }.to_string());
+        cells
     };
-    for c in cols.iter().filter(|c| c.kind != IntervalKind::Normal) {
-        title.push_str(&format!("{}: {}\n", c.name, c.kind.describe()));
+    let groups: Vec<Vec<usize>> = if layout.wide {
+        vec![(0..layout.cols.len()).collect()]
+    } else {
+        (0..layout.cols.len()).map(|k| vec![k]).collect()
+    };
+    let mut out = String::new();
+    for group in groups {
+        let names: Vec<String> = group
+            .iter()
+            .map(|&k| format!("{}{}", layout.cols[k].name, unit_of(&layout.cols[k])))
+            .collect();
+        out.push_str(&format!(
+            "{}estimates of {} (sd = noise + model uncertainty; lo95..hi95 = central 95 % interval)\n",
+            if out.is_empty() { "" } else { "\n" },
+            names.join(", ")
+        ));
+        for &k in &group {
+            let c = &layout.cols[k];
+            if c.kind != IntervalKind::Normal {
+                out.push_str(&format!("{}: {}\n", c.name, c.kind.describe()));
+            }
+        }
+        let mut h = Vec::new();
+        lead(&mut h);
+        for &k in &group {
+            let c = &layout.cols[k];
+            for f in [centre_name(c), "sd", "lo95", "hi95"] {
+                h.push(if group.len() == 1 {
+                    f.to_string()
+                } else {
+                    format!("{}_{f}", c.name)
+                });
+            }
+        }
+        let body: Vec<Vec<String>> = rows
+            .iter()
+            .map(|&(number, label, r)| {
+                let mut cells = lead_cells(number, label, r);
+                for &k in &group {
+                    let (c, e) = (&layout.cols[k], &r.estimates[k]);
+                    cells.extend([centre(c, e), e.sd, e.lo95, e.hi95].iter().map(|v| num(*v)));
+                }
+                cells
+            })
+            .collect();
+        out.push_str(&aligned(&h, &body));
     }
-    title + &aligned(&h, &body)
+    let noted: Vec<String> = rows
+        .iter()
+        .filter(|(_, _, r)| !r.notes.is_empty())
+        .map(|&(number, label, r)| {
+            wrap(
+                &format!(
+                    "  row {number}{}: {}",
+                    label.map_or(String::new(), |l| format!(" ({l})")),
+                    if r.in_domain { "" } else { "OUT: " },
+                ),
+                &r.notes.join("; "),
+                4,
+            )
+        })
+        .collect();
+    if !noted.is_empty() {
+        out.push_str("\nnotes:\n");
+        out.extend(noted);
+    }
+    out
 }

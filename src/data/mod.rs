@@ -7,11 +7,14 @@ pub mod audit;
 mod derived;
 mod fingerprint;
 pub mod modes;
+mod ids;
 pub mod schema;
+pub mod suggest;
 mod table;
 
 pub use atomic::{write_atomic, AtomicFile};
 pub(crate) use derived::find_header;
 pub use derived::{derive_columns, DeriveOutcome};
 pub use fingerprint::fingerprint;
+pub use ids::{identifier_column, RowLabels};
 pub use table::{ColumnData, FileFormat, Table, TableBatches};

@@ -481,11 +481,18 @@ impl Table {
     fn column_data(&self, name: &str) -> Result<&ColumnData> {
         self.index_of(name)
             .map(|i| &self.columns[i])
-            .ok_or_else(|| Error::MissingColumn {
-                path: self.source.display().to_string(),
-                name: name.to_string(),
-                available: self.names.join(", "),
-            })
+            .ok_or_else(|| self.missing_column(name))
+    }
+
+    /// The error for a column `name` the table lacks, naming the closest
+    /// column when one is near ("did you mean").
+    pub fn missing_column(&self, name: &str) -> Error {
+        Error::MissingColumn {
+            path: self.source.display().to_string(),
+            name: name.to_string(),
+            available: self.names.join(", "),
+            suggestion: crate::data::suggest::did_you_mean(name, &self.names),
+        }
     }
 
     /// True when at least one cell of the column reads as a number: such a

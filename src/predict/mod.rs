@@ -6,8 +6,10 @@
 //! the interval is asymmetric about the median, and [`Estimate::interval_kind`]
 //! says so.
 
+mod distribution;
 mod domain;
 
+pub use distribution::PredictiveForm;
 pub use domain::{range_check, DomainGuard, DomainReport};
 
 use ndarray::Array2;
