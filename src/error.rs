@@ -156,8 +156,10 @@ pub enum Error {
         /// Their sum, wt%.
         total: f64,
     },
-    /// Rows lack input values; nothing is imputed.
-    #[error("{path}: input values are missing in {n_rows} row(s), and nothing is ever filled in: {detail}. Complete them, or leave such rows out explicitly (option drop_incomplete_rows; CLI --drop-incomplete-rows)")]
+    /// Rows lack input values; nothing is imputed. Training may leave such
+    /// rows out explicitly (option `drop_incomplete_rows`); the CLI adds
+    /// the remedy that fits the command.
+    #[error("{path}: input values are missing in {n_rows} row(s), and nothing is ever filled in: {detail}")]
     MissingInputs {
         /// The data file.
         path: String,

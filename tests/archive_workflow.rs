@@ -210,3 +210,105 @@ fn evaluate_screen_and_audit_name_rows_by_heat() {
         describe(&aargs, &out)
     );
 }
+
+/// Docs that agree with outputs: every key `explain --format json` emits
+/// for the bundled invented model is named in `explain --help`.
+#[test]
+fn explain_help_names_every_key_its_json_emits() {
+    let w = Workdir::new();
+    let repo = std::path::PathBuf::from(env!("CARGO_MANIFEST_DIR"));
+    let model = repo.join("models/fellhaven_welds.json");
+    let model = model.to_str().expect("utf-8");
+    let v: Value = serde_json::from_slice(
+        &w.ok(&["explain", "--model", model, "--format", "json"])
+            .stdout,
+    )
+    .expect("JSON");
+    let help = stdout(&w.ok(&["explain", "--help"]));
+    let mut keys: Vec<String> = Vec::new();
+    let mut add = |o: &Value| {
+        if let Some(m) = o.as_object() {
+            keys.extend(m.keys().cloned());
+        }
+    };
+    add(&v);
+    add(&v["inputs"][0]);
+    for t in v["targets"].as_array().expect("targets") {
+        add(t);
+        add(&t["members"][0]);
+        add(&t["gross_errors"]);
+        add(&t["kriging"]);
+    }
+    keys.sort();
+    keys.dedup();
+    let missing: Vec<&String> = keys.iter().filter(|k| !help.contains(k.as_str())).collect();
+    assert!(missing.is_empty(), "explain --help omits {missing:?}");
+}
+
+/// A transition whose 95 % interval is not reached inside the range says
+/// so in words (the bundled invented model; the range −80 to −70 °C lies
+/// below every crossing of 100 J).
+#[test]
+fn transition_says_in_words_when_an_interval_end_is_not_reached() {
+    let w = Workdir::new();
+    let repo = std::path::PathBuf::from(env!("CARGO_MANIFEST_DIR"));
+    let model = repo.join("models/fellhaven_welds.json");
+    let base = repo.join("datasets/fellhaven_new_welds.csv");
+    let args = [
+        "transition",
+        "--model",
+        model.to_str().expect("utf-8"),
+        "--temperature-input",
+        "test_temp_c",
+        "--target",
+        "charpy_j",
+        "--base",
+        base.to_str().expect("utf-8"),
+        "--from",
+        "-80",
+        "--to",
+        "-70",
+        "--energy",
+        "300",
+    ];
+    let out = w.ok(&args);
+    let text = stdout(&out);
+    assert!(
+        !text.contains("not reached to not reached"),
+        "{}",
+        describe(&args, &out)
+    );
+    assert!(
+        !text.contains("not reached °C"),
+        "{}",
+        describe(&args, &out)
+    );
+    assert!(text.contains("T300J:"), "{}", describe(&args, &out));
+}
+
+/// One flag spelling across commands: the table to read is `--data` or
+/// `--input` for train, predict, evaluate, screen and audit alike.
+#[test]
+fn the_table_flag_is_spelt_either_way_everywhere() {
+    let w = trained();
+    w.write("q.csv", QUERY);
+    let a = stdout(&w.ok(&[
+        "predict", "--model", "m.json", "--input", "q.csv", "--format", "csv",
+    ]));
+    let b = stdout(&w.ok(&[
+        "predict", "--model", "m.json", "--data", "q.csv", "--format", "csv",
+    ]));
+    assert_eq!(a, b);
+    w.write("t.csv", with_heats(&fixture_csv(30, 13)));
+    w.ok(&["evaluate", "--model", "m.json", "--input", "t.csv"]);
+    w.ok(&["audit", "--input", "t.csv", "--target", "y"]);
+    w.ok(&[
+        "screen",
+        "--model",
+        "m.json",
+        "--data",
+        "q.csv",
+        "--require",
+        "y>=0",
+    ]);
+}

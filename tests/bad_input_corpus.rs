@@ -63,6 +63,15 @@ fn train(data: &str) -> Vec<String> {
     v
 }
 
+/// `mettle train --data DATA --target TARGET --out m.json`, quick settings.
+fn train_with_target(data: &str, target: &str) -> Vec<String> {
+    let mut v = strings(&[
+        "train", "--data", data, "--target", target, "--out", "m.json",
+    ]);
+    v.extend(strings(&QUICK));
+    v
+}
+
 /// As [`train`] with `extra` arguments.
 fn train_with(data: &str, extra: &[&str]) -> Vec<String> {
     let mut v = train(data);
@@ -733,6 +742,74 @@ fn corpus(m: &Models) -> Vec<Case> {
             strings(&["evaluate", "--model", "m.json", "--data", "q.csv"]),
             2,
             &["q.csv", "'y'"],
+        ),
+        // ---- a real archive's workflow: names, spreadsheets, units, messages
+        case(
+            "a target name wrongly cased",
+            vec![("d.csv", fx())],
+            train_with_target("d.csv", "Y"),
+            2,
+            &["d.csv", "no column named 'Y'", "did you mean 'y'"],
+        ),
+        case(
+            "a target name misspelt",
+            vec![("d.csv", bytes(fixture_csv(40, 3).replacen("y\n", "uts_mpa\n", 1)))],
+            train_with_target("d.csv", "uts_mpx"),
+            2,
+            &["d.csv", "'uts_mpx'", "did you mean 'uts_mpa'"],
+        ),
+        case(
+            "numbers written with a decimal comma",
+            vec![("d.csv", bytes("x1,x2,y\n0,5,1,25,2,5\n0,1,0,5,1,0\n"))],
+            train("d.csv"),
+            2,
+            &["d.csv", "row 1 (line 2)", "6 cells, but the header has 3", "decimal comma"],
+        ),
+        case(
+            "a model file that is not there",
+            vec![("q.csv", query())],
+            predict("nope.json", "q.csv"),
+            2,
+            &["the model file nope.json", "nope.json: cannot read"],
+        ),
+        case(
+            "a heat without an input value at prediction",
+            vec![
+                ("m.json", m.weld.clone()),
+                ("q.csv", weld_with(2, "mn", "")),
+            ],
+            predict("m.json", "q.csv"),
+            2,
+            &["q.csv", "input values are missing", "complete rows only"],
+        ),
+        case(
+            "a spreadsheet workbook given as the table",
+            vec![("d.xlsx", b"PK\x03\x04\x14\x00\x06\x00\x08\x00binary zip content".to_vec())],
+            train("d.xlsx"),
+            2,
+            &["d.xlsx", "spreadsheet workbook", "save the sheet as CSV"],
+        ),
+        case(
+            "an identifier column that is not there",
+            vec![("m.json", plain()), ("q.csv", query())],
+            {
+                let mut v = predict("m.json", "q.csv");
+                v.extend(strings(&["--id", "X1"]));
+                v
+            },
+            2,
+            &["q.csv", "no column named 'X1'", "did you mean 'x1'"],
+        ),
+        case(
+            "a schema target that the schema does not declare",
+            vec![("w.csv", weld()), ("w.toml", schema())],
+            {
+                let mut v = train_schema("w.csv", "w.toml");
+                v.extend(strings(&["--target", "UTS"]));
+                v
+            },
+            2,
+            &["w.toml", "declares no target 'UTS'", "did you mean 'uts'"],
         ),
         // ---- where the output goes
         case(

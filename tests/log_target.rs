@@ -11,7 +11,7 @@ mod common;
 
 use std::fmt::Write as _;
 
-use common::{describe, Workdir};
+use common::Workdir;
 use rand::{Rng, SeedableRng};
 use rand_distr::{Distribution, Normal};
 use rand_xoshiro::Xoshiro256PlusPlus;

@@ -51,7 +51,7 @@ Example:\n  mettle audit --data welds.csv --schema welds.toml"
 )]
 pub struct AuditArgs {
     /// Table to check (CSV with a header row, or Parquet).
-    #[arg(long, value_name = "FILE")]
+    #[arg(long, visible_alias = "input", value_name = "FILE")]
     data: PathBuf,
     /// Schema file: roles, units and bounds of the columns.
     #[arg(long, value_name = "SCHEMA.toml")]

@@ -6,7 +6,6 @@ use clap::Args;
 use mettle::data::Table;
 use mettle::explain::{compare, Comparison};
 use mettle::prec::PAIRED_SHOWN_SE;
-use mettle::Model;
 
 use super::evaluate::EvalFormat;
 use super::output::{aligned, emit, num};
@@ -144,8 +143,8 @@ fn text(c: &Comparison) -> String {
 }
 
 pub fn run(a: CompareArgs) -> anyhow::Result<()> {
-    let old = Model::load(&a.old)?;
-    let new = Model::load(&a.new)?;
+    let old = super::load_model(&a.old)?;
+    let new = super::load_model(&a.new)?;
     let table = Table::read(&a.data)?;
     let c = compare(&old, &new, &table)?;
     let out = match a.format {

@@ -13,7 +13,11 @@ use mettle::demo::{write_demo_datasets, DemoParams};
 The records are INVENTED: generated from published relations (Pickering-type strength terms, \
 the EN 1011-2 cooling time, the tanh Charpy transition curve) plus invented effects and realistic \
 scatter. They are not test results and must not be used to qualify any weld. The same seed gives \
-byte-identical files.",
+byte-identical files.\n\n\
+Files: fellhaven_welds.csv (the archive), fellhaven_candidates.csv, fellhaven_new_welds.csv and \
+fellhaven_new_welds_truth.csv; and the archive and the new heats as a spreadsheet export \
+arrives (fellhaven_welds_export.csv, fellhaven_new_welds_export.csv), each weld's identifier in a \
+first column 'weld'.",
     after_long_help = "Example:\n  mettle demo-data --out out/demo"
 )]
 pub struct DemoDataArgs {

@@ -36,7 +36,7 @@ Example:\n  mettle derive --data welds.csv --add ce_iiw,pcm,heat_input:SAW,t85:b
 )]
 pub struct DeriveArgs {
     /// Table to read (CSV with a header row, or Parquet).
-    #[arg(long, value_name = "FILE")]
+    #[arg(long, visible_alias = "input", value_name = "FILE")]
     data: PathBuf,
     /// Derivations to add, comma-separated (t85 parameters may follow, e.g. t85:F2=0.9,F3=0.9).
     #[arg(long, value_name = "LIST", default_value = "")]

@@ -7,10 +7,9 @@ use mettle::data::Table;
 use mettle::explain::{estimate_rows, OutOfLine};
 use mettle::metrics::Evaluation;
 use mettle::prec::OUT_OF_LINE_Z;
-use mettle::Model;
 use serde_json::json;
 
-use super::output::{aligned, emit, num};
+use super::output::{aligned, emit, num, wrap};
 use super::UsageError;
 
 /// Output formats of `evaluate`.
@@ -48,7 +47,7 @@ pub struct EvaluateArgs {
     #[arg(long, value_name = "MODEL.json")]
     model: PathBuf,
     /// Table with the model's inputs and measured targets.
-    #[arg(long, value_name = "FILE")]
+    #[arg(long, visible_alias = "input", value_name = "FILE")]
     data: PathBuf,
     /// Output format.
     #[arg(long, value_enum, default_value_t = EvalFormat::Table)]
@@ -67,7 +66,7 @@ const NLPD_SCORES: &str = "the model's whole predictive density: for a model wit
 const COVERAGES_COUNT: &str = "the central intervals of a test free of gross error (the error shape's), as predict prints them";
 
 pub fn run(a: EvaluateArgs) -> anyhow::Result<()> {
-    let model = Model::load(&a.model)?;
+    let model = super::load_model(&a.model)?;
     let table = Table::read(&a.data)?;
     let labels = model.row_labels(&table, a.id.as_deref())?;
     let label = |row: usize| labels.as_ref().map(|l| l.get(row - 1).to_string());
@@ -166,7 +165,11 @@ pub fn run(a: EvaluateArgs) -> anyhow::Result<()> {
                 .collect();
             let mut text = aligned(&h, &body)
                 + "honest error bars: coverage_68 near 0.68, coverage_95 near 0.95\n"
-                + &format!("nlpd scores {NLPD_SCORES}; the coverages count {COVERAGES_COUNT}\n");
+                + &wrap(
+                    "",
+                    &format!("nlpd scores {NLPD_SCORES}; the coverages count {COVERAGES_COUNT}"),
+                    0,
+                );
             for (name, odd, chance) in &out_of_line {
                 if odd.is_empty() {
                     continue;

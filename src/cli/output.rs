@@ -95,7 +95,7 @@ pub fn num(v: f64) -> String {
     }
 }
 
-/// One cell of a CSV (or spreadsheet) row.
+/// One cell of a CSV row.
 #[derive(Clone, Debug, PartialEq)]
 pub enum Cell {
     /// Text, quoted when it needs it.

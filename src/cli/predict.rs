@@ -11,7 +11,6 @@ use mettle::model::IntervalKind;
 use mettle::prec::PREDICT_BATCH_ROWS;
 use mettle::predict::{Estimate, PredictiveForm, RowPrediction, ScalePrediction};
 use mettle::units::Unit;
-use mettle::Model;
 use serde_json::{json, Map, Value};
 
 use super::output::{aligned, csv_line, emit, num, wrap, Cell, Format, DEFAULT_DIGITS};
@@ -68,7 +67,7 @@ pub struct PredictArgs {
     #[arg(long, value_name = "MODEL.json")]
     model: PathBuf,
     /// Rows to estimate (CSV with a header row, or Parquet); must hold every input column of the model.
-    #[arg(long, value_name = "FILE")]
+    #[arg(long, visible_alias = "data", value_name = "FILE")]
     input: PathBuf,
     /// Output format.
     #[arg(long, value_enum, default_value_t = Format::Table)]
@@ -113,7 +112,7 @@ struct Layout {
 }
 
 pub fn run(a: PredictArgs) -> anyhow::Result<()> {
-    let model = Model::load(&a.model)?;
+    let model = super::load_model(&a.model)?;
     let declared = a.units == UnitChoice::Declared;
     let cols: Vec<Column> = model
         .targets
@@ -399,6 +398,10 @@ fn json_row(
 }
 
 fn csv_header(layout: &Layout) -> String {
+    csv_line(&csv_header_cells(layout), layout.digits)
+}
+
+fn csv_header_cells(layout: &Layout) -> Vec<Cell> {
     let mut h = vec![Cell::Text("row".into())];
     if let Some(c) = &layout.id_column {
         h.push(Cell::Text(c.clone()));
@@ -412,7 +415,7 @@ fn csv_header(layout: &Layout) -> String {
     }
     h.push(Cell::Text("notes".into()));
     h.push(Cell::Text("caution".into()));
-    csv_line(&h, layout.digits)
+    h
 }
 
 fn csv_cells(

@@ -68,8 +68,8 @@ impl ProblemArgs {
         let models = self
             .model
             .iter()
-            .map(|p| Model::load(p))
-            .collect::<mettle::Result<Vec<_>>>()?;
+            .map(|p| super::load_model(p))
+            .collect::<anyhow::Result<Vec<_>>>()?;
         let requirements = self
             .require
             .iter()
@@ -140,7 +140,7 @@ pub struct ScreenArgs {
     #[command(flatten)]
     problem: ProblemArgs,
     /// Candidates (CSV with a header row, or Parquet), holding every input the models read.
-    #[arg(long, value_name = "FILE")]
+    #[arg(long, visible_alias = "data", value_name = "FILE")]
     input: PathBuf,
     /// Rank out-of-domain candidates by their probability like the others.
     #[arg(long)]

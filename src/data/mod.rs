@@ -5,9 +5,11 @@
 mod atomic;
 pub mod audit;
 mod derived;
+pub mod draft;
 mod fingerprint;
-pub mod modes;
+pub mod guess;
 mod ids;
+pub mod modes;
 pub mod schema;
 pub mod suggest;
 mod table;

@@ -7,6 +7,7 @@
 mod batches;
 mod parquet_check;
 mod shape;
+mod xlsx;
 
 pub use batches::TableBatches;
 
@@ -45,6 +46,9 @@ pub enum FileFormat {
     Csv,
     /// Apache Parquet.
     Parquet,
+    /// A spreadsheet workbook (.xlsx, .xls): recognised to be refused
+    /// with a message saying what to do.
+    Spreadsheet,
 }
 
 /// The four bytes that open (and close) every Parquet file (Apache Parquet
@@ -53,8 +57,9 @@ const PARQUET_MAGIC: &[u8; 4] = b"PAR1";
 
 impl FileFormat {
     /// The format of an existing file, recognised by its content: a file
-    /// that opens with the Parquet magic bytes `PAR1` is Parquet, any other
-    /// is read as CSV. The name does not matter, so a table renamed keeps
+    /// that opens with the Parquet magic bytes `PAR1` is Parquet, one that
+    /// opens as a zip archive (.xlsx) or an OLE2 compound file (.xls) is a
+    /// spreadsheet workbook (refused), any other is read as CSV. The name does not matter, so a table renamed keeps
     /// being read correctly.
     ///
     /// # Errors
@@ -81,6 +86,8 @@ impl FileFormat {
         }
         Ok(if got == 4 && &head == PARQUET_MAGIC {
             FileFormat::Parquet
+        } else if got == 4 && (&head == xlsx::ZIP_MAGIC || &head == xlsx::OLE2_MAGIC) {
+            FileFormat::Spreadsheet
         } else {
             FileFormat::Csv
         })
@@ -230,11 +237,14 @@ impl Table {
             return Err(read_error(path, "the file is empty"));
         }
         let format = FileFormat::sniff(path)?;
+        if format == FileFormat::Spreadsheet {
+            return Err(xlsx::refuse(path));
+        }
         // rows the shape check counted: the reader underneath may add a
         // row of empty cells for a trailing blank line
         let csv_rows = match format {
             FileFormat::Csv => Some(shape::check(path)?.n_rows),
-            FileFormat::Parquet => {
+            _ => {
                 // counts polars would trust are checked first: a damaged
                 // one can make it abort on a huge allocation
                 parquet_check::check(path)?;
@@ -250,7 +260,7 @@ impl Table {
                 .try_into_reader_with_file_path(Some(path.to_path_buf()))
                 .and_then(|r| r.finish())
                 .map_err(polars_error)?,
-            FileFormat::Parquet => {
+            _ => {
                 let f = std::fs::File::open(path).map_err(|source| Error::Io {
                     path: path.display().to_string(),
                     source,
@@ -468,7 +478,7 @@ impl Table {
     pub fn write(&self, path: &Path) -> Result<()> {
         let bytes = match FileFormat::from_path(path) {
             FileFormat::Csv => self.to_csv_bytes(),
-            FileFormat::Parquet => self.to_parquet_bytes()?,
+            _ => self.to_parquet_bytes()?,
         };
         crate::data::write_atomic(path, &bytes)
     }

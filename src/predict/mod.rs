@@ -8,6 +8,7 @@
 
 mod distribution;
 mod domain;
+mod unit_hint;
 
 pub use distribution::PredictiveForm;
 pub use domain::{range_check, DomainGuard, DomainReport};
@@ -261,6 +262,7 @@ impl Model {
             .map(|(i, dom)| {
                 let estimates: Vec<Estimate> = per_target.iter().map(|e| e[i].clone()).collect();
                 let mut notes = dom.notes;
+                notes.extend(self.unit_hints(raw.row(i)));
                 for ((t, b), e) in self.targets.iter().zip(&bounds).zip(&estimates) {
                     notes.extend(b.as_ref().and_then(|b| b.note(&t.name, e.median)));
                 }

@@ -111,6 +111,8 @@ impl Table {
             return Table::read(path).map(whole);
         }
         let source = match FileFormat::sniff(path)? {
+            // a workbook is refused by the whole-file reader
+            FileFormat::Spreadsheet => return Table::read(path).map(whole),
             FileFormat::Csv => {
                 if shape::check(path)?.n_rows <= rows_per_batch {
                     return Table::read(path).map(whole);
