@@ -88,7 +88,7 @@ pub fn num(v: f64) -> String {
     }
 }
 
-pub use mettle::data::cells::{csv_line, sig, Cell, DEFAULT_DIGITS};
+pub use mettle::data::cells::{sig, DEFAULT_DIGITS};
 
 /// Width that prose in terminal output is wrapped to.
 pub const TEXT_WIDTH: usize = 96;

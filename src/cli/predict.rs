@@ -148,7 +148,7 @@ pub fn run(a: PredictArgs) -> anyhow::Result<()> {
                 tally.add(&b.rows);
                 all.push(b);
             }
-            let mut s = to_table(&layout, &all);
+            let mut s = to_table(&layout, &all, a.wide);
             s.push('\n');
             s.push_str(&wrap("", CAUTION, 0));
             emit(&s, a.out.as_deref())?;
@@ -222,7 +222,7 @@ impl Tally {
     }
 }
 
-fn to_table(layout: &EstimateLayout, batches: &[EstimateBatch]) -> String {
+fn to_table(layout: &EstimateLayout, batches: &[EstimateBatch], wide: bool) -> String {
     let unit_of = |c: &mettle::predict::TargetColumn| c.unit.map_or(String::new(), |u| format!(" [{u}]"));
     let lead = |h: &mut Vec<String>| {
         h.push("row".into());
@@ -248,7 +248,7 @@ fn to_table(layout: &EstimateLayout, batches: &[EstimateBatch]) -> String {
         cells.push(r.level.short().to_string());
         cells
     };
-    let groups: Vec<Vec<usize>> = if layout.wide {
+    let groups: Vec<Vec<usize>> = if wide {
         vec![(0..layout.cols.len()).collect()]
     } else {
         (0..layout.cols.len()).map(|k| vec![k]).collect()

@@ -2,7 +2,8 @@
 //! unit than the model's: outside the training range as read, inside it
 //! when read in another unit of the same quantity (a test temperature in
 //! °F in a column the model reads in °C, a boron content in wt% in a
-//! column read in ppm). A column whose every value looks so is refused by
+//! column read in ppm). A column with values outside the range as read
+//! and every value inside it in another unit is refused by
 //! [`Model::unit_check`]: estimates are not made on a guessed unit.
 
 use ndarray::ArrayView1;
@@ -39,42 +40,16 @@ impl Model {
             if declared.contains(&inp.name) {
                 continue;
             }
-            // the unit of the file's column, and the raw value a number in
-            // the file would give read in unit u
-            let (unit, in_file, reread): (Unit, f64, Box<dyn Fn(Unit, f64) -> f64>) =
-                match &self.schema {
-                    Some(schema) => {
-                        let Some(col) = schema.column(&inp.name) else {
-                            continue; // a derived input: no unit in the file
-                        };
-                        let d = col.unit_or_1();
-                        (d, d.from_internal(v), Box::new(|u: Unit, x| u.to_internal(x)))
-                    }
-                    None => {
-                        let Some(m) = Unit::from_column_suffix(&inp.name) else {
-                            continue;
-                        };
-                        (
-                            m,
-                            v,
-                            Box::new(move |u: Unit, x| m.from_internal(u.to_internal(x))),
-                        )
-                    }
-                };
-            let span = (inp.max - inp.min).abs();
-            let slack = DOMAIN_RANGE_SLACK * span;
-            let inside = |x: f64| x >= inp.min - slack && x <= inp.max + slack;
-            if inside(v) || span <= 0.0 || !v.is_finite() {
+            let Some(r) = self.reading(j) else { continue };
+            if r.inside(v) || !v.is_finite() {
                 continue;
             }
-            let other = Unit::ALL.iter().copied().find(|&u| {
-                u != unit && u.quantity() == unit.quantity() && inside(reread(u, in_file))
-            });
-            let Some(u) = other else { continue };
-            let (lo, hi) = match &self.schema {
-                Some(_) => (unit.from_internal(inp.min), unit.from_internal(inp.max)),
-                None => (inp.min, inp.max),
+            let in_file = r.in_file(v);
+            let Some(u) = r.others().find(|&u| r.inside(r.reread(u, in_file))) else {
+                continue;
             };
+            let (lo, hi) = (r.in_file(inp.min), r.in_file(inp.max));
+            let unit = r.unit;
             hints.push(UnitHint {
                 input: j,
                 unit,
@@ -96,9 +71,34 @@ impl Model {
         hints
     }
 
+    /// How input `j`'s values relate to the numbers in the file, when the
+    /// model knows the column's unit (`None` for a derived input or a
+    /// column without a known unit, and for an input of no range).
+    fn reading(&self, j: usize) -> Option<Reading> {
+        let inp = &self.inputs[j];
+        let span = (inp.max - inp.min).abs();
+        if span <= 0.0 {
+            return None;
+        }
+        let (unit, schema) = match &self.schema {
+            // a derived input has no unit in the file
+            Some(schema) => (schema.column(&inp.name)?.unit_or_1(), true),
+            None => (Unit::from_column_suffix(&inp.name)?, false),
+        };
+        Some(Reading {
+            unit,
+            schema,
+            lo: inp.min - DOMAIN_RANGE_SLACK * span,
+            hi: inp.max + DOMAIN_RANGE_SLACK * span,
+        })
+    }
+
     /// The table's declared units applied ([`Model::apply_declared_units`]),
-    /// and a refusal when a column the table did not declare looks, in
-    /// every row, as if it were in another unit than the model's.
+    /// and a refusal when a column the table did not declare looks as if
+    /// it were in another unit than the model's: some of its values lie
+    /// outside the training range as read, every one inside it read in
+    /// another unit of its quantity. (A column really in the model's unit
+    /// with an odd value is accepted once its header says so.)
     ///
     /// # Errors
     /// As [`Model::apply_declared_units`] and [`Model::scaled_inputs`];
@@ -109,41 +109,96 @@ impl Model {
         let (prepared, _) = self.read_through_schema(&t, false)?;
         let (raw, _) = self.scaled_inputs(&prepared)?;
         let declared: Vec<String> = decl.iter().map(|d| d.column.clone()).collect();
-        let n = raw.nrows();
-        if n == 0 {
-            return Ok(decl);
-        }
-        let mut seen: Vec<Vec<UnitHint>> = vec![Vec::new(); self.inputs.len()];
-        for row in raw.rows() {
-            for h in self.unit_hints(row, &declared) {
-                let j = h.input;
-                seen[j].push(h);
+        // per input: rows inside the range as read, and per other unit of
+        // its quantity the rows inside it read in that unit
+        for j in 0..self.inputs.len() {
+            if declared.contains(&self.inputs[j].name) {
+                continue;
             }
-        }
-        if let Some(hs) = seen.iter().find(|hs| hs.len() == n) {
-            let h = &hs[0];
-            let name = &self.inputs[h.input].name;
-            let same = hs.iter().all(|x| x.looks_like == h.looks_like);
-            let values: Vec<String> = hs.iter().take(3).map(|x| trim(x.value)).collect();
+            let Some(r) = self.reading(j) else { continue };
+            let col: Vec<f64> = raw.column(j).iter().copied().filter(|v| v.is_finite()).collect();
+            if col.is_empty() {
+                continue;
+            }
+            let as_read = col.iter().filter(|&&v| r.inside(v)).count();
+            if as_read == col.len() {
+                continue;
+            }
+            let other = r.others().find(|&u| {
+                col.iter()
+                    .all(|&v| r.inside(r.reread(u, r.in_file(v))))
+            });
+            let Some(u) = other else { continue };
+            let name = &self.inputs[j].name;
+            let values: Vec<String> = col
+                .iter()
+                .filter(|&&v| !r.inside(v))
+                .take(3)
+                .map(|&v| trim(r.in_file(v)))
+                .collect();
             return Err(Error::Read {
                 path: table.source().display().to_string(),
                 message: format!(
-                    "column {name}: every value ({}{}) lies outside the model's training range in \
-                     {}, but inside it read as {}{}: the column looks as if it were in another unit. \
-                     Declare its unit in the header ('{name} [{}]'), or, if the values really are \
-                     in {}, say so ('{name} [{}]'); estimates are not made on a guessed unit",
+                    "column {name}: {} of {} values ({}{}) lie outside the model's training range in \
+                     {unit}, but every value lies inside it read as {u}: the column looks as if it \
+                     were in {u}. Declare its unit in the header ('{name} [{}]'), or, if the values \
+                     really are in {unit}, say so ('{name} [{}]'); estimates are not made on a \
+                     guessed unit",
+                    col.len() - as_read,
+                    col.len(),
                     values.join(", "),
-                    if hs.len() > 3 { ", ..." } else { "" },
-                    h.unit,
-                    h.looks_like,
-                    if same { "" } else { " (or another unit of its quantity)" },
-                    h.looks_like.ascii_symbol(),
-                    h.unit,
-                    h.unit.ascii_symbol()
+                    if col.len() - as_read > 3 { ", ..." } else { "" },
+                    u.ascii_symbol(),
+                    r.unit.ascii_symbol(),
+                    unit = r.unit,
                 ),
             });
         }
         Ok(decl)
+    }
+}
+
+/// How one input's values relate to the file's numbers.
+struct Reading {
+    /// The unit of the file's column.
+    unit: Unit,
+    /// Values are internal (a model with a schema) rather than in `unit`.
+    schema: bool,
+    /// The training range with its slack, as the networks read it.
+    lo: f64,
+    hi: f64,
+}
+
+impl Reading {
+    fn inside(&self, x: f64) -> bool {
+        x >= self.lo && x <= self.hi
+    }
+
+    /// A value as the networks read it, as the number in the file.
+    fn in_file(&self, v: f64) -> f64 {
+        if self.schema {
+            self.unit.from_internal(v)
+        } else {
+            v
+        }
+    }
+
+    /// The value the networks would read for number `x` in the file
+    /// written in unit `u`.
+    fn reread(&self, u: Unit, x: f64) -> f64 {
+        if self.schema {
+            u.to_internal(x)
+        } else {
+            self.unit.from_internal(u.to_internal(x))
+        }
+    }
+
+    /// The other units of the column's quantity.
+    fn others(&self) -> impl Iterator<Item = Unit> + '_ {
+        Unit::ALL
+            .iter()
+            .copied()
+            .filter(|&u| u != self.unit && u.quantity() == self.unit.quantity())
     }
 }
 
