@@ -76,10 +76,13 @@ fn predict_names_every_row_by_its_heat_in_each_format() {
     let out = w.ok(&args);
     let csv = stdout(&out);
     let lines: Vec<&str> = csv.lines().collect();
-    assert!(lines[0].starts_with("row,heat,in_domain,y_mean,"), "{csv}");
-    assert!(lines[4].starts_with("4,FH-2004,false,"), "{csv}");
+    assert!(
+        lines[0].starts_with("row,heat,in_domain,domain,y_mean,"),
+        "{csv}"
+    );
+    assert!(lines[4].starts_with("4,FH-2004,false,outside,"), "{csv}");
     assert_eq!(csv.matches("not test results").count(), 1, "{csv}");
-    let mean: &str = lines[1].split(',').nth(3).expect("y_mean");
+    let mean: &str = lines[1].split(',').nth(4).expect("y_mean");
     assert!(
         mean.replace(['-', '.'], "").trim_start_matches('0').len() <= 6,
         "{mean}"
@@ -92,7 +95,7 @@ fn predict_names_every_row_by_its_heat_in_each_format() {
         .nth(1)
         .expect("row")
         .split(',')
-        .nth(3)
+        .nth(4)
         .expect("y_mean")
         .parse()
         .expect("number");
@@ -108,6 +111,9 @@ fn predict_names_every_row_by_its_heat_in_each_format() {
     let v: Value = serde_json::from_slice(&out.stdout).expect("JSON");
     assert_eq!(v["id_column"], "heat", "{v}");
     assert_eq!(v["rows"][3]["id"], "FH-2004", "{v}");
+    // the graded verdict beside in_domain: false only for outside
+    assert_eq!(v["rows"][3]["domain"], "outside", "{v}");
+    assert_eq!(v["rows"][3]["in_domain"], false, "{v}");
     assert!(v["rows"][0]["estimates"]["y"]["sd"].is_number(), "{v}");
     assert!(v["targets"]["y"]["shape"].is_string(), "{v}");
 }

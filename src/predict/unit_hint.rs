@@ -95,9 +95,9 @@ impl Model {
 
     /// The table's declared units applied ([`Model::apply_declared_units`]),
     /// and a refusal when a column the table did not declare looks as if
-    /// it were in another unit than the model's: some of its values lie
-    /// outside the training range as read, every one inside it read in
-    /// another unit of its quantity. (A column really in the model's unit
+    /// it were in another unit than the model's: two or more of its values
+    /// (or the only one) lie outside the training range as read, every one
+    /// inside it read in another unit of its quantity. (A column really in the model's unit
     /// with an odd value is accepted once its header says so.)
     ///
     /// # Errors
@@ -121,7 +121,10 @@ impl Model {
                 continue;
             }
             let as_read = col.iter().filter(|&&v| r.inside(v)).count();
-            if as_read == col.len() {
+            // one odd row among others gets its note; two or more (or the
+            // only row) make a pattern
+            let outside = col.len() - as_read;
+            if outside == 0 || (outside < 2 && outside < col.len()) {
                 continue;
             }
             let other = r.others().find(|&u| {
