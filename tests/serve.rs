@@ -215,10 +215,7 @@ fn predict_as_a_workbook_gives_the_command_lines_bytes() {
     ]);
     assert!(ok, "{err}");
     let want = std::fs::read(&out).expect("workbook");
-    let url = format!(
-        "{}/api/models/fellhaven_welds/predict?format=xlsx",
-        s.url
-    );
+    let url = format!("{}/api/models/fellhaven_welds/predict?format=xlsx", s.url);
     let mut r = agent()
         .post(&url)
         .header("Content-Type", "text/csv")

@@ -281,12 +281,7 @@ async fn a_qa_engineer_estimates_heats_in_the_browser() {
             .expect("centre")
             .parse()
             .expect("number");
-        assert_eq!(
-            v,
-            centre(&want, i, "charpy_j"),
-            "row {}",
-            i + 1
-        );
+        assert_eq!(v, centre(&want, i, "charpy_j"), "row {}", i + 1);
     }
     // download the CSV: the bytes `mettle predict --format csv` writes
     c.find(Locator::Id("download-csv"))

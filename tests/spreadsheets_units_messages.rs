@@ -320,7 +320,13 @@ fn an_undeclared_fahrenheit_column_is_refused_and_a_declared_one_is_shown_in_its
     }
     // the same refusal from screen
     let sargs = [
-        "screen", "--model", &model, "--input", "f.csv", "--require", "uts_mpa>=500",
+        "screen",
+        "--model",
+        &model,
+        "--input",
+        "f.csv",
+        "--require",
+        "uts_mpa>=500",
     ];
     let out = w.run(&sargs);
     assert_eq!(out.status.code(), Some(2), "{}", describe(&sargs, &out));

@@ -10,7 +10,9 @@ use mettle::data::{AtomicFile, Table};
 use mettle::domain::DomainLevel;
 use mettle::model::IntervalKind;
 use mettle::prec::PREDICT_BATCH_ROWS;
-use mettle::predict::{EstimateBatch, EstimateFormat, EstimateLayout, EstimateWriter, RowPrediction};
+use mettle::predict::{
+    EstimateBatch, EstimateFormat, EstimateLayout, EstimateWriter, RowPrediction,
+};
 
 use super::output::{aligned, emit, num, wrap, Format, DEFAULT_DIGITS};
 use super::CAUTION;
@@ -108,7 +110,8 @@ pub fn run(a: PredictArgs) -> anyhow::Result<()> {
     // the input is read, estimated and written a batch at a time, so a
     // file of millions of rows is estimated in bounded memory
     let rows_per_batch = usize::try_from(a.batch_rows).unwrap_or(usize::MAX);
-    let mut batches = Table::read_sheet_batches(&a.input, rows_per_batch, a.sheet.as_deref())?.peekable();
+    let mut batches =
+        Table::read_sheet_batches(&a.input, rows_per_batch, a.sheet.as_deref())?.peekable();
     // the identifier column is chosen on the first batch and kept
     let first = match batches.peek() {
         Some(Ok(first)) => Some(first),
@@ -215,15 +218,13 @@ impl Tally {
     fn add(&mut self, rows: &[RowPrediction]) {
         self.rows += rows.len();
         self.out_of_domain += rows.iter().filter(|r| !r.in_domain).count();
-        self.thin += rows
-            .iter()
-            .filter(|r| r.level == DomainLevel::Thin)
-            .count();
+        self.thin += rows.iter().filter(|r| r.level == DomainLevel::Thin).count();
     }
 }
 
 fn to_table(layout: &EstimateLayout, batches: &[EstimateBatch], wide: bool) -> String {
-    let unit_of = |c: &mettle::predict::TargetColumn| c.unit.map_or(String::new(), |u| format!(" [{u}]"));
+    let unit_of =
+        |c: &mettle::predict::TargetColumn| c.unit.map_or(String::new(), |u| format!(" [{u}]"));
     let lead = |h: &mut Vec<String>| {
         h.push("row".into());
         if let Some(c) = &layout.id_column {

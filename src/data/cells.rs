@@ -76,7 +76,6 @@ pub fn sig(v: f64, digits: usize) -> String {
     s
 }
 
-
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -92,5 +91,4 @@ mod tests {
         assert_eq!(sig(0.0, 6), "0");
         assert_eq!(sig(30.0, 6), "30");
     }
-
 }

@@ -3,8 +3,8 @@
 //! what each column is ([`schema`]).
 
 mod atomic;
-pub mod cells;
 pub mod audit;
+pub mod cells;
 mod derived;
 pub mod draft;
 mod fingerprint;

@@ -223,7 +223,12 @@ impl Table {
                 format!("column '{name}' does not fit the table"),
             ));
         }
-        if self.names.iter().enumerate().any(|(k, n)| k != i && *n == name) {
+        if self
+            .names
+            .iter()
+            .enumerate()
+            .any(|(k, n)| k != i && *n == name)
+        {
             return Err(read_error(
                 &self.source,
                 format!("column name '{name}' appears twice (columns must be unique)"),

@@ -16,13 +16,13 @@ mod unit_hint;
 
 pub use declared_units::UnitDeclaration;
 pub use distribution::PredictiveForm;
-pub use unit_hint::UnitHint;
 pub use domain::{range_check, DomainGuard, DomainReport};
 pub use output::{
     header_cells, json_head, json_row, row_cells, to_column_units, EstimateBatch, EstimateFormat,
     EstimateLayout, EstimateWriter, TargetColumn, CAUTION,
 };
 pub use rows::{estimate_rows, TargetRows};
+pub use unit_hint::UnitHint;
 
 use ndarray::Array2;
 use serde::Serialize;

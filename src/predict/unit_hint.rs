@@ -116,7 +116,12 @@ impl Model {
                 continue;
             }
             let Some(r) = self.reading(j) else { continue };
-            let col: Vec<f64> = raw.column(j).iter().copied().filter(|v| v.is_finite()).collect();
+            let col: Vec<f64> = raw
+                .column(j)
+                .iter()
+                .copied()
+                .filter(|v| v.is_finite())
+                .collect();
             if col.is_empty() {
                 continue;
             }
@@ -127,10 +132,9 @@ impl Model {
             if outside == 0 || (outside < 2 && outside < col.len()) {
                 continue;
             }
-            let other = r.others().find(|&u| {
-                col.iter()
-                    .all(|&v| r.inside(r.reread(u, r.in_file(v))))
-            });
+            let other = r
+                .others()
+                .find(|&u| col.iter().all(|&v| r.inside(r.reread(u, r.in_file(v)))));
             let Some(u) = other else { continue };
             let name = &self.inputs[j].name;
             let values: Vec<String> = col

@@ -201,8 +201,7 @@ async fn predict(
         let mut buf = Vec::new();
         let mut w = EstimateWriter::start(&mut buf, format, &layout)
             .map_err(|x| Reply::internal(x.to_string()))?;
-        w.rows(&est)
-            .map_err(|x| Reply::internal(x.to_string()))?;
+        w.rows(&est).map_err(|x| Reply::internal(x.to_string()))?;
         w.finish().map_err(|x| Reply::internal(x.to_string()))?;
         Ok(buf)
     })
@@ -210,9 +209,7 @@ async fn predict(
     let kind = match format {
         EstimateFormat::Csv => "text/csv; charset=utf-8",
         EstimateFormat::Json => "application/json",
-        EstimateFormat::Xlsx => {
-            "application/vnd.openxmlformats-officedocument.spreadsheetml.sheet"
-        }
+        EstimateFormat::Xlsx => "application/vnd.openxmlformats-officedocument.spreadsheetml.sheet",
     };
     Ok(([(header::CONTENT_TYPE, kind)], out).into_response())
 }

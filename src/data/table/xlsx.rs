@@ -50,16 +50,20 @@ pub(super) fn read(path: &Path, sheet: Option<&str>) -> Result<Table> {
         .map_err(|e| read_error(path, format!("cannot open the workbook ({e})")))?;
     let names = book.sheet_names();
     let name = match sheet {
-        Some(s) => names.iter().find(|n| n.as_str() == s).cloned().ok_or_else(|| {
-            read_error(
-                path,
-                format!(
-                    "no sheet named '{s}'{}; the sheets are: {}",
-                    crate::data::suggest::did_you_mean(s, &names),
-                    names.join(", ")
-                ),
-            )
-        })?,
+        Some(s) => names
+            .iter()
+            .find(|n| n.as_str() == s)
+            .cloned()
+            .ok_or_else(|| {
+                read_error(
+                    path,
+                    format!(
+                        "no sheet named '{s}'{}; the sheets are: {}",
+                        crate::data::suggest::did_you_mean(s, &names),
+                        names.join(", ")
+                    ),
+                )
+            })?,
         None => names
             .first()
             .cloned()
