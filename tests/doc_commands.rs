@@ -107,15 +107,11 @@ fn commands(text: &str) -> Vec<Documented> {
 fn drifted<'a>(pasted: &'a [String], printed: &str) -> Option<&'a str> {
     let mut lines = printed.lines().map(str::trim_end);
     // blank lines carry nothing to check
-    for want in pasted
+    pasted
         .iter()
         .filter(|l| !l.trim().is_empty() && l.trim() != "...")
-    {
-        if !lines.any(|got| got == want) {
-            return Some(want);
-        }
-    }
-    None
+        .find(|want| !lines.any(|got| got == want.as_str()))
+        .map(String::as_str)
 }
 
 fn link(from: &Path, to: &Path) {
