@@ -45,7 +45,7 @@ pub enum Error {
         problem: String,
     },
     /// A column that was asked for is not in the table.
-    #[error("{path}: no column named '{name}'; the columns are: {available}")]
+    #[error("{path}: no column named '{name}'{suggestion}; the columns are: {available}")]
     MissingColumn {
         /// The file.
         path: String,
@@ -53,6 +53,8 @@ pub enum Error {
         name: String,
         /// The columns the file has.
         available: String,
+        /// " (did you mean 'X'?)" when a column's name is close, else empty.
+        suggestion: String,
     },
     /// A setting is outside its valid range.
     #[error("invalid {name} = {value}: {expected}")]
@@ -154,8 +156,10 @@ pub enum Error {
         /// Their sum, wt%.
         total: f64,
     },
-    /// Rows lack input values; nothing is imputed.
-    #[error("{path}: input values are missing in {n_rows} row(s), and nothing is ever filled in: {detail}. Complete them, or leave such rows out explicitly (option drop_incomplete_rows; CLI --drop-incomplete-rows)")]
+    /// Rows lack input values; nothing is imputed. Training may leave such
+    /// rows out explicitly (option `drop_incomplete_rows`); the CLI adds
+    /// the remedy that fits the command.
+    #[error("{path}: input values are missing in {n_rows} row(s), and nothing is ever filled in: {detail}")]
     MissingInputs {
         /// The data file.
         path: String,

@@ -334,3 +334,7 @@ pub const MODE_MIN_ROWS: usize = 8;
 
 /// Smallest share of a column's values that can form a mode.
 pub const MODE_MIN_SHARE: f64 = 0.02;
+/// Largest edit distance at which a column name of 5 letters or more is
+/// offered as "did you mean" for a name not found: two slips (a swapped
+/// pair counts one). Common practice, no source.
+pub const SUGGEST_MAX_EDITS: usize = 2;

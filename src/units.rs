@@ -89,11 +89,19 @@ pub enum Quantity {
     Current,
     /// A pure number (internal unit 1).
     Dimensionless,
+    /// Vickers hardness (HV). The hardness scales are not converted into
+    /// one another: conversion tables (ISO 18265, ASTM E140) hold only for
+    /// some steels and conditions, so each scale is its own quantity.
+    HardnessVickers,
+    /// Brinell hardness (HB, HBW).
+    HardnessBrinell,
+    /// Rockwell C hardness (HRC).
+    HardnessRockwellC,
 }
 
 impl Quantity {
     /// All quantities, in declaration order.
-    pub const ALL: [Quantity; 12] = [
+    pub const ALL: [Quantity; 15] = [
         Quantity::Composition,
         Quantity::Temperature,
         Quantity::ImpactEnergy,
@@ -106,6 +114,9 @@ impl Quantity {
         Quantity::Voltage,
         Quantity::Current,
         Quantity::Dimensionless,
+        Quantity::HardnessVickers,
+        Quantity::HardnessBrinell,
+        Quantity::HardnessRockwellC,
     ];
 
     /// Human-readable name of the quantity.
@@ -123,6 +134,9 @@ impl Quantity {
             Quantity::Voltage => "voltage",
             Quantity::Current => "current",
             Quantity::Dimensionless => "dimensionless",
+            Quantity::HardnessVickers => "Vickers hardness",
+            Quantity::HardnessBrinell => "Brinell hardness",
+            Quantity::HardnessRockwellC => "Rockwell C hardness",
         }
     }
 }
@@ -178,6 +192,12 @@ pub enum Unit {
     Ampere,
     /// A pure number.
     Dimensionless,
+    /// Vickers hardness number.
+    Hv,
+    /// Brinell hardness number.
+    Hb,
+    /// Rockwell C hardness number.
+    Hrc,
 }
 
 /// Errors raised while parsing or converting units.
@@ -207,7 +227,7 @@ pub enum UnitError {
 
 impl Unit {
     /// All units, in declaration order.
-    pub const ALL: [Unit; 21] = [
+    pub const ALL: [Unit; 24] = [
         Unit::WtPercent,
         Unit::Ppm,
         Unit::Celsius,
@@ -229,6 +249,9 @@ impl Unit {
         Unit::Volt,
         Unit::Ampere,
         Unit::Dimensionless,
+        Unit::Hv,
+        Unit::Hb,
+        Unit::Hrc,
     ];
 
     /// Accepted spellings, compared after trimming, removing inner spaces and
@@ -257,6 +280,9 @@ impl Unit {
             Unit::Volt => &["v", "volt", "volts"],
             Unit::Ampere => &["a", "amp", "ampere", "amperes"],
             Unit::Dimensionless => &["", "1", "-"],
+            Unit::Hv => &["hv", "hv10", "hv5", "hv1", "hv30"],
+            Unit::Hb => &["hb", "hbw", "hbs"],
+            Unit::Hrc => &["hrc"],
         }
     }
 
@@ -328,6 +354,9 @@ impl Unit {
             Unit::Volt => "V",
             Unit::Ampere => "A",
             Unit::Dimensionless => "1",
+            Unit::Hv => "HV",
+            Unit::Hb => "HB",
+            Unit::Hrc => "HRC",
         }
     }
 
@@ -357,6 +386,9 @@ impl Unit {
             Unit::Volt => Quantity::Voltage,
             Unit::Ampere => Quantity::Current,
             Unit::Dimensionless => Quantity::Dimensionless,
+            Unit::Hv => Quantity::HardnessVickers,
+            Unit::Hb => Quantity::HardnessBrinell,
+            Unit::Hrc => Quantity::HardnessRockwellC,
         }
     }
 
@@ -376,6 +408,9 @@ impl Unit {
             Quantity::Voltage => Unit::Volt,
             Quantity::Current => Unit::Ampere,
             Quantity::Dimensionless => Unit::Dimensionless,
+            Quantity::HardnessVickers => Unit::Hv,
+            Quantity::HardnessBrinell => Unit::Hb,
+            Quantity::HardnessRockwellC => Unit::Hrc,
         }
     }
 
@@ -435,7 +470,10 @@ impl Unit {
             | Unit::Second
             | Unit::Volt
             | Unit::Ampere
-            | Unit::Dimensionless => 1.0,
+            | Unit::Dimensionless
+            | Unit::Hv
+            | Unit::Hb
+            | Unit::Hrc => 1.0,
         }
     }
 

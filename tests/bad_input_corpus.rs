@@ -18,7 +18,7 @@ use std::process::Output;
 
 use common::{
     describe, fixture_csv, fixture_truth, set_cell, stderr, weld_csv, weld_schema, welds,
-    with_rows, Workdir, INTERNAL_UNITS,
+    with_rows, Workdir, INTERNAL_UNITS, US_SHEET_UNITS,
 };
 use serde_json::Value;
 
@@ -34,6 +34,24 @@ struct Case {
     args: Vec<String>,
     code: i32,
     want: Vec<String>,
+}
+
+/// A workbook holding `csv` (numbers as numbers) in a sheet `sheet`.
+fn workbook_bytes(sheet: &str, csv: &str) -> Vec<u8> {
+    let mut book = rust_xlsxwriter::Workbook::new();
+    let ws = book.add_worksheet();
+    ws.set_name(sheet).expect("sheet name");
+    for (i, line) in csv.lines().enumerate() {
+        for (j, cell) in line.split(',').enumerate() {
+            let (r, c) = (i as u32, j as u16);
+            match cell.parse::<f64>() {
+                Ok(v) if i > 0 => ws.write_number(r, c, v).map(|_| ()),
+                _ => ws.write_string(r, c, cell).map(|_| ()),
+            }
+            .expect("cell");
+        }
+    }
+    book.save_to_buffer().expect("workbook bytes")
 }
 
 fn case(
@@ -59,6 +77,15 @@ fn strings(v: &[&str]) -> Vec<String> {
 /// `mettle train --data DATA --target y --out m.json` with quick settings.
 fn train(data: &str) -> Vec<String> {
     let mut v = strings(&["train", "--data", data, "--target", "y", "--out", "m.json"]);
+    v.extend(strings(&QUICK));
+    v
+}
+
+/// `mettle train --data DATA --target TARGET --out m.json`, quick settings.
+fn train_with_target(data: &str, target: &str) -> Vec<String> {
+    let mut v = strings(&[
+        "train", "--data", data, "--target", target, "--out", "m.json",
+    ]);
     v.extend(strings(&QUICK));
     v
 }
@@ -734,6 +761,106 @@ fn corpus(m: &Models) -> Vec<Case> {
             2,
             &["q.csv", "'y'"],
         ),
+        // ---- a real archive's workflow: names, spreadsheets, units, messages
+        case(
+            "a target name wrongly cased",
+            vec![("d.csv", fx())],
+            train_with_target("d.csv", "Y"),
+            2,
+            &["d.csv", "no column named 'Y'", "did you mean 'y'"],
+        ),
+        case(
+            "a target name misspelt",
+            vec![("d.csv", bytes(fixture_csv(40, 3).replacen("y\n", "uts_mpa\n", 1)))],
+            train_with_target("d.csv", "uts_mpx"),
+            2,
+            &["d.csv", "'uts_mpx'", "did you mean 'uts_mpa'"],
+        ),
+        case(
+            "numbers written with a decimal comma",
+            vec![("d.csv", bytes("x1,x2,y\n0,5,1,25,2,5\n0,1,0,5,1,0\n"))],
+            train("d.csv"),
+            2,
+            &["d.csv", "row 1 (line 2)", "6 cells, but the header has 3", "decimal comma"],
+        ),
+        case(
+            "a model file that is not there",
+            vec![("q.csv", query())],
+            predict("nope.json", "q.csv"),
+            2,
+            &["the model file nope.json", "nope.json: cannot read"],
+        ),
+        case(
+            "a heat without an input value at prediction",
+            vec![
+                ("m.json", m.weld.clone()),
+                ("q.csv", weld_with(2, "mn", "")),
+            ],
+            predict("m.json", "q.csv"),
+            2,
+            &["q.csv", "input values are missing", "complete rows only"],
+        ),
+        case(
+            "a column in another unit than the model's, undeclared (J/mm under a kJ/mm name)",
+            vec![
+                ("m.json", m.weld.clone()),
+                ("q.csv", bytes(weld_csv(&welds(6, 12), &US_SHEET_UNITS))),
+            ],
+            predict("m.json", "q.csv"),
+            2,
+            &["q.csv", "column heat_input", "inside it read as J/mm", "Declare its unit in the header"],
+        ),
+        case(
+            "a damaged spreadsheet workbook given as the table",
+            vec![("d.xlsx", b"PK\x03\x04\x14\x00\x06\x00\x08\x00binary zip content".to_vec())],
+            train("d.xlsx"),
+            2,
+            &["d.xlsx", "cannot open the workbook"],
+        ),
+        case(
+            "a workbook without the sheet named",
+            vec![("d.xlsx", workbook_bytes("welds", &fixture_csv(40, 3)))],
+            {
+                let mut v = train("d.xlsx");
+                v.extend(strings(&["--sheet", "Welds"]));
+                v
+            },
+            2,
+            &["d.xlsx", "no sheet named 'Welds'", "did you mean 'welds'", "the sheets are: welds"],
+        ),
+        case(
+            "a sheet named for a CSV file",
+            vec![("d.csv", fx())],
+            {
+                let mut v = train("d.csv");
+                v.extend(strings(&["--sheet", "welds"]));
+                v
+            },
+            2,
+            &["d.csv", "not a spreadsheet workbook"],
+        ),
+        case(
+            "an identifier column that is not there",
+            vec![("m.json", plain()), ("q.csv", query())],
+            {
+                let mut v = predict("m.json", "q.csv");
+                v.extend(strings(&["--id", "X1"]));
+                v
+            },
+            2,
+            &["q.csv", "no column named 'X1'", "did you mean 'x1'"],
+        ),
+        case(
+            "a schema target that the schema does not declare",
+            vec![("w.csv", weld()), ("w.toml", schema())],
+            {
+                let mut v = train_schema("w.csv", "w.toml");
+                v.extend(strings(&["--target", "UTS"]));
+                v
+            },
+            2,
+            &["w.toml", "declares no target 'UTS'", "did you mean 'uts'"],
+        ),
         // ---- where the output goes
         case(
             "train into a directory that does not exist",
@@ -835,8 +962,7 @@ fn json_rows(w: &Workdir, model: &str, input: &str) -> Vec<Value> {
     let out = w.ok(&[
         "predict", "--model", model, "--input", input, "--format", "json",
     ]);
-    let v: Value = serde_json::from_slice(&out.stdout).expect("predict JSON");
-    v.as_array().expect("predict JSON is an array").clone()
+    common::predict_rows(&out.stdout)
 }
 
 fn trained_ok(w: &Workdir, data: &str, extra: &[&str]) -> (Value, String) {

@@ -81,8 +81,8 @@ fn bundled_model_loads_matches_its_data_and_estimates() {
         "--format",
         "json",
     ]);
-    let rows: Value = serde_json::from_slice(&out.stdout).expect("JSON estimates");
-    let rows = rows.as_array().expect("array of rows");
+    let v: Value = serde_json::from_slice(&out.stdout).expect("JSON estimates");
+    let rows = v["rows"].as_array().expect("array of rows");
     assert_eq!(rows.len(), 8);
     for r in rows {
         for t in &targets {

@@ -96,7 +96,10 @@ fn predict_json_has_one_object_per_row_with_error_bars_and_domain() {
     ];
     let out = w.ok(&args);
     let v = json(&args, &out);
-    let rows = v.as_array().expect("predict JSON is an array");
+    // the safety caution travels with the estimates, once per file
+    let caution = v["caution"].as_str().expect("caution is a string");
+    assert!(caution.contains("not test results"), "{v}");
+    let rows = common::predict_rows(&out.stdout);
     assert_eq!(rows.len(), 4, "one object per query row");
     let query: Vec<(f64, f64)> = QUERY
         .lines()
@@ -115,9 +118,10 @@ fn predict_json_has_one_object_per_row_with_error_bars_and_domain() {
         assert!((hi - (mean + Z975 * sd)).abs() <= 1e-5 * sd, "{r}");
         let in_domain = r["in_domain"].as_bool().expect("in_domain is a bool");
         let notes = r["notes"].as_array().expect("notes is an array");
-        // the safety caution travels with every estimate in a file
-        let caution = r["caution"].as_str().expect("caution is a string");
-        assert!(caution.contains("not a test result"), "{r}");
+        assert!(
+            r.get("caution").is_none(),
+            "the caution is not repeated per row: {r}"
+        );
         if x1 <= 1.0 {
             assert!(in_domain && notes.is_empty(), "{r}");
             // the generator's own function: an in-domain estimate is within
@@ -167,6 +171,7 @@ fn predict_csv_and_table_carry_the_same_estimates() {
     ];
     let jout = w.ok(&jargs);
     let j = json(&jargs, &jout);
+    let jrows = common::predict_rows(&jout.stdout);
 
     let cargs = [
         "predict",
@@ -187,27 +192,30 @@ fn predict_csv_and_table_carry_the_same_estimates() {
     let body: Vec<&str> = lines.collect();
     assert_eq!(body.len(), 4, "{text}");
     let col = |name: &str| header.iter().position(|h| *h == name).expect("column");
-    for (line, r) in body.iter().zip(j.as_array().expect("array")) {
+    for (k, (line, r)) in body.iter().zip(&jrows).enumerate() {
         // the last cell (notes) may hold commas inside quotes; the numbers
         // come first
         let cells: Vec<&str> = line.split(',').collect();
-        for (c, k) in [("y_mean", "mean"), ("y_sd", "sd"), ("y_lo95", "lo95")] {
-            let v: f64 = cells[col(c)].parse().expect("number");
-            assert!(
-                (v - num(r, k)).abs() <= 1e-12 * v.abs().max(1.0),
-                "{line} vs {r}"
-            );
+        // CSV numbers carry 6 significant digits (the default of --digits)
+        for (c, key) in [("y_mean", "mean"), ("y_sd", "sd"), ("y_lo95", "lo95")] {
+            let text = cells[col(c)];
+            let v: f64 = text.parse().expect("number");
+            assert!((v - num(r, key)).abs() <= 5e-6 * v.abs(), "{line} vs {r}");
+            let digits = text.trim_start_matches('-').replace('.', "");
+            assert!(digits.trim_start_matches('0').len() <= 6, "{text}");
         }
         assert_eq!(
             cells[col("in_domain")],
             r["in_domain"].to_string(),
             "{line}"
         );
-        assert!(
-            line.ends_with(&format!("\"{}\"", r["caution"].as_str().expect("caution")))
-                || line.ends_with(r["caution"].as_str().expect("caution")),
-            "{line}"
-        );
+        // the caution once per file: in the first row's last cell
+        let caution = j["caution"].as_str().expect("caution");
+        if k == 0 {
+            assert!(line.ends_with(&format!("\"{caution}\"")), "{line}");
+        } else {
+            assert!(line.ends_with(','), "{line}");
+        }
     }
     assert!(
         body[3].contains("x1"),
@@ -223,7 +231,14 @@ fn predict_csv_and_table_carry_the_same_estimates() {
         .lines()
         .find(|l| l.trim_start().starts_with("4 "))
         .unwrap_or_else(|| panic!("no row 4 in\n{table}"));
-    assert!(row4.contains("OUT") && row4.contains("x1"), "{row4}");
+    // the verdict near the left, its notes below the table
+    assert!(row4.contains("OUT"), "{row4}");
+    assert!(row4.find("OUT") < row4.find('.'), "{row4}");
+    let note4 = table
+        .lines()
+        .find(|l| l.trim_start().starts_with("row 4:"))
+        .unwrap_or_else(|| panic!("no note for row 4 in\n{table}"));
+    assert!(note4.contains("OUT") && note4.contains("x1"), "{note4}");
     assert!(
         table.contains("not test results"),
         "caution missing:\n{table}"
@@ -273,14 +288,13 @@ fn evaluate_json_matches_metrics_recomputed_from_predict() {
         "json",
     ];
     let pout = w.ok(&pargs);
-    let p = json(&pargs, &pout);
+    let rows = common::predict_rows(&pout.stdout);
     let measured: Vec<f64> = String::from_utf8(w.read("test.csv"))
         .expect("utf-8")
         .lines()
         .skip(1)
         .map(|l| l.rsplit(',').next().expect("y").parse().expect("number"))
         .collect();
-    let rows = p.as_array().expect("array");
     assert_eq!(rows.len(), measured.len());
     let n = measured.len() as f64;
     // the model's share of gross errors (docs/method.md §6b; Box & Tiao

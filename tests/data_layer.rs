@@ -669,18 +669,21 @@ fn the_schema_example_in_the_docs_trains_and_predicts() {
         "declared",
     ];
     let out = w.ok(&args);
-    let rows: Vec<Value> = serde_json::from_slice(&out.stdout).expect("predict JSON");
-    assert_eq!(rows.len(), 4);
-    for r in &rows {
-        let e = &r["estimates"];
-        for (target, unit, kind) in [
-            ("yield", "ksi", "normal"),
-            ("elongation", "%", "logit_normal"),
-            ("cvn_ftlbf", "ft·lbf", "log_normal"),
-        ] {
-            assert_eq!(e[target]["unit"], unit, "{}", describe(&args, &out));
-            assert_eq!(e[target]["interval_kind"], kind, "{r}");
+    let v: Value = serde_json::from_slice(&out.stdout).expect("predict JSON");
+    assert_eq!(v["rows"].as_array().map(Vec::len), Some(4));
+    for r in v["rows"].as_array().expect("rows") {
+        for target in ["yield", "elongation", "cvn_ftlbf"] {
+            assert!(r["estimates"][target]["sd"].is_number(), "{r}");
         }
+    }
+    for (target, unit, kind) in [
+        ("yield", "ksi", "normal"),
+        ("elongation", "%", "logit_normal"),
+        ("cvn_ftlbf", "ft·lbf", "log_normal"),
+    ] {
+        let t = &v["targets"][target];
+        assert_eq!(t["unit"], unit, "{}", describe(&args, &out));
+        assert_eq!(t["interval_kind"], kind, "{t}");
     }
 }
 

@@ -75,6 +75,8 @@ fn model_file_is_byte_identical_for_one_and_two_threads() {
             "query.csv",
             "--format",
             "csv",
+            "--digits",
+            "17",
         ];
         let mut c = w.command(&args);
         c.env("RAYON_NUM_THREADS", threads);

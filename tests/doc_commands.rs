@@ -7,6 +7,12 @@
 //! sees the repository's `datasets/` and `models/` (the bundled invented
 //! data) and has an empty `out/`. A command that exits non-zero, or any
 //! panic, fails the test with the file and line of the command.
+//!
+//! Output pasted after a `$ mettle …` command (up to the end of its block)
+//! is the document's worked example: each pasted line must be a line of
+//! what the binary prints now, in the same order (a line `...` stands for
+//! lines left out; blank lines are not compared), so the worked numbers
+//! cannot drift from the program.
 
 mod common;
 
@@ -23,8 +29,16 @@ const DOCUMENTS: [&str; 5] = [
     "docs/screening.md",
 ];
 
-/// `(line number, arguments after "mettle")` of every command in `text`.
-fn commands(text: &str) -> Vec<(usize, Vec<String>)> {
+/// A documented command: its line, its arguments after "mettle", and the
+/// output pasted after it (for `$ mettle …`).
+struct Documented {
+    line: usize,
+    args: Vec<String>,
+    pasted: Vec<String>,
+}
+
+/// Every command in `text`.
+fn commands(text: &str) -> Vec<Documented> {
     let mut found = Vec::new();
     let mut in_block = false;
     let lines: Vec<&str> = text.lines().collect();
@@ -37,6 +51,7 @@ fn commands(text: &str) -> Vec<(usize, Vec<String>)> {
             in_block = !in_block;
             continue;
         }
+        let shown_with_output = t.starts_with("$ mettle ");
         let Some(first) = t
             .strip_prefix("$ mettle ")
             .or_else(|| t.strip_prefix("mettle "))
@@ -72,9 +87,31 @@ fn commands(text: &str) -> Vec<(usize, Vec<String>)> {
                 a.trim_matches('\'').to_string()
             })
             .collect();
-        found.push((start, args));
+        let mut pasted = Vec::new();
+        if shown_with_output {
+            while i < lines.len() && !lines[i].trim_start().starts_with("```") {
+                pasted.push(lines[i].trim_end().to_string());
+                i += 1;
+            }
+        }
+        found.push(Documented {
+            line: start,
+            args,
+            pasted,
+        });
     }
     found
+}
+
+/// The first pasted line (in order, `...` skipping) that the output lacks.
+fn drifted<'a>(pasted: &'a [String], printed: &str) -> Option<&'a str> {
+    let mut lines = printed.lines().map(str::trim_end);
+    // blank lines carry nothing to check
+    pasted
+        .iter()
+        .filter(|l| !l.trim().is_empty() && l.trim() != "...")
+        .find(|want| !lines.any(|got| got == want.as_str()))
+        .map(String::as_str)
 }
 
 fn link(from: &Path, to: &Path) {
@@ -139,19 +176,31 @@ fn documented_commands_run() {
     let mut n = 0;
     for doc in DOCUMENTS {
         let text = std::fs::read_to_string(repo.join(doc)).expect("document");
-        for (line, args) in commands(&text) {
-            let refs: Vec<&str> = args.iter().map(String::as_str).collect();
+        for c in commands(&text) {
+            let refs: Vec<&str> = c.args.iter().map(String::as_str).collect();
             if refs.first() == Some(&"serve") {
-                serve_starts_and_stops(&w, &refs, doc, line);
+                serve_starts_and_stops(&w, &refs, doc, c.line);
                 n += 1;
                 continue;
             }
             let out = w.run(&refs);
             assert!(
                 out.status.success(),
-                "{doc}:{line}: documented command failed\n{}",
+                "{doc}:{}: documented command failed\n{}",
+                c.line,
                 describe(&refs, &out)
             );
+            // as a terminal shows it: what goes to stderr while the command
+            // works (a chart written), then the output
+            let printed = String::from_utf8_lossy(&out.stderr).to_string()
+                + &String::from_utf8_lossy(&out.stdout);
+            if let Some(line) = drifted(&c.pasted, &printed) {
+                panic!(
+                    "{doc}:{}: the worked output has drifted from the program's; this line is not printed (in order):\n{line}\n{}",
+                    c.line,
+                    describe(&refs, &out)
+                );
+            }
             n += 1;
         }
     }

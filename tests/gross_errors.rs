@@ -229,7 +229,7 @@ fn mis_keyed_results_are_kept_apart_and_named() {
             "--format",
             "json",
         ]);
-        serde_json::from_slice(&out.stdout).expect("JSON")
+        common::predict_rows(&out.stdout)
     };
     let truth: Vec<f64> = fresh_csv_targets(&w, "fresh.csv");
     let summary = |model: &str| -> (f64, f64) {
@@ -331,7 +331,7 @@ fn a_clean_archive_keeps_the_gaussian() {
             "--format",
             "json",
         ]);
-        let v: Vec<Value> = serde_json::from_slice(&out.stdout).expect("JSON");
+        let v: Vec<Value> = common::predict_rows(&out.stdout);
         v.iter()
             .map(|r| {
                 (
@@ -402,4 +402,80 @@ fn heavy_tailed_scatter_gets_a_heavy_shape() {
     );
     let text = stdout(&w.ok(&["explain", "--model", "with.json"]));
     assert!(text.contains("Student-t"), "{text}");
+}
+
+/// predict's output holds the whole predictive distribution: with the
+/// form of each target (shape, degrees of freedom ν, share π of gross
+/// errors and that part's mean and sd) and each row's mean and sd, a few
+/// lines reproduce the NLPD `evaluate` reports. The Student-t density is
+/// written out from its definition (Student 1908; as in NIST/SEMATECH
+/// e-Handbook §1.3.6.6.4): f_ν(t) = Γ((ν+1)/2) / (√(νπ)·Γ(ν/2)) ·
+/// (1 + t²/ν)^(−(ν+1)/2), used with unit variance, scale a·s, a = √((ν−2)/ν).
+#[test]
+fn predict_output_reproduces_evaluates_nlpd_for_a_student_t_model_with_gross_errors() {
+    use statrs::function::gamma::ln_gamma;
+    let w = Workdir::new();
+    let (train_csv, _) = archive_with_scatter(700, MIS_KEYED, 31, Some(4.0));
+    let (fresh_csv, _) = archive_with_scatter(300, MIS_KEYED, 32, Some(4.0));
+    w.write("archive.csv", train_csv);
+    w.write("fresh.csv", fresh_csv);
+    train(&w, "archive.csv", "m.json", &[]);
+    let pargs = [
+        "predict",
+        "--model",
+        "m.json",
+        "--input",
+        "fresh.csv",
+        "--format",
+        "json",
+    ];
+    let out = w.ok(&pargs);
+    let p: Value = serde_json::from_slice(&out.stdout).expect("predict JSON");
+    let form = &p["targets"]["uts_mpa"];
+    assert_eq!(form["shape"], "student_t", "{form}");
+    assert_eq!(form["scale"], "target", "{form}");
+    let f = |k: &str| form[k].as_f64().unwrap_or_else(|| panic!("{k} in {form}"));
+    let (nu, share, gm, gs) = (
+        f("dof"),
+        f("gross_error_share"),
+        f("gross_error_mean"),
+        f("gross_error_sd"),
+    );
+    assert!(share > 0.0, "{form}");
+    let truth = fresh_csv_targets(&w, "fresh.csv");
+    let rows = p["rows"].as_array().expect("rows");
+    assert_eq!(rows.len(), truth.len());
+    let ln_t = |t: f64| {
+        ln_gamma((nu + 1.0) / 2.0)
+            - ln_gamma(nu / 2.0)
+            - 0.5 * (nu * std::f64::consts::PI).ln()
+            - (nu + 1.0) / 2.0 * (1.0 + t * t / nu).ln()
+    };
+    let normal = |y: f64, m: f64, s: f64| {
+        (-(y - m).powi(2) / (2.0 * s * s)).exp() / (s * (2.0 * std::f64::consts::PI).sqrt())
+    };
+    let a = ((nu - 2.0) / nu).sqrt();
+    let mut nlpd = 0.0;
+    for (r, y) in rows.iter().zip(&truth) {
+        let e = &r["estimates"]["uts_mpa"];
+        let (m, s) = (
+            e["mean"].as_f64().expect("mean"),
+            e["sd"].as_f64().expect("sd"),
+        );
+        let clean = (ln_t((y - m) / (a * s)) - (a * s).ln()).exp();
+        nlpd -= ((1.0 - share) * clean + share * normal(*y, gm, gs)).ln();
+    }
+    nlpd /= truth.len() as f64;
+    let e = evaluate(&w, "m.json", "fresh.csv");
+    let reported = e["nlpd"].as_f64().expect("nlpd");
+    assert!(
+        (nlpd - reported).abs() <= 1e-9 * reported.abs(),
+        "recomputed {nlpd}, evaluate {reported}"
+    );
+    assert!(
+        e["nlpd_scores"]
+            .as_str()
+            .is_some_and(|s| s.contains("gross")),
+        "{e}"
+    );
 }

@@ -278,7 +278,7 @@ fn train_kriging_on_and_off_through_the_binary() {
             "--format",
             "json",
         ]);
-        serde_json::from_slice::<Vec<serde_json::Value>>(&out.stdout).expect("JSON array")
+        common::predict_rows(&out.stdout)
     };
     let truth = pending.numeric("charpy_j").expect("truth");
     let (mut err_on, mut err_off) = (0.0, 0.0);

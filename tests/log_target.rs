@@ -11,7 +11,7 @@ mod common;
 
 use std::fmt::Write as _;
 
-use common::{describe, Workdir};
+use common::Workdir;
 use rand::{Rng, SeedableRng};
 use rand_distr::{Distribution, Normal};
 use rand_xoshiro::Xoshiro256PlusPlus;
@@ -86,8 +86,7 @@ fn log_target_interval_covers_95_percent_of_fresh_lognormal_data() {
         "json",
     ];
     let out = w.ok(&args);
-    let rows: Vec<Value> = serde_json::from_slice(&out.stdout)
-        .unwrap_or_else(|e| panic!("{e}\n{}", describe(&args, &out)));
+    let rows: Vec<Value> = common::predict_rows(&out.stdout);
     let observed: Vec<f64> = fresh
         .lines()
         .skip(1)

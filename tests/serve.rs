@@ -194,6 +194,50 @@ fn predict_gives_the_command_lines_bytes() {
     assert_eq!(json(&got), json(&want));
 }
 
+/// The workbook the page's "Download workbook" button fetches: the bytes
+/// `mettle predict --out FILE.xlsx` writes for the same rows, heats named
+/// by the export's first column (the estimate writer's third format).
+#[test]
+fn predict_as_a_workbook_gives_the_command_lines_bytes() {
+    let s = start(&[]);
+    let input = root().join("datasets/fellhaven_new_welds_export.csv");
+    let csv = std::fs::read(&input).expect("table");
+    let dir = tempfile::tempdir().expect("tmp");
+    let out = dir.path().join("est.xlsx");
+    let (_, err, ok) = cli(&[
+        "predict",
+        "--model",
+        &model().display().to_string(),
+        "--input",
+        &input.display().to_string(),
+        "--out",
+        &out.display().to_string(),
+    ]);
+    assert!(ok, "{err}");
+    let want = std::fs::read(&out).expect("workbook");
+    let url = format!("{}/api/models/fellhaven_welds/predict?format=xlsx", s.url);
+    let mut r = agent()
+        .post(&url)
+        .header("Content-Type", "text/csv")
+        .send(&csv[..])
+        .expect("HTTP exchange");
+    assert_eq!(r.status().as_u16(), 200);
+    let kind = r
+        .headers()
+        .get("content-type")
+        .and_then(|v| v.to_str().ok())
+        .unwrap_or_default()
+        .to_string();
+    assert!(kind.contains("spreadsheetml"), "{kind}");
+    let got = r
+        .body_mut()
+        .with_config()
+        .limit(64 << 20)
+        .read_to_vec()
+        .expect("body");
+    assert_eq!(got, want);
+}
+
 /// The CLI's message for a bad table, without its `mettle: error: …: PATH: ` prefix.
 fn cli_message(table: &str) -> String {
     let dir = tempfile::tempdir().expect("tmp");

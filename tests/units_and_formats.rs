@@ -52,7 +52,7 @@ fn predict(w: &Workdir, model: &str, input: &str, units: &str) -> Vec<Value> {
             describe(&small, &batched)
         );
     }
-    serde_json::from_slice(&out.stdout).unwrap_or_else(|e| panic!("{e}\n{}", describe(&args, &out)))
+    common::predict_rows(&out.stdout)
 }
 
 fn field(row: &Value, key: &str) -> f64 {

@@ -4,8 +4,9 @@ use std::path::PathBuf;
 
 use clap::{Args, ValueEnum};
 use mettle::data::audit::{audit, AuditOptions, AuditReport};
-use mettle::data::schema::Schema;
-use mettle::data::Table;
+use mettle::data::schema::{Role, Schema};
+use mettle::data::{identifier_column, RowLabels, Table};
+use serde_json::json;
 
 use super::output::{aligned, emit, num};
 
@@ -42,13 +43,19 @@ them, not only the first). Without a schema, --target names the targets and ever
 holding numbers is taken as an input (or those given with --inputs).\n\n\
 JSON output: one object with keys file, n_rows, n_columns, columns, problems, problems_not_listed, \
 rows_missing_inputs, duplicates, duplicates_compared, replicates, correlated, outliers, clusters \
-(column and its modes, each with lo, hi, n), few_levels, verdict, notes. Rows are numbered from 1, header excluded.\n\n\
+(column and its modes, each with lo, hi, n), few_levels, verdict, notes, and with an identifier \
+column id_column (each outlier then has an id). Rows are numbered from 1, header excluded, and \
+named by their identifier: the column --id names, else the schema's identifier column, else a \
+first column of text (heat codes) that is not a target or input.\n\n\
 Example:\n  mettle audit --data welds.csv --schema welds.toml"
 )]
 pub struct AuditArgs {
-    /// Table to check (CSV with a header row, or Parquet).
-    #[arg(long, value_name = "FILE")]
+    /// Table to check (CSV with a header row, Parquet, or a spreadsheet workbook .xlsx).
+    #[arg(long, visible_alias = "input", value_name = "FILE")]
     data: PathBuf,
+    /// Sheet to read when the table is a spreadsheet workbook (.xlsx, .xls) [default: the first].
+    #[arg(long, value_name = "NAME")]
+    sheet: Option<String>,
     /// Schema file: roles, units and bounds of the columns.
     #[arg(long, value_name = "SCHEMA.toml")]
     schema: Option<PathBuf>,
@@ -74,6 +81,9 @@ pub struct AuditArgs {
     /// Write to this file (atomically) instead of standard output.
     #[arg(long, value_name = "FILE")]
     out: Option<PathBuf>,
+    /// Column naming each row (heat, weld, specimen), echoed beside rows listed.
+    #[arg(long, value_name = "COLUMN")]
+    id: Option<String>,
 }
 
 pub fn run(a: AuditArgs) -> anyhow::Result<()> {
@@ -81,24 +91,64 @@ pub fn run(a: AuditArgs) -> anyhow::Result<()> {
         Some(p) => Some((Schema::load(p)?, p.display().to_string())),
         None => None,
     };
-    let table = Table::read(&a.data)?;
+    let table = Table::read_sheet(&a.data, a.sheet.as_deref())?;
     let opts = AuditOptions {
         targets: a.target.clone(),
         inputs: a.inputs.clone(),
     };
     let report = audit(&table, schema.as_ref().map(|(s, n)| (s, n.as_str())), &opts)?;
+    let declared: Vec<String> = schema.as_ref().map_or_else(Vec::new, |(s, _)| {
+        s.with_role(Role::Identifier)
+            .map(|c| c.name.clone())
+            .collect()
+    });
+    let mut inputs: Vec<&str> = a.target.iter().map(String::as_str).collect();
+    inputs.extend(a.inputs.iter().flatten().map(String::as_str));
+    let labels = identifier_column(&table, a.id.as_deref(), &declared, &inputs)?
+        .map(|c| RowLabels::read(&table, &c))
+        .transpose()?;
     let text = match a.format {
-        AuditFormat::Json => serde_json::to_string_pretty(&report)? + "\n",
-        AuditFormat::Table => to_text(&report),
+        AuditFormat::Json => {
+            let mut v = serde_json::to_value(&report)?;
+            if let Some(l) = &labels {
+                name_rows(&mut v, l);
+            }
+            serde_json::to_string_pretty(&v)? + "\n"
+        }
+        AuditFormat::Table => to_text(&report, labels.as_ref()),
     };
     emit(&text, a.out.as_deref())
+}
+
+/// The JSON report with each outlier's identifier (`id`) and the
+/// identifier column (`id_column`).
+fn name_rows(v: &mut serde_json::Value, labels: &RowLabels) {
+    if let Some(list) = v["outliers"].as_array_mut() {
+        for o in list {
+            let row = o["row"].as_u64().and_then(|r| usize::try_from(r).ok());
+            if let (Some(row), Some(obj)) = (row, o.as_object_mut()) {
+                obj.insert("id".into(), json!(labels.get(row - 1)));
+            }
+        }
+    }
+    if let Some(obj) = v.as_object_mut() {
+        obj.insert("id_column".into(), json!(labels.column));
+    }
+}
+
+/// "12" or "12 (FH-1023)".
+fn row_name(row: usize, labels: Option<&RowLabels>) -> String {
+    match labels {
+        Some(l) => format!("{row} ({})", l.get(row - 1)),
+        None => row.to_string(),
+    }
 }
 
 fn opt(v: Option<f64>) -> String {
     v.map_or("-".to_string(), num)
 }
 
-fn to_text(r: &AuditReport) -> String {
+fn to_text(r: &AuditReport, labels: Option<&RowLabels>) -> String {
     let mut s = format!(
         "audit of {}: {} rows, {} columns\n\nwhat to fix first:\n",
         r.file, r.n_rows, r.n_columns
@@ -157,7 +207,7 @@ fn to_text(r: &AuditReport) -> String {
             r.duplicates_compared
         ));
         for g in &r.duplicates {
-            let rows: Vec<String> = g.rows.iter().map(|x| x.to_string()).collect();
+            let rows: Vec<String> = g.rows.iter().map(|x| row_name(*x, labels)).collect();
             s.push_str(&format!("  rows {}\n", rows.join(", ")));
         }
     }
@@ -176,7 +226,7 @@ fn to_text(r: &AuditReport) -> String {
             None => s.push('\n'),
         }
         for g in rep.groups.iter().take(10) {
-            let rows: Vec<String> = g.rows.iter().map(|x| x.to_string()).collect();
+            let rows: Vec<String> = g.rows.iter().map(|x| row_name(*x, labels)).collect();
             let vals: Vec<String> = g.values.iter().map(|x| num(*x)).collect();
             s.push_str(&format!(
                 "  rows {}: {} (sd {})\n",
@@ -207,7 +257,7 @@ fn to_text(r: &AuditReport) -> String {
             s.push_str(&format!(
                 "  {} row {}: {} (z = {:.1})\n",
                 o.column,
-                o.row,
+                row_name(o.row, labels),
                 num(o.value),
                 o.robust_z
             ));

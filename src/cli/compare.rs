@@ -6,7 +6,6 @@ use clap::Args;
 use mettle::data::Table;
 use mettle::explain::{compare, Comparison};
 use mettle::prec::PAIRED_SHOWN_SE;
-use mettle::Model;
 
 use super::evaluate::EvalFormat;
 use super::output::{aligned, emit, num};
@@ -40,6 +39,9 @@ pub struct CompareArgs {
     /// Held-out table with the inputs and measured targets.
     #[arg(long, value_name = "FILE")]
     data: PathBuf,
+    /// Sheet to read when the table is a spreadsheet workbook (.xlsx, .xls) [default: the first].
+    #[arg(long, value_name = "NAME")]
+    sheet: Option<String>,
     /// Output format.
     #[arg(long, value_enum, default_value_t = EvalFormat::Table)]
     format: EvalFormat,
@@ -144,9 +146,9 @@ fn text(c: &Comparison) -> String {
 }
 
 pub fn run(a: CompareArgs) -> anyhow::Result<()> {
-    let old = Model::load(&a.old)?;
-    let new = Model::load(&a.new)?;
-    let table = Table::read(&a.data)?;
+    let old = super::load_model(&a.old)?;
+    let new = super::load_model(&a.new)?;
+    let table = Table::read_sheet(&a.data, a.sheet.as_deref())?;
     let c = compare(&old, &new, &table)?;
     let out = match a.format {
         EvalFormat::Json => serde_json::to_string_pretty(&c)? + "\n",

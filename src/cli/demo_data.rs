@@ -13,7 +13,12 @@ use mettle::demo::{write_demo_datasets, DemoParams};
 The records are INVENTED: generated from published relations (Pickering-type strength terms, \
 the EN 1011-2 cooling time, the tanh Charpy transition curve) plus invented effects and realistic \
 scatter. They are not test results and must not be used to qualify any weld. The same seed gives \
-byte-identical files.",
+byte-identical files.\n\n\
+Files: fellhaven_welds.csv (the archive), fellhaven_candidates.csv, fellhaven_new_welds.csv and \
+fellhaven_new_welds_truth.csv; and the archive and the new heats as a spreadsheet export \
+arrives (fellhaven_welds_export.csv, fellhaven_new_welds_export.csv), each weld's identifier in a \
+first column 'weld'; the same two as spreadsheet workbooks (fellhaven_welds.xlsx, \
+fellhaven_new_welds.xlsx: sheet 'welds', and a sheet 'about' saying the data are invented).",
     after_long_help = "Example:\n  mettle demo-data --out out/demo"
 )]
 pub struct DemoDataArgs {
@@ -34,7 +39,8 @@ pub fn run(a: DemoDataArgs) -> anyhow::Result<()> {
         n_welds: a.n_welds,
         ..DemoParams::default()
     };
-    let paths = write_demo_datasets(&a.out, &params)?;
+    let mut paths = write_demo_datasets(&a.out, &params)?;
+    paths.extend(mettle::data::spreadsheet::write_demo_workbooks(&a.out)?);
     eprintln!("INVENTED demo data (fictional Fellhaven scenario; not test results) written:");
     for p in paths {
         eprintln!("  {}", p.display());

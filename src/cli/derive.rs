@@ -35,9 +35,12 @@ read. The output is CSV, or Parquet when its name ends in .parquet.\n\n\
 Example:\n  mettle derive --data welds.csv --add ce_iiw,pcm,heat_input:SAW,t85:butt_fill --out welds_derived.csv"
 )]
 pub struct DeriveArgs {
-    /// Table to read (CSV with a header row, or Parquet).
-    #[arg(long, value_name = "FILE")]
+    /// Table to read (CSV with a header row, Parquet, or a spreadsheet workbook .xlsx).
+    #[arg(long, visible_alias = "input", value_name = "FILE")]
     data: PathBuf,
+    /// Sheet to read when the table is a spreadsheet workbook (.xlsx, .xls) [default: the first].
+    #[arg(long, value_name = "NAME")]
+    sheet: Option<String>,
     /// Derivations to add, comma-separated (t85 parameters may follow, e.g. t85:F2=0.9,F3=0.9).
     #[arg(long, value_name = "LIST", default_value = "")]
     add: String,
@@ -63,7 +66,7 @@ pub fn run(a: DeriveArgs) -> anyhow::Result<()> {
         ))
         .into());
     }
-    let table = Table::read(&a.data)?;
+    let table = Table::read_sheet(&a.data, a.sheet.as_deref())?;
     let outcome = derive_columns(
         &table,
         &derivations,

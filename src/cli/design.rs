@@ -9,7 +9,7 @@ use mettle::data::Table;
 use mettle::screen::{design, DesignOptions, DesignOutcome, DesignSpace};
 
 use super::progress::DesignProgress;
-use super::screen::{finish, render, ProblemArgs, Shown};
+use super::screen::{finish, render, ProblemArgs, RenderAs, Shown};
 use super::{UsageError, CAUTION};
 
 /// Arguments of `mettle design`.
@@ -178,6 +178,7 @@ pub fn run(a: DesignArgs) -> anyhow::Result<()> {
         .enumerate()
         .map(|(k, d)| Shown {
             rank: Some(k + 1),
+            label: None,
             inputs: space
                 .vary
                 .iter()
@@ -212,7 +213,17 @@ pub fn run(a: DesignArgs) -> anyhow::Result<()> {
     if outcome.candidates.is_empty() {
         eprintln!("warning: no candidate returned (see the notes)");
     }
-    let text = render(&screening, &shown, &notes, a.problem.format, "design")?;
+    let text = render(
+        &screening,
+        &shown,
+        &notes,
+        &RenderAs {
+            kind: "design",
+            id_column: None,
+            format: a.problem.format,
+            digits: a.problem.digits(),
+        },
+    )?;
     finish(&text, a.problem.format, a.problem.out.as_deref())
 }
 

@@ -7,10 +7,9 @@ use mettle::data::Table;
 use mettle::explain::{estimate_rows, OutOfLine};
 use mettle::metrics::Evaluation;
 use mettle::prec::OUT_OF_LINE_Z;
-use mettle::Model;
 use serde_json::json;
 
-use super::output::{aligned, emit, num};
+use super::output::{aligned, emit, num, wrap};
 use super::UsageError;
 
 /// Output formats of `evaluate`.
@@ -35,7 +34,8 @@ mean ± 1 sd and mean ± 2 sd; with the Student-t shape a model may choose (trai
 the first is narrower than ± 1 sd and the second close to ± 2 sd. within_1sd and within_2sd \
 count the rows inside mean ± 1 sd and ± 2 sd whatever the shape.\n\n\
 JSON output (one target): an object with keys target, n, rmse, mae, r2, nlpd, coverage_68, \
-coverage_95, within_1sd, within_2sd and out_of_line; with several targets, an array of such objects.\n\nRows whose measured value lies more than 2.5 sd from its estimate (on the scale the target is learnt on) are listed as out of line, largest first, with the estimate, its 95 % interval, the standardised residual z and the domain verdict (JSON: out_of_line, an array of objects with row, measured, mean, sd, lo95, hi95, z, in_domain, gross_error_probability). An honest model lists about 1 row in 80 by chance with Gaussian error bars, about 1 in 40 to 1 in 70 with a Student-t shape (train --heavy-tails); the text output says how many for the model at hand; more, or a few with |z| far beyond 3, point to heats worth checking (mix-ups, test faults) or to a region the model does not know. For a model with a share of gross errors (train --gross-errors on, the default), p_gross is the probability that the measured value is a gross error rather than a test of the heat described; sd and the intervals are those of a test free of gross error, and nlpd uses the model's two-part density.\n\n\
+coverage_95, within_1sd, within_2sd, nlpd_scores and coverages_count (what the two measure, in \
+words), id_column and out_of_line; with several targets, an array of such objects.\n\nRows whose measured value lies more than 2.5 sd from its estimate (on the scale the target is learnt on) are listed as out of line, largest first, with the estimate, its 95 % interval, the standardised residual z and the domain verdict, each named by its row number and identifier (--id COLUMN, else the schema's identifier column, else a first column of text such as heat codes; JSON: out_of_line, an array of objects with row, id, measured, mean, sd, lo95, hi95, z, in_domain, gross_error_probability; id_column names the column). An honest model lists about 1 row in 80 by chance with Gaussian error bars, about 1 in 40 to 1 in 70 with a Student-t shape (train --heavy-tails); the text output says how many for the model at hand; more, or a few with |z| far beyond 3, point to heats worth checking (mix-ups, test faults) or to a region the model does not know. For a model with a share of gross errors (train --gross-errors on, the default), gross_error_probability is the probability that the measured value is a gross error rather than a test of the heat described; sd and the intervals are those of a test free of gross error, and nlpd uses the model's two-part density.\n\n\
 For a model trained with a schema the table is read through the stored schema (units converted, \
 derived inputs computed), and values are judged in internal units. For a target learnt on a log \
 or bounded scale, nlpd is the density of the measured value on its own scale and the coverages \
@@ -47,19 +47,32 @@ pub struct EvaluateArgs {
     #[arg(long, value_name = "MODEL.json")]
     model: PathBuf,
     /// Table with the model's inputs and measured targets.
-    #[arg(long, value_name = "FILE")]
+    #[arg(long, visible_alias = "input", value_name = "FILE")]
     data: PathBuf,
+    /// Sheet to read when the table is a spreadsheet workbook (.xlsx, .xls) [default: the first].
+    #[arg(long, value_name = "NAME")]
+    sheet: Option<String>,
     /// Output format.
     #[arg(long, value_enum, default_value_t = EvalFormat::Table)]
     format: EvalFormat,
     /// Write to this file (atomically) instead of standard output.
     #[arg(long, value_name = "FILE")]
     out: Option<PathBuf>,
+    /// Column naming each row (heat, weld, specimen), echoed beside rows out of line.
+    #[arg(long, value_name = "COLUMN")]
+    id: Option<String>,
 }
 
+/// What the NLPD and the coverages measure, stated with them.
+const NLPD_SCORES: &str = "the model's whole predictive density: for a model with a share of gross errors, (1 − π)·(density of a test free of gross error) + π·(gross-error part)";
+/// What the coverages count.
+const COVERAGES_COUNT: &str = "the central intervals of a test free of gross error (the error shape's), as predict prints them";
+
 pub fn run(a: EvaluateArgs) -> anyhow::Result<()> {
-    let model = Model::load(&a.model)?;
-    let table = Table::read(&a.data)?;
+    let model = super::load_model(&a.model)?;
+    let table = Table::read_sheet(&a.data, a.sheet.as_deref())?;
+    let labels = model.row_labels(&table, a.id.as_deref())?;
+    let label = |row: usize| labels.as_ref().map(|l| l.get(row - 1).to_string());
     let mut results: Vec<(String, Evaluation)> = Vec::new();
     let mut out_of_line: Vec<(String, Vec<OutOfLine>, f64)> = Vec::new();
     for rows in estimate_rows(&model, &table)? {
@@ -86,6 +99,12 @@ pub fn run(a: EvaluateArgs) -> anyhow::Result<()> {
                     let mut v = serde_json::to_value(e).unwrap_or_default();
                     if let Some(o) = v.as_object_mut() {
                         o.insert("target".into(), json!(name));
+                        o.insert("nlpd_scores".into(), json!(NLPD_SCORES));
+                        o.insert("coverages_count".into(), json!(COVERAGES_COUNT));
+                        o.insert(
+                            "id_column".into(),
+                            json!(labels.as_ref().map(|l| l.column.clone())),
+                        );
                         o.insert(
                             "out_of_line".into(),
                             serde_json::Value::Array(
@@ -93,6 +112,7 @@ pub fn run(a: EvaluateArgs) -> anyhow::Result<()> {
                                     .map(|r| {
                                         json!({
                                             "row": r.row,
+                                            "id": label(r.row),
                                             "measured": r.measured,
                                             "mean": r.estimate.mean,
                                             "sd": r.estimate.sd,
@@ -147,7 +167,12 @@ pub fn run(a: EvaluateArgs) -> anyhow::Result<()> {
                 })
                 .collect();
             let mut text = aligned(&h, &body)
-                + "honest error bars: coverage_68 near 0.68, coverage_95 near 0.95\n";
+                + "honest error bars: coverage_68 near 0.68, coverage_95 near 0.95\n"
+                + &wrap(
+                    "",
+                    &format!("nlpd scores {NLPD_SCORES}; the coverages count {COVERAGES_COUNT}"),
+                    0,
+                );
             for (name, odd, chance) in &out_of_line {
                 if odd.is_empty() {
                     continue;
@@ -157,26 +182,36 @@ pub fn run(a: EvaluateArgs) -> anyhow::Result<()> {
                     odd.len(),
                     1.0 / chance.max(1e-12)
                 );
-                let h: Vec<String> = [
-                    "row", "measured", "mean", "lo95", "hi95", "z", "domain", "p_gross",
-                ]
-                .iter()
-                .map(|s| s.to_string())
-                .collect();
+                let mut h: Vec<String> = vec!["row".into()];
+                h.extend(labels.as_ref().map(|l| l.column.clone()));
+                h.extend(
+                    [
+                        "domain",
+                        "measured",
+                        "mean",
+                        "lo95",
+                        "hi95",
+                        "z",
+                        "gross_error_probability",
+                    ]
+                    .map(String::from),
+                );
                 let body: Vec<Vec<String>> = odd
                     .iter()
                     .map(|r| {
-                        vec![
-                            r.row.to_string(),
+                        let mut cells = vec![r.row.to_string()];
+                        cells.extend(label(r.row));
+                        cells.extend([
+                            if r.in_domain { "in" } else { "OUT" }.to_string(),
                             num(r.measured),
                             num(r.estimate.mean),
                             num(r.estimate.lo95),
                             num(r.estimate.hi95),
                             format!("{:+.2}", r.z),
-                            if r.in_domain { "in" } else { "OUT" }.to_string(),
                             r.gross_error_probability
                                 .map_or("-".to_string(), |p| format!("{p:.2}")),
-                        ]
+                        ]);
+                        cells
                     })
                     .collect();
                 text += &aligned(&h, &body);

@@ -4,7 +4,6 @@ use std::path::PathBuf;
 
 use clap::Args;
 use mettle::explain::{model_card, scale_words, ModelCard};
-use mettle::Model;
 
 use super::evaluate::EvalFormat;
 use super::output::{aligned, emit, num};
@@ -24,14 +23,21 @@ measurement of the scatter that no model stands between); the committee members 
 units, log evidence, held-out NLPD, effective number of parameters γ); and the relevance of each \
 input from its ARD hyperparameter, σ_w = α^−½ averaged over the members, most relevant input = 1. \
 Relevance says how much the networks use an input; it is not a causal effect, a slope or a sign.\n\n\
-JSON output: an object with data_file, data_sha256, n_rows, tool_version, seed, inputs, \
-set_aside and targets; each target has name, unit, scale, n_rows, noise_sd, noise_sd_range, \
-noise_varies, replicate_sd (null without repeat tests), noise_profile (input, input_unit and \
-bins with lo, hi, n_rows, noise_sd and replicates; null in older model files), members (array), relevance (an object \
-input → value, or null without ARD), relevance_range (an array of input, value, low, high: the \
-smallest and largest over the members; null without ARD), relevance_note, fit_notes (plain notes on \
-likely overfitting or underfitting; empty when nothing is flagged) and kriging (null when the residuals are not kriged; else n_rows, \
-correlated_share, length_scales as [input, share of its range] pairs, heldout_nlpd_with and heldout_nlpd_without).\n\n\
+JSON output: an object with data_file, data_sha256, n_rows, tool_version, seed, inputs (each \
+with name, unit, min, max, log_scale), set_aside and targets; each target has name, unit, scale, \
+n_rows, n_missing, min, max, noise_sd, noise_sd_range, noise_varies, noise_basis, replicate_sd \
+(null without repeat tests), noise_profile (input, input_unit and bins with lo, hi, n_rows, \
+noise_sd and replicates; null in older model files), members (each with n_hidden, restart, \
+log_evidence, heldout_nlpd, gamma, n_weights, varying_noise), relevance (an object input → \
+value, or null without ARD), relevance_range (an array of input, value, low, high: the smallest \
+and largest over the members; null without ARD), relevance_note, fit_notes (plain notes on \
+likely overfitting or underfitting; empty when nothing is flagged), search_rows, \
+hidden_searched, candidates, nlpd_by_size, kriging (null when the residuals are not kriged; \
+else n_rows, correlated_share, length_scales as [input, share of its range] pairs, \
+heldout_nlpd_with and heldout_nlpd_without) and gross_errors (null without that part; else \
+share, n_heldout, heldout_nlpd_gaussian, heldout_nlpd, refit_gross_rows, n_rows, \
+refit_fallbacks — the list of members that kept the Gaussian refit, with the reason, as in the \
+model file —, tail_dof, share_estimated).\n\n\
 Example:\n  mettle explain --model uts.json\n  mettle explain --model uts.json --format json"
 )]
 pub struct ExplainArgs {
@@ -202,7 +208,7 @@ fn text(card: &ModelCard) -> String {
 }
 
 pub fn run(a: ExplainArgs) -> anyhow::Result<()> {
-    let model = Model::load(&a.model)?;
+    let model = super::load_model(&a.model)?;
     let card = model_card(&model);
     let out = match a.format {
         EvalFormat::Json => serde_json::to_string_pretty(&card)? + "\n",

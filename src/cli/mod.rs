@@ -12,6 +12,7 @@ mod output;
 mod predict;
 mod progress;
 mod report;
+mod schema;
 mod screen;
 mod serve;
 mod sweep;
@@ -27,6 +28,41 @@ pub struct UsageError(pub String);
 
 /// The caution printed wherever an estimate could feed a structural decision.
 pub use mettle::predict::CAUTION;
+
+/// Load the model file at `path`, an error saying that it is the model
+/// that could not be read.
+pub fn load_model(path: &std::path::Path) -> anyhow::Result<mettle::Model> {
+    use anyhow::Context;
+    mettle::Model::load(path).with_context(|| {
+        format!(
+            "the model file {} (a model written by `mettle train`)",
+            path.display()
+        )
+    })
+}
+
+/// An incomplete-row refusal with the remedy that fits the command; any
+/// other error as it is.
+fn with_remedy(e: anyhow::Error, remedy: &str) -> anyhow::Error {
+    let incomplete = e.chain().any(|c| {
+        matches!(
+            c.downcast_ref::<mettle::Error>(),
+            Some(mettle::Error::MissingInputs { .. })
+        )
+    });
+    if incomplete {
+        UsageError(format!("{e:#}. {remedy}")).into()
+    } else {
+        e
+    }
+}
+
+/// What to do about rows without every input, at training.
+const TRAIN_REMEDY: &str =
+    "Complete them, or leave such rows out explicitly with --drop-incomplete-rows";
+
+/// What to do about rows without every input, where estimates are made.
+const ESTIMATE_REMEDY: &str = "Estimates are made for complete rows only: fill in the empty cells, or take those rows out of the file (--drop-incomplete-rows is a training option)";
 
 #[derive(Parser, Debug)]
 #[command(
@@ -71,6 +107,8 @@ enum Command {
     // about and long_about come from the Args struct: a doc comment here would replace them
     Compare(compare::CompareArgs),
     // about and long_about come from the Args struct: a doc comment here would replace them
+    Schema(schema::SchemaArgs),
+    // about and long_about come from the Args struct: a doc comment here would replace them
     Screen(screen::ScreenArgs),
     // about and long_about come from the Args struct: a doc comment here would replace them
     Design(design::DesignArgs),
@@ -90,16 +128,17 @@ enum Command {
 /// Whatever the library reports, with context naming the file concerned.
 pub fn run(cli: Cli) -> anyhow::Result<()> {
     match cli.command {
-        Command::Train(a) => train::run(a),
-        Command::Predict(a) => predict::run(a),
-        Command::Evaluate(a) => evaluate::run(a),
+        Command::Train(a) => train::run(a).map_err(|e| with_remedy(e, TRAIN_REMEDY)),
+        Command::Predict(a) => predict::run(a).map_err(|e| with_remedy(e, ESTIMATE_REMEDY)),
+        Command::Evaluate(a) => evaluate::run(a).map_err(|e| with_remedy(e, ESTIMATE_REMEDY)),
         Command::Derive(a) => derive::run(a),
         Command::Audit(a) => audit::run(a),
         Command::DemoData(a) => demo_data::run(a),
         Command::Explain(a) => explain::run(a),
         Command::Report(a) => report::run(a),
         Command::Compare(a) => compare::run(a),
-        Command::Screen(a) => screen::run(a),
+        Command::Schema(a) => schema::run(a),
+        Command::Screen(a) => screen::run(a).map_err(|e| with_remedy(e, ESTIMATE_REMEDY)),
         Command::Design(a) => design::run(a),
         Command::Sweep(a) => sweep::run(a),
         Command::Transition(a) => sweep::run_transition(a),

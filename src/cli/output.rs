@@ -88,6 +88,37 @@ pub fn num(v: f64) -> String {
     }
 }
 
+pub use mettle::data::cells::{sig, DEFAULT_DIGITS};
+
+/// Width that prose in terminal output is wrapped to.
+pub const TEXT_WIDTH: usize = 96;
+
+/// `text` wrapped at spaces to lines of at most [`TEXT_WIDTH`] characters
+/// (a longer word stays whole), the first line starting with `first`, the
+/// others indented to `indent` spaces; each line ends with a newline.
+pub fn wrap(first: &str, text: &str, indent: usize) -> String {
+    let mut out = String::new();
+    let mut line = first.to_string();
+    let mut fresh = true;
+    for word in text.split(' ') {
+        let len = line.chars().count();
+        if !fresh && len + 1 + word.chars().count() > TEXT_WIDTH {
+            out.push_str(line.trim_end());
+            out.push('\n');
+            line = " ".repeat(indent);
+            fresh = true;
+        }
+        if !fresh {
+            line.push(' ');
+        }
+        line.push_str(word);
+        fresh = false;
+    }
+    out.push_str(line.trim_end());
+    out.push('\n');
+    out
+}
+
 /// Derivation warnings on stderr, one line per kind with the rows it
 /// concerns (they are warnings: the values were still computed).
 pub fn print_row_warnings(warnings: &[mettle::derive::RowWarning]) {
@@ -103,5 +134,19 @@ pub fn print_row_warnings(warnings: &[mettle::derive::RowWarning]) {
             rows.push(format!("... ({} rows in all)", g.rows.len()));
         }
         eprintln!("warning: {} — rows {}", g.message, rows.join(", "));
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn prose_wraps_to_the_width() {
+        let long = "word ".repeat(60);
+        let w = wrap("  row 1: ", long.trim(), 4);
+        assert!(w.lines().all(|l| l.chars().count() <= TEXT_WIDTH), "{w}");
+        assert!(w.lines().skip(1).all(|l| l.starts_with("    w")), "{w}");
+        assert_eq!(w.matches("word").count(), 60);
     }
 }

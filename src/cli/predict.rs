@@ -5,15 +5,16 @@ use std::path::PathBuf;
 
 use anyhow::Context;
 use clap::{Args, ValueEnum};
+use mettle::data::spreadsheet::is_xlsx_path;
 use mettle::data::{AtomicFile, Table};
+use mettle::domain::DomainLevel;
 use mettle::model::IntervalKind;
 use mettle::prec::PREDICT_BATCH_ROWS;
 use mettle::predict::{
-    to_column_units, EstimateFormat, EstimateWriter, RowPrediction, TargetColumn as Column,
+    EstimateBatch, EstimateFormat, EstimateLayout, EstimateWriter, RowPrediction,
 };
-use mettle::Model;
 
-use super::output::{aligned, emit, num, Format};
+use super::output::{aligned, emit, num, wrap, Format, DEFAULT_DIGITS};
 use super::CAUTION;
 
 /// Units of the estimates.
@@ -44,9 +45,22 @@ that scale and mapped back: it is asymmetric about the median, and interval_kind
 is unchanged, the interval a little narrower than ± 1.96 sd. For a model trained with a schema, the input table is read \
 through the stored schema: its units are converted and its derived inputs computed from the raw \
 columns; estimates are in internal units (MPa, J, %, °C) unless --units declared.\n\n\
-JSON output is an array with one object per row: keys row, target, mean, median, sd, lo95, hi95, \
-noise_sd, model_sd, interval_kind, unit (when known), in_domain, domain, notes, caution (for a model with several \
-targets, an 'estimates' object keyed by target holds mean ... unit).\n\n\
+Rows are named by their number in the file (1 = first data row) and, when the table has one, by \
+an identifier: the column --id names, else the column the model's schema declares as identifier, \
+else a first column of text such as heat codes (FH-1023) that is not an input.\n\n\
+The table shows one block per target (--wide: all targets side by side), the domain verdict \
+beside the row, and the notes below. CSV has one line per row: row, the identifier, in_domain, \
+domain, then per target TARGET_mean, _median, _sd, _lo95, _hi95, _noise_sd, _model_sd and _unit, then \
+notes; numbers to 6 significant digits (--digits); the caution in the first row's caution cell.\n\n\
+JSON output is one object: caution; id_column; targets, keyed by target, each with unit, \
+interval_kind and the predictive distribution's form (shape gaussian or student_t, dof, scale, \
+gross_error_share, gross_error_mean, gross_error_sd); and rows, one object per row with row, id, \
+in_domain, domain, notes and estimates keyed by target (mean, median, sd, lo95, hi95, noise_sd, model_sd; \
+for a target learnt on a log or logit scale also scale_mean and scale_sd on that scale). With \
+these a measured value's density is (1 − π)·t_ν((z − m)/(a·s))/(a·s) + π·N(z; μ_g, σ_g²), \
+a = √((ν − 2)/ν), the density `mettle evaluate` scores (docs/model-format.md).\n\n\
+With --out FILE.xlsx the estimates are written as an Excel workbook: the CSV's cells on sheet \
+'estimates' (numbers stored as numbers), each target's distribution on sheet 'targets'.\n\n\
 Large inputs: the table is read, estimated and written a batch of rows at a time, so csv and json \
 output for millions of rows (CSV or Parquet input) take bounded memory; with --out nothing appears \
 under the name until the last row is written. The table format aligns every row, so it holds them \
@@ -58,9 +72,12 @@ pub struct PredictArgs {
     /// Model file written by `mettle train`.
     #[arg(long, value_name = "MODEL.json")]
     model: PathBuf,
-    /// Rows to estimate (CSV with a header row, or Parquet); must hold every input column of the model.
-    #[arg(long, value_name = "FILE")]
+    /// Rows to estimate (CSV with a header row, Parquet, or a spreadsheet workbook .xlsx); must hold every input column of the model.
+    #[arg(long, visible_alias = "data", value_name = "FILE")]
     input: PathBuf,
+    /// Sheet to read when the table is a spreadsheet workbook (.xlsx, .xls) [default: the first].
+    #[arg(long, value_name = "NAME")]
+    sheet: Option<String>,
     /// Output format.
     #[arg(long, value_enum, default_value_t = Format::Table)]
     format: Format,
@@ -70,6 +87,16 @@ pub struct PredictArgs {
     /// Write to this file (atomically) instead of standard output.
     #[arg(long, value_name = "FILE")]
     out: Option<PathBuf>,
+    /// Column naming each row (heat, weld, specimen), echoed in the output.
+    #[arg(long, value_name = "COLUMN")]
+    id: Option<String>,
+    /// Significant digits of the numbers in CSV output.
+    #[arg(long, value_name = "N", default_value_t = DEFAULT_DIGITS as u64,
+          value_parser = clap::value_parser!(u64).range(1..=17))]
+    digits: u64,
+    /// Table format: every target side by side in one table (default: one block per target).
+    #[arg(long)]
+    wide: bool,
     /// Rows read, estimated and written at a time: fewer take less memory,
     /// the estimates are the same.
     #[arg(long, value_name = "N", default_value_t = PREDICT_BATCH_ROWS as u64,
@@ -78,54 +105,70 @@ pub struct PredictArgs {
 }
 
 pub fn run(a: PredictArgs) -> anyhow::Result<()> {
-    let model = Model::load(&a.model)?;
+    let model = super::load_model(&a.model)?;
     let declared = a.units == UnitChoice::Declared;
-    let cols = model.target_columns(declared);
     // the input is read, estimated and written a batch at a time, so a
     // file of millions of rows is estimated in bounded memory
     let rows_per_batch = usize::try_from(a.batch_rows).unwrap_or(usize::MAX);
-    let batches = Table::read_batches(&a.input, rows_per_batch)?;
-    let estimate = |batch: mettle::Result<Table>| -> anyhow::Result<Batch> {
-        let batch = batch?;
-        let mut rows = model
-            .predict(&batch)
-            .with_context(|| format!("estimating with model {}", a.model.display()))?;
-        if declared {
-            to_column_units(&cols, &mut rows);
-        }
-        Ok(Batch {
-            first_row: batch.first_row(),
-            rows,
-        })
+    let mut batches =
+        Table::read_sheet_batches(&a.input, rows_per_batch, a.sheet.as_deref())?.peekable();
+    // the identifier column is chosen on the first batch and kept
+    let first = match batches.peek() {
+        Some(Ok(first)) => Some(first),
+        _ => None,
     };
+    let layout = model.estimate_layout(
+        first,
+        a.id.as_deref(),
+        declared,
+        usize::try_from(a.digits).unwrap_or(DEFAULT_DIGITS),
+    )?;
+    let estimate = |batch: mettle::Result<Table>| -> anyhow::Result<EstimateBatch> {
+        let batch = batch?;
+        model
+            .estimate_batch(&batch, &layout)
+            .with_context(|| format!("estimating with model {}", a.model.display()))
+    };
+    let xlsx = a.out.as_deref().is_some_and(is_xlsx_path);
     let mut tally = Tally::default();
+    let mut told = false;
+    let mut tell = |b: &EstimateBatch| {
+        // the conversions of the header, once
+        if !told {
+            for d in &b.declarations {
+                eprintln!("note: {}", d.describe());
+            }
+            told = true;
+        }
+    };
     match a.format {
-        Format::Table => {
+        Format::Table if !xlsx => {
             // aligned columns need every row: for small inputs
             let mut all = Vec::new();
             for b in batches {
                 let b = estimate(b)?;
+                tell(&b);
                 tally.add(&b.rows);
-                all.extend(b.rows);
+                all.push(b);
             }
-            let mut s = to_table(&cols, &all);
+            let mut s = to_table(&layout, &all, a.wide);
             s.push('\n');
-            s.push_str(CAUTION);
-            s.push('\n');
+            s.push_str(&wrap("", CAUTION, 0));
             emit(&s, a.out.as_deref())?;
         }
-        Format::Csv | Format::Json => {
+        _ => {
+            let format = match a.format {
+                _ if xlsx => EstimateFormat::Xlsx,
+                Format::Csv => EstimateFormat::Csv,
+                _ => EstimateFormat::Json,
+            };
             let write = |w: &mut dyn Write| -> anyhow::Result<()> {
-                let format = if a.format == Format::Csv {
-                    EstimateFormat::Csv
-                } else {
-                    EstimateFormat::Json
-                };
-                let mut out = EstimateWriter::start(w, format, &cols)?;
+                let mut out = EstimateWriter::start(w, format, &layout)?;
                 for b in batches {
                     let b = estimate(b)?;
+                    tell(&b);
                     tally.add(&b.rows);
-                    out.rows(b.first_row, &b.rows)?;
+                    out.rows(&b)?;
                 }
                 Ok(out.finish()?)
             };
@@ -163,14 +206,7 @@ pub fn run(a: PredictArgs) -> anyhow::Result<()> {
     Ok(())
 }
 
-/// The estimates of one batch of input rows.
-struct Batch {
-    /// Data rows of the file before the batch.
-    first_row: usize,
-    rows: Vec<RowPrediction>,
-}
-
-/// Rows estimated, and how many lie outside the domain.
+/// Rows estimated, and how many lie outside the domain or have thin support.
 #[derive(Default)]
 struct Tally {
     rows: usize,
@@ -182,75 +218,106 @@ impl Tally {
     fn add(&mut self, rows: &[RowPrediction]) {
         self.rows += rows.len();
         self.out_of_domain += rows.iter().filter(|r| !r.in_domain).count();
-        self.thin += rows
-            .iter()
-            .filter(|r| r.level == mettle::domain::DomainLevel::Thin)
-            .count();
+        self.thin += rows.iter().filter(|r| r.level == DomainLevel::Thin).count();
     }
 }
 
-/// The verdict cell of a table: `in`, `thin` or `OUT`, then the notes.
-pub(crate) fn domain_cell(level: mettle::domain::DomainLevel, notes: &[String]) -> String {
-    match (level, notes.is_empty()) {
-        (mettle::domain::DomainLevel::Outside, _) => format!("OUT: {}", notes.join("; ")),
-        (_, true) => level.short().to_string(),
-        (_, false) => format!("{}; {}", level.short(), notes.join("; ")),
-    }
-}
-
-fn to_table(cols: &[Column], rows: &[RowPrediction]) -> String {
-    let mut h = vec!["row".to_string()];
-    for c in cols {
-        let centre = if c.kind == IntervalKind::Normal {
-            "mean"
-        } else {
-            "median"
-        };
-        for f in [centre, "sd", "lo95", "hi95"] {
-            h.push(if cols.len() == 1 {
-                f.to_string()
-            } else {
-                format!("{}_{f}", c.name)
-            });
+fn to_table(layout: &EstimateLayout, batches: &[EstimateBatch], wide: bool) -> String {
+    let unit_of =
+        |c: &mettle::predict::TargetColumn| c.unit.map_or(String::new(), |u| format!(" [{u}]"));
+    let lead = |h: &mut Vec<String>| {
+        h.push("row".into());
+        if let Some(c) = &layout.id_column {
+            h.push(c.clone());
         }
-    }
-    h.push("domain".into());
-    let body: Vec<Vec<String>> = rows
+        h.push("domain".into());
+    };
+    let rows: Vec<(usize, Option<&str>, &RowPrediction)> = batches
         .iter()
-        .enumerate()
-        .map(|(i, r)| {
-            let mut cells = vec![(i + 1).to_string()];
-            for (c, e) in cols.iter().zip(&r.estimates) {
-                let centre = if c.kind == IntervalKind::Normal {
-                    e.mean
-                } else {
-                    e.median
-                };
-                cells.extend([centre, e.sd, e.lo95, e.hi95].iter().map(|v| num(*v)));
-            }
-            cells.push(domain_cell(r.level, &r.notes));
-            cells
+        .flat_map(|b| {
+            b.rows
+                .iter()
+                .enumerate()
+                .map(move |(i, r)| (b.first_row + i + 1, b.label(i), r))
         })
         .collect();
-    let unit_of = |c: &Column| c.unit.map_or(String::new(), |u| format!(" [{u}]"));
-    let mut title = if cols.len() == 1 {
-        format!(
-            "estimates of {}{} (sd = noise + model uncertainty; lo95..hi95 = central 95 % interval)\n",
-            cols[0].name,
-            unit_of(&cols[0])
-        )
-    } else {
-        let names: Vec<String> = cols
-            .iter()
-            .map(|c| format!("{}{}", c.name, unit_of(c)))
-            .collect();
-        format!(
-            "estimates of {} (sd = noise + model uncertainty; lo95..hi95 = central 95 % interval)\n",
-            names.join(", ")
-        )
+    let lead_cells = |number: usize, label: Option<&str>, r: &RowPrediction| {
+        let mut cells = vec![number.to_string()];
+        if let Some(l) = label {
+            cells.push(l.to_string());
+        }
+        cells.push(r.level.short().to_string());
+        cells
     };
-    for c in cols.iter().filter(|c| c.kind != IntervalKind::Normal) {
-        title.push_str(&format!("{}: {}\n", c.name, c.kind.describe()));
+    let groups: Vec<Vec<usize>> = if wide {
+        vec![(0..layout.cols.len()).collect()]
+    } else {
+        (0..layout.cols.len()).map(|k| vec![k]).collect()
+    };
+    let mut out = String::new();
+    for group in groups {
+        let names: Vec<String> = group
+            .iter()
+            .map(|&k| format!("{}{}", layout.cols[k].name, unit_of(&layout.cols[k])))
+            .collect();
+        out.push_str(&format!(
+            "{}estimates of {} (sd = noise + model uncertainty; lo95..hi95 = central 95 % interval)\n",
+            if out.is_empty() { "" } else { "\n" },
+            names.join(", ")
+        ));
+        for &k in &group {
+            let c = &layout.cols[k];
+            if c.kind != IntervalKind::Normal {
+                out.push_str(&format!("{}: {}\n", c.name, c.kind.describe()));
+            }
+        }
+        let mut h = Vec::new();
+        lead(&mut h);
+        for &k in &group {
+            let c = &layout.cols[k];
+            for f in [c.centre_name(), "sd", "lo95", "hi95"] {
+                h.push(if group.len() == 1 {
+                    f.to_string()
+                } else {
+                    format!("{}_{f}", c.name)
+                });
+            }
+        }
+        let body: Vec<Vec<String>> = rows
+            .iter()
+            .map(|&(number, label, r)| {
+                let mut cells = lead_cells(number, label, r);
+                for &k in &group {
+                    let (c, e) = (&layout.cols[k], &r.estimates[k]);
+                    cells.extend([c.centre(e), e.sd, e.lo95, e.hi95].iter().map(|v| num(*v)));
+                }
+                cells
+            })
+            .collect();
+        out.push_str(&aligned(&h, &body));
     }
-    title + &aligned(&h, &body)
+    let noted: Vec<String> = rows
+        .iter()
+        .filter(|(_, _, r)| !r.notes.is_empty())
+        .map(|&(number, label, r)| {
+            wrap(
+                &format!(
+                    "  row {number}{}: {}",
+                    label.map_or(String::new(), |l| format!(" ({l})")),
+                    match r.level {
+                        DomainLevel::Outside => "OUT: ",
+                        DomainLevel::Thin => "thin: ",
+                        _ => "",
+                    },
+                ),
+                &r.notes.join("; "),
+                4,
+            )
+        })
+        .collect();
+    if !noted.is_empty() {
+        out.push_str("\nnotes:\n");
+        out.extend(noted);
+    }
+    out
 }

@@ -7,7 +7,6 @@ use clap::Args;
 use mettle::data::Table;
 use mettle::explain::check_training_data;
 use mettle::report::{report_html, ReportInputs};
-use mettle::Model;
 
 /// Arguments of `mettle report`.
 #[derive(Args, Debug)]
@@ -46,7 +45,7 @@ pub struct ReportArgs {
 }
 
 pub fn run(a: ReportArgs) -> anyhow::Result<()> {
-    let model = Model::load(&a.model)?;
+    let model = super::load_model(&a.model)?;
     let training = a.training_data.as_deref().map(Table::read).transpose()?;
     if let Some(t) = &training {
         check_training_data(&model, t)?;

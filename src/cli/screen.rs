@@ -12,7 +12,7 @@ use mettle::screen::{
 use mettle::Model;
 use serde_json::{json, Map, Value};
 
-use super::output::{aligned, csv_field, emit, num, Format};
+use super::output::{aligned, csv_field, emit, num, sig, Format, DEFAULT_DIGITS};
 use super::CAUTION;
 
 /// The assumption behind every joint probability, printed with it.
@@ -43,6 +43,10 @@ pub struct ProblemArgs {
     /// Write to this file (atomically) instead of standard output.
     #[arg(long, value_name = "FILE")]
     pub out: Option<PathBuf>,
+    /// Significant digits of the numbers in CSV output.
+    #[arg(long, value_name = "N", default_value_t = DEFAULT_DIGITS as u64,
+          value_parser = clap::value_parser!(u64).range(1..=17))]
+    digits: u64,
 }
 
 /// The loaded problem.
@@ -54,13 +58,18 @@ pub struct Problem {
 }
 
 impl ProblemArgs {
+    /// Significant digits of CSV numbers.
+    pub fn digits(&self) -> usize {
+        usize::try_from(self.digits).unwrap_or(DEFAULT_DIGITS)
+    }
+
     /// Load the models, parse the requirements, read prices and limits.
     pub fn load(&self) -> anyhow::Result<Problem> {
         let models = self
             .model
             .iter()
-            .map(|p| Model::load(p))
-            .collect::<mettle::Result<Vec<_>>>()?;
+            .map(|p| super::load_model(p))
+            .collect::<anyhow::Result<Vec<_>>>()?;
         let requirements = self
             .require
             .iter()
@@ -132,18 +141,27 @@ codes and licensed engineers have the final word.",
 pub struct ScreenArgs {
     #[command(flatten)]
     problem: ProblemArgs,
-    /// Candidates (CSV with a header row, or Parquet), holding every input the models read.
-    #[arg(long, value_name = "FILE")]
+    /// Candidates (CSV with a header row, Parquet, or a spreadsheet workbook .xlsx), holding every input the models read.
+    #[arg(long, visible_alias = "data", value_name = "FILE")]
     input: PathBuf,
+    /// Sheet to read when the table is a spreadsheet workbook (.xlsx, .xls) [default: the first].
+    #[arg(long, value_name = "NAME")]
+    sheet: Option<String>,
     /// Rank out-of-domain candidates by their probability like the others.
     #[arg(long)]
     allow_out_of_domain: bool,
+    /// Column naming each candidate (a heat or trial code), echoed in the output.
+    #[arg(long, value_name = "COLUMN")]
+    id: Option<String>,
 }
 
 /// One candidate as printed.
 pub struct Shown<'a> {
     pub rank: Option<usize>,
-    /// Varied inputs (design) as (name, value).
+    /// The candidate's identifier (screen, from the table's identifier column).
+    pub label: Option<String>,
+    /// Inputs as (name, value): the varied ones (design), or the table's
+    /// numeric columns as read (screen).
     pub inputs: Vec<(String, f64)>,
     pub candidate: &'a Candidate,
     pub score: Option<f64>,
@@ -152,10 +170,29 @@ pub struct Shown<'a> {
 pub fn run(a: ScreenArgs) -> anyhow::Result<()> {
     let problem = a.problem.load()?;
     let screening = problem.screening()?;
-    let table = Table::read(&a.input)?;
+    let table = Table::read_sheet(&a.input, a.sheet.as_deref())?;
+    // units the header declares, converted in every model; a column that
+    // looks as if it were in another unit is refused
+    for (k, m) in problem.models.iter().enumerate() {
+        let declared = m.unit_check(&table)?;
+        if k == 0 {
+            for d in declared {
+                eprintln!("note: {}", d.describe());
+            }
+        }
+    }
     let cands = screening
         .evaluate(&table)
         .with_context(|| format!("screening {}", a.input.display()))?;
+    let labels = problem.models[0].row_labels(&table, a.id.as_deref())?;
+    // the candidate's inputs as given: every numeric column but the identifier
+    let mut echoed: Vec<(String, Vec<Option<f64>>)> = Vec::new();
+    for name in table.names() {
+        if labels.as_ref().is_some_and(|l| &l.column == name) || !table.is_numeric(name) {
+            continue;
+        }
+        echoed.push((name.clone(), table.numeric_optional(name)?));
+    }
     let order = rank(&cands, a.allow_out_of_domain);
     let shown: Vec<Shown<'_>> = order
         .iter()
@@ -163,7 +200,11 @@ pub fn run(a: ScreenArgs) -> anyhow::Result<()> {
             rank: cands[i]
                 .eligible(a.allow_out_of_domain)
                 .then_some(order.iter().position(|&j| j == i).unwrap_or(i) + 1),
-            inputs: Vec::new(),
+            label: labels.as_ref().map(|l| l.get(cands[i].row).to_string()),
+            inputs: echoed
+                .iter()
+                .map(|(n, v)| (n.clone(), v[cands[i].row].unwrap_or(f64::NAN)))
+                .collect(),
             candidate: &cands[i],
             score: None,
         })
@@ -192,7 +233,14 @@ pub fn run(a: ScreenArgs) -> anyhow::Result<()> {
             }
         ));
     }
-    let text = render(&screening, &shown, &notes, a.problem.format, "screening")?;
+    let id_column = labels.as_ref().map(|l| l.column.as_str());
+    let how = RenderAs {
+        kind: "screening",
+        id_column,
+        format: a.problem.format,
+        digits: a.problem.digits(),
+    };
+    let text = render(&screening, &shown, &notes, &how)?;
     finish(&text, a.problem.format, a.problem.out.as_deref())
 }
 
@@ -205,19 +253,30 @@ pub fn finish(text: &str, format: Format, out: Option<&Path>) -> anyhow::Result<
     emit(text, out)
 }
 
+/// How candidates are written.
+pub struct RenderAs<'a> {
+    /// `screening` or `design`.
+    pub kind: &'a str,
+    /// The column the candidates' identifiers come from.
+    pub id_column: Option<&'a str>,
+    /// Output format.
+    pub format: Format,
+    /// Significant digits of CSV numbers.
+    pub digits: usize,
+}
+
 /// Render candidates as a table, CSV or JSON.
 pub fn render(
     s: &Screening<'_>,
     shown: &[Shown<'_>],
     notes: &[String],
-    format: Format,
-    what: &str,
+    how: &RenderAs<'_>,
 ) -> anyhow::Result<String> {
-    Ok(match format {
-        Format::Table => table(s, shown, notes),
-        Format::Csv => csv(s, shown),
+    Ok(match how.format {
+        Format::Table => table(s, shown, notes, how.id_column),
+        Format::Csv => csv(s, shown, how),
         Format::Json => {
-            let mut v = serde_json::to_string_pretty(&to_json(s, shown, notes, what))?;
+            let mut v = serde_json::to_string_pretty(&to_json(s, shown, notes, how))?;
             v.push('\n');
             v
         }
@@ -248,13 +307,26 @@ fn centre(e: &mettle::predict::Estimate) -> f64 {
     }
 }
 
-fn table(s: &Screening<'_>, shown: &[Shown<'_>], notes: &[String]) -> String {
+/// True for design's candidates (scored points of a search, no table row).
+fn is_design(shown: &[Shown<'_>]) -> bool {
+    shown.first().is_some_and(|r| r.score.is_some())
+}
+
+fn table(
+    s: &Screening<'_>,
+    shown: &[Shown<'_>],
+    notes: &[String],
+    id_column: Option<&str>,
+) -> String {
     let mut h = vec!["rank".to_string()];
-    let design = shown.first().is_some_and(|r| !r.inputs.is_empty());
+    // design shows the inputs it varied; screen the row and identifier
+    // (its inputs, as given, are in the CSV and JSON output)
+    let design = is_design(shown);
     if design {
         h.extend(shown[0].inputs.iter().map(|(n, _)| n.clone()));
     } else {
         h.push("row".into());
+        h.extend(id_column.map(str::to_string));
     }
     for (k, r) in s.requirements().iter().enumerate() {
         h.push(r.target.clone());
@@ -278,6 +350,7 @@ fn table(s: &Screening<'_>, shown: &[Shown<'_>], notes: &[String]) -> String {
                 cells.extend(r.inputs.iter().map(|(_, v)| num(*v)));
             } else {
                 cells.push((c.row + 1).to_string());
+                cells.extend(r.label.clone());
             }
             for o in &c.requirements {
                 cells.push(num(centre(&o.estimate)));
@@ -318,8 +391,15 @@ fn table(s: &Screening<'_>, shown: &[Shown<'_>], notes: &[String]) -> String {
     out
 }
 
-fn csv(s: &Screening<'_>, shown: &[Shown<'_>]) -> String {
-    let mut h = vec!["rank".to_string(), "row".to_string()];
+fn csv(s: &Screening<'_>, shown: &[Shown<'_>], how: &RenderAs<'_>) -> String {
+    let id_column = how.id_column;
+    let n = |v: f64| sig(v, how.digits);
+    let design = is_design(shown);
+    let mut h = vec!["rank".to_string()];
+    if !design {
+        h.push("row".into());
+        h.extend(id_column.map(str::to_string));
+    }
     if let Some(r) = shown.first() {
         h.extend(r.inputs.iter().map(|(n, _)| n.clone()));
     }
@@ -347,24 +427,21 @@ fn csv(s: &Screening<'_>, shown: &[Shown<'_>]) -> String {
     );
     let mut out: String = h.iter().map(|x| csv_field(x)).collect::<Vec<_>>().join(",");
     out.push('\n');
-    let opt = |v: Option<f64>| v.map_or(String::new(), |x| x.to_string());
+    let opt = |v: Option<f64>| v.map_or(String::new(), n);
     for r in shown {
         let c = r.candidate;
-        let mut cells = vec![
-            r.rank.map_or(String::new(), |k| k.to_string()),
-            if r.inputs.is_empty() {
-                (c.row + 1).to_string()
-            } else {
-                String::new()
-            },
-        ];
-        cells.extend(r.inputs.iter().map(|(_, v)| v.to_string()));
+        let mut cells = vec![r.rank.map_or(String::new(), |k| k.to_string())];
+        if !design {
+            cells.push((c.row + 1).to_string());
+            cells.extend(r.label.as_deref().map(csv_field));
+        }
+        cells.extend(r.inputs.iter().map(|(_, v)| n(*v)));
         for e in &c.estimates {
             let x = &e.estimate;
-            cells.extend([centre(x), x.sd, x.lo95, x.hi95].map(|v| v.to_string()));
+            cells.extend([centre(x), x.sd, x.lo95, x.hi95].map(n));
         }
-        cells.extend(c.requirements.iter().map(|o| o.probability.to_string()));
-        cells.push(c.joint_probability.to_string());
+        cells.extend(c.requirements.iter().map(|o| n(o.probability)));
+        cells.push(n(c.joint_probability));
         cells.push(opt(c.cost_per_tonne));
         cells.push(opt(c.carbon_equivalent));
         cells.push(c.in_domain.to_string());
@@ -378,16 +455,21 @@ fn csv(s: &Screening<'_>, shown: &[Shown<'_>]) -> String {
     out
 }
 
-fn to_json(s: &Screening<'_>, shown: &[Shown<'_>], notes: &[String], what: &str) -> Value {
+fn to_json(s: &Screening<'_>, shown: &[Shown<'_>], notes: &[String], how: &RenderAs<'_>) -> Value {
+    let design = is_design(shown);
     let cands: Vec<Value> = shown
         .iter()
         .map(|r| {
             let c = r.candidate;
             let mut o = Map::new();
             o.insert("rank".into(), json!(r.rank));
-            if r.inputs.is_empty() {
+            if !design {
                 o.insert("row".into(), json!(c.row + 1));
-            } else {
+            }
+            if let Some(l) = &r.label {
+                o.insert("id".into(), json!(l));
+            }
+            {
                 let m: Map<String, Value> = r
                     .inputs
                     .iter()
@@ -416,7 +498,8 @@ fn to_json(s: &Screening<'_>, shown: &[Shown<'_>], notes: &[String], what: &str)
         })
         .collect();
     json!({
-        "kind": what,
+        "kind": how.kind,
+        "id_column": how.id_column,
         "caution": CAUTION,
         "joint_probability_assumption": INDEPENDENCE,
         "requirements": s.requirements().iter().map(|r| r.to_string()).collect::<Vec<_>>(),

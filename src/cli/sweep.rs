@@ -135,7 +135,7 @@ fn warn_out(s: &Sweep) {
 }
 
 pub fn run(a: SweepArgs) -> anyhow::Result<()> {
-    let model = Model::load(&a.model)?;
+    let model = super::load_model(&a.model)?;
     if a.vary.len() > 2 {
         return Err(UsageError("--vary at most twice (a curve or a map)".into()).into());
     }
@@ -251,12 +251,13 @@ pub struct TransitionArgs {
     json: bool,
 }
 
-fn opt(v: Option<f64>) -> String {
-    v.map_or("not reached".into(), num)
+/// A temperature with its unit, or "not reached".
+fn celsius(v: Option<f64>) -> String {
+    v.map_or("not reached".into(), |x| format!("{} °C", num(x)))
 }
 
 pub fn run_transition(a: TransitionArgs) -> anyhow::Result<()> {
-    let model = Model::load(&a.model)?;
+    let model = super::load_model(&a.model)?;
     let inp = model.inputs.iter().find(|i| i.name == a.temperature_input);
     let (from, to) = match (a.from, a.to, inp) {
         (Some(f), Some(t), _) => (f, t),
@@ -304,13 +305,27 @@ pub fn run_transition(a: TransitionArgs) -> anyhow::Result<()> {
             t.curve.targets[t.target], a.temperature_input, from, to, a.samples, a.seed
         );
         for c in &t.crossings {
+            // an end the drawn curves do not reach inside the range is said
+            // in words, not as a number
+            let interval = match (c.lo95, c.hi95) {
+                (Some(lo), Some(hi)) => format!("95 % interval {} to {} °C", num(lo), num(hi)),
+                (Some(lo), None) => format!(
+                    "95 % interval from {} °C to beyond the range (its upper end is not reached by {} °C)",
+                    num(lo),
+                    to
+                ),
+                (None, Some(hi)) => format!(
+                    "95 % interval up to {} °C (its lower end lies below the range's {} °C)",
+                    num(hi),
+                    from
+                ),
+                (None, None) => "95 % interval not within the range".to_string(),
+            };
             s.push_str(&format!(
-                "T{}J: centre curve {}, median {}, 95 % interval {} to {} °C ({:.0} % of curves cross)\n",
+                "T{}J: centre curve {}, median {}, {interval} ({:.0} % of curves cross)\n",
                 c.energy,
-                opt(c.centre),
-                opt(c.median),
-                opt(c.lo95),
-                opt(c.hi95),
+                celsius(c.centre),
+                celsius(c.median),
                 100.0 * c.reached
             ));
         }

@@ -6,7 +6,9 @@ use std::time::Instant;
 use anyhow::Context;
 use clap::Args;
 use mettle::committee::{CommitteeParams, KrigingMode, NoiseMode};
-use mettle::data::schema::Schema;
+use mettle::data::guess::measured_property;
+use mettle::data::schema::{Role, Schema, TransformChoice};
+use mettle::data::suggest::did_you_mean;
 use mettle::data::Table;
 use mettle::model::{SchemaTrainOptions, SchemaTrainReport, TrainSpec};
 use mettle::Model;
@@ -52,16 +54,19 @@ pub struct TrainArgs {
 /// The table and the columns to learn from: shared by `train` and `validate`.
 #[derive(Args, Debug)]
 pub struct TrainColumns {
-    /// Table of test records (CSV with a header row, or .parquet).
-    #[arg(long, value_name = "FILE")]
+    /// Table of test records (CSV with a header row, .parquet, or a spreadsheet workbook .xlsx).
+    #[arg(long, visible_alias = "input", value_name = "FILE")]
     pub data: PathBuf,
+    /// Sheet to read when the table is a spreadsheet workbook (.xlsx, .xls) [default: the first].
+    #[arg(long, value_name = "NAME")]
+    pub sheet: Option<String>,
     /// Target column(s) to learn; repeat or separate with commas for one committee per target.
+    /// With --schema: which of the schema's targets to learn [default: all].
     #[arg(
         long,
         value_name = "NAME",
         value_delimiter = ',',
-        required_unless_present = "schema",
-        conflicts_with = "schema"
+        required_unless_present = "schema"
     )]
     pub target: Vec<String>,
     /// Input columns, comma-separated [default: every other numeric column].
@@ -263,7 +268,7 @@ impl Plan {
         let params = s.params()?;
         Ok(match &c.schema {
             Some(path) => Plan::Schema(
-                Schema::load(path)?,
+                only_targets(Schema::load(path)?, &c.target, path)?,
                 path.display().to_string(),
                 SchemaTrainOptions {
                     params,
@@ -281,9 +286,71 @@ impl Plan {
     }
 }
 
+/// The schema with only the targets named kept as targets (the others'
+/// columns are then not read); all of them when none is named.
+fn only_targets(
+    mut schema: Schema,
+    targets: &[String],
+    path: &std::path::Path,
+) -> anyhow::Result<Schema> {
+    if targets.is_empty() {
+        return Ok(schema);
+    }
+    let declared: Vec<String> = schema
+        .with_role(Role::Target)
+        .map(|c| c.name.clone())
+        .collect();
+    for t in targets {
+        if !declared.contains(t) {
+            return Err(UsageError(format!(
+                "--target {t}: {} declares no target '{t}'{}; its targets are: {}",
+                path.display(),
+                did_you_mean(t, &declared),
+                declared.join(", ")
+            ))
+            .into());
+        }
+    }
+    for c in &mut schema.columns {
+        if c.role == Role::Target && !targets.contains(&c.name) {
+            c.role = Role::Ignored;
+            c.min = None;
+            c.max = None;
+            c.margin = None;
+            c.transform = TransformChoice::None;
+        }
+    }
+    Ok(schema)
+}
+
+/// Without --inputs or a schema every other column holding numbers is an
+/// input: say which, and warn of any whose name marks a measured property
+/// (a test result is not known before the test).
+fn quick_path_guard(table: &Table, targets: &[String]) {
+    let inputs: Vec<&String> = table
+        .names()
+        .iter()
+        .filter(|n| !targets.contains(n) && table.has_numbers(n))
+        .collect();
+    eprintln!(
+        "inputs: every column holding numbers but the target(s): {} (--inputs A,B,... or a schema to choose)",
+        inputs.iter().map(|s| s.as_str()).collect::<Vec<_>>().join(", ")
+    );
+    for n in inputs {
+        if let Some(what) = measured_property(n) {
+            eprintln!(
+                "warning: input '{n}' looks like a measured property ({what}): a result of the test is not known before it, and a model that reads one estimates nothing new; leave it out with --inputs, or train a model for it as a target"
+            );
+        }
+    }
+}
+
 pub fn run(a: TrainArgs) -> anyhow::Result<()> {
-    let table = Table::read(&a.columns.data)?;
+    let table = Table::read_sheet(&a.columns.data, a.columns.sheet.as_deref())?;
     let plan = Plan::new(&a.columns, &a.settings)?;
+    if a.columns.schema.is_none() && a.columns.inputs.is_none() {
+        quick_path_guard(&table, &a.columns.target);
+    }
     let progress = TrainProgress::new(a.quiet);
     let started = Instant::now();
     let (result, report) = match &plan {

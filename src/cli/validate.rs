@@ -98,7 +98,7 @@ pub fn load(path: &Path) -> anyhow::Result<Validation> {
 }
 
 pub fn run(a: ValidateArgs) -> anyhow::Result<()> {
-    let table = Table::read(&a.columns.data)?;
+    let table = Table::read_sheet(&a.columns.data, a.columns.sheet.as_deref())?;
     let plan = Plan::new(&a.columns, &a.settings)?;
     let recipe = match &plan {
         Plan::Schema(schema, name, options) => Recipe::Schema {

@@ -327,7 +327,14 @@ impl Schema {
     pub fn from_toml(text: &str, name: &str) -> Result<Schema> {
         let schema: Schema = toml::from_str(text).map_err(|e| Error::Schema {
             path: name.to_string(),
-            message: e.to_string().trim_end().replace('\n', " | "),
+            // the parser's excerpt keeps its lines (the caret under the
+            // column), indented under the file's name
+            message: e
+                .to_string()
+                .trim_end()
+                .lines()
+                .map(|l| format!("\n  {l}"))
+                .collect(),
         })?;
         schema.validate(name)?;
         Ok(schema)

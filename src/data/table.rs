@@ -7,6 +7,7 @@
 mod batches;
 mod parquet_check;
 mod shape;
+mod xlsx;
 
 pub use batches::TableBatches;
 
@@ -45,6 +46,9 @@ pub enum FileFormat {
     Csv,
     /// Apache Parquet.
     Parquet,
+    /// A spreadsheet workbook (.xlsx, .xls), read with calamine: the
+    /// first sheet, or the one named ([`Table::read_sheet`]).
+    Spreadsheet,
 }
 
 /// The four bytes that open (and close) every Parquet file (Apache Parquet
@@ -53,8 +57,9 @@ const PARQUET_MAGIC: &[u8; 4] = b"PAR1";
 
 impl FileFormat {
     /// The format of an existing file, recognised by its content: a file
-    /// that opens with the Parquet magic bytes `PAR1` is Parquet, any other
-    /// is read as CSV. The name does not matter, so a table renamed keeps
+    /// that opens with the Parquet magic bytes `PAR1` is Parquet, one that
+    /// opens as a zip archive (.xlsx) or an OLE2 compound file (.xls) is a
+    /// spreadsheet workbook, any other is read as CSV. The name does not matter, so a table renamed keeps
     /// being read correctly.
     ///
     /// # Errors
@@ -81,13 +86,15 @@ impl FileFormat {
         }
         Ok(if got == 4 && &head == PARQUET_MAGIC {
             FileFormat::Parquet
+        } else if got == 4 && (&head == xlsx::ZIP_MAGIC || &head == xlsx::OLE2_MAGIC) {
+            FileFormat::Spreadsheet
         } else {
             FileFormat::Csv
         })
     }
 
     /// The format a path's extension names (`.parquet`/`.pq` → Parquet,
-    /// anything else → CSV).
+    /// `.xlsx` → a workbook, anything else → CSV).
     pub fn from_path(path: &Path) -> FileFormat {
         match path
             .extension()
@@ -96,6 +103,7 @@ impl FileFormat {
             .as_deref()
         {
             Some("parquet") | Some("pq") => FileFormat::Parquet,
+            Some("xlsx") => FileFormat::Spreadsheet,
             _ => FileFormat::Csv,
         }
     }
@@ -199,6 +207,38 @@ impl Table {
         Ok(())
     }
 
+    /// Replace column `i` by `data` under the name `name`.
+    ///
+    /// # Errors
+    /// [`Error::Read`] when the length differs from the table's, `name` is
+    /// taken by another column, or there is no column `i`.
+    pub fn set_column(&mut self, i: usize, name: String, data: ColumnData) -> Result<()> {
+        let len = match &data {
+            ColumnData::Text(v) => v.len(),
+            ColumnData::Number(v) => v.len(),
+        };
+        if i >= self.columns.len() || len != self.n_rows {
+            return Err(read_error(
+                &self.source,
+                format!("column '{name}' does not fit the table"),
+            ));
+        }
+        if self
+            .names
+            .iter()
+            .enumerate()
+            .any(|(k, n)| k != i && *n == name)
+        {
+            return Err(read_error(
+                &self.source,
+                format!("column name '{name}' appears twice (columns must be unique)"),
+            ));
+        }
+        self.names[i] = name;
+        self.columns[i] = data;
+        Ok(())
+    }
+
     /// The table restricted to `rows` (0-based, in the order given).
     pub fn select_rows(&self, rows: &[usize]) -> Table {
         let pick = |data: &ColumnData| match data {
@@ -222,6 +262,16 @@ impl Table {
     /// is not a well-formed table (empty, no header, ragged rows, duplicated
     /// or empty column names).
     pub fn read(path: &Path) -> Result<Table> {
+        Self::read_sheet(path, None)
+    }
+
+    /// As [`Table::read`], and a spreadsheet workbook too (.xlsx, .xls):
+    /// its sheet `sheet`, or the first sheet when `None`.
+    ///
+    /// # Errors
+    /// As [`Table::read`]; a `sheet` for a file that is not a workbook, or
+    /// a sheet the workbook lacks (the message lists its sheets).
+    pub fn read_sheet(path: &Path, sheet: Option<&str>) -> Result<Table> {
         let meta = std::fs::metadata(path).map_err(|source| Error::Io {
             path: path.display().to_string(),
             source,
@@ -230,11 +280,20 @@ impl Table {
             return Err(read_error(path, "the file is empty"));
         }
         let format = FileFormat::sniff(path)?;
+        if format == FileFormat::Spreadsheet {
+            return xlsx::read(path, sheet);
+        }
+        if let Some(s) = sheet {
+            return Err(read_error(
+                path,
+                format!("a sheet ('{s}') was named, but the file is not a spreadsheet workbook"),
+            ));
+        }
         // rows the shape check counted: the reader underneath may add a
         // row of empty cells for a trailing blank line
         let csv_rows = match format {
             FileFormat::Csv => Some(shape::check(path)?.n_rows),
-            FileFormat::Parquet => {
+            _ => {
                 // counts polars would trust are checked first: a damaged
                 // one can make it abort on a huge allocation
                 parquet_check::check(path)?;
@@ -250,7 +309,7 @@ impl Table {
                 .try_into_reader_with_file_path(Some(path.to_path_buf()))
                 .and_then(|r| r.finish())
                 .map_err(polars_error)?,
-            FileFormat::Parquet => {
+            _ => {
                 let f = std::fs::File::open(path).map_err(|source| Error::Io {
                     path: path.display().to_string(),
                     source,
@@ -461,7 +520,7 @@ impl Table {
     }
 
     /// Write the table to `path` atomically, as Parquet when the name ends
-    /// in `.parquet` or `.pq`, else as CSV.
+    /// in `.parquet` or `.pq`, as a workbook for `.xlsx`, else as CSV.
     ///
     /// # Errors
     /// [`Error::Write`] naming `path`.
@@ -469,8 +528,48 @@ impl Table {
         let bytes = match FileFormat::from_path(path) {
             FileFormat::Csv => self.to_csv_bytes(),
             FileFormat::Parquet => self.to_parquet_bytes()?,
+            FileFormat::Spreadsheet => self.to_xlsx_bytes(path)?,
         };
         crate::data::write_atomic(path, &bytes)
+    }
+
+    /// The table as the bytes of an .xlsx workbook of one sheet (`data`):
+    /// numbers stored as numbers (at full precision), text as text,
+    /// missing cells empty.
+    ///
+    /// # Errors
+    /// As [`crate::data::spreadsheet::xlsx_bytes`].
+    pub fn to_xlsx_bytes(&self, path: &Path) -> Result<Vec<u8>> {
+        // 17 significant digits: every f64 exactly
+        let sheet = self.to_sheet("data");
+        crate::data::spreadsheet::xlsx_bytes(&path.display().to_string(), &[sheet], 17)
+    }
+
+    /// The table as a workbook sheet named `name`: the header, then numbers
+    /// as numbers, text as text, missing cells empty.
+    pub fn to_sheet(&self, name: &str) -> crate::data::spreadsheet::Sheet {
+        use crate::data::cells::Cell;
+        let mut rows = vec![self.names.iter().map(|n| Cell::Text(n.clone())).collect()];
+        for row in 0..self.n_rows {
+            rows.push(
+                self.columns
+                    .iter()
+                    .map(|c| match c {
+                        ColumnData::Number(v) => v[row].map_or(Cell::Empty, Cell::Num),
+                        ColumnData::Text(v) => match v[row].as_deref().map(str::trim) {
+                            None | Some("") => Cell::Empty,
+                            Some(s) => parse_number(s)
+                                .filter(|x| x.is_finite())
+                                .map_or_else(|| Cell::Text(s.to_string()), Cell::Num),
+                        },
+                    })
+                    .collect(),
+            );
+        }
+        crate::data::spreadsheet::Sheet {
+            name: name.to_string(),
+            rows,
+        }
     }
 
     /// Position of a column.
@@ -481,11 +580,18 @@ impl Table {
     fn column_data(&self, name: &str) -> Result<&ColumnData> {
         self.index_of(name)
             .map(|i| &self.columns[i])
-            .ok_or_else(|| Error::MissingColumn {
-                path: self.source.display().to_string(),
-                name: name.to_string(),
-                available: self.names.join(", "),
-            })
+            .ok_or_else(|| self.missing_column(name))
+    }
+
+    /// The error for a column `name` the table lacks, naming the closest
+    /// column when one is near ("did you mean").
+    pub fn missing_column(&self, name: &str) -> Error {
+        Error::MissingColumn {
+            path: self.source.display().to_string(),
+            name: name.to_string(),
+            available: self.names.join(", "),
+            suggestion: crate::data::suggest::did_you_mean(name, &self.names),
+        }
     }
 
     /// True when at least one cell of the column reads as a number: such a

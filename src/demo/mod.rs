@@ -20,6 +20,7 @@
 //! give the same table on every run and platform.
 
 mod csv;
+mod export;
 mod relations;
 mod sampling;
 mod truth;
@@ -33,6 +34,7 @@ use rand_xoshiro::Xoshiro256PlusPlus;
 use std::path::{Path, PathBuf};
 
 pub use csv::write_csv;
+pub use export::write_export;
 pub use relations::{
     cooling_time_t85_3d, pickering_uts_mpa, pickering_yield_mpa, temperature_at_energy,
     transition_curve, transition_slope, F3_FILL_PASS,
@@ -301,6 +303,15 @@ pub fn truth_table(inputs: &DemoTable) -> DemoTable {
     table
 }
 
+/// The exports [`write_demo_datasets`] writes beside the plain tables: the
+/// archive and the new heats with each weld's identifier in a first
+/// column `weld` (FH-W0012, NEW-01), as a QA engineer's spreadsheet export
+/// arrives.
+pub const EXPORT_FILES: [&str; 2] = [
+    "fellhaven_welds_export.csv",
+    "fellhaven_new_welds_export.csv",
+];
+
 /// File names written by [`write_demo_datasets`], in order.
 pub const DATASET_FILES: [&str; 4] = [
     "fellhaven_welds.csv",
@@ -312,7 +323,8 @@ pub const DATASET_FILES: [&str; 4] = [
 /// Writes the invented demo datasets into `dir` (created if missing): the archive
 /// ([`generate`]), the screening candidates ([`candidates`], seed + 1), the new heats
 /// ([`new_welds`], seed + 2) and the generator's truth for the new heats
-/// ([`truth_table`]). Returns the paths written, in the order of [`DATASET_FILES`].
+/// ([`truth_table`]), then the exports of [`EXPORT_FILES`]. Returns the
+/// paths written, in the order of [`DATASET_FILES`] then [`EXPORT_FILES`].
 pub fn write_demo_datasets(dir: &Path, params: &DemoParams) -> Result<Vec<PathBuf>, DemoError> {
     params.validate()?;
     std::fs::create_dir_all(dir).map_err(|source| DemoError::Io {
@@ -332,6 +344,11 @@ pub fn write_demo_datasets(dir: &Path, params: &DemoParams) -> Result<Vec<PathBu
     for (name, &k) in DATASET_FILES.iter().zip(order.iter()) {
         let path = dir.join(name);
         write_csv(&tables[k], &path)?;
+        paths.push(path);
+    }
+    for (name, k) in EXPORT_FILES.iter().zip([0usize, 3]) {
+        let path = dir.join(name);
+        write_export(&tables[k], "weld", &path)?;
         paths.push(path);
     }
     Ok(paths)

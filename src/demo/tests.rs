@@ -428,8 +428,8 @@ fn write_demo_datasets_writes_all_files() {
         ..DemoParams::default()
     };
     let paths = write_demo_datasets(&dir.join("datasets"), &p).unwrap();
-    assert_eq!(paths.len(), DATASET_FILES.len());
-    for (path, name) in paths.iter().zip(DATASET_FILES.iter()) {
+    assert_eq!(paths.len(), DATASET_FILES.len() + EXPORT_FILES.len());
+    for (path, name) in paths.iter().zip(DATASET_FILES.iter().chain(&EXPORT_FILES)) {
         assert!(path.ends_with(name));
         assert!(std::fs::metadata(path).unwrap().len() > 0);
     }

@@ -434,8 +434,10 @@ pub fn range_note_in(e: &RangeExcess, unit: Option<Unit>) -> String {
     } else {
         ""
     };
+    // the unit's symbol beside the numbers when they are shown converted
+    let u = unit.map_or(String::new(), |u| format!(" {u}"));
     format!(
-        "{} = {} is {side} the training range {} to {} by {} ({:.0} % of the range){tail}",
+        "{} = {}{u} is {side} the training range {} to {}{u} by {}{u} ({:.0} % of the range){tail}",
         e.input,
         v(e.value),
         v(e.min),

@@ -184,8 +184,8 @@ pub struct GrossErrorCard {
     /// Training rows of the final refit.
     pub n_rows: usize,
     /// Members whose refit with the share failed (they kept the Gaussian
-    /// refit).
-    pub refit_fallbacks: usize,
+    /// refit), each with the reason: the list the model file holds.
+    pub refit_fallbacks: Vec<String>,
     /// ν of the Student-t shape chosen on the held-out part (None:
     /// Gaussian).
     pub tail_dof: Option<f64>,
@@ -223,7 +223,7 @@ impl GrossErrorCard {
                 " The networks were refitted on all {} training rows with this share: {rows:.1} rows' worth of weight went to the gross-error part, so those rows neither pulled the estimates nor widened the noise level.",
                 self.n_rows
             )
-        }) + &match self.refit_fallbacks {
+        }) + &match self.refit_fallbacks.len() {
             0 => String::new(),
             k => format!(" {k} member(s) could not be refitted with the share and kept the refit with the Gaussian likelihood (the model file records why)."),
         };
@@ -445,7 +445,7 @@ pub fn model_card(model: &Model) -> ModelCard {
                     heldout_nlpd: g.heldout_nlpd,
                     refit_gross_rows: g.refit_gross_rows,
                     n_rows: t.n_rows,
-                    refit_fallbacks: g.refit_fallbacks.len(),
+                    refit_fallbacks: g.refit_fallbacks.clone(),
                     tail_dof: g.tail_dof,
                     // files before format 6 have no heavy_tails setting
                     // (read as false): their part is always the share's

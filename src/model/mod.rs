@@ -140,6 +140,41 @@ impl Model {
         self.inputs.iter().map(|i| i.name.as_str()).collect()
     }
 
+    /// The columns the model's schema declares as row identifiers (none
+    /// for a model trained without a schema).
+    pub fn identifier_names(&self) -> Vec<String> {
+        self.schema.as_ref().map_or_else(Vec::new, |s| {
+            s.with_role(crate::data::schema::Role::Identifier)
+                .map(|c| c.name.clone())
+                .collect()
+        })
+    }
+
+    /// The column identifying `table`'s rows for this model: `requested`,
+    /// else the schema's identifier, else a text first column that is not
+    /// an input ([`crate::data::identifier_column`]).
+    ///
+    /// # Errors
+    /// A `requested` column the table lacks.
+    pub fn row_labels(
+        &self,
+        table: &crate::data::Table,
+        requested: Option<&str>,
+    ) -> crate::Result<Option<crate::data::RowLabels>> {
+        let mut inputs = self.input_names();
+        if let Some(s) = &self.schema {
+            inputs.extend(
+                s.columns
+                    .iter()
+                    .filter(|c| c.role.is_numeric())
+                    .map(|c| c.name.as_str()),
+            );
+        }
+        crate::data::identifier_column(table, requested, &self.identifier_names(), &inputs)?
+            .map(|c| crate::data::RowLabels::read(table, &c))
+            .transpose()
+    }
+
     /// The target called `name`.
     pub fn target(&self, name: &str) -> Option<&TargetModel> {
         self.targets.iter().find(|t| t.name == name)

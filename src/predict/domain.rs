@@ -100,8 +100,18 @@ impl DomainGuard<'_> {
         raw: ArrayView2<f64>,
         learnt: &[Vec<ScalePrediction>],
     ) -> Vec<DomainVerdict> {
+        self.check_many_shown(raw, learnt, &self.model.input_note_units())
+    }
+
+    /// As [`DomainGuard::check_many_with`], the notes showing each input's
+    /// values in its entry of `units` (`None`: as they are).
+    pub fn check_many_shown(
+        &self,
+        raw: ArrayView2<f64>,
+        learnt: &[Vec<ScalePrediction>],
+        units: &[Option<crate::units::Unit>],
+    ) -> Vec<DomainVerdict> {
         use rayon::prelude::*;
-        let units = self.model.input_note_units();
         let uncertainty: Vec<Option<UncertaintyRatio>> = (0..raw.nrows())
             .map(|i| uncertainty_ratio(self.model, learnt, i))
             .collect();
@@ -111,7 +121,7 @@ impl DomainGuard<'_> {
             .collect::<Vec<_>>()
             .into_par_iter()
             .map(|(block, u)| {
-                domain::check_many(&self.model.inputs, self.index.as_ref(), block, u, &units)
+                domain::check_many(&self.model.inputs, self.index.as_ref(), block, u, units)
             })
             .collect();
         blocks.into_iter().flatten().collect()

@@ -7,16 +7,22 @@
 //! says so.
 
 mod back_transform;
+mod declared_units;
+mod distribution;
 mod domain;
 mod output;
 mod rows;
+mod unit_hint;
 
+pub use declared_units::UnitDeclaration;
+pub use distribution::PredictiveForm;
 pub use domain::{range_check, DomainGuard, DomainReport};
 pub use output::{
-    csv_header, csv_row, json_row, to_column_units, EstimateFormat, EstimateWriter, TargetColumn,
-    CAUTION, ROW_CAUTION,
+    header_cells, json_head, json_row, row_cells, to_column_units, EstimateBatch, EstimateFormat,
+    EstimateLayout, EstimateWriter, TargetColumn, CAUTION,
 };
 pub use rows::{estimate_rows, TargetRows};
+pub use unit_hint::UnitHint;
 
 use ndarray::Array2;
 use serde::Serialize;
@@ -110,6 +116,39 @@ pub struct FullPrediction {
     /// The scaled inputs (rows × inputs); the training range of each
     /// input maps to [−0.5, 0.5].
     pub scaled: Array2<f64>,
+    /// Columns the table declared in another unit, converted.
+    pub declarations: Vec<UnitDeclaration>,
+}
+
+/// How a table's values are shown in the notes: per input, the unit its
+/// values are shown in (`None`: as the networks read them), and the inputs
+/// whose unit the table declared (no unit hint for them).
+#[derive(Clone, Debug, Default, PartialEq)]
+struct Reading {
+    note_units: Vec<Option<Unit>>,
+    declared: Vec<String>,
+}
+
+impl Reading {
+    /// The reading of a table with `declarations` (`Model::apply_declared_units`).
+    fn new(model: &Model, declarations: &[UnitDeclaration]) -> Reading {
+        let mut note_units = model.input_note_units();
+        for d in declarations {
+            let Some(j) = model.inputs.iter().position(|i| i.name == d.column) else {
+                continue;
+            };
+            // raw values are internal for a model with a schema; without
+            // one they are in the column's own unit, shown converted only
+            // when that is the internal unit of its quantity
+            if model.schema.is_some() || d.to.is_internal() {
+                note_units[j] = Some(d.from);
+            }
+        }
+        Reading {
+            note_units,
+            declared: declarations.iter().map(|d| d.column.clone()).collect(),
+        }
+    }
 }
 
 /// The standard-normal quantile of 0.975 (≈ 1.959964), from statrs.
@@ -154,11 +193,12 @@ impl Model {
         table: &Table,
         need_targets: bool,
     ) -> Result<(Table, Vec<RowWarning>)> {
+        let (table, _) = self.apply_declared_units(table)?;
         match &self.schema {
-            None => Ok((table.clone(), Vec::new())),
+            None => Ok((table, Vec::new())),
             Some(schema) => {
                 let p = schema.prepare(
-                    table,
+                    &table,
                     "stored in the model",
                     PrepareOptions {
                         need_targets,
@@ -186,10 +226,12 @@ impl Model {
     /// # Errors
     /// As [`Model::predict`].
     pub fn predict_with_scale(&self, table: &Table) -> Result<FullPrediction> {
-        let (prepared, warnings) = self.read_through_schema(table, false)?;
+        let (table, declarations) = self.apply_declared_units(table)?;
+        let (prepared, warnings) = self.read_through_schema(&table, false)?;
         let (raw, scaled) = self.scaled_inputs(&prepared)?;
         let learnt = self.predict_learnt_scale(&scaled);
-        let mut rows = self.rows_from_learnt(&raw, &learnt);
+        let reading = Reading::new(self, &declarations);
+        let mut rows = self.rows_from_learnt(&raw, &learnt, &reading);
         for w in warnings {
             if let Some(r) = rows.get_mut(w.row) {
                 r.notes.push(w.message);
@@ -199,6 +241,7 @@ impl Model {
             rows,
             learnt,
             scaled,
+            declarations,
         })
     }
 
@@ -241,7 +284,8 @@ impl Model {
 
     /// Estimates from raw and scaled input matrices (rows × inputs).
     pub fn predict_arrays(&self, raw: &Array2<f64>, scaled: &Array2<f64>) -> Vec<RowPrediction> {
-        self.rows_from_learnt(raw, &self.predict_learnt_scale(scaled))
+        let reading = Reading::new(self, &[]);
+        self.rows_from_learnt(raw, &self.predict_learnt_scale(scaled), &reading)
     }
 
     /// Estimates and domain verdicts from raw inputs and the learnt-scale
@@ -250,6 +294,7 @@ impl Model {
         &self,
         raw: &Array2<f64>,
         learnt: &[Vec<ScalePrediction>],
+        reading: &Reading,
     ) -> Vec<RowPrediction> {
         let per_target: Vec<Vec<Estimate>> = self
             .targets
@@ -270,13 +315,20 @@ impl Model {
             .collect();
         // the domain check costs one pass over the training rows per row;
         // check_many spreads it over the cores
-        let verdicts = self.domain_guard().check_many_with(raw.view(), learnt);
+        let verdicts =
+            self.domain_guard()
+                .check_many_shown(raw.view(), learnt, &reading.note_units);
         verdicts
             .into_iter()
             .enumerate()
             .map(|(i, dom)| {
                 let estimates: Vec<Estimate> = per_target.iter().map(|e| e[i].clone()).collect();
                 let mut notes = dom.notes;
+                notes.extend(
+                    self.unit_hints(raw.row(i), &reading.declared)
+                        .into_iter()
+                        .map(|h| h.note),
+                );
                 for ((t, b), e) in self.targets.iter().zip(&bounds).zip(&estimates) {
                     notes.extend(b.as_ref().and_then(|b| b.note(&t.name, e.median)));
                 }

@@ -1,19 +1,33 @@
-//! The estimate files of `mettle predict --format csv|json`, written by the
-//! command line and by the local web server alike, so that both give the
-//! same bytes for the same rows.
+//! The estimate files of `mettle predict --format csv|json|xlsx`, written by
+//! the command line and by the local web server alike, so that both give
+//! the same bytes for the same rows.
 //!
-//! CSV: one header row (`row`, then per target `<target>_mean`, `_median`,
-//! `_sd`, `_lo95`, `_hi95`, `_noise_sd`, `_model_sd`, `_interval_kind`,
-//! `_unit`, then `in_domain`, `domain`, `notes`, `caution`), one line per row.
-//! JSON: a pretty-printed array with one object per row (keys in
-//! docs/guide-qa.md); every row carries [`ROW_CAUTION`].
+//! Every format carries the caution once (not on every row), the rows'
+//! identifiers when the table has them, the graded domain verdict beside
+//! the row, and enough of each target's predictive distribution
+//! ([`PredictiveForm`]) to compute the density of a measured value.
+//!
+//! - CSV: one header row (`row`, the identifier column, `in_domain`,
+//!   `domain`, then per target `<target>_mean`, `_median`, `_sd`, `_lo95`,
+//!   `_hi95`, `_noise_sd`, `_model_sd`, `_unit`, then `notes`, `caution`),
+//!   one line per row, numbers to the layout's significant digits; the
+//!   caution in the first row's `caution` cell.
+//! - JSON: one object: `caution`, `id_column`, `targets` keyed by target
+//!   (unit, interval kind, the distribution's form), and `rows`, each with
+//!   `row`, `id`, `in_domain`, `domain`, `notes` and `estimates` keyed by
+//!   target whatever their number.
+//! - XLSX: a workbook with the CSV's cells on sheet `estimates` and the
+//!   targets' distributions on sheet `targets`.
 
 use std::io::{self, Write};
 
 use serde_json::{json, Map, Value};
 
-use super::{Estimate, RowPrediction};
-use crate::data::csv_field;
+use super::{Estimate, PredictiveForm, RowPrediction, ScalePrediction};
+use crate::data::cells::{csv_line, Cell, DEFAULT_DIGITS};
+use crate::data::spreadsheet::{xlsx_bytes, Sheet};
+use crate::data::{RowLabels, Table};
+use crate::error::Result;
 use crate::model::{IntervalKind, Model};
 use crate::units::Unit;
 
@@ -21,20 +35,19 @@ use crate::units::Unit;
 pub const CAUTION: &str = "Caution: these are model estimates with error bars, not test results. \
 Qualification testing per the applicable code decides; local codes and licensed engineers have the final word.";
 
-/// The caution carried by every row of a machine-readable estimate file,
-/// so that it travels with the numbers.
-pub const ROW_CAUTION: &str = "model estimate, not a test result: qualification testing per the applicable code decides; local codes and licensed engineers have the final word";
-
-/// The two machine-readable formats of an estimate file.
+/// The machine-readable formats of an estimate file.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
 pub enum EstimateFormat {
     /// Comma-separated values with a header row.
     Csv,
-    /// A JSON array, one object per row.
+    /// One JSON object (head and rows).
     Json,
+    /// An Excel workbook (.xlsx).
+    Xlsx,
 }
 
-/// One target as written: name, unit, and the kind of its interval.
+/// One target as written: name, unit, the kind of its interval and the
+/// form of its predictive distribution (in the same unit).
 #[derive(Clone, Debug, PartialEq)]
 pub struct TargetColumn {
     /// Target name.
@@ -43,6 +56,29 @@ pub struct TargetColumn {
     pub unit: Option<Unit>,
     /// Symmetric or mapped back from a transformed scale.
     pub kind: IntervalKind,
+    /// The predictive distribution's form.
+    pub form: PredictiveForm,
+}
+
+impl TargetColumn {
+    /// The estimate's centre: the mean on the target's own scale, the
+    /// median for a transformed target.
+    pub fn centre(&self, e: &Estimate) -> f64 {
+        if self.kind == IntervalKind::Normal {
+            e.mean
+        } else {
+            e.median
+        }
+    }
+
+    /// The name of [`Self::centre`].
+    pub fn centre_name(&self) -> &'static str {
+        if self.kind == IntervalKind::Normal {
+            "mean"
+        } else {
+            "median"
+        }
+    }
 }
 
 impl Model {
@@ -51,12 +87,75 @@ impl Model {
     pub fn target_columns(&self, declared: bool) -> Vec<TargetColumn> {
         self.targets
             .iter()
-            .map(|t| TargetColumn {
-                name: t.name.clone(),
-                unit: self.target_unit(&t.name, declared),
-                kind: t.transform.interval_kind(),
+            .map(|t| {
+                let unit = self.target_unit(&t.name, declared);
+                let form = PredictiveForm::of(t);
+                TargetColumn {
+                    name: t.name.clone(),
+                    unit,
+                    kind: t.transform.interval_kind(),
+                    form: match (declared, unit) {
+                        (true, Some(u)) => form.in_unit(u),
+                        _ => form,
+                    },
+                }
             })
             .collect()
+    }
+
+    /// The layout of an estimate file for this model: its targets (in the
+    /// declared units when `declared`), the identifier column chosen on
+    /// `first` (the table, or its first batch: `requested`, else the
+    /// schema's identifier, else a first column of text that is not an
+    /// input), numbers to `digits` significant digits.
+    ///
+    /// # Errors
+    /// A `requested` identifier column `first` lacks.
+    pub fn estimate_layout(
+        &self,
+        first: Option<&Table>,
+        requested_id: Option<&str>,
+        declared: bool,
+        digits: usize,
+    ) -> Result<EstimateLayout> {
+        let id_column = match first {
+            Some(t) => self.row_labels(t, requested_id)?.map(|l| l.column),
+            None => None,
+        };
+        Ok(EstimateLayout {
+            cols: self.target_columns(declared),
+            id_column,
+            digits,
+            declared,
+        })
+    }
+
+    /// The estimates of one table (or batch of a larger one) as `layout`
+    /// writes them: converted to its units, with the rows' identifiers and
+    /// the distribution on the learnt scale.
+    ///
+    /// # Errors
+    /// As [`Model::predict`]; the layout's identifier column missing; a
+    /// column that looks, in every row, as if it were in another unit than
+    /// the model's ([`Model::unit_check`]).
+    pub fn estimate_batch(&self, table: &Table, layout: &EstimateLayout) -> Result<EstimateBatch> {
+        self.unit_check(table)?;
+        let full = self.predict_with_scale(table)?;
+        let mut rows = full.rows;
+        if layout.declared {
+            to_column_units(&layout.cols, &mut rows);
+        }
+        let labels = match &layout.id_column {
+            Some(c) => Some(RowLabels::read(table, c)?),
+            None => None,
+        };
+        Ok(EstimateBatch {
+            first_row: table.first_row(),
+            rows,
+            learnt: full.learnt,
+            labels,
+            declarations: full.declarations,
+        })
     }
 }
 
@@ -72,75 +171,164 @@ pub fn to_column_units(cols: &[TargetColumn], rows: &mut [RowPrediction]) {
     }
 }
 
+/// What stays the same for every row of an estimate file.
+#[derive(Clone, Debug, PartialEq)]
+pub struct EstimateLayout {
+    /// The targets, in model order.
+    pub cols: Vec<TargetColumn>,
+    /// The column naming each row, when the table has one.
+    pub id_column: Option<String>,
+    /// Significant digits of CSV and spreadsheet numbers.
+    pub digits: usize,
+    /// Estimates in the schema's declared units.
+    pub declared: bool,
+}
+
+impl EstimateLayout {
+    /// A layout for `cols` without identifiers, default digits, internal units.
+    pub fn plain(cols: Vec<TargetColumn>) -> EstimateLayout {
+        EstimateLayout {
+            cols,
+            id_column: None,
+            digits: DEFAULT_DIGITS,
+            declared: false,
+        }
+    }
+}
+
+/// The estimates of one batch of input rows.
+#[derive(Clone, Debug, PartialEq)]
+pub struct EstimateBatch {
+    /// Data rows of the file before the batch.
+    pub first_row: usize,
+    /// Estimates and verdict per row.
+    pub rows: Vec<RowPrediction>,
+    /// Per target, per row: the distribution on the learnt scale.
+    pub learnt: Vec<Vec<ScalePrediction>>,
+    /// The rows' identifiers, when the table has an identifier column.
+    pub labels: Option<RowLabels>,
+    /// Columns the table declared in another unit, converted.
+    pub declarations: Vec<super::UnitDeclaration>,
+}
+
+impl EstimateBatch {
+    /// The identifier of row `i` of the batch (0-based), if any.
+    pub fn label(&self, i: usize) -> Option<&str> {
+        self.labels.as_ref().map(|l| l.get(i))
+    }
+
+    /// The data-row number (1-based, in the whole file) of row `i`.
+    pub fn number(&self, i: usize) -> usize {
+        self.first_row + i + 1
+    }
+}
+
 /// An estimate file written as batches of rows come: the same bytes as
-/// formatting all rows at once.
+/// formatting all rows at once. (A workbook is assembled in memory and
+/// written at [`Self::finish`].)
 pub struct EstimateWriter<'a> {
     w: &'a mut dyn Write,
     format: EstimateFormat,
-    cols: &'a [TargetColumn],
+    layout: &'a EstimateLayout,
     written: usize,
+    sheet: Vec<Vec<Cell>>,
 }
 
 impl<'a> EstimateWriter<'a> {
-    /// Write the opening (CSV header or `[`).
+    /// Write the opening (CSV header, the JSON head).
     ///
     /// # Errors
     /// Whatever the writer reports.
     pub fn start(
         w: &'a mut dyn Write,
         format: EstimateFormat,
-        cols: &'a [TargetColumn],
+        layout: &'a EstimateLayout,
     ) -> io::Result<Self> {
+        let mut sheet = Vec::new();
         match format {
-            EstimateFormat::Csv => w.write_all(csv_header(cols).as_bytes())?,
-            EstimateFormat::Json => w.write_all(b"[")?,
+            EstimateFormat::Csv => {
+                w.write_all(csv_line(&header_cells(layout), layout.digits).as_bytes())?;
+            }
+            EstimateFormat::Json => {
+                // the head object, left open for the rows
+                let head =
+                    serde_json::to_string_pretty(&json_head(layout)).map_err(io::Error::other)?;
+                let head = head.strip_suffix("\n}").unwrap_or(&head);
+                w.write_all(head.as_bytes())?;
+                w.write_all(b",\n  \"rows\": [")?;
+            }
+            EstimateFormat::Xlsx => sheet.push(header_cells(layout)),
         }
         Ok(EstimateWriter {
             w,
             format,
-            cols,
+            layout,
             written: 0,
+            sheet,
         })
     }
 
-    /// Write `rows`, the first being data row `first_row + 1` of the input.
+    /// Write the rows of `b`.
     ///
     /// # Errors
     /// Whatever the writer reports.
-    pub fn rows(&mut self, first_row: usize, rows: &[RowPrediction]) -> io::Result<()> {
-        for (i, r) in rows.iter().enumerate() {
-            let number = first_row + i + 1;
-            if self.format == EstimateFormat::Csv {
-                self.w.write_all(csv_row(self.cols, number, r).as_bytes())?;
-                continue;
-            }
-            // one element of a pretty-printed array: each line indented by two
-            let text = serde_json::to_string_pretty(&json_row(self.cols, number, r))
-                .map_err(io::Error::other)?;
-            self.w
-                .write_all(if self.written == 0 { b"\n" } else { b",\n" })?;
-            for (k, line) in text.lines().enumerate() {
-                if k > 0 {
-                    self.w.write_all(b"\n")?;
-                }
-                self.w.write_all(b"  ")?;
-                self.w.write_all(line.as_bytes())?;
-            }
+    pub fn rows(&mut self, b: &EstimateBatch) -> io::Result<()> {
+        for i in 0..b.rows.len() {
+            let first = self.written == 0;
             self.written += 1;
+            match self.format {
+                EstimateFormat::Csv => {
+                    let cells = row_cells(self.layout, b, i, first);
+                    self.w
+                        .write_all(csv_line(&cells, self.layout.digits).as_bytes())?;
+                }
+                EstimateFormat::Xlsx => self.sheet.push(row_cells(self.layout, b, i, first)),
+                EstimateFormat::Json => {
+                    // one element of a pretty-printed array: each line indented by four
+                    let text = serde_json::to_string_pretty(&json_row(self.layout, b, i))
+                        .map_err(io::Error::other)?;
+                    self.w.write_all(if first { b"\n" } else { b",\n" })?;
+                    for (k, line) in text.lines().enumerate() {
+                        if k > 0 {
+                            self.w.write_all(b"\n")?;
+                        }
+                        self.w.write_all(b"    ")?;
+                        self.w.write_all(line.as_bytes())?;
+                    }
+                }
+            }
         }
         Ok(())
     }
 
-    /// Write the closing (`]` for JSON).
+    /// Write the closing (JSON), or the whole workbook (XLSX).
     ///
     /// # Errors
-    /// Whatever the writer reports.
+    /// Whatever the writer reports; a workbook that cannot be assembled.
     pub fn finish(self) -> io::Result<()> {
-        if self.format == EstimateFormat::Json {
-            self.w
-                .write_all(if self.written == 0 { b"]\n" } else { b"\n]\n" })?;
+        match self.format {
+            EstimateFormat::Csv => Ok(()),
+            EstimateFormat::Json => self.w.write_all(if self.written == 0 {
+                b"]\n}\n"
+            } else {
+                b"\n  ]\n}\n"
+            }),
+            EstimateFormat::Xlsx => {
+                let sheets = [
+                    Sheet {
+                        name: "estimates".into(),
+                        rows: self.sheet,
+                    },
+                    Sheet {
+                        name: "targets".into(),
+                        rows: target_sheet(self.layout),
+                    },
+                ];
+                let bytes = xlsx_bytes("the estimate workbook", &sheets, self.layout.digits)
+                    .map_err(io::Error::other)?;
+                self.w.write_all(&bytes)
+            }
         }
-        Ok(())
     }
 }
 
@@ -158,73 +346,135 @@ fn kind_name(k: IntervalKind) -> Value {
     serde_json::to_value(k).unwrap_or(Value::Null)
 }
 
-fn estimate_object(c: &TargetColumn, e: &Estimate) -> Map<String, Value> {
-    let mut m: Map<String, Value> = FIELDS
+/// What stays the same for every row: the caution, the identifier column,
+/// and per target its unit, interval kind and distribution's form.
+pub fn json_head(layout: &EstimateLayout) -> Value {
+    let targets: Map<String, Value> = layout
+        .cols
         .iter()
-        .zip(estimate_values(e))
-        .map(|(k, v)| ((*k).to_string(), json!(v)))
+        .map(|c| {
+            let mut m = Map::new();
+            m.insert("unit".into(), json!(c.unit.map(|u| u.symbol())));
+            m.insert("interval_kind".into(), kind_name(c.kind));
+            if let Value::Object(f) = json!(c.form) {
+                m.extend(f);
+            }
+            (c.name.clone(), Value::Object(m))
+        })
         .collect();
-    m.insert("interval_kind".into(), kind_name(c.kind));
-    if let Some(u) = c.unit {
-        m.insert("unit".into(), json!(u.symbol()));
-    }
-    m
+    json!({
+        "caution": CAUTION,
+        "id_column": layout.id_column,
+        "targets": targets,
+    })
 }
 
-/// One row of the JSON estimate file; `number` is its data row (1-based).
-pub fn json_row(cols: &[TargetColumn], number: usize, r: &RowPrediction) -> Value {
+/// Row `i` of batch `b` as a JSON object.
+pub fn json_row(layout: &EstimateLayout, b: &EstimateBatch, i: usize) -> Value {
+    let r = &b.rows[i];
     let mut obj = Map::new();
-    obj.insert("row".into(), json!(number));
-    if cols.len() == 1 {
-        obj.insert("target".into(), json!(cols[0].name));
-        obj.extend(estimate_object(&cols[0], &r.estimates[0]));
-    } else {
-        let est: Map<String, Value> = cols
-            .iter()
-            .zip(&r.estimates)
-            .map(|(c, e)| (c.name.clone(), Value::Object(estimate_object(c, e))))
-            .collect();
-        obj.insert("estimates".into(), Value::Object(est));
+    obj.insert("row".into(), json!(b.number(i)));
+    if let Some(l) = b.label(i) {
+        obj.insert("id".into(), json!(l));
     }
     obj.insert("in_domain".into(), json!(r.in_domain));
     obj.insert("domain".into(), json!(r.level.name()));
     obj.insert("notes".into(), json!(r.notes));
-    obj.insert("caution".into(), json!(ROW_CAUTION));
+    let est: Map<String, Value> = layout
+        .cols
+        .iter()
+        .enumerate()
+        .map(|(k, c)| {
+            let e = &r.estimates[k];
+            let mut m: Map<String, Value> = FIELDS
+                .iter()
+                .zip(estimate_values(e))
+                .map(|(f, v)| ((*f).to_string(), json!(v)))
+                .collect();
+            if c.form.scale != "target" {
+                if let Some(p) = b.learnt.get(k).and_then(|t| t.get(i)) {
+                    m.insert("scale_mean".into(), json!(p.mean));
+                    m.insert("scale_sd".into(), json!(p.sd));
+                }
+            }
+            (c.name.clone(), Value::Object(m))
+        })
+        .collect();
+    obj.insert("estimates".into(), Value::Object(est));
     Value::Object(obj)
 }
 
-/// The header line of the CSV estimate file.
-pub fn csv_header(cols: &[TargetColumn]) -> String {
-    let mut h = vec!["row".to_string()];
-    for c in cols {
-        for f in FIELDS {
-            h.push(format!("{}_{f}", c.name));
-        }
-        h.push(format!("{}_interval_kind", c.name));
-        h.push(format!("{}_unit", c.name));
+/// The header cells of the CSV file and the workbook's `estimates` sheet.
+pub fn header_cells(layout: &EstimateLayout) -> Vec<Cell> {
+    let mut h = vec![Cell::Text("row".into())];
+    if let Some(c) = &layout.id_column {
+        h.push(Cell::Text(c.clone()));
     }
-    h.push("in_domain".into());
-    h.push("domain".into());
-    h.push("notes".into());
-    h.push("caution".into());
-    let mut s: String = h.iter().map(|x| csv_field(x)).collect::<Vec<_>>().join(",");
-    s.push('\n');
-    s
+    h.push(Cell::Text("in_domain".into()));
+    h.push(Cell::Text("domain".into()));
+    for c in &layout.cols {
+        for f in FIELDS {
+            h.push(Cell::Text(format!("{}_{f}", c.name)));
+        }
+        h.push(Cell::Text(format!("{}_unit", c.name)));
+    }
+    h.push(Cell::Text("notes".into()));
+    h.push(Cell::Text("caution".into()));
+    h
 }
 
-/// One line of the CSV estimate file; `number` is its data row (1-based).
-pub fn csv_row(cols: &[TargetColumn], number: usize, r: &RowPrediction) -> String {
-    let mut cells = vec![number.to_string()];
-    for (c, e) in cols.iter().zip(&r.estimates) {
-        cells.extend(estimate_values(e).iter().map(|v| v.to_string()));
-        cells.push(kind_name(c.kind).as_str().unwrap_or_default().to_string());
-        cells.push(csv_field(c.unit.map_or("", |u| u.symbol())));
+/// The cells of row `i` of batch `b`; the caution in the file's first row.
+pub fn row_cells(layout: &EstimateLayout, b: &EstimateBatch, i: usize, first: bool) -> Vec<Cell> {
+    let r = &b.rows[i];
+    let mut cells = vec![Cell::Int(b.number(i))];
+    if layout.id_column.is_some() {
+        cells.push(Cell::Text(b.label(i).unwrap_or_default().to_string()));
     }
-    cells.push(r.in_domain.to_string());
-    cells.push(r.level.name().to_string());
-    cells.push(csv_field(&r.notes.join("; ")));
-    cells.push(csv_field(ROW_CAUTION));
-    let mut s = cells.join(",");
-    s.push('\n');
-    s
+    cells.push(Cell::Bool(r.in_domain));
+    cells.push(Cell::Text(r.level.name().to_string()));
+    for (c, e) in layout.cols.iter().zip(&r.estimates) {
+        cells.extend(estimate_values(e).map(Cell::Num));
+        cells.push(Cell::Text(c.unit.map_or("", |u| u.symbol()).to_string()));
+    }
+    cells.push(Cell::Text(r.notes.join("; ")));
+    cells.push(if first {
+        Cell::Text(CAUTION.into())
+    } else {
+        Cell::Empty
+    });
+    cells
+}
+
+/// The workbook's `targets` sheet: one row per target with its unit,
+/// interval kind and the predictive distribution's form, then the caution.
+fn target_sheet(layout: &EstimateLayout) -> Vec<Vec<Cell>> {
+    let head = [
+        "target",
+        "unit",
+        "interval_kind",
+        "shape",
+        "dof",
+        "scale",
+        "gross_error_share",
+        "gross_error_mean",
+        "gross_error_sd",
+    ];
+    let mut rows = vec![head.iter().map(|h| Cell::Text((*h).into())).collect()];
+    let opt = |v: Option<f64>| v.map_or(Cell::Empty, Cell::Num);
+    for c in &layout.cols {
+        rows.push(vec![
+            Cell::Text(c.name.clone()),
+            Cell::Text(c.unit.map_or("", |u| u.symbol()).to_string()),
+            Cell::Text(kind_name(c.kind).as_str().unwrap_or_default().to_string()),
+            Cell::Text(c.form.shape.to_string()),
+            opt(c.form.dof),
+            Cell::Text(c.form.scale.to_string()),
+            Cell::Num(c.form.gross_error_share),
+            opt(c.form.gross_error_mean),
+            opt(c.form.gross_error_sd),
+        ]);
+    }
+    rows.push(Vec::new());
+    rows.push(vec![Cell::Text(CAUTION.into())]);
+    rows
 }

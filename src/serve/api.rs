@@ -13,7 +13,8 @@ use axum::response::{IntoResponse, Response};
 use axum::routing::{get, post};
 use axum::{Json, Router};
 use mettle::curves::{base_row, sweep, transition, Axis, Sweep, TransitionOptions};
-use mettle::predict::{to_column_units, EstimateFormat, EstimateWriter, CAUTION};
+use mettle::data::cells::DEFAULT_DIGITS;
+use mettle::predict::{EstimateFormat, EstimateWriter, CAUTION};
 use mettle::screen::{ProcessLimits, Requirement, Screening};
 use serde_json::{json, Value};
 
@@ -135,8 +136,9 @@ fn rows_of(v: &Value, limits: &Limits) -> Result<Rows, Reply> {
     rows::read(&csv, &name, limits.max_rows)
 }
 
-/// `POST /api/models/{id}/predict[?format=json|csv][&units=internal|declared]`:
-/// the rows' estimates as `mettle predict --format json|csv` writes them.
+/// `POST /api/models/{id}/predict[?format=json|csv|xlsx][&units=internal|declared][&id=COLUMN]`:
+/// the rows' estimates as `mettle predict --format json|csv` (or `--out
+/// FILE.xlsx`) writes them: the same layout, identifiers and bytes.
 /// The body is JSON (`{"rows": [...]}`, `{"csv": "..."}` or an array of
 /// rows) or CSV / tab-separated text.
 async fn predict(
@@ -149,9 +151,10 @@ async fn predict(
     let format = match q.get("format").map(String::as_str) {
         None | Some("json") => EstimateFormat::Json,
         Some("csv") => EstimateFormat::Csv,
+        Some("xlsx") => EstimateFormat::Xlsx,
         Some(f) => {
             return Err(Reply::bad_input(format!(
-                "format={f}: expected json or csv"
+                "format={f}: expected json, csv or xlsx"
             )))
         }
     };
@@ -169,6 +172,7 @@ async fn predict(
     let limits = s.limits.clone();
     let json_body = is_json(&headers);
     let name = rows::label(q.get("source").map(String::as_str), "request rows");
+    let id_column = q.get("id").cloned();
     let out = blocking(move || {
         let rows = if json_body {
             let v = parse_json(&bytes)?;
@@ -181,16 +185,23 @@ async fn predict(
                 .map_err(|_| Reply::bad_input("request body: the text is not UTF-8"))?;
             rows::read(&rows::pasted_to_csv(text), &name, limits.max_rows)?
         };
-        let cols = e.model.target_columns(declared);
-        let mut est = e.model.predict(&rows.table).map_err(|x| rows.bad(&x))?;
-        if declared {
-            to_column_units(&cols, &mut est);
-        }
+        let layout = e
+            .model
+            .estimate_layout(
+                Some(&rows.table),
+                id_column.as_deref(),
+                declared,
+                DEFAULT_DIGITS,
+            )
+            .map_err(|x| rows.bad(&x))?;
+        let est = e
+            .model
+            .estimate_batch(&rows.table, &layout)
+            .map_err(|x| rows.bad(&x))?;
         let mut buf = Vec::new();
-        let mut w = EstimateWriter::start(&mut buf, format, &cols)
+        let mut w = EstimateWriter::start(&mut buf, format, &layout)
             .map_err(|x| Reply::internal(x.to_string()))?;
-        w.rows(0, &est)
-            .map_err(|x| Reply::internal(x.to_string()))?;
+        w.rows(&est).map_err(|x| Reply::internal(x.to_string()))?;
         w.finish().map_err(|x| Reply::internal(x.to_string()))?;
         Ok(buf)
     })
@@ -198,6 +209,7 @@ async fn predict(
     let kind = match format {
         EstimateFormat::Csv => "text/csv; charset=utf-8",
         EstimateFormat::Json => "application/json",
+        EstimateFormat::Xlsx => "application/vnd.openxmlformats-officedocument.spreadsheetml.sheet",
     };
     Ok(([(header::CONTENT_TYPE, kind)], out).into_response())
 }

@@ -193,11 +193,9 @@ fn group_keys(table: &Table, group: Option<&str>) -> Result<Vec<Option<String>>>
     let Some(name) = group else {
         return Ok(vec![None; table.n_rows()]);
     };
-    let i = table.index_of(name).ok_or_else(|| Error::MissingColumn {
-        path: table.source().display().to_string(),
-        name: name.to_string(),
-        available: table.names().join(", "),
-    })?;
+    let i = table
+        .index_of(name)
+        .ok_or_else(|| table.missing_column(name))?;
     Ok((0..table.n_rows())
         .map(|r| table.cell_text(i, r).filter(|s| !s.trim().is_empty()))
         .collect())

@@ -524,3 +524,34 @@ pub fn same_up_to_rounding(a: &[u8], b: &[u8]) -> Result<(), String> {
     }
     Ok(())
 }
+
+/// The rows of `predict --format json` output (one object: caution,
+/// id_column, targets with each target's unit, interval kind and
+/// distribution form, and rows). For a one-target model each row gets that
+/// target's estimate, interval kind and unit merged in, so a test reads
+/// `r["mean"]`; for several targets rows are returned as written.
+pub fn predict_rows(stdout: &[u8]) -> Vec<serde_json::Value> {
+    let v: serde_json::Value = serde_json::from_slice(stdout)
+        .unwrap_or_else(|e| panic!("predict JSON: {e}\n{}", String::from_utf8_lossy(stdout)));
+    let targets = v["targets"].as_object().expect("predict JSON has targets");
+    let rows = v["rows"].as_array().expect("predict JSON has rows");
+    if targets.len() != 1 {
+        return rows.clone();
+    }
+    let (name, form) = targets.iter().next().expect("one target");
+    rows.iter()
+        .map(|r| {
+            let mut r = r.clone();
+            let e = r["estimates"][name].clone();
+            let o = r.as_object_mut().expect("row object");
+            o.insert("target".into(), name.clone().into());
+            for k in ["interval_kind", "unit"] {
+                o.insert(k.into(), form[k].clone());
+            }
+            if let Some(e) = e.as_object() {
+                o.extend(e.clone());
+            }
+            r
+        })
+        .collect()
+}

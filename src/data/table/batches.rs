@@ -99,6 +99,20 @@ impl Table {
     /// file: a CSV file's shape is checked before the first batch; an
     /// error in a later batch's cells is returned by the iterator.
     pub fn read_batches(path: &Path, rows_per_batch: usize) -> Result<TableBatches> {
+        Self::read_sheet_batches(path, rows_per_batch, None)
+    }
+
+    /// As [`Table::read_batches`], and a spreadsheet workbook's sheet
+    /// `sheet` (the first when `None`), read whole: a sheet holds at most
+    /// 1 048 576 rows.
+    ///
+    /// # Errors
+    /// As [`Table::read_batches`] and [`Table::read_sheet`].
+    pub fn read_sheet_batches(
+        path: &Path,
+        rows_per_batch: usize,
+        sheet: Option<&str>,
+    ) -> Result<TableBatches> {
         let rows_per_batch = rows_per_batch.max(1);
         let whole = |t: Table| TableBatches {
             path: path.to_path_buf(),
@@ -111,6 +125,10 @@ impl Table {
             return Table::read(path).map(whole);
         }
         let source = match FileFormat::sniff(path)? {
+            // a workbook's sheet is read whole; a sheet named for another
+            // file is refused there
+            FileFormat::Spreadsheet => return Table::read_sheet(path, sheet).map(whole),
+            _ if sheet.is_some() => return Table::read_sheet(path, sheet).map(whole),
             FileFormat::Csv => {
                 if shape::check(path)?.n_rows <= rows_per_batch {
                     return Table::read(path).map(whole);

@@ -45,6 +45,13 @@ struct Scan {
     blank_line: Option<usize>,
     /// Header cells as bytes (while the header is read).
     header: Vec<Vec<u8>>,
+    /// The last byte of the current record read outside quotes.
+    prev: u8,
+    /// The last comma of the current record followed a digit.
+    comma_after_digit: bool,
+    /// Commas of the current record between two digits ("0,12"): numbers
+    /// written with a decimal comma, each split into two cells.
+    split_numbers: usize,
     n_columns: usize,
 }
 
@@ -113,6 +120,9 @@ impl Scan {
             blank_line: None,
             header: vec![Vec::new()],
             n_columns: 0,
+            prev: b'\n',
+            comma_after_digit: false,
+            split_numbers: 0,
         }
     }
 
@@ -182,8 +192,13 @@ impl Scan {
             }
             return Ok(());
         }
+        let prev = std::mem::replace(&mut self.prev, b);
+        if b.is_ascii_digit() && prev == b',' && self.comma_after_digit {
+            self.split_numbers += 1;
+        }
         match b {
             b',' => {
+                self.comma_after_digit = prev.is_ascii_digit();
                 self.commas += 1;
                 self.cell_start = true;
                 if self.in_header() {
@@ -239,6 +254,9 @@ impl Scan {
         self.content = false;
         self.cell_start = true;
         self.after_quote = false;
+        self.prev = b'\n';
+        self.comma_after_digit = false;
+        self.split_numbers = 0;
     }
 
     fn names(&self) -> Vec<String> {
@@ -279,8 +297,15 @@ impl Scan {
                         }
                     )
                 };
+                let hint = if cells > self.n_columns && self.split_numbers > 0 {
+                    "; if numbers are written with a decimal comma (0,12), each such comma splits \
+a number into two cells: save the file with a decimal point (comma-separated values, point \
+as decimal separator)"
+                } else {
+                    ""
+                };
                 return Err(format!(
-                    "{}: {cells} cells, but the header has {} ({detail})",
+                    "{}: {cells} cells, but the header has {} ({detail}){hint}",
                     self.place(),
                     self.n_columns
                 ));
@@ -345,6 +370,11 @@ mod tests {
         assert!(e.contains("row 2 (line 3)") && e.contains("'c'"), "{e}");
         let e = check_bytes(b"a,b,c\n1,2,3,4\n").expect_err("long");
         assert!(e.contains("row 1 (line 2)") && e.contains("4 cells"), "{e}");
+        // a decimal comma (common practice in much of Europe, no source)
+        let e = check_bytes(b"heat,c,mn\nFH-1,0,12,1,45\n").expect_err("split");
+        assert!(e.contains("decimal comma"), "{e}");
+        let e = check_bytes(b"heat,c,mn\nFH-1,a,b,c\n").expect_err("long");
+        assert!(!e.contains("decimal comma"), "{e}");
     }
 
     #[test]

@@ -134,6 +134,7 @@
     lastRows = null;
     $("download-csv").disabled = true;
     $("download-json").disabled = true;
+    $("download-xlsx").disabled = true;
   }
   function heatRow() {
     const row = {};
@@ -145,9 +146,13 @@
   }
 
   // ---- results --------------------------------------------------------
+  // predict's JSON: "targets" (unit, interval kind, the distribution's
+  // form) once, "rows" each with estimates keyed by target
+  let targetHeads = {};
   function estimatesOf(r) {
-    if (r.estimates) return r.estimates;
-    const e = {}; e[r.target] = r; return e;
+    const e = {};
+    for (const name of Object.keys(r.estimates)) e[name] = Object.assign({}, targetHeads[name] || {}, r.estimates[name]);
+    return e;
   }
   function centre(e) { return e.interval_kind === "normal" ? e.mean : e.median; }
   // the verdict of a row of predict's JSON: a graded "domain" when the
@@ -226,12 +231,13 @@
       "</b><div class=\"hint\">Click a row to load it into the form.</div>";
     box.hidden = false;
     const names = Object.keys(estimatesOf(rows[0]));
-    let h = '<div class="tablewrap"><table id="rows-table"><thead><tr><th>row</th>';
+    const ids = rows.some((r) => r.id !== undefined);
+    let h = '<div class="tablewrap"><table id="rows-table"><thead><tr><th>row</th>' + (ids ? '<th class="text">id</th>' : "");
     for (const t of names) h += "<th>" + esc(t) + "</th><th>95 % interval</th>";
     h += '<th class="text">domain</th></tr></thead><tbody>';
     rows.forEach((r, k) => {
       const est = estimatesOf(r);
-      h += '<tr class="pick" data-index="' + k + '"><td>' + r.row + "</td>";
+      h += '<tr class="pick" data-index="' + k + '"><td>' + r.row + "</td>" + (ids ? '<td class="text">' + esc(r.id || "") + "</td>" : "");
       for (const t of names) {
         const e = est[t];
         h += '<td data-target="' + esc(t) + '" data-centre="' + centre(e) + '">' + num(centre(e)) + "</td><td>" + num(e.lo95) + " … " + num(e.hi95) + "</td>";
@@ -257,10 +263,13 @@
   }
   async function estimate(rowsBody, source) {
     const path = "/api/models/" + encodeURIComponent(model.id) + "/predict";
-    const rows = await post(path, rowsBody);
+    const res = await post(path, rowsBody);
+    targetHeads = res.targets || {};
+    const rows = res.rows;
     lastRows = { body: rowsBody, source: source };
     $("download-csv").disabled = false;
     $("download-json").disabled = false;
+    $("download-xlsx").disabled = false;
     if (rows.length === 1 && rowsBody.row) showOne(rows[0]); else showMany(rows, source);
     $("rows").onclick = (ev) => {
       const tr = ev.target.closest("tr.pick");
@@ -394,6 +403,7 @@
   }));
   $("download-csv").addEventListener("click", () => busy(() => download("csv")));
   $("download-json").addEventListener("click", () => busy(() => download("json")));
+  $("download-xlsx").addEventListener("click", () => busy(() => download("xlsx")));
   $("sw-go").addEventListener("click", () => busy(doSweep));
   $("tr-go").addEventListener("click", () => busy(doTransition));
   busy(async () => {
