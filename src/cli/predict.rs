@@ -14,6 +14,7 @@ use mettle::predict::{
 use mettle::Model;
 
 use super::output::{aligned, emit, num, Format};
+use super::predict_extra::{BatchExtras, Extras};
 use super::CAUTION;
 
 /// Units of the estimates.
@@ -47,6 +48,13 @@ columns; estimates are in internal units (MPa, J, %, °C) unless --units declare
 JSON output is an array with one object per row: keys row, target, mean, median, sd, lo95, hi95, \
 noise_sd, model_sd, interval_kind, unit (when known), in_domain, domain, notes, caution (for a model with several \
 targets, an 'estimates' object keyed by target holds mean ... unit).\n\n\
+--require REQ (repeatable; the syntax of `mettle screen`, thresholds in internal units) adds the \
+probability that each row meets each requirement and all of them (P_all, from the targets' joint \
+predictive distribution; `joint` says whether their scatter was taken as correlated or \
+independent). --neighbours K with --training-data FILE (the model's own training table, checked \
+against its fingerprint) adds each row's K nearest training rows: file row, identifier (the \
+schema's identifier column), distance and measured values — what the estimate rests on. In CSV \
+and JSON they are extra columns or keys after caution; in the table, blocks below it.\n\n\
 Large inputs: the table is read, estimated and written a batch of rows at a time, so csv and json \
 output for millions of rows (CSV or Parquet input) take bounded memory; with --out nothing appears \
 under the name until the last row is written. The table format aligns every row, so it holds them \
@@ -75,6 +83,16 @@ pub struct PredictArgs {
     #[arg(long, value_name = "N", default_value_t = PREDICT_BATCH_ROWS as u64,
           value_parser = clap::value_parser!(u64).range(1..))]
     batch_rows: u64,
+    /// A requirement, e.g. `uts_mpa>=550` or `charpy_j>=47@test_temp_c=-40` (the syntax of
+    /// `mettle screen`); repeat for several: adds each row's probability of meeting each and all.
+    #[arg(long = "require", value_name = "REQ")]
+    require: Vec<String>,
+    /// List each row's K nearest training rows (needs --training-data).
+    #[arg(long, value_name = "K", value_parser = clap::value_parser!(u64).range(1..1000))]
+    neighbours: Option<u64>,
+    /// The model's training table, for --neighbours (checked against the model's fingerprint).
+    #[arg(long, value_name = "FILE")]
+    training_data: Option<PathBuf>,
 }
 
 pub fn run(a: PredictArgs) -> anyhow::Result<()> {
@@ -84,18 +102,32 @@ pub fn run(a: PredictArgs) -> anyhow::Result<()> {
     // the input is read, estimated and written a batch at a time, so a
     // file of millions of rows is estimated in bounded memory
     let rows_per_batch = usize::try_from(a.batch_rows).unwrap_or(usize::MAX);
+    let extras = Extras::new(
+        &model,
+        &a.require,
+        a.neighbours.map(|k| k as usize),
+        a.training_data.as_deref(),
+        declared,
+    )?;
     let batches = Table::read_batches(&a.input, rows_per_batch)?;
     let estimate = |batch: mettle::Result<Table>| -> anyhow::Result<Batch> {
         let batch = batch?;
-        let mut rows = model
-            .predict(&batch)
-            .with_context(|| format!("estimating with model {}", a.model.display()))?;
+        let context = || format!("estimating with model {}", a.model.display());
+        let (mut rows, extra) = match &extras {
+            None => (model.predict(&batch).with_context(context)?, None),
+            Some(x) => {
+                let full = model.predict_with_scale(&batch).with_context(context)?;
+                let extra = x.batch(&batch, &full).with_context(context)?;
+                (full.rows, Some(extra))
+            }
+        };
         if declared {
             to_column_units(&cols, &mut rows);
         }
         Ok(Batch {
             first_row: batch.first_row(),
             rows,
+            extra,
         })
     };
     let mut tally = Tally::default();
@@ -103,12 +135,17 @@ pub fn run(a: PredictArgs) -> anyhow::Result<()> {
         Format::Table => {
             // aligned columns need every row: for small inputs
             let mut all = Vec::new();
+            let mut more = Vec::new();
             for b in batches {
                 let b = estimate(b)?;
                 tally.add(&b.rows);
                 all.extend(b.rows);
+                more.extend(b.extra.map(|x| (b.first_row, x)));
             }
             let mut s = to_table(&cols, &all);
+            if let Some(x) = &extras {
+                s.push_str(&x.table_blocks(&more));
+            }
             s.push('\n');
             s.push_str(CAUTION);
             s.push('\n');
@@ -121,11 +158,16 @@ pub fn run(a: PredictArgs) -> anyhow::Result<()> {
                 } else {
                     EstimateFormat::Json
                 };
-                let mut out = EstimateWriter::start(w, format, &cols)?;
+                let header = extras.as_ref().map_or_else(Vec::new, |x| x.csv_header());
+                let mut out = EstimateWriter::start_with(w, format, &cols, &header)?;
                 for b in batches {
                     let b = estimate(b)?;
                     tally.add(&b.rows);
-                    out.rows(b.first_row, &b.rows)?;
+                    let cells = match (&extras, &b.extra) {
+                        (Some(x), Some(e)) => x.cells(e),
+                        _ => Vec::new(),
+                    };
+                    out.rows_with(b.first_row, &b.rows, &cells)?;
                 }
                 Ok(out.finish()?)
             };
@@ -168,6 +210,8 @@ struct Batch {
     /// Data rows of the file before the batch.
     first_row: usize,
     rows: Vec<RowPrediction>,
+    /// --require and --neighbours, when asked for.
+    extra: Option<BatchExtras>,
 }
 
 /// Rows estimated, and how many lie outside the domain.

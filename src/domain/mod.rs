@@ -781,6 +781,7 @@ pub fn fmt_num(v: f64) -> String {
 mod tests {
     use super::*;
     use crate::features::ColumnScaling;
+    use crate::prec::{DOMAIN_K, DOMAIN_REFERENCE_MAX_ROWS};
     use ndarray::{array, Array2};
 
     fn input(name: &str, lo: f64, hi: f64) -> InputColumn {

@@ -170,7 +170,7 @@ pub(crate) fn loo_quantiles(
         .collect();
     loo.sort_by(f64::total_cmp);
     qs.iter()
-        .map(|&q| super::quantile_sorted(&loo, q))
+        .map(|&q| super::reference::quantile_sorted(&loo, q))
         .collect()
 }
 

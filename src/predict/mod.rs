@@ -13,8 +13,8 @@ mod rows;
 
 pub use domain::{range_check, DomainGuard, DomainReport};
 pub use output::{
-    csv_header, csv_row, json_row, to_column_units, EstimateFormat, EstimateWriter, TargetColumn,
-    CAUTION, ROW_CAUTION,
+    csv_header, csv_row, json_row, to_column_units, EstimateFormat, EstimateWriter, ExtraCells,
+    TargetColumn, CAUTION, ROW_CAUTION,
 };
 pub use rows::{estimate_rows, TargetRows};
 

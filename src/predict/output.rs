@@ -4,7 +4,9 @@
 //!
 //! CSV: one header row (`row`, then per target `<target>_mean`, `_median`,
 //! `_sd`, `_lo95`, `_hi95`, `_noise_sd`, `_model_sd`, `_interval_kind`,
-//! `_unit`, then `in_domain`, `domain`, `notes`, `caution`), one line per row.
+//! `_unit`, then `in_domain`, `domain`, `notes`, `caution`, then any extra
+//! columns of [`ExtraCells`] such as `predict --require`'s probabilities),
+//! one line per row.
 //! JSON: a pretty-printed array with one object per row (keys in
 //! docs/guide-qa.md); every row carries [`ROW_CAUTION`].
 
@@ -81,6 +83,17 @@ pub struct EstimateWriter<'a> {
     written: usize,
 }
 
+/// Cells appended to one row of an estimate file after its `caution`
+/// (`predict --require`, `--neighbours`): CSV cells already formatted,
+/// in the order of the extra header names, and JSON keys with values.
+#[derive(Clone, Debug, Default, PartialEq)]
+pub struct ExtraCells {
+    /// CSV cells (quoted where needed).
+    pub csv: Vec<String>,
+    /// JSON keys and values.
+    pub json: Vec<(String, Value)>,
+}
+
 impl<'a> EstimateWriter<'a> {
     /// Write the opening (CSV header or `[`).
     ///
@@ -91,8 +104,32 @@ impl<'a> EstimateWriter<'a> {
         format: EstimateFormat,
         cols: &'a [TargetColumn],
     ) -> io::Result<Self> {
+        Self::start_with(w, format, cols, &[])
+    }
+
+    /// As [`EstimateWriter::start`], the CSV header followed by `extra`
+    /// column names (the rows then written by
+    /// [`EstimateWriter::rows_with`]).
+    ///
+    /// # Errors
+    /// Whatever the writer reports.
+    pub fn start_with(
+        w: &'a mut dyn Write,
+        format: EstimateFormat,
+        cols: &'a [TargetColumn],
+        extra: &[String],
+    ) -> io::Result<Self> {
         match format {
-            EstimateFormat::Csv => w.write_all(csv_header(cols).as_bytes())?,
+            EstimateFormat::Csv => {
+                let mut h = csv_header(cols);
+                h.pop();
+                for x in extra {
+                    h.push(',');
+                    h.push_str(&csv_field(x));
+                }
+                h.push('\n');
+                w.write_all(h.as_bytes())?
+            }
             EstimateFormat::Json => w.write_all(b"[")?,
         }
         Ok(EstimateWriter {
@@ -108,15 +145,42 @@ impl<'a> EstimateWriter<'a> {
     /// # Errors
     /// Whatever the writer reports.
     pub fn rows(&mut self, first_row: usize, rows: &[RowPrediction]) -> io::Result<()> {
+        self.rows_with(first_row, rows, &[])
+    }
+
+    /// As [`EstimateWriter::rows`], each row followed by its extra cells
+    /// (`extra[i]` for `rows[i]`; none where `extra` is shorter).
+    ///
+    /// # Errors
+    /// Whatever the writer reports.
+    pub fn rows_with(
+        &mut self,
+        first_row: usize,
+        rows: &[RowPrediction],
+        extra: &[ExtraCells],
+    ) -> io::Result<()> {
         for (i, r) in rows.iter().enumerate() {
             let number = first_row + i + 1;
+            let more = extra.get(i);
             if self.format == EstimateFormat::Csv {
-                self.w.write_all(csv_row(self.cols, number, r).as_bytes())?;
+                let mut line = csv_row(self.cols, number, r);
+                if let Some(x) = more {
+                    line.pop();
+                    for c in &x.csv {
+                        line.push(',');
+                        line.push_str(c);
+                    }
+                    line.push('\n');
+                }
+                self.w.write_all(line.as_bytes())?;
                 continue;
             }
+            let mut obj = json_row(self.cols, number, r);
+            if let (Some(x), Value::Object(o)) = (more, &mut obj) {
+                o.extend(x.json.iter().cloned());
+            }
             // one element of a pretty-printed array: each line indented by two
-            let text = serde_json::to_string_pretty(&json_row(self.cols, number, r))
-                .map_err(io::Error::other)?;
+            let text = serde_json::to_string_pretty(&obj).map_err(io::Error::other)?;
             self.w
                 .write_all(if self.written == 0 { b"\n" } else { b",\n" })?;
             for (k, line) in text.lines().enumerate() {
