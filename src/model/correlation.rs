@@ -37,7 +37,9 @@ impl Model {
 /// Every pair of targets measured together on at least
 /// [`JOINT_MIN_ROWS`] training rows: `x` the scaled inputs of all rows,
 /// `values` each target's measured values (raw, `None` where missing).
-pub(crate) fn scatter_correlations(
+/// Training stores them in the model; this also gives them for a model
+/// file written before they were stored, from its training rows.
+pub fn scatter_correlations(
     targets: &[TargetModel],
     x: ArrayView2<f64>,
     values: &[Vec<Option<f64>>],

@@ -10,7 +10,7 @@ mod summary;
 mod train;
 
 pub use crate::transform::{IntervalKind, TargetTransform};
-pub use correlation::ScatterCorrelation;
+pub use correlation::{scatter_correlations, ScatterCorrelation};
 pub use file::{MODEL_FORMAT, MODEL_FORMAT_VERSION};
 pub use near::NearMeasure;
 pub use reference::{pair_cells, DomainReference, PairGrid};
