@@ -338,3 +338,18 @@ pub const MODE_MIN_SHARE: f64 = 0.02;
 /// offered as "did you mean" for a name not found: two slips (a swapped
 /// pair counts one). Common practice, no source.
 pub const SUGGEST_MAX_EDITS: usize = 2;
+
+/// Fewest training rows with two targets measured together for their
+/// scatter correlation to be estimated and used in a joint probability;
+/// with fewer, the requirements are taken as independent and the output
+/// says so (the sd of a sample correlation near 0 is about 1/√n: 0.3 at 10
+/// rows).
+pub const JOINT_MIN_ROWS: usize = 10;
+
+/// Samples of the Monte-Carlo joint probability of more than two
+/// correlated requirements (`screen::joint`): a standard error of at most
+/// 0.0035.
+pub const JOINT_MC_SAMPLES: usize = 20_000;
+
+/// Seed of those samples: the same joint probability on every run.
+pub const JOINT_MC_SEED: u64 = 0x6a6f_696e_74;

@@ -213,6 +213,38 @@ fn queries(a: &Archive, train: &[usize], seed: u64) -> (Vec<Vec<f64>>, Vec<Vec<f
     (near, far)
 }
 
+/// The three seeded archives, their training and held-out rows and the
+/// model trained on each: trained once, shared by the tests of this file.
+struct Trained {
+    seed: u64,
+    a: Archive,
+    train_rows: Vec<usize>,
+    test_rows: Vec<usize>,
+    model: Model,
+}
+
+fn trained() -> &'static [Trained] {
+    static CELL: std::sync::OnceLock<Vec<Trained>> = std::sync::OnceLock::new();
+    CELL.get_or_init(|| {
+        (0..3u64)
+            .map(|seed| {
+                let a = archive(100 + seed, 20, 10);
+                let mut rng = Xoshiro256PlusPlus::seed_from_u64(seed);
+                let (train_rows, test_rows): (Vec<usize>, Vec<usize>) =
+                    (0..a.x.len()).partition(|_| rng.random::<f64>() > 0.1);
+                let model = train(&train_rows, &a);
+                Trained {
+                    seed,
+                    a,
+                    train_rows,
+                    test_rows,
+                    model,
+                }
+            })
+            .collect()
+    })
+}
+
 fn median(mut v: Vec<f64>) -> f64 {
     v.sort_by(f64::total_cmp);
     v[v.len() / 2]
@@ -231,13 +263,10 @@ fn graded_verdict_on_clustered_archives() {
     let (mut nuisance_out, mut nuisance_n) = (0, 0);
     let (mut sd_in, mut sd_out) = (Vec::new(), Vec::new());
     let mut levels = [0usize; 3];
-    for seed in 0..3u64 {
-        let a = archive(100 + seed, 20, 10);
-        let mut rng = Xoshiro256PlusPlus::seed_from_u64(seed);
-        let (train_rows, test_rows): (Vec<usize>, Vec<usize>) =
-            (0..a.x.len()).partition(|_| rng.random::<f64>() > 0.1);
-        let model = train(&train_rows, &a);
-        let (near, far) = queries(&a, &train_rows, seed);
+    for t in trained() {
+        let (seed, a, train_rows, test_rows, model) =
+            (t.seed, &t.a, &t.train_rows, &t.test_rows, &t.model);
+        let (near, far) = queries(a, train_rows, seed);
         let test: Vec<Vec<f64>> = test_rows.iter().map(|&i| a.x[i].clone()).collect();
         let mut judge = |rows: &[Vec<f64>]| -> Vec<(DomainLevel, f64)> {
             let p = model.predict(&table(rows, None)).expect("predict");
@@ -325,9 +354,100 @@ fn graded_verdict_on_clustered_archives() {
     assert!(far_n >= 600, "too few extrapolations: {far_n}");
     assert!(share(far_out, far_n) >= 0.95);
     assert!(share(held_out, held_n) <= 0.02);
-    // the issue asks for twice; measured 1.68 on these archives (the model
+    // the issue asks for twice; measured 1.65 on these archives (the model
     // part of the sd; the total sd, dominated by the 15 MPa test scatter,
-    // only 1.04): the guard does not widen error bars, so this states what
-    // the committee's own error bars do, and fails if they stop widening
+    // only about 1.04): midpoints between grades are confident
+    // interpolations (model sd below the held-out rows', and so is their
+    // error against the truth: docs/domain.md), and the sd follows the
+    // actual error outside (rms of error/sd 0.7–1.4). The guard does not
+    // widen error bars, so this states what the committee's own error bars
+    // do, and fails if they stop widening
     assert!(mo >= 1.5 * mi, "{mo} {mi}");
+}
+
+/// New heats of an archive's grades: `heats` per grade, one test each, drawn
+/// as [`archive`] draws them (same scatter, same correlated hardness).
+fn fresh_heats(a: &Archive, seed: u64, heats: usize) -> (Vec<Vec<f64>>, Vec<f64>, Vec<f64>) {
+    let mut rng = Xoshiro256PlusPlus::seed_from_u64(seed);
+    let z = Normal::new(0.0, 1.0).expect("normal");
+    let (mut x, mut uts, mut hv) = (Vec::new(), Vec::new(), Vec::new());
+    for centre in &a.centres {
+        for _ in 0..heats {
+            let mut q: Vec<f64> = centre
+                .iter()
+                .zip(SCATTER)
+                .map(|(c, s)| (c + s * z.sample(&mut rng)).max(0.0))
+                .collect();
+            q.push(rng.random_range(0.01..0.2));
+            q.push(rng.random_range(5.0..80.0));
+            let (e1, e2): (f64, f64) = (z.sample(&mut rng), z.sample(&mut rng));
+            let u = uts_truth(&q) + 15.0 * e1;
+            uts.push(u);
+            hv.push(u / 3.2 + 6.0 * (0.8 * e1 + 0.6 * e2));
+            x.push(q);
+        }
+    }
+    (x, uts, hv)
+}
+
+/// The correlation of the two targets' scatter, estimated at training,
+/// and the joint probability it gives on new heats.
+///
+/// The generator's hardness is uts/3.2 + 6(0.8 e₁ + 0.6 e₂) with uts =
+/// truth + 15 e₁, so its scatter about its own truth is 9.4875 e₁ + 3.6 e₂:
+/// correlation 9.4875/√(9.4875² + 3.6²) = 0.935 with the tensile scatter
+/// (arithmetic on the invented generator). On new heats of the training
+/// grades, with the issue's thresholds (each target's median), the rows
+/// where the product of the two probabilities lies between 0.1 and 0.9
+/// must meet both requirements about as often as the joint probability
+/// says (within three binomial standard errors), and closer than the
+/// product says.
+#[test]
+fn correlated_scatter_gives_calibrated_joint_probabilities() {
+    use mettle::screen::{ProcessLimits, Requirement, Screening};
+    let (mut joint, mut product, mut met, mut n) = (0.0, 0.0, 0.0, 0usize);
+    for t in trained() {
+        let c = t
+            .model
+            .scatter_correlation("uts_mpa", "hardness_hv")
+            .expect("a correlation stored");
+        println!(
+            "seed {}: ρ(uts, hv) = {:.3} from {} rows",
+            t.seed, c.rho, c.n_rows
+        );
+        assert!((c.rho - 0.935).abs() < 0.05, "ρ = {}", c.rho);
+        assert_eq!(c.n_rows, t.train_rows.len());
+        let (x, uts, hv) = fresh_heats(&t.a, 1000 + t.seed, 30);
+        let (mu, mh) = (median(uts.clone()), median(hv.clone()));
+        let reqs = vec![
+            Requirement::parse(&format!("uts_mpa>={mu}")).expect("req"),
+            Requirement::parse(&format!("hardness_hv>={mh}")).expect("req"),
+        ];
+        let models = std::slice::from_ref(&t.model);
+        let s = Screening::new(models, reqs, None, ProcessLimits::default()).expect("screening");
+        assert_eq!(s.joint_basis().name(), "correlated");
+        let cands = s.evaluate(&table(&x, None)).expect("evaluate");
+        for (i, c) in cands.iter().enumerate() {
+            let p: f64 = c.requirements.iter().map(|r| r.probability).product();
+            if (0.1..=0.9).contains(&p) {
+                n += 1;
+                product += p;
+                joint += c.joint_probability;
+                met += f64::from(u8::from(uts[i] >= mu && hv[i] >= mh));
+            }
+        }
+    }
+    let nf = n as f64;
+    let (joint, product, met) = (joint / nf, product / nf, met / nf);
+    let se = (met * (1.0 - met) / nf).sqrt();
+    println!(
+        "rows with the product between 0.1 and 0.9: {n}; met both {met:.3}, mean joint {joint:.3}, \
+         mean product {product:.3} (binomial se {se:.3})"
+    );
+    assert!(n >= 100, "too few informative rows: {n}");
+    assert!(
+        (joint - met).abs() <= 3.0 * se,
+        "joint {joint} met {met} se {se}"
+    );
+    assert!((joint - met).abs() < (product - met).abs());
 }

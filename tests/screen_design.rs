@@ -89,12 +89,11 @@ fn probability_of_mean_560_sd_10_meeting_550_is_phi_of_1() {
     assert!((p - 0.8413).abs() < 5e-5, "P = {p}");
     let q = c["requirements"][1]["probability"].as_f64().expect("P");
     assert!((q - 0.1587).abs() < 5e-5, "P = {q}");
-    // joint = product (independence assumed, and said)
+    // one target at the same conditions, >= 550 and <= 550: the band
+    // between them, of zero width (not the product of the two)
     let j = c["joint_probability"].as_f64().expect("joint");
-    assert!((j - p * q).abs() < 1e-12);
-    assert!(v["joint_probability_assumption"]
-        .as_str()
-        .is_some_and(|s| s.contains("independent")));
+    assert!(j.abs() < 1e-12, "joint {j}");
+    assert_eq!(v["joint_probability_basis"], "single");
     assert!(v["caution"]
         .as_str()
         .is_some_and(|s| s.contains("not test results")));
@@ -113,6 +112,199 @@ fn probability_of_mean_560_sd_10_meeting_550_is_phi_of_1() {
         text.contains("0.8413") && text.contains("not test results"),
         "{text}"
     );
+}
+
+/// The fixture with two targets, y and y2, each estimated with mean 560
+/// and sd 10 for every row, and a stored scatter correlation `rho` of
+/// the two (none when `rho` is `None`).
+fn two_target_fixture(w: &Workdir, rho: Option<f64>) {
+    let mut s = String::from("x,y,y2\n");
+    for i in 0..30 {
+        let x = i as f64 / 29.0;
+        let y = 1.0 + 2.0 * x + 0.1 * (7.0 * x).sin();
+        writeln!(s, "{x},{y},{}", y + 0.05 * (3.0 * x).cos()).expect("write");
+    }
+    w.write("lin2.csv", s);
+    w.ok(&[
+        "train",
+        "--data",
+        "lin2.csv",
+        "--target",
+        "y",
+        "--target",
+        "y2",
+        "--hidden",
+        "0",
+        "--restarts",
+        "1",
+        "--noise",
+        "constant",
+        "--out",
+        "lin2.json",
+    ]);
+    let mut m: Value = serde_json::from_slice(&w.read("lin2.json")).expect("model JSON");
+    for t in m["targets"].as_array_mut().expect("targets") {
+        t["scaling"]["lo"] = 550.0.into();
+        t["scaling"]["hi"] = 570.0.into();
+        for member in t["committee"]["members"].as_array_mut().expect("members") {
+            let zeros = |v: &Value| Value::from(vec![0.0; v.as_array().expect("array").len()]);
+            member["weights"] = zeros(&member["weights"]);
+            member["posterior_cov"] = zeros(&member["posterior_cov"]);
+            member["beta"] = 4.0.into();
+        }
+    }
+    // what training stored for the two (invented data: a correlation of
+    // their residuals)
+    assert!(
+        m["scatter_correlations"][0]["rho"].is_f64(),
+        "{}",
+        m["scatter_correlations"]
+    );
+    let o = m.as_object_mut().expect("object");
+    match rho {
+        Some(r) => {
+            o.insert(
+                "scatter_correlations".into(),
+                serde_json::json!([{"a": "y", "b": "y2", "rho": r, "n_rows": 30}]),
+            );
+        }
+        None => {
+            o.remove("scatter_correlations");
+        }
+    }
+    w.write("fixture2.json", serde_json::to_vec(&m).expect("serialise"));
+}
+
+fn joint_of(w: &Workdir, reqs: &[&str]) -> Value {
+    w.write("cand.csv", "x\n0.5\n");
+    let mut args = vec![
+        "screen",
+        "--model",
+        "fixture2.json",
+        "--input",
+        "cand.csv",
+        "--format",
+        "json",
+    ];
+    for r in reqs {
+        args.extend(["--require", r]);
+    }
+    let out = w.ok(&args);
+    json(&args, &out)
+}
+
+/// Two targets, each N(560, 10²), scatter correlation ρ = 0.6:
+/// P(y ≥ 550, y2 ≥ 572) = P(X ≥ −1, Y ≥ 1.2) = 0.114188107265 and
+/// P(550 ≤ y ≤ 580, y2 ≥ 572) = P(−1 < X < 2, Y > 1.2) = 0.100407391220,
+/// from SciPy 1.17.1 `multivariate_normal.cdf` (covariance [[1, 0.6],
+/// [0.6, 1]], abseps = releps = 1e-12; the first as CDF(1, −1.2) by
+/// symmetry, the second with `lower_limit`), run once with the script
+/// tests/reference/bivariate_normal.py's settings. Without a stored
+/// correlation (an older file) the joint probability is the product
+/// Φ(1)·Φ(−1.2) = 0.096813262473 (same SciPy run, `norm.cdf`), and the
+/// output says the targets were taken as independent.
+#[test]
+fn correlated_targets_give_the_bivariate_normal_probability() {
+    let w = Workdir::new();
+    two_target_fixture(&w, Some(0.6));
+    let v = joint_of(&w, &["y>=550", "y2>=572"]);
+    let c = &v["candidates"][0];
+    let j = c["joint_probability"].as_f64().expect("joint");
+    assert!((j - 0.114_188_107_265).abs() < 1e-9, "joint {j}");
+    assert_eq!(v["joint_probability_basis"], "correlated");
+    assert!(
+        v["joint_probability_assumption"]
+            .as_str()
+            .is_some_and(|s| s.contains("ρ = 0.60")),
+        "{}",
+        v["joint_probability_assumption"]
+    );
+    assert!(
+        c.get("joint_probability_se").is_none(),
+        "exact, not sampled"
+    );
+    let v = joint_of(&w, &["y>=550", "y<=580", "y2>=572"]);
+    let j = v["candidates"][0]["joint_probability"]
+        .as_f64()
+        .expect("joint");
+    assert!((j - 0.100_407_391_220).abs() < 1e-9, "joint {j}");
+
+    // ρ = 0: the product
+    two_target_fixture(&w, Some(0.0));
+    let v = joint_of(&w, &["y>=550", "y2>=572"]);
+    let j = v["candidates"][0]["joint_probability"]
+        .as_f64()
+        .expect("joint");
+    assert!((j - 0.096_813_262_473).abs() < 1e-9, "joint {j}");
+    // no stored correlation: the product, said to be independent
+    two_target_fixture(&w, None);
+    let v = joint_of(&w, &["y>=550", "y2>=572"]);
+    let j = v["candidates"][0]["joint_probability"]
+        .as_f64()
+        .expect("joint");
+    assert!((j - 0.096_813_262_473).abs() < 1e-9, "joint {j}");
+    assert_eq!(v["joint_probability_basis"], "independent");
+    // the table says it too
+    let t = w.ok(&[
+        "screen",
+        "--model",
+        "fixture2.json",
+        "--input",
+        "cand.csv",
+        "--require",
+        "y>=550",
+        "--require",
+        "y2>=572",
+    ]);
+    let text = String::from_utf8_lossy(&t.stdout);
+    assert!(
+        text.contains("joint (independent)") && text.contains("0.0968"),
+        "{text}"
+    );
+}
+
+/// `predict --require` gives the rows' probabilities of `screen`, each
+/// requirement and all of them, as extra CSV columns after `caution`.
+#[test]
+fn predict_require_adds_the_probabilities() {
+    let w = Workdir::new();
+    two_target_fixture(&w, Some(0.6));
+    w.write("cand.csv", "x\n0.5\n0.2\n");
+    let args = [
+        "predict",
+        "--model",
+        "fixture2.json",
+        "--input",
+        "cand.csv",
+        "--require",
+        "y>=550",
+        "--require",
+        "y2>=572",
+        "--format",
+        "csv",
+    ];
+    let out = w.ok(&args);
+    let path = w.write("est.csv", &out.stdout);
+    let t = mettle::data::Table::read(&path).expect("the estimate file reads as a table");
+    let names = t.names();
+    let at = |n: &str| names.iter().position(|h| h == n).unwrap_or(usize::MAX);
+    assert!(
+        at("caution") < at("P(y >= 550)") && at("P_all") < usize::MAX,
+        "{names:?}"
+    );
+    let col = |n: &str| t.numeric(n).expect(n);
+    for ((p1, p2), all) in col("P(y >= 550)")
+        .into_iter()
+        .zip(col("P(y2 >= 572)"))
+        .zip(col("P_all"))
+    {
+        // Φ(1) = 0.841345, Φ(−1.2) = 0.115070 (standard normal table)
+        assert!((p1 - 0.841_345).abs() < 1e-6, "{p1}");
+        assert!((p2 - 0.115_070).abs() < 1e-6, "{p2}");
+        assert!((all - 0.114_188_107_265).abs() < 1e-9, "{all}");
+    }
+    assert_eq!(t.n_rows(), 2);
+    assert_eq!(t.cell_text(at("joint"), 0).as_deref(), Some("correlated"));
 }
 
 #[test]

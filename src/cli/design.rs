@@ -19,7 +19,8 @@ use super::{UsageError, CAUTION};
     long_about = "Search a box of inputs (--vary NAME=LOW:HIGH for each input to vary; every other input \
 held by --fix NAME=VALUE or taken from the first row of --base) for candidates that maximise\n\n  \
 score = P_joint − λ · (cost − least cost over the box) / (cost span of the box)\n\n\
-where P_joint is the joint probability of meeting every --require (targets assumed independent) \
+where P_joint is the joint probability of meeting every --require (from the targets' joint predictive \
+distribution, their scatter correlated as on the training rows; see `mettle screen --help`) \
 and λ is --cost-weight (without --costs the score is P_joint). Points outside the training domain \
 or breaking a process limit (--max-ce, the costs file's [limits]) are never returned; when the best \
 point found lies outside the domain, a note says where and why, and the best in-domain candidates \

@@ -10,6 +10,7 @@ mod evaluate;
 mod explain;
 mod output;
 mod predict;
+mod predict_extra;
 mod progress;
 mod report;
 mod schema;

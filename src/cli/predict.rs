@@ -15,6 +15,7 @@ use mettle::predict::{
 };
 
 use super::output::{aligned, emit, num, wrap, Format, DEFAULT_DIGITS};
+use super::predict_extra::{BatchExtras, Extras};
 use super::CAUTION;
 
 /// Units of the estimates.
@@ -61,6 +62,13 @@ these a measured value's density is (1 − π)·t_ν((z − m)/(a·s))/(a·s) + 
 a = √((ν − 2)/ν), the density `mettle evaluate` scores (docs/model-format.md).\n\n\
 With --out FILE.xlsx the estimates are written as an Excel workbook: the CSV's cells on sheet \
 'estimates' (numbers stored as numbers), each target's distribution on sheet 'targets'.\n\n\
+--require REQ (repeatable; the syntax of `mettle screen`, thresholds in internal units) adds the \
+probability that each row meets each requirement and all of them (P_all, from the targets' joint \
+predictive distribution; `joint` says whether their scatter was taken as correlated or \
+independent). --neighbours K with --training-data FILE (the model's own training table, checked \
+against its fingerprint) adds each row's K nearest training rows: file row, identifier (the \
+schema's identifier column), distance and measured values — what the estimate rests on. In CSV \
+and JSON they are extra columns or keys after caution; in the table, blocks below it.\n\n\
 Large inputs: the table is read, estimated and written a batch of rows at a time, so csv and json \
 output for millions of rows (CSV or Parquet input) take bounded memory; with --out nothing appears \
 under the name until the last row is written. The table format aligns every row, so it holds them \
@@ -102,6 +110,16 @@ pub struct PredictArgs {
     #[arg(long, value_name = "N", default_value_t = PREDICT_BATCH_ROWS as u64,
           value_parser = clap::value_parser!(u64).range(1..))]
     batch_rows: u64,
+    /// A requirement, e.g. `uts_mpa>=550` or `charpy_j>=47@test_temp_c=-40` (the syntax of
+    /// `mettle screen`); repeat for several: adds each row's probability of meeting each and all.
+    #[arg(long = "require", value_name = "REQ")]
+    require: Vec<String>,
+    /// List each row's K nearest training rows (needs --training-data).
+    #[arg(long, value_name = "K", value_parser = clap::value_parser!(u64).range(1..1000))]
+    neighbours: Option<u64>,
+    /// The model's training table, for --neighbours (checked against the model's fingerprint).
+    #[arg(long, value_name = "FILE")]
+    training_data: Option<PathBuf>,
 }
 
 pub fn run(a: PredictArgs) -> anyhow::Result<()> {
@@ -110,6 +128,13 @@ pub fn run(a: PredictArgs) -> anyhow::Result<()> {
     // the input is read, estimated and written a batch at a time, so a
     // file of millions of rows is estimated in bounded memory
     let rows_per_batch = usize::try_from(a.batch_rows).unwrap_or(usize::MAX);
+    let extras = Extras::new(
+        &model,
+        &a.require,
+        a.neighbours.map(|k| k as usize),
+        a.training_data.as_deref(),
+        declared,
+    )?;
     let mut batches =
         Table::read_sheet_batches(&a.input, rows_per_batch, a.sheet.as_deref())?.peekable();
     // the identifier column is chosen on the first batch and kept
@@ -117,17 +142,30 @@ pub fn run(a: PredictArgs) -> anyhow::Result<()> {
         Some(Ok(first)) => Some(first),
         _ => None,
     };
-    let layout = model.estimate_layout(
+    let mut layout = model.estimate_layout(
         first,
         a.id.as_deref(),
         declared,
         usize::try_from(a.digits).unwrap_or(DEFAULT_DIGITS),
     )?;
-    let estimate = |batch: mettle::Result<Table>| -> anyhow::Result<EstimateBatch> {
+    if let Some(x) = &extras {
+        layout.extra_columns = x.column_names();
+    }
+    // each batch's estimates, with what --require and --neighbours add
+    let estimate = |batch: mettle::Result<Table>| -> anyhow::Result<(EstimateBatch, Option<BatchExtras>)> {
         let batch = batch?;
-        model
-            .estimate_batch(&batch, &layout)
-            .with_context(|| format!("estimating with model {}", a.model.display()))
+        let context = || format!("estimating with model {}", a.model.display());
+        match &extras {
+            None => Ok((model.estimate_batch(&batch, &layout).with_context(context)?, None)),
+            Some(x) => {
+                let (mut b, full) = model
+                    .estimate_batch_full(&batch, &layout)
+                    .with_context(context)?;
+                let extra = x.batch(&batch, &full).with_context(context)?;
+                b.extra = x.cells(&extra);
+                Ok((b, Some(extra)))
+            }
+        }
     };
     let xlsx = a.out.as_deref().is_some_and(is_xlsx_path);
     let mut tally = Tally::default();
@@ -145,13 +183,18 @@ pub fn run(a: PredictArgs) -> anyhow::Result<()> {
         Format::Table if !xlsx => {
             // aligned columns need every row: for small inputs
             let mut all = Vec::new();
+            let mut more = Vec::new();
             for b in batches {
-                let b = estimate(b)?;
+                let (b, extra) = estimate(b)?;
                 tell(&b);
                 tally.add(&b.rows);
+                more.extend(extra.map(|x| (b.first_row, x)));
                 all.push(b);
             }
             let mut s = to_table(&layout, &all, a.wide);
+            if let Some(x) = &extras {
+                s.push_str(&x.table_blocks(&more));
+            }
             s.push('\n');
             s.push_str(&wrap("", CAUTION, 0));
             emit(&s, a.out.as_deref())?;
@@ -165,7 +208,7 @@ pub fn run(a: PredictArgs) -> anyhow::Result<()> {
             let write = |w: &mut dyn Write| -> anyhow::Result<()> {
                 let mut out = EstimateWriter::start(w, format, &layout)?;
                 for b in batches {
-                    let b = estimate(b)?;
+                    let (b, _) = estimate(b)?;
                     tell(&b);
                     tally.add(&b.rows);
                     out.rows(&b)?;

@@ -15,10 +15,6 @@ use serde_json::{json, Map, Value};
 use super::output::{aligned, csv_field, emit, num, sig, Format, DEFAULT_DIGITS};
 use super::CAUTION;
 
-/// The assumption behind every joint probability, printed with it.
-pub const INDEPENDENCE: &str = "Joint probability = product of the requirements' probabilities: \
-the targets are assumed independent (they are not exactly: strength and toughness of one weld are correlated).";
-
 /// Models, requirements, prices and limits: what `screen` and `design` share.
 #[derive(Args, Debug)]
 pub struct ProblemArgs {
@@ -124,7 +120,10 @@ after @ (a test temperature): `uts_mpa>=550`, `charpy_j>=47@test_temp_c=-40`. Th
 meeting it comes from the committee's predictive distribution on the scale the target was learnt \
 on (Gaussian, or the Student-t error shape the model chose; a log-scale target is judged on that \
 scale). The joint \
-probability is the product: the targets are assumed independent, which they are not exactly.\n\n\
+probability of meeting all of them comes from the targets' joint predictive distribution: their \
+scatter correlated as on the training rows where both were measured (stored in the model), \
+independent only where the data give no correlation; the output says which (`joint`: correlated, \
+independent or single) and names the correlations used.\n\n\
 With --costs, a TOML file of prices (currency per kg per element and for the balance) gives each \
 candidate's alloy cost per tonne, and its [limits] (maximum CE(IIW), Pcm or CET, element bounds, \
 bounds on sums of elements) are checked; --max-ce sets the carbon-equivalent limit on the command \
@@ -334,6 +333,10 @@ fn table(
         h.push(format!("P{}", k + 1));
     }
     h.push("P_joint".into());
+    let sampled = shown.iter().any(|r| r.candidate.joint_mc_error.is_some());
+    if sampled {
+        h.push("P_joint_se".into());
+    }
     if let Some(c) = s.costs() {
         h.push(format!("cost_{}/t", c.currency));
     }
@@ -358,6 +361,9 @@ fn table(
                 cells.push(format!("{:.4}", o.probability));
             }
             cells.push(format!("{:.4}", c.joint_probability));
+            if sampled {
+                cells.push(c.joint_mc_error.map_or("-".into(), |e| format!("{e:.4}")));
+            }
             if let Some(v) = c.cost_per_tonne {
                 cells.push(format!("{v:.1}"));
             }
@@ -372,7 +378,17 @@ fn table(
     for (k, r) in s.requirements().iter().enumerate() {
         out.push_str(&format!("  P{} = P({r})\n", k + 1));
     }
-    out.push_str(&format!("{INDEPENDENCE}\n"));
+    out.push_str(&format!(
+        "joint ({}): {}\n",
+        s.joint_basis().name(),
+        s.joint_statement()
+    ));
+    if sampled {
+        out.push_str(&format!(
+            "P_joint_se: standard error of P_joint, sampled ({} seeded draws) for more than two correlated targets\n",
+            mettle::prec::JOINT_MC_SAMPLES
+        ));
+    }
     if let Some(c) = s.costs() {
         out.push_str(&format!(
             "cost: alloy cost per tonne in {}{}\n",
@@ -417,6 +433,8 @@ fn csv(s: &Screening<'_>, shown: &[Shown<'_>], how: &RenderAs<'_>) -> String {
     h.extend(
         [
             "P_joint",
+            "P_joint_se",
+            "joint",
             "cost_per_tonne",
             "carbon_equivalent",
             "in_domain",
@@ -442,6 +460,8 @@ fn csv(s: &Screening<'_>, shown: &[Shown<'_>], how: &RenderAs<'_>) -> String {
         }
         cells.extend(c.requirements.iter().map(|o| n(o.probability)));
         cells.push(n(c.joint_probability));
+        cells.push(opt(c.joint_mc_error));
+        cells.push(s.joint_basis().name().to_string());
         cells.push(opt(c.cost_per_tonne));
         cells.push(opt(c.carbon_equivalent));
         cells.push(c.in_domain.to_string());
@@ -488,6 +508,9 @@ fn to_json(s: &Screening<'_>, shown: &[Shown<'_>], notes: &[String], how: &Rende
             o.insert("estimates".into(), Value::Object(est));
             o.insert("requirements".into(), json!(c.requirements));
             o.insert("joint_probability".into(), json!(c.joint_probability));
+            if let Some(e) = c.joint_mc_error {
+                o.insert("joint_probability_se".into(), json!(e));
+            }
             o.insert("cost_per_tonne".into(), json!(c.cost_per_tonne));
             o.insert("carbon_equivalent".into(), json!(c.carbon_equivalent));
             o.insert("violations".into(), json!(c.violations));
@@ -501,7 +524,9 @@ fn to_json(s: &Screening<'_>, shown: &[Shown<'_>], notes: &[String], how: &Rende
         "kind": how.kind,
         "id_column": how.id_column,
         "caution": CAUTION,
-        "joint_probability_assumption": INDEPENDENCE,
+        "joint_probability_assumption": s.joint_statement(),
+        "joint_probability_basis": s.joint_basis().name(),
+        "joint_correlations": s.joint_pairs(),
         "requirements": s.requirements().iter().map(|r| r.to_string()).collect::<Vec<_>>(),
         "currency": s.costs().map(|c| c.currency.clone()),
         "carbon_equivalent_limit": s.limits().max_ce.map(|(i, m)| json!({"index": i.name(), "max": m})),

@@ -9,6 +9,7 @@
 mod calibration;
 mod compare;
 mod fit;
+mod neighbours;
 mod paired;
 
 pub use crate::committee::{
@@ -23,6 +24,7 @@ pub use crate::predict::{estimate_rows, TargetRows};
 pub use calibration::{calibration_curve, CalibrationPoint, CALIBRATION_LEVELS};
 pub use compare::{compare, Comparison, Disagreement, TargetComparison};
 pub use fit::fit_notes;
+pub use neighbours::{Neighbour, TrainingEvidence};
 pub use paired::{paired, PairedComparison, PairedFigure};
 
 use serde::ser::SerializeMap;

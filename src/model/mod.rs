@@ -2,6 +2,7 @@
 //! training ranges, one committee per target, and the record of how it was
 //! trained.
 
+mod correlation;
 mod file;
 pub(crate) mod near;
 pub(crate) mod reference;
@@ -9,6 +10,7 @@ mod summary;
 mod train;
 
 pub use crate::transform::{IntervalKind, TargetTransform};
+pub use correlation::{scatter_correlations, ScatterCorrelation};
 pub use file::{MODEL_FORMAT, MODEL_FORMAT_VERSION};
 pub use near::NearMeasure;
 pub use reference::{pair_cells, DomainReference, PairGrid};
@@ -132,6 +134,11 @@ pub struct Model {
     /// files written before mettle stored them: only ranges are checked).
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub domain: Option<DomainReference>,
+    /// The correlation of each pair of targets' scatter, from the training
+    /// rows where both were measured (absent before version 7, and for
+    /// pairs measured together on too few rows: independence is assumed).
+    #[serde(default, skip_serializing_if = "Vec::is_empty")]
+    pub scatter_correlations: Vec<ScatterCorrelation>,
 }
 
 impl Model {

@@ -229,6 +229,11 @@ impl Model {
                 incomplete_rows_dropped: Vec::new(),
             },
             schema: None,
+            scatter_correlations: super::correlation::scatter_correlations(
+                &targets,
+                x.view(),
+                &target_values,
+            ),
             domain: DomainReference::build(x.view())
                 .map(|r| r.with_relevance(input_weights(&targets, x.view(), &target_rows))),
             targets,

@@ -19,7 +19,7 @@ pub use distribution::PredictiveForm;
 pub use domain::{range_check, DomainGuard, DomainReport};
 pub use output::{
     header_cells, json_head, json_row, row_cells, to_column_units, EstimateBatch, EstimateFormat,
-    EstimateLayout, EstimateWriter, TargetColumn, CAUTION,
+    EstimateLayout, EstimateWriter, ExtraCells, TargetColumn, CAUTION,
 };
 pub use rows::{estimate_rows, TargetRows};
 pub use unit_hint::UnitHint;

@@ -18,12 +18,17 @@
 //!   target whatever their number.
 //! - XLSX: a workbook with the CSV's cells on sheet `estimates` and the
 //!   targets' distributions on sheet `targets`.
+//!
+//! Columns a command adds after `caution` (`predict --require`'s
+//! probabilities, `--neighbours`' nearest training rows) are the layout's
+//! [`EstimateLayout::extra_columns`] and each row's [`ExtraCells`]; in
+//! JSON they are keys of the row object.
 
 use std::io::{self, Write};
 
 use serde_json::{json, Map, Value};
 
-use super::{Estimate, PredictiveForm, RowPrediction, ScalePrediction};
+use super::{Estimate, FullPrediction, PredictiveForm, RowPrediction, ScalePrediction};
 use crate::data::cells::{csv_line, Cell, DEFAULT_DIGITS};
 use crate::data::spreadsheet::{xlsx_bytes, Sheet};
 use crate::data::{RowLabels, Table};
@@ -127,6 +132,7 @@ impl Model {
             id_column,
             digits,
             declared,
+            extra_columns: Vec::new(),
         })
     }
 
@@ -141,6 +147,32 @@ impl Model {
     pub fn estimate_batch(&self, table: &Table, layout: &EstimateLayout) -> Result<EstimateBatch> {
         self.unit_check(table)?;
         let full = self.predict_with_scale(table)?;
+        self.batch_from(table, layout, full)
+    }
+
+    /// As [`Model::estimate_batch`], with the full prediction beside it
+    /// (the scaled inputs and the learnt-scale distributions, in internal
+    /// units) for what a command adds to the estimates.
+    ///
+    /// # Errors
+    /// As [`Model::estimate_batch`].
+    pub fn estimate_batch_full(
+        &self,
+        table: &Table,
+        layout: &EstimateLayout,
+    ) -> Result<(EstimateBatch, FullPrediction)> {
+        self.unit_check(table)?;
+        let full = self.predict_with_scale(table)?;
+        let batch = self.batch_from(table, layout, full.clone())?;
+        Ok((batch, full))
+    }
+
+    fn batch_from(
+        &self,
+        table: &Table,
+        layout: &EstimateLayout,
+        full: FullPrediction,
+    ) -> Result<EstimateBatch> {
         let mut rows = full.rows;
         if layout.declared {
             to_column_units(&layout.cols, &mut rows);
@@ -155,6 +187,7 @@ impl Model {
             learnt: full.learnt,
             labels,
             declarations: full.declarations,
+            extra: Vec::new(),
         })
     }
 }
@@ -182,6 +215,18 @@ pub struct EstimateLayout {
     pub digits: usize,
     /// Estimates in the schema's declared units.
     pub declared: bool,
+    /// Names of the columns added after `caution` (CSV and workbook).
+    pub extra_columns: Vec<String>,
+}
+
+/// What a command adds to one row after its `caution`: cells in the order
+/// of [`EstimateLayout::extra_columns`], and JSON keys with values.
+#[derive(Clone, Debug, Default, PartialEq)]
+pub struct ExtraCells {
+    /// Cells, one per extra column.
+    pub cells: Vec<Cell>,
+    /// Keys and values added to the row's JSON object.
+    pub json: Vec<(String, Value)>,
 }
 
 impl EstimateLayout {
@@ -192,6 +237,7 @@ impl EstimateLayout {
             id_column: None,
             digits: DEFAULT_DIGITS,
             declared: false,
+            extra_columns: Vec::new(),
         }
     }
 }
@@ -209,6 +255,8 @@ pub struct EstimateBatch {
     pub labels: Option<RowLabels>,
     /// Columns the table declared in another unit, converted.
     pub declarations: Vec<super::UnitDeclaration>,
+    /// Per row, what the command adds after `caution` (empty: nothing).
+    pub extra: Vec<ExtraCells>,
 }
 
 impl EstimateBatch {
@@ -401,6 +449,9 @@ pub fn json_row(layout: &EstimateLayout, b: &EstimateBatch, i: usize) -> Value {
         })
         .collect();
     obj.insert("estimates".into(), Value::Object(est));
+    if let Some(x) = b.extra.get(i) {
+        obj.extend(x.json.iter().cloned());
+    }
     Value::Object(obj)
 }
 
@@ -420,6 +471,7 @@ pub fn header_cells(layout: &EstimateLayout) -> Vec<Cell> {
     }
     h.push(Cell::Text("notes".into()));
     h.push(Cell::Text("caution".into()));
+    h.extend(layout.extra_columns.iter().map(|c| Cell::Text(c.clone())));
     h
 }
 
@@ -442,6 +494,9 @@ pub fn row_cells(layout: &EstimateLayout, b: &EstimateBatch, i: usize, first: bo
     } else {
         Cell::Empty
     });
+    if let Some(x) = b.extra.get(i) {
+        cells.extend(x.cells.iter().cloned());
+    }
     cells
 }
 

@@ -4,16 +4,21 @@
 //!
 //! For each candidate and requirement the probability of meeting it comes
 //! from the committee's predictive distribution ([`requirement`]). The
-//! joint probability of meeting every requirement is their product: the
-//! requirements are **assumed independent**, which they are not exactly
-//! (strength and toughness of one weld are correlated), so the joint
-//! figure is a guide, not a guarantee.
+//! joint probability of meeting every requirement comes from the targets'
+//! joint predictive distribution ([`joint`]): the targets' scatter is
+//! correlated as the training rows where both were measured show (stored
+//! in the model, [`crate::model::ScatterCorrelation`]), and independent
+//! only where the data give no correlation (targets of different models,
+//! one target at different conditions, too few rows measured together, a
+//! model file written before the correlations were stored). [`JointBasis`]
+//! says which was used.
 //!
 //! Estimates are not test results: qualification testing per the
 //! applicable code decides, under local codes and licensed engineers.
 
 pub mod cost;
 pub mod design;
+pub mod joint;
 pub mod requirement;
 
 use serde::Serialize;
@@ -28,6 +33,7 @@ use crate::units::Unit;
 
 pub use cost::{read_costs, CeIndex, CostModel, ProcessLimits, Violation};
 pub use design::{design, DesignOptions, DesignOutcome, DesignSpace, Designed};
+pub use joint::JointProbability;
 pub use requirement::{Relation, Requirement};
 
 /// Probabilities that agree to this many decimals count as tied when
@@ -63,8 +69,13 @@ pub struct Candidate {
     pub estimates: Vec<TargetEstimate>,
     /// One per requirement, in the order given.
     pub requirements: Vec<RequirementOutcome>,
-    /// Product of the requirements' probabilities (independence assumed).
+    /// Probability of meeting every requirement, from the joint predictive
+    /// distribution ([`Screening::joint_basis`] says with which
+    /// correlations).
     pub joint_probability: f64,
+    /// Standard error of `joint_probability` when it was sampled (more
+    /// than two correlated groups), `None` when computed exactly.
+    pub joint_mc_error: Option<f64>,
     /// Alloy cost per tonne, with a cost model.
     pub cost_per_tonne: Option<f64>,
     /// The limited carbon equivalent, when a limit is set.
@@ -162,6 +173,8 @@ pub struct Screening<'a> {
     requirements: Vec<Requirement>,
     /// (model, target) serving each requirement.
     serve: Vec<(usize, usize)>,
+    /// How the requirements are coupled.
+    coupling: Coupling,
     costs: Option<CostModel>,
     limits: ProcessLimits,
 }
@@ -219,10 +232,12 @@ impl<'a> Screening<'a> {
             }
             serve.push((mi, ti));
         }
+        let coupling = Coupling::new(models, &requirements, &serve);
         Ok(Screening {
             models,
             requirements,
             serve,
+            coupling,
             costs,
             limits,
         })
@@ -248,6 +263,22 @@ impl<'a> Screening<'a> {
         self.models
     }
 
+    /// Whether the joint probability used the targets' scatter correlation.
+    pub fn joint_basis(&self) -> JointBasis {
+        self.coupling.basis()
+    }
+
+    /// The pairs of requirement groups and the correlation used for each.
+    pub fn joint_pairs(&self) -> &[PairCorrelation] {
+        &self.coupling.pairs
+    }
+
+    /// One sentence on how the joint probability was computed, naming the
+    /// correlations used and the pairs taken as independent.
+    pub fn joint_statement(&self) -> String {
+        self.coupling.statement()
+    }
+
     /// Judge every row of `table`.
     ///
     /// # Errors
@@ -258,6 +289,17 @@ impl<'a> Screening<'a> {
             .iter()
             .map(|m| m.predict_with_scale(table))
             .collect::<Result<_>>()?;
+        self.evaluate_with(table, &base)
+    }
+
+    /// As [`Screening::evaluate`], with each model's predictions for the
+    /// rows of `table` already made (`base[m]` from
+    /// [`Model::predict_with_scale`] of model m), as `predict --require`
+    /// has them.
+    ///
+    /// # Errors
+    /// As [`Screening::evaluate`].
+    pub fn evaluate_with(&self, table: &Table, base: &[FullPrediction]) -> Result<Vec<Candidate>> {
         // each requirement with conditions: its model again at those inputs
         let mut at_conditions: Vec<Option<FullPrediction>> = Vec::new();
         for (r, &(mi, _)) in self.requirements.iter().zip(&self.serve) {
@@ -287,7 +329,7 @@ impl<'a> Screening<'a> {
             let mut level = DomainLevel::Inside;
             let mut excess = 0.0;
             let mut estimates = Vec::new();
-            for (m, p) in self.models.iter().zip(&base) {
+            for (m, p) in self.models.iter().zip(base) {
                 let r = &p.rows[row];
                 in_domain &= r.in_domain;
                 level = level.max(r.level);
@@ -303,13 +345,14 @@ impl<'a> Screening<'a> {
                 }
             }
             let mut requirements = Vec::new();
-            let mut joint = 1.0;
-            for (((req, &(mi, ti)), cond), &shape) in self
+            let mut groups = vec![joint::LatentGroup::default(); self.coupling.n_groups()];
+            for (k, (((req, &(mi, ti)), cond), &shape)) in self
                 .requirements
                 .iter()
                 .zip(&self.serve)
                 .zip(&at_conditions)
                 .zip(&shapes)
+                .enumerate()
             {
                 let p = cond.as_ref().unwrap_or(&base[mi]);
                 if cond.is_some() {
@@ -324,7 +367,7 @@ impl<'a> Screening<'a> {
                 }
                 let transform = &self.models[mi].targets[ti].transform;
                 let prob = req.probability(transform, shape, &p.learnt[ti][row]);
-                joint *= prob;
+                groups[self.coupling.group[k]].require(req.relation == Relation::AtLeast, prob);
                 requirements.push(RequirementOutcome {
                     requirement: req.to_string(),
                     estimate: p.rows[row].estimates[ti].clone(),
@@ -332,11 +375,13 @@ impl<'a> Screening<'a> {
                 });
             }
             let comp = comps.as_ref().map(|c| c[row]);
+            let joint = joint::joint_probability(&groups, &self.coupling.corr);
             out.push(Candidate {
                 row,
                 estimates,
                 requirements,
-                joint_probability: joint,
+                joint_probability: joint.value,
+                joint_mc_error: joint.mc_error,
                 cost_per_tonne: self
                     .costs
                     .as_ref()
@@ -355,6 +400,192 @@ impl<'a> Screening<'a> {
             });
         }
         Ok(out)
+    }
+}
+
+/// Whether the joint probability used a correlation of the targets'
+/// scatter.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum JointBasis {
+    /// One requirement group (one target at one set of conditions): its
+    /// own probability.
+    Single,
+    /// At least one pair of groups coupled by the correlation of their
+    /// scatter from the training data.
+    Correlated,
+    /// No pair with a correlation from the data: the product.
+    Independent,
+}
+
+impl JointBasis {
+    /// The name printed in the output's `joint` column or key.
+    pub fn name(self) -> &'static str {
+        match self {
+            JointBasis::Single => "single",
+            JointBasis::Correlated => "correlated",
+            JointBasis::Independent => "independent",
+        }
+    }
+}
+
+/// The correlation used for one pair of requirement groups.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct PairCorrelation {
+    /// First group (target, with its conditions after `@`).
+    pub a: String,
+    /// Second group.
+    pub b: String,
+    /// The correlation of their scatter, `None` when taken as independent.
+    pub rho: Option<f64>,
+    /// Training rows where both were measured (0 when independent).
+    pub n_rows: usize,
+    /// Why independence was assumed, when it was.
+    pub why_independent: Option<String>,
+}
+
+/// Requirements grouped by (model, target, conditions), each group one
+/// latent normal of [`joint`], and the correlation between groups.
+#[derive(Clone, Debug)]
+struct Coupling {
+    /// Group of each requirement.
+    group: Vec<usize>,
+    /// Correlation of the groups' latent normals.
+    corr: Vec<Vec<f64>>,
+    pairs: Vec<PairCorrelation>,
+}
+
+impl Coupling {
+    fn new(models: &[Model], reqs: &[Requirement], serve: &[(usize, usize)]) -> Coupling {
+        let mut keys: Vec<(usize, usize, &[(String, f64)], String)> = Vec::new();
+        let mut group = Vec::with_capacity(reqs.len());
+        for (r, &(mi, ti)) in reqs.iter().zip(serve) {
+            let found = keys
+                .iter()
+                .position(|k| k.0 == mi && k.1 == ti && k.2 == r.conditions.as_slice());
+            group.push(found.unwrap_or_else(|| {
+                let label = r.to_string();
+                // the label without the operator and threshold
+                let label = match label.split_once(" @ ") {
+                    Some((_, c)) => format!("{} @ {c}", r.target),
+                    None => r.target.clone(),
+                };
+                keys.push((mi, ti, r.conditions.as_slice(), label));
+                keys.len() - 1
+            }));
+        }
+        let d = keys.len();
+        let mut corr = vec![vec![0.0; d]; d];
+        let mut pairs = Vec::new();
+        for i in 0..d {
+            corr[i][i] = 1.0;
+            for j in i + 1..d {
+                let (a, b) = (&keys[i], &keys[j]);
+                let stored = (a.0 == b.0 && a.1 != b.1)
+                    .then(|| {
+                        let m = &models[a.0];
+                        m.scatter_correlation(&m.targets[a.1].name, &m.targets[b.1].name)
+                    })
+                    .flatten();
+                let why = if a.0 != b.0 {
+                    Some("targets of different models".to_string())
+                } else if a.1 == b.1 {
+                    Some("one target at different conditions".to_string())
+                } else if stored.is_none() {
+                    Some(if models[a.0].scatter_correlations.is_empty() {
+                        "the model file holds no scatter correlations (written before mettle \
+                         stored them, or no two targets measured together on enough rows)"
+                            .to_string()
+                    } else {
+                        format!(
+                            "measured together on fewer than {} training rows",
+                            crate::prec::JOINT_MIN_ROWS
+                        )
+                    })
+                } else {
+                    None
+                };
+                if let Some(c) = stored {
+                    corr[i][j] = c.rho;
+                    corr[j][i] = c.rho;
+                }
+                pairs.push(PairCorrelation {
+                    a: a.3.clone(),
+                    b: b.3.clone(),
+                    rho: stored.map(|c| c.rho),
+                    n_rows: stored.map_or(0, |c| c.n_rows),
+                    why_independent: why,
+                });
+            }
+        }
+        Coupling { group, corr, pairs }
+    }
+
+    fn n_groups(&self) -> usize {
+        self.corr.len()
+    }
+
+    fn basis(&self) -> JointBasis {
+        if self.n_groups() < 2 {
+            JointBasis::Single
+        } else if self.pairs.iter().any(|p| p.rho.is_some()) {
+            JointBasis::Correlated
+        } else {
+            JointBasis::Independent
+        }
+    }
+
+    fn statement(&self) -> String {
+        let same_target = self.group.len() > self.n_groups();
+        let merged = if same_target {
+            " Requirements on one target at the same conditions are judged together \
+             (the probability that it falls between them)."
+        } else {
+            ""
+        };
+        let used: Vec<String> = self
+            .pairs
+            .iter()
+            .filter_map(|p| {
+                p.rho.map(|r| {
+                    format!(
+                        "{} with {} ρ = {r:.2} ({} training rows with both measured)",
+                        p.a, p.b, p.n_rows
+                    )
+                })
+            })
+            .collect();
+        let indep: Vec<String> = self
+            .pairs
+            .iter()
+            .filter_map(|p| {
+                p.why_independent
+                    .as_ref()
+                    .map(|w| format!("{} and {} ({w})", p.a, p.b))
+            })
+            .collect();
+        match self.basis() {
+            JointBasis::Single => format!(
+                "Joint probability = the probability of the one target's requirements.{merged}"
+            ),
+            JointBasis::Independent => format!(
+                "Joint probability = product of the targets' probabilities: their scatter is taken \
+                 as independent, for want of a correlation from the data: {}.{merged}",
+                indep.join("; ")
+            ),
+            JointBasis::Correlated => {
+                let mut s = format!(
+                    "Joint probability from the targets' joint predictive distribution, their scatter \
+                     correlated as on the training rows: {}.",
+                    used.join("; ")
+                );
+                if !indep.is_empty() {
+                    s.push_str(&format!(" Taken as independent: {}.", indep.join("; ")));
+                }
+                s.push_str(merged);
+                s
+            }
+        }
     }
 }
 
@@ -435,6 +666,7 @@ mod tests {
             estimates: Vec::new(),
             requirements: Vec::new(),
             joint_probability: p,
+            joint_mc_error: None,
             cost_per_tonne: Some(cost),
             carbon_equivalent: None,
             violations: Vec::new(),

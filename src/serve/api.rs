@@ -255,11 +255,15 @@ async fn requirements(
             .iter()
             .map(|c| {
                 json!({"row": c.row + 1, "requirements": c.requirements,
-                    "joint_probability": c.joint_probability, "in_domain": c.in_domain,
+                    "joint_probability": c.joint_probability,
+                    "joint_probability_se": c.joint_mc_error, "in_domain": c.in_domain,
                     "notes": c.notes})
             })
             .collect();
-        Ok(Json(json!({"rows": out, "caution": CAUTION})))
+        Ok(Json(
+            json!({"rows": out, "joint": screening.joint_basis().name(),
+            "joint_statement": screening.joint_statement(), "caution": CAUTION}),
+        ))
     })
     .await
 }

@@ -259,7 +259,7 @@
       for (const q of r.requirements) h += '<td class="prob">' + pct(q.probability) + "</td>";
       h += '<td class="prob" data-joint="' + r.joint_probability + '">' + pct(r.joint_probability) + "</td></tr>";
     }
-    $("probabilities").innerHTML = h + '</tbody></table></div><div class="hint">A requirement with @INPUT=VALUE is judged with those inputs replaced; "all" multiplies the probabilities (targets taken as independent).</div>';
+    $("probabilities").innerHTML = h + '</tbody></table></div><div class="hint">A requirement with @INPUT=VALUE is judged with those inputs replaced; "all" is the probability of meeting every requirement, the scatter of the targets correlated as on the training rows where the model holds a correlation.</div>';
   }
   async function estimate(rowsBody, source) {
     const path = "/api/models/" + encodeURIComponent(model.id) + "/predict";
