@@ -158,7 +158,8 @@ pub struct LoadReport {
     pub rss_max_mb: f64,
 }
 
-/// `requests` POSTs of `body` (JSON rows expecting `rows_each` estimates)
+/// `requests` POSTs of `body` (JSON rows expecting `rows_each` estimates
+/// in the answer's `rows`)
 /// to `path`, spread over `clients` threads; the first `warmup` requests
 /// (not timed) fill the server's caches and allocator arenas first.
 pub fn load(
@@ -198,7 +199,7 @@ pub fn load(
                                     .and_then(|t| {
                                         serde_json::from_str::<serde_json::Value>(&t).ok()
                                     })
-                                    .and_then(|v| v.as_array().map(Vec::len))
+                                    .and_then(|v| v["rows"].as_array().map(Vec::len))
                                     == Some(rows_each)
                         }
                         Err(_) => false,

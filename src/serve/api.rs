@@ -247,6 +247,8 @@ async fn requirements(
             .collect::<mettle::Result<_>>()
             .map_err(|x| Reply::bad_input(x.to_string()))?;
         let rows = rows_of(&v, &limits)?;
+        // declared units converted, a column in a guessed unit refused, as predict does
+        e.model.unit_check(&rows.table).map_err(|x| rows.bad(&x))?;
         let models = std::slice::from_ref(&e.model);
         let screening = Screening::new(models, reqs, None, ProcessLimits::default())
             .map_err(|x| Reply::bad_input(x.to_string()))?;
