@@ -352,4 +352,4 @@ pub const JOINT_MIN_ROWS: usize = 10;
 pub const JOINT_MC_SAMPLES: usize = 20_000;
 
 /// Seed of those samples: the same joint probability on every run.
-pub const JOINT_MC_SEED: u64 = 0x6a6f_696e_74;
+pub const JOINT_MC_SEED: u64 = 0x006a_6f69_6e74;

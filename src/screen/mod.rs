@@ -457,7 +457,9 @@ struct Coupling {
 
 impl Coupling {
     fn new(models: &[Model], reqs: &[Requirement], serve: &[(usize, usize)]) -> Coupling {
-        let mut keys: Vec<(usize, usize, &[(String, f64)], String)> = Vec::new();
+        // (model, target, conditions, label) of each group
+        type Key<'r> = (usize, usize, &'r [(String, f64)], String);
+        let mut keys: Vec<Key<'_>> = Vec::new();
         let mut group = Vec::with_capacity(reqs.len());
         for (r, &(mi, ti)) in reqs.iter().zip(serve) {
             let found = keys

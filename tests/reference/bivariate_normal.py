@@ -83,12 +83,12 @@ with open(OUT, "w") as f:
     f.write("/// (a, b, rho, P(X >= a, Y >= b)).\n")
     f.write("pub const BIVARIATE: &[(f64, f64, f64, f64)] = &[\n")
     for a, b, rho, p in rows:
-        f.write("    ({!r}, {!r}, {!r}, {:.15e}),\n".format(a, b, rho, p))
+        f.write("    ({!r}, {!r}, {!r}, {!r}),\n".format(a, b, rho, p))
     f.write("];\n\n")
     f.write("/// (lo1, hi1, lo2, hi2, rho, P(lo1 < X < hi1, lo2 < Y < hi2)).\n")
     f.write("pub const BOXES: &[(f64, f64, f64, f64, f64, f64)] = &[\n")
     for b in boxes:
-        f.write("    ({}, {}, {}, {}, {!r}, {:.15e}),\n".format(*[rs(v) for v in b[:4]], b[4], b[5]))
+        f.write("    ({}, {}, {}, {}, {!r}, {!r}),\n".format(*[rs(v) for v in b[:4]], b[4], b[5]))
     f.write("];\n\n")
     f.write("/// (h, correlation, P(X_k > h_k for every k)).\n")
     f.write("#[allow(clippy::type_complexity)]\n")
@@ -97,5 +97,5 @@ with open(OUT, "w") as f:
     f.write("    [\n")
     for r in tri_c:
         f.write("        [{!r}, {!r}, {!r}],\n".format(*r))
-    f.write("    ],\n    {:.15e},\n);\n".format(tri))
+    f.write("    ],\n    {!r},\n);\n".format(tri))
 print("wrote", OUT, len(rows), "bivariate values; trivariate", tri)
