@@ -218,7 +218,14 @@ async fn a_qa_engineer_estimates_heats_in_the_browser() {
     // the verdict word of predict's JSON (a graded "domain" where the
     // model gives one, else in_domain as in/out)
     let word = want[0]["domain"].as_str().map_or_else(
-        || if want[0]["in_domain"] == true { "in" } else { "out" }.to_string(),
+        || {
+            if want[0]["in_domain"] == true {
+                "in"
+            } else {
+                "out"
+            }
+            .to_string()
+        },
         str::to_string,
     );
     assert_eq!(verdict, word);

@@ -393,7 +393,6 @@ impl DomainReference {
         (far, thin)
     }
 
-
     /// Training rows stored.
     pub fn n_rows(&self) -> usize {
         self.rows.len() / self.n_inputs.max(1)

@@ -86,10 +86,12 @@ pub fn json_rows_to_csv(rows: &[Value]) -> Result<String, Reply> {
                 Some(Value::Number(x)) => x.to_string(),
                 Some(Value::String(s)) => csv_field(s),
                 Some(Value::Bool(b)) => b.to_string(),
-                Some(_) => return Err(Reply::bad_input(format!(
+                Some(_) => {
+                    return Err(Reply::bad_input(format!(
                     "request rows: row {}, column '{n}': a list or object where a value belongs",
                     i + 1
-                ))),
+                )))
+                }
             });
         }
         out.push_str(&cells.join(","));
