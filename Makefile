@@ -20,6 +20,10 @@ deps:
 	  echo "== installing libopenblas-dev (OpenBLAS, the linear-algebra library mettle links) with apt-get"; \
 	  $(SUDO) apt-get update -qq && DEBIAN_FRONTEND=noninteractive $(SUDO) apt-get install -y -qq libopenblas-dev pkg-config; \
 	fi
+	@if ! dpkg -s fonts-dejavu-core >/dev/null 2>&1; then \
+	  echo "== installing fonts-dejavu-core (the face the charts' PNG text is drawn with, --png) with apt-get"; \
+	  $(SUDO) apt-get update -qq && DEBIAN_FRONTEND=noninteractive $(SUDO) apt-get install -y -qq fonts-dejavu-core; \
+	fi
 	@command -v cargo >/dev/null || { echo "cargo not found: install the Rust toolchain (rustup) first"; exit 1; }
 
 # the browser tests drive Debian's chromium: tests/serve_browser.rs through chromium-driver,

@@ -5,6 +5,14 @@
 //! map one labelled panel per target with its error-bar scale.
 //!
 //! The SVG namespace is the W3C's (SVG 1.1, §5.1, "http://www.w3.org/2000/svg").
+//!
+//! With `--png` each command also writes the chart as PNG beside the SVG.
+//! The file is checked against the PNG specification (W3C, Portable
+//! Network Graphics Specification, 2nd ed., 2003: §5.2 the eight-byte
+//! signature, §11.2.2 IHDR as the first chunk with width and height as
+//! four-byte big-endian integers), decoded, and compared with the same
+//! SVG rendered without its `<text>` elements: the pixels that differ are
+//! the text, so a PNG drawn without a font fails.
 
 mod common;
 
@@ -100,6 +108,78 @@ fn valid(w: &Workdir, name: &str) -> Doc {
     d
 }
 
+/// The value of attribute `name` on the root `<svg>` of `text`.
+fn root_attr(text: &str, name: &str) -> f64 {
+    let root = &text[text.find("<svg").expect("an <svg> root")..];
+    let root = &root[..root.find('>').expect("closed tag")];
+    let v = root
+        .split(&format!(" {name}=\""))
+        .nth(1)
+        .and_then(|r| r.split('"').next())
+        .unwrap_or_else(|| panic!("no {name} on the root"));
+    v.trim_end_matches("px").parse().expect("a number")
+}
+
+/// `svg` without its `<text>` elements.
+fn without_text(svg: &str) -> String {
+    let mut out = String::with_capacity(svg.len());
+    let mut rest = svg;
+    while let Some(a) = rest.find("<text") {
+        out.push_str(&rest[..a]);
+        let b = rest[a..].find("</text>").expect("closed <text>") + a;
+        rest = &rest[b + "</text>".len()..];
+    }
+    out.push_str(rest);
+    out
+}
+
+/// The checks every PNG beside an SVG passes (see the module comment):
+/// signature, IHDR first with twice the SVG's size, decodable, not blank,
+/// and text drawn. Returns the number of text pixels.
+fn valid_png(w: &Workdir, png_name: &str, svg_name: &str) -> usize {
+    let png = w.read(png_name);
+    let svg = String::from_utf8(w.read(svg_name)).expect("UTF-8 SVG");
+    assert_eq!(&png[..8], b"\x89PNG\r\n\x1a\n", "{png_name}: PNG signature");
+    assert_eq!(&png[12..16], b"IHDR", "{png_name}: IHDR first");
+    let be = |i: usize| u32::from_be_bytes([png[i], png[i + 1], png[i + 2], png[i + 3]]);
+    let (width, height) = (be(16), be(20));
+    assert_eq!(
+        (width, height),
+        (
+            (2.0 * root_attr(&svg, "width")).round() as u32,
+            (2.0 * root_attr(&svg, "height")).round() as u32
+        ),
+        "{png_name}: twice the SVG's size"
+    );
+    let image = resvg::tiny_skia::Pixmap::decode_png(&png).expect("a decodable PNG");
+    assert_eq!((image.width(), image.height()), (width, height));
+    let pixels = image.pixels();
+    let inked = pixels
+        .iter()
+        .filter(|p| (p.red(), p.green(), p.blue()) != (255, 255, 255))
+        .count();
+    assert!(
+        inked > pixels.len() / 100,
+        "{png_name}: {inked} of {} pixels drawn",
+        pixels.len()
+    );
+    let bare = mettle::chart::png(&without_text(&svg), mettle::chart::PNG_SCALE)
+        .expect("the SVG without text renders");
+    let bare = resvg::tiny_skia::Pixmap::decode_png(&bare).expect("decodable");
+    let text_pixels = pixels
+        .iter()
+        .zip(bare.pixels())
+        .filter(|(a, b)| a != b)
+        .count();
+    // a single 12 px label of a few letters covers some hundred pixels at
+    // twice the size; every chart has its title and axis labels at least
+    assert!(
+        text_pixels > 2_000,
+        "{png_name}: only {text_pixels} pixels of text"
+    );
+    text_pixels
+}
+
 fn repo(p: &str) -> String {
     PathBuf::from(env!("CARGO_MANIFEST_DIR"))
         .join(p)
@@ -126,10 +206,12 @@ fn every_svg_the_commands_write_is_a_valid_document() {
         &base,
         "--plot",
         "ni.svg",
+        "--png",
         "--out",
         "ni.csv",
     ]);
     let d = valid(&w, "ni.svg");
+    valid_png(&w, "ni.png", "ni.svg");
     for t in ["uts_mpa", "charpy_j"] {
         assert!(
             d.texts.iter().any(|s| s.starts_with(t) && s.contains('(')),
@@ -155,11 +237,14 @@ fn every_svg_the_commands_write_is_a_valid_document() {
         &base,
         "--plot",
         "map.svg",
+        "--png",
         "--out",
         "map.csv",
     ]);
     assert!(stderr(&out).contains("map.svg"));
     let d = valid(&w, "map.svg");
+    assert!(stderr(&out).contains("map.png"));
+    valid_png(&w, "map.png", "map.svg");
     let model_json: serde_json::Value =
         serde_json::from_slice(&std::fs::read(&model).expect("model")).expect("json");
     let targets: Vec<String> = model_json["targets"]
@@ -237,8 +322,10 @@ fn every_svg_the_commands_write_is_a_valid_document() {
         "500",
         "--plot",
         "kv.svg",
+        "--png",
     ]);
     let d = valid(&w, "kv.svg");
+    valid_png(&w, "kv.png", "kv.svg");
     assert!(
         d.texts.iter().any(|s| s.starts_with("T27J")),
         "{:?}",
@@ -280,8 +367,10 @@ fn every_svg_the_commands_write_is_a_valid_document() {
         "3",
         "--svg",
         "front.svg",
+        "--png",
     ]);
     let d = valid(&w, "front.svg");
+    valid_png(&w, "front.png", "front.svg");
     assert!(
         d.texts.join(" ").contains("licensed engineers"),
         "caution on the chart"

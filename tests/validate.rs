@@ -40,7 +40,7 @@ fn validate_grouped_folds_rows_chart_and_report() {
     let mut args = vec![
         "validate", "--data", "d.csv", "--target", "y", "--inputs", "x1,x2", "--folds", "4",
         "--group", "heat", "--format", "json", "--out", "cv.json", "--rows", "oof.csv", "--svg",
-        "oof.svg",
+        "oof.svg", "--png",
     ];
     args.extend(SMALL);
     let out = w.ok(&args);
@@ -82,6 +82,9 @@ fn validate_grouped_folds_rows_chart_and_report() {
     assert!(csv.starts_with("target,row,repeat,fold,measured,mean,sd,lo95,hi95,in_domain\n"));
     let svg = String::from_utf8(w.read("oof.svg")).expect("utf-8");
     assert!(svg.contains("<svg") && svg.trim_end().ends_with("</svg>"));
+    // --png: the chart beside it, a PNG by its signature (PNG spec, 2nd ed., §5.2)
+    let png = w.read("oof.png");
+    assert_eq!(&png[..8], b"\x89PNG\r\n\x1a\n");
     // the report section from the saved file
     w.ok(&[
         "train",

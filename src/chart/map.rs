@@ -105,7 +105,7 @@ fn draw_map(area: &super::xy::Area<'_>, p: &MapPanel, layer: &mut Layer) -> Resu
             format!("contours of {} (labelled)", p.contour_label),
         ),
         (
-            Swatch::Fill(HATCH, 0.35),
+            Swatch::Hatch(HATCH),
             "hatched: outside the training domain".into(),
         ),
     ];

@@ -6,6 +6,7 @@
 //! Every chart is a valid SVG document on its own ([`standalone`]: the SVG
 //! namespace, a viewBox, a `<title>`, text as `<text>`), or a fragment for
 //! an HTML page ([`inline`]). Nothing refers to anything outside the file.
+//! [`png`] renders the same document to PNG (resvg, the machine's fonts).
 //!
 //! # Colours and marks
 //!
@@ -18,12 +19,14 @@
 
 mod bar;
 mod map;
+mod png;
 mod svg;
 pub mod ticks;
 mod xy;
 
 pub use bar::bar_svg;
 pub use map::{map_svg, MapPanel};
+pub use png::{png, png_font, PNG_SCALE, SANS_FACES};
 pub use svg::{inline, standalone};
 pub use xy::{draw_panels, xy_svg};
 

@@ -205,10 +205,14 @@ pub(crate) fn with_layer(svg: String, layer: &Layer) -> String {
     svg
 }
 
+/// The family on a standalone document's root, inherited by its text.
+const ROOT_FONT: &str = " font-family=\"sans-serif\"";
+
 /// A drawing made a standalone SVG document: the XML declaration, the SVG
 /// namespace and a viewBox on the root (plotters writes both; they are
-/// added when missing) and a `<title>` as its first child, which viewers
-/// show as the chart's name.
+/// added when missing), the family `sans-serif` for text that names none,
+/// and a `<title>` as its first child, which viewers show as the chart's
+/// name.
 pub fn standalone(svg: &str, title: &str) -> String {
     let body = svg.trim_start_matches(|c: char| c != '<');
     let body = body
@@ -221,6 +225,11 @@ pub fn standalone(svg: &str, title: &str) -> String {
     let mut open = body[..end].trim_end_matches('/').to_string();
     if !open.contains("xmlns=") {
         open.push_str(" xmlns=\"http://www.w3.org/2000/svg\"");
+    }
+    // text drawn without a family of its own (contour labels, notes)
+    // inherits this one; without it a viewer's default is often a serif
+    if !open.contains("font-family=") {
+        open.push_str(ROOT_FONT);
     }
     if !open.contains("viewBox") {
         let attr = |name: &str| {
@@ -242,10 +251,12 @@ pub fn standalone(svg: &str, title: &str) -> String {
 
 /// A standalone document ([`standalone`]) made a fragment for an HTML
 /// page: no XML declaration, no namespace attribute (HTML gives an inline
-/// `<svg>` its namespace); the `<title>` stays.
+/// `<svg>` its namespace), no family (the page's applies); the `<title>`
+/// stays.
 pub fn inline(doc: &str) -> String {
     doc.trim_start_matches("<?xml version=\"1.0\" encoding=\"UTF-8\"?>\n")
         .replacen(" xmlns=\"http://www.w3.org/2000/svg\"", "", 1)
+        .replacen(ROOT_FONT, "", 1)
 }
 
 #[cfg(test)]
@@ -262,11 +273,13 @@ mod tests {
         assert!(s.contains("xmlns=\"http://www.w3.org/2000/svg\""));
         assert!(s.contains("viewBox=\"0 0 10 20\""));
         assert!(s.contains("<title>a &lt; b</title>"));
+        assert!(s.contains("font-family=\"sans-serif\""));
         let i = inline(&standalone(
             "<svg width=\"10\" height=\"20\">\n</svg>\n",
             "t",
         ));
         assert!(i.starts_with("<svg") && !i.contains("xmlns") && i.contains("<title>t</title>"));
+        assert!(!i.contains("font-family"));
     }
 
     #[test]

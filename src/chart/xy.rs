@@ -222,6 +222,8 @@ impl Mapping {
 #[derive(Clone, Copy)]
 pub(crate) enum Swatch {
     Fill(RGBColor, f64),
+    /// An empty box crossed by the thin diagonal lines of a hatched area.
+    Hatch(RGBColor),
     Line(RGBColor, bool),
     Marks(Mark, RGBColor),
     Interval(RGBColor),
@@ -298,6 +300,25 @@ pub(crate) fn draw_legend(
                     n(o.max(0.12))
                 ),
             ),
+            Swatch::Hatch(c) => {
+                layer.path(
+                    &format!("M{} {}h18v10h-18z", n(x), n(y - 5.0)),
+                    "fill=\"none\" stroke=\"#bbb\" stroke-width=\"0.5\"",
+                );
+                layer.path(
+                    &format!(
+                        "M{} {}l10 -10M{} {}l10 -10",
+                        n(x),
+                        n(y + 5.0),
+                        n(x + 8.0),
+                        n(y + 5.0)
+                    ),
+                    &format!(
+                        "stroke=\"{}\" stroke-width=\"0.7\" stroke-opacity=\"0.8\"",
+                        hex(c)
+                    ),
+                );
+            }
             Swatch::Line(c, dashed) => layer.path(
                 &format!("M{} {}h20", n(x), n(y)),
                 &format!(

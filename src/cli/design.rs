@@ -72,6 +72,9 @@ pub struct DesignArgs {
     /// Write the cost-versus-probability chart (SVG) here; needs --costs.
     #[arg(long, value_name = "FILE.svg")]
     svg: Option<PathBuf>,
+    /// With --svg, also the chart as PNG beside it (FILE.png, twice the SVG's size), for slides.
+    #[arg(long, requires = "svg")]
+    png: bool,
     /// No progress bar.
     #[arg(long)]
     quiet: bool,
@@ -207,9 +210,11 @@ pub fn run(a: DesignArgs) -> anyhow::Result<()> {
             &outcome,
             problem.costs.as_ref().map_or("", |c| c.currency.as_str()),
         )?;
-        mettle::data::write_atomic(path, svg.as_bytes())
-            .with_context(|| format!("writing {}", path.display()))?;
-        eprintln!("chart written: {}", path.display());
+        for p in super::chart_file::write_chart(path, &svg, a.png)
+            .with_context(|| format!("writing {}", path.display()))?
+        {
+            eprintln!("chart written: {}", p.display());
+        }
     }
     if outcome.candidates.is_empty() {
         eprintln!("warning: no candidate returned (see the notes)");

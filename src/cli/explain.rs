@@ -3,7 +3,8 @@
 use std::path::PathBuf;
 
 use clap::Args;
-use mettle::explain::{model_card, scale_words, ModelCard};
+use mettle::explain::{model_card, scale_words, ModelCard, TargetCard};
+use mettle::Model;
 
 use super::evaluate::EvalFormat;
 use super::output::{aligned, emit, num};
@@ -52,7 +53,17 @@ pub struct ExplainArgs {
     out: Option<PathBuf>,
 }
 
+/// The card as text: the data and its inputs, then each target's part.
 fn text(card: &ModelCard) -> String {
+    let mut s = inputs_text(card);
+    for t in &card.targets {
+        s += &target_text(t);
+    }
+    s
+}
+
+/// Where the model came from and its inputs' training ranges.
+fn inputs_text(card: &ModelCard) -> String {
     let mut s = format!(
         "model trained by mettle {} on {} ({} rows, seed {})\nfingerprint {}\n\ninputs:\n",
         card.tool_version, card.data_file, card.n_rows, card.seed, card.data_sha256
@@ -78,132 +89,165 @@ fn text(card: &ModelCard) -> String {
     for (n, why) in &card.set_aside {
         s += &format!("set aside: {n} ({why})\n");
     }
-    for t in &card.targets {
-        let unit = t
-            .unit
-            .clone()
-            .unwrap_or_else(|| "(unit of the training file)".into());
-        s += &format!(
-            "\ntarget {}: {} rows ({} without a value left out), range {} to {} {unit}, learnt {}\n",
-            t.name, t.n_rows, t.n_missing, num(t.min), num(t.max), scale_words(&t.scale)
-        );
-        s += &format!("  noise sd {} {unit}", num(t.noise_sd));
-        if t.noise_sd_range.0.to_bits() != t.noise_sd_range.1.to_bits() {
-            s += &format!(
-                " (from {} to {} over the training rows)",
-                num(t.noise_sd_range.0),
-                num(t.noise_sd_range.1)
-            );
-        }
-        s += &format!(": {}\n", t.noise_basis);
-        s += &match &t.replicate_sd {
-            Some(r) => format!(
-                "  measured replicate scatter: pooled sd {} {unit} ({} groups of repeat tests, {} degrees of freedom)\n",
-                num(r.pooled_sd), r.n_groups, r.dof
-            ),
-            None => "  measured replicate scatter: none (no repeat tests in the training rows)\n".into(),
-        };
-        if let Some(p) = &t.noise_profile {
-            let iu = p
-                .input_unit
-                .as_deref()
-                .map_or(String::new(), |u| format!(" {u}"));
-            s += &format!(
-                "  noise sd along {} (the most relevant input), training rows in {} bins:\n",
-                p.input,
-                p.bins.len()
-            );
-            let rows: Vec<Vec<String>> = p
-                .bins
-                .iter()
-                .map(|b| {
-                    vec![
-                        format!("  {} to {}{iu}", num(b.lo), num(b.hi)),
-                        b.n_rows.to_string(),
-                        num(b.noise_sd),
-                        b.replicates.as_ref().map_or("-".into(), |r| {
-                            format!("{} ({} dof)", num(r.pooled_sd), r.dof)
-                        }),
-                    ]
-                })
-                .collect();
-            let h: Vec<String> = [
-                format!("  {}", p.input),
-                "rows".into(),
-                format!("noise_sd {unit}"),
-                format!("replicate_sd {unit}"),
-            ]
-            .to_vec();
-            s += &aligned(&h, &rows);
-        }
-        s += &format!(
-            "  search: hidden units {}..{}, {} candidates ({} discarded), {} rows to train and {} held out\n  committee of {}:\n",
-            t.hidden_searched.0, t.hidden_searched.1, t.candidates.0, t.candidates.1,
-            t.search_rows.0, t.search_rows.1, t.members.len()
-        );
-        let rows: Vec<Vec<String>> = t
-            .members
-            .iter()
-            .map(|m| {
-                vec![
-                    format!("  {}", m.n_hidden),
-                    m.restart.to_string(),
-                    format!("{:.3}", m.log_evidence),
-                    format!("{:.4}", m.heldout_nlpd),
-                    format!("{:.2}", m.gamma),
-                    if m.varying_noise {
-                        "varies"
-                    } else {
-                        "constant"
-                    }
-                    .into(),
-                ]
-            })
-            .collect();
-        let h: Vec<String> = [
-            "  hidden",
-            "restart",
-            "log_evidence",
-            "heldout_nlpd",
-            "gamma",
-            "noise",
-        ]
-        .iter()
-        .map(|x| x.to_string())
-        .collect();
-        s += &aligned(&h, &rows);
-        if let Some(k) = &t.kriging {
-            s += &format!("  {}\n", k.sentence());
-        }
-        if let Some(k) = &t.gross_errors {
-            s += &format!("  {}\n", k.sentence());
-        }
-        if let Some(r) = &t.relevance_range {
-            s += "  input relevance (most relevant = 1), with its range over the committee members:\n";
-            let mut ranked = r.clone();
-            ranked.sort_by(|a, b| b.value.total_cmp(&a.value));
-            let rows: Vec<Vec<String>> = ranked
-                .iter()
-                .map(|r| {
-                    vec![
-                        format!("  {}", r.input),
-                        format!("{:.3}", r.value),
-                        format!("{:.3} to {:.3}", r.low, r.high),
-                    ]
-                })
-                .collect();
-            let h = vec![
-                "  input".to_string(),
-                "relevance".to_string(),
-                "members".to_string(),
-            ];
-            s += &aligned(&h, &rows);
-        }
-        s += &format!("  {}\n", t.relevance_note);
-        for n in &t.fit_notes {
-            s += &format!("  note: {n}\n");
-        }
+    s
+}
+
+/// One target: its rows and range, noise, search and committee, the
+/// residual process and gross errors, input relevance and fit notes.
+fn target_text(t: &TargetCard) -> String {
+    let unit = t
+        .unit
+        .clone()
+        .unwrap_or_else(|| "(unit of the training file)".into());
+    let mut s = format!(
+        "\ntarget {}: {} rows ({} without a value left out), range {} to {} {unit}, learnt {}\n",
+        t.name,
+        t.n_rows,
+        t.n_missing,
+        num(t.min),
+        num(t.max),
+        scale_words(&t.scale)
+    );
+    s += &noise_text(t, &unit);
+    s += &committee_text(t);
+    if let Some(k) = &t.kriging {
+        s += &format!("  {}\n", k.sentence());
     }
+    if let Some(k) = &t.gross_errors {
+        s += &format!("  {}\n", k.sentence());
+    }
+    s += &relevance_text(t);
+    s += &format!("  {}\n", t.relevance_note);
+    for n in &t.fit_notes {
+        s += &format!("  note: {n}\n");
+    }
+    s
+}
+
+/// The fitted noise sd beside the measured replicate scatter, and the
+/// noise sd along the most relevant input.
+fn noise_text(t: &TargetCard, unit: &str) -> String {
+    let mut s = format!("  noise sd {} {unit}", num(t.noise_sd));
+    if t.noise_sd_range.0.to_bits() != t.noise_sd_range.1.to_bits() {
+        s += &format!(
+            " (from {} to {} over the training rows)",
+            num(t.noise_sd_range.0),
+            num(t.noise_sd_range.1)
+        );
+    }
+    s += &format!(": {}\n", t.noise_basis);
+    s += &match &t.replicate_sd {
+        Some(r) => format!(
+            "  measured replicate scatter: pooled sd {} {unit} ({} groups of repeat tests, {} degrees of freedom)\n",
+            num(r.pooled_sd), r.n_groups, r.dof
+        ),
+        None => "  measured replicate scatter: none (no repeat tests in the training rows)\n".into(),
+    };
+    let Some(p) = &t.noise_profile else {
+        return s;
+    };
+    let iu = p
+        .input_unit
+        .as_deref()
+        .map_or(String::new(), |u| format!(" {u}"));
+    s += &format!(
+        "  noise sd along {} (the most relevant input), training rows in {} bins:\n",
+        p.input,
+        p.bins.len()
+    );
+    let rows: Vec<Vec<String>> = p
+        .bins
+        .iter()
+        .map(|b| {
+            vec![
+                format!("  {} to {}{iu}", num(b.lo), num(b.hi)),
+                b.n_rows.to_string(),
+                num(b.noise_sd),
+                b.replicates.as_ref().map_or("-".into(), |r| {
+                    format!("{} ({} dof)", num(r.pooled_sd), r.dof)
+                }),
+            ]
+        })
+        .collect();
+    let h: Vec<String> = [
+        format!("  {}", p.input),
+        "rows".into(),
+        format!("noise_sd {unit}"),
+        format!("replicate_sd {unit}"),
+    ]
+    .to_vec();
+    s += &aligned(&h, &rows);
+    s
+}
+
+/// The candidate search and the committee's members.
+fn committee_text(t: &TargetCard) -> String {
+    let mut s = format!(
+        "  search: hidden units {}..{}, {} candidates ({} discarded), {} rows to train and {} held out\n  committee of {}:\n",
+        t.hidden_searched.0, t.hidden_searched.1, t.candidates.0, t.candidates.1,
+        t.search_rows.0, t.search_rows.1, t.members.len()
+    );
+    let rows: Vec<Vec<String>> = t
+        .members
+        .iter()
+        .map(|m| {
+            vec![
+                format!("  {}", m.n_hidden),
+                m.restart.to_string(),
+                format!("{:.3}", m.log_evidence),
+                format!("{:.4}", m.heldout_nlpd),
+                format!("{:.2}", m.gamma),
+                if m.varying_noise {
+                    "varies"
+                } else {
+                    "constant"
+                }
+                .into(),
+            ]
+        })
+        .collect();
+    let h: Vec<String> = [
+        "  hidden",
+        "restart",
+        "log_evidence",
+        "heldout_nlpd",
+        "gamma",
+        "noise",
+    ]
+    .iter()
+    .map(|x| x.to_string())
+    .collect();
+    s += &aligned(&h, &rows);
+    s
+}
+
+/// Input relevance, most relevant first, with its range over the members
+/// (nothing without ARD).
+fn relevance_text(t: &TargetCard) -> String {
+    let Some(r) = &t.relevance_range else {
+        return String::new();
+    };
+    let mut s =
+        "  input relevance (most relevant = 1), with its range over the committee members:\n"
+            .to_string();
+    let mut ranked = r.clone();
+    ranked.sort_by(|a, b| b.value.total_cmp(&a.value));
+    let rows: Vec<Vec<String>> = ranked
+        .iter()
+        .map(|r| {
+            vec![
+                format!("  {}", r.input),
+                format!("{:.3}", r.value),
+                format!("{:.3} to {:.3}", r.low, r.high),
+            ]
+        })
+        .collect();
+    let h = vec![
+        "  input".to_string(),
+        "relevance".to_string(),
+        "members".to_string(),
+    ];
+    s += &aligned(&h, &rows);
     s
 }
 

@@ -2,6 +2,7 @@
 //! Nothing here computes anything the library could.
 
 mod audit;
+mod chart_file;
 mod compare;
 mod demo_data;
 mod derive;

@@ -10,6 +10,7 @@ use mettle::curves::{
 use mettle::data::{write_atomic, Table};
 use mettle::Model;
 
+use super::chart_file::write_chart;
 use super::output::{csv_field, emit, num};
 use super::{UsageError, CAUTION};
 
@@ -49,6 +50,9 @@ pub struct SweepArgs {
     /// Draw the curve (or map) as SVG.
     #[arg(long, value_name = "FILE.svg")]
     plot: Option<PathBuf>,
+    /// With --plot, also the chart as PNG beside it (FILE.png, twice the SVG's size), for slides.
+    #[arg(long, requires = "plot")]
+    png: bool,
     /// Draw only this target (repeatable; every target by default).
     #[arg(long, value_name = "NAME")]
     target: Vec<String>,
@@ -110,9 +114,10 @@ fn sweep_csv(s: &Sweep) -> String {
     out
 }
 
-fn write_plot(path: &std::path::Path, svg: &str) -> anyhow::Result<()> {
-    write_atomic(path, svg.as_bytes())?;
-    eprintln!("wrote {}", path.display());
+fn write_plot(path: &std::path::Path, svg: &str, png: bool) -> anyhow::Result<()> {
+    for p in write_chart(path, svg, png)? {
+        eprintln!("wrote {}", p.display());
+    }
     Ok(())
 }
 
@@ -174,7 +179,7 @@ pub fn run(a: SweepArgs) -> anyhow::Result<()> {
         } else {
             sweep_map_svg(&model, &s, &chosen, CAUTION)?
         };
-        write_plot(p, &svg)?;
+        write_plot(p, &svg, a.png)?;
     }
     warn_out(&s);
     eprintln!("{CAUTION}");
@@ -246,6 +251,9 @@ pub struct TransitionArgs {
     /// crossing temperatures' 95 % intervals on them, the requirement's point with its probability.
     #[arg(long, value_name = "FILE.svg")]
     plot: Option<PathBuf>,
+    /// With --plot, also the chart as PNG beside it (FILE.png, twice the SVG's size), for slides.
+    #[arg(long, requires = "plot")]
+    png: bool,
     /// Print the summary as JSON.
     #[arg(long)]
     json: bool,
@@ -290,7 +298,7 @@ pub fn run_transition(a: TransitionArgs) -> anyhow::Result<()> {
         eprintln!("wrote {}", p.display());
     }
     if let Some(p) = &a.plot {
-        write_plot(p, &transition_svg(&model, &t, CAUTION)?)?;
+        write_plot(p, &transition_svg(&model, &t, CAUTION)?, a.png)?;
     }
     warn_out(&t.curve);
     for n in &t.notes {

@@ -77,6 +77,9 @@ pub struct ValidateArgs {
     /// Write the chart of out-of-fold estimates against measured values (SVG).
     #[arg(long, value_name = "FILE.svg")]
     svg: Option<PathBuf>,
+    /// With --svg, also each chart as PNG beside it (FILE.png, twice the SVG's size), for slides.
+    #[arg(long, requires = "svg")]
+    png: bool,
     /// No progress display.
     #[arg(long, short)]
     quiet: bool,
@@ -130,7 +133,7 @@ pub fn run(a: ValidateArgs) -> anyhow::Result<()> {
         emit(&rows_text(&v, path)?, Some(path))?;
     }
     if let Some(path) = &a.svg {
-        write_svgs(&v, path)?;
+        write_svgs(&v, path, a.png)?;
     }
     let text = match a.format {
         ValidateFormat::Json => serde_json::to_string_pretty(&v)? + "\n",
@@ -266,7 +269,7 @@ fn rows_text(v: &Validation, path: &Path) -> anyhow::Result<String> {
     Ok(s)
 }
 
-fn write_svgs(v: &Validation, path: &Path) -> anyhow::Result<()> {
+fn write_svgs(v: &Validation, path: &Path, png: bool) -> anyhow::Result<()> {
     for t in &v.targets {
         let p = if v.targets.len() == 1 {
             path.to_path_buf()
@@ -276,7 +279,7 @@ fn write_svgs(v: &Validation, path: &Path) -> anyhow::Result<()> {
                 .map_or_else(String::new, |s| s.to_string_lossy().into_owned());
             path.with_file_name(format!("{stem}_{}.svg", t.target))
         };
-        mettle::data::write_atomic(&p, out_of_fold_svg(t)?.as_bytes())
+        super::chart_file::write_chart(&p, &out_of_fold_svg(t)?, png)
             .with_context(|| format!("writing {}", p.display()))?;
     }
     Ok(())
