@@ -49,13 +49,18 @@ impl Server {
         let sink = stderr.clone();
         std::thread::spawn(move || {
             for line in BufReader::new(err).lines().map_while(Result::ok) {
+                // the line is kept before the address is announced, so a
+                // caller that reads stderr once started sees every line
+                // printed up to the address
+                {
+                    let mut s = sink.lock().expect("stderr lock");
+                    s.push_str(&line);
+                    s.push('\n');
+                }
                 if let Some(rest) = line.split("listening on http://").nth(1) {
                     let addr = rest.split('/').next().unwrap_or_default().to_string();
                     let _ = tx.send(addr);
                 }
-                let mut s = sink.lock().expect("stderr lock");
-                s.push_str(&line);
-                s.push('\n');
             }
         });
         let addr = match rx.recv_timeout(Duration::from_secs(60)) {
