@@ -121,8 +121,8 @@ fn neighbours_are_the_nearest_training_rows_by_the_weighted_distance() {
             })
             .collect();
         d.sort_by(|a, b| a.0.total_cmp(&b.0).then(a.1.cmp(&b.1)));
-        let got = v[row]["neighbours"].as_array().expect("neighbours");
-        assert_eq!(got.len(), 3, "{}", v[row]);
+        let got = v["rows"][row]["neighbours"].as_array().expect("neighbours");
+        assert_eq!(got.len(), 3, "{}", v["rows"][row]);
         for (g, (dist, i)) in got.iter().zip(&d) {
             assert_eq!(g["row"], *i + 1, "{g}");
             assert_eq!(g["id"], train[*i].0, "{g}");

@@ -282,6 +282,9 @@ fn predict_require_adds_the_probabilities() {
         "y2>=572",
         "--format",
         "csv",
+        // every digit, for the comparison to 1e-9 below
+        "--digits",
+        "17",
     ];
     let out = w.ok(&args);
     let path = w.write("est.csv", &out.stdout);

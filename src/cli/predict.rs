@@ -152,21 +152,27 @@ pub fn run(a: PredictArgs) -> anyhow::Result<()> {
         layout.extra_columns = x.column_names();
     }
     // each batch's estimates, with what --require and --neighbours add
-    let estimate = |batch: mettle::Result<Table>| -> anyhow::Result<(EstimateBatch, Option<BatchExtras>)> {
-        let batch = batch?;
-        let context = || format!("estimating with model {}", a.model.display());
-        match &extras {
-            None => Ok((model.estimate_batch(&batch, &layout).with_context(context)?, None)),
-            Some(x) => {
-                let (mut b, full) = model
-                    .estimate_batch_full(&batch, &layout)
-                    .with_context(context)?;
-                let extra = x.batch(&batch, &full).with_context(context)?;
-                b.extra = x.cells(&extra);
-                Ok((b, Some(extra)))
+    let estimate =
+        |batch: mettle::Result<Table>| -> anyhow::Result<(EstimateBatch, Option<BatchExtras>)> {
+            let batch = batch?;
+            let context = || format!("estimating with model {}", a.model.display());
+            match &extras {
+                None => Ok((
+                    model
+                        .estimate_batch(&batch, &layout)
+                        .with_context(context)?,
+                    None,
+                )),
+                Some(x) => {
+                    let (mut b, full) = model
+                        .estimate_batch_full(&batch, &layout)
+                        .with_context(context)?;
+                    let extra = x.batch(&batch, &full).with_context(context)?;
+                    b.extra = x.cells(&extra);
+                    Ok((b, Some(extra)))
+                }
             }
-        }
-    };
+        };
     let xlsx = a.out.as_deref().is_some_and(is_xlsx_path);
     let mut tally = Tally::default();
     let mut told = false;
