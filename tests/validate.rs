@@ -165,6 +165,7 @@ fn validate_takes_the_group_column_from_the_schema() {
     w.write("s.toml", schema("heat", "identifier"));
     let mut args = vec![
         "validate", "--data", "d.csv", "--schema", "s.toml", "--folds", "4", "--format", "json",
+        "--rows", "oof.xlsx",
     ];
     args.extend(SMALL);
     let out = w.ok(&args);
@@ -172,6 +173,19 @@ fn validate_takes_the_group_column_from_the_schema() {
         .unwrap_or_else(|e| panic!("not JSON ({e})\n{}", describe(&args, &out)));
     assert_eq!(v["n_groups"], 20, "{}", describe(&args, &out));
     assert_eq!(v["group"], "heat", "{}", describe(&args, &out));
+    // the out-of-fold rows as a workbook, read back (calamine, through
+    // mettle's own reader): one row per data row, the numbers of the JSON
+    let book = mettle::data::Table::read(&w.path("oof.xlsx")).expect("the workbook reads");
+    assert_eq!(book.n_rows(), 60);
+    let rows = v["targets"][0]["rows"].as_array().expect("rows");
+    let means = book.numeric("mean").expect("mean column");
+    for (r, m) in rows.iter().zip(&means) {
+        let want = r["mean"].as_f64().expect("mean");
+        assert!(
+            (m - want).abs() <= 1e-12 * want.abs().max(1.0),
+            "{m} vs {want}"
+        );
+    }
 
     for (group, role, said) in [
         ("furnace", "identifier", "names no declared column"),

@@ -4,7 +4,6 @@ use std::path::PathBuf;
 
 use clap::Args;
 use mettle::explain::{model_card, scale_words, ModelCard, TargetCard};
-use mettle::Model;
 
 use super::evaluate::EvalFormat;
 use super::output::{aligned, emit, num};

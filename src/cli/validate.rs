@@ -4,6 +4,8 @@ use std::path::{Path, PathBuf};
 
 use anyhow::Context;
 use clap::{Args, ValueEnum};
+use mettle::data::cells::Cell;
+use mettle::data::spreadsheet::{is_xlsx_path, write_xlsx, Sheet};
 use mettle::data::Table;
 use mettle::report::validation::{figure_row, out_of_fold_svg, FIGURE_HEADER};
 use mettle::validate::{cross_validate, CvOptions, Recipe, TargetValidation, Validation};
@@ -43,7 +45,7 @@ ranking is not settled by the data. --repeats R repeats it with R different part
 averages.\n\n\
 Outputs: the figures on standard output (--format json for everything, rows included); --out \
 FILE.json the whole result, which `mettle report --validation FILE.json` shows; --rows FILE.csv \
-(or .json) the out-of-fold estimate of every row (columns target, row, repeat, fold, measured, \
+(or .json, or an .xlsx workbook with the rows on sheet out_of_fold) the out-of-fold estimate of every row (columns target, row, repeat, fold, measured, \
 mean, sd, lo95, hi95, in_domain) for your own plots; --svg FILE.svg the chart of out-of-fold \
 estimates against measured values (one file per target when there are several: FILE_<target>.svg).\n\n\
 It trains K × R models: with default settings that is K × R times as long as `train`.\n\n\
@@ -71,7 +73,7 @@ pub struct ValidateArgs {
     /// Write the whole result as JSON (for `mettle report --validation`).
     #[arg(long, value_name = "FILE.json")]
     out: Option<PathBuf>,
-    /// Write every row's out-of-fold estimate (.csv, or .json by extension).
+    /// Write every row's out-of-fold estimate (.csv, .json or .xlsx by extension).
     #[arg(long, value_name = "FILE.csv")]
     rows: Option<PathBuf>,
     /// Write the chart of out-of-fold estimates against measured values (SVG).
@@ -130,7 +132,11 @@ pub fn run(a: ValidateArgs) -> anyhow::Result<()> {
         emit(&(serde_json::to_string_pretty(&v)? + "\n"), Some(path))?;
     }
     if let Some(path) = &a.rows {
-        emit(&rows_text(&v, path)?, Some(path))?;
+        if is_xlsx_path(path) {
+            write_xlsx(path, &[rows_sheet(&v)], 17)?;
+        } else {
+            emit(&rows_text(&v, path)?, Some(path))?;
+        }
     }
     if let Some(path) = &a.svg {
         write_svgs(&v, path, a.png)?;
@@ -226,6 +232,44 @@ fn target_detail(t: &TargetValidation) -> String {
         s += &format!("{}\n", mettle::explain::RELEVANCE_MEANING);
     }
     s
+}
+
+/// The out-of-fold rows as a workbook sheet: the CSV's columns, numbers
+/// stored as numbers.
+fn rows_sheet(v: &Validation) -> Sheet {
+    let head = [
+        "target",
+        "row",
+        "repeat",
+        "fold",
+        "measured",
+        "mean",
+        "sd",
+        "lo95",
+        "hi95",
+        "in_domain",
+    ];
+    let mut rows = vec![head.iter().map(|h| Cell::Text((*h).into())).collect()];
+    for t in &v.targets {
+        for r in &t.rows {
+            rows.push(vec![
+                Cell::Text(t.target.clone()),
+                Cell::Int(r.row),
+                Cell::Int(r.repeat),
+                Cell::Int(r.fold),
+                Cell::Num(r.measured),
+                Cell::Num(r.mean),
+                Cell::Num(r.sd),
+                Cell::Num(r.lo95),
+                Cell::Num(r.hi95),
+                Cell::Bool(r.in_domain),
+            ]);
+        }
+    }
+    Sheet {
+        name: "out_of_fold".into(),
+        rows,
+    }
 }
 
 fn rows_text(v: &Validation, path: &Path) -> anyhow::Result<String> {
