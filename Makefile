@@ -61,7 +61,7 @@ python: deps
 	  echo "$(PY_PACKAGES)" > $(VENV)/.mettle-packages; \
 	fi
 	@echo "== building and installing the mettle Python package (python/, release build)"
-	$(PY) -m pip install -q --no-build-isolation --force-reinstall --no-deps ./python
+	PATH="$(VENV)/bin:$$PATH" $(PY) -m pip install -q --no-build-isolation --force-reinstall --no-deps ./python
 
 lint: deps
 	cargo fmt --all -- --check

@@ -374,8 +374,9 @@ class Model:
         cols["in_domain"] = np.frombuffer(raw["in_domain"], dtype=np.uint8).astype(bool)
         cols["domain"] = raw["domain"]
         cols["notes"] = raw["notes"]
-        for text, p in raw["requirements"]:
-            cols[f"P({text})"] = np.frombuffer(p, dtype="<f8")
+        # named as given, in the order given
+        for given, (_, p) in zip(require, raw["requirements"]):
+            cols[f"P({given})"] = np.frombuffer(p, dtype="<f8")
         if len(raw["requirements"]) > 1:
             cols["P(all)"] = np.frombuffer(raw["joint"], dtype="<f8")
         attrs = {"units": unit_of, "interval_kind": kind_of, "caution": CAUTION}
@@ -425,8 +426,8 @@ def screen(
         cols["row"].append(c["row"])
         cols["eligible"].append(c["eligible"])
         cols["P(all)"].append(c["joint_probability"])
-        for text, p in c["probabilities"].items():
-            cols.setdefault(f"P({text})", []).append(p)
+        for given, p in zip(require, c["probabilities"]):
+            cols.setdefault(f"P({given})", []).append(p)
         for t, (mean, sd, lo, hi) in c["estimates"].items():
             for f, v in (("mean", mean), ("sd", sd), ("lo95", lo), ("hi95", hi)):
                 cols.setdefault(f"{t}_{f}", []).append(v)

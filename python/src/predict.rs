@@ -168,10 +168,7 @@ pub fn screen<'py>(
         d.set_item("row", c.row)?;
         d.set_item("eligible", c.eligible(allow_out_of_domain))?;
         d.set_item("joint_probability", c.joint_probability)?;
-        let probs = PyDict::new(py);
-        for r in &c.requirements {
-            probs.set_item(&r.requirement, r.probability)?;
-        }
+        let probs: Vec<f64> = c.requirements.iter().map(|r| r.probability).collect();
         d.set_item("probabilities", probs)?;
         let est = PyDict::new(py);
         for t in &c.estimates {

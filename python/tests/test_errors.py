@@ -94,8 +94,8 @@ def test_complex_and_object_columns_are_refused_by_name():
     df["x1"] = df["x1"].astype(complex)
     with pytest.raises(mettle.DataError, match="column 'x1' has type complex128"):
         mettle.Model.train(df, targets="y", progress=False)
-    df = fixture_frame(40, 1).astype({"x1": object})
-    df.loc[0, "x1"] = {"a": 1}
+    df = fixture_frame(40, 1)
+    df["x1"] = pd.Series([{"a": 1}] + df["x1"].tolist()[1:], dtype=object)
     with pytest.raises(mettle.DataError, match="column 'x1'"):
         mettle.Model.train(df, targets="y", progress=False)
 
