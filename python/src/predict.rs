@@ -53,7 +53,10 @@ fn run_predict(
         let screening = Screening::new(models, reqs, None, ProcessLimits::default())?;
         let cands = screening.evaluate(&table)?;
         for (k, text) in texts.into_iter().enumerate() {
-            let p = cands.iter().map(|c| c.requirements[k].probability).collect();
+            let p = cands
+                .iter()
+                .map(|c| c.requirements[k].probability)
+                .collect();
             probabilities.push((text, p));
         }
         joint = cands.iter().map(|c| c.joint_probability).collect();

@@ -137,13 +137,11 @@ pub fn train(
 ) -> PyResult<(RawModel, Vec<String>)> {
     // what clap checks on the command line
     match (&schema, &targets, &inputs) {
-        (Some(_), Some(_), _) | (Some(_), _, Some(_)) => {
-            return Err(raise(
-                py,
-                "SettingsError",
-                "schema cannot be given with targets or inputs: the schema names every column's role",
-            ))
-        }
+        (Some(_), Some(_), _) | (Some(_), _, Some(_)) => return Err(raise(
+            py,
+            "SettingsError",
+            "schema cannot be given with targets or inputs: the schema names every column's role",
+        )),
         (None, None, _) => {
             return Err(raise(
                 py,
@@ -198,7 +196,10 @@ pub fn train(
         }
         let mut notes = report.map_or_else(Vec::new, |r| schema_notes(&r, &data_name));
         for s in &model.set_aside {
-            notes.push(format!("warning: input '{}' set aside: {}", s.name, s.reason));
+            notes.push(format!(
+                "warning: input '{}' set aside: {}",
+                s.name, s.reason
+            ));
         }
         for t in &model.targets {
             for n in mettle::explain::fit_notes(t) {
