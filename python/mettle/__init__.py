@@ -79,6 +79,7 @@ class _Printer:
             self.quarter[target] = 0
             print(f"{target}: training {ev['total']} candidate networks", file=out, flush=True)
         elif kind == "range_widened":
+            self.quarter[target] = 4 * ev.get("done", 0) // max(ev["total"], 1)
             print(
                 f"{target}: hidden-unit range widened to {ev['max_hidden']} ({ev['total']} candidates)",
                 file=out,
