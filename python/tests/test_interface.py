@@ -74,3 +74,15 @@ def test_numpy_dict_and_text_inputs_predict_alike():
     d = m.predict(new.astype(str))  # text cells, parsed as the CLI parses a CSV cell
     for other in (b, c, d):
         assert np.array_equal(a["y_mean"].to_numpy(), other["y_mean"].to_numpy())
+
+
+def test_the_documented_examples_are_valid_python():
+    # the README's four lines and the notebook session of docs/python.md
+    # (run end to end by hand: about two minutes of training, too long here)
+    import re
+
+    for doc in (ROOT / "README.md", ROOT / "docs" / "python.md"):
+        blocks = re.findall(r"```python\n(.*?)```", doc.read_text(), re.S)
+        assert blocks, doc
+        for k, code in enumerate(blocks):
+            compile(code, f"{doc.name} block {k + 1}", "exec")
