@@ -11,7 +11,13 @@ BIN  := $(CARGO_TARGET_DIR)/release/mettle
 DEMO := out/demo
 SUDO := $(shell [ "$$(id -u)" = 0 ] || echo sudo)
 
-.PHONY: all deps browser build demo models test lint fmt bench bench-engine bench-scale bench-serve clean-demo
+# The Python package (python/, docs/python.md) is built into a virtual
+# environment outside the clone, with the same Cargo target directory.
+VENV ?= $(HOME)/.cache/mettle/venv
+PY   := $(VENV)/bin/python
+PY_PACKAGES := maturin pytest numpy pandas polars scikit-learn matplotlib
+
+.PHONY: all deps browser build demo models test lint fmt bench bench-engine bench-scale bench-serve clean-demo python
 
 all: build
 
@@ -38,9 +44,28 @@ build: deps
 	@echo "== building mettle (release; first build takes several minutes, target dir $(CARGO_TARGET_DIR))"
 	cargo build --release --locked
 
-test: deps browser
+test: deps browser python
 	@echo "== running the test suite (release build)"
 	cargo test --release --locked
+	@echo "== the Python interface: pytest (python/tests) against the CLI built above"
+	$(PY) -m pytest -q python/tests
+
+# a virtual environment with maturin, pytest, numpy, pandas, polars,
+# scikit-learn and matplotlib from PyPI, and the mettle package built from
+# python/ (PyO3 over the Rust library; maturin)
+python: deps
+	@if ! python3 -c "import ensurepip, venv" >/dev/null 2>&1; then \
+	  echo "== installing python3-venv and python3-pip with apt-get"; \
+	  $(SUDO) apt-get update -qq && DEBIAN_FRONTEND=noninteractive $(SUDO) apt-get install -y -qq python3-venv python3-pip; \
+	fi
+	@if [ ! -x $(PY) ]; then echo "== creating the virtual environment $(VENV)"; python3 -m venv $(VENV); fi
+	@if [ ! -f $(VENV)/.mettle-packages ] || [ "$$(cat $(VENV)/.mettle-packages)" != "$(PY_PACKAGES)" ]; then \
+	  echo "== installing $(PY_PACKAGES) into $(VENV) with pip"; \
+	  $(PY) -m pip install -q --upgrade pip && $(PY) -m pip install -q $(PY_PACKAGES) && \
+	  echo "$(PY_PACKAGES)" > $(VENV)/.mettle-packages; \
+	fi
+	@echo "== building and installing the mettle Python package (python/, release build)"
+	PATH="$(VENV)/bin:$$PATH" $(PY) -m pip install -q --no-build-isolation --force-reinstall --no-deps ./python
 
 lint: deps
 	cargo fmt --all -- --check

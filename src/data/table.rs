@@ -324,16 +324,31 @@ impl Table {
             _ => df,
         };
         let table = Self::from_frame(path, &df)?;
-        if table.n_rows == 0 {
+        table.check_has_rows()?;
+        Ok(table)
+    }
+
+    /// What [`Table::read`] reports for a file without data: a table with
+    /// no column is an empty file, one with columns but no row a header
+    /// alone. Callers that build a table in memory (the Python interface)
+    /// check it the same way.
+    ///
+    /// # Errors
+    /// [`Error::Read`] naming the source.
+    pub fn check_has_rows(&self) -> Result<()> {
+        if self.names.is_empty() {
+            return Err(read_error(&self.source, "the file is empty"));
+        }
+        if self.n_rows == 0 {
             return Err(read_error(
-                path,
+                &self.source,
                 format!(
                     "the table has a header ({}) but no data rows",
-                    table.names.join(", ")
+                    self.names.join(", ")
                 ),
             ));
         }
-        Ok(table)
+        Ok(())
     }
 
     fn from_frame(path: &Path, df: &DataFrame) -> Result<Table> {
