@@ -136,7 +136,6 @@ fn _mettle(m: &Bound<'_, PyModule>) -> PyResult<()> {
     m.add_function(wrap_pyfunction!(predict::predict, m)?)?;
     m.add_function(wrap_pyfunction!(predict::screen, m)?)?;
     m.add("CAUTION", mettle::predict::CAUTION)?;
-    m.add("ROW_CAUTION", mettle::predict::ROW_CAUTION)?;
     m.add("VERSION", env!("CARGO_PKG_VERSION"))?;
     Ok(())
 }
