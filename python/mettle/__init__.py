@@ -348,8 +348,8 @@ class Model:
         ``_lo95``, ``_hi95``, ``_noise_sd``, ``_model_sd``; then ``in_domain``,
         ``domain`` (inside, thin, outside) and ``notes``. With ``require``
         (``"uts_mpa>=620"``, ``"charpy_j>=47@test_temp_c=-40"``), one column
-        ``P(<requirement>)`` each and ``P(all)`` (their product, independence
-        assumed). ``units="declared"``: the units the schema declares.
+        ``P(<requirement>)`` each and ``P(all)`` (from the targets' joint
+        predictive distribution, as ``mettle screen`` computes it). ``units="declared"``: the units the schema declares.
         A pandas result carries ``attrs`` ``units``, ``interval_kind`` and
         ``caution``. The GIL is released while estimating.
         """

@@ -32,9 +32,18 @@ impl RawModel {
     /// Read a model file written by `mettle train` or `Model.save`.
     #[staticmethod]
     fn load(py: Python<'_>, path: std::path::PathBuf) -> PyResult<RawModel> {
-        let model = py
-            .detach(|| mettle::Model::load(&path))
-            .map_err(|e| to_py(py, &e))?;
+        // the message the command line gives for the same file
+        let model = py.detach(|| mettle::Model::load(&path)).map_err(|e| {
+            crate::errors::raise(
+                py,
+                crate::errors::class_name(&e),
+                &format!(
+                    "the model file {} (a model written by `mettle train`): {}",
+                    path.display(),
+                    crate::errors::message(&e)
+                ),
+            )
+        })?;
         Ok(RawModel { model })
     }
 
