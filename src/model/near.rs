@@ -169,9 +169,7 @@ pub(crate) fn loo_quantiles(
         })
         .collect();
     loo.sort_by(f64::total_cmp);
-    qs.iter()
-        .map(|&q| super::reference::quantile_sorted(&loo, q))
-        .collect()
+    qs.iter().map(|&q| quantile_sorted(&loo, q)).collect()
 }
 
 /// Scaled queries' nearest rows in blocks (the whole of `scaled`).
@@ -180,6 +178,18 @@ pub(crate) fn measure_all(index: &NearIndex, scaled: ArrayView2<f64>) -> Vec<Nea
         .axis_chunks_iter(Axis(0), crate::prec::DOMAIN_QUERY_BLOCK)
         .flat_map(|b| index.measure_block(b))
         .collect()
+}
+
+/// Quantile q of sorted values by linear interpolation between order
+/// statistics (the "type 7" rule; common practice, no source).
+pub(crate) fn quantile_sorted(sorted: &[f64], q: f64) -> f64 {
+    if sorted.is_empty() {
+        return f64::NAN;
+    }
+    let h = q * (sorted.len() - 1) as f64;
+    let lo = h.floor() as usize;
+    let hi = (lo + 1).min(sorted.len() - 1);
+    sorted[lo] + (h - lo as f64) * (sorted[hi] - sorted[lo])
 }
 
 #[cfg(test)]

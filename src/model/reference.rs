@@ -17,6 +17,7 @@ use crate::prec::{
 };
 
 use super::near;
+pub(crate) use super::near::quantile_sorted;
 
 /// What the model file keeps of the training inputs for the joint-domain
 /// check: the scaled training rows and the reference distance.
@@ -178,18 +179,6 @@ pub fn pair_cells(n: usize) -> usize {
 /// Euclidean distance between two rows.
 pub(crate) fn dist2(a: &[f64], b: &[f64]) -> f64 {
     a.iter().zip(b).map(|(x, y)| (x - y) * (x - y)).sum()
-}
-
-/// Quantile q of sorted values by linear interpolation between order
-/// statistics (the "type 7" rule; common practice, no source).
-pub(crate) fn quantile_sorted(sorted: &[f64], q: f64) -> f64 {
-    if sorted.is_empty() {
-        return f64::NAN;
-    }
-    let h = q * (sorted.len() - 1) as f64;
-    let lo = h.floor() as usize;
-    let hi = (lo + 1).min(sorted.len() - 1);
-    sorted[lo] + (h - lo as f64) * (sorted[hi] - sorted[lo])
 }
 
 /// Mean and whitening matrix of scaled rows `x`: W = V·Λ^(−1/2) from the
