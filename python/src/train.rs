@@ -214,23 +214,7 @@ pub fn train(
 
 /// The lines the command line prints after training through a schema.
 fn schema_notes(r: &SchemaTrainReport, data: &str) -> Vec<String> {
-    let mut out: Vec<String> = r.notes.iter().map(|n| format!("note: {n}")).collect();
-    if !r.dropped_rows.is_empty() {
-        out.push(format!(
-            "warning: {} of {data} left out because an input value is missing (drop_incomplete_rows): {}",
-            plural(r.dropped_rows.len(), "row"),
-            row_list(&r.dropped_rows)
-        ));
-    }
-    for (target, rows) in &r.missing_targets {
-        if !rows.is_empty() {
-            out.push(format!(
-                "note: {} of {data} without a value of target '{target}', left out for that target only: {}",
-                plural(rows.len(), "row"),
-                row_list(rows)
-            ));
-        }
-    }
+    let mut out = r.lines(data, "drop_incomplete_rows");
     for w in r.row_warnings.iter().take(20) {
         out.push(format!("warning: row {}: {}", w.row + 1, w.message));
     }
@@ -241,27 +225,4 @@ fn schema_notes(r: &SchemaTrainReport, data: &str) -> Vec<String> {
         ));
     }
     out
-}
-
-/// `1 row`, `3 rows`.
-fn plural(n: usize, noun: &str) -> String {
-    if n == 1 {
-        format!("1 {noun}")
-    } else {
-        format!("{n} {noun}s")
-    }
-}
-
-/// `row 4` or `rows 4, 9, 12`, the first 20 shown.
-fn row_list(rows: &[usize]) -> String {
-    const SHOWN: usize = 20;
-    let mut list: Vec<String> = rows.iter().take(SHOWN).map(|x| x.to_string()).collect();
-    if rows.len() > SHOWN {
-        list.push(format!("... ({} in all)", rows.len()));
-    }
-    format!(
-        "{} {}",
-        if rows.len() == 1 { "row" } else { "rows" },
-        list.join(", ")
-    )
 }

@@ -454,49 +454,8 @@ pub fn run(a: TrainArgs) -> anyhow::Result<()> {
 /// Warnings of training through a schema, on stderr. Derivation warnings
 /// are shown for the first rows only, with a count of the rest.
 fn print_schema_report(r: &SchemaTrainReport, data: &std::path::Path) {
-    for n in &r.notes {
-        eprintln!("note: {n}");
-    }
-    if !r.dropped_rows.is_empty() {
-        eprintln!(
-            "warning: {} of {} left out because an input value is missing (--drop-incomplete-rows): {}",
-            plural(r.dropped_rows.len(), "row"),
-            data.display(),
-            row_list(&r.dropped_rows)
-        );
-    }
-    for (target, rows) in &r.missing_targets {
-        if !rows.is_empty() {
-            eprintln!(
-                "note: {} of {} without a value of target '{target}', left out for that target only: {}",
-                plural(rows.len(), "row"),
-                data.display(),
-                row_list(rows)
-            );
-        }
+    for line in r.lines(&data.display().to_string(), "--drop-incomplete-rows") {
+        eprintln!("{line}");
     }
     super::output::print_row_warnings(&r.row_warnings);
-}
-
-/// `1 row`, `3 rows`.
-fn plural(n: usize, noun: &str) -> String {
-    if n == 1 {
-        format!("1 {noun}")
-    } else {
-        format!("{n} {noun}s")
-    }
-}
-
-/// `row 4` or `rows 4, 9, 12`, the first 20 shown.
-fn row_list(rows: &[usize]) -> String {
-    const SHOWN: usize = 20;
-    let mut list: Vec<String> = rows.iter().take(SHOWN).map(|x| x.to_string()).collect();
-    if rows.len() > SHOWN {
-        list.push(format!("... ({} in all)", rows.len()));
-    }
-    format!(
-        "{} {}",
-        if rows.len() == 1 { "row" } else { "rows" },
-        list.join(", ")
-    )
 }

@@ -77,6 +77,56 @@ pub struct SchemaTrainReport {
     pub notes: Vec<String>,
 }
 
+impl SchemaTrainReport {
+    /// The report as the lines a caller shows (derivation warnings aside):
+    /// notes, rows dropped for a missing input (`drop_option` names the
+    /// setting that dropped them), rows without a target's value. `data`
+    /// names the table.
+    pub fn lines(&self, data: &str, drop_option: &str) -> Vec<String> {
+        let mut out: Vec<String> = self.notes.iter().map(|n| format!("note: {n}")).collect();
+        if !self.dropped_rows.is_empty() {
+            out.push(format!(
+                "warning: {} of {data} left out because an input value is missing ({drop_option}): {}",
+                plural(self.dropped_rows.len(), "row"),
+                row_list(&self.dropped_rows)
+            ));
+        }
+        for (target, rows) in &self.missing_targets {
+            if !rows.is_empty() {
+                out.push(format!(
+                    "note: {} of {data} without a value of target '{target}', left out for that target only: {}",
+                    plural(rows.len(), "row"),
+                    row_list(rows)
+                ));
+            }
+        }
+        out
+    }
+}
+
+/// `1 row`, `3 rows`.
+fn plural(n: usize, noun: &str) -> String {
+    if n == 1 {
+        format!("1 {noun}")
+    } else {
+        format!("{n} {noun}s")
+    }
+}
+
+/// `row 4` or `rows 4, 9, 12`, the first 20 shown.
+fn row_list(rows: &[usize]) -> String {
+    const SHOWN: usize = 20;
+    let mut list: Vec<String> = rows.iter().take(SHOWN).map(|x| x.to_string()).collect();
+    if rows.len() > SHOWN {
+        list.push(format!("... ({} in all)", rows.len()));
+    }
+    format!(
+        "{} {}",
+        if rows.len() == 1 { "row" } else { "rows" },
+        list.join(", ")
+    )
+}
+
 impl Model {
     /// Train a model on `table` read through `schema`: values converted to
     /// internal units and checked, derived inputs computed, each target
