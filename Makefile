@@ -17,7 +17,7 @@ VENV ?= $(HOME)/.cache/mettle/venv
 PY   := $(VENV)/bin/python
 PY_PACKAGES := maturin pytest numpy pandas polars scikit-learn matplotlib
 
-.PHONY: all deps browser build demo models test lint fmt bench bench-engine bench-scale bench-serve clean-demo python test-python
+.PHONY: all deps browser build demo models test lint fmt bench bench-engine bench-scale bench-serve clean-demo python test-python python-tests
 
 all: build
 
@@ -44,18 +44,24 @@ build: deps
 	@echo "== building mettle (release; first build takes several minutes, target dir $(CARGO_TARGET_DIR))"
 	cargo build --release --locked
 
+# the Rust suite (unit, integration through the real binary, browser), then
+# the Python interface's pytest suite against the binary the Rust suite built.
+# The extension's first build compiles the dependency tree a second time,
+# with the extension's features (about 12 minutes on the 2-core machine;
+# later builds reuse it from the cache).
 test: deps browser
 	@echo "== running the test suite (release build)"
 	cargo test --release --locked
+	$(MAKE) --no-print-directory python-tests
 
-# the Python interface's tests (python/tests) against the CLI of this tree.
-# Not yet part of `make test`: the extension's first build compiles the
-# dependency tree a second time, with the extension's features (12 to 45
-# minutes on the 2-core machine, by its load).
-test-python: python
+# the Python interface's tests alone (python/tests), against the CLI of this tree
+test-python: deps
 	cargo build --release --locked
-	@echo "== the Python interface: pytest (python/tests) against the CLI built above"
-	$(PY) -m pytest -q python/tests
+	$(MAKE) --no-print-directory python-tests
+
+python-tests: python
+	@echo "== the Python interface: pytest (python/tests) against $(BIN)"
+	METTLE_BIN=$(BIN) $(PY) -m pytest -q python/tests
 
 # a virtual environment with maturin, pytest, numpy, pandas, polars,
 # scikit-learn and matplotlib from PyPI, and the mettle package built from
