@@ -1,7 +1,8 @@
 //! The page in a real browser: Debian's `chromium`, driven through
 //! `chromium-driver` (WebDriver, W3C) by fantoccini. Opens the page, picks
 //! the demo model, types a heat, reads the estimate and the verdict, pastes
-//! two rows, downloads the CSV; every number must equal what
+//! two rows, downloads the CSV, uploads a workbook (.xlsx) through the
+//! file input; every number must equal what
 //! `mettle predict` gives for the same rows (the API's promise). `make
 //! test` installs chromium and chromium-driver with apt-get.
 //! The model and rows are the bundled invented Fellhaven data.
@@ -99,11 +100,16 @@ fn predict(table: &str, format: &str) -> String {
     let dir = tempfile::tempdir().expect("tmp");
     let p = dir.path().join("rows.csv");
     std::fs::write(&p, table).expect("write");
+    predict_file(&p, format)
+}
+
+/// `mettle predict` of a table file (CSV or workbook), in `format`.
+fn predict_file(p: &Path, format: &str) -> String {
     let o = Command::new(BIN)
         .args(["predict", "--model"])
         .arg(root().join("models/fellhaven_welds.json"))
         .arg("--input")
-        .arg(&p)
+        .arg(p)
         .args(["--format", format])
         .output()
         .expect("run predict");
@@ -308,6 +314,45 @@ async fn a_qa_engineer_estimates_heats_in_the_browser() {
     };
     let got = std::fs::read_to_string(&file).expect("downloaded CSV");
     assert_eq!(got, predict(&two_csv, "csv"));
+
+    // upload a workbook through the file input: the bundled invented
+    // fellhaven_new_welds.xlsx (first sheet 'welds', heats named in its
+    // first column); estimates and ids as `mettle predict --input` gives
+    let book = root().join("datasets/fellhaven_new_welds.xlsx");
+    c.find(Locator::Id("file"))
+        .await
+        .expect("file input")
+        .send_keys(&book.display().to_string())
+        .await
+        .expect("choose the workbook");
+    wait_for(&c, "#rows-table td.id").await;
+    let want: Value = serde_json::from_str(&predict_file(&book, "json")).expect("json");
+    let ids = c
+        .execute(
+            "return Array.from(document.querySelectorAll('#rows-table td.id')).map(t => t.textContent);",
+            vec![],
+        )
+        .await
+        .expect("ids");
+    let want_ids: Vec<Value> = want["rows"]
+        .as_array()
+        .expect("rows")
+        .iter()
+        .map(|r| r["id"].clone())
+        .collect();
+    assert!(want_ids.len() > 2 && want_ids[0] == "NEW-01", "{want_ids:?}");
+    assert_eq!(ids, Value::Array(want_ids));
+    let centres = c
+        .execute(
+            "return Array.from(document.querySelectorAll(\"#rows-table td[data-target='uts_mpa']\")).map(t => Number(t.dataset.centre));",
+            vec![],
+        )
+        .await
+        .expect("centres");
+    let centres: Vec<f64> = serde_json::from_value(centres).expect("numbers");
+    for (i, v) in centres.iter().enumerate() {
+        assert_eq!(*v, centre(&want, i, "uts_mpa"), "workbook row {}", i + 1);
+    }
 
     // a look at the whole page for a person: requirements, sweep and
     // transition drawn (saved only when METTLE_SCREENSHOT names a file)

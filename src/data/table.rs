@@ -37,6 +37,9 @@ pub struct Table {
     /// table is one batch of a larger file, [`Table::read_batches`]):
     /// messages name rows of the file, not of the batch.
     first_row: usize,
+    /// The workbook sheet the rows came from, named in messages beside the
+    /// file ([`Table::label`]); `None` for CSV and Parquet.
+    sheet: Option<String>,
 }
 
 /// The file formats mettle reads.
@@ -84,13 +87,37 @@ impl FileFormat {
                 }
             }
         }
-        Ok(if got == 4 && &head == PARQUET_MAGIC {
+        Ok(FileFormat::of_bytes(&head[..got]))
+    }
+
+    /// The format of a file whose first bytes are `head` (at least four
+    /// for a format other than CSV), by the rule of [`FileFormat::sniff`]:
+    /// `PAR1` Parquet, a zip archive (.xlsx; ECMA-376 Part 2) or an OLE2
+    /// compound file (.xls; [MS-CFB] §2.2) a spreadsheet workbook, else CSV.
+    pub fn of_bytes(head: &[u8]) -> FileFormat {
+        let Some(head) = head.first_chunk::<4>() else {
+            return FileFormat::Csv;
+        };
+        if head == PARQUET_MAGIC {
             FileFormat::Parquet
-        } else if got == 4 && (&head == xlsx::ZIP_MAGIC || &head == xlsx::OLE2_MAGIC) {
+        } else if head == xlsx::ZIP_MAGIC || head == xlsx::OLE2_MAGIC {
             FileFormat::Spreadsheet
         } else {
             FileFormat::Csv
-        })
+        }
+    }
+
+    /// The file-name extension a workbook whose first bytes are `head` is
+    /// read under: `xlsx` for a zip archive (Office Open XML), `xls` for an
+    /// OLE2 compound file; `None` when `head` opens neither.
+    pub fn workbook_extension(head: &[u8]) -> Option<&'static str> {
+        if head.starts_with(xlsx::ZIP_MAGIC) {
+            Some("xlsx")
+        } else if head.starts_with(xlsx::OLE2_MAGIC) {
+            Some("xls")
+        } else {
+            None
+        }
     }
 
     /// The format a path's extension names (`.parquet`/`.pq` → Parquet,
@@ -151,6 +178,7 @@ impl Table {
             columns: data,
             n_rows,
             first_row: 0,
+            sheet: None,
         })
     }
 
@@ -170,6 +198,7 @@ impl Table {
             columns: Vec::with_capacity(columns.len()),
             n_rows,
             first_row: 0,
+            sheet: None,
         };
         for (name, values) in columns {
             t.push_column(name, ColumnData::Number(values))?;
@@ -251,6 +280,7 @@ impl Table {
             columns: self.columns.iter().map(pick).collect(),
             n_rows: rows.len(),
             first_row: 0,
+            sheet: self.sheet.clone(),
         }
     }
 
@@ -427,6 +457,7 @@ impl Table {
             columns,
             n_rows: df.height(),
             first_row: 0,
+            sheet: None,
         })
     }
 
@@ -446,6 +477,28 @@ impl Table {
     /// The file the table came from.
     pub fn source(&self) -> &Path {
         &self.source
+    }
+
+    /// The workbook sheet the table came from (`None` for CSV, Parquet or
+    /// a table built in memory).
+    pub fn sheet(&self) -> Option<&str> {
+        self.sheet.as_deref()
+    }
+
+    /// The same table, said in messages to come from sheet `sheet` of its
+    /// file.
+    pub fn with_sheet(mut self, sheet: Option<&str>) -> Table {
+        self.sheet = sheet.map(str::to_string);
+        self
+    }
+
+    /// How messages name the table's rows: the file, and for a workbook
+    /// its sheet (`new_heats.xlsx, sheet 'welds'`).
+    pub fn label(&self) -> String {
+        match &self.sheet {
+            Some(s) => format!("{}, sheet '{s}'", self.source.display()),
+            None => self.source.display().to_string(),
+        }
     }
 
     /// Column names in file order.
@@ -602,7 +655,7 @@ impl Table {
     /// column when one is near ("did you mean").
     pub fn missing_column(&self, name: &str) -> Error {
         Error::MissingColumn {
-            path: self.source.display().to_string(),
+            path: self.label(),
             name: name.to_string(),
             available: self.names.join(", "),
             suggestion: crate::data::suggest::did_you_mean(name, &self.names),
@@ -654,7 +707,7 @@ impl Table {
     /// One cell (0-based row) as a number; `None` when empty.
     fn numeric_cell(&self, name: &str, row: usize) -> Result<Option<f64>> {
         let cell_error = |problem: String| Error::Cell {
-            path: self.source.display().to_string(),
+            path: self.label(),
             row: self.first_row + row + 1,
             line: self.first_row + row + 2,
             column: name.to_string(),
@@ -699,7 +752,7 @@ impl Table {
             .enumerate()
             .map(|(row, v)| {
                 v.ok_or_else(|| Error::Cell {
-                    path: self.source.display().to_string(),
+                    path: self.label(),
                     row: self.first_row + row + 1,
                     line: self.first_row + row + 2,
                     column: name.to_string(),
