@@ -765,7 +765,15 @@ fn a_workbook_upload_gives_the_command_lines_estimates_and_ids() {
     let m = model().display().to_string();
     let bp = book_path.display().to_string();
     let (want, err, ok) = cli(&[
-        "predict", "--model", &m, "--input", &bp, "--sheet", "new heats", "--format", "json",
+        "predict",
+        "--model",
+        &m,
+        "--input",
+        &bp,
+        "--sheet",
+        "new heats",
+        "--format",
+        "json",
     ]);
     assert!(ok, "{err}");
     // the same rows as the export CSV: the same estimates
@@ -939,14 +947,21 @@ fn a_bad_workbook_gets_400_naming_sheet_row_and_column() {
     assert!(String::from_utf8_lossy(&got).contains("not a spreadsheet workbook"));
     // the limits hold for workbooks: 8 rows over --max-rows 5 (413), and
     // a body over 20 MB (413)
-    let (code, got) = post_bytes(&format!("{url}&sheet=new%20heats"), XLSX, &workbook("new heats", &csv));
+    let (code, got) = post_bytes(
+        &format!("{url}&sheet=new%20heats"),
+        XLSX,
+        &workbook("new heats", &csv),
+    );
     assert_eq!(code, 413, "{}", String::from_utf8_lossy(&got));
     assert_eq!(json(&String::from_utf8_lossy(&got))["limit"], "max_rows");
     let mut big = b"PK\x03\x04".to_vec();
     big.resize(21 * 1_048_576, 0);
     let (code, got) = post_bytes(&url, XLSX, &big);
     assert_eq!(code, 413);
-    assert_eq!(json(&String::from_utf8_lossy(&got))["limit"], "max_body_bytes");
+    assert_eq!(
+        json(&String::from_utf8_lossy(&got))["limit"],
+        "max_body_bytes"
+    );
     // and the server serves on
     let (code, _) = call("GET", &format!("{}/api/models", s.url), None, None);
     assert_eq!(code, 200);

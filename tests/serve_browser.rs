@@ -130,6 +130,25 @@ fn centre(want: &Value, i: usize, t: &str) -> f64 {
         .expect("centre")
 }
 
+/// The first finished download ending in `.ext` in `dir`, waited for.
+fn downloaded(dir: &Path, ext: &str) -> PathBuf {
+    let t0 = Instant::now();
+    loop {
+        let done = std::fs::read_dir(dir)
+            .expect("downloads")
+            .filter_map(|e| e.ok().map(|e| e.path()))
+            .find(|p| p.extension().is_some_and(|x| x == ext));
+        if let Some(f) = done {
+            return f;
+        }
+        assert!(
+            t0.elapsed() < Duration::from_secs(60),
+            "no .{ext} file was downloaded"
+        );
+        std::thread::sleep(Duration::from_millis(200));
+    }
+}
+
 async fn text_of(c: &Client, css: &str) -> String {
     c.find(Locator::Css(css))
         .await
@@ -296,22 +315,7 @@ async fn a_qa_engineer_estimates_heats_in_the_browser() {
         .click()
         .await
         .expect("click");
-    let t0 = Instant::now();
-    let file = loop {
-        let done: Vec<PathBuf> = std::fs::read_dir(downloads.path())
-            .expect("downloads")
-            .filter_map(|e| e.ok().map(|e| e.path()))
-            .filter(|p| p.extension().is_some_and(|x| x == "csv"))
-            .collect();
-        if let Some(f) = done.into_iter().next() {
-            break f;
-        }
-        assert!(
-            t0.elapsed() < Duration::from_secs(60),
-            "no CSV was downloaded"
-        );
-        std::thread::sleep(Duration::from_millis(200));
-    };
+    let file = downloaded(downloads.path(), "csv");
     let got = std::fs::read_to_string(&file).expect("downloaded CSV");
     assert_eq!(got, predict(&two_csv, "csv"));
 
@@ -340,7 +344,10 @@ async fn a_qa_engineer_estimates_heats_in_the_browser() {
         .iter()
         .map(|r| r["id"].clone())
         .collect();
-    assert!(want_ids.len() > 2 && want_ids[0] == "NEW-01", "{want_ids:?}");
+    assert!(
+        want_ids.len() > 2 && want_ids[0] == "NEW-01",
+        "{want_ids:?}"
+    );
     assert_eq!(ids, Value::Array(want_ids));
     let centres = c
         .execute(
@@ -353,6 +360,27 @@ async fn a_qa_engineer_estimates_heats_in_the_browser() {
     for (i, v) in centres.iter().enumerate() {
         assert_eq!(*v, centre(&want, i, "uts_mpa"), "workbook row {}", i + 1);
     }
+    // and a workbook out: the bytes `mettle predict --out FILE.xlsx` writes
+    c.find(Locator::Id("download-xlsx"))
+        .await
+        .expect("button")
+        .click()
+        .await
+        .expect("click");
+    let got = std::fs::read(downloaded(downloads.path(), "xlsx")).expect("downloaded workbook");
+    let out = downloads.path().join("cli").join("est.xlsx");
+    std::fs::create_dir_all(out.parent().expect("folder")).expect("folder");
+    let o = Command::new(BIN)
+        .args(["predict", "--model"])
+        .arg(root().join("models/fellhaven_welds.json"))
+        .arg("--input")
+        .arg(&book)
+        .arg("--out")
+        .arg(&out)
+        .output()
+        .expect("run predict");
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    assert_eq!(got, std::fs::read(&out).expect("workbook"));
 
     // a look at the whole page for a person: requirements, sweep and
     // transition drawn (saved only when METTLE_SCREENSHOT names a file)

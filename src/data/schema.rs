@@ -814,8 +814,7 @@ impl Schema {
                     .with_sheet(table.sheet())
                     .with_first_row(table.first_row())
             } else {
-                Table::from_optional_columns(table.source(), cols)?
-                    .with_sheet(table.sheet())
+                Table::from_optional_columns(table.source(), cols)?.with_sheet(table.sheet())
             },
             inputs,
             targets,

@@ -136,11 +136,21 @@ const XLS_TYPE: &str = "application/vnd.ms-excel";
 /// # Errors
 /// 400 when the Content-Type declares a workbook but the bytes do not
 /// open as one (they would otherwise be read as text).
-pub fn workbook_kind(headers: &HeaderMap, bytes: &[u8], name: &str) -> Result<Option<&'static str>, Reply> {
+pub fn workbook_kind(
+    headers: &HeaderMap,
+    bytes: &[u8],
+    name: &str,
+) -> Result<Option<&'static str>, Reply> {
     let declared = headers
         .get(header::CONTENT_TYPE)
         .and_then(|v| v.to_str().ok())
-        .map(|v| v.split(';').next().unwrap_or_default().trim().to_ascii_lowercase())
+        .map(|v| {
+            v.split(';')
+                .next()
+                .unwrap_or_default()
+                .trim()
+                .to_ascii_lowercase()
+        })
         .filter(|v| v == XLSX_TYPE || v == XLS_TYPE);
     match (FileFormat::workbook_extension(bytes), declared) {
         (Some(ext), _) => Ok(Some(ext)),
