@@ -878,6 +878,38 @@ mod tests {
     }
 
     #[test]
+    fn formats_are_told_by_their_first_bytes() {
+        // zip local-file header PK\x03\x04 (PKWARE APPNOTE.TXT §4.3.7; an
+        // .xlsx is a zip, ECMA-376 Part 2); OLE2 D0 CF 11 E0 ([MS-CFB]
+        // §2.2; an .xls); PAR1 (Apache Parquet file format)
+        let zip = b"PK\x03\x04\x14\x00";
+        let ole2 = b"\xD0\xCF\x11\xE0\xA1\xB1\x1A\xE1";
+        assert_eq!(FileFormat::of_bytes(zip), FileFormat::Spreadsheet);
+        assert_eq!(FileFormat::of_bytes(ole2), FileFormat::Spreadsheet);
+        assert_eq!(FileFormat::of_bytes(b"PAR1\x15"), FileFormat::Parquet);
+        assert_eq!(FileFormat::of_bytes(b"c_wt,mn_wt\n"), FileFormat::Csv);
+        assert_eq!(FileFormat::of_bytes(b"PK"), FileFormat::Csv);
+        assert_eq!(FileFormat::workbook_extension(zip), Some("xlsx"));
+        assert_eq!(FileFormat::workbook_extension(ole2), Some("xls"));
+        assert_eq!(FileFormat::workbook_extension(b"PAR1"), None);
+    }
+
+    #[test]
+    fn a_sheet_is_named_beside_the_file_in_messages() {
+        let t = Table::from_columns("heats.xlsx", vec![("c_wt".into(), vec![0.07])])
+            .expect("table")
+            .with_sheet(Some("welds"));
+        assert_eq!(t.label(), "heats.xlsx, sheet 'welds'");
+        let msg = t.numeric("mn_wt").expect_err("missing").to_string();
+        assert!(
+            msg.starts_with("heats.xlsx, sheet 'welds': no column"),
+            "{msg}"
+        );
+        // the rows picked from it keep the sheet
+        assert_eq!(t.select_rows(&[0]).sheet(), Some("welds"));
+    }
+
+    #[test]
     fn missing_column_lists_available() {
         let t = Table::from_columns("mem", vec![("a".into(), vec![1.0])]).expect("table");
         let msg = t.numeric("b").expect_err("missing").to_string();
