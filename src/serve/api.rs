@@ -235,7 +235,7 @@ async fn predict(
     let kind = match format {
         EstimateFormat::Csv => "text/csv; charset=utf-8",
         EstimateFormat::Json => "application/json",
-        EstimateFormat::Xlsx => "application/vnd.openxmlformats-officedocument.spreadsheetml.sheet",
+        EstimateFormat::Xlsx => rows::XLSX_TYPE,
     };
     Ok(([(header::CONTENT_TYPE, kind)], out).into_response())
 }

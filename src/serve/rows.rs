@@ -125,13 +125,12 @@ pub fn pasted_to_csv(text: &str) -> String {
 /// the IANA media-type registry).
 pub const XLSX_TYPE: &str = "application/vnd.openxmlformats-officedocument.spreadsheetml.sheet";
 
-/// The media type of the older binary workbook (.xls), as registered with IANA.
-const XLS_TYPE: &str = "application/vnd.ms-excel";
-
 /// How a non-JSON body is to be read: `Some(extension)` for a workbook —
 /// recognised by its first bytes (a zip archive or an OLE2 compound file,
 /// the library's rule, [`FileFormat::workbook_extension`]) or declared by
-/// its Content-Type — else `None` (CSV or tab-separated text).
+/// its Content-Type ([`XLSX_TYPE`]) — else `None` (CSV or tab-separated
+/// text). The older type `application/vnd.ms-excel` decides nothing: some
+/// systems send CSV files under it.
 ///
 /// # Errors
 /// 400 when the Content-Type declares a workbook but the bytes do not
@@ -151,7 +150,7 @@ pub fn workbook_kind(
                 .trim()
                 .to_ascii_lowercase()
         })
-        .filter(|v| v == XLSX_TYPE || v == XLS_TYPE);
+        .filter(|v| v == XLSX_TYPE);
     match (FileFormat::workbook_extension(bytes), declared) {
         (Some(ext), _) => Ok(Some(ext)),
         (None, Some(kind)) => Err(Reply::bad_input(format!(
