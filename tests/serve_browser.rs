@@ -1,7 +1,8 @@
 //! The page in a real browser: Debian's `chromium`, driven through
 //! `chromium-driver` (WebDriver, W3C) by fantoccini. Opens the page, picks
 //! the demo model, types a heat, reads the estimate and the verdict, pastes
-//! two rows, downloads the CSV; every number must equal what
+//! two rows, downloads the CSV, uploads a workbook (.xlsx) through the
+//! file input; every number must equal what
 //! `mettle predict` gives for the same rows (the API's promise). `make
 //! test` installs chromium and chromium-driver with apt-get.
 //! The model and rows are the bundled invented Fellhaven data.
@@ -99,11 +100,16 @@ fn predict(table: &str, format: &str) -> String {
     let dir = tempfile::tempdir().expect("tmp");
     let p = dir.path().join("rows.csv");
     std::fs::write(&p, table).expect("write");
+    predict_file(&p, format)
+}
+
+/// `mettle predict` of a table file (CSV or workbook), in `format`.
+fn predict_file(p: &Path, format: &str) -> String {
     let o = Command::new(BIN)
         .args(["predict", "--model"])
         .arg(root().join("models/fellhaven_welds.json"))
         .arg("--input")
-        .arg(&p)
+        .arg(p)
         .args(["--format", format])
         .output()
         .expect("run predict");
@@ -122,6 +128,25 @@ fn centre(want: &Value, i: usize, t: &str) -> f64 {
     want["rows"][i]["estimates"][t][key]
         .as_f64()
         .expect("centre")
+}
+
+/// The first finished download ending in `.ext` in `dir`, waited for.
+fn downloaded(dir: &Path, ext: &str) -> PathBuf {
+    let t0 = Instant::now();
+    loop {
+        let done = std::fs::read_dir(dir)
+            .expect("downloads")
+            .filter_map(|e| e.ok().map(|e| e.path()))
+            .find(|p| p.extension().is_some_and(|x| x == ext));
+        if let Some(f) = done {
+            return f;
+        }
+        assert!(
+            t0.elapsed() < Duration::from_secs(60),
+            "no .{ext} file was downloaded"
+        );
+        std::thread::sleep(Duration::from_millis(200));
+    }
 }
 
 async fn text_of(c: &Client, css: &str) -> String {
@@ -290,24 +315,72 @@ async fn a_qa_engineer_estimates_heats_in_the_browser() {
         .click()
         .await
         .expect("click");
-    let t0 = Instant::now();
-    let file = loop {
-        let done: Vec<PathBuf> = std::fs::read_dir(downloads.path())
-            .expect("downloads")
-            .filter_map(|e| e.ok().map(|e| e.path()))
-            .filter(|p| p.extension().is_some_and(|x| x == "csv"))
-            .collect();
-        if let Some(f) = done.into_iter().next() {
-            break f;
-        }
-        assert!(
-            t0.elapsed() < Duration::from_secs(60),
-            "no CSV was downloaded"
-        );
-        std::thread::sleep(Duration::from_millis(200));
-    };
+    let file = downloaded(downloads.path(), "csv");
     let got = std::fs::read_to_string(&file).expect("downloaded CSV");
     assert_eq!(got, predict(&two_csv, "csv"));
+
+    // upload a workbook through the file input: the bundled invented
+    // fellhaven_new_welds.xlsx (first sheet 'welds', heats named in its
+    // first column); estimates and ids as `mettle predict --input` gives
+    let book = root().join("datasets/fellhaven_new_welds.xlsx");
+    c.find(Locator::Id("file"))
+        .await
+        .expect("file input")
+        .send_keys(&book.display().to_string())
+        .await
+        .expect("choose the workbook");
+    wait_for(&c, "#rows-table td.id").await;
+    let want: Value = serde_json::from_str(&predict_file(&book, "json")).expect("json");
+    let ids = c
+        .execute(
+            "return Array.from(document.querySelectorAll('#rows-table td.id')).map(t => t.textContent);",
+            vec![],
+        )
+        .await
+        .expect("ids");
+    let want_ids: Vec<Value> = want["rows"]
+        .as_array()
+        .expect("rows")
+        .iter()
+        .map(|r| r["id"].clone())
+        .collect();
+    assert!(
+        want_ids.len() > 2 && want_ids[0] == "NEW-01",
+        "{want_ids:?}"
+    );
+    assert_eq!(ids, Value::Array(want_ids));
+    let centres = c
+        .execute(
+            "return Array.from(document.querySelectorAll(\"#rows-table td[data-target='uts_mpa']\")).map(t => Number(t.dataset.centre));",
+            vec![],
+        )
+        .await
+        .expect("centres");
+    let centres: Vec<f64> = serde_json::from_value(centres).expect("numbers");
+    for (i, v) in centres.iter().enumerate() {
+        assert_eq!(*v, centre(&want, i, "uts_mpa"), "workbook row {}", i + 1);
+    }
+    // and a workbook out: the bytes `mettle predict --out FILE.xlsx` writes
+    c.find(Locator::Id("download-xlsx"))
+        .await
+        .expect("button")
+        .click()
+        .await
+        .expect("click");
+    let got = std::fs::read(downloaded(downloads.path(), "xlsx")).expect("downloaded workbook");
+    let out = downloads.path().join("cli").join("est.xlsx");
+    std::fs::create_dir_all(out.parent().expect("folder")).expect("folder");
+    let o = Command::new(BIN)
+        .args(["predict", "--model"])
+        .arg(root().join("models/fellhaven_welds.json"))
+        .arg("--input")
+        .arg(&book)
+        .arg("--out")
+        .arg(&out)
+        .output()
+        .expect("run predict");
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    assert_eq!(got, std::fs::read(&out).expect("workbook"));
 
     // a look at the whole page for a person: requirements, sweep and
     // transition drawn (saved only when METTLE_SCREENSHOT names a file)

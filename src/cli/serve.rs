@@ -14,10 +14,12 @@ use crate::serve::{run as serve, Config, Limits};
     about = "Serve a page for estimating heats in a browser, and its JSON API.",
     long_about = "Serve one page and a small JSON API from this binary: pick a model, type a heat into a \
 form (each input with its unit and trained range, starting from the median training heat), paste \
-rows from a spreadsheet or upload a CSV, and read each target's estimate with its 95 % interval, the \
+rows from a spreadsheet or upload a CSV file or an Excel workbook (.xlsx, read as `mettle predict \
+--input FILE.xlsx` reads it; heat numbers kept), and read each target's estimate with its 95 % interval, the \
 noise and model parts, the domain verdict, the probability of meeting typed requirements (screen's \
 syntax), a sweep of one input and, for an impact-energy model with a test-temperature input, the \
-transition curve. Results download as CSV or JSON, the same files as `mettle predict` writes.\n\n\
+transition curve. Results download as CSV, JSON or an .xlsx workbook, the same files as `mettle \
+predict` writes.\n\n\
 The server listens on loopback (127.0.0.1:8470) unless --listen names another address, which \
 prints a warning: the page carries no encryption. With --token every request must carry the token \
 (header 'Authorization: Bearer TOKEN', or ?token=TOKEN in the page's address). Models are read once \

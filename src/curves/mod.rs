@@ -120,7 +120,7 @@ pub fn base_row(model: &Model, base: Option<&Table>, set: &[(String, f64)]) -> R
         if t.n_rows() == 0 {
             return Err(bad(
                 "base",
-                &t.source().display().to_string(),
+                &t.label(),
                 "a table with at least one row (its first row is the base heat)",
             ));
         }

@@ -130,7 +130,7 @@ fn looked_for(conventional: &str) -> String {
 /// saying which headers were looked for, which columns were found, and how
 /// to map the others; or when a name is matched by several headers.
 fn implicit_schema(table: &Table, derivations: &[Derivation]) -> Result<Schema> {
-    let path = table.source().display().to_string();
+    let path = table.label();
     let mut columns: Vec<ColumnSpec> = Vec::new();
     let mut missing: Vec<String> = Vec::new();
     for (k, d) in derivations.iter().enumerate() {
@@ -229,7 +229,7 @@ pub fn derive_columns(
     derivations: &[Derivation],
     schema: Option<(&Schema, &str)>,
 ) -> Result<DeriveOutcome> {
-    let path = table.source().display().to_string();
+    let path = table.label();
     let (mut schema, schema_name) = match schema {
         Some((s, name)) => (s.clone(), name.to_string()),
         None => (

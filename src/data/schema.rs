@@ -592,7 +592,7 @@ impl Schema {
         need_targets: bool,
         max_problems: usize,
     ) -> Checked {
-        let path = table.source().display().to_string();
+        let path = table.label();
         let mut problems = Problems {
             list: Vec::new(),
             max: max_problems,
@@ -749,7 +749,7 @@ impl Schema {
         schema_name: &str,
         opts: PrepareOptions,
     ) -> Result<Prepared> {
-        let path = table.source().display().to_string();
+        let path = table.label();
         let checked = self.check(table, schema_name, opts.need_targets, 1);
         if let Some(e) = checked.problems.into_iter().next() {
             return Err(e);
@@ -811,9 +811,10 @@ impl Schema {
             // rows keep their numbers in messages when none was left out
             table: if dropped.is_empty() {
                 Table::from_optional_columns(table.source(), cols)?
+                    .with_sheet(table.sheet())
                     .with_first_row(table.first_row())
             } else {
-                Table::from_optional_columns(table.source(), cols)?
+                Table::from_optional_columns(table.source(), cols)?.with_sheet(table.sheet())
             },
             inputs,
             targets,

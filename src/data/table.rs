@@ -37,6 +37,9 @@ pub struct Table {
     /// table is one batch of a larger file, [`Table::read_batches`]):
     /// messages name rows of the file, not of the batch.
     first_row: usize,
+    /// The workbook sheet the rows came from, named in messages beside the
+    /// file ([`Table::label`]); `None` for CSV and Parquet.
+    sheet: Option<String>,
 }
 
 /// The file formats mettle reads.
@@ -84,13 +87,37 @@ impl FileFormat {
                 }
             }
         }
-        Ok(if got == 4 && &head == PARQUET_MAGIC {
+        Ok(FileFormat::of_bytes(&head[..got]))
+    }
+
+    /// The format of a file whose first bytes are `head` (at least four
+    /// for a format other than CSV), by the rule of [`FileFormat::sniff`]:
+    /// `PAR1` Parquet, a zip archive (.xlsx; ECMA-376 Part 2) or an OLE2
+    /// compound file (.xls; [MS-CFB] §2.2) a spreadsheet workbook, else CSV.
+    pub fn of_bytes(head: &[u8]) -> FileFormat {
+        let Some(head) = head.first_chunk::<4>() else {
+            return FileFormat::Csv;
+        };
+        if head == PARQUET_MAGIC {
             FileFormat::Parquet
-        } else if got == 4 && (&head == xlsx::ZIP_MAGIC || &head == xlsx::OLE2_MAGIC) {
+        } else if head == xlsx::ZIP_MAGIC || head == xlsx::OLE2_MAGIC {
             FileFormat::Spreadsheet
         } else {
             FileFormat::Csv
-        })
+        }
+    }
+
+    /// The file-name extension a workbook whose first bytes are `head` is
+    /// read under: `xlsx` for a zip archive (Office Open XML), `xls` for an
+    /// OLE2 compound file; `None` when `head` opens neither.
+    pub fn workbook_extension(head: &[u8]) -> Option<&'static str> {
+        if head.starts_with(xlsx::ZIP_MAGIC) {
+            Some("xlsx")
+        } else if head.starts_with(xlsx::OLE2_MAGIC) {
+            Some("xls")
+        } else {
+            None
+        }
     }
 
     /// The format a path's extension names (`.parquet`/`.pq` → Parquet,
@@ -151,6 +178,7 @@ impl Table {
             columns: data,
             n_rows,
             first_row: 0,
+            sheet: None,
         })
     }
 
@@ -170,6 +198,7 @@ impl Table {
             columns: Vec::with_capacity(columns.len()),
             n_rows,
             first_row: 0,
+            sheet: None,
         };
         for (name, values) in columns {
             t.push_column(name, ColumnData::Number(values))?;
@@ -251,6 +280,7 @@ impl Table {
             columns: self.columns.iter().map(pick).collect(),
             n_rows: rows.len(),
             first_row: 0,
+            sheet: self.sheet.clone(),
         }
     }
 
@@ -427,6 +457,7 @@ impl Table {
             columns,
             n_rows: df.height(),
             first_row: 0,
+            sheet: None,
         })
     }
 
@@ -446,6 +477,28 @@ impl Table {
     /// The file the table came from.
     pub fn source(&self) -> &Path {
         &self.source
+    }
+
+    /// The workbook sheet the table came from (`None` for CSV, Parquet or
+    /// a table built in memory).
+    pub fn sheet(&self) -> Option<&str> {
+        self.sheet.as_deref()
+    }
+
+    /// The same table, said in messages to come from sheet `sheet` of its
+    /// file.
+    pub fn with_sheet(mut self, sheet: Option<&str>) -> Table {
+        self.sheet = sheet.map(str::to_string);
+        self
+    }
+
+    /// How messages name the table's rows: the file, and for a workbook
+    /// its sheet (`new_heats.xlsx, sheet 'welds'`).
+    pub fn label(&self) -> String {
+        match &self.sheet {
+            Some(s) => format!("{}, sheet '{s}'", self.source.display()),
+            None => self.source.display().to_string(),
+        }
     }
 
     /// Column names in file order.
@@ -602,7 +655,7 @@ impl Table {
     /// column when one is near ("did you mean").
     pub fn missing_column(&self, name: &str) -> Error {
         Error::MissingColumn {
-            path: self.source.display().to_string(),
+            path: self.label(),
             name: name.to_string(),
             available: self.names.join(", "),
             suggestion: crate::data::suggest::did_you_mean(name, &self.names),
@@ -654,7 +707,7 @@ impl Table {
     /// One cell (0-based row) as a number; `None` when empty.
     fn numeric_cell(&self, name: &str, row: usize) -> Result<Option<f64>> {
         let cell_error = |problem: String| Error::Cell {
-            path: self.source.display().to_string(),
+            path: self.label(),
             row: self.first_row + row + 1,
             line: self.first_row + row + 2,
             column: name.to_string(),
@@ -699,7 +752,7 @@ impl Table {
             .enumerate()
             .map(|(row, v)| {
                 v.ok_or_else(|| Error::Cell {
-                    path: self.source.display().to_string(),
+                    path: self.label(),
                     row: self.first_row + row + 1,
                     line: self.first_row + row + 2,
                     column: name.to_string(),
@@ -822,6 +875,38 @@ mod tests {
         assert_eq!(tq.names(), t.names());
         assert_eq!(tq.numeric_optional("C").expect("C"), vec![Some(0.1), None]);
         assert_eq!(tq.cell_text(0, 1).as_deref(), Some("W,2"));
+    }
+
+    #[test]
+    fn formats_are_told_by_their_first_bytes() {
+        // zip local-file header PK\x03\x04 (PKWARE APPNOTE.TXT §4.3.7; an
+        // .xlsx is a zip, ECMA-376 Part 2); OLE2 D0 CF 11 E0 ([MS-CFB]
+        // §2.2; an .xls); PAR1 (Apache Parquet file format)
+        let zip = b"PK\x03\x04\x14\x00";
+        let ole2 = b"\xD0\xCF\x11\xE0\xA1\xB1\x1A\xE1";
+        assert_eq!(FileFormat::of_bytes(zip), FileFormat::Spreadsheet);
+        assert_eq!(FileFormat::of_bytes(ole2), FileFormat::Spreadsheet);
+        assert_eq!(FileFormat::of_bytes(b"PAR1\x15"), FileFormat::Parquet);
+        assert_eq!(FileFormat::of_bytes(b"c_wt,mn_wt\n"), FileFormat::Csv);
+        assert_eq!(FileFormat::of_bytes(b"PK"), FileFormat::Csv);
+        assert_eq!(FileFormat::workbook_extension(zip), Some("xlsx"));
+        assert_eq!(FileFormat::workbook_extension(ole2), Some("xls"));
+        assert_eq!(FileFormat::workbook_extension(b"PAR1"), None);
+    }
+
+    #[test]
+    fn a_sheet_is_named_beside_the_file_in_messages() {
+        let t = Table::from_columns("heats.xlsx", vec![("c_wt".into(), vec![0.07])])
+            .expect("table")
+            .with_sheet(Some("welds"));
+        assert_eq!(t.label(), "heats.xlsx, sheet 'welds'");
+        let msg = t.numeric("mn_wt").expect_err("missing").to_string();
+        assert!(
+            msg.starts_with("heats.xlsx, sheet 'welds': no column"),
+            "{msg}"
+        );
+        // the rows picked from it keep the sheet
+        assert_eq!(t.select_rows(&[0]).sheet(), Some("welds"));
     }
 
     #[test]

@@ -204,7 +204,7 @@ impl Model {
         observer: &dyn TrainObserver,
     ) -> Result<Model> {
         let params = spec.params.clone().check()?;
-        let path = table.source().display().to_string();
+        let path = table.label();
         if spec.targets.is_empty() {
             return Err(Error::InvalidParameter {
                 name: "target",

@@ -119,7 +119,7 @@ impl ElementColumns {
     /// [`Error::Derive`] when several headers could stand for one element.
     pub fn find(table: &Table, models: &[Model]) -> Result<ElementColumns> {
         let schema = models.iter().find_map(|m| m.schema.as_ref());
-        let path = table.source().display().to_string();
+        let path = table.label();
         let mut found = Vec::new();
         for sym in Composition::ELEMENTS {
             let from_schema = schema.and_then(|s| {
@@ -614,7 +614,8 @@ fn push_unique(v: &mut Vec<String>, s: String) {
 /// Never in practice: the names are unique and the lengths equal.
 pub fn with_values(table: &Table, values: &[(String, f64)]) -> Result<Table> {
     let n = table.n_rows();
-    let mut out = Table::from_optional_columns(table.source(), Vec::new())?;
+    let mut out =
+        Table::from_optional_columns(table.source(), Vec::new())?.with_sheet(table.sheet());
     for (i, name) in table.names().iter().enumerate() {
         let data = match values.iter().find(|(k, _)| k == name) {
             Some((_, v)) => ColumnData::Number(vec![Some(*v); n]),

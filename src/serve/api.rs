@@ -118,6 +118,12 @@ fn is_json(headers: &HeaderMap) -> bool {
 /// The rows of a JSON request: `rows` (objects), `row` (one object) or
 /// `csv` (text, comma- or tab-separated), named by `source` when given.
 fn rows_of(v: &Value, limits: &Limits) -> Result<Rows, Reply> {
+    rows_of_sheet(v, limits, None)
+}
+
+/// As [`rows_of`], with the `sheet` query of the request (refused by the
+/// reader: JSON rows are no workbook).
+fn rows_of_sheet(v: &Value, limits: &Limits, sheet: Option<&str>) -> Result<Rows, Reply> {
     let name = rows::label(v.get("source").and_then(Value::as_str), "request rows");
     let csv = if let Some(t) = v.get("csv").and_then(Value::as_str) {
         rows::pasted_to_csv(t)
@@ -133,14 +139,34 @@ fn rows_of(v: &Value, limits: &Limits) -> Result<Rows, Reply> {
             "request body: give the rows as \"rows\": [{column: value, ...}], \"row\": {...} or \"csv\": \"header\\nvalues\"",
         ));
     };
-    rows::read(&csv, &name, limits.max_rows)
+    rows::read(&csv, &name, sheet, limits.max_rows)
 }
 
-/// `POST /api/models/{id}/predict[?format=json|csv|xlsx][&units=internal|declared][&id=COLUMN]`:
+/// The rows of a body that is not JSON: a workbook's bytes (.xlsx, .xls;
+/// its sheet `sheet`, or the first) or CSV / tab-separated text, named
+/// `name` in every message.
+fn rows_of_body(
+    headers: &HeaderMap,
+    bytes: &[u8],
+    name: &str,
+    sheet: Option<&str>,
+    limits: &Limits,
+) -> Result<Rows, Reply> {
+    if let Some(ext) = rows::workbook_kind(headers, bytes, name)? {
+        return rows::read_workbook(bytes, ext, name, sheet, limits.max_rows);
+    }
+    let text = std::str::from_utf8(bytes)
+        .map_err(|_| Reply::bad_input("request body: the text is not UTF-8"))?;
+    rows::read(&rows::pasted_to_csv(text), name, sheet, limits.max_rows)
+}
+
+/// `POST /api/models/{id}/predict[?format=json|csv|xlsx][&units=internal|declared][&id=COLUMN][&sheet=NAME][&source=NAME]`:
 /// the rows' estimates as `mettle predict --format json|csv` (or `--out
 /// FILE.xlsx`) writes them: the same layout, identifiers and bytes.
 /// The body is JSON (`{"rows": [...]}`, `{"csv": "..."}` or an array of
-/// rows) or CSV / tab-separated text.
+/// rows), CSV / tab-separated text, or a workbook (.xlsx; by its
+/// Content-Type or its first bytes) read as `--input FILE.xlsx [--sheet
+/// NAME]` reads it.
 async fn predict(
     State(s): State<Arc<AppState>>,
     Path(id): Path<String>,
@@ -173,17 +199,17 @@ async fn predict(
     let json_body = is_json(&headers);
     let name = rows::label(q.get("source").map(String::as_str), "request rows");
     let id_column = q.get("id").cloned();
+    let sheet = q.get("sheet").cloned();
     let out = blocking(move || {
+        let sheet = sheet.as_deref();
         let rows = if json_body {
             let v = parse_json(&bytes)?;
             match v {
-                Value::Array(a) => rows_of(&json!({"rows": a}), &limits)?,
-                v => rows_of(&v, &limits)?,
+                Value::Array(a) => rows_of_sheet(&json!({"rows": a}), &limits, sheet)?,
+                v => rows_of_sheet(&v, &limits, sheet)?,
             }
         } else {
-            let text = std::str::from_utf8(&bytes)
-                .map_err(|_| Reply::bad_input("request body: the text is not UTF-8"))?;
-            rows::read(&rows::pasted_to_csv(text), &name, limits.max_rows)?
+            rows_of_body(&headers, &bytes, &name, sheet, &limits)?
         };
         let layout = e
             .model
@@ -209,23 +235,41 @@ async fn predict(
     let kind = match format {
         EstimateFormat::Csv => "text/csv; charset=utf-8",
         EstimateFormat::Json => "application/json",
-        EstimateFormat::Xlsx => "application/vnd.openxmlformats-officedocument.spreadsheetml.sheet",
+        EstimateFormat::Xlsx => rows::XLSX_TYPE,
     };
     Ok(([(header::CONTENT_TYPE, kind)], out).into_response())
 }
 
 /// `POST /api/models/{id}/requirements`: the probability that each row
-/// meets each requirement (`screen`'s syntax) and all of them.
+/// meets each requirement (`screen`'s syntax) and all of them. The body is
+/// JSON (`require` and the rows as for predict), or the rows alone — CSV
+/// text or a workbook — with `?require=REQ` (repeated) and optional
+/// `&sheet=NAME&source=NAME` in the query.
 async fn requirements(
     State(s): State<Arc<AppState>>,
     Path(id): Path<String>,
+    Query(q): Query<Vec<(String, String)>>,
+    headers: HeaderMap,
     body: Result<Bytes, BytesRejection>,
 ) -> Result<Json<Value>, Reply> {
     let e = entry(&s, &id)?;
     let bytes = body_bytes(body, &s.limits)?;
     let limits = s.limits.clone();
+    let json_body = is_json(&headers);
     blocking(move || {
-        let v = parse_json(&bytes)?;
+        let (v, body_rows) = if json_body {
+            (parse_json(&bytes)?, None)
+        } else {
+            let query = |k: &str| q.iter().find(|(n, _)| n == k).map(|(_, x)| x.as_str());
+            let name = rows::label(query("source"), "request rows");
+            let rows = rows_of_body(&headers, &bytes, &name, query("sheet"), &limits)?;
+            let require: Vec<&str> = q
+                .iter()
+                .filter(|(n, _)| n == "require")
+                .map(|(_, x)| x.as_str())
+                .collect();
+            (json!({ "require": require }), Some(rows))
+        };
         let texts: Vec<String> = match v.get("require") {
             Some(Value::Array(a)) => a
                 .iter()
@@ -246,7 +290,10 @@ async fn requirements(
             .map(|t| Requirement::parse(t))
             .collect::<mettle::Result<_>>()
             .map_err(|x| Reply::bad_input(x.to_string()))?;
-        let rows = rows_of(&v, &limits)?;
+        let rows = match body_rows {
+            Some(r) => r,
+            None => rows_of(&v, &limits)?,
+        };
         // declared units converted, a column in a guessed unit refused, as predict does
         e.model.unit_check(&rows.table).map_err(|x| rows.bad(&x))?;
         let models = std::slice::from_ref(&e.model);

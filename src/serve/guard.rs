@@ -21,6 +21,7 @@ pub fn harden(routes: Router<Arc<AppState>>, state: Arc<AppState>) -> Router {
     routes
         .fallback(not_found)
         .layer(DefaultBodyLimit::max(state.limits.max_body))
+        .layer(middleware::from_fn_with_state(state.clone(), declared_size))
         .layer(middleware::from_fn_with_state(state.clone(), time_limit))
         .layer(middleware::from_fn_with_state(state.clone(), token))
         .layer(CatchPanicLayer::custom(panicked))
@@ -62,6 +63,23 @@ async fn token(State(s): State<Arc<AppState>>, req: Request, next: Next) -> Resp
         next.run(req).await
     } else {
         Reply::unauthorised().into_response()
+    }
+}
+
+/// A body whose Content-Length already says it is over the limit is
+/// refused before a byte of it is read (413); a body of no stated length is
+/// cut off at the limit as it arrives ([`DefaultBodyLimit`]).
+async fn declared_size(State(s): State<Arc<AppState>>, req: Request, next: Next) -> Response {
+    let declared = req
+        .headers()
+        .get(header::CONTENT_LENGTH)
+        .and_then(|v| v.to_str().ok())
+        .and_then(|v| v.trim().parse::<u64>().ok());
+    match declared {
+        Some(n) if n > s.limits.max_body as u64 => {
+            Reply::body_too_large(s.limits.max_body).into_response()
+        }
+        _ => next.run(req).await,
     }
 }
 

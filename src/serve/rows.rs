@@ -1,9 +1,12 @@
 //! Rows sent to the server, turned into a table by the same reader as the
-//! command line's, so that a bad cell gets the same message (row, line,
-//! column). JSON rows are written out as CSV text first; CSV or
-//! tab-separated text (pasted from a spreadsheet) is read as it comes.
+//! command line's, so that a bad cell gets the same message (sheet, row,
+//! line, column). JSON rows are written out as CSV text first; CSV or
+//! tab-separated text (pasted from a spreadsheet) is read as it comes; a
+//! workbook's bytes (.xlsx, .xls) are read by the library's workbook reader
+//! (`Table::read_sheet`, calamine), as `--input FILE.xlsx` is.
 
-use mettle::data::{csv_field, Table};
+use axum::http::{header, HeaderMap};
+use mettle::data::{csv_field, FileFormat, Table};
 use serde_json::{Map, Value};
 
 use super::reply::Reply;
@@ -118,26 +121,96 @@ pub fn pasted_to_csv(text: &str) -> String {
     out
 }
 
+/// The media type of an Office Open XML workbook (.xlsx; ECMA-376, and
+/// the IANA media-type registry).
+pub const XLSX_TYPE: &str = "application/vnd.openxmlformats-officedocument.spreadsheetml.sheet";
+
+/// How a non-JSON body is to be read: `Some(extension)` for a workbook —
+/// recognised by its first bytes (a zip archive or an OLE2 compound file,
+/// the library's rule, [`FileFormat::workbook_extension`]) or declared by
+/// its Content-Type ([`XLSX_TYPE`]) — else `None` (CSV or tab-separated
+/// text). The older type `application/vnd.ms-excel` decides nothing: some
+/// systems send CSV files under it.
+///
+/// # Errors
+/// 400 when the Content-Type declares a workbook but the bytes do not
+/// open as one (they would otherwise be read as text).
+pub fn workbook_kind(
+    headers: &HeaderMap,
+    bytes: &[u8],
+    name: &str,
+) -> Result<Option<&'static str>, Reply> {
+    let declared = headers
+        .get(header::CONTENT_TYPE)
+        .and_then(|v| v.to_str().ok())
+        .map(|v| {
+            v.split(';')
+                .next()
+                .unwrap_or_default()
+                .trim()
+                .to_ascii_lowercase()
+        })
+        .filter(|v| v == XLSX_TYPE);
+    match (FileFormat::workbook_extension(bytes), declared) {
+        (Some(ext), _) => Ok(Some(ext)),
+        (None, Some(kind)) => Err(Reply::bad_input(format!(
+            "{name}: the body is declared a workbook ({kind}) but is not one: \
+             an .xlsx file is a zip archive and begins with the bytes PK\\x03\\x04"
+        ))),
+        (None, None) => Ok(None),
+    }
+}
+
 /// Read CSV text as a table (through a private temporary file, so the
 /// command line's reader and its messages apply unchanged), refusing more
-/// than `max_rows` rows.
+/// than `max_rows` rows; `sheet`, when given, is refused by the reader as
+/// it is for a CSV file on the command line.
 ///
 /// # Errors
 /// 400 with the reader's message; 413 over the row limit.
-pub fn read(csv: &str, name: &str, max_rows: usize) -> Result<Rows, Reply> {
-    let dir = tempfile::tempdir().map_err(|e| Reply::internal(format!("temporary folder: {e}")))?;
-    let path = dir.path().join("rows.csv");
-    std::fs::write(&path, csv.as_bytes())
-        .map_err(|e| Reply::internal(format!("temporary file: {e}")))?;
-    let hidden = path.display().to_string();
-    let fix = |e: mettle::Error| Reply::bad_input(e.to_string().replace(&hidden, name));
+pub fn read(csv: &str, name: &str, sheet: Option<&str>, max_rows: usize) -> Result<Rows, Reply> {
     // a cheap count before the reader: a 20 MB paste of short lines is
     // refused without being parsed
     let lines = csv.lines().filter(|l| !l.trim().is_empty()).count();
     if lines > max_rows.saturating_add(1) {
         return Err(Reply::too_many_rows(lines.saturating_sub(1), max_rows));
     }
-    let table = Table::read(&path).map_err(fix)?;
+    read_file(csv.as_bytes(), "rows.csv", name, sheet, max_rows)
+}
+
+/// Read a workbook's bytes (`extension` from [`workbook_kind`]) as a table:
+/// sheet `sheet`, or the first, by the library's workbook reader; more
+/// than `max_rows` rows refused.
+///
+/// # Errors
+/// 400 with the reader's message (a workbook that does not open, a sheet
+/// it lacks — its sheets listed —, a bad cell naming sheet, row and
+/// column); 413 over the row limit.
+pub fn read_workbook(
+    bytes: &[u8],
+    extension: &str,
+    name: &str,
+    sheet: Option<&str>,
+    max_rows: usize,
+) -> Result<Rows, Reply> {
+    read_file(bytes, &format!("rows.{extension}"), name, sheet, max_rows)
+}
+
+/// The bytes written to a private temporary file `file` and read there by
+/// [`Table::read_sheet`]; every message names the rows `name`.
+fn read_file(
+    bytes: &[u8],
+    file: &str,
+    name: &str,
+    sheet: Option<&str>,
+    max_rows: usize,
+) -> Result<Rows, Reply> {
+    let dir = tempfile::tempdir().map_err(|e| Reply::internal(format!("temporary folder: {e}")))?;
+    let path = dir.path().join(file);
+    std::fs::write(&path, bytes).map_err(|e| Reply::internal(format!("temporary file: {e}")))?;
+    let hidden = path.display().to_string();
+    let fix = |e: mettle::Error| Reply::bad_input(e.to_string().replace(&hidden, name));
+    let table = Table::read_sheet(&path, sheet).map_err(fix)?;
     if table.n_rows() > max_rows {
         return Err(Reply::too_many_rows(table.n_rows(), max_rows));
     }

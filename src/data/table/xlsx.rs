@@ -95,6 +95,7 @@ pub(super) fn read(path: &Path, sheet: Option<&str>) -> Result<Table> {
         columns: Vec::new(),
         n_rows: body.len(),
         first_row: 0,
+        sheet: Some(name.clone()),
     };
     for (j, h) in header.iter().enumerate() {
         let cells: Vec<Option<String>> = body.iter().map(|r| r.get(j).cloned().flatten()).collect();

@@ -8,6 +8,7 @@
   let models = [];
   let model = null;
   let lastRows = null; // {body, source} of the last estimate, for downloads
+  const XLSX = "application/vnd.openxmlformats-officedocument.spreadsheetml.sheet";
 
   function esc(s) {
     return String(s).replace(/[&<>"']/g, (c) => ({ "&": "&amp;", "<": "&lt;", ">": "&gt;", '"': "&quot;", "'": "&#39;" }[c]));
@@ -54,6 +55,19 @@
   }
   function post(path, obj) {
     return api(path, { method: "POST", headers: { "Content-Type": "application/json" }, body: JSON.stringify(obj) });
+  }
+  // rows as a request: JSON ({row}, {csv, source}), or a workbook's bytes
+  // ({workbook, source, sheet}) sent as they are with the query naming
+  // the file and sheet; `extra` adds query pairs (format, require)
+  function rowsRequest(path, rowsBody, extra) {
+    const q = new URLSearchParams(extra || []);
+    if (!rowsBody.workbook) {
+      const s = q.toString();
+      return [path + (s ? "?" + s : ""), { method: "POST", headers: { "Content-Type": "application/json" }, body: JSON.stringify(rowsBody) }];
+    }
+    q.append("source", rowsBody.source);
+    if (rowsBody.sheet) q.append("sheet", rowsBody.sheet);
+    return [path + "?" + q.toString(), { method: "POST", headers: { "Content-Type": XLSX }, body: rowsBody.workbook }];
   }
   function showError(e) {
     const box = $("error");
@@ -221,14 +235,14 @@
     }).join("") + '<div class="legend full">Bars: the 95 % interval (blue) and the centre (dark tick) over the range of the target in the training data (grey); a dashed red line marks a typed requirement.</div>';
     $("rows").innerHTML = "";
   }
-  function showMany(rows, source) {
+  function showMany(rows, source, clickable) {
     $("result").innerHTML = "";
     const n = rows.length, out = rows.filter((r) => verdictClass(verdictOf(r)) === "out").length;
     const box = $("verdict");
     box.className = "verdict " + (out ? "out" : "in");
     box.dataset.verdict = out ? "out" : "in";
     box.innerHTML = "<b>" + n + " rows from " + esc(source) + ": " + (out ? out + " outside the training domain" : "all inside the training domain") +
-      "</b><div class=\"hint\">Click a row to load it into the form.</div>";
+      "</b>" + (clickable ? '<div class="hint">Click a row to load it into the form.</div>' : "");
     box.hidden = false;
     const names = Object.keys(estimatesOf(rows[0]));
     const ids = rows.some((r) => r.id !== undefined);
@@ -237,7 +251,7 @@
     h += '<th class="text">domain</th></tr></thead><tbody>';
     rows.forEach((r, k) => {
       const est = estimatesOf(r);
-      h += '<tr class="pick" data-index="' + k + '"><td>' + r.row + "</td>" + (ids ? '<td class="text">' + esc(r.id || "") + "</td>" : "");
+      h += '<tr class="pick" data-index="' + k + '"><td>' + r.row + "</td>" + (ids ? '<td class="text id">' + esc(r.id || "") + "</td>" : "");
       for (const t of names) {
         const e = est[t];
         h += '<td data-target="' + esc(t) + '" data-centre="' + centre(e) + '">' + num(centre(e)) + "</td><td>" + num(e.lo95) + " … " + num(e.hi95) + "</td>";
@@ -250,7 +264,10 @@
   async function showProbabilities(rowsBody) {
     const reqs = requirements();
     if (!reqs.length) { $("probabilities").innerHTML = ""; return; }
-    const out = await post("/api/models/" + encodeURIComponent(model.id) + "/requirements", Object.assign({ require: reqs }, rowsBody));
+    const path = "/api/models/" + encodeURIComponent(model.id) + "/requirements";
+    const out = rowsBody.workbook
+      ? await api(...rowsRequest(path, rowsBody, reqs.map((r) => ["require", r])))
+      : await post(path, Object.assign({ require: reqs }, rowsBody));
     let h = '<h3>Probability of meeting the requirements</h3><div class="tablewrap"><table id="prob-table"><thead><tr><th>row</th>';
     for (const q of reqs) h += "<th>" + esc(q) + "</th>";
     h += "<th>all</th></tr></thead><tbody>";
@@ -263,14 +280,14 @@
   }
   async function estimate(rowsBody, source) {
     const path = "/api/models/" + encodeURIComponent(model.id) + "/predict";
-    const res = await post(path, rowsBody);
+    const res = await api(...rowsRequest(path, rowsBody));
     targetHeads = res.targets || {};
     const rows = res.rows;
     lastRows = { body: rowsBody, source: source };
     $("download-csv").disabled = false;
     $("download-json").disabled = false;
     $("download-xlsx").disabled = false;
-    if (rows.length === 1 && rowsBody.row) showOne(rows[0]); else showMany(rows, source);
+    if (rows.length === 1 && rowsBody.row) showOne(rows[0]); else showMany(rows, source, !!rowsBody.csv);
     $("rows").onclick = (ev) => {
       const tr = ev.target.closest("tr.pick");
       if (tr && rowsBody.csv) loadRow(rowsBody.csv, Number(tr.dataset.index));
@@ -290,8 +307,7 @@
   }
   async function download(format) {
     if (!lastRows) return;
-    const path = "/api/models/" + encodeURIComponent(model.id) + "/predict?format=" + format;
-    const opts = { method: "POST", headers: { "Content-Type": "application/json" }, body: JSON.stringify(lastRows.body) };
+    const [path, opts] = rowsRequest("/api/models/" + encodeURIComponent(model.id) + "/predict", lastRows.body, [["format", format]]);
     if (token) opts.headers["Authorization"] = "Bearer " + token;
     const r = await fetch(path, opts);
     if (!r.ok) throw new Error("HTTP " + r.status + ": " + (await r.text()));
@@ -397,6 +413,14 @@
   $("file").addEventListener("change", () => busy(async () => {
     const f = $("file").files[0];
     if (!f) return;
+    // a workbook goes to the server as it is (the server reads it as
+    // `mettle predict --input FILE.xlsx` does); text is shown in the paste box
+    if (/\.xlsx?$/i.test(f.name) || f.type === XLSX) {
+      const sheet = $("sheet").value.trim();
+      const label = f.name + (sheet ? ", sheet " + sheet : "");
+      await estimate({ workbook: await f.arrayBuffer(), source: f.name, sheet: sheet }, label);
+      return;
+    }
     const text = await f.text();
     $("paste").value = text;
     await estimate({ csv: text, source: f.name }, f.name);
