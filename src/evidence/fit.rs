@@ -835,19 +835,18 @@ mod tests {
         )
         .expect("fit");
         // Against ordinary least squares on [x, 1] (the normal equations
-        // solved by Gaussian elimination, written out in `ols` below, outside
+        // solved by Gaussian elimination, written out in `ols` above, outside
         // the library's linear algebra): the evidence prior shrinks a well-determined
         // coefficient by about α/(β·N·var x) ≈ 1e-3 here, so the two agree
         // to a few parts in a thousand; the irrelevant x2 is pruned to ~0.
         let mut design = Array2::ones((200, 4));
         design.slice_mut(ndarray::s![.., ..3]).assign(&x);
         let ols = ols(&design, &t);
-        for k in 0..2 {
+        for (k, o) in ols.iter().enumerate().take(2) {
             assert!(
-                (net.weights[k] - ols[k]).abs() < 3e-3 * ols[k].abs() + 1e-4,
-                "coefficient {k}: evidence {} vs OLS {}",
-                net.weights[k],
-                ols[k]
+                (net.weights[k] - o).abs() < 3e-3 * o.abs() + 1e-4,
+                "coefficient {k}: evidence {} vs OLS {o}",
+                net.weights[k]
             );
         }
         assert!(
