@@ -131,6 +131,11 @@ enum Part {
     /// Only register blocks that reach the diagonal or below it (the
     /// elements on and below the diagonal, and a few above it).
     Lower,
+    /// All of C, for a lower-triangular B (b_kc = 0 for k < c): the sums of
+    /// a column block starting at column j0 begin at k = j0. The terms left
+    /// out are a_ik·0 = ±0 at the head of the sum, and 0 + (±0) = +0, so
+    /// every element is the one the full sum gives, bit for bit.
+    AllLowerB,
 }
 
 /// C ← C + s·(A·B) in register blocks of MR × NR, each element's sum formed
@@ -156,10 +161,18 @@ fn product_body<const MR: usize, const NR: usize>(
             if part == Part::Lower && j0 >= i0 + rows {
                 break;
             }
-            let acc = if n == 0 {
+            let k0 = if part == Part::AllLowerB {
+                j0.min(n)
+            } else {
+                0
+            };
+            let acc = if n == k0 {
                 [[0.0; NR]; MR]
             } else {
-                block::<MR, NR>(&packed_a, &packed_b[pi * n * NR..(pi + 1) * n * NR])
+                block::<MR, NR>(
+                    &packed_a[k0 * MR..],
+                    &packed_b[pi * n * NR + k0 * NR..(pi + 1) * n * NR],
+                )
             };
             let cols = NR.min(p - j0);
             for (r, acc_r) in acc.iter().enumerate().take(rows) {
@@ -371,7 +384,11 @@ impl Cholesky {
                     done.slice(ndarray::s![.., ..cols]),
                     -1.0,
                     rest.slice_mut(ndarray::s![..i1 - i0, ..cols]),
-                    Part::All,
+                    if unit_lower {
+                        Part::AllLowerB
+                    } else {
+                        Part::All
+                    },
                 );
             }
             for i in i0..i1 {
@@ -593,6 +610,16 @@ mod tests {
             product_portable(a.view(), b.view(), 1.0, c.view_mut(), Part::All);
             assert_eq!(c, naive(a.view(), b.view()), "portable {m}×{n}×{p}");
         }
+        // a lower-triangular B: the shortened sums give the same bits
+        let (a, mut b) = (random(13, 21, 13), random(21, 17, 14));
+        for k in 0..21 {
+            for c in k + 1..17 {
+                b[[k, c]] = 0.0;
+            }
+        }
+        let mut short = Array2::zeros((13, 17));
+        product_add(a.view(), b.view(), 1.0, short.view_mut(), Part::AllLowerB);
+        assert_eq!(short, naive(a.view(), b.view()), "lower-triangular B");
         let j = random(23, 11, 3);
         assert_eq!(gram(j.view()), naive(j.t(), j.view()));
         let sl = j.slice(s![1..20;2, 2..9]);
