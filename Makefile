@@ -1,11 +1,9 @@
 # mettle: the two set-up commands are `make demo` and `make test`.
-# Each installs what is missing (OpenBLAS via apt-get), then builds and runs.
+# Each installs what is missing (a font for the charts, via apt-get), then builds and runs.
 # Build products go to a cache outside the clone so that rebuilds reuse work.
 
 CARGO_TARGET_DIR ?= $(HOME)/.cache/mettle/target
 export CARGO_TARGET_DIR
-# Parallelism comes from training candidates on separate threads.
-export OPENBLAS_NUM_THREADS ?= 1
 
 BIN  := $(CARGO_TARGET_DIR)/release/mettle
 DEMO := out/demo
@@ -22,10 +20,6 @@ PY_PACKAGES := maturin pytest numpy pandas polars scikit-learn matplotlib
 all: build
 
 deps:
-	@if ! dpkg -s libopenblas-dev >/dev/null 2>&1; then \
-	  echo "== installing libopenblas-dev (OpenBLAS, the linear-algebra library mettle links) with apt-get"; \
-	  $(SUDO) apt-get update -qq && DEBIAN_FRONTEND=noninteractive $(SUDO) apt-get install -y -qq libopenblas-dev pkg-config; \
-	fi
 	@if ! dpkg -s fonts-dejavu-core >/dev/null 2>&1; then \
 	  echo "== installing fonts-dejavu-core (the face the charts' PNG text is drawn with, --png) with apt-get"; \
 	  $(SUDO) apt-get update -qq && DEBIAN_FRONTEND=noninteractive $(SUDO) apt-get install -y -qq fonts-dejavu-core; \

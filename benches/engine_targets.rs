@@ -33,7 +33,6 @@ use mettle::Model;
 const PREDICT_REPEATS: usize = 5;
 
 fn main() {
-    mettle::single_threaded_blas();
     let dir = std::env::args()
         .skip(1)
         .find(|a| !a.starts_with("--"))

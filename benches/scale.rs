@@ -206,7 +206,6 @@ fn arg(args: &[String], name: &str) -> Option<String> {
 }
 
 fn main() {
-    mettle::single_threaded_blas();
     let args: Vec<String> = std::env::args().skip(1).collect();
     let runs: usize = arg(&args, "--runs").map_or(3, |s| s.parse().expect("--runs N"));
     let min_rows: usize = arg(&args, "--min-rows").map_or(0, |s| s.parse().expect("--min-rows N"));

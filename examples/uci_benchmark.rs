@@ -138,7 +138,6 @@ fn median(v: &[f64]) -> f64 {
 }
 
 fn main() {
-    mettle::single_threaded_blas();
     let mut data_dir = PathBuf::from("../shared/datasets/uci");
     let mut datasets: Vec<String> = PUBLISHED.iter().map(|p| p.0.to_string()).collect();
     let mut n_splits = 20usize;

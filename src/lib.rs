@@ -33,7 +33,7 @@ pub mod error;
 pub mod evidence;
 pub mod explain;
 pub mod features;
-mod matmul;
+pub mod linalg;
 pub mod metrics;
 pub mod model;
 pub mod net;
@@ -48,22 +48,3 @@ pub mod validate;
 
 pub use error::{Error, Result};
 pub use model::Model;
-
-/// Run OpenBLAS on one thread. Parallelism comes from training candidates
-/// on separate threads; OpenBLAS threads on top of that would oversubscribe
-/// the cores, and a different number of them changes the order of
-/// floating-point sums, so that near-ties (the committee size, a noise
-/// model) can fall the other way. Every program that trains — the binary,
-/// the benchmark example, the benches — calls this first, so that they
-/// give the same models. One of the library's two `unsafe` calls (the
-/// other is the matrix product of `matmul`; the crate denies unsafe code
-/// elsewhere).
-#[allow(unsafe_code)]
-pub fn single_threaded_blas() {
-    extern "C" {
-        fn openblas_set_num_threads(n: std::ffi::c_int);
-    }
-    // SAFETY: a plain setter exported by the OpenBLAS that ndarray-linalg
-    // links; called before any BLAS routine runs.
-    unsafe { openblas_set_num_threads(1) };
-}

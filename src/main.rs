@@ -9,7 +9,6 @@ use std::process::ExitCode;
 use clap::Parser;
 
 fn main() -> ExitCode {
-    mettle::single_threaded_blas();
     let args = match cli::Cli::try_parse() {
         Ok(a) => a,
         Err(e) => {

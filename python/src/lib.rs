@@ -137,9 +137,6 @@ impl RawModel {
 
 #[pymodule]
 fn _mettle(m: &Bound<'_, PyModule>) -> PyResult<()> {
-    // as the command line does before anything trains: OpenBLAS on one
-    // thread, so that models come out byte-identical to the CLI's
-    mettle::single_threaded_blas();
     m.add_class::<RawModel>()?;
     m.add_function(wrap_pyfunction!(train::train, m)?)?;
     m.add_function(wrap_pyfunction!(predict::predict, m)?)?;

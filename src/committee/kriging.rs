@@ -68,13 +68,11 @@ use argmin::core::{
 };
 use argmin::solver::linesearch::MoreThuenteLineSearch;
 use argmin::solver::quasinewton::LBFGS;
-use ndarray::{Array1, Array2, ArrayView1, ArrayView2, Axis, ShapeBuilder};
-use ndarray_linalg::{
-    CholeskyFactorized, Diag, FactorizeC, InverseC, SolveC, SolveTriangularInto, UPLO,
-};
+use ndarray::{Array1, Array2, ArrayView1, ArrayView2, Axis};
 use serde::{Deserialize, Serialize};
 
 use crate::evidence::FitFailure;
+use crate::linalg::{matmul, Cholesky};
 use crate::prec::{KRIGING_COST_TOL, KRIGING_GRAD_TOL, KRIGING_JITTER, VAR_FLOOR};
 
 /// Largest number of rows the process is fitted on.
@@ -140,8 +138,8 @@ impl PartialEq for ResidualKriging {
 /// The factorised process, ready to predict.
 #[derive(Debug)]
 pub(crate) struct KrigingState {
-    /// Lower Cholesky factor of K_y, column-major.
-    chol_lower: Array2<f64>,
+    /// The Cholesky factor of K_y.
+    chol: Cholesky,
     alpha: Array1<f64>,
 }
 
@@ -152,7 +150,7 @@ fn kernel(a: ArrayView2<f64>, b: ArrayView2<f64>, length: &[f64], signal_var: f6
     let b = &b * &inv;
     let na: Array1<f64> = a.map_axis(Axis(1), |r| r.dot(&r));
     let nb: Array1<f64> = b.map_axis(Axis(1), |r| r.dot(&r));
-    let mut k = a.dot(&b.t());
+    let mut k = matmul(a.view(), b.t());
     for ((i, j), v) in k.indexed_iter_mut() {
         let d2 = (na[i] + nb[j] - 2.0 * *v).max(0.0);
         *v = signal_var * (-0.5 * d2).exp();
@@ -194,15 +192,15 @@ pub(crate) fn neg_log_marginal(
     let unit = kernel(x, x, &length, 1.0);
     let mut ky = &unit * signal;
     add_noise(&mut ky, factor, noise_var);
-    let f = ky.factorizec(UPLO::Lower).ok()?;
-    let alpha = f.solvec(&r.to_owned()).ok()?;
-    let ln_det = 2.0 * f.factor.diag().iter().map(|l| l.ln()).sum::<f64>();
-    let inv = f.invc().ok()?;
+    let f = Cholesky::new(ky.view())?;
+    let alpha = f.solve(r);
+    let ln_det = f.ln_det();
+    let inv = f.inverse();
     let value =
         0.5 * r.dot(&alpha) + 0.5 * ln_det + 0.5 * n as f64 * (2.0 * std::f64::consts::PI).ln();
     // W = ααᵀ − K_y⁻¹; ∂(−ln p)/∂θ_i = −½ tr(W ∂K_y/∂θ_i)
     let col = alpha.view().insert_axis(Axis(1));
-    let w = col.dot(&col.t()) - inv;
+    let w = matmul(col, col.t()) - inv;
     let m = &w * &unit; // W ∘ R
     let mut grad = Array1::zeros(d + 2);
     // ln τ²: ∂K/∂ln τ² = τ²R
@@ -212,7 +210,7 @@ pub(crate) fn neg_log_marginal(
     // ln ℓ_k: ∂K_ij/∂ln ℓ_k = τ²R_ij (x_ik − x_jk)²/ℓ_k², and
     // Σ_ij M_ij (x_ik − x_jk)² = 2 Σ_i x_ik² (M1)_i − 2 x_kᵀ M x_k
     let row_sums = m.sum_axis(Axis(1));
-    let mx = m.dot(&x);
+    let mx = matmul(m.view(), x);
     for k in 0..d {
         let xk = x.column(k);
         let s2: f64 = xk.iter().zip(&row_sums).map(|(v, s)| v * v * s).sum();
@@ -481,22 +479,9 @@ impl ResidualKriging {
             self.noise_factor,
             ArrayView1::from(&self.noise_var[..]),
         );
-        let f: CholeskyFactorized<_> = ky.factorizec(UPLO::Lower).ok()?;
-        let alpha = f.solvec(&Array1::from(self.residual.clone())).ok()?;
-        let mut chol_lower = f.factor;
-        // the factor's upper triangle holds leftovers of K_y
-        for i in 0..n {
-            for j in i + 1..n {
-                chol_lower[[i, j]] = 0.0;
-            }
-        }
-        // column-major, as LAPACK takes it: no transposed copy per solve
-        let mut chol_f = Array2::zeros((n, n).f());
-        chol_f.assign(&chol_lower);
-        Some(KrigingState {
-            chol_lower: chol_f,
-            alpha,
-        })
+        let chol = Cholesky::new(ky.view())?;
+        let alpha = chol.solve(ArrayView1::from(&self.residual[..]));
+        Some(KrigingState { chol, alpha })
     }
 
     /// The process's posterior mean and variance at scaled inputs `x`
@@ -510,11 +495,7 @@ impl ResidualKriging {
         for chunk in x.axis_chunks_iter(Axis(0), KRIGING_PREDICT_ROWS) {
             let ks = kernel(chunk, self.x.view(), &self.length_scales, self.signal_var); // m × N
             mean.extend(ks.dot(&st.alpha));
-            // Kᵀ of the row-major cross-kernel is column-major: solved in place
-            let v = st
-                .chol_lower
-                .solve_triangular_into(UPLO::Lower, Diag::NonUnit, ks.reversed_axes())
-                .ok()?;
+            let v = st.chol.solve_lower(ks.t());
             var.extend(
                 v.map_axis(Axis(0), |c| c.dot(&c))
                     .mapv(|e| (self.signal_var - e).max(VAR_FLOOR)),

@@ -266,7 +266,7 @@ impl<'a> DomainIndex<'a> {
                 }
             }
             let mut h = h.slice_mut(s![..block.nrows(), ..]);
-            crate::matmul::multiply_into(white.view(), self.screen_rows.t(), h.view_mut());
+            crate::linalg::multiply_into(white.view(), self.screen_rows.t(), h.view_mut());
             for ((q, w), h) in block.rows().into_iter().zip(white.rows()).zip(h.rows()) {
                 let w = w.as_slice().expect("rows of a standard-layout array");
                 let h = h.as_slice().expect("rows of a standard-layout array");

@@ -20,11 +20,11 @@
 //! computed once per network; where Σ is not numerically positive definite
 //! (its Cholesky factorisation fails), the plain product is used.
 //!
-//! The panels are multiplied by the `matrixmultiply` crate, which picks
-//! its kernel (AVX-512, FMA, AVX or SSE2) from the CPU it runs on. The
-//! OpenBLAS of Debian 12 (0.3.21) does not know the build machine's CPU and
-//! falls back to SSE3 kernels there: on k = 101 and 4096 rows its
-//! triangular solve took 4.1 ms per block and these panels 1.6 ms.
+//! The panels are multiplied by [`crate::linalg::multiply_into`], whose
+//! sums run in a fixed order, so the variances do not depend on the CPU
+//! (with the `matrixmultiply` crate, which picks its kernel from the CPU,
+//! they did in the last bits). On k = 101 and 4096 rows one 48-column panel
+//! takes about 2–3 ms on the 2-core build machine.
 //!
 //! # Where each form is used
 //!
@@ -38,7 +38,6 @@
 //! uses the triangular form ([`super::predictive_factored`]).
 
 use ndarray::{Array1, Array2, ArrayView2, Axis};
-use ndarray_linalg::{Cholesky, UPLO};
 
 /// Columns of Z = J L computed per matrix product in
 /// [`PosteriorFactor::quadratic_forms`]: narrower panels skip more of L's
@@ -65,10 +64,8 @@ enum Form {
 impl PosteriorFactor {
     /// Factor the posterior covariance `cov` (k × k, symmetric).
     pub fn new(cov: &Array2<f64>) -> Self {
-        let triangular = cov
-            .cholesky(UPLO::Lower)
-            .ok()
-            .map(|lower| lower.as_standard_layout().into_owned())
+        let triangular = crate::linalg::Cholesky::new(cov.view())
+            .map(crate::linalg::Cholesky::into_lower)
             .filter(|lower| lower.iter().all(|v| v.is_finite()));
         match triangular {
             Some(l) => PosteriorFactor(Form::Triangular(l)),
@@ -89,7 +86,7 @@ impl PosteriorFactor {
                 let mut z = Array2::<f64>::zeros((jac.nrows(), k));
                 for a in (0..k).step_by(PANEL_COLUMNS) {
                     let b = (a + PANEL_COLUMNS).min(k);
-                    crate::matmul::multiply_into(
+                    crate::linalg::multiply_into(
                         jac.slice(ndarray::s![.., a..]),
                         lower.slice(ndarray::s![a.., a..b]),
                         z.slice_mut(ndarray::s![.., a..b]),
@@ -105,7 +102,7 @@ impl PosteriorFactor {
 /// gₙᵀ Σ gₙ for every row gₙ of `jac` by the product JΣ (k² multiply-adds
 /// per row).
 pub fn quadratic_forms_by_product(cov: &Array2<f64>, jac: ArrayView2<f64>) -> Array1<f64> {
-    let js = jac.dot(cov);
+    let js = crate::linalg::matmul(jac, cov.view());
     ndarray::Zip::from(js.rows())
         .and(jac.rows())
         .map_collect(|a, b| a.dot(&b))
@@ -124,7 +121,8 @@ mod tests {
         let mut rng = Xoshiro256PlusPlus::seed_from_u64(seed);
         let n = Normal::new(0.0, 1.0).expect("unit sd");
         let g = Array2::from_shape_fn((k, k), |_| n.sample(&mut rng));
-        let (q, _) = ndarray_linalg::QR::qr(&g).expect("qr");
+        // an orthogonal Q: the eigenvectors of the symmetric g + gᵀ
+        let (_, q) = crate::linalg::symmetric_eigen((&g + &g.t()).view()).expect("eigen");
         let lambda = Array1::from_shape_fn(k, |i| 10f64.powf(-decades * i as f64 / (k - 1) as f64));
         let scaled = &q * &lambda;
         scaled.dot(&q.t())

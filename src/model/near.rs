@@ -85,7 +85,7 @@ impl NearIndex {
             }
         }
         let mut h = Array2::zeros((scaled.nrows(), self.rows.nrows()));
-        crate::matmul::multiply_into(q.view(), self.screen.t(), h.view_mut());
+        crate::linalg::multiply_into(q.view(), self.screen.t(), h.view_mut());
         q.rows()
             .into_iter()
             .zip(h.rows())

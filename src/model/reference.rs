@@ -6,7 +6,6 @@
 //! [`crate::domain`]'s documentation.
 
 use ndarray::{Array1, Array2, ArrayView2, Axis};
-use ndarray_linalg::{Eigh, UPLO};
 use rayon::prelude::*;
 use serde::{Deserialize, Serialize};
 
@@ -193,8 +192,8 @@ fn whitening(x: ArrayView2<f64>) -> Option<(Array1<f64>, Array2<f64>)> {
     let n = x.nrows() as f64;
     let mean = x.mean_axis(Axis(0))?;
     let c = x.to_owned() - &mean;
-    let cov = c.t().dot(&c) / (n - 1.0).max(1.0);
-    let (eig, v) = cov.eigh(UPLO::Lower).ok()?;
+    let cov = crate::linalg::gram(c.view()) / (n - 1.0).max(1.0);
+    let (eig, v) = crate::linalg::symmetric_eigen(cov.view())?;
     let top = eig.iter().copied().fold(0.0, f64::max);
     if top <= 0.0 {
         return None;
@@ -283,7 +282,7 @@ impl DomainReference {
         };
         let n = x.nrows();
         let x = x.view();
-        let white = (&x - &mean).dot(&w);
+        let white = crate::linalg::matmul((&x - &mean).view(), w.view());
         let rows: Vec<f64> = white.iter().copied().collect();
         let k = k.clamp(1, n - 1);
         let mut loo: Vec<f64> = (0..n)

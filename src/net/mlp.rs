@@ -129,7 +129,7 @@ impl Architecture {
             let y = x.dot(&p.input_w.row(0)) + p.output_b;
             return (y, Array2::zeros((0, 0)));
         }
-        let mut act = x.dot(&p.input_w.t());
+        let mut act = crate::linalg::matmul(x, p.input_w.t());
         act += &p.hidden_b;
         act.mapv_inplace(tanh);
         let y = act.dot(&p.output_w) + p.output_b;
@@ -192,7 +192,7 @@ impl Architecture {
         let mut delta = act.mapv(|a| 1.0 - a * a);
         delta *= &p.output_w;
         delta *= &r.view().insert_axis(Axis(1));
-        let g_w = delta.t().dot(&x);
+        let g_w = crate::linalg::matmul(delta.t(), x);
         g.slice_mut(s![..lay.hidden_bias])
             .assign(&Array1::from_iter(g_w.iter().copied()));
         g.slice_mut(s![lay.hidden_bias..lay.output_weights])
@@ -253,7 +253,7 @@ impl Architecture {
         t: ArrayView1<f64>,
     ) -> Array2<f64> {
         let (y, act, jac) = self.jacobian_with_activations(w, x);
-        let mut hess = jac.t().dot(&jac);
+        let mut hess = crate::linalg::gram(jac.view());
         if self.is_linear() {
             return hess;
         }
@@ -271,7 +271,7 @@ impl Architecture {
                                                             // second derivatives within unit j's incoming weights and bias
             let c = &r * &fpp * p.output_w[j];
             let weighted = &xt * &c.view().insert_axis(Axis(1));
-            let block = xt.t().dot(&weighted);
+            let block = crate::linalg::matmul(xt.t(), weighted.view());
             // cross terms of the incoming weights/bias with v_j
             let cross = xt.t().dot(&(&r * &fp));
             let idx: Vec<usize> = (0..d)

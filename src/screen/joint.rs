@@ -31,7 +31,6 @@
 //! ([`JOINT_MC_SAMPLES`] draws), with its standard error reported.
 
 use ndarray::Array2;
-use ndarray_linalg::Cholesky;
 use rand::SeedableRng;
 use rand_distr::{Distribution, StandardNormal};
 use serde::Serialize;
@@ -312,8 +311,8 @@ fn positive_definite_factor(corr: &[Vec<f64>]) -> Array2<f64> {
                 (1.0 - lambda) * corr[i][j]
             }
         });
-        if let Ok(l) = r.cholesky(ndarray_linalg::UPLO::Lower) {
-            return l;
+        if let Some(l) = crate::linalg::Cholesky::new(r.view()) {
+            return l.into_lower();
         }
     }
     Array2::eye(d)

@@ -497,11 +497,12 @@ pub fn weld_parquet(path: &Path, rows: &[Weld], units: &WeldUnits) {
 
 /// `Ok` when two outputs hold the same text and the same numbers to within
 /// 1e-9 relative (at least 1e-9 absolute), else the first difference:
-/// tokens are cut at commas, colons, brackets and white space. The
-/// variances of estimates made in blocks of different row counts differ in
-/// the last bits, since the BLAS kernels sum in an order that depends on
-/// the matrix shape, and the model part of the sd, taken from a difference
-/// of variances, magnifies that (2.6e-11 relative seen in one row).
+/// tokens are cut at commas, colons, brackets and white space. With BLAS
+/// the variances of estimates made in blocks of different row counts
+/// differed in the last bits (its kernels summed in an order that depended
+/// on the matrix shape), and the model part of the sd, taken from a
+/// difference of variances, magnified that (2.6e-11 relative seen in one
+/// row); `mettle::linalg` sums in one order whatever the shape.
 pub fn same_up_to_rounding(a: &[u8], b: &[u8]) -> Result<(), String> {
     let cut = |s: &[u8]| -> Vec<String> {
         String::from_utf8_lossy(s)

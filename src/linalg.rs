@@ -1,0 +1,725 @@
+//! Dense linear algebra whose every sum runs in an order fixed by this
+//! source, so that training gives the same bits on any CPU.
+//!
+//! # Why not BLAS and LAPACK
+//!
+//! An optimised BLAS picks its kernels by the CPU it finds (OpenBLAS at load
+//! time, `OPENBLAS_CORETYPE` overriding), and the kernels sum in different
+//! orders and fuse multiply-adds or not. The results differ in the last
+//! bits, and training makes discrete choices on near-ties (the committee's
+//! members and size, the noise model): under two OpenBLAS core types the
+//! first shared yacht split trained different committees (one member with
+//! varying noise against two with constant noise). The same holds for the
+//! `matrixmultiply` crate, which picks an AVX-512, FMA, AVX or SSE2 kernel at
+//! run time. The routines here are plain loops compiled for the baseline of
+//! the target (no run-time dispatch, no fused multiply-add: Rust never
+//! contracts `a * b + c`), so each result depends on the inputs alone.
+//!
+//! # The routines
+//!
+//! - Products C = A·B ([`matmul`]) and AᵀA ([`gram`]): each element is
+//!   Σ_k a_ik b_kj summed from 0 in increasing k, in register blocks of
+//!   4 × 4 or 4 × 8 elements with both operands packed first (the blocked
+//!   product of Golub & Van Loan 2013, *Matrix Computations*, 4th ed.,
+//!   §1.5; Goto & van de Geijn 2008, ACM TOMS 34(3):12). Blocking changes
+//!   only which elements are computed together, not the order of any sum,
+//!   so the result equals the plain triple loop bit for bit (unit test).
+//! - Cholesky A = L·Lᵀ ([`Cholesky`]), blocked by [`CHOL_BLOCK`] columns
+//!   (right-looking: factor a diagonal block, solve the panel below it,
+//!   update the trailing matrix by the product above; Golub & Van Loan
+//!   2013, Alg. 4.2.3 and §4.2.9), with solves, the log-determinant and the
+//!   inverse A⁻¹ = L⁻ᵀ·L⁻¹.
+//! - The symmetric eigen-decomposition by cyclic Jacobi rotations
+//!   ([`symmetric_eigen`]; Golub & Van Loan 2013, Alg. 8.5.3; Rutishauser
+//!   1966 for the rotation formulas), for the small matrices it serves (the
+//!   input covariance of the domain guard, and a last-resort inverse).
+
+use ndarray::{Array1, Array2, ArrayView1, ArrayView2, ArrayViewMut2, Axis};
+
+/// Columns per block of the blocked Cholesky factorisation.
+pub const CHOL_BLOCK: usize = 48;
+/// Sweeps of the Jacobi eigen-decomposition before it gives up; quadratic
+/// convergence needs 6 to 10 on the sizes used here (Golub & Van Loan
+/// 2013, §8.5.3).
+pub const JACOBI_MAX_SWEEPS: usize = 60;
+
+/// B packed in panels of `NR` columns: panel p holds b[k, p·NR + c] at
+/// k·NR + c, zero beyond the last column.
+#[inline(always)]
+fn pack_columns<const NR: usize>(b: ArrayView2<f64>) -> Vec<f64> {
+    let (n, p) = b.dim();
+    let panels = p.div_ceil(NR);
+    let mut out = vec![0.0; panels * n * NR];
+    if n == 0 {
+        return out;
+    }
+    let by_rows = b.strides()[1].unsigned_abs() <= b.strides()[0].unsigned_abs();
+    if by_rows {
+        // read B row by row (contiguous when row-major)
+        for (k, row) in b.rows().into_iter().enumerate() {
+            match row.as_slice() {
+                Some(r) => {
+                    for (pi, part) in r.chunks(NR).enumerate() {
+                        let at = pi * n * NR + k * NR;
+                        out[at..at + part.len()].copy_from_slice(part);
+                    }
+                }
+                None => {
+                    for (j, v) in row.iter().enumerate() {
+                        out[(j / NR) * n * NR + k * NR + j % NR] = *v;
+                    }
+                }
+            }
+        }
+    } else {
+        for (pi, chunk) in out.chunks_exact_mut(n * NR).enumerate() {
+            let j0 = pi * NR;
+            for c in 0..NR.min(p - j0) {
+                for (k, v) in b.column(j0 + c).iter().enumerate() {
+                    chunk[k * NR + c] = *v;
+                }
+            }
+        }
+    }
+    out
+}
+
+/// Rows i0.. of A packed as one panel: a[i0 + r, k] at k·MR + r.
+#[inline(always)]
+fn pack_rows<const MR: usize>(a: ArrayView2<f64>, i0: usize, out: &mut [f64]) {
+    out.fill(0.0);
+    let rows = MR.min(a.nrows() - i0);
+    let by_columns = a.strides()[0].unsigned_abs() < a.strides()[1].unsigned_abs();
+    if by_columns {
+        // read A column by column (contiguous when column-major, as Xᵀ is)
+        for (k, col) in a.columns().into_iter().enumerate() {
+            for r in 0..rows {
+                out[k * MR + r] = col[i0 + r];
+            }
+        }
+    } else {
+        for r in 0..rows {
+            for (k, v) in a.row(i0 + r).iter().enumerate() {
+                out[k * MR + r] = *v;
+            }
+        }
+    }
+}
+
+/// The register block: Σ_k a_rk b_kc for one packed row panel and one
+/// packed column panel, each sum from 0 in increasing k, every step a
+/// product rounded and then a sum rounded (Rust never fuses them).
+#[inline(always)]
+fn block<const MR: usize, const NR: usize>(pa: &[f64], pb: &[f64]) -> [[f64; NR]; MR] {
+    let mut acc = [[0.0; NR]; MR];
+    for (ak, bk) in pa.chunks_exact(MR).zip(pb.chunks_exact(NR)) {
+        let ak: &[f64; MR] = ak.try_into().expect("MR values");
+        let bk: &[f64; NR] = bk.try_into().expect("NR values");
+        for r in 0..MR {
+            for c in 0..NR {
+                acc[r][c] += ak[r] * bk[c];
+            }
+        }
+    }
+    acc
+}
+
+/// Which elements of C a product writes.
+#[derive(Clone, Copy, PartialEq, Eq)]
+enum Part {
+    All,
+    /// Only register blocks that reach the diagonal or below it (the
+    /// elements on and below the diagonal, and a few above it).
+    Lower,
+    /// All of C, for a lower-triangular B (b_kc = 0 for k < c): the sums of
+    /// a column block starting at column j0 begin at k = j0. The terms left
+    /// out are a_ik·0 = ±0 at the head of the sum, and 0 + (±0) = +0, so
+    /// every element is the one the full sum gives, bit for bit.
+    AllLowerB,
+}
+
+/// C ← C + s·(A·B) in register blocks of MR × NR, each element's sum formed
+/// first (from 0, increasing k) and then added once. The block shape only
+/// groups elements; no sum depends on it.
+#[inline(always)]
+fn product_body<const MR: usize, const NR: usize>(
+    a: ArrayView2<f64>,
+    b: ArrayView2<f64>,
+    s: f64,
+    mut c: ArrayViewMut2<f64>,
+    part: Part,
+) {
+    let (m, n) = a.dim();
+    let p = b.ncols();
+    let packed_b = pack_columns::<NR>(b);
+    let mut packed_a = vec![0.0; n * MR];
+    for i0 in (0..m).step_by(MR) {
+        pack_rows::<MR>(a, i0, &mut packed_a);
+        let rows = MR.min(m - i0);
+        for pi in 0..p.div_ceil(NR) {
+            let j0 = pi * NR;
+            if part == Part::Lower && j0 >= i0 + rows {
+                break;
+            }
+            let k0 = if part == Part::AllLowerB {
+                j0.min(n)
+            } else {
+                0
+            };
+            let acc = if n == k0 {
+                [[0.0; NR]; MR]
+            } else {
+                block::<MR, NR>(
+                    &packed_a[k0 * MR..],
+                    &packed_b[pi * n * NR + k0 * NR..(pi + 1) * n * NR],
+                )
+            };
+            let cols = NR.min(p - j0);
+            for (r, acc_r) in acc.iter().enumerate().take(rows) {
+                let mut row = c.row_mut(i0 + r);
+                match row.as_slice_mut() {
+                    Some(out) => {
+                        for (o, v) in out[j0..j0 + cols].iter_mut().zip(acc_r) {
+                            *o += s * v;
+                        }
+                    }
+                    None => {
+                        for (cc, v) in acc_r.iter().enumerate().take(cols) {
+                            row[j0 + cc] += s * v;
+                        }
+                    }
+                }
+            }
+        }
+    }
+}
+
+/// [`product_body`] compiled for the target's baseline (SSE2 on x86-64):
+/// 4 × 4 blocks, eight 2-wide accumulators.
+fn product_portable(
+    a: ArrayView2<f64>,
+    b: ArrayView2<f64>,
+    s: f64,
+    c: ArrayViewMut2<f64>,
+    part: Part,
+) {
+    product_body::<4, 4>(a, b, s, c, part);
+}
+
+/// [`product_body`] compiled with AVX enabled: 4 × 8 blocks in eight
+/// 4-wide accumulators. The same operations on each element in the same
+/// order (no fused multiply-add: that feature is not enabled, and Rust
+/// never contracts a product and a sum anyway), so the same bits as
+/// [`product_portable`] (unit test); only faster.
+#[cfg(target_arch = "x86_64")]
+#[target_feature(enable = "avx")]
+fn product_avx(a: ArrayView2<f64>, b: ArrayView2<f64>, s: f64, c: ArrayViewMut2<f64>, part: Part) {
+    product_body::<4, 8>(a, b, s, c, part);
+}
+
+/// C ← C + s·(A·B), by the AVX build where the CPU has AVX, else the
+/// portable one; both give the same bits.
+fn product_add(a: ArrayView2<f64>, b: ArrayView2<f64>, s: f64, c: ArrayViewMut2<f64>, part: Part) {
+    let (m, n) = a.dim();
+    let p = b.ncols();
+    assert!(
+        b.nrows() == n && c.dim() == (m, p),
+        "shapes {:?} · {:?} → {:?}",
+        a.dim(),
+        b.dim(),
+        c.dim()
+    );
+    if m == 0 || p == 0 {
+        return;
+    }
+    #[cfg(target_arch = "x86_64")]
+    {
+        if std::arch::is_x86_feature_detected!("avx") {
+            // SAFETY: the CPU has AVX, the only feature the function enables.
+            #[allow(unsafe_code)]
+            return unsafe { product_avx(a, b, s, c, part) };
+        }
+    }
+    product_portable(a, b, s, c, part);
+}
+
+/// A·B for views of any layout; element (i, j) is Σ_k a_ik b_kj summed in
+/// increasing k.
+///
+/// # Panics
+/// When the shapes do not chain.
+pub fn matmul(a: ArrayView2<f64>, b: ArrayView2<f64>) -> Array2<f64> {
+    let mut c = Array2::zeros((a.nrows(), b.ncols()));
+    product_add(a, b, 1.0, c.view_mut(), Part::All);
+    c
+}
+
+/// C ← A·B for views of any layout, C overwritten (its old values are not
+/// read); each element as by [`matmul`].
+///
+/// # Panics
+/// When the shapes do not chain: A is m × n, B n × p, C m × p.
+pub fn multiply_into(a: ArrayView2<f64>, b: ArrayView2<f64>, mut c: ArrayViewMut2<f64>) {
+    c.fill(0.0);
+    product_add(a, b, 1.0, c, Part::All);
+}
+
+/// AᵀA (k × k for A of N × k): the lower triangle computed as by
+/// [`matmul`]`(Aᵀ, A)` and mirrored (products commute exactly, so the
+/// mirrored elements equal the computed ones bit for bit).
+pub fn gram(a: ArrayView2<f64>) -> Array2<f64> {
+    let k = a.ncols();
+    let mut c = Array2::zeros((k, k));
+    product_add(a.t(), a, 1.0, c.view_mut(), Part::Lower);
+    mirror_lower(&mut c);
+    c
+}
+
+/// Copy the strict lower triangle onto the upper one.
+fn mirror_lower(c: &mut Array2<f64>) {
+    for i in 0..c.nrows() {
+        for j in 0..i {
+            c[[j, i]] = c[[i, j]];
+        }
+    }
+}
+
+/// Σ a_i b_i over two slices, in eight interleaved partial sums combined in
+/// a fixed order (the order does not depend on the CPU).
+pub fn dot(a: &[f64], b: &[f64]) -> f64 {
+    let n = a.len().min(b.len());
+    let mut acc = [0.0; 8];
+    let (ca, cb) = (a[..n].chunks_exact(8), b[..n].chunks_exact(8));
+    let (ra, rb) = (ca.remainder(), cb.remainder());
+    for (x, y) in ca.zip(cb) {
+        for l in 0..8 {
+            acc[l] += x[l] * y[l];
+        }
+    }
+    let mut sum = ((acc[0] + acc[4]) + (acc[1] + acc[5])) + ((acc[2] + acc[6]) + (acc[3] + acc[7]));
+    for (x, y) in ra.iter().zip(rb) {
+        sum += x * y;
+    }
+    sum
+}
+
+/// The Cholesky factor L of a symmetric positive-definite matrix
+/// (A = L·Lᵀ), lower triangular and row-major, its upper triangle zero.
+#[derive(Clone, Debug)]
+pub struct Cholesky {
+    lower: Array2<f64>,
+}
+
+impl Cholesky {
+    /// Factor `a` (its lower triangle is read). `None` when a pivot is not
+    /// positive and finite: A is not numerically positive definite.
+    pub fn new(a: ArrayView2<f64>) -> Option<Self> {
+        let n = a.nrows();
+        assert_eq!(a.ncols(), n, "a square matrix");
+        let mut l = Array2::zeros((n, n));
+        for i in 0..n {
+            for j in 0..=i {
+                l[[i, j]] = a[[i, j]];
+            }
+        }
+        for k0 in (0..n).step_by(CHOL_BLOCK) {
+            let k1 = (k0 + CHOL_BLOCK).min(n);
+            factor_diagonal_block(&mut l, k0, k1)?;
+            if k1 < n {
+                solve_panel(&mut l, k0, k1);
+                // A22 ← A22 − L21·L21ᵀ, lower part only
+                let panel = l.slice(ndarray::s![k1.., k0..k1]).to_owned();
+                let update = l.slice_mut(ndarray::s![k1.., k1..]);
+                product_add(panel.view(), panel.t(), -1.0, update, Part::Lower);
+            }
+        }
+        for i in 0..n {
+            for j in i + 1..n {
+                l[[i, j]] = 0.0;
+            }
+        }
+        Some(Cholesky { lower: l })
+    }
+
+    /// L (lower triangular, row-major).
+    pub fn lower(&self) -> &Array2<f64> {
+        &self.lower
+    }
+
+    /// L, consumed.
+    pub fn into_lower(self) -> Array2<f64> {
+        self.lower
+    }
+
+    /// ln |A| = 2 Σ ln l_ii.
+    pub fn ln_det(&self) -> f64 {
+        2.0 * self.lower.diag().iter().map(|v| v.ln()).sum::<f64>()
+    }
+
+    /// L⁻¹·B by forward substitution (row-major result).
+    pub fn solve_lower(&self, b: ArrayView2<f64>) -> Array2<f64> {
+        assert_eq!(b.nrows(), self.lower.nrows(), "right-hand side rows");
+        let mut x = Array2::zeros(b.dim());
+        x.assign(&b);
+        self.solve_lower_in_place(&mut x, false);
+        x
+    }
+
+    /// X ← L⁻¹·X, blocked by [`CHOL_BLOCK`] rows: the rows of block I first
+    /// lose L[I, ..i0]·X[..i0] (one product, each sum in increasing j),
+    /// then X_i = (X_i − Σ_{i0≤j<i} l_ij X_j) / l_ii within the block.
+    /// With `unit_lower` X starts as the identity, so that every X_j is zero
+    /// beyond column j; the terms skipped then are l_ij·0, which change no
+    /// element.
+    fn solve_lower_in_place(&self, x: &mut Array2<f64>, unit_lower: bool) {
+        let n = self.lower.nrows();
+        let m = x.ncols();
+        for i0 in (0..n).step_by(CHOL_BLOCK) {
+            let i1 = (i0 + CHOL_BLOCK).min(n);
+            if i0 > 0 {
+                let cols = if unit_lower { i0 } else { m };
+                let (done, mut rest) = x.view_mut().split_at(Axis(0), i0);
+                product_add(
+                    self.lower.slice(ndarray::s![i0..i1, ..i0]),
+                    done.slice(ndarray::s![.., ..cols]),
+                    -1.0,
+                    rest.slice_mut(ndarray::s![..i1 - i0, ..cols]),
+                    if unit_lower {
+                        Part::AllLowerB
+                    } else {
+                        Part::All
+                    },
+                );
+            }
+            for i in i0..i1 {
+                let cols = if unit_lower { i + 1 } else { m };
+                let (done, mut rest) = x.view_mut().split_at(Axis(0), i);
+                let mut xi = rest.row_mut(0);
+                let mut xi = xi.slice_mut(ndarray::s![..cols]);
+                for j in i0..i {
+                    let lij = self.lower[[i, j]];
+                    xi.zip_mut_with(&done.row(j).slice(ndarray::s![..cols]), |v, d| {
+                        *v -= lij * d
+                    });
+                }
+                let d = self.lower[[i, i]];
+                xi.mapv_inplace(|v| v / d);
+            }
+        }
+    }
+
+    /// A⁻¹·b: L·y = b, then Lᵀ·x = y.
+    pub fn solve(&self, b: ArrayView1<f64>) -> Array1<f64> {
+        let n = self.lower.nrows();
+        let mut y = b.to_owned();
+        for i in 0..n {
+            let row = self.lower.row(i);
+            let s = dot(
+                &row.as_slice().expect("row-major")[..i],
+                &y.as_slice().expect("contiguous")[..i],
+            );
+            y[i] = (y[i] - s) / self.lower[[i, i]];
+        }
+        for i in (0..n).rev() {
+            let mut s = y[i];
+            for j in i + 1..n {
+                s -= self.lower[[j, i]] * y[j];
+            }
+            y[i] = s / self.lower[[i, i]];
+        }
+        y
+    }
+
+    /// A⁻¹ = L⁻ᵀ·L⁻¹, symmetric (lower triangle computed, then mirrored).
+    pub fn inverse(&self) -> Array2<f64> {
+        let n = self.lower.nrows();
+        let mut l_inv = Array2::<f64>::eye(n);
+        self.solve_lower_in_place(&mut l_inv, true);
+        // (A⁻¹)_ij = Σ_k x_ki x_kj over k ≥ max(i, j) (L⁻¹ = X is lower
+        // triangular): rows [i0, i1) of the lower triangle from rows i0..
+        // of X, one product per block of rows
+        let mut c = Array2::zeros((n, n));
+        for i0 in (0..n).step_by(CHOL_BLOCK) {
+            let i1 = (i0 + CHOL_BLOCK).min(n);
+            let below = l_inv.slice(ndarray::s![i0.., ..]);
+            product_add(
+                below.slice(ndarray::s![.., i0..i1]).t(),
+                below.slice(ndarray::s![.., ..i1]),
+                1.0,
+                c.slice_mut(ndarray::s![i0..i1, ..i1]),
+                Part::All,
+            );
+        }
+        mirror_lower(&mut c);
+        c
+    }
+}
+
+/// Σ_{t in k0..j} l_it l_jt for rows i and j of the row-major `l`, by
+/// [`dot`].
+fn row_dot(l: &Array2<f64>, i: usize, j: usize, k0: usize) -> f64 {
+    let n = l.ncols();
+    let s = l.as_slice().expect("row-major");
+    dot(&s[i * n + k0..i * n + j], &s[j * n + k0..j * n + j])
+}
+
+/// Unblocked Cholesky of the diagonal block [k0, k1) of `l` (row-major),
+/// whose entries already hold A minus the updates of the earlier blocks.
+fn factor_diagonal_block(l: &mut Array2<f64>, k0: usize, k1: usize) -> Option<()> {
+    for j in k0..k1 {
+        let d = l[[j, j]] - row_dot(l, j, j, k0);
+        if !(d > 0.0 && d.is_finite()) {
+            return None;
+        }
+        let d = d.sqrt();
+        l[[j, j]] = d;
+        for i in j + 1..k1 {
+            let v = l[[i, j]] - row_dot(l, i, j, k0);
+            l[[i, j]] = v / d;
+        }
+    }
+    Some(())
+}
+
+/// L21 ← A21·L11⁻ᵀ for the rows below the diagonal block [k0, k1).
+fn solve_panel(l: &mut Array2<f64>, k0: usize, k1: usize) {
+    let n = l.nrows();
+    for i in k1..n {
+        for j in k0..k1 {
+            let v = l[[i, j]] - row_dot(l, i, j, k0);
+            l[[i, j]] = v / l[[j, j]];
+        }
+    }
+}
+
+/// Eigenvalues (ascending) and eigenvectors (columns, in the same order) of
+/// a symmetric matrix by cyclic Jacobi rotations, the rows of each sweep in
+/// a fixed order. `None` when the matrix holds a non-finite value or the
+/// off-diagonal part does not vanish within [`JACOBI_MAX_SWEEPS`] sweeps.
+pub fn symmetric_eigen(a: ArrayView2<f64>) -> Option<(Array1<f64>, Array2<f64>)> {
+    let n = a.nrows();
+    assert_eq!(a.ncols(), n, "a square matrix");
+    if a.iter().any(|v| !v.is_finite()) {
+        return None;
+    }
+    // the lower triangle, symmetrised
+    let mut m = Array2::from_shape_fn((n, n), |(i, j)| if i >= j { a[[i, j]] } else { a[[j, i]] });
+    let mut v = Array2::<f64>::eye(n);
+    let mut converged = n < 2;
+    for _ in 0..JACOBI_MAX_SWEEPS {
+        let off: f64 = (0..n)
+            .flat_map(|i| (0..i).map(move |j| (i, j)))
+            .map(|(i, j)| m[[i, j]] * m[[i, j]])
+            .sum();
+        let scale: f64 = m.iter().map(|x| x * x).sum();
+        if off <= f64::EPSILON * f64::EPSILON * scale || off == 0.0 {
+            converged = true;
+            break;
+        }
+        for p in 0..n {
+            for q in p + 1..n {
+                rotate(&mut m, &mut v, p, q);
+            }
+        }
+    }
+    if !converged {
+        return None;
+    }
+    let mut order: Vec<usize> = (0..n).collect();
+    order.sort_by(|&i, &j| m[[i, i]].total_cmp(&m[[j, j]]));
+    let vals = Array1::from_iter(order.iter().map(|&i| m[[i, i]]));
+    let vecs = Array2::from_shape_fn((n, n), |(r, c)| v[[r, order[c]]]);
+    Some((vals, vecs))
+}
+
+/// One Jacobi rotation zeroing m[p, q] (m symmetric, both triangles kept).
+fn rotate(m: &mut Array2<f64>, v: &mut Array2<f64>, p: usize, q: usize) {
+    let apq = m[[p, q]];
+    if apq == 0.0 {
+        return;
+    }
+    let (app, aqq) = (m[[p, p]], m[[q, q]]);
+    let theta = (aqq - app) / (2.0 * apq);
+    let t = theta.signum() / (theta.abs() + (theta * theta + 1.0).sqrt());
+    let t = if theta == 0.0 { 1.0 } else { t };
+    let c = 1.0 / (t * t + 1.0).sqrt();
+    let s = t * c;
+    let n = m.nrows();
+    for k in 0..n {
+        let (mkp, mkq) = (m[[k, p]], m[[k, q]]);
+        m[[k, p]] = c * mkp - s * mkq;
+        m[[k, q]] = s * mkp + c * mkq;
+    }
+    for k in 0..n {
+        let (mpk, mqk) = (m[[p, k]], m[[q, k]]);
+        m[[p, k]] = c * mpk - s * mqk;
+        m[[q, k]] = s * mpk + c * mqk;
+    }
+    m[[p, q]] = 0.0;
+    m[[q, p]] = 0.0;
+    for k in 0..n {
+        let (vkp, vkq) = (v[[k, p]], v[[k, q]]);
+        v[[k, p]] = c * vkp - s * vkq;
+        v[[k, q]] = s * vkp + c * vkq;
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use ndarray::{s, ShapeBuilder};
+    use rand::{Rng, SeedableRng};
+    use rand_xoshiro::Xoshiro256PlusPlus;
+
+    fn random(m: usize, n: usize, seed: u64) -> Array2<f64> {
+        let mut rng = Xoshiro256PlusPlus::seed_from_u64(seed);
+        Array2::from_shape_fn((m, n), |_| rng.random_range(-1.0..1.0))
+    }
+
+    /// The plain triple loop, each sum from 0 in increasing k.
+    fn naive(a: ArrayView2<f64>, b: ArrayView2<f64>) -> Array2<f64> {
+        Array2::from_shape_fn((a.nrows(), b.ncols()), |(i, j)| {
+            let mut s = 0.0;
+            for k in 0..a.ncols() {
+                s += a[[i, k]] * b[[k, j]];
+            }
+            s
+        })
+    }
+
+    /// Blocking and packing change no sum: bit for bit the triple loop,
+    /// for every remainder of the register block and any layout.
+    #[test]
+    fn products_equal_the_triple_loop_bit_for_bit() {
+        for (m, n, p) in [(1, 1, 1), (3, 5, 2), (9, 7, 13), (17, 40, 6), (4, 0, 3)] {
+            let a = random(m, n, 1);
+            let b = random(n, p, 2);
+            let mut b_f = Array2::zeros((n, p).f());
+            b_f.assign(&b);
+            let want = naive(a.view(), b.view());
+            assert_eq!(matmul(a.view(), b.view()), want, "{m}×{n}×{p}");
+            assert_eq!(matmul(a.view(), b_f.view()), want, "column-major B");
+            let at = a.t().to_owned();
+            assert_eq!(matmul(at.t(), b.view()), want, "transposed view");
+        }
+        // the baseline build, whatever this CPU has (matmul above took the
+        // AVX build where the CPU has AVX)
+        for (m, n, p) in [(9, 7, 13), (17, 40, 6)] {
+            let (a, b) = (random(m, n, 11), random(n, p, 12));
+            let mut c = Array2::zeros((m, p));
+            product_portable(a.view(), b.view(), 1.0, c.view_mut(), Part::All);
+            assert_eq!(c, naive(a.view(), b.view()), "portable {m}×{n}×{p}");
+        }
+        // a lower-triangular B: the shortened sums give the same bits
+        let (a, mut b) = (random(13, 21, 13), random(21, 17, 14));
+        for k in 0..21 {
+            for c in k + 1..17 {
+                b[[k, c]] = 0.0;
+            }
+        }
+        let mut short = Array2::zeros((13, 17));
+        product_add(a.view(), b.view(), 1.0, short.view_mut(), Part::AllLowerB);
+        assert_eq!(short, naive(a.view(), b.view()), "lower-triangular B");
+        let j = random(23, 11, 3);
+        assert_eq!(gram(j.view()), naive(j.t(), j.view()));
+        let sl = j.slice(s![1..20;2, 2..9]);
+        assert_eq!(gram(sl), naive(sl.t(), sl));
+    }
+
+    /// ndarray's own product (another summation order) agrees to rounding.
+    #[test]
+    fn products_agree_with_ndarray() {
+        let (a, b) = (random(30, 70, 4), random(70, 9, 5));
+        let ours = matmul(a.view(), b.view());
+        let theirs = a.dot(&b);
+        for (u, v) in ours.iter().zip(&theirs) {
+            assert!((u - v).abs() <= 1e-13 * (1.0 + v.abs()), "{u} vs {v}");
+        }
+    }
+
+    fn spd(n: usize, seed: u64) -> Array2<f64> {
+        let g = random(n + 3, n, seed);
+        let mut a = gram(g.view());
+        for i in 0..n {
+            a[[i, i]] += 0.1;
+        }
+        a
+    }
+
+    /// L·Lᵀ = A, A·A⁻¹ = I, A·solve(b) = b and ln|A| against the product of
+    /// the Jacobi eigenvalues, across block boundaries (n = 1 … 2·block + 5).
+    #[test]
+    fn cholesky_reproduces_the_matrix_and_its_inverse() {
+        for n in [1, 2, 7, CHOL_BLOCK, CHOL_BLOCK + 1, 2 * CHOL_BLOCK + 5] {
+            let a = spd(n, n as u64);
+            let f = Cholesky::new(a.view()).expect("positive definite");
+            let l = f.lower();
+            let llt = naive(l.view(), l.t());
+            for (u, v) in llt.iter().zip(&a) {
+                assert!((u - v).abs() < 1e-10 * (1.0 + v.abs()), "n {n}: {u} vs {v}");
+            }
+            let inv = f.inverse();
+            let eye = naive(a.view(), inv.view());
+            for ((i, j), v) in eye.indexed_iter() {
+                let want = if i == j { 1.0 } else { 0.0 };
+                assert!((v - want).abs() < 1e-8, "n {n}: A·A⁻¹[{i},{j}] = {v}");
+            }
+            let rhs = random(n, 5, 7);
+            let lx = naive(l.view(), f.solve_lower(rhs.view()).view());
+            for (u, v) in lx.iter().zip(&rhs) {
+                assert!((u - v).abs() < 1e-9, "n {n}: L·L⁻¹B {u} vs {v}");
+            }
+            let b = Array1::from_shape_fn(n, |i| (i as f64 * 0.7).sin());
+            let x = f.solve(b.view());
+            let back = a.dot(&x);
+            for (u, v) in back.iter().zip(&b) {
+                assert!((u - v).abs() < 1e-9, "n {n}: {u} vs {v}");
+            }
+            if n <= CHOL_BLOCK + 1 {
+                let (vals, _) = symmetric_eigen(a.view()).expect("eigen");
+                let ln_det: f64 = vals.iter().map(|v| v.ln()).sum();
+                assert!((ln_det - f.ln_det()).abs() < 1e-9 * (1.0 + ln_det.abs()));
+            }
+        }
+    }
+
+    #[test]
+    fn cholesky_refuses_an_indefinite_matrix() {
+        let a = ndarray::arr2(&[[1.0, 2.0], [2.0, 1.0]]);
+        assert!(Cholesky::new(a.view()).is_none());
+        let nan = ndarray::arr2(&[[f64::NAN]]);
+        assert!(Cholesky::new(nan.view()).is_none());
+    }
+
+    /// V·diag(λ)·Vᵀ = A, VᵀV = I, ascending λ; a worked example: the 2 × 2
+    /// matrix [[2, 1], [1, 2]] has eigenvalues 1 and 3 (by hand).
+    #[test]
+    fn jacobi_eigen_decomposes() {
+        let (vals, _) =
+            symmetric_eigen(ndarray::arr2(&[[2.0, 1.0], [1.0, 2.0]]).view()).expect("eigen");
+        assert!((vals[0] - 1.0).abs() < 1e-15 && (vals[1] - 3.0).abs() < 1e-15);
+        for n in [1, 3, 12, 40] {
+            let a = spd(n, 100 + n as u64) - 0.5;
+            let (vals, vecs) = symmetric_eigen(a.view()).expect("eigen");
+            assert!(vals.windows(2).into_iter().all(|w| w[0] <= w[1]));
+            let back = naive((&vecs * &vals).view(), vecs.t());
+            for (u, v) in back.iter().zip(&a) {
+                assert!((u - v).abs() < 1e-11 * (1.0 + v.abs()), "n {n}: {u} vs {v}");
+            }
+            let vtv = naive(vecs.t(), vecs.view());
+            for ((i, j), v) in vtv.indexed_iter() {
+                let want = if i == j { 1.0 } else { 0.0 };
+                assert!((v - want).abs() < 1e-12, "n {n}");
+            }
+        }
+    }
+
+    #[test]
+    fn dot_sums_every_pair() {
+        let a: Vec<f64> = (0..21).map(f64::from).collect();
+        let b = vec![2.0; 21];
+        // exact: integers well inside f64's 53 bits
+        assert_eq!(dot(&a, &b).to_bits(), 420f64.to_bits());
+        assert_eq!(dot(&[], &[]).to_bits(), 0f64.to_bits());
+    }
+}
