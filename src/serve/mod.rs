@@ -88,6 +88,9 @@ pub fn run(cfg: Config) -> anyhow::Result<()> {
                 if cfg.token.is_none() { " with no --token" } else { "" }
             );
         }
+        // the handlers are in place before the address is announced: a
+        // signal sent as soon as the server answers stops it cleanly
+        let stop = Stop::install();
         let names: Vec<&str> = models.entries.iter().map(|e| e.id.as_str()).collect();
         eprintln!("mettle serve: {} model(s): {}", names.len(), names.join(", "));
         let url = format!("http://{addr}/");
@@ -98,7 +101,7 @@ pub fn run(cfg: Config) -> anyhow::Result<()> {
         }
         let app = app(models, &cfg);
         axum::serve(listener, app)
-            .with_graceful_shutdown(shutdown())
+            .with_graceful_shutdown(stop.wait())
             .await
             .context("serving")?;
         eprintln!("mettle serve: stopped");
@@ -106,27 +109,49 @@ pub fn run(cfg: Config) -> anyhow::Result<()> {
     })
 }
 
-/// SIGINT (Ctrl-C) or SIGTERM.
-async fn shutdown() {
-    let int = tokio::signal::ctrl_c();
+/// SIGINT (Ctrl-C) or SIGTERM, their handlers installed when this is made
+/// (tokio's `ctrl_c()` installs its handler only when first polled, which
+/// left a window after start-up in which a signal ended the process at once).
+struct Stop {
     #[cfg(unix)]
-    {
-        let mut term =
-            match tokio::signal::unix::signal(tokio::signal::unix::SignalKind::terminate()) {
-                Ok(s) => s,
-                Err(_) => {
-                    let _ = int.await;
-                    return;
-                }
+    streams: Option<(tokio::signal::unix::Signal, tokio::signal::unix::Signal)>,
+}
+
+impl Stop {
+    fn install() -> Stop {
+        #[cfg(unix)]
+        {
+            use tokio::signal::unix::{signal, SignalKind};
+            let streams = match (
+                signal(SignalKind::interrupt()),
+                signal(SignalKind::terminate()),
+            ) {
+                (Ok(i), Ok(t)) => Some((i, t)),
+                _ => None,
             };
-        tokio::select! {
-            _ = int => {},
-            _ = term.recv() => {},
+            Stop { streams }
         }
+        #[cfg(not(unix))]
+        Stop {}
     }
-    #[cfg(not(unix))]
-    let _ = int.await;
-    eprintln!("mettle serve: shutting down (answering requests under way)");
+
+    async fn wait(self) {
+        #[cfg(unix)]
+        match self.streams {
+            Some((mut int, mut term)) => {
+                tokio::select! {
+                    _ = int.recv() => {},
+                    _ = term.recv() => {},
+                }
+            }
+            None => {
+                let _ = tokio::signal::ctrl_c().await;
+            }
+        }
+        #[cfg(not(unix))]
+        let _ = tokio::signal::ctrl_c().await;
+        eprintln!("mettle serve: shutting down (answering requests under way)");
+    }
 }
 
 fn open_browser(url: &str, token: Option<&str>) {
