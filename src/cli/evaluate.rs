@@ -3,7 +3,7 @@
 use std::path::PathBuf;
 
 use clap::{Args, ValueEnum};
-use mettle::data::Table;
+use mettle::data::{RowLabels, Table};
 use mettle::explain::{estimate_rows, OutOfLine};
 use mettle::metrics::Evaluation;
 use mettle::prec::OUT_OF_LINE_Z;
@@ -72,7 +72,6 @@ pub fn run(a: EvaluateArgs) -> anyhow::Result<()> {
     let model = super::load_model(&a.model)?;
     let table = Table::read_sheet(&a.data, a.sheet.as_deref())?;
     let labels = model.row_labels(&table, a.id.as_deref())?;
-    let label = |row: usize| labels.as_ref().map(|l| l.get(row - 1).to_string());
     let mut results: Vec<(String, Evaluation)> = Vec::new();
     let mut out_of_line: Vec<(String, Vec<OutOfLine>, f64)> = Vec::new();
     for rows in estimate_rows(&model, &table)? {
@@ -90,134 +89,148 @@ pub fn run(a: EvaluateArgs) -> anyhow::Result<()> {
         ));
         results.push((name, e));
     }
+    let labels = labels.as_ref();
     let text = match a.format {
-        EvalFormat::Json => {
-            let objs: Vec<serde_json::Value> = results
-                .iter()
-                .zip(&out_of_line)
-                .map(|((name, e), (_, odd, _))| {
-                    let mut v = serde_json::to_value(e).unwrap_or_default();
-                    if let Some(o) = v.as_object_mut() {
-                        o.insert("target".into(), json!(name));
-                        o.insert("nlpd_scores".into(), json!(NLPD_SCORES));
-                        o.insert("coverages_count".into(), json!(COVERAGES_COUNT));
-                        o.insert(
-                            "id_column".into(),
-                            json!(labels.as_ref().map(|l| l.column.clone())),
-                        );
-                        o.insert(
-                            "out_of_line".into(),
-                            serde_json::Value::Array(
-                                odd.iter()
-                                    .map(|r| {
-                                        json!({
-                                            "row": r.row,
-                                            "id": label(r.row),
-                                            "measured": r.measured,
-                                            "mean": r.estimate.mean,
-                                            "sd": r.estimate.sd,
-                                            "lo95": r.estimate.lo95,
-                                            "hi95": r.estimate.hi95,
-                                            "z": r.z,
-                                            "in_domain": r.in_domain,
-                                            "gross_error_probability": r.gross_error_probability,
-                                        })
-                                    })
-                                    .collect(),
-                            ),
-                        );
-                    }
-                    v
-                })
-                .collect();
-            let v = if objs.len() == 1 {
-                objs.into_iter().next().unwrap_or_default()
-            } else {
-                serde_json::Value::Array(objs)
-            };
-            serde_json::to_string_pretty(&v)? + "\n"
-        }
-        EvalFormat::Table => {
-            let h: Vec<String> = [
-                "target",
-                "n",
-                "rmse",
-                "mae",
-                "r2",
-                "nlpd",
-                "coverage_68",
-                "coverage_95",
-            ]
-            .iter()
-            .map(|s| s.to_string())
-            .collect();
-            let body: Vec<Vec<String>> = results
-                .iter()
-                .map(|(name, e)| {
-                    vec![
-                        name.clone(),
-                        e.n.to_string(),
-                        num(e.rmse),
-                        num(e.mae),
-                        format!("{:.4}", e.r2),
-                        format!("{:.4}", e.nlpd),
-                        format!("{:.3}", e.coverage_68),
-                        format!("{:.3}", e.coverage_95),
-                    ]
-                })
-                .collect();
-            let mut text = aligned(&h, &body)
-                + "honest error bars: coverage_68 near 0.68, coverage_95 near 0.95\n"
-                + &wrap(
-                    "",
-                    &format!("nlpd scores {NLPD_SCORES}; the coverages count {COVERAGES_COUNT}"),
-                    0,
-                );
-            for (name, odd, chance) in &out_of_line {
-                if odd.is_empty() {
-                    continue;
-                }
-                text += &format!(
-                    "\n{name}: {} row(s) more than {OUT_OF_LINE_Z} sd from the estimate (about 1 in {:.0} is expected by chance with this model's error shape):\n",
-                    odd.len(),
-                    1.0 / chance.max(1e-12)
-                );
-                let mut h: Vec<String> = vec!["row".into()];
-                h.extend(labels.as_ref().map(|l| l.column.clone()));
-                h.extend(
-                    [
-                        "domain",
-                        "measured",
-                        "mean",
-                        "lo95",
-                        "hi95",
-                        "z",
-                        "gross_error_probability",
-                    ]
-                    .map(String::from),
-                );
-                let body: Vec<Vec<String>> = odd
-                    .iter()
-                    .map(|r| {
-                        let mut cells = vec![r.row.to_string()];
-                        cells.extend(label(r.row));
-                        cells.extend([
-                            if r.in_domain { "in" } else { "OUT" }.to_string(),
-                            num(r.measured),
-                            num(r.estimate.mean),
-                            num(r.estimate.lo95),
-                            num(r.estimate.hi95),
-                            format!("{:+.2}", r.z),
-                            r.gross_error_probability
-                                .map_or("-".to_string(), |p| format!("{p:.2}")),
-                        ]);
-                        cells
-                    })
-                    .collect();
-                text += &aligned(&h, &body);
-            }
-            text
-        }
+        EvalFormat::Json => json_text(&results, &out_of_line, labels)?,
+        EvalFormat::Table => table_text(&results, &out_of_line, labels),
     };
     emit(&text, a.out.as_deref())
+}
+
+/// Per target: its evaluation and the rows out of line with it.
+type Results = [(String, Evaluation)];
+type OutOfLines = [(String, Vec<OutOfLine>, f64)];
+
+/// One JSON object per target (one object alone when there is one target).
+fn json_text(
+    results: &Results,
+    out_of_line: &OutOfLines,
+    labels: Option<&RowLabels>,
+) -> anyhow::Result<String> {
+    let label = |row: usize| labels.map(|l| l.get(row - 1).to_string());
+    let objs: Vec<serde_json::Value> = results
+        .iter()
+        .zip(out_of_line)
+        .map(|((name, e), (_, odd, _))| {
+            let mut v = serde_json::to_value(e).unwrap_or_default();
+            if let Some(o) = v.as_object_mut() {
+                o.insert("target".into(), json!(name));
+                o.insert("nlpd_scores".into(), json!(NLPD_SCORES));
+                o.insert("coverages_count".into(), json!(COVERAGES_COUNT));
+                o.insert("id_column".into(), json!(labels.map(|l| l.column.clone())));
+                o.insert(
+                    "out_of_line".into(),
+                    serde_json::Value::Array(
+                        odd.iter()
+                            .map(|r| {
+                                json!({
+                                    "row": r.row,
+                                    "id": label(r.row),
+                                    "measured": r.measured,
+                                    "mean": r.estimate.mean,
+                                    "sd": r.estimate.sd,
+                                    "lo95": r.estimate.lo95,
+                                    "hi95": r.estimate.hi95,
+                                    "z": r.z,
+                                    "in_domain": r.in_domain,
+                                    "gross_error_probability": r.gross_error_probability,
+                                })
+                            })
+                            .collect(),
+                    ),
+                );
+            }
+            v
+        })
+        .collect();
+    let v = if objs.len() == 1 {
+        objs.into_iter().next().unwrap_or_default()
+    } else {
+        serde_json::Value::Array(objs)
+    };
+    Ok(serde_json::to_string_pretty(&v)? + "\n")
+}
+
+/// The evaluation table, then each target's rows out of line.
+fn table_text(results: &Results, out_of_line: &OutOfLines, labels: Option<&RowLabels>) -> String {
+    let label = |row: usize| labels.map(|l| l.get(row - 1).to_string());
+    let h: Vec<String> = [
+        "target",
+        "n",
+        "rmse",
+        "mae",
+        "r2",
+        "nlpd",
+        "coverage_68",
+        "coverage_95",
+    ]
+    .iter()
+    .map(|s| s.to_string())
+    .collect();
+    let body: Vec<Vec<String>> = results
+        .iter()
+        .map(|(name, e)| {
+            vec![
+                name.clone(),
+                e.n.to_string(),
+                num(e.rmse),
+                num(e.mae),
+                format!("{:.4}", e.r2),
+                format!("{:.4}", e.nlpd),
+                format!("{:.3}", e.coverage_68),
+                format!("{:.3}", e.coverage_95),
+            ]
+        })
+        .collect();
+    let mut text = aligned(&h, &body)
+        + "honest error bars: coverage_68 near 0.68, coverage_95 near 0.95\n"
+        + &wrap(
+            "",
+            &format!("nlpd scores {NLPD_SCORES}; the coverages count {COVERAGES_COUNT}"),
+            0,
+        );
+    for (name, odd, chance) in out_of_line {
+        if odd.is_empty() {
+            continue;
+        }
+        text += &format!(
+            "\n{name}: {} row(s) more than {OUT_OF_LINE_Z} sd from the estimate (about 1 in {:.0} is expected by chance with this model's error shape):\n",
+            odd.len(),
+            1.0 / chance.max(1e-12)
+        );
+        let mut h: Vec<String> = vec!["row".into()];
+        h.extend(labels.map(|l| l.column.clone()));
+        h.extend(
+            [
+                "domain",
+                "measured",
+                "mean",
+                "lo95",
+                "hi95",
+                "z",
+                "gross_error_probability",
+            ]
+            .map(String::from),
+        );
+        let body: Vec<Vec<String>> = odd
+            .iter()
+            .map(|r| {
+                let mut cells = vec![r.row.to_string()];
+                cells.extend(label(r.row));
+                cells.extend([
+                    if r.in_domain { "in" } else { "OUT" }.to_string(),
+                    num(r.measured),
+                    num(r.estimate.mean),
+                    num(r.estimate.lo95),
+                    num(r.estimate.hi95),
+                    format!("{:+.2}", r.z),
+                    r.gross_error_probability
+                        .map_or("-".to_string(), |p| format!("{p:.2}")),
+                ]);
+                cells
+            })
+            .collect();
+        text += &aligned(&h, &body);
+    }
+    text
 }
