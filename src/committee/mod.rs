@@ -29,6 +29,7 @@ mod assemble;
 mod by_size;
 mod candidates;
 mod choice;
+mod fast;
 mod gross_errors;
 mod kriging;
 mod noise;
@@ -47,6 +48,7 @@ mod varying;
 
 #[cfg(test)]
 pub(crate) use gross_errors::scipy_reference as gross_errors_reference;
+pub use fast::{FastCommittee, FastProcessProbe, FastStats, PROFILE_TOLERANCES};
 pub use gross_errors::{GrossErrorModel, GrossErrors};
 pub use kriging::{ResidualKriging, KRIGING_MAX_ROWS};
 pub use noise::NoiseModel;

@@ -7,3 +7,4 @@
 mod mlp;
 
 pub use mlp::{Architecture, ParamLayout};
+pub(crate) use mlp::tanh;
