@@ -63,10 +63,10 @@ fn rows_of(rows: &[usize]) -> Table {
 
 const TARGET: &str = "compressive_strength_mpa";
 
-/// A small committee with the residual process on `rows` of split 0's
+/// A small committee with the residual process on `n_rows` of split 0's
 /// training rows: few rows leave much of the posterior to the prior
 /// (where a low rank can serve), many leave little.
-fn train(n_rows: usize, hidden: (usize, usize)) -> Model {
+fn train(n_rows: usize, hidden: (usize, usize), noise: NoiseMode) -> Model {
     let rows: Vec<usize> = split("train_0.txt").into_iter().take(n_rows).collect();
     let mut spec = TrainSpec::new(&[TARGET]);
     spec.params = CommitteeParams::default()
@@ -74,7 +74,7 @@ fn train(n_rows: usize, hidden: (usize, usize)) -> Model {
         .restarts(1)
         .widen(false)
         .seed(11)
-        .noise(NoiseMode::Constant)
+        .noise(noise)
         .kriging(KrigingMode::On);
     Model::train(&rows_of(&rows), &spec, &Silent).expect("training")
 }
@@ -125,12 +125,13 @@ fn check_against_exact(model: &Model, label: &str) {
 
 #[test]
 fn fast_path_is_within_its_bound_on_the_test_rows() {
-    // all 927 training rows: the data pin most directions down
-    let full = train(927, (2, 4));
+    // all 927 training rows, the noise varying with the inputs
+    let full = train(927, (2, 4), NoiseMode::Varying);
+    assert!(full.targets[0].committee.members[0].noise.is_some(), "varying noise");
     assert!(full.targets[0].committee.kriging.is_some(), "process fitted");
     check_against_exact(&full, "927 rows");
-    // 60 rows and 8 hidden units (81 weights): mostly prior
-    let few = train(60, (8, 8));
+    // 60 rows and 8 hidden units (81 weights), constant noise
+    let few = train(60, (8, 8), NoiseMode::Constant);
     check_against_exact(&few, "60 rows");
 }
 
@@ -143,7 +144,7 @@ fn many_scaled(model: &Model) -> Array2<f64> {
 
 #[test]
 fn fast_results_do_not_depend_on_blocks_or_threads() {
-    let model = train(60, (8, 8));
+    let model = train(60, (8, 8), NoiseMode::Constant);
     let x = many_scaled(&model);
     let predictor = model.predictor(false);
     let one_thread = rayon::ThreadPoolBuilder::new()
@@ -175,7 +176,7 @@ fn fast_results_do_not_depend_on_blocks_or_threads() {
 #[test]
 fn predict_command_fast_and_exact() {
     let w = Workdir::new();
-    let model = train(60, (8, 8));
+    let model = train(60, (8, 8), NoiseMode::Constant);
     model.save(&w.path("model.json")).expect("save");
     let test = rows_of(&split("test_0.txt"));
     let names: Vec<String> = test.names()[..test.names().len() - 1].to_vec();

@@ -68,7 +68,9 @@ use super::kriging::{add_noise, kernel};
 use super::{members_predict, Committee, Member, ResidualKriging, ScaledPrediction};
 use crate::evidence::PosteriorFactor;
 use crate::net::{tanh, Architecture};
-use crate::prec::{FAST_BLOCK_ROWS, FAST_CALIBRATION_SHARE, FAST_SD_TOL, KRIGING_JITTER, VAR_FLOOR};
+use crate::prec::{
+    FAST_BLOCK_ROWS, FAST_CALIBRATION_SHARE, FAST_SD_TOL, KRIGING_JITTER, LOG_VAR_LIMIT, VAR_FLOOR,
+};
 
 /// Cuts on the scaled squared distance d² tried for the residual
 /// process, shortest first (exp(−c/2) = 0.018 … 3e-7 of τ²).
@@ -101,6 +103,8 @@ struct LowRank {
 #[derive(Clone, Debug)]
 struct FastMember {
     arch: Architecture,
+    /// The noise network and its factored posterior, under varying noise.
+    noise: Option<(Architecture, PosteriorFactor)>,
     low_rank: Option<LowRank>,
     /// Ranks needed at [`PROFILE_TOLERANCES`].
     profile: Vec<usize>,
@@ -167,6 +171,10 @@ impl Committee {
                 let (low_rank, profile) = low_rank(m, d, cal, cv);
                 FastMember {
                     arch: m.arch(d),
+                    noise: m
+                        .noise
+                        .as_ref()
+                        .map(|nm| (Architecture::new(d, nm.n_hidden), PosteriorFactor::new(&nm.posterior_cov))),
                     low_rank,
                     profile,
                 }
@@ -592,23 +600,25 @@ impl FastCommittee<'_> {
             // the member's noise
             let var = quad + 1.0 / m.beta;
             let y = Array1::from(y);
-            parts.push(if m.noise.is_some() {
-                // the noise network row by row, for block independence
-                let mut tv = var.clone();
-                let mut nv = Array1::zeros(b);
-                for i in 0..b {
-                    let (_, t1, n1) = m.with_noise(
-                        c.n_inputs,
-                        x.slice(s![i..i + 1, ..]),
-                        Array1::from_elem(1, y[i]),
-                        Array1::from_elem(1, var[i]),
-                    );
-                    tv[i] = t1[0];
-                    nv[i] = n1[0];
+            let constant = 1.0 / m.beta;
+            parts.push(match (&m.noise, &fm.noise) {
+                (Some(nm), Some((arch, factor))) => {
+                    // σ²(x)/β with 1/σ²(x) = exp(−(μ_s + v_s/2)), as
+                    // NoiseModel::precision_weights, v_s by the factored
+                    // form and the Jacobian row by row
+                    let (mu, jac) = jacobian_rows(arch, &nm.weights, x);
+                    let v = factor.quadratic_forms(jac.view());
+                    let nv: Array1<f64> = mu
+                        .iter()
+                        .zip(&v)
+                        .map(|(m, v)| {
+                            constant / (-(m + 0.5 * v).clamp(-LOG_VAR_LIMIT, LOG_VAR_LIMIT)).exp()
+                        })
+                        .collect();
+                    let total = var - constant + &nv;
+                    (y, total, nv)
                 }
-                (y, tv, nv)
-            } else {
-                (y, var, Array1::from_elem(b, 1.0 / m.beta))
+                _ => (y, var, Array1::from_elem(b, constant)),
             });
         }
         let mut p = super::committee_of(parts.into_iter(), b);
