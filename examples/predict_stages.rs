@@ -13,9 +13,9 @@ use std::path::Path;
 use std::time::Instant;
 
 use mettle::data::Table;
-use ndarray::Array2;
 use mettle::predict::{EstimateFormat, EstimateWriter};
 use mettle::Model;
+use ndarray::Array2;
 
 fn main() {
     mettle::single_threaded_blas();
@@ -69,10 +69,17 @@ fn main() {
         .iter()
         .map(|(_, s)| model.predict_learnt_scale(s))
         .collect();
-    println!("exact learnt    {:.3} s (members and process, 2 threads)", t.elapsed().as_secs_f64());
+    println!(
+        "exact learnt    {:.3} s (members and process, 2 threads)",
+        t.elapsed().as_secs_f64()
+    );
     let t = Instant::now();
     let predictor = model.predictor(false);
-    println!("fast path built {:.3} s: {:?}", t.elapsed().as_secs_f64(), predictor.stats());
+    println!(
+        "fast path built {:.3} s: {:?}",
+        t.elapsed().as_secs_f64(),
+        predictor.stats()
+    );
     let t = Instant::now();
     let fast: Vec<_> = scaled
         .iter()
@@ -92,7 +99,10 @@ fn main() {
         for (_, s) in &scaled {
             std::hint::black_box(f.predict_scaled(s.view()));
         }
-        println!("fast committee alone {:.3} s (2 threads)", t.elapsed().as_secs_f64());
+        println!(
+            "fast committee alone {:.3} s (2 threads)",
+            t.elapsed().as_secs_f64()
+        );
         if let Some(k) = process {
             let fp = mettle::committee::FastProcessProbe::new(&k, k.x.view()).expect("process");
             for cut in [8.0, 12.0, 16.0, 20.0, 24.0, 30.0] {
@@ -142,7 +152,10 @@ fn main() {
     for ((raw, _), l) in scaled.iter().zip(&learnt) {
         std::hint::black_box(model.domain_guard().check_many_shown(raw.view(), l, &units));
     }
-    println!("domain guard    {:.3} s (2 threads)", t.elapsed().as_secs_f64());
+    println!(
+        "domain guard    {:.3} s (2 threads)",
+        t.elapsed().as_secs_f64()
+    );
     let layout = model
         .estimate_layout(batches.first(), None, false, 6)
         .expect("layout");
@@ -151,7 +164,10 @@ fn main() {
         .iter()
         .map(|b| model.estimate_batch(b, &layout).expect("estimates"))
         .collect();
-    println!("estimate_batch  {:.3} s (all of the above but reading)", t.elapsed().as_secs_f64());
+    println!(
+        "estimate_batch  {:.3} s (all of the above but reading)",
+        t.elapsed().as_secs_f64()
+    );
     let t = Instant::now();
     for b in &batches {
         std::hint::black_box(predictor.estimate_batch(b, &layout).expect("estimates"));

@@ -99,14 +99,24 @@ fn check_against_exact(model: &Model, label: &str) {
             f.committee_sd
         };
         let mean = (f.mean - e.mean).abs() / e.sd;
-        assert!(sd <= FAST_SD_TOL, "{label}, test row {i}: sd {} against {}", f.sd, e.sd);
+        assert!(
+            sd <= FAST_SD_TOL,
+            "{label}, test row {i}: sd {} against {}",
+            f.sd,
+            e.sd
+        );
         assert!(
             csd <= FAST_SD_TOL,
             "{label}, test row {i}: committee sd {} against {}",
             f.committee_sd,
             e.committee_sd
         );
-        assert!(mean <= 0.1 * FAST_SD_TOL, "{label}, test row {i}: mean {} against {}", f.mean, e.mean);
+        assert!(
+            mean <= 0.1 * FAST_SD_TOL,
+            "{label}, test row {i}: mean {} against {}",
+            f.mean,
+            e.mean
+        );
         worst = (worst.0.max(sd), worst.1.max(csd), worst.2.max(mean));
     }
     // the domain verdicts read the committee's sd: the same on these rows
@@ -127,8 +137,14 @@ fn check_against_exact(model: &Model, label: &str) {
 fn fast_path_is_within_its_bound_on_the_test_rows() {
     // all 927 training rows, the noise varying with the inputs
     let full = train(927, (2, 4), NoiseMode::Varying);
-    assert!(full.targets[0].committee.members[0].noise.is_some(), "varying noise");
-    assert!(full.targets[0].committee.kriging.is_some(), "process fitted");
+    assert!(
+        full.targets[0].committee.members[0].noise.is_some(),
+        "varying noise"
+    );
+    assert!(
+        full.targets[0].committee.kriging.is_some(),
+        "process fitted"
+    );
     check_against_exact(&full, "927 rows");
     // 60 rows and 8 hidden units (81 weights), constant noise
     let few = train(60, (8, 8), NoiseMode::Constant);
@@ -164,7 +180,11 @@ fn fast_results_do_not_depend_on_blocks_or_threads() {
         while start < x.nrows() {
             let end = (start + chunk).min(x.nrows());
             let part = x.slice(s![start..end, ..]).to_owned();
-            pieces.extend(two_threads.install(|| predictor.learnt_scale(&part)).remove(0));
+            pieces.extend(
+                two_threads
+                    .install(|| predictor.learnt_scale(&part))
+                    .remove(0),
+            );
             start = end;
         }
         assert_eq!(whole[0], pieces, "rows in pieces of {chunk}");
@@ -180,7 +200,10 @@ fn predict_command_fast_and_exact() {
     model.save(&w.path("model.json")).expect("save");
     let test = rows_of(&split("test_0.txt"));
     let names: Vec<String> = test.names()[..test.names().len() - 1].to_vec();
-    let cols: Vec<Vec<f64>> = names.iter().map(|n| test.numeric(n).expect("numeric")).collect();
+    let cols: Vec<Vec<f64>> = names
+        .iter()
+        .map(|n| test.numeric(n).expect("numeric"))
+        .collect();
     let mut csv = names.join(",") + "\n";
     for i in 0..test.n_rows() {
         let row: Vec<String> = cols.iter().map(|c| format!("{}", c[i])).collect();
@@ -189,8 +212,17 @@ fn predict_command_fast_and_exact() {
     w.write("rows.csv", csv);
     let run = |out: &str, extra: &[&str]| {
         let mut args = vec![
-            "predict", "--model", "model.json", "--input", "rows.csv", "--format", "csv",
-            "--digits", "12", "--out", out,
+            "predict",
+            "--model",
+            "model.json",
+            "--input",
+            "rows.csv",
+            "--format",
+            "csv",
+            "--digits",
+            "12",
+            "--out",
+            out,
         ];
         args.extend_from_slice(extra);
         w.ok(&args);
@@ -212,7 +244,11 @@ fn predict_command_fast_and_exact() {
     let sd_exact = column(&exact, &format!("{TARGET}_sd"));
     assert_eq!(sd_fast.len(), test.n_rows());
     for (i, (f, e)) in sd_fast.iter().zip(&sd_exact).enumerate() {
-        assert!((f / e - 1.0).abs() <= FAST_SD_TOL, "row {}: sd {f} against {e}", i + 1);
+        assert!(
+            (f / e - 1.0).abs() <= FAST_SD_TOL,
+            "row {}: sd {f} against {e}",
+            i + 1
+        );
     }
     let domain = |text: &str| -> Vec<String> {
         text.lines()

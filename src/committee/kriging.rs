@@ -146,7 +146,12 @@ pub(crate) struct KrigingState {
 }
 
 /// Squared-exponential kernel matrix τ²·exp(−½ Σ_j (a_j − b_j)²/ℓ_j²).
-pub(super) fn kernel(a: ArrayView2<f64>, b: ArrayView2<f64>, length: &[f64], signal_var: f64) -> Array2<f64> {
+pub(super) fn kernel(
+    a: ArrayView2<f64>,
+    b: ArrayView2<f64>,
+    length: &[f64],
+    signal_var: f64,
+) -> Array2<f64> {
     let inv = Array1::from_iter(length.iter().map(|l| 1.0 / l));
     let a = &a * &inv;
     let b = &b * &inv;

@@ -46,9 +46,9 @@ mod stage_fixture;
 mod tails;
 mod varying;
 
+pub use fast::{FastCommittee, FastProcessProbe, FastStats, PROFILE_TOLERANCES};
 #[cfg(test)]
 pub(crate) use gross_errors::scipy_reference as gross_errors_reference;
-pub use fast::{FastCommittee, FastProcessProbe, FastStats, PROFILE_TOLERANCES};
 pub use gross_errors::{GrossErrorModel, GrossErrors};
 pub use kriging::{ResidualKriging, KRIGING_MAX_ROWS};
 pub use noise::NoiseModel;

@@ -203,12 +203,27 @@ mod tests {
             })
             .collect();
         values.extend([
-            9.9999996, 99999.95, 0.000099999996, 1e-5, 9.99999e-6, 1e15, 999999999999999.9,
-            70.9633, 0.5, 1.0, 100.0, 123456.0, -0.00001234567,
+            9.9999996,
+            99999.95,
+            0.000099999996,
+            1e-5,
+            9.99999e-6,
+            1e15,
+            999999999999999.9,
+            70.9633,
+            0.5,
+            1.0,
+            100.0,
+            123456.0,
+            -0.00001234567,
         ]);
         for v in values {
             for digits in 1..=15 {
-                assert_eq!(sig(v, digits), sig_by_parsing(v, digits), "{v:e} to {digits} digits");
+                assert_eq!(
+                    sig(v, digits),
+                    sig_by_parsing(v, digits),
+                    "{v:e} to {digits} digits"
+                );
             }
         }
     }

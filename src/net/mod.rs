@@ -6,5 +6,5 @@
 
 mod mlp;
 
-pub use mlp::{Architecture, ParamLayout};
 pub(crate) use mlp::tanh;
+pub use mlp::{Architecture, ParamLayout};

@@ -120,7 +120,9 @@ impl Predictor<'_> {
     ) -> Result<(EstimateBatch, FullPrediction)> {
         self.model.unit_check(table)?;
         let full = self.predict_with_scale(table)?;
-        let batch = self.model.estimate_batch_from(table, layout, full.clone())?;
+        let batch = self
+            .model
+            .estimate_batch_from(table, layout, full.clone())?;
         Ok((batch, full))
     }
 }

@@ -17,8 +17,8 @@ mod unit_hint;
 
 pub use declared_units::UnitDeclaration;
 pub use distribution::PredictiveForm;
-pub use fast::Predictor;
 pub use domain::{range_check, DomainGuard, DomainReport};
+pub use fast::Predictor;
 pub use output::{
     header_cells, json_head, json_row, row_cells, to_column_units, EstimateBatch, EstimateFormat,
     EstimateLayout, EstimateWriter, ExtraCells, TargetColumn, CAUTION,
