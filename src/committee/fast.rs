@@ -393,7 +393,7 @@ impl FastProcess {
             .fold(f64::INFINITY, f64::min)
             + KRIGING_JITTER
             - n as f64 * k.signal_var * 1e-12;
-        if !(floor > 0.0) || !k.signal_var.is_finite() || k.signal_var <= 0.0 {
+        if floor.is_nan() || floor <= 0.0 || !k.signal_var.is_finite() || k.signal_var <= 0.0 {
             return None;
         }
         let kinv_norm = 1.0 / floor;
@@ -663,8 +663,8 @@ impl FastCommittee<'_> {
             }
             (Some(_), None) => redo.extend(0..b),
             (None, _) => {
-                for i in 0..b {
-                    if !self.row_ok(e_c[i], p.committee_var[i], e_c[i], p.var[i], 0.0) {
+                for (i, &e) in e_c.iter().enumerate() {
+                    if !self.row_ok(e, p.committee_var[i], e, p.var[i], 0.0) {
                         redo.push(i);
                     }
                 }

@@ -141,9 +141,8 @@ pub fn push_sig(out: &mut String, v: f64, digits: usize) {
         out.push('-');
     }
     if e >= 0 {
-        for i in 0..int_len {
-            out.push(if i < n { d[i] as char } else { '0' });
-        }
+        out.extend(d[..n.min(int_len)].iter().map(|&b| b as char));
+        out.extend(std::iter::repeat_n('0', int_len.saturating_sub(n)));
         if last > int_len {
             out.push('.');
             out.extend(d[int_len..last].iter().map(|&b| b as char));
