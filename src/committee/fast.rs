@@ -580,6 +580,11 @@ impl FastCommittee<'_> {
     /// way.
     pub fn predict_scaled(&self, x: ArrayView2<f64>) -> (ScaledPrediction, usize) {
         use rayon::prelude::*;
+        if self.committee.kriging.is_some() && self.process.is_none() {
+            // a process the fast path cannot take (no factor, or no
+            // positive floor under its noise): the exact path throughout
+            return (self.committee.predict_scaled(x), x.nrows());
+        }
         let blocks: Vec<(ScaledPrediction, usize)> = x
             .axis_chunks_iter(Axis(0), FAST_BLOCK_ROWS)
             .collect::<Vec<_>>()
@@ -661,6 +666,7 @@ impl FastCommittee<'_> {
                     }
                 }
             }
+            // not reached: predict_scaled takes the exact path then
             (Some(_), None) => redo.extend(0..b),
             (None, _) => {
                 for (i, &e) in e_c.iter().enumerate() {
