@@ -798,6 +798,8 @@ fn a_workbook_upload_gives_the_command_lines_estimates_and_ids() {
         "new heats",
         "--format",
         "json",
+        // the server computes every error bar exactly, as --exact does
+        "--exact",
     ]);
     assert!(ok, "{err}");
     // the same rows as the export CSV: the same estimates
@@ -809,6 +811,7 @@ fn a_workbook_upload_gives_the_command_lines_estimates_and_ids() {
         &export.display().to_string(),
         "--format",
         "json",
+        "--exact",
     ]);
     assert!(ok, "{err}");
     assert_eq!(json(&want), json(&from_csv));
@@ -853,6 +856,7 @@ fn a_workbook_upload_gives_the_command_lines_estimates_and_ids() {
         "new heats",
         "--out",
         &out.display().to_string(),
+        "--exact",
     ]);
     assert!(ok, "{err}");
     let (code, got) = post_bytes(&format!("{url}?sheet=new%20heats&format=xlsx"), XLSX, &book);
