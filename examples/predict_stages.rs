@@ -18,7 +18,6 @@ use mettle::Model;
 use ndarray::Array2;
 
 fn main() {
-    mettle::single_threaded_blas();
     let args: Vec<String> = std::env::args().skip(1).collect();
     let model = Model::load(Path::new(&args[0])).expect("model");
     let input = Path::new(&args[1]);
