@@ -353,3 +353,21 @@ pub const JOINT_MC_SAMPLES: usize = 20_000;
 
 /// Seed of those samples: the same joint probability on every run.
 pub const JOINT_MC_SEED: u64 = 0x006a_6f69_6e74;
+
+/// Largest relative error the fast prediction path allows in a row's sd
+/// (the total and the committee's own, the domain guard's signal): every
+/// row carries a computed bound on its error, and a row whose bound is
+/// above this goes the exact way (committee::fast). The goal was
+/// "within 1 % of the exact sd"; half of that leaves room for the domain
+/// guard's thresholds, which read the committee's sd.
+pub const FAST_SD_TOL: f64 = 0.005;
+
+/// Share of the calibration rows on which a member's low-rank posterior
+/// must meet [`FAST_SD_TOL`] for its rank to be chosen; the rest go the
+/// exact way when met at prediction time.
+pub const FAST_CALIBRATION_SHARE: f64 = 0.99;
+
+/// Rows per block of the fast prediction path, each block one task for a
+/// core: the members' Jacobians (rows × k) and the process's distances
+/// (rows × N) stay within a core's cache.
+pub const FAST_BLOCK_ROWS: usize = 256;

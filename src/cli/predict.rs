@@ -120,10 +120,17 @@ pub struct PredictArgs {
     /// The model's training table, for --neighbours (checked against the model's fingerprint).
     #[arg(long, value_name = "FILE")]
     training_data: Option<PathBuf>,
+    /// Every error bar by the exact Laplace variance and residual process. By default each
+    /// row's sd comes from the members' leading posterior directions and the process's nearby
+    /// rows, with a bound computed per row; a row whose sd could be more than 0.5 % off goes
+    /// the exact way (docs/benchmarks.md, the fast prediction path).
+    #[arg(long)]
+    exact: bool,
 }
 
 pub fn run(a: PredictArgs) -> anyhow::Result<()> {
     let model = super::load_model(&a.model)?;
+    let predictor = model.predictor(a.exact);
     let declared = a.units == UnitChoice::Declared;
     // the input is read, estimated and written a batch at a time, so a
     // file of millions of rows is estimated in bounded memory
@@ -158,13 +165,13 @@ pub fn run(a: PredictArgs) -> anyhow::Result<()> {
             let context = || format!("estimating with model {}", a.model.display());
             match &extras {
                 None => Ok((
-                    model
+                    predictor
                         .estimate_batch(&batch, &layout)
                         .with_context(context)?,
                     None,
                 )),
                 Some(x) => {
-                    let (mut b, full) = model
+                    let (mut b, full) = predictor
                         .estimate_batch_full(&batch, &layout)
                         .with_context(context)?;
                     let extra = x.batch(&batch, &full).with_context(context)?;

@@ -144,7 +144,12 @@ pub(crate) struct KrigingState {
 }
 
 /// Squared-exponential kernel matrix τ²·exp(−½ Σ_j (a_j − b_j)²/ℓ_j²).
-fn kernel(a: ArrayView2<f64>, b: ArrayView2<f64>, length: &[f64], signal_var: f64) -> Array2<f64> {
+pub(super) fn kernel(
+    a: ArrayView2<f64>,
+    b: ArrayView2<f64>,
+    length: &[f64],
+    signal_var: f64,
+) -> Array2<f64> {
     let inv = Array1::from_iter(length.iter().map(|l| 1.0 / l));
     let a = &a * &inv;
     let b = &b * &inv;
@@ -160,7 +165,7 @@ fn kernel(a: ArrayView2<f64>, b: ArrayView2<f64>, length: &[f64], signal_var: f6
 
 /// K_y = kernel + s·diag(σ²) (+ jitter): add the noise to the diagonal of
 /// a square kernel matrix.
-fn add_noise(k: &mut Array2<f64>, factor: f64, noise_var: ArrayView1<f64>) {
+pub(super) fn add_noise(k: &mut Array2<f64>, factor: f64, noise_var: ArrayView1<f64>) {
     for (i, nv) in noise_var.iter().enumerate() {
         k[[i, i]] += factor * nv + KRIGING_JITTER;
     }

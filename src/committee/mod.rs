@@ -29,6 +29,7 @@ mod assemble;
 mod by_size;
 mod candidates;
 mod choice;
+mod fast;
 mod gross_errors;
 mod kriging;
 mod noise;
@@ -45,6 +46,7 @@ mod stage_fixture;
 mod tails;
 mod varying;
 
+pub use fast::{FastCommittee, FastProcessProbe, FastStats, PROFILE_TOLERANCES};
 #[cfg(test)]
 pub(crate) use gross_errors::scipy_reference as gross_errors_reference;
 pub use gross_errors::{GrossErrorModel, GrossErrors};

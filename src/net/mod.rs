@@ -6,4 +6,5 @@
 
 mod mlp;
 
+pub(crate) use mlp::tanh;
 pub use mlp::{Architecture, ParamLayout};

@@ -10,6 +10,7 @@ mod back_transform;
 mod declared_units;
 mod distribution;
 mod domain;
+mod fast;
 mod output;
 mod rows;
 mod unit_hint;
@@ -17,6 +18,7 @@ mod unit_hint;
 pub use declared_units::UnitDeclaration;
 pub use distribution::PredictiveForm;
 pub use domain::{range_check, DomainGuard, DomainReport};
+pub use fast::Predictor;
 pub use output::{
     header_cells, json_head, json_row, row_cells, to_column_units, EstimateBatch, EstimateFormat,
     EstimateLayout, EstimateWriter, ExtraCells, TargetColumn, CAUTION,
@@ -151,6 +153,26 @@ impl Reading {
     }
 }
 
+/// One target's committee prediction on the learnt scale.
+fn learnt_from(
+    t: &crate::model::TargetModel,
+    p: &crate::committee::ScaledPrediction,
+) -> Vec<ScalePrediction> {
+    let w = t.scaling.width();
+    p.mean
+        .iter()
+        .zip(&p.var)
+        .zip(&p.noise_var)
+        .zip(&p.committee_var)
+        .map(|(((m, v), nv), cv)| ScalePrediction {
+            mean: t.scaling.unscale_linear(*m),
+            sd: v.sqrt() * w,
+            noise_sd: nv.sqrt() * w,
+            committee_sd: cv.sqrt() * w,
+        })
+        .collect()
+}
+
 /// The standard-normal quantile of 0.975 (≈ 1.959964), from statrs.
 pub fn z975() -> f64 {
     Normal::standard().inverse_cdf(0.975)
@@ -226,10 +248,20 @@ impl Model {
     /// # Errors
     /// As [`Model::predict`].
     pub fn predict_with_scale(&self, table: &Table) -> Result<FullPrediction> {
+        self.predict_with_scale_by(table, &|scaled| self.predict_learnt_scale(scaled))
+    }
+
+    /// [`Model::predict_with_scale`] with the learnt-scale distributions
+    /// from `learnt_of` (the exact path or [`Predictor`]'s fast one).
+    fn predict_with_scale_by(
+        &self,
+        table: &Table,
+        learnt_of: &dyn Fn(&Array2<f64>) -> Vec<Vec<ScalePrediction>>,
+    ) -> Result<FullPrediction> {
         let (table, declarations) = self.apply_declared_units(table)?;
         let (prepared, warnings) = self.read_through_schema(&table, false)?;
         let (raw, scaled) = self.scaled_inputs(&prepared)?;
-        let learnt = self.predict_learnt_scale(&scaled);
+        let learnt = learnt_of(&scaled);
         let reading = Reading::new(self, &declarations);
         let mut rows = self.rows_from_learnt(&raw, &learnt, &reading);
         for w in warnings {
@@ -263,22 +295,7 @@ impl Model {
     pub fn predict_learnt_scale(&self, scaled: &Array2<f64>) -> Vec<Vec<ScalePrediction>> {
         self.targets
             .iter()
-            .map(|t| {
-                let p = t.committee.predict_scaled(scaled.view());
-                let w = t.scaling.width();
-                p.mean
-                    .iter()
-                    .zip(&p.var)
-                    .zip(&p.noise_var)
-                    .zip(&p.committee_var)
-                    .map(|(((m, v), nv), cv)| ScalePrediction {
-                        mean: t.scaling.unscale_linear(*m),
-                        sd: v.sqrt() * w,
-                        noise_sd: nv.sqrt() * w,
-                        committee_sd: cv.sqrt() * w,
-                    })
-                    .collect()
-            })
+            .map(|t| learnt_from(t, &t.committee.predict_scaled(scaled.view())))
             .collect()
     }
 
@@ -315,6 +332,7 @@ impl Model {
             .collect();
         // the domain check costs one pass over the training rows per row;
         // check_many spreads it over the cores
+        let readings = self.unit_readings();
         let verdicts =
             self.domain_guard()
                 .check_many_shown(raw.view(), learnt, &reading.note_units);
@@ -325,7 +343,7 @@ impl Model {
                 let estimates: Vec<Estimate> = per_target.iter().map(|e| e[i].clone()).collect();
                 let mut notes = dom.notes;
                 notes.extend(
-                    self.unit_hints(raw.row(i), &reading.declared)
+                    self.unit_hints_with(&readings, raw.row(i), &reading.declared)
                         .into_iter()
                         .map(|h| h.note),
                 );

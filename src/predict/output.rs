@@ -150,6 +150,17 @@ impl Model {
         self.batch_from(table, layout, full)
     }
 
+    /// [`Model::estimate_batch`] with a full prediction made elsewhere
+    /// (by [`crate::predict::Predictor`]) from `table`.
+    pub(crate) fn estimate_batch_from(
+        &self,
+        table: &Table,
+        layout: &EstimateLayout,
+        full: FullPrediction,
+    ) -> Result<EstimateBatch> {
+        self.batch_from(table, layout, full)
+    }
+
     /// As [`Model::estimate_batch`], with the full prediction beside it
     /// (the scaled inputs and the learnt-scale distributions, in internal
     /// units) for what a command adds to the estimates.

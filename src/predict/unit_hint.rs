@@ -35,12 +35,31 @@ impl Model {
     /// networks read), skipping the inputs named in `declared` (columns
     /// whose unit the table declared: taken as given).
     pub fn unit_hints(&self, raw: ArrayView1<f64>, declared: &[String]) -> Vec<UnitHint> {
+        self.unit_hints_with(&self.unit_readings(), raw, declared)
+    }
+
+    /// [`Model::reading`] of every input, for [`Model::unit_hints_with`]:
+    /// once per table rather than once per row (the units are parsed from
+    /// the column names).
+    pub(super) fn unit_readings(&self) -> Vec<Option<Reading>> {
+        (0..self.inputs.len()).map(|j| self.reading(j)).collect()
+    }
+
+    /// [`Model::unit_hints`] with the inputs' readings given.
+    pub(super) fn unit_hints_with(
+        &self,
+        readings: &[Option<Reading>],
+        raw: ArrayView1<f64>,
+        declared: &[String],
+    ) -> Vec<UnitHint> {
         let mut hints = Vec::new();
         for (j, (inp, &v)) in self.inputs.iter().zip(raw.iter()).enumerate() {
             if declared.contains(&inp.name) {
                 continue;
             }
-            let Some(r) = self.reading(j) else { continue };
+            let Some(r) = readings.get(j).copied().flatten() else {
+                continue;
+            };
             if r.inside(v) || !v.is_finite() {
                 continue;
             }
@@ -166,7 +185,8 @@ impl Model {
 }
 
 /// How one input's values relate to the file's numbers.
-struct Reading {
+#[derive(Clone, Copy, Debug)]
+pub(super) struct Reading {
     /// The unit of the file's column.
     unit: Unit,
     /// Values are internal (a model with a schema) rather than in `unit`.

@@ -1,0 +1,844 @@
+//! A fast prediction path for a committee: the members' Laplace variance
+//! from the leading eigenvectors of their posterior covariance, the
+//! residual process from the training rows near the query, each row with a
+//! computed bound on its error, and the exact path for any row whose bound
+//! is not small enough.
+//!
+//! # Members: a low-rank posterior with a certified remainder
+//!
+//! With Σ = A⁻¹ = Σᵢ λᵢ uᵢuᵢᵀ (λ₁ ≥ … ≥ λ_k, the eigen-decomposition of
+//! the symmetric posterior covariance; Golub & Van Loan 2013, *Matrix
+//! Computations*, 4th ed., §8.1) and pᵢ = uᵢᵀg for a row's Jacobian g,
+//!
+//! ```text
+//! gᵀΣg = Σ_{i≤r} λᵢ pᵢ² + Σ_{i>r} λᵢ pᵢ²,        t = Σ_{i>r} pᵢ² = ‖g‖² − Σ_{i≤r} pᵢ²
+//! λ_k·t ≤ Σ_{i>r} λᵢ pᵢ² ≤ λ_{r+1}·t
+//! ```
+//!
+//! (the eigenvectors are orthonormal, so ‖g‖² = Σᵢ pᵢ²). The estimate takes
+//! the remainder at the middle of its interval, (λ_{r+1} + λ_k)/2 · t, and
+//! its error is at most (λ_{r+1} − λ_k)/2 · t plus the rounding of t (a
+//! difference of sums: 2(k + r)·ε·‖g‖², ε the machine epsilon; Higham
+//! 2002, *Accuracy and Stability of Numerical Algorithms*, §3.1). One
+//! product J·U_r (rows × k times k × r) replaces the exact path's k²/2
+//! multiply-adds per row by k·r.
+//!
+//! The rank r of each member is chosen when the fast path is built, on
+//! calibration rows (the model's own scaled training rows when it stores
+//! them): the smallest r at which the bound is at most [`FAST_SD_TOL`] of
+//! the committee's model variance on 99 % of those rows.
+//!
+//! # Residual process: the rows near the query
+//!
+//! The squared-exponential kernel k(x*, xₙ) = τ²·exp(−½ d²ₙ) (d the
+//! distance in length scales) is left out beyond d² > c. With S the rows
+//! inside, D those beyond, B = K_y⁻¹ and α = B·r, and the rows of D
+//! counted in bands c·m ≤ d² (m = 1, 1.5, 2, 3, 4, 6, 8), each with
+//! kₙ ≤ κ_m = τ²·exp(−c·m/2):
+//!
+//! ```text
+//! |mean error|     = |Σ_D kₙαₙ|                 ≤ Σ_m κ_m Σ_{D_m} |αₙ|
+//! |variance error| = |2 k_Sᵀ B k_D + k_Dᵀ B k_D|  ≤ ‖B‖₂ (2‖k_S‖‖k_D‖ + ‖k_D‖²),   ‖k_D‖² ≤ Σ_m κ_m² |D_m|
+//! ‖B‖₂ = 1/λ_min(K_y) ≤ 1/(min_n s·σ²ₙ + jitter − N·τ²·1e-12)
+//! ```
+//!
+//! (Cauchy–Schwarz; the kernel matrix is positive semi-definite, so by
+//! Weyl's inequality the smallest eigenvalue of K_y is at least the
+//! smallest entry of its diagonal noise, less a rounding allowance). The
+//! cut c is the shortest of a ladder (8 … 30) at which, on 99 % of the
+//! calibration rows, the variance bound is at most half of
+//! [`FAST_SD_TOL`] of the smallest noise variance and the mean's a
+//! twentieth of it of that sd. The rows near a query are found by one
+//! product of the scaled queries with the scaled training rows (the
+//! screen of [`crate::domain`]), their distances then summed one by one;
+//! kᵀBk over S uses B's symmetry.
+//!
+//! # Each row checked
+//!
+//! Per row, E is the bound on the committee's variance error (the mean of
+//! its members' bounds) and E_p the process's: the row is kept when
+//! E ≤ tol·(committee variance − E), E + E_p ≤ tol·(total variance − E −
+//! E_p) and the mean's bound is at most tol/10 of the sd, with tol =
+//! [`FAST_SD_TOL`]. Since |√a/√b − 1| = |a − b|/(√b(√a + √b)) ≤ |a − b|/b,
+//! both sds (the total and the committee's own, the domain guard's signal)
+//! then lie within tol of the exact ones. Any other row is computed by the
+//! exact path, one row at a time, so that no result depends on how rows
+//! are grouped into blocks or spread over threads (each row's Jacobian is
+//! filled in a fixed order and every product is computed element by
+//! element the same way whatever the number of rows).
+//!
+//! # What it saves, and what not
+//!
+//! A posterior that the data pin down in most directions (MacKay's γ
+//! close to the number of weights k, as on the concrete data) has no low
+//! rank within the bound: such a member keeps the exact triangular form
+//! ([`PosteriorFactor`]), and the committee's part costs what the exact
+//! path's does. The measured figures are in docs/benchmarks.md.
+
+use ndarray::{s, Array1, Array2, ArrayView2, Axis};
+
+use super::kriging::{add_noise, kernel};
+use super::{members_predict, Committee, Member, ResidualKriging, ScaledPrediction};
+use crate::evidence::PosteriorFactor;
+use crate::linalg::{multiply_into, symmetric_eigen, Cholesky};
+use crate::net::{tanh, Architecture};
+use crate::prec::{
+    FAST_BLOCK_ROWS, FAST_CALIBRATION_SHARE, FAST_SD_TOL, KRIGING_JITTER, LOG_VAR_LIMIT, VAR_FLOOR,
+};
+
+/// Cuts on the scaled squared distance d² tried for the residual
+/// process, shortest first (exp(−c/2) = 0.018 … 3e-7 of τ²).
+const PROCESS_CUTS: [f64; 8] = [8.0, 10.0, 12.0, 14.0, 16.0, 20.0, 24.0, 30.0];
+
+/// Bands of the dropped rows, as multiples of the cut: a row whose d²
+/// is at least m·cut has a kernel value of at most τ²·exp(−m·cut/2).
+const DROP_BANDS: [f64; 7] = [1.0, 1.5, 2.0, 3.0, 4.0, 6.0, 8.0];
+
+/// Calibration rows drawn in the scaled box when the model stores no
+/// training rows.
+const BOX_ROWS: usize = 512;
+
+/// A member's posterior covariance as its r leading eigenpairs.
+#[derive(Clone, Debug)]
+struct LowRank {
+    /// U_r (k × r), column i the eigenvector of the i-th largest λ.
+    vectors: Array2<f64>,
+    /// λ₁ … λ_r.
+    values: Vec<f64>,
+    /// (λ_{r+1} + λ_k)/2: the remainder's factor.
+    tail_mid: f64,
+    /// (λ_{r+1} − λ_k)/2: its bound's factor.
+    tail_half: f64,
+    /// λ_{r+1} (for the rounding allowance).
+    tail_top: f64,
+}
+
+/// One member ready for the fast path.
+#[derive(Clone, Debug)]
+struct FastMember {
+    arch: Architecture,
+    /// The noise network and its factored posterior, under varying noise.
+    noise: Option<(Architecture, PosteriorFactor)>,
+    low_rank: Option<LowRank>,
+    /// Ranks needed at [`PROFILE_TOLERANCES`].
+    profile: Vec<usize>,
+}
+
+/// The residual process ready for the fast path.
+#[derive(Clone, Debug)]
+struct FastProcess {
+    /// Training rows divided by the length scales (N × d).
+    xl: Array2<f64>,
+    /// ‖xₙ/ℓ‖².
+    xl_norm: Vec<f64>,
+    inv_len: Vec<f64>,
+    alpha: Vec<f64>,
+    /// K_y⁻¹ (N × N).
+    kinv: Array2<f64>,
+    /// Upper bound on ‖K_y⁻¹‖₂.
+    kinv_norm: f64,
+    signal_var: f64,
+    /// Rows with d² > cut are left out.
+    cut: f64,
+}
+
+/// A committee prepared for fast prediction ([`Committee::fast`]).
+#[derive(Debug)]
+pub struct FastCommittee<'a> {
+    committee: &'a Committee,
+    members: Vec<FastMember>,
+    /// The exact path's factors, for the rows it computes.
+    exact: Vec<PosteriorFactor>,
+    process: Option<FastProcess>,
+}
+
+/// Ranks chosen and how the rows went, for reports and tests.
+#[derive(Clone, Debug, Default, PartialEq)]
+pub struct FastStats {
+    /// Rank r of each member's posterior (None: always exact).
+    pub ranks: Vec<Option<usize>>,
+    /// Parameters k of each member.
+    pub params: Vec<usize>,
+    /// The process's cut on d² (None: no process, or always exact).
+    pub process_cut: Option<f64>,
+    /// Per member, the rank it would need at each of
+    /// [`PROFILE_TOLERANCES`] times the tolerance.
+    pub rank_profile: Vec<Vec<usize>>,
+}
+
+impl Committee {
+    /// This committee prepared for the fast path, its ranks and cut chosen
+    /// on `calibration` (scaled rows; the training rows serve best).
+    pub fn fast(&self, calibration: ArrayView2<f64>) -> FastCommittee<'_> {
+        let d = self.n_inputs;
+        let box_rows =
+            (calibration.nrows() == 0 || calibration.ncols() != d).then(|| box_sample(d));
+        let cal = match &box_rows {
+            Some(b) => b.view(),
+            None => calibration.reborrow(),
+        };
+        let cv = members_predict(&self.members, d, cal).committee_var;
+        let cv = cv.as_slice().expect("a fresh array");
+        // the members' eigen-decompositions (Jacobi: 0.1–0.5 s each at
+        // k = 131–201) spread over the threads, beside the process's
+        // factorisation; each is computed alone, so the threads change no
+        // result
+        use rayon::prelude::*;
+        let build_members = || {
+            self.members
+                .par_iter()
+                .map(|m| {
+                    let (low_rank, profile) = low_rank(m, d, cal, cv);
+                    FastMember {
+                        arch: m.arch(d),
+                        noise: m.noise.as_ref().map(|nm| {
+                            (
+                                Architecture::new(d, nm.n_hidden),
+                                PosteriorFactor::new(&nm.posterior_cov),
+                            )
+                        }),
+                        low_rank,
+                        profile,
+                    }
+                })
+                .collect()
+        };
+        let (members, process) = rayon::join(build_members, || {
+            self.kriging.as_ref().and_then(|k| FastProcess::new(k, cal))
+        });
+        FastCommittee {
+            committee: self,
+            members,
+            exact: self.members.iter().map(Member::posterior_factor).collect(),
+            process,
+        }
+    }
+}
+
+/// A seeded uniform sample of the scaled box [−0.5, 0.5]^d.
+fn box_sample(d: usize) -> Array2<f64> {
+    use rand::{Rng, SeedableRng};
+    let mut rng = rand_xoshiro::Xoshiro256PlusPlus::seed_from_u64(0x5eed_fa57);
+    Array2::from_shape_fn((BOX_ROWS, d), |_| rng.random_range(-0.5..0.5))
+}
+
+/// Network outputs and Jacobian rows for `x`, one row at a time in a fixed
+/// order (so a row's result does not depend on its block): row n of `jac`
+/// is [D_n1·xₙ, …, D_nH·xₙ, D_n, a_n, 1] with D_nj = v_j(1 − a_nj²)
+/// (the layout of [`Architecture`]).
+fn jacobian_rows(arch: &Architecture, w: &[f64], x: ArrayView2<f64>) -> (Vec<f64>, Array2<f64>) {
+    let (d, h) = (arch.n_inputs, arch.n_hidden);
+    let k = arch.n_params();
+    let lay = arch.layout();
+    let mut y = vec![0.0; x.nrows()];
+    let mut jac = Array2::zeros((x.nrows(), k));
+    let mut a = vec![0.0; h];
+    for ((mut row, xn), yn) in jac.rows_mut().into_iter().zip(x.rows()).zip(&mut y) {
+        let row = row.as_slice_mut().expect("fresh rows are contiguous");
+        if h == 0 {
+            let mut s = w[lay.output_bias];
+            for i in 0..d {
+                s += w[i] * xn[i];
+                row[i] = xn[i];
+            }
+            row[lay.output_bias] = 1.0;
+            *yn = s;
+            continue;
+        }
+        let mut out = w[lay.output_bias];
+        for j in 0..h {
+            let mut s = w[lay.hidden_bias + j];
+            for i in 0..d {
+                s += w[j * d + i] * xn[i];
+            }
+            a[j] = tanh(s);
+            out += w[lay.output_weights + j] * a[j];
+        }
+        for j in 0..h {
+            let dj = w[lay.output_weights + j] * (1.0 - a[j] * a[j]);
+            for i in 0..d {
+                row[j * d + i] = dj * xn[i];
+            }
+            row[lay.hidden_bias + j] = dj;
+            row[lay.output_weights + j] = a[j];
+        }
+        row[lay.output_bias] = 1.0;
+        *yn = out;
+    }
+    (y, jac)
+}
+
+/// Tolerances, as multiples of [`FAST_SD_TOL`], at which
+/// [`FastStats::rank_profile`] reports the rank each member would need.
+pub const PROFILE_TOLERANCES: [f64; 4] = [1.0, 4.0, 20.0, 100.0];
+
+/// The member's posterior as its leading eigenpairs, the rank chosen on
+/// the calibration rows (`committee_var`: the committee's exact model
+/// variance at each), with the ranks that [`PROFILE_TOLERANCES`] would
+/// need; None when the eigen-decomposition fails or no rank below k/2
+/// meets the bound (the member then goes the exact way).
+fn low_rank(
+    m: &Member,
+    d: usize,
+    calibration: ArrayView2<f64>,
+    committee_var: &[f64],
+) -> (Option<LowRank>, Vec<usize>) {
+    let arch = m.arch(d);
+    let (_, jac) = jacobian_rows(&arch, &m.weights, calibration);
+    low_rank_of(&m.posterior_cov, jac.view(), committee_var)
+}
+
+/// [`low_rank`] from the covariance `cov` and the calibration rows'
+/// Jacobian `jac`.
+fn low_rank_of(
+    cov: &Array2<f64>,
+    jac: ArrayView2<f64>,
+    committee_var: &[f64],
+) -> (Option<LowRank>, Vec<usize>) {
+    let k = cov.nrows();
+    let Some((values, vectors)) = symmetric_eigen(cov.view()) else {
+        return (None, Vec::new());
+    };
+    if values.iter().any(|v| !v.is_finite()) {
+        return (None, Vec::new());
+    }
+    // descending
+    let order: Vec<usize> = (0..k).rev().collect();
+    let lambda: Vec<f64> = order.iter().map(|&i| values[i]).collect();
+    let u = vectors.select(Axis(1), &order);
+    let lambda_min = lambda[k - 1].max(0.0);
+    let mut p = Array2::zeros((jac.nrows(), k));
+    multiply_into(jac, u.view(), p.view_mut());
+    // per tolerance and rank: rows where the bound is within tolerance
+    let n = p.nrows();
+    let mut ok_at = vec![vec![0usize; k + 1]; PROFILE_TOLERANCES.len()];
+    let mut tail = vec![0.0; k + 1];
+    for (row, cv) in p.rows().into_iter().zip(committee_var) {
+        for i in (0..k).rev() {
+            tail[i] = tail[i + 1] + row[i] * row[i];
+        }
+        for r in 0..=k {
+            let top = if r < k {
+                lambda[r].max(0.0)
+            } else {
+                lambda_min
+            };
+            let bound = (top - lambda_min) / 2.0 * tail[r];
+            for (t, ok) in PROFILE_TOLERANCES.iter().zip(&mut ok_at) {
+                if bound <= t * FAST_SD_TOL * cv {
+                    ok[r] += 1;
+                }
+            }
+        }
+    }
+    let need = (FAST_CALIBRATION_SHARE * n as f64).ceil() as usize;
+    let profile: Vec<usize> = ok_at
+        .iter()
+        .map(|ok| (0..=k).find(|&r| ok[r] >= need).unwrap_or(k))
+        .collect();
+    let r = profile[0];
+    // a rank of k/2 or more saves nothing over the triangular exact form
+    if 2 * r >= k {
+        return (None, profile);
+    }
+    let top = lambda[r].max(0.0);
+    let lr = LowRank {
+        vectors: u.slice(s![.., ..r]).to_owned(),
+        values: lambda[..r].to_vec(),
+        tail_mid: (top + lambda_min) / 2.0,
+        tail_half: (top - lambda_min) / 2.0,
+        tail_top: top,
+    };
+    (Some(lr), profile)
+}
+
+impl LowRank {
+    /// gᵀΣg estimated for every row g of `jac`, each row's error bound
+    /// added to `bound`.
+    fn quadratic_forms(&self, jac: ArrayView2<f64>, bound: &mut [f64]) -> Array1<f64> {
+        let (b, k) = jac.dim();
+        let r = self.values.len();
+        let mut p = Array2::zeros((b, r));
+        multiply_into(jac, self.vectors.view(), p.view_mut());
+        let k = k as f64;
+        let mut quad = Array1::zeros(b);
+        for (i, (g, pr)) in jac.rows().into_iter().zip(p.rows()).enumerate() {
+            let g2: f64 = g.iter().map(|v| v * v).sum();
+            let mut s2 = 0.0;
+            let mut qr = 0.0;
+            for (pi, li) in pr.iter().zip(&self.values) {
+                s2 += pi * pi;
+                qr += li * pi * pi;
+            }
+            let t = (g2 - s2).max(0.0);
+            quad[i] = qr + self.tail_mid * t;
+            bound[i] += self.tail_half * t
+                + self.tail_top * 2.0 * (k + r as f64) * f64::EPSILON * g2
+                + 4.0 * k * f64::EPSILON * qr;
+        }
+        quad
+    }
+}
+
+impl FastProcess {
+    fn new(k: &ResidualKriging, calibration: ArrayView2<f64>) -> Option<FastProcess> {
+        let n = k.x.nrows();
+        if n == 0 || k.residual.len() != n || k.noise_var.len() != n {
+            return None;
+        }
+        let mut ky = kernel(k.x.view(), k.x.view(), &k.length_scales, k.signal_var);
+        add_noise(
+            &mut ky,
+            k.noise_factor,
+            ndarray::ArrayView1::from(&k.noise_var[..]),
+        );
+        let f = Cholesky::new(ky.view())?;
+        let alpha = f.solve(ndarray::ArrayView1::from(&k.residual[..]));
+        let kinv = f.inverse();
+        let floor = k
+            .noise_var
+            .iter()
+            .map(|v| k.noise_factor * v)
+            .fold(f64::INFINITY, f64::min)
+            + KRIGING_JITTER
+            - n as f64 * k.signal_var * 1e-12;
+        if floor.is_nan() || floor <= 0.0 || !k.signal_var.is_finite() || k.signal_var <= 0.0 {
+            return None;
+        }
+        let kinv_norm = 1.0 / floor;
+        // worst case, every row in D with ‖k_S‖ ≤ √N τ²: the variance
+        // error ≤ ‖B‖(2Nτ²κ + Nκ²) ≈ 3Nτ²κ‖B‖, held to a tenth of tol of
+        // the smallest noise variance
+        let tau2 = k.signal_var;
+        let kappa = 0.1 * FAST_SD_TOL * floor / (3.0 * n as f64 * tau2 * kinv_norm);
+        let safe_cut = (2.0 * (tau2 / kappa.min(tau2)).ln()).clamp(8.0, 200.0);
+        let inv_len: Vec<f64> = k.length_scales.iter().map(|l| 1.0 / l).collect();
+        let mut xl = k.x.to_owned();
+        for mut row in xl.rows_mut() {
+            for (v, il) in row.iter_mut().zip(&inv_len) {
+                *v *= il;
+            }
+        }
+        let xl_norm = xl.rows().into_iter().map(|r| r.dot(&r)).collect();
+        let mut fp = FastProcess {
+            xl,
+            xl_norm,
+            inv_len,
+            alpha: alpha.to_vec(),
+            kinv,
+            kinv_norm,
+            signal_var: tau2,
+            cut: safe_cut,
+        };
+        // a shorter cut where the rows' own bounds allow it: the smallest
+        // of the ladder whose bound is a tenth of tol of the smallest
+        // noise variance on 99 % of the calibration rows
+        let need = (FAST_CALIBRATION_SHARE * calibration.nrows() as f64).ceil() as usize;
+        for cut in PROCESS_CUTS.iter().copied().filter(|&c| c < safe_cut) {
+            fp.cut = cut;
+            let ok = calibration
+                .axis_chunks_iter(Axis(0), FAST_BLOCK_ROWS)
+                .flat_map(|b| fp.predict(b))
+                .filter(|r| {
+                    r.3 <= 0.5 * FAST_SD_TOL * floor && r.2 <= 0.05 * FAST_SD_TOL * floor.sqrt()
+                })
+                .count();
+            if ok >= need && calibration.nrows() > 0 {
+                return Some(fp);
+            }
+        }
+        fp.cut = safe_cut;
+        Some(fp)
+    }
+
+    /// Mean, variance and the bounds on their errors for each row of `x`.
+    fn predict(&self, x: ArrayView2<f64>) -> Vec<(f64, f64, f64, f64, usize)> {
+        let (b, d) = x.dim();
+        let n = self.xl.nrows();
+        let mut q = Array2::zeros((b, d));
+        for (mut qr, xr) in q.rows_mut().into_iter().zip(x.rows()) {
+            for j in 0..d {
+                qr[j] = xr[j] * self.inv_len[j];
+            }
+        }
+        let mut g = Array2::zeros((b, n));
+        multiply_into(q.view(), self.xl.t(), g.view_mut());
+        let tau2 = self.signal_var;
+        let bands: Vec<(f64, f64)> = DROP_BANDS
+            .iter()
+            .map(|m| (m * self.cut, tau2 * (-0.5 * m * self.cut).exp()))
+            .collect();
+        let mut active: Vec<(usize, f64)> = Vec::new();
+        let mut alpha_in = vec![0.0; bands.len()];
+        let mut count_in = vec![0usize; bands.len()];
+        q.rows()
+            .into_iter()
+            .zip(g.rows())
+            .map(|(qr, gr)| {
+                let qn = qr.dot(&qr);
+                active.clear();
+                alpha_in.iter_mut().for_each(|v| *v = 0.0);
+                count_in.iter_mut().for_each(|v| *v = 0);
+                for (i, (&gv, &xn)) in gr.iter().zip(&self.xl_norm).enumerate() {
+                    // the product's rounding: well inside this margin
+                    let margin = 1e-9 * (1.0 + qn + xn);
+                    let screen = qn + xn - 2.0 * gv;
+                    if screen <= self.cut + margin {
+                        let xr = self.xl.row(i);
+                        let mut d2 = 0.0;
+                        for j in 0..d {
+                            let e = qr[j] - xr[j];
+                            d2 += e * e;
+                        }
+                        if d2 <= self.cut {
+                            active.push((i, tau2 * (-0.5 * d2).exp()));
+                            continue;
+                        }
+                    }
+                    // dropped: in the farthest band its distance reaches
+                    let lower = screen - margin;
+                    let b = bands.iter().rposition(|(c, _)| *c <= lower).unwrap_or(0);
+                    alpha_in[b] += self.alpha[i].abs();
+                    count_in[b] += 1;
+                }
+                let mut mean = 0.0;
+                let mut ks2 = 0.0;
+                let mut quad = 0.0;
+                // kᵀBk over S: the diagonal and twice the lower triangle
+                for (j, &(a, ka)) in active.iter().enumerate() {
+                    mean += ka * self.alpha[a];
+                    ks2 += ka * ka;
+                    let row = self.kinv.row(a);
+                    let mut s = 0.0;
+                    for &(c, kc) in &active[..j] {
+                        s += row[c] * kc;
+                    }
+                    quad += ka * (2.0 * s + row[a] * ka);
+                }
+                // |Σ_D kₙαₙ| ≤ Σ_bands κ_b Σ|αₙ|, ‖k_D‖² ≤ Σ_bands κ_b² count_b
+                let mut mean_err = 0.0;
+                let mut kd2 = 0.0;
+                for ((&(_, kb), a), &c) in bands.iter().zip(&alpha_in).zip(&count_in) {
+                    mean_err += kb * a;
+                    kd2 += kb * kb * c as f64;
+                }
+                let kd = kd2.sqrt() * (1.0 + 1e-12);
+                let var_err = self.kinv_norm * (2.0 * ks2.sqrt() * kd + kd * kd)
+                    + 4.0 * n as f64 * f64::EPSILON * self.kinv_norm * ks2.max(tau2 * tau2);
+                let mean_err = mean_err * (1.0 + 1e-12);
+                let var = (tau2 - quad).max(VAR_FLOOR);
+                (mean, var, mean_err, var_err, active.len())
+            })
+            .collect()
+    }
+}
+
+/// The residual process's fast path on its own, for measuring it.
+#[derive(Debug)]
+pub struct FastProcessProbe(FastProcess);
+
+impl FastProcessProbe {
+    /// The fast path of `k`; None when it cannot be built.
+    pub fn new(k: &ResidualKriging, calibration: ArrayView2<f64>) -> Option<Self> {
+        FastProcess::new(k, calibration).map(FastProcessProbe)
+    }
+
+    /// The cut chosen.
+    pub fn cut(&self) -> f64 {
+        self.0.cut
+    }
+
+    /// Per row of `x` at cut `cut`: the bounds on the mean's and the
+    /// variance's error.
+    pub fn bounds_at(&self, cut: f64, x: ArrayView2<f64>) -> Vec<(f64, f64)> {
+        let mut p = self.0.clone();
+        p.cut = cut;
+        x.axis_chunks_iter(Axis(0), FAST_BLOCK_ROWS)
+            .flat_map(|b| p.predict(b).into_iter().map(|r| (r.2, r.3)))
+            .collect()
+    }
+
+    /// Per row of `x`: how many training rows lie within the cut (the
+    /// process's work is this number squared), after the whole
+    /// prediction of the row.
+    pub fn active_sizes(&self, x: ArrayView2<f64>) -> Vec<usize> {
+        x.axis_chunks_iter(Axis(0), FAST_BLOCK_ROWS)
+            .flat_map(|b| self.0.predict(b).into_iter().map(|r| r.4))
+            .collect()
+    }
+}
+
+impl FastCommittee<'_> {
+    /// Ranks and cut, for reports and tests.
+    pub fn stats(&self) -> FastStats {
+        FastStats {
+            ranks: self
+                .members
+                .iter()
+                .map(|m| m.low_rank.as_ref().map(|l| l.values.len()))
+                .collect(),
+            params: self.members.iter().map(|m| m.arch.n_params()).collect(),
+            process_cut: self.process.as_ref().map(|p| p.cut),
+            rank_profile: self.members.iter().map(|m| m.profile.clone()).collect(),
+        }
+    }
+
+    /// As [`Committee::predict_scaled`], by the fast path: blocks of
+    /// [`FAST_BLOCK_ROWS`] rows over the available cores, each row's result
+    /// independent of its block. Also returns how many rows went the exact
+    /// way.
+    pub fn predict_scaled(&self, x: ArrayView2<f64>) -> (ScaledPrediction, usize) {
+        use rayon::prelude::*;
+        if self.committee.kriging.is_some() && self.process.is_none() {
+            // a process the fast path cannot take (no factor, or no
+            // positive floor under its noise): the exact path throughout
+            return (self.committee.predict_scaled(x), x.nrows());
+        }
+        let blocks: Vec<(ScaledPrediction, usize)> = x
+            .axis_chunks_iter(Axis(0), FAST_BLOCK_ROWS)
+            .collect::<Vec<_>>()
+            .into_par_iter()
+            .map(|block| self.predict_block(block))
+            .collect();
+        let cat = |f: fn(&ScaledPrediction) -> &Array1<f64>| {
+            Array1::from_iter(blocks.iter().flat_map(|(b, _)| f(b).iter().copied()))
+        };
+        (
+            ScaledPrediction {
+                mean: cat(|b| &b.mean),
+                var: cat(|b| &b.var),
+                noise_var: cat(|b| &b.noise_var),
+                committee_var: cat(|b| &b.committee_var),
+            },
+            blocks.iter().map(|(_, e)| e).sum(),
+        )
+    }
+
+    /// One block: every member's mean, variance estimate and bound, the
+    /// committee and the process; rows failing their check recomputed
+    /// exactly one at a time.
+    fn predict_block(&self, x: ArrayView2<f64>) -> (ScaledPrediction, usize) {
+        let b = x.nrows();
+        let c = self.committee;
+        let n_members = c.members.len();
+        if n_members == 0 {
+            return self.exact_rows(x, (0..b).collect());
+        }
+        let mut parts = Vec::with_capacity(n_members);
+        let mut bound = vec![0.0; b];
+        for ((m, fm), exact) in c.members.iter().zip(&self.members).zip(&self.exact) {
+            let (y, jac) = jacobian_rows(&fm.arch, &m.weights, x);
+            let quad = match &fm.low_rank {
+                Some(lr) => lr.quadratic_forms(jac.view(), &mut bound),
+                // no rank worth taking: the exact form (its panels are
+                // computed row by row inside the product)
+                None => exact.quadratic_forms(jac.view()),
+            };
+            // as the exact path: the network's variance 1/β + gᵀΣg, then
+            // the member's noise
+            let var = quad + 1.0 / m.beta;
+            let y = Array1::from(y);
+            let constant = 1.0 / m.beta;
+            parts.push(match (&m.noise, &fm.noise) {
+                (Some(nm), Some((arch, factor))) => {
+                    // σ²(x)/β with 1/σ²(x) = exp(−(μ_s + v_s/2)), as
+                    // NoiseModel::precision_weights, v_s by the factored
+                    // form and the Jacobian row by row
+                    let (mu, jac) = jacobian_rows(arch, &nm.weights, x);
+                    let v = factor.quadratic_forms(jac.view());
+                    let nv: Array1<f64> = mu
+                        .iter()
+                        .zip(&v)
+                        .map(|(m, v)| {
+                            constant / (-(m + 0.5 * v).clamp(-LOG_VAR_LIMIT, LOG_VAR_LIMIT)).exp()
+                        })
+                        .collect();
+                    let total = var - constant + &nv;
+                    (y, total, nv)
+                }
+                _ => (y, var, Array1::from_elem(b, constant)),
+            });
+        }
+        let mut p = super::committee_of(parts.into_iter(), b);
+        let e_c: Vec<f64> = bound.iter().map(|v| v / n_members as f64).collect();
+        let mut redo: Vec<usize> = Vec::new();
+        match (&c.kriging, &self.process) {
+            (Some(k), Some(fp)) => {
+                let factor = k.noise_factor;
+                for (i, (gm, gv, em, ev, _)) in fp.predict(x).into_iter().enumerate() {
+                    p.mean[i] += gm;
+                    p.var[i] = p.var[i] + p.noise_var[i] * (factor - 1.0) + gv;
+                    p.noise_var[i] *= factor;
+                    let total_err = e_c[i] + ev;
+                    if !self.row_ok(e_c[i], p.committee_var[i], total_err, p.var[i], em) {
+                        redo.push(i);
+                    }
+                }
+            }
+            // not reached: predict_scaled takes the exact path then
+            (Some(_), None) => redo.extend(0..b),
+            (None, _) => {
+                for (i, &e) in e_c.iter().enumerate() {
+                    if !self.row_ok(e, p.committee_var[i], e, p.var[i], 0.0) {
+                        redo.push(i);
+                    }
+                }
+            }
+        }
+        if redo.is_empty() {
+            return (p, 0);
+        }
+        let (exact, n) = self.exact_rows(x, redo.clone());
+        for (j, &i) in redo.iter().enumerate() {
+            p.mean[i] = exact.mean[j];
+            p.var[i] = exact.var[j];
+            p.noise_var[i] = exact.noise_var[j];
+            p.committee_var[i] = exact.committee_var[j];
+        }
+        (p, n)
+    }
+
+    /// The check of the module's documentation.
+    fn row_ok(&self, e_c: f64, committee_var: f64, e_total: f64, var: f64, e_mean: f64) -> bool {
+        let tol = FAST_SD_TOL;
+        e_c <= tol * (committee_var - e_c)
+            && e_total <= tol * (var - e_total)
+            && e_mean <= 0.1 * tol * (var - e_total).max(0.0).sqrt()
+    }
+
+    /// Rows `rows` of `x` by the exact path, one at a time, in order.
+    fn exact_rows(&self, x: ArrayView2<f64>, rows: Vec<usize>) -> (ScaledPrediction, usize) {
+        let c = self.committee;
+        let n = rows.len();
+        let mut out = ScaledPrediction {
+            mean: Array1::zeros(n),
+            var: Array1::zeros(n),
+            noise_var: Array1::zeros(n),
+            committee_var: Array1::zeros(n),
+        };
+        for (j, &i) in rows.iter().enumerate() {
+            let p = c.predict_block(&self.exact, x.slice(s![i..i + 1, ..]));
+            out.mean[j] = p.mean[0];
+            out.var[j] = p.var[0];
+            out.noise_var[j] = p.noise_var[0];
+            out.committee_var[j] = p.committee_var[0];
+        }
+        (out, n)
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use rand::SeedableRng;
+    use rand_distr::{Distribution, Normal};
+    use rand_xoshiro::Xoshiro256PlusPlus;
+
+    /// The columns of `g` made orthonormal by modified Gram–Schmidt, each
+    /// column orthogonalised twice against the ones before it (Golub & Van
+    /// Loan 2013, Alg. 5.2.6; the second pass restores orthogonality to
+    /// rounding, Giraud et al. 2005, Numer. Math. 101:87–100).
+    fn orthonormal(mut g: Array2<f64>) -> Array2<f64> {
+        let k = g.ncols();
+        for j in 0..k {
+            for _ in 0..2 {
+                for i in 0..j {
+                    let qi = g.column(i).to_owned();
+                    let r = qi.dot(&g.column(j));
+                    g.column_mut(j).scaled_add(-r, &qi);
+                }
+            }
+            let norm = g.column(j).dot(&g.column(j)).sqrt();
+            g.column_mut(j).mapv_inplace(|v| v / norm);
+        }
+        g
+    }
+
+    /// Gram–Schmidt gives QᵀQ = I to rounding.
+    #[test]
+    fn gram_schmidt_basis_is_orthonormal() {
+        let mut rng = Xoshiro256PlusPlus::seed_from_u64(6);
+        let n = Normal::new(0.0, 1.0).expect("unit sd");
+        let q = orthonormal(Array2::from_shape_fn((30, 30), |_| n.sample(&mut rng)));
+        let qtq = q.t().dot(&q);
+        for ((i, j), v) in qtq.indexed_iter() {
+            let want = if i == j { 1.0 } else { 0.0 };
+            assert!((v - want).abs() < 1e-12, "({i}, {j}): {v}");
+        }
+    }
+
+    /// A covariance with `big` eigenvalues from 1 down to 0.1 and the rest
+    /// 1e-7 … 1e-8: the shape a posterior takes where the prior holds a
+    /// few directions and the data pin the others down.
+    fn covariance(k: usize, big: usize, seed: u64) -> Array2<f64> {
+        let mut rng = Xoshiro256PlusPlus::seed_from_u64(seed);
+        let n = Normal::new(0.0, 1.0).expect("unit sd");
+        let q = orthonormal(Array2::from_shape_fn((k, k), |_| n.sample(&mut rng)));
+        let lambda = Array1::from_shape_fn(k, |i| {
+            if i < big {
+                10f64.powf(-(i as f64) / big as f64)
+            } else {
+                1e-7 * 10f64.powf(-((i - big) as f64) / (k - big) as f64)
+            }
+        });
+        (&q * &lambda).dot(&q.t())
+    }
+
+    /// On such a covariance the rank is the number of large eigenvalues,
+    /// and on new rows every estimate lies within its bound of the exact
+    /// gᵀΣg (computed by the full product), the bound within the
+    /// tolerance.
+    #[test]
+    fn low_rank_estimates_lie_within_their_bounds() {
+        let (k, big) = (60, 8);
+        let cov = covariance(k, big, 3);
+        let mut rng = Xoshiro256PlusPlus::seed_from_u64(4);
+        let n = Normal::new(0.0, 1.0).expect("unit sd");
+        let cal = Array2::from_shape_fn((400, k), |_| n.sample(&mut rng));
+        let exact_cal: Vec<f64> = cal
+            .rows()
+            .into_iter()
+            .map(|g| g.dot(&cov.dot(&g)))
+            .collect();
+        let (lr, profile) = low_rank_of(&cov, cal.view(), &exact_cal);
+        let lr = lr.expect("a low rank");
+        assert_eq!(lr.values.len(), big, "rank {profile:?}");
+        let rows = Array2::from_shape_fn((300, k), |_| n.sample(&mut rng));
+        let mut bound = vec![0.0; rows.nrows()];
+        let est = lr.quadratic_forms(rows.view(), &mut bound);
+        for (i, g) in rows.rows().into_iter().enumerate() {
+            let exact = g.dot(&cov.dot(&g));
+            assert!(
+                (est[i] - exact).abs() <= bound[i],
+                "row {i}: {} against {exact}, bound {}",
+                est[i],
+                bound[i]
+            );
+            assert!(
+                bound[i] <= FAST_SD_TOL * exact,
+                "row {i}: bound {} of {exact}",
+                bound[i]
+            );
+        }
+    }
+
+    /// A covariance with evenly spread eigenvalues has no useful rank: the
+    /// member goes the exact way.
+    #[test]
+    fn spread_spectrum_takes_no_low_rank() {
+        let k = 40;
+        let mut rng = Xoshiro256PlusPlus::seed_from_u64(5);
+        let n = Normal::new(0.0, 1.0).expect("unit sd");
+        let q = orthonormal(Array2::from_shape_fn((k, k), |_| n.sample(&mut rng)));
+        let lambda = Array1::from_shape_fn(k, |i| 10f64.powf(-4.0 * i as f64 / k as f64));
+        let cov = (&q * &lambda).dot(&q.t());
+        let cal = Array2::from_shape_fn((200, k), |_| n.sample(&mut rng));
+        let exact: Vec<f64> = cal
+            .rows()
+            .into_iter()
+            .map(|g| g.dot(&cov.dot(&g)))
+            .collect();
+        let (lr, profile) = low_rank_of(&cov, cal.view(), &exact);
+        assert!(lr.is_none(), "{profile:?}");
+    }
+}
