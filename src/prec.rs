@@ -286,6 +286,36 @@ pub const TAIL_DOF_GRID: [f64; 7] = [3.0, 4.0, 5.0, 7.0, 10.0, 20.0, 50.0];
 /// by chance in under one case in ten (½·P(χ²₁ > 2) = 0.08).
 pub const TAIL_SHAPE_PENALTY_NATS: f64 = 1.0;
 
+/// Factors on the model part of the predictive variance tried on the
+/// held-out part (committee::gross_errors, "Calibration of the model
+/// variance"): 2^(k/2) for k = −8 … 4, from 1/16 to 4, steps of √2 in
+/// variance (19 % in sd), 1 among them.
+pub const MODEL_VAR_SCALE_GRID: [f64; 13] = [
+    0.0625,
+    0.088_388_347_648_318_44,
+    0.125,
+    0.176_776_695_296_636_9,
+    0.25,
+    0.353_553_390_593_273_8,
+    0.5,
+    0.707_106_781_186_547_5,
+    1.0,
+    1.414_213_562_373_095_1,
+    2.0,
+    2.828_427_124_746_190_2,
+    4.0,
+];
+
+/// What a factor on the model variance other than 1 must gain in held-out
+/// log posterior, in nats summed over the n held-out rows, per ln n: the
+/// penalty ½·ln n of one parameter more in Schwarz's criterion (Schwarz
+/// 1978, "Estimating the dimension of a model", Annals of Statistics
+/// 6:461–464) — stricter than the 1 nat of the shape, since the factor is
+/// picked from a grid of 12 and the held-out parts of small archives
+/// (≈ 200 rows) move it by chance; a systematic miscalibration over a few
+/// hundred rows gains tens of nats.
+pub const MODEL_VAR_SCALE_PENALTY_PER_LN_ROW: f64 = 0.5;
+
 /// Smallest responsibility a row keeps in a refit under the contamination
 /// model: a row is never weighted out entirely, so that ln r_n and the
 /// weighted Hessian stay finite.
