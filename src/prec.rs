@@ -286,23 +286,22 @@ pub const TAIL_DOF_GRID: [f64; 7] = [3.0, 4.0, 5.0, 7.0, 10.0, 20.0, 50.0];
 /// by chance in under one case in ten (½·P(χ²₁ > 2) = 0.08).
 pub const TAIL_SHAPE_PENALTY_NATS: f64 = 1.0;
 
-/// Factors on the model part of the predictive variance tried on the
-/// held-out part (committee::gross_errors, "Calibration of the model
-/// variance"): 2^(k/2) for k = −8 … 4, from 1/16 to 4, steps of √2 in
-/// variance (19 % in sd), 1 among them.
-pub const MODEL_VAR_SCALE_GRID: [f64; 13] = [
+/// Factors other than 1 on the model part of the predictive variance tried
+/// on the held-out part (committee::gross_errors, "Calibration of the
+/// model variance"): 2^(k/2) for k = −8 … 4, k ≠ 0, from 1/16 to 4, steps
+/// of √2 in variance (19 % in sd).
+pub const MODEL_VAR_SCALE_GRID: [f64; 12] = [
     0.0625,
-    0.088_388_347_648_318_44,
+    std::f64::consts::FRAC_1_SQRT_2 / 8.0,
     0.125,
-    0.176_776_695_296_636_9,
+    std::f64::consts::FRAC_1_SQRT_2 / 4.0,
     0.25,
-    0.353_553_390_593_273_8,
+    std::f64::consts::FRAC_1_SQRT_2 / 2.0,
     0.5,
-    0.707_106_781_186_547_5,
-    1.0,
-    1.414_213_562_373_095_1,
+    std::f64::consts::FRAC_1_SQRT_2,
+    std::f64::consts::SQRT_2,
     2.0,
-    2.828_427_124_746_190_2,
+    2.0 * std::f64::consts::SQRT_2,
     4.0,
 ];
 

@@ -50,7 +50,7 @@ pub fn truth(x: &[f64]) -> f64 {
 /// with the noise sd used.
 pub fn columns(n_rows: usize, seed: u64) -> (Vec<(String, Vec<f64>)>, f64) {
     let mut rng = Xoshiro256PlusPlus::seed_from_u64(seed);
-    let mut cols: Vec<Vec<f64>> = vec![Vec::with_capacity(n_rows); N_INPUTS + 1];
+    let mut cols: Vec<Vec<f64>> = (0..=N_INPUTS).map(|_| Vec::with_capacity(n_rows)).collect();
     let mut row = [0.0; N_INPUTS];
     for _ in 0..n_rows {
         for v in row.iter_mut() {

@@ -93,6 +93,16 @@
 //! members refitted on all rows (both model parts shrink with the rows
 //! alike, so the ratio is taken to carry over).
 //!
+//! Off by default ([`super::CommitteeParams::model_var_scale`]): on the
+//! first 3 shared UCI splits of concrete, energy and yacht the held-out
+//! part chose a factor of 1/16 or 1/8 on 8 of 9 splits and the test LL
+//! fell (concrete −2.555 → −2.586, energy −0.350 → −0.404), most likely
+//! because the held-out rows that rank the candidates, size the committee
+//! and choose the noise model and process are optimistic about the
+//! committee that won on them, and the factor reads that optimism as
+//! over-wide bands (docs/benchmarks.md, "Calibration when the noise is
+//! tiny").
+//!
 //! # Limits
 //!
 //! π is one number per target, estimated from the held-out part (20 % of
@@ -168,6 +178,10 @@ pub struct HeldOutChoices {
     pub model_var_scale: bool,
 }
 
+/// A held-out choice scored: (summed log posterior less the penalties,
+/// mean log-likelihood, π, ν).
+type Scored = (f64, f64, f64, Option<f64>);
+
 /// ln N(t; m, v).
 fn ln_normal(t: f64, m: f64, v: f64) -> f64 {
     -LN_SQRT_2PI - 0.5 * (v.ln() + (t - m).powi(2) / v)
@@ -234,29 +248,30 @@ impl GrossErrorModel {
             .map(|&y| ln_normal(y, background_mean, background_sd.powi(2)))
             .collect();
         let nf = n as f64;
+        let gauss = TailShape::new(None);
         let gaussian = (0..n)
-            .map(|i| ln_normal(t[i], mean[i], var[i].max(VAR_FLOOR)))
+            .map(|i| gauss.ln_density(t[i], mean[i], var[i].max(VAR_FLOOR).sqrt()))
             .sum::<f64>()
             / nf;
-        let mut scales = vec![1.0];
+        // None: the variance as it is (c = 1), to the last bit
+        let mut scales: Vec<Option<f64>> = vec![None];
         if choices.model_var_scale {
-            scales.extend(MODEL_VAR_SCALE_GRID.iter().filter(|&&c| c != 1.0));
+            scales.extend(MODEL_VAR_SCALE_GRID.iter().map(|&c| Some(c)));
         }
         // (score: summed log posterior less the penalties, mean
-        // log-likelihood, π, ν, c)
-        let mut best: Option<(f64, f64, f64, Option<f64>, f64)> = None;
+        // log-likelihood, π, ν), with c
+        let mut best: Option<(Scored, Option<f64>)> = None;
         for &c in &scales {
             let v: Vec<f64> = (0..n)
                 .map(|i| {
-                    let model = (var[i] - fixed_var[i]).max(0.0);
-                    (var[i] - model + c * model).max(VAR_FLOOR)
+                    let vc = c.map_or(var[i], |c| {
+                        let model = (var[i] - fixed_var[i]).max(0.0);
+                        var[i] - model + c * model
+                    });
+                    vc.max(VAR_FLOOR)
                 })
                 .collect();
-            let penalty_c = if c == 1.0 {
-                0.0
-            } else {
-                MODEL_VAR_SCALE_PENALTY_PER_LN_ROW * nf.ln()
-            };
+            let penalty_c = c.map_or(0.0, |_| MODEL_VAR_SCALE_PENALTY_PER_LN_ROW * nf.ln());
             for dof in dof_candidates(choices.heavy_tails) {
                 let shape = TailShape::new(dof);
                 let ln_bulk: Vec<f64> = (0..n)
@@ -281,12 +296,12 @@ impl GrossErrorModel {
                     continue;
                 }
                 let score = nf * ln_post - dof.map_or(0.0, |_| TAIL_SHAPE_PENALTY_NATS) - penalty_c;
-                if best.is_none_or(|b| score > b.0) {
-                    best = Some((score, ln_lik, pi, dof, c));
+                if best.is_none_or(|b| score > b.0 .0) {
+                    best = Some(((score, ln_lik, pi, dof), c));
                 }
             }
         }
-        let (_, ln_lik, share, tail_dof, c) = best?;
+        let ((_, ln_lik, share, tail_dof), c) = best?;
         Some(GrossErrorModel {
             share,
             background_mean,
@@ -297,7 +312,7 @@ impl GrossErrorModel {
             refit_gross_rows: None,
             refit_fallbacks: Vec::new(),
             tail_dof,
-            model_var_scale: (c != 1.0).then_some(c),
+            model_var_scale: c,
         })
     }
 
@@ -519,7 +534,8 @@ mod tests {
             heavy_tails: true,
             model_var_scale: true,
         };
-        for (true_c, seed) in [(0.25, 11), (1.0, 12)] {
+        for (truth, seed) in [(Some(0.25), 11), (None, 12)] {
+            let true_c = truth.unwrap_or(1.0);
             let mut rng = Xoshiro256PlusPlus::seed_from_u64(seed);
             let t = Array1::from_shape_fn(n, |i| {
                 (fixed[i] + true_c * model[i]).sqrt() * unit.sample(&mut rng)
@@ -537,7 +553,7 @@ mod tests {
                 c >= true_c / 2.0_f64.sqrt() - 1e-12 && c <= true_c * 2.0_f64.sqrt() + 1e-12,
                 "c {c} for a true factor {true_c}"
             );
-            if true_c == 1.0 {
+            if truth.is_none() {
                 assert_eq!(g.model_var_scale, None, "a right model part is left alone");
             }
         }
