@@ -12,6 +12,7 @@
 //! | `max_members` | 16 | largest committee considered | 1 ..= 200 |
 //! | `seed` | 0 | seed of every random choice | any u64 |
 //! | `noise` | auto | constant noise, noise that varies with the inputs, or the better of the two on the held-out part | constant, varying, auto |
+//! | `model_var_scale` | false | let the held-out part choose a factor on the committee's model variance (experimental; committee::gross_errors) | — |
 
 use serde::{Deserialize, Serialize};
 
