@@ -7,7 +7,7 @@
 //! cargo run --release --example uci_benchmark -- [--data-dir ../shared/datasets/uci]
 //!     [--datasets concrete,energy,yacht,wine-quality-red] [--splits 20]
 //!     [--hidden 1..10] [--restarts 4] [--markdown FILE]
-//!     [--noise auto|constant|varying] [--kriging auto|on|off] [--gross-errors on|off] [--heavy-tails on|off] [--reweight-mean] [--first-split 0] [--no-widen] [--no-ard] [--max-cycles N] [--first-iters N] [--cycle-iters N]
+//!     [--noise auto|constant|varying] [--kriging auto|on|off] [--gross-errors on|off] [--heavy-tails on|off] [--model-var-scale on|off] [--reweight-mean] [--first-split 0] [--no-widen] [--no-ard] [--max-cycles N] [--first-iters N] [--cycle-iters N]
 //!     [--max-members N] [--holdout FRACTION]
 //! ```
 //!
@@ -154,6 +154,7 @@ fn main() {
     let mut holdout: Option<f64> = None;
     let mut gross_errors = true;
     let mut heavy_tails = true;
+    let mut model_var_scale = false;
     let mut reweight_mean = false;
     let args: Vec<String> = std::env::args().skip(1).collect();
     let mut i = 0;
@@ -210,6 +211,13 @@ fn main() {
                     other => panic!("--heavy-tails {other}: expected on or off"),
                 }
             }
+            "--model-var-scale" => {
+                model_var_scale = match v.as_str() {
+                    "on" => true,
+                    "off" => false,
+                    other => panic!("--model-var-scale {other}: expected on or off"),
+                }
+            }
             "--reweight-mean" => {
                 reweight_mean = true;
                 i += 1;
@@ -254,6 +262,7 @@ fn main() {
                 .kriging(kriging)
                 .gross_errors(gross_errors)
                 .heavy_tails(heavy_tails)
+                .model_var_scale(model_var_scale)
                 .reweight_mean(reweight_mean)
                 .fit(fit.clone());
             if let Some(m) = max_members {
@@ -328,9 +337,10 @@ fn main() {
                 if c.selection.noise.varying { " varying" } else { " constant" },
                 if c.kriging.is_some() { " kriged" } else { "" },
                 c.gross_errors.as_ref().map_or(String::new(), |g| format!(
-                    " gross {:.3} nu {}",
+                    " gross {:.3} nu {} c {:.3}",
                     g.share,
-                    g.tail_dof.map_or("inf".into(), |v| v.to_string())
+                    g.tail_dof.map_or("inf".into(), |v| v.to_string()),
+                    g.model_var_factor()
                 ))
             );
             rmse.push(e.rmse);

@@ -286,6 +286,35 @@ pub const TAIL_DOF_GRID: [f64; 7] = [3.0, 4.0, 5.0, 7.0, 10.0, 20.0, 50.0];
 /// by chance in under one case in ten (½·P(χ²₁ > 2) = 0.08).
 pub const TAIL_SHAPE_PENALTY_NATS: f64 = 1.0;
 
+/// Factors other than 1 on the model part of the predictive variance tried
+/// on the held-out part (committee::gross_errors, "Calibration of the
+/// model variance"): 2^(k/2) for k = −8 … 4, k ≠ 0, from 1/16 to 4, steps
+/// of √2 in variance (19 % in sd).
+pub const MODEL_VAR_SCALE_GRID: [f64; 12] = [
+    0.0625,
+    std::f64::consts::FRAC_1_SQRT_2 / 8.0,
+    0.125,
+    std::f64::consts::FRAC_1_SQRT_2 / 4.0,
+    0.25,
+    std::f64::consts::FRAC_1_SQRT_2 / 2.0,
+    0.5,
+    std::f64::consts::FRAC_1_SQRT_2,
+    std::f64::consts::SQRT_2,
+    2.0,
+    2.0 * std::f64::consts::SQRT_2,
+    4.0,
+];
+
+/// What a factor on the model variance other than 1 must gain in held-out
+/// log posterior, in nats summed over the n held-out rows, per ln n: the
+/// penalty ½·ln n of one parameter more in Schwarz's criterion (Schwarz
+/// 1978, "Estimating the dimension of a model", Annals of Statistics
+/// 6:461–464) — stricter than the 1 nat of the shape, since the factor is
+/// picked from a grid of 12 and the held-out parts of small archives
+/// (≈ 200 rows) move it by chance; a systematic miscalibration over a few
+/// hundred rows gains tens of nats.
+pub const MODEL_VAR_SCALE_PENALTY_PER_LN_ROW: f64 = 0.5;
+
 /// Smallest responsibility a row keeps in a refit under the contamination
 /// model: a row is never weighted out entirely, so that ln r_n and the
 /// weighted Hessian stay finite.

@@ -4,7 +4,7 @@
 
 use ndarray::{Array1, ArrayView1};
 
-use super::gross_errors::GrossErrorModel;
+use super::gross_errors::{GrossErrorModel, HeldOutChoices};
 use super::kriging::ResidualKriging;
 use super::residual::ProcessTrial;
 use super::split::HeldOutSplit;
@@ -115,11 +115,16 @@ struct Judged {
 impl Judged {
     fn new(params: &CheckedCommitteeParams, split: &HeldOutSplit, trial: ProcessTrial) -> Self {
         Judged {
-            committee_gross: gross_errors(params, split, &trial.committee_heldout),
+            committee_gross: gross_errors(
+                params,
+                split,
+                &trial.committee_heldout,
+                &trial.committee_noise_var,
+            ),
             kriging_gross: trial
                 .kriged
                 .as_ref()
-                .and_then(|(_, heldout)| gross_errors(params, split, heldout)),
+                .and_then(|(_, heldout, noise)| gross_errors(params, split, heldout, noise)),
             trial,
         }
     }
@@ -134,7 +139,7 @@ impl Judged {
         self.trial
             .kriged
             .as_ref()
-            .map(|(nlpd, _)| judged(*nlpd, &self.kriging_gross))
+            .map(|(nlpd, _, _)| judged(*nlpd, &self.kriging_gross))
     }
 }
 
@@ -144,24 +149,29 @@ fn judged(nlpd: f64, g: &Option<GrossErrorModel>) -> f64 {
     g.as_ref().map_or(nlpd, |g| g.heldout_nlpd)
 }
 
-/// The share of gross errors (and error shape) of a held-out prediction
-/// (`mean`, `var` scaled), their values spread as the target over the
-/// training part; None unless gross errors or heavy tails are asked for.
+/// The share of gross errors (and error shape, and factor on the model
+/// variance) of a held-out prediction (`mean`, `var`, `noise_var` scaled),
+/// their values spread as the target over the training part; None unless
+/// gross errors, heavy tails or the factor are asked for.
 fn gross_errors(
     params: &CheckedCommitteeParams,
     split: &HeldOutSplit,
     (mean, var): &(Array1<f64>, Array1<f64>),
+    noise_var: &Array1<f64>,
 ) -> Option<GrossErrorModel> {
     let background = (split.t_tr.mean().unwrap_or(0.0), split.t_tr.std(0.0));
-    (params.gross_errors || params.heavy_tails)
+    let choices = HeldOutChoices {
+        share: params.gross_errors,
+        heavy_tails: params.heavy_tails,
+        model_var_scale: params.model_var_scale,
+    };
+    (choices.share || choices.heavy_tails || choices.model_var_scale)
         .then(|| {
-            GrossErrorModel::fit(
-                mean.view(),
-                var.view(),
+            GrossErrorModel::fit_calibrated(
+                (mean.view(), var.view(), noise_var.view()),
                 split.t_ho.view(),
                 background,
-                params.gross_errors,
-                params.heavy_tails,
+                choices,
                 split.ln_width,
             )
         })
@@ -180,7 +190,8 @@ mod tests {
             varying,
             committee_nlpd: committee,
             committee_heldout: z(),
-            kriged: kriged.map(|k| (k, z())),
+            committee_noise_var: Array1::ones(8),
+            kriged: kriged.map(|k| (k, z(), Array1::ones(8))),
             process: None,
             failure: kriged.is_none().then(|| "singular".to_string()),
         }
@@ -201,6 +212,7 @@ mod tests {
                 .kriging(mode)
                 .gross_errors(false)
                 .heavy_tails(false)
+                .model_var_scale(false)
                 .check()
                 .expect("valid")
         };
@@ -226,6 +238,7 @@ mod tests {
         let none = CommitteeParams::default()
             .gross_errors(false)
             .heavy_tails(false)
+            .model_var_scale(false)
             .check()
             .expect("valid");
         let c = Choice::make(&none, &s, vec![trial(false, 1.0, None)]).expect("choice");

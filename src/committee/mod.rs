@@ -23,7 +23,10 @@
 //! adds its posterior mean and variance and takes a share of the noise
 //! variance (docs/method.md §6a), and a share of gross errors estimated on
 //! the held-out part ([`GrossErrorModel`]): measured values unrelated to the
-//! inputs, beside the Gaussian (docs/method.md §6b).
+//! inputs, beside the Gaussian (docs/method.md §6b). The held-out part may
+//! also put a factor c on the committee's model part:
+//! variance = noise + c·(parameter variance + spread) + process variance
+//! (module gross_errors, "Calibration of the model variance").
 
 mod assemble;
 mod by_size;
@@ -346,6 +349,11 @@ impl Committee {
 
     fn predict_block(&self, factors: &[PosteriorFactor], x: ArrayView2<f64>) -> ScaledPrediction {
         let mut p = members_predict_factored(&self.members, factors, self.n_inputs, x);
+        if let Some(c) = self.gross_errors.as_ref().and_then(|g| g.model_var_scale) {
+            // the committee's model part, c·(parameter variance + spread)
+            p.committee_var *= c;
+            p.var = &p.noise_var + &p.committee_var;
+        }
         if let Some((gp_mean, gp_var, factor)) = self.kriging_correction(x) {
             // var = s·σ²(x) + (parameter + committee variance) + GP variance
             p.mean += &gp_mean;

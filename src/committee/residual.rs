@@ -69,9 +69,13 @@ pub(super) struct ProcessTrial {
     pub committee_nlpd: f64,
     /// Held-out (mean, variance) of its committee alone (scaled units).
     pub committee_heldout: HeldOut,
+    /// Held-out noise variance of its committee alone (scaled units): the
+    /// rest of the variance is the committee's model part.
+    pub committee_noise_var: Array1<f64>,
     /// Held-out NLPD and (mean, variance) with the process, when it could
-    /// be fitted and its score is finite.
-    pub kriged: Option<(f64, HeldOut)>,
+    /// be fitted and its score is finite, with the variance that is not the
+    /// committee's model part (noise and process variance).
+    pub kriged: Option<(f64, HeldOut, Array1<f64>)>,
     /// The process fitted on the training part.
     pub process: Option<ResidualKriging>,
     /// Why the process could not be fitted.
@@ -92,26 +96,27 @@ pub(super) fn try_processes(
         .par_iter()
         .map(|&varying| {
             let (committee_nlpd, committee_heldout) = models.heldout(varying);
+            let provisional = models.provisional_members(varying);
+            let p = members_predict(&provisional, d, split.x_ho.view());
             let mut trial = ProcessTrial {
                 varying,
                 committee_nlpd,
                 committee_heldout,
+                committee_noise_var: p.noise_var.clone(),
                 kriged: None,
                 process: None,
                 failure: None,
             };
             if let Some(rows) = rows {
-                let provisional = models.provisional_members(varying);
                 match fit_process(&provisional, d, rows.x.view(), rows.t.view(), None) {
                     Ok(process) => {
-                        let p = members_predict(&provisional, d, split.x_ho.view());
                         if let Some((gm, gv)) = process.predict(split.x_ho.view()) {
                             let s = process.noise_factor;
                             let mean = &p.mean + &gm;
                             let var = &p.var + &(&p.noise_var * (s - 1.0)) + &gv;
                             let nlpd = split.nlpd(&mean, &var);
                             if nlpd.is_finite() {
-                                trial.kriged = Some((nlpd, (mean, var)));
+                                trial.kriged = Some((nlpd, (mean, var), &p.noise_var * s + &gv));
                             }
                         }
                         trial.process = Some(process);
@@ -235,7 +240,7 @@ mod tests {
         assert!(rows.x.nrows() <= split.train.len());
         let tried = try_processes(&models, Some(&rows), &split);
         assert!(tried[0].process.is_some() || tried[0].failure.is_some());
-        if let Some((nlpd, (m, v))) = &tried[0].kriged {
+        if let Some((nlpd, (m, v), _)) = &tried[0].kriged {
             assert!((split.nlpd(m, v) - nlpd).abs() < 1e-12);
         }
     }
