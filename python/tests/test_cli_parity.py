@@ -54,7 +54,14 @@ def test_polars_and_numpy_inputs_train_the_same_model(tiny):
 
 
 def _cli_estimates(mettle_bin, model: Path, data: Path, cwd: Path, extra=()) -> pd.DataFrame:
-    p = run_cli(mettle_bin, ["predict", "--model", str(model), "--input", str(data), "--format", "csv", *extra], cwd)
+    # --exact: Python's predict takes the exact path, as `mettle serve` does;
+    # the CLI's default fast path agrees with it within its stated bound
+    # (tests/fast_predict.rs), not to the last digit
+    p = run_cli(
+        mettle_bin,
+        ["predict", "--exact", "--model", str(model), "--input", str(data), "--format", "csv", *extra],
+        cwd,
+    )
     assert p.returncode == 0, p.stderr
     (cwd / "est.csv").write_text(p.stdout)
     return pd.read_csv(cwd / "est.csv", keep_default_na=False, dtype=str)
