@@ -199,3 +199,40 @@ fn bundled_model_recovers_the_generators_truth() {
         );
     }
 }
+
+/// The bundled model is what `make models` trains from the bundled data, byte
+/// for byte (the fixed-order arithmetic of `src/linalg.rs` makes that hold on
+/// any CPU with the same elementary functions: DEVELOPERS.md, "The same model
+/// on any CPU"). Fails when training changes without `make models`, or when
+/// a result comes to depend on the machine. The arguments are the Makefile's
+/// `models` target's.
+#[test]
+fn bundled_model_is_what_make_models_trains() {
+    let w = Workdir::new();
+    let fresh = w.path("fellhaven_welds.json");
+    let data = repo("datasets/fellhaven_welds.csv");
+    let schema = repo("datasets/fellhaven_welds.toml");
+    w.ok(&[
+        "train",
+        "--data",
+        data.to_str().expect("utf-8 path"),
+        "--schema",
+        schema.to_str().expect("utf-8 path"),
+        "--seed",
+        "1",
+        "--quiet",
+        "--out",
+        fresh.to_str().expect("utf-8 path"),
+    ]);
+    let makefile = std::fs::read_to_string(repo("Makefile")).expect("Makefile");
+    assert!(
+        makefile.contains("--seed 1 --quiet --out models/fellhaven_welds.json"),
+        "the Makefile's models target changed: update this test's arguments"
+    );
+    let fresh = std::fs::read(&fresh).expect("trained model");
+    let bundled = std::fs::read(repo("models/fellhaven_welds.json")).expect("bundled model");
+    assert!(
+        fresh == bundled,
+        "models/fellhaven_welds.json differs from what training writes now: run `make models`"
+    );
+}
