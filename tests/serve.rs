@@ -5,6 +5,7 @@
 //! statuses follow RFC 9110 (400, 401, 404, 408, 413, 500).
 //! The model and tables are the bundled invented Fellhaven data.
 
+mod common;
 #[path = "../benches/support/server.rs"]
 mod server;
 
@@ -730,29 +731,9 @@ fn other_addresses_need_listen_and_warn() {
 
 const XLSX: &str = "application/vnd.openxmlformats-officedocument.spreadsheetml.sheet";
 
-/// A workbook written here with rust_xlsxwriter (the writer mettle itself
-/// uses; the reader under test is calamine): a cover sheet first, then
-/// sheet `name` holding `csv` (header + rows), numbers stored as numbers.
+/// The test's workbook: sheet `name` holding `csv`, after a cover sheet.
 fn workbook(name: &str, csv: &str) -> Vec<u8> {
-    let mut book = rust_xlsxwriter::Workbook::new();
-    let cover = book.add_worksheet();
-    cover.set_name("cover").expect("name");
-    cover
-        .write_string(0, 0, "INVENTED Fellhaven heats, not test results")
-        .expect("cell");
-    let ws = book.add_worksheet();
-    ws.set_name(name).expect("name");
-    for (i, line) in csv.lines().enumerate() {
-        for (j, cell) in line.split(',').enumerate() {
-            let (r, c) = (i as u32, j as u16);
-            match cell.parse::<f64>() {
-                Ok(v) if i > 0 => ws.write_number(r, c, v).map(|_| ()),
-                _ => ws.write_string(r, c, cell).map(|_| ()),
-            }
-            .expect("cell");
-        }
-    }
-    book.save_to_buffer().expect("workbook bytes")
+    common::workbook_bytes(name, csv, "INVENTED Fellhaven heats, not test results")
 }
 
 /// Status and bytes of a POST.

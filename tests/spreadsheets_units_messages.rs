@@ -13,31 +13,13 @@ mod common;
 
 use calamine::{open_workbook_auto, Data, Reader};
 use common::{describe, fixture_csv, same_up_to_rounding, stderr, stdout, Workdir};
-use rust_xlsxwriter::Workbook;
 use serde_json::Value;
 
 /// Write `csv` (header + rows, numbers stored as numbers) as sheet `name`
 /// of a workbook whose first sheet is a cover note.
 fn workbook(path: &std::path::Path, name: &str, csv: &str) {
-    let mut book = Workbook::new();
-    let cover = book.add_worksheet();
-    cover.set_name("cover").expect("name");
-    cover
-        .write_string(0, 0, "invented test records")
-        .expect("cell");
-    let ws = book.add_worksheet();
-    ws.set_name(name).expect("name");
-    for (i, line) in csv.lines().enumerate() {
-        for (j, cell) in line.split(',').enumerate() {
-            let (r, c) = (i as u32, j as u16);
-            match cell.parse::<f64>() {
-                Ok(v) if i > 0 => ws.write_number(r, c, v).map(|_| ()),
-                _ => ws.write_string(r, c, cell).map(|_| ()),
-            }
-            .expect("cell");
-        }
-    }
-    book.save(path).expect("save workbook");
+    let bytes = common::workbook_bytes(name, csv, "invented test records");
+    std::fs::write(path, bytes).expect("save workbook");
 }
 
 fn with_heats(csv: &str) -> String {

@@ -556,3 +556,27 @@ pub fn predict_rows(stdout: &[u8]) -> Vec<serde_json::Value> {
         })
         .collect()
 }
+
+/// An invented workbook's bytes, written with rust_xlsxwriter (the writer
+/// mettle itself uses; the reader under test is calamine): a first sheet
+/// `cover` holding `cover_note`, then sheet `name` holding `csv` (header +
+/// rows), numbers stored as numbers.
+pub fn workbook_bytes(name: &str, csv: &str, cover_note: &str) -> Vec<u8> {
+    let mut book = rust_xlsxwriter::Workbook::new();
+    let cover = book.add_worksheet();
+    cover.set_name("cover").expect("name");
+    cover.write_string(0, 0, cover_note).expect("cell");
+    let ws = book.add_worksheet();
+    ws.set_name(name).expect("name");
+    for (i, line) in csv.lines().enumerate() {
+        for (j, cell) in line.split(',').enumerate() {
+            let (r, c) = (i as u32, j as u16);
+            match cell.parse::<f64>() {
+                Ok(v) if i > 0 => ws.write_number(r, c, v).map(|_| ()),
+                _ => ws.write_string(r, c, cell).map(|_| ()),
+            }
+            .expect("cell");
+        }
+    }
+    book.save_to_buffer().expect("workbook bytes")
+}
