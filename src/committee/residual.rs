@@ -84,11 +84,15 @@ pub(super) struct ProcessTrial {
 
 /// Each allowed noise model's committee, scored on the held-out part alone
 /// and, with `rows`, with a residual process fitted on those rows; one
-/// noise model per core.
+/// noise model per core. The committee's held-out noise variance is
+/// predicted only where it is read: with `rows`, or when `noise_var_wanted`
+/// (the factor on the model variance); otherwise it stands as the whole
+/// variance, which is what the choices without the factor take.
 pub(super) fn try_processes(
     models: &NoiseModels,
     rows: Option<&ProcessRows>,
     split: &HeldOutSplit,
+    noise_var_wanted: bool,
 ) -> Vec<ProcessTrial> {
     let d = split.n_inputs();
     models
@@ -97,17 +101,21 @@ pub(super) fn try_processes(
         .map(|&varying| {
             let (committee_nlpd, committee_heldout) = models.heldout(varying);
             let provisional = models.provisional_members(varying);
-            let p = members_predict(&provisional, d, split.x_ho.view());
+            let p = (rows.is_some() || noise_var_wanted)
+                .then(|| members_predict(&provisional, d, split.x_ho.view()));
+            let committee_noise_var = p
+                .as_ref()
+                .map_or_else(|| committee_heldout.1.clone(), |p| p.noise_var.clone());
             let mut trial = ProcessTrial {
                 varying,
                 committee_nlpd,
                 committee_heldout,
-                committee_noise_var: p.noise_var.clone(),
+                committee_noise_var,
                 kriged: None,
                 process: None,
                 failure: None,
             };
-            if let Some(rows) = rows {
+            if let (Some(rows), Some(p)) = (rows, p) {
                 match fit_process(&provisional, d, rows.x.view(), rows.t.view(), None) {
                     Ok(process) => {
                         if let Some((gm, gv)) = process.predict(split.x_ho.view()) {
@@ -232,13 +240,13 @@ mod tests {
         let search = CandidateSearch::run(&p, &split, "y", &Silent);
         let constant = ConstantCommittee::choose(search.ranked().expect("trained"), 3, &split);
         let models = NoiseModels::new(NoiseMode::Constant, constant, None).expect("models");
-        let plain = try_processes(&models, None, &split);
+        let plain = try_processes(&models, None, &split, false);
         assert_eq!(plain.len(), 1);
         assert!(plain[0].process.is_none() && plain[0].kriged.is_none());
         assert!((plain[0].committee_nlpd - models.constant.nlpd()).abs() < 1e-15);
         let rows = ProcessRows::on_training_part(&p, &split, "y", &Silent);
         assert!(rows.x.nrows() <= split.train.len());
-        let tried = try_processes(&models, Some(&rows), &split);
+        let tried = try_processes(&models, Some(&rows), &split, false);
         assert!(tried[0].process.is_some() || tried[0].failure.is_some());
         if let Some((nlpd, (m, v), _)) = &tried[0].kriged {
             assert!((split.nlpd(m, v) - nlpd).abs() < 1e-12);
