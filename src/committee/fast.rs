@@ -45,7 +45,7 @@
 //! (Cauchy–Schwarz; the kernel matrix is positive semi-definite, so by
 //! Weyl's inequality the smallest eigenvalue of K_y is at least the
 //! smallest entry of its diagonal noise, less a rounding allowance). The
-//! cut c is the shortest of a ladder (8 … 30) at which, on 99 % of the
+//! cut c is the shortest of a ladder (8 … 48) at which, on 99 % of the
 //! calibration rows, the variance bound is at most half of
 //! [`FAST_SD_TOL`] of the smallest noise variance and the mean's a
 //! twentieth of it of that sd. The rows near a query are found by one
@@ -80,15 +80,19 @@ use ndarray::{s, Array1, Array2, ArrayView2, Axis};
 use super::kriging::{add_noise, kernel};
 use super::{members_predict, Committee, Member, ResidualKriging, ScaledPrediction};
 use crate::evidence::PosteriorFactor;
-use crate::linalg::{multiply_into, symmetric_eigen, Cholesky};
+use crate::linalg::{multiply_into, symmetric_eigen_ql, Cholesky};
 use crate::net::{tanh, Architecture};
 use crate::prec::{
     FAST_BLOCK_ROWS, FAST_CALIBRATION_SHARE, FAST_SD_TOL, KRIGING_JITTER, LOG_VAR_LIMIT, VAR_FLOOR,
 };
 
 /// Cuts on the scaled squared distance d² tried for the residual
-/// process, shortest first (exp(−c/2) = 0.018 … 3e-7 of τ²).
-const PROCESS_CUTS: [f64; 8] = [8.0, 10.0, 12.0, 14.0, 16.0, 20.0, 24.0, 30.0];
+/// process, shortest first (exp(−c/2) = 0.018 … 2e-11 of τ²). The work of
+/// a row grows as the square of the rows inside, about as c^(d/2) in d
+/// inputs, so the steps are small.
+const PROCESS_CUTS: [f64; 16] = [
+    8.0, 10.0, 12.0, 14.0, 16.0, 18.0, 20.0, 22.0, 24.0, 26.0, 28.0, 30.0, 33.0, 36.0, 40.0, 48.0,
+];
 
 /// Bands of the dropped rows, as multiples of the cut: a row whose d²
 /// is at least m·cut has a kernel value of at most τ²·exp(−m·cut/2).
@@ -179,7 +183,7 @@ impl Committee {
         };
         let cv = members_predict(&self.members, d, cal).committee_var;
         let cv = cv.as_slice().expect("a fresh array");
-        // the members' eigen-decompositions (Jacobi: 0.1–0.5 s each at
+        // the members' eigen-decompositions (Householder and implicit QL,
         // k = 131–201) spread over the threads, beside the process's
         // factorisation; each is computed alone, so the threads change no
         // result
@@ -213,6 +217,38 @@ impl Committee {
             process,
         }
     }
+}
+
+/// Rows per leaf of [`kd_order`].
+const KD_LEAF: usize = 16;
+
+/// The rows of `x` in the order of a k-d tree (Bentley 1975, Commun. ACM
+/// 18:509–517): sorted along their widest coordinate, halved, and each half
+/// ordered the same way down to [`KD_LEAF`] rows, ties by row number (the
+/// order depends on the rows alone).
+fn kd_order(x: ArrayView2<f64>) -> Vec<usize> {
+    fn sort(x: ArrayView2<f64>, idx: &mut [usize]) {
+        if idx.len() <= KD_LEAF {
+            return;
+        }
+        let mut widest = (0, f64::NEG_INFINITY);
+        for j in 0..x.ncols() {
+            let (lo, hi) = idx.iter().fold((f64::INFINITY, f64::NEG_INFINITY), |(lo, hi), &i| {
+                (lo.min(x[[i, j]]), hi.max(x[[i, j]]))
+            });
+            if hi - lo > widest.1 {
+                widest = (j, hi - lo);
+            }
+        }
+        let j = widest.0;
+        idx.sort_by(|&a, &b| x[[a, j]].total_cmp(&x[[b, j]]).then(a.cmp(&b)));
+        let (left, right) = idx.split_at_mut(idx.len() / 2);
+        sort(x, left);
+        sort(x, right);
+    }
+    let mut idx: Vec<usize> = (0..x.nrows()).collect();
+    sort(x, &mut idx);
+    idx
 }
 
 /// A seeded uniform sample of the scaled box [−0.5, 0.5]^d.
@@ -296,7 +332,7 @@ fn low_rank_of(
     committee_var: &[f64],
 ) -> (Option<LowRank>, Vec<usize>) {
     let k = cov.nrows();
-    let Some((values, vectors)) = symmetric_eigen(cov.view()) else {
+    let Some((values, vectors)) = symmetric_eigen_ql(cov.view()) else {
         return (None, Vec::new());
     };
     if values.iter().any(|v| !v.is_finite()) {
@@ -419,12 +455,19 @@ impl FastProcess {
                 *v *= il;
             }
         }
+        // the rows in the order of a k-d tree, so that the rows near a
+        // query, and their rows and columns of K_y⁻¹, lie close together
+        // in memory (the sums over them run in this order)
+        let order = kd_order(xl.view());
+        let xl = xl.select(Axis(0), &order);
+        let kinv = Array2::from_shape_fn((n, n), |(i, j)| kinv[[order[i], order[j]]]);
+        let alpha: Vec<f64> = order.iter().map(|&i| alpha[i]).collect();
         let xl_norm = xl.rows().into_iter().map(|r| r.dot(&r)).collect();
         let mut fp = FastProcess {
             xl,
             xl_norm,
             inv_len,
-            alpha: alpha.to_vec(),
+            alpha,
             kinv,
             kinv_norm,
             signal_var: tau2,
@@ -451,7 +494,8 @@ impl FastProcess {
         Some(fp)
     }
 
-    /// Mean, variance and the bounds on their errors for each row of `x`.
+    /// Mean, variance and the bounds on their errors for each row of `x`,
+    /// and the number of training rows inside the cut.
     fn predict(&self, x: ArrayView2<f64>) -> Vec<(f64, f64, f64, f64, usize)> {
         let (b, d) = x.dim();
         let n = self.xl.nrows();
@@ -468,69 +512,118 @@ impl FastProcess {
             .iter()
             .map(|m| (m * self.cut, tau2 * (-0.5 * m * self.cut).exp()))
             .collect();
-        let mut active: Vec<(usize, f64)> = Vec::new();
-        let mut alpha_in = vec![0.0; bands.len()];
-        let mut count_in = vec![0usize; bands.len()];
+        let mut work = RowWork::default();
         q.rows()
             .into_iter()
             .zip(g.rows())
             .map(|(qr, gr)| {
-                let qn = qr.dot(&qr);
-                active.clear();
-                alpha_in.iter_mut().for_each(|v| *v = 0.0);
-                count_in.iter_mut().for_each(|v| *v = 0);
-                for (i, (&gv, &xn)) in gr.iter().zip(&self.xl_norm).enumerate() {
-                    // the product's rounding: well inside this margin
-                    let margin = 1e-9 * (1.0 + qn + xn);
-                    let screen = qn + xn - 2.0 * gv;
-                    if screen <= self.cut + margin {
-                        let xr = self.xl.row(i);
-                        let mut d2 = 0.0;
-                        for j in 0..d {
-                            let e = qr[j] - xr[j];
-                            d2 += e * e;
-                        }
-                        if d2 <= self.cut {
-                            active.push((i, tau2 * (-0.5 * d2).exp()));
-                            continue;
-                        }
-                    }
-                    // dropped: in the farthest band its distance reaches
-                    let lower = screen - margin;
-                    let b = bands.iter().rposition(|(c, _)| *c <= lower).unwrap_or(0);
-                    alpha_in[b] += self.alpha[i].abs();
-                    count_in[b] += 1;
-                }
-                let mut mean = 0.0;
-                let mut ks2 = 0.0;
-                let mut quad = 0.0;
-                // kᵀBk over S: the diagonal and twice the lower triangle
-                for (j, &(a, ka)) in active.iter().enumerate() {
-                    mean += ka * self.alpha[a];
-                    ks2 += ka * ka;
-                    let row = self.kinv.row(a);
-                    let mut s = 0.0;
-                    for &(c, kc) in &active[..j] {
-                        s += row[c] * kc;
-                    }
-                    quad += ka * (2.0 * s + row[a] * ka);
-                }
-                // |Σ_D kₙαₙ| ≤ Σ_bands κ_b Σ|αₙ|, ‖k_D‖² ≤ Σ_bands κ_b² count_b
-                let mut mean_err = 0.0;
-                let mut kd2 = 0.0;
-                for ((&(_, kb), a), &c) in bands.iter().zip(&alpha_in).zip(&count_in) {
-                    mean_err += kb * a;
-                    kd2 += kb * kb * c as f64;
-                }
-                let kd = kd2.sqrt() * (1.0 + 1e-12);
-                let var_err = self.kinv_norm * (2.0 * ks2.sqrt() * kd + kd * kd)
-                    + 4.0 * n as f64 * f64::EPSILON * self.kinv_norm * ks2.max(tau2 * tau2);
-                let mean_err = mean_err * (1.0 + 1e-12);
-                let var = (tau2 - quad).max(VAR_FLOOR);
-                (mean, var, mean_err, var_err, active.len())
+                let qr = qr.as_slice().expect("a fresh array");
+                let gr = gr.as_slice().expect("a fresh array");
+                self.row_at(qr, gr, self.cut, &bands, &mut work)
             })
             .collect()
     }
+
+    /// One scaled query `qr` (its products with the training rows `gr`)
+    /// at cut `cut`: mean, variance, their error bounds and the rows
+    /// inside.
+    fn row_at(
+        &self,
+        qr: &[f64],
+        gr: &[f64],
+        cut: f64,
+        bands: &[(f64, f64)],
+        work: &mut RowWork,
+    ) -> (f64, f64, f64, f64, usize) {
+        let d = qr.len();
+        let n = self.xl.nrows();
+        let tau2 = self.signal_var;
+        let qn: f64 = qr.iter().map(|v| v * v).sum();
+        let RowWork {
+            active,
+            alpha_in,
+            count_in,
+        } = work;
+        active.clear();
+        alpha_in.clear();
+        alpha_in.resize(bands.len(), 0.0);
+        count_in.clear();
+        count_in.resize(bands.len(), 0);
+        let xl = self.xl.as_slice().expect("a fresh array");
+        for (i, (&gv, &xn)) in gr.iter().zip(&self.xl_norm).enumerate() {
+            // the product's rounding: well inside this margin
+            let margin = 1e-9 * (1.0 + qn + xn);
+            let screen = qn + xn - 2.0 * gv;
+            if screen <= cut + margin {
+                let xr = &xl[i * d..(i + 1) * d];
+                let mut d2 = 0.0;
+                for (qj, xj) in qr.iter().zip(xr) {
+                    let e = qj - xj;
+                    d2 += e * e;
+                }
+                if d2 <= cut {
+                    active.push((i, tau2 * (-0.5 * d2).exp()));
+                    continue;
+                }
+            }
+            // dropped: in the farthest band its distance reaches (the
+            // bands' lower ends increase: counted without a branch, the
+            // same band as the last one at or below)
+            let lower = screen - margin;
+            let b = bands
+                .iter()
+                .map(|(c, _)| usize::from(*c <= lower))
+                .sum::<usize>()
+                .saturating_sub(1);
+            alpha_in[b] += self.alpha[i].abs();
+            count_in[b] += 1;
+        }
+        let kinv = self.kinv.as_slice().expect("a fresh array");
+        let mut mean = 0.0;
+        let mut ks2 = 0.0;
+        let mut quad = 0.0;
+        // kᵀBk over S: the diagonal and twice the lower triangle, each
+        // row's sum in four interleaved parts (c mod 4, then added in a
+        // fixed order), so that the additions do not wait on each other
+        for (j, &(a, ka)) in active.iter().enumerate() {
+            mean += ka * self.alpha[a];
+            ks2 += ka * ka;
+            let row = &kinv[a * n..(a + 1) * n];
+            let mut part = [0.0; 4];
+            let mut quads = active[..j].chunks_exact(4);
+            for q in &mut quads {
+                for (p, &(c, kc)) in part.iter_mut().zip(q) {
+                    *p += row[c] * kc;
+                }
+            }
+            for (p, &(c, kc)) in part.iter_mut().zip(quads.remainder()) {
+                *p += row[c] * kc;
+            }
+            let s = (part[0] + part[1]) + (part[2] + part[3]);
+            quad += ka * (2.0 * s + row[a] * ka);
+        }
+        // |Σ_D kₙαₙ| ≤ Σ_bands κ_b Σ|αₙ|, ‖k_D‖² ≤ Σ_bands κ_b² count_b
+        let mut mean_err = 0.0;
+        let mut kd2 = 0.0;
+        for ((&(_, kb), a), &c) in bands.iter().zip(alpha_in.iter()).zip(count_in.iter()) {
+            mean_err += kb * a;
+            kd2 += kb * kb * c as f64;
+        }
+        let kd = kd2.sqrt() * (1.0 + 1e-12);
+        let var_err = self.kinv_norm * (2.0 * ks2.sqrt() * kd + kd * kd)
+            + 4.0 * n as f64 * f64::EPSILON * self.kinv_norm * ks2.max(tau2 * tau2);
+        let mean_err = mean_err * (1.0 + 1e-12);
+        let var = (tau2 - quad).max(VAR_FLOOR);
+        (mean, var, mean_err, var_err, active.len())
+    }
+}
+
+/// Buffers of [`FastProcess::row_at`], reused from row to row.
+#[derive(Default)]
+struct RowWork {
+    active: Vec<(usize, f64)>,
+    alpha_in: Vec<f64>,
+    count_in: Vec<usize>,
 }
 
 /// The residual process's fast path on its own, for measuring it.
