@@ -183,7 +183,9 @@ fn main() {
     // 1. training, concrete default
     let concrete_model = w("concrete_new.json");
     let base_model = w("concrete_base.json");
-    let train = ["train", "--data", &data_s, "--target", &target, "--seed", "1", "--quiet"];
+    let train = [
+        "train", "--data", &data_s, "--target", &target, "--seed", "1", "--quiet",
+    ];
     let n = timed(
         &new_bin,
         &[&train[..], &["--out", &concrete_model]].concat(),
@@ -337,7 +339,9 @@ fn main() {
     let in_process = pool.install(|| {
         let t = Instant::now();
         let predictor = model.predictor(false);
-        let full = predictor.predict_with_scale(&core_table).expect("prediction");
+        let full = predictor
+            .predict_with_scale(&core_table)
+            .expect("prediction");
         assert_eq!(full.rows.len(), CORE_ROWS);
         (t.elapsed().as_secs_f64(), predictor.stats())
     });

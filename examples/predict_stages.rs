@@ -72,6 +72,26 @@ fn main() {
         "exact learnt    {:.3} s (members and process, 2 threads)",
         t.elapsed().as_secs_f64()
     );
+    // the members' eigen-decompositions, by the two symmetric solvers
+    // (one thread each, every member in turn)
+    for target in &model.targets {
+        let members = &target.committee.members;
+        let t = Instant::now();
+        for m in members {
+            std::hint::black_box(mettle::linalg::symmetric_eigen(m.posterior_cov.view()));
+        }
+        let jacobi = t.elapsed().as_secs_f64();
+        let t = Instant::now();
+        for m in members {
+            std::hint::black_box(mettle::linalg::symmetric_eigen_ql(m.posterior_cov.view()));
+        }
+        println!(
+            "eigen, {} members (k = {:?}): Jacobi {jacobi:.3} s, Householder + QL {:.3} s (1 thread)",
+            members.len(),
+            members.iter().map(|m| m.posterior_cov.nrows()).collect::<Vec<_>>(),
+            t.elapsed().as_secs_f64()
+        );
+    }
     let t = Instant::now();
     let predictor = model.predictor(false);
     println!(

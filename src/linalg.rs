@@ -992,7 +992,9 @@ mod tests {
     /// ‖AV − VΛ‖ and ‖VᵀV − I‖, elementwise maxima.
     fn eigen_residuals(a: &Array2<f64>, vals: &Array1<f64>, vecs: &Array2<f64>) -> (f64, f64) {
         let av = naive(a.view(), vecs.view());
-        let res = (&av - &(vecs * vals)).iter().fold(0.0_f64, |m, v| m.max(v.abs()));
+        let res = (&av - &(vecs * vals))
+            .iter()
+            .fold(0.0_f64, |m, v| m.max(v.abs()));
         let vtv = naive(vecs.t(), vecs.view());
         let orth = (&vtv - &Array2::<f64>::eye(a.nrows()))
             .iter()
@@ -1009,7 +1011,8 @@ mod tests {
     /// AV = VΛ and VᵀV = I to rounding.
     #[test]
     fn ql_eigenvalues_match_scipy_eigh() {
-        let comb = |n: usize, k: usize| (0..k).fold(1.0, |c, i| c * (n - i) as f64 / (i + 1) as f64);
+        let comb =
+            |n: usize, k: usize| (0..k).fold(1.0, |c, i| c * (n - i) as f64 / (i + 1) as f64);
         let cases: [(&str, Array2<f64>, Vec<f64>); 3] = [
             (
                 "hilbert6",
@@ -1059,7 +1062,10 @@ mod tests {
                 assert!((got - w).abs() <= 1e-13 * top, "{name}: {got} against {w}");
             }
             let (res, orth) = eigen_residuals(&a, &vals, &vecs);
-            assert!(res <= 1e-13 * top && orth <= 1e-13, "{name}: {res:e} {orth:e}");
+            assert!(
+                res <= 1e-13 * top && orth <= 1e-13,
+                "{name}: {res:e} {orth:e}"
+            );
         }
     }
 
@@ -1078,13 +1084,15 @@ mod tests {
         });
         let w = Array1::from_shape_fn(n, |i| 1.0 + (i as f64 * 0.7).sin());
         let h = Array2::<f64>::eye(n)
-            - &(w.view().insert_axis(Axis(1)).dot(&w.view().insert_axis(Axis(0)))
+            - &(w
+                .view()
+                .insert_axis(Axis(1))
+                .dot(&w.view().insert_axis(Axis(0)))
                 * (2.0 / w.dot(&w)));
         let a = naive(naive(h.view(), t.view()).view(), h.view());
         let (vals, vecs) = symmetric_eigen_ql(a.view()).expect("converges");
         for (j, v) in vals.iter().enumerate() {
-            let want = 2.0
-                - 2.0 * ((j + 1) as f64 * std::f64::consts::PI / (n + 1) as f64).cos();
+            let want = 2.0 - 2.0 * ((j + 1) as f64 * std::f64::consts::PI / (n + 1) as f64).cos();
             assert!((v - want).abs() < 1e-13, "λ_{j}: {v} against {want}");
         }
         let (res, orth) = eigen_residuals(&a, &vals, &vecs);
@@ -1109,8 +1117,13 @@ mod tests {
                 assert!((q - j).abs() <= 1e-12 * top, "n = {n}: {q} against {j}");
             }
             let (res, orth) = eigen_residuals(&a, &ql, &vecs);
-            assert!(res <= 1e-12 * top && orth <= 1e-12, "n = {n}: {res:e} {orth:e}");
+            assert!(
+                res <= 1e-12 * top && orth <= 1e-12,
+                "n = {n}: {res:e} {orth:e}"
+            );
         }
-        assert!(symmetric_eigen_ql(ArrayView2::from_shape((1, 1), &[f64::NAN]).expect("1×1")).is_none());
+        assert!(
+            symmetric_eigen_ql(ArrayView2::from_shape((1, 1), &[f64::NAN]).expect("1×1")).is_none()
+        );
     }
 }
