@@ -1,32 +1,43 @@
 #!/usr/bin/env python3
-"""mettle's default committee, scikit-learn's ARD Gaussian process and an ensemble of
-scikit-learn MLPs, trained one after the other in one run on the same UCI concrete splits.
+"""mettle's default committee, scikit-learn's ARD Gaussian process, an ensemble of
+scikit-learn MLPs and CatBoost's gradient-boosted trees, trained one after the other in one
+run on the same standard UCI splits (concrete, energy, yacht, red wine).
 
-Run by hand (not part of `make test`; a full run takes about an hour on 2 cores):
+Run by hand (not part of `make test`; all four methods on the 20 concrete splits take about
+an hour on 2 cores, mettle alone on the 20 splits of all four sets about half an hour):
 
-    pip install scikit-learn
+    ~/.cache/mettle/venv/bin/pip install scikit-learn catboost
     cargo build --release --locked
-    python3 benches/side_by_side.py --markdown /tmp/side_by_side.md          # 20 splits
+    python3 benches/side_by_side.py --markdown /tmp/side_by_side.md          # concrete, 20 splits
+    python3 benches/side_by_side.py --datasets concrete,energy,yacht,wine-quality-red \
+        --methods mettle,catboost --markdown /tmp/side_by_side.md            # issue 29's table
     python3 benches/side_by_side.py --splits 2                              # a quick look
 
-Options: --data-dir DIR (default: $METTLE_SHARED/datasets/uci/concrete, else
-/work/shared/datasets/uci/concrete, else ../shared/datasets/uci/concrete from the repository
-root), --mettle PATH (default: $CARGO_TARGET_DIR/release/mettle, else
+Options: --datasets A,B,... (default concrete; any of concrete, energy, yacht,
+wine-quality-red), --methods A,B,... (default mettle,gp,mlp,catboost; a run can leave out
+slow ones), --data-root DIR (the folder holding one folder per data set; default:
+$METTLE_SHARED/datasets/uci, else /work/shared/datasets/uci, else ../shared/datasets/uci
+from the repository root), --mettle PATH (default: $CARGO_TARGET_DIR/release/mettle, else
 ~/.cache/mettle/target/release/mettle), --splits N, --first-split K, --threads T (default 2),
---gp-restarts R (default 2), --mlp-members M (default 5), --markdown FILE, --keep DIR.
+--gp-restarts R (default 2), --mlp-members M (default 5), --markdown FILE, --keep DIR,
+--max-minutes M (per data set).
 
-Run with (the versions of the published table): Python 3.11.7, scikit-learn 1.9.1,
-numpy 2.4.6 (OpenBLAS 0.3.31), scipy 1.17.1.
+Run with (the versions of the published tables): Python 3.11.7, scikit-learn 1.9.1,
+numpy 2.4.6 (OpenBLAS 0.3.31), scipy 1.17.1, catboost 1.2.10.
 
-What it measures. The data are data.csv (header row; target = last column) and the 20
-standard 90/10 splits (splits/train_K.txt, splits/test_K.txt: 0-based row indices). On each
+What it measures. Each data set is a folder NAME/ under the data root holding data.csv
+(header row; target = last column) and the 20 standard 90/10 splits (splits/train_K.txt, splits/test_K.txt: 0-based row indices). On each
 split, in this order:
 
   a. mettle: the release binary with default settings,
      `mettle train --data train.csv --target <col> --out m.json --quiet`, timed as the wall time
-     of that process; then `mettle predict` on the test part (mean and sd per row), scored by
-     the code below, and `mettle evaluate --format json`, whose rmse / nlpd / coverages must
-     agree with that scoring (a check of the scoring code; the run stops if they differ).
+     of that process; then `mettle predict` on the test part (the mean per row) and
+     `mettle evaluate --format json`. RMSE from predict's means, which must agree with
+     evaluate's rmse (the run stops if they differ); LL = -nlpd and the coverages
+     (coverage_68, coverage_95) are evaluate's, because mettle's predictive density is its
+     own: the default lets the held-out part inside the training rows choose a Student-t
+     shape and a share of gross errors, and the coverages count its central 68 % and 95 %
+     intervals as predict prints them (lo95, hi95), not mean ± 1 or 2 sd.
   b. GaussianProcessRegressor, kernel ConstantKernel * RBF(length_scale=ones(d)) + WhiteKernel
      (one length scale per input: ARD), normalize_y=True, inputs standardised with the mean
      and sd of the training part, n_restarts_optimizer=--gp-restarts, random_state=split.
@@ -40,10 +51,18 @@ split, in this order:
      Predictive mean = mean of the M members; predictive variance = variance of the M
      members' predictions (ddof 0) + a noise variance, the mean squared out-of-fold residual.
      Timed: the M fits plus the noise estimate. Members are fitted one after the other.
+  d. CatBoostRegressor with its default settings except loss_function="RMSEWithUncertainty"
+     (a second output per row, the log of the noise variance, learnt jointly with the mean),
+     random_seed=split, thread_count=T, verbose=False; raw inputs, raw target. Timed: fit().
+     predict(prediction_type="RMSEWithUncertainty") returns per row the mean and the variance
+     (a variance since catboost 0.24.2, release notes: "now it predicts variance, not standard
+     deviation"); sd = sqrt(variance). This is the data (noise) variance alone: CatBoost's
+     default model has no knowledge-uncertainty term (that needs posterior sampling and a
+     virtual ensemble, not default settings).
 
 Scores on the test part only: RMSE, test log-likelihood LL = mean log N(y | mean, sd^2)
 (natural log, target in its own units; LL = -NLPD), and the share of test rows inside
-mean ± 1 sd and mean ± 2 sd. The table gives mean ± standard error over the splits, the
+mean ± 1 sd and mean ± 2 sd (for mettle: its own density and central intervals, see a.). The table gives mean ± standard error over the splits, the
 median fit time per method and the ratios of median fit times GP / mettle and
 MLP ensemble / mettle (and the median of the per-split ratios), both in wall time and in
 CPU time (user + system of all threads; for mettle, of the child process). On a machine
@@ -55,7 +74,7 @@ machine). mettle: RAYON_NUM_THREADS=T (it fixes its own OpenBLAS at 1 thread; it
 parallelism is candidate networks on rayon threads). scikit-learn: OPENBLAS_NUM_THREADS =
 OMP_NUM_THREADS = MKL_NUM_THREADS = T, set before numpy is imported and enforced with
 threadpoolctl; the GP's Cholesky and gradient products and the MLPs' matrix products use
-those BLAS threads. The load average is printed at the start, after every split and at the
+those BLAS threads. CatBoost: thread_count=T. The load average is printed at the start, after every split and at the
 end: the machine may be shared.
 """
 
@@ -75,13 +94,22 @@ from pathlib import Path
 REPO = Path(__file__).resolve().parent.parent
 
 
+DATASETS = ("concrete", "energy", "yacht", "wine-quality-red")
+METHODS = ("mettle", "gp", "mlp", "catboost")
+
+
 def parse_args():
     p = argparse.ArgumentParser(
-        description="mettle vs scikit-learn ARD GP vs MLP ensemble on UCI concrete, side by side.",
+        description="mettle vs an ARD GP vs an MLP ensemble vs CatBoost on UCI sets, side by side.",
         formatter_class=argparse.RawDescriptionHelpFormatter,
         epilog=__doc__.split("What it measures.")[1] if __doc__ else None,
     )
-    p.add_argument("--data-dir", type=Path, default=None, help="folder with data.csv and splits/")
+    p.add_argument("--datasets", default="concrete",
+                   help="comma-separated data sets (default concrete): " + ",".join(DATASETS))
+    p.add_argument("--methods", default=",".join(METHODS),
+                   help="comma-separated methods (default all): " + ",".join(METHODS))
+    p.add_argument("--data-root", type=Path, default=None,
+                   help="folder with one folder per data set (data.csv and splits/)")
     p.add_argument("--mettle", type=Path, default=None, help="the mettle release binary")
     p.add_argument("--splits", type=int, default=20, help="number of splits (default 20)")
     p.add_argument("--first-split", type=int, default=0, help="first split index (default 0)")
@@ -89,16 +117,27 @@ def parse_args():
     p.add_argument("--gp-restarts", type=int, default=2, help="GP optimiser restarts (default 2)")
     p.add_argument("--mlp-members", type=int, default=5, help="MLPs in the ensemble (default 5)")
     p.add_argument("--mlp-hidden", type=int, default=50, help="hidden units per MLP (default 50)")
-    p.add_argument("--markdown", type=Path, default=None, help="write the table here as well")
+    p.add_argument("--markdown", type=Path, default=None, help="write the tables here as well")
     p.add_argument("--keep", type=Path, default=None, help="keep split CSVs and models here")
     p.add_argument(
         "--max-minutes",
         type=float,
         default=None,
-        help="start no new split when it would likely end after this many minutes; "
-        "the table then covers the splits done (and says how many)",
+        help="per data set: start no new split when it would likely end after this many "
+        "minutes; the table then covers the splits done (and says how many)",
     )
-    return p.parse_args()
+    args = p.parse_args()
+    args.datasets = [d for d in args.datasets.split(",") if d]
+    args.methods = [m for m in args.methods.split(",") if m]
+    for d in args.datasets:
+        if d not in DATASETS:
+            p.error(f"unknown data set {d!r}; known: {', '.join(DATASETS)}")
+    for m in args.methods:
+        if m not in METHODS:
+            p.error(f"unknown method {m!r}; known: {', '.join(METHODS)}")
+    # table order is the canonical order, whatever order was asked for
+    args.methods = [m for m in METHODS if m in args.methods]
+    return args
 
 
 ARGS = parse_args()
@@ -108,27 +147,28 @@ for var in ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS"):
 
 import numpy as np  # noqa: E402
 import scipy  # noqa: E402
-import sklearn  # noqa: E402
-from sklearn.gaussian_process import GaussianProcessRegressor  # noqa: E402
-from sklearn.gaussian_process.kernels import RBF, ConstantKernel, WhiteKernel  # noqa: E402
-from sklearn.neural_network import MLPRegressor  # noqa: E402
 from threadpoolctl import threadpool_info, threadpool_limits  # noqa: E402
 
+if "gp" in ARGS.methods or "mlp" in ARGS.methods:
+    import sklearn  # noqa: E402
+    from sklearn.gaussian_process import GaussianProcessRegressor  # noqa: E402
+    from sklearn.gaussian_process.kernels import RBF, ConstantKernel, WhiteKernel  # noqa: E402
+    from sklearn.neural_network import MLPRegressor  # noqa: E402
+if "catboost" in ARGS.methods:
+    import catboost  # noqa: E402
 
-def find_data_dir(given):
+
+def find_data_root(given):
     if given is not None:
         return given
     candidates = []
     if os.environ.get("METTLE_SHARED"):
-        candidates.append(Path(os.environ["METTLE_SHARED"]) / "datasets/uci/concrete")
-    candidates += [
-        Path("/work/shared/datasets/uci/concrete"),
-        REPO.parent / "shared/datasets/uci/concrete",
-    ]
+        candidates.append(Path(os.environ["METTLE_SHARED"]) / "datasets/uci")
+    candidates += [Path("/work/shared/datasets/uci"), REPO.parent / "shared/datasets/uci"]
     for c in candidates:
-        if (c / "data.csv").is_file():
+        if (c / "concrete/data.csv").is_file():
             return c
-    sys.exit("concrete data not found; tried " + ", ".join(map(str, candidates)))
+    sys.exit("UCI data not found; tried " + ", ".join(map(str, candidates)))
 
 
 def find_mettle(given):
@@ -203,19 +243,20 @@ def fit_mettle(binary, work, header, train, test, threads):
     env = dict(os.environ, RAYON_NUM_THREADS=str(threads))
     with Clock(children=True) as clock:
         run([binary, "train", "--data", train_csv, "--target", target, "--out", model, "--quiet"], env)
-    rows = json.loads(
+    out = json.loads(
         run([binary, "predict", "--model", model, "--input", test_csv, "--format", "json"], env)
     )
-    mean = np.array([r["mean"] for r in rows])
-    sd = np.array([r["sd"] for r in rows])
-    s = scores(test[:, -1], mean, sd)
+    mean = np.array([r["estimates"][target]["mean"] for r in out["rows"]])
     ev = json.loads(
         run([binary, "evaluate", "--model", model, "--data", test_csv, "--format", "json"], env)
     )
-    for ours, theirs, sign in (("rmse", "rmse", 1), ("ll", "nlpd", -1),
-                               ("cov68", "coverage_68", 1), ("cov95", "coverage_95", 1)):
-        if abs(s[ours] - sign * ev[theirs]) > 1e-6 * max(1.0, abs(ev[theirs])):
-            sys.exit(f"scoring disagrees with mettle evaluate: {ours} {s[ours]} vs {theirs} {ev[theirs]}")
+    rmse = float(np.sqrt(np.mean((test[:, -1] - mean) ** 2)))
+    if abs(rmse - ev["rmse"]) > 1e-6 * max(1.0, ev["rmse"]):
+        sys.exit(f"scoring disagrees with mettle evaluate: rmse {rmse} vs {ev['rmse']}")
+    # mettle's predictive density is its own (a Student-t shape and a share of gross
+    # errors when the held-out part chose them): LL and coverages are evaluate's
+    s = {"rmse": rmse, "ll": -ev["nlpd"], "cov68": ev["coverage_68"],
+         "cov95": ev["coverage_95"]}
     return s, clock.times
 
 
@@ -268,6 +309,21 @@ def fit_mlp_ensemble(train, test, members, hidden, seed):
     return scores(test[:, -1], mean, sd), clock.times
 
 
+def fit_catboost(train, test, seed, threads):
+    model = catboost.CatBoostRegressor(
+        loss_function="RMSEWithUncertainty",
+        random_seed=seed,
+        thread_count=threads,
+        verbose=False,
+        allow_writing_files=False,
+    )
+    with Clock() as clock:
+        model.fit(train[:, :-1], train[:, -1])
+    pred = np.asarray(model.predict(test[:, :-1], prediction_type="RMSEWithUncertainty"))
+    mean, var = pred[:, 0], pred[:, 1]
+    return scores(test[:, -1], mean, np.sqrt(var)), clock.times
+
+
 def mean_se(v):
     v = np.asarray(v, dtype=float)
     se = v.std(ddof=1) / math.sqrt(len(v)) if len(v) > 1 else float("nan")
@@ -278,106 +334,155 @@ def loadavg():
     return "load average %.2f %.2f %.2f" % os.getloadavg()
 
 
-def main():
-    data_dir = find_data_dir(ARGS.data_dir)
-    binary = find_mettle(ARGS.mettle)
-    header, data = read_csv(data_dir / "data.csv")
-    version = run([binary, "--version"], dict(os.environ)).strip()
+def versions():
+    parts = [f"Python {platform.python_version()}", f"numpy {np.__version__}",
+             f"scipy {scipy.__version__}"]
+    if "gp" in ARGS.methods or "mlp" in ARGS.methods:
+        parts.append(f"scikit-learn {sklearn.__version__}")
+    if "catboost" in ARGS.methods:
+        parts.append(f"catboost {catboost.__version__}")
     blas = [(i["internal_api"], i["version"], i["num_threads"]) for i in threadpool_info()]
-    print(f"data {data_dir} ({data.shape[0]} rows, {data.shape[1] - 1} inputs, target {header[-1]})")
-    print(f"{version} at {binary}")
-    print(
-        f"Python {platform.python_version()}, scikit-learn {sklearn.__version__}, "
-        f"numpy {np.__version__}, scipy {scipy.__version__}, BLAS {blas}"
-    )
+    return ", ".join(parts) + f", BLAS {blas}"
+
+
+def run_dataset(name, data_dir, binary, work):
+    """Every asked-for method on the splits of one data set; {method: [(scores, times)]}."""
+    header, data = read_csv(data_dir / "data.csv")
+    print(f"== {name}: {data_dir} ({data.shape[0]} rows, {data.shape[1] - 1} inputs, "
+          f"target {header[-1]})", flush=True)
+    results = {m: [] for m in ARGS.methods}
+    splits = range(ARGS.first_split, ARGS.first_split + ARGS.splits)
+    started, done = time.perf_counter(), 0
+    for k in splits:
+        elapsed = time.perf_counter() - started
+        if ARGS.max_minutes is not None and done > 0:
+            if elapsed * (done + 1) / done > 60.0 * ARGS.max_minutes:
+                print(f"stopping after {done} splits: --max-minutes {ARGS.max_minutes}")
+                break
+        tr = np.loadtxt(data_dir / f"splits/train_{k}.txt", dtype=int)
+        te = np.loadtxt(data_dir / f"splits/test_{k}.txt", dtype=int)
+        train, test = data[tr], data[te]
+        kern = None
+        if "mettle" in results:
+            sw = work / name / f"split_{k}"
+            sw.mkdir(parents=True, exist_ok=True)
+            results["mettle"].append(fit_mettle(binary, sw, header, train, test, ARGS.threads))
+        if "gp" in results:
+            s, t, kern = fit_gp(train, test, ARGS.gp_restarts, k)
+            results["gp"].append((s, t))
+        if "mlp" in results:
+            results["mlp"].append(
+                fit_mlp_ensemble(train, test, ARGS.mlp_members, ARGS.mlp_hidden, k))
+        if "catboost" in results:
+            results["catboost"].append(fit_catboost(train, test, k, ARGS.threads))
+        line = " | ".join(
+            f"{m} rmse {r[-1][0]['rmse']:.3f} ll {r[-1][0]['ll']:.3f} "
+            f"{r[-1][1][0]:.1f} s ({r[-1][1][1]:.1f} s CPU)"
+            for m, r in results.items()
+        )
+        print(f"{name} split {k}: {line} | {loadavg()}", flush=True)
+        if kern is not None:
+            print(f"  GP kernel: {kern}", flush=True)
+        done += 1
+    return results, done
+
+
+def main():
+    root = find_data_root(ARGS.data_root)
+    binary = find_mettle(ARGS.mettle) if "mettle" in ARGS.methods else None
+    if binary is not None:
+        version = run([binary, "--version"], dict(os.environ)).strip()
+        print(f"{version} at {binary}")
+    print(versions())
+    print(f"data sets {', '.join(ARGS.datasets)} under {root}; methods {', '.join(ARGS.methods)}")
     print(f"threads {ARGS.threads}, GP restarts {ARGS.gp_restarts}, "
           f"MLP ensemble {ARGS.mlp_members} x {ARGS.mlp_hidden} ReLU")
     print(f"start {time.strftime('%Y-%m-%d %H:%M:%S UTC', time.gmtime())}, {loadavg()}")
     work = ARGS.keep or Path(tempfile.mkdtemp(prefix="mettle-side-by-side-"))
     work.mkdir(parents=True, exist_ok=True)
-    results = {"mettle": [], "gp": [], "mlp": []}
-    splits = range(ARGS.first_split, ARGS.first_split + ARGS.splits)
-    started, done = time.perf_counter(), 0
+    tables = []
     with threadpool_limits(limits=ARGS.threads):
-        for k in splits:
-            elapsed = time.perf_counter() - started
-            if ARGS.max_minutes is not None and done > 0:
-                if elapsed * (done + 1) / done > 60.0 * ARGS.max_minutes:
-                    print(f"stopping after {done} splits: --max-minutes {ARGS.max_minutes}")
-                    break
-            tr = np.loadtxt(data_dir / f"splits/train_{k}.txt", dtype=int)
-            te = np.loadtxt(data_dir / f"splits/test_{k}.txt", dtype=int)
-            train, test = data[tr], data[te]
-            sw = work / f"split_{k}"
-            sw.mkdir(exist_ok=True)
-            s, t = fit_mettle(binary, sw, header, train, test, ARGS.threads)
-            results["mettle"].append((s, t))
-            s, t, kern = fit_gp(train, test, ARGS.gp_restarts, k)
-            results["gp"].append((s, t))
-            s, t = fit_mlp_ensemble(train, test, ARGS.mlp_members, ARGS.mlp_hidden, k)
-            results["mlp"].append((s, t))
-            line = " | ".join(
-                f"{m} rmse {r[-1][0]['rmse']:.3f} ll {r[-1][0]['ll']:.3f} "
-                f"{r[-1][1][0]:.1f} s ({r[-1][1][1]:.1f} s CPU)"
-                for m, r in results.items()
-            )
-            print(f"split {k}: {line} | {loadavg()}", flush=True)
-            print(f"  GP kernel: {kern}", flush=True)
-            done += 1
+        for name in ARGS.datasets:
+            data_dir = root / name
+            if not (data_dir / "data.csv").is_file():
+                sys.exit(f"{data_dir / 'data.csv'}: not found")
+            results, done = run_dataset(name, data_dir, binary, work)
+            tables.append(markdown(name, results, done))
+            print(tables[-1], flush=True)
     print(f"end {time.strftime('%Y-%m-%d %H:%M:%S UTC', time.gmtime())}, {loadavg()}")
     if ARGS.keep is None:
         shutil.rmtree(work)
-    table = markdown(results, done)
-    print(table)
+    text = "\n".join(tables) + "\n" + versions() + "\n"
+    if len(tables) > 1:
+        print(text)
     if ARGS.markdown:
-        ARGS.markdown.write_text(table, encoding="utf-8")
+        ARGS.markdown.write_text(text, encoding="utf-8")
 
 
-def markdown(results, n):
+def markdown(name, results, n):
     names = {
         "mettle": "mettle (default committee)",
         "gp": f"scikit-learn GP, ARD RBF + white noise ({ARGS.gp_restarts} restarts)",
         "mlp": f"{ARGS.mlp_members} scikit-learn MLPs ({ARGS.mlp_hidden} ReLU), cross-fitted noise",
+        "catboost": "CatBoost, default settings, RMSEWithUncertainty",
     }
+    base = "mettle" if "mettle" in results else None
+
     def med(m, i):
         return float(np.median([t[i] for _, t in results[m]]))
 
     def ratio(m, i):
-        if m == "mettle":
+        if m == base:
             return "1"
-        per_split = [t[i] / tm[i] for (_, t), (_, tm) in zip(results[m], results["mettle"])]
-        return f"{med(m, i) / med('mettle', i):.2f} ({np.median(per_split):.2f})"
+        per_split = [t[i] / tm[i] for (_, t), (_, tm) in zip(results[m], results[base])]
+        return f"{med(m, i) / med(base, i):.2f} ({np.median(per_split):.2f})"
 
+    head = "| method | RMSE | test LL | coverage 68 % | coverage 95 % | median fit wall s "
+    rule = "|---|---|---|---|---|---|"
+    if base:
+        head += "| wall / mettle's | median fit CPU s | CPU / mettle's |"
+        rule += "---|---|---|"
+    else:
+        head += "| median fit CPU s |"
+        rule += "---|"
     out = [
-        f"Concrete, {n} splits ({ARGS.first_split}..{ARGS.first_split + n - 1}), "
+        f"{name}, {n} splits ({ARGS.first_split}..{ARGS.first_split + n - 1}), "
         f"{ARGS.threads} threads per method; mean ± SE over splits.",
         "",
-        "| method | RMSE (MPa) | test LL | coverage ±1 sd | coverage ±2 sd "
-        "| median fit wall s | wall / mettle's | median fit CPU s | CPU / mettle's |",
-        "|---|---|---|---|---|---|---|---|---|",
+        head,
+        rule,
     ]
     for m, r in results.items():
         cells = []
         for key in ("rmse", "ll", "cov68", "cov95"):
             mu, se = mean_se([s[key] for s, _ in r])
             cells.append(f"{mu:.3f} ± {se:.3f}")
-        cells += [f"{med(m, 0):.1f}", ratio(m, 0), f"{med(m, 1):.1f}", ratio(m, 1)]
+        if base:
+            cells += [f"{med(m, 0):.1f}", ratio(m, 0), f"{med(m, 1):.1f}", ratio(m, 1)]
+        else:
+            cells += [f"{med(m, 0):.1f}", f"{med(m, 1):.1f}"]
         out.append(f"| {names[m]} | " + " | ".join(cells) + " |")
-    out += [
-        "",
-        "Ratios: median fit time of the method / median fit time of mettle; in brackets the "
-        "median over splits of the per-split ratio. CPU = user + system time of all threads.",
-    ]
-    wins = {
-        m: sum(s["ll"] < sm["ll"] for (s, _), (sm, _) in zip(results[m], results["mettle"]))
-        for m in ("gp", "mlp")
-    }
-    out += [
-        "",
-        f"Splits where mettle's test LL is higher: {wins['gp']} / {n} against the GP, "
-        f"{wins['mlp']} / {n} against the MLP ensemble.",
-        "",
-    ]
+    if base and len(results) > 1:
+        out += [
+            "",
+            "Ratios: median fit time of the method / median fit time of mettle; in brackets the "
+            "median over splits of the per-split ratio. CPU = user + system time of all threads.",
+            "",
+        ]
+        for m in results:
+            if m == base:
+                continue
+            pairs = list(zip(results[m], results[base]))
+            ll = sum(s["ll"] < sm["ll"] for (s, _), (sm, _) in pairs)
+            rm = sum(s["rmse"] > sm["rmse"] for (s, _), (sm, _) in pairs)
+            d = [s["rmse"] - sm["rmse"] for (s, _), (sm, _) in pairs]
+            mu, se = mean_se(d)
+            out.append(
+                f"Against {names[m]}: mettle's test LL higher on {ll} / {n} splits, its RMSE "
+                f"lower on {rm} / {n}; RMSE difference (method − mettle) {mu:+.3f} ± {se:.3f} "
+                "(paired SE)."
+            )
+    out.append("")
     return "\n".join(out)
 
 

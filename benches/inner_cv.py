@@ -1,0 +1,193 @@
+#!/usr/bin/env python3
+"""Diagnosis on training rows only (issue 29): k-fold cross-validation inside the training
+part of a few standard UCI splits, for mettle under several settings and for CatBoost with
+its default settings. The test parts of the standard splits are never read.
+
+    python3 benches/inner_cv.py --dataset concrete --outer 0 --folds 4 \\
+        --config default= --config restarts8=--restarts,8 --catboost --out /tmp/cv
+
+--config NAME=ARGS: a mettle setting to try, ARGS = extra `mettle train` options separated
+by commas (empty: the defaults). For each outer split K, the training rows
+(splits/train_K.txt) are cut into --folds folds by a seeded shuffle (seed 1000 + K); every
+setting is trained on all folds but one and predicts the left-out fold, so every training
+row is predicted once by a model that did not see it. Printed per setting: the
+cross-validated RMSE, a Gaussian LL (mean log N(y | mean, sd^2), for mettle not its own density: a diagnostic of the mean first), coverage of ±1 sd and ±2 sd, the
+paired RMSE difference against the first setting (mean over folds ± its SE), and the CPU
+time of the fits. With --rows DIR the per-row out-of-fold predictions are written as
+DIR/<dataset>_<outer>_<setting>.csv (row = index into data.csv, y, mean, sd) for the
+residual study (benches/inner_cv.py --groups).
+
+--groups: instead of training, read the per-row files of --rows DIR and report how much of
+each setting's out-of-fold squared error is shared by the rows of one group (concrete: one
+mix, i.e. the seven composition inputs, at several ages; energy: one building, i.e. every
+input but orientation), and the error by value of each input with few distinct values.
+"""
+
+import argparse
+import math
+import os
+import resource
+import subprocess
+import sys
+import tempfile
+import time
+from pathlib import Path
+
+p = argparse.ArgumentParser(description=__doc__.split("\n\n")[0])
+p.add_argument("--dataset", required=True)
+p.add_argument("--data-root", type=Path, default=Path("/work/shared/datasets/uci"))
+p.add_argument("--outer", default="0", help="outer split indices, comma-separated")
+p.add_argument("--folds", type=int, default=4)
+p.add_argument("--config", action="append", default=[])
+p.add_argument("--catboost", action="store_true")
+p.add_argument("--mettle", type=Path,
+               default=Path(os.environ.get("CARGO_TARGET_DIR", "")) / "release/mettle")
+p.add_argument("--threads", type=int, default=2)
+p.add_argument("--rows", type=Path, default=None)
+p.add_argument("--groups", action="store_true")
+ARGS = p.parse_args()
+for var in ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS"):
+    os.environ[var] = str(ARGS.threads)
+import numpy as np  # noqa: E402
+
+DATA = ARGS.data_root / ARGS.dataset
+
+
+def read():
+    with open(DATA / "data.csv", encoding="utf-8") as f:
+        header = f.readline().strip().split(",")
+    return header, np.loadtxt(DATA / "data.csv", delimiter=",", skiprows=1, ndmin=2)
+
+
+def write_csv(path, header, rows):
+    np.savetxt(path, rows, delimiter=",", header=",".join(header), comments="", fmt="%.17g")
+
+
+def child_cpu():
+    r = resource.getrusage(resource.RUSAGE_CHILDREN)
+    return r.ru_utime + r.ru_stime
+
+
+def mettle_fold(header, train, test, extra, work):
+    tr, te, m = work / "tr.csv", work / "te.csv", work / "m.json"
+    write_csv(tr, header, train)
+    write_csv(te, header, test)
+    env = dict(os.environ, RAYON_NUM_THREADS=str(ARGS.threads))
+    c0 = child_cpu()
+    cmd = [ARGS.mettle, "train", "--data", tr, "--target", header[-1], "--out", m, "--quiet"]
+    subprocess.run(cmd + extra, env=env, check=True)
+    cpu = child_cpu() - c0
+    import json
+    out = subprocess.run([ARGS.mettle, "predict", "--model", m, "--input", te, "--format",
+                          "json", "--exact"], env=env, check=True, capture_output=True, text=True)
+    rows = json.loads(out.stdout)["rows"]
+    est = [r["estimates"][header[-1]] for r in rows]
+    return np.array([e["mean"] for e in est]), np.array([e["sd"] for e in est]), cpu
+
+
+def catboost_fold(train, test, seed):
+    import catboost
+    model = catboost.CatBoostRegressor(loss_function="RMSEWithUncertainty", random_seed=seed,
+                                       thread_count=ARGS.threads, verbose=False,
+                                       allow_writing_files=False)
+    c0 = time.process_time()
+    model.fit(train[:, :-1], train[:, -1])
+    cpu = time.process_time() - c0
+    pred = np.asarray(model.predict(test[:, :-1], prediction_type="RMSEWithUncertainty"))
+    return pred[:, 0], np.sqrt(pred[:, 1]), cpu
+
+
+def scores(y, mean, sd):
+    r = y - mean
+    ll = -0.5 * np.log(2 * math.pi * sd * sd) - r * r / (2 * sd * sd)
+    z = np.abs(r) / sd
+    return (math.sqrt(np.mean(r * r)), np.mean(ll), np.mean(z <= 1), np.mean(z <= 2))
+
+
+def train_all():
+    header, data = read()
+    configs = []
+    for c in ARGS.config:
+        name, _, extra = c.partition("=")
+        configs.append((name, [a for a in extra.split(",") if a]))
+    if ARGS.catboost:
+        configs.append(("catboost", None))
+    work = Path(tempfile.mkdtemp(prefix="mettle-inner-cv-"))
+    if ARGS.rows:
+        ARGS.rows.mkdir(parents=True, exist_ok=True)
+    for k in map(int, ARGS.outer.split(",")):
+        tr = np.loadtxt(DATA / f"splits/train_{k}.txt", dtype=int)
+        fold = np.random.default_rng(1000 + k).permutation(len(tr)) % ARGS.folds
+        y = data[tr, -1]
+        per_fold_rmse = {}
+        for name, extra in configs:
+            mean, sd, cpu = np.empty(len(tr)), np.empty(len(tr)), 0.0
+            for f in range(ARGS.folds):
+                a, b = data[tr[fold != f]], data[tr[fold == f]]
+                if extra is None:
+                    m, s, c = catboost_fold(a, b, 100 * k + f)
+                else:
+                    m, s, c = mettle_fold(header, a, b, extra, work)
+                mean[fold == f], sd[fold == f] = m, s
+                cpu += c
+            per_fold_rmse[name] = np.array([
+                math.sqrt(np.mean((y[fold == f] - mean[fold == f]) ** 2))
+                for f in range(ARGS.folds)])
+            rmse, ll, c68, c95 = scores(y, mean, sd)
+            first = per_fold_rmse[configs[0][0]]
+            d = per_fold_rmse[name] - first
+            se = d.std(ddof=1) / math.sqrt(len(d)) if len(d) > 1 else float("nan")
+            print(f"{ARGS.dataset} outer {k} {name:>16}: CV RMSE {rmse:.4f} LL {ll:.3f} "
+                  f"cov68 {c68:.3f} cov95 {c95:.3f} | RMSE − {configs[0][0]} "
+                  f"{d.mean():+.4f} ± {se:.4f} (folds) | CPU {cpu:.1f} s", flush=True)
+            if ARGS.rows:
+                np.savetxt(ARGS.rows / f"{ARGS.dataset}_{k}_{name}.csv",
+                           np.column_stack([tr, y, mean, sd]), delimiter=",",
+                           header="row,y,mean,sd", comments="", fmt="%.10g")
+
+
+def group_keys(header, data):
+    x = data[:, :-1]
+    if ARGS.dataset == "concrete":
+        cols = [i for i, h in enumerate(header[:-1]) if not h.startswith("age")]
+    elif ARGS.dataset == "energy":
+        cols = [i for i, h in enumerate(header[:-1]) if h != "orientation"]
+    else:
+        sys.exit("--groups knows concrete and energy")
+    _, key = np.unique(x[:, cols], axis=0, return_inverse=True)
+    return key.ravel()
+
+
+def groups():
+    header, data = read()
+    key = group_keys(header, data)
+    for f in sorted(ARGS.rows.glob(f"{ARGS.dataset}_*.csv")):
+        r = np.loadtxt(f, delimiter=",", skiprows=1)
+        rows, y, mean = r[:, 0].astype(int), r[:, 1], r[:, 2]
+        e = y - mean
+        g = key[rows]
+        # share of the squared error explained by group means of the residual
+        # (groups with at least 2 rows among these), and the shrunk version
+        ug, inv, cnt = np.unique(g, return_inverse=True, return_counts=True)
+        gm = np.bincount(inv, weights=e) / cnt
+        multi = cnt[inv] >= 2
+        between = np.sum(gm[inv][multi] ** 2)
+        total = np.sum(e[multi] ** 2)
+        print(f"{f.stem}: RMSE {math.sqrt(np.mean(e * e)):.4f}; rows in groups of >=2: "
+              f"{multi.sum()} in {np.sum(cnt >= 2)} groups; share of their squared error that "
+              f"is the group mean residual {between / total:.3f}")
+        x = data[rows, :-1]
+        for j, h in enumerate(header[:-1]):
+            vals = np.unique(x[:, j])
+            if len(vals) <= 14:
+                cells = []
+                for v in vals:
+                    sel = x[:, j] == v
+                    cells.append(f"{v:g}:{math.sqrt(np.mean(e[sel] ** 2)):.3f}/{np.mean(e[sel]):+.3f}")
+                print(f"    {h} (value:RMSE/mean residual) " + " ".join(cells))
+
+
+if ARGS.groups:
+    groups()
+else:
+    train_all()
