@@ -9,6 +9,7 @@
 //! cargo run --release --example near_noiseless -- --rows 3000 --hidden 1..8 --restarts 2
 //! ```
 
+use mettle::fixedmath::FixedMath;
 #[path = "../benches/support/near_noiseless.rs"]
 mod near_noiseless;
 
@@ -38,7 +39,7 @@ fn stats(label: &str, y: &[f64], m: &[f64], v: &[f64], h68: f64, h95: f64) {
     let mut a: Vec<f64> = z.iter().map(|z| z.abs()).collect();
     a.sort_by(f64::total_cmp);
     let nlpd = (0..y.len())
-        .map(|i| 0.5 * (2.0 * std::f64::consts::PI * v[i]).ln() + 0.5 * z[i] * z[i])
+        .map(|i| 0.5 * (2.0 * std::f64::consts::PI * v[i]).ln_fixed() + 0.5 * z[i] * z[i])
         .sum::<f64>()
         / n;
     println!(

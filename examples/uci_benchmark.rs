@@ -22,6 +22,7 @@
 //!   DIR/<dataset>_<split>.csv and DIR/<dataset>_<split>_train.csv, read by
 //!   benches/grouped_coverage.py.
 
+use mettle::fixedmath::FixedMath;
 use std::path::{Path, PathBuf};
 use std::time::Instant;
 
@@ -83,7 +84,7 @@ fn two_part_scale(pred: &[mettle::predict::RowPrediction], y: &[f64]) -> (f64, f
                 let e = &r.estimates[0];
                 let v = (a * e.noise_sd.powi(2) + b * e.model_sd.powi(2)).max(1e-300);
                 let e2 = (yv - e.mean).powi(2);
-                nll += 0.5 * (2.0 * std::f64::consts::PI * v).ln() + e2 / (2.0 * v);
+                nll += 0.5 * (2.0 * std::f64::consts::PI * v).ln_fixed() + e2 / (2.0 * v);
                 if e2 <= v {
                     inside += 1.0;
                 }

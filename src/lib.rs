@@ -33,6 +33,7 @@ pub mod error;
 pub mod evidence;
 pub mod explain;
 pub mod features;
+pub mod fixedmath;
 pub mod linalg;
 pub mod metrics;
 pub mod model;

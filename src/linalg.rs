@@ -40,6 +40,7 @@
 //!   decomposes (k = 100–200). Training keeps the Jacobi routine, so no
 //!   trained model changes.
 
+use crate::fixedmath::FixedMath;
 use ndarray::{Array1, Array2, ArrayView1, ArrayView2, ArrayViewMut2, Axis};
 
 /// Columns per block of the blocked Cholesky factorisation.
@@ -359,7 +360,7 @@ impl Cholesky {
 
     /// ln |A| = 2 Σ ln l_ii.
     pub fn ln_det(&self) -> f64 {
-        2.0 * self.lower.diag().iter().map(|v| v.ln()).sum::<f64>()
+        2.0 * self.lower.diag().iter().map(|v| v.ln_fixed()).sum::<f64>()
     }
 
     /// L⁻¹·B by forward substitution (row-major result).
@@ -935,7 +936,7 @@ mod tests {
             for (u, v) in lx.iter().zip(&rhs) {
                 assert!((u - v).abs() < 1e-9, "n {n}: L·L⁻¹B {u} vs {v}");
             }
-            let b = Array1::from_shape_fn(n, |i| (i as f64 * 0.7).sin());
+            let b = Array1::from_shape_fn(n, |i| (i as f64 * 0.7).sin_fixed());
             let x = f.solve(b.view());
             let back = a.dot(&x);
             for (u, v) in back.iter().zip(&b) {
@@ -943,7 +944,7 @@ mod tests {
             }
             if n <= CHOL_BLOCK + 1 {
                 let (vals, _) = symmetric_eigen(a.view()).expect("eigen");
-                let ln_det: f64 = vals.iter().map(|v| v.ln()).sum();
+                let ln_det: f64 = vals.iter().map(|v| v.ln_fixed()).sum();
                 assert!((ln_det - f.ln_det()).abs() < 1e-9 * (1.0 + ln_det.abs()));
             }
         }
@@ -1041,7 +1042,7 @@ mod tests {
             (
                 "dense8",
                 Array2::from_shape_fn((8, 8), |(i, j)| {
-                    (i.min(j) + 1) as f64 + 0.1 * ((i * j) as f64).cos()
+                    (i.min(j) + 1) as f64 + 0.1 * ((i * j) as f64).cos_fixed()
                 }),
                 vec![
                     0.05778442326254333,
@@ -1082,7 +1083,7 @@ mod tests {
             1 => -1.0,
             _ => 0.0,
         });
-        let w = Array1::from_shape_fn(n, |i| 1.0 + (i as f64 * 0.7).sin());
+        let w = Array1::from_shape_fn(n, |i| 1.0 + (i as f64 * 0.7).sin_fixed());
         let h = Array2::<f64>::eye(n)
             - &(w
                 .view()
@@ -1092,7 +1093,8 @@ mod tests {
         let a = naive(naive(h.view(), t.view()).view(), h.view());
         let (vals, vecs) = symmetric_eigen_ql(a.view()).expect("converges");
         for (j, v) in vals.iter().enumerate() {
-            let want = 2.0 - 2.0 * ((j + 1) as f64 * std::f64::consts::PI / (n + 1) as f64).cos();
+            let want =
+                2.0 - 2.0 * ((j + 1) as f64 * std::f64::consts::PI / (n + 1) as f64).cos_fixed();
             assert!((v - want).abs() < 1e-13, "λ_{j}: {v} against {want}");
         }
         let (res, orth) = eigen_residuals(&a, &vals, &vecs);

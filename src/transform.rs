@@ -36,6 +36,7 @@
 //! estimate back to y is `TargetTransform::back_transform`, beside the
 //! estimate it makes in [`crate::predict`].
 
+use crate::fixedmath::FixedMath;
 use serde::{Deserialize, Serialize};
 
 use crate::prec::{QUADRATURE_HALF_WIDTH, QUADRATURE_STEP};
@@ -145,12 +146,12 @@ impl TargetTransform {
     pub fn forward(&self, y: f64) -> Option<f64> {
         match *self {
             TargetTransform::Identity => Some(y),
-            TargetTransform::Log => (y > 0.0).then(|| y.ln()),
+            TargetTransform::Log => (y > 0.0).then(|| y.ln_fixed()),
             TargetTransform::Bounded {
                 lower,
                 upper,
                 margin,
-            } => Self::distances(lower, upper, margin, y).map(|(u, v)| (u / v).ln()),
+            } => Self::distances(lower, upper, margin, y).map(|(u, v)| (u / v).ln_fixed()),
         }
     }
 
@@ -158,7 +159,7 @@ impl TargetTransform {
     pub fn inverse(&self, z: f64) -> f64 {
         match *self {
             TargetTransform::Identity => z,
-            TargetTransform::Log => z.exp(),
+            TargetTransform::Log => z.exp_fixed(),
             TargetTransform::Bounded {
                 lower,
                 upper,
@@ -174,7 +175,7 @@ impl TargetTransform {
     pub(crate) fn inverse_slope(&self, z: f64) -> f64 {
         match *self {
             TargetTransform::Identity => 1.0,
-            TargetTransform::Log => z.exp(),
+            TargetTransform::Log => z.exp_fixed(),
             TargetTransform::Bounded {
                 lower,
                 upper,
@@ -191,12 +192,13 @@ impl TargetTransform {
     pub fn log_jacobian(&self, y: f64) -> Option<f64> {
         match *self {
             TargetTransform::Identity => Some(0.0),
-            TargetTransform::Log => (y > 0.0).then(|| -y.ln()),
+            TargetTransform::Log => (y > 0.0).then(|| -y.ln_fixed()),
             TargetTransform::Bounded {
                 lower,
                 upper,
                 margin,
-            } => Self::distances(lower, upper, margin, y).map(|(u, v)| (1.0 / u + 1.0 / v).ln()),
+            } => Self::distances(lower, upper, margin, y)
+                .map(|(u, v)| (1.0 / u + 1.0 / v).ln_fixed()),
         }
     }
 
@@ -209,7 +211,7 @@ impl TargetTransform {
             TargetTransform::Identity => m,
             TargetTransform::Log => {
                 let v = s * s;
-                (m + 0.5 * v).exp()
+                (m + 0.5 * v).exp_fixed()
             }
             _ => self.moments_by_quadrature(m, s).0,
         }
@@ -222,7 +224,7 @@ impl TargetTransform {
         let (mut w_sum, mut s1, mut s2) = (0.0, 0.0, 0.0);
         for k in -n..=n {
             let t = k as f64 * QUADRATURE_STEP;
-            let w = (-0.5 * t * t).exp();
+            let w = (-0.5 * t * t).exp_fixed();
             let y = self.inverse(m + s * t);
             w_sum += w;
             s1 += w * y;
@@ -247,9 +249,9 @@ impl TargetTransform {
 /// 1/(1 + e^−z), computed without overflow.
 fn logistic(z: f64) -> f64 {
     if z >= 0.0 {
-        1.0 / (1.0 + (-z).exp())
+        1.0 / (1.0 + (-z).exp_fixed())
     } else {
-        let e = z.exp();
+        let e = z.exp_fixed();
         e / (1.0 + e)
     }
 }
@@ -289,7 +291,7 @@ mod tests {
             let y = 37.0;
             let h = 1e-6;
             let d = (t.forward(y + h).expect("ok") - t.forward(y - h).expect("ok")) / (2.0 * h);
-            assert_abs_diff_eq!(t.log_jacobian(y).expect("ok"), d.ln(), epsilon = 1e-7);
+            assert_abs_diff_eq!(t.log_jacobian(y).expect("ok"), d.ln_fixed(), epsilon = 1e-7);
         }
     }
 }

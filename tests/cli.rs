@@ -6,6 +6,7 @@
 //! 5): the tests check the command line, not the quality of the search, and
 //! a small search keeps each run under a second.
 
+use mettle::fixedmath::FixedMath;
 mod common;
 
 use common::{describe, fixture_csv, fixture_truth, stderr, stdout, Workdir, FIXTURE_NOISE_SD};
@@ -311,7 +312,7 @@ fn evaluate_json_matches_metrics_recomputed_from_predict() {
     let bg_mean = (gross["background_mean"].as_f64().expect("mean") + 0.5) * (hi - lo) + lo;
     let bg_sd = gross["background_sd"].as_f64().expect("sd") * (hi - lo);
     let normal = |y: f64, m: f64, s: f64| {
-        (-(y - m).powi(2) / (2.0 * s * s)).exp() / (s * (2.0 * std::f64::consts::PI).sqrt())
+        (-(y - m).powi(2) / (2.0 * s * s)).exp_fixed() / (s * (2.0 * std::f64::consts::PI).sqrt())
     };
     let (mut sse, mut sae, mut nlpd, mut c1, mut c2) = (0.0, 0.0, 0.0, 0.0, 0.0);
     for (r, y) in rows.iter().zip(&measured) {
@@ -319,7 +320,7 @@ fn evaluate_json_matches_metrics_recomputed_from_predict() {
         let d = y - m;
         sse += d * d;
         sae += d.abs();
-        nlpd -= ((1.0 - share) * normal(*y, m, s) + share * normal(*y, bg_mean, bg_sd)).ln();
+        nlpd -= ((1.0 - share) * normal(*y, m, s) + share * normal(*y, bg_mean, bg_sd)).ln_fixed();
         c1 += f64::from(u8::from(d.abs() <= s));
         c2 += f64::from(u8::from(d.abs() <= 2.0 * s));
     }

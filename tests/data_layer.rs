@@ -7,6 +7,7 @@
 //!
 //! All tables are invented (tests/common/mod.rs).
 
+use mettle::fixedmath::FixedMath;
 mod common;
 
 use common::{
@@ -602,7 +603,7 @@ fn doc_example_csv(n: usize, seed: u64) -> String {
         let noise = u(-1.0, 1.0);
         let yield_ksi = 55.0 + 100.0 * c + 8.0 * mn + 2.0 * ni + 3.0 * noise;
         let elongation = 30.0 - 20.0 * c - 2.0 * mn + 2.0 * noise;
-        let cvn = (3.5 + 0.3 * ni - 0.002 * (interpass - 250.0) + 0.2 * noise).exp();
+        let cvn = (3.5 + 0.3 * ni - 0.002 * (interpass - 250.0) + 0.2 * noise).exp_fixed();
         s.push_str(&format!(
             "W{i},{c},{si},{mn},{ni},{b},{volts},{amps},{speed},{interpass},{plate},op{},{yield_ksi},{elongation},{cvn}\n",
             i % 3

@@ -14,6 +14,7 @@
 use mettle::committee::{CommitteeParams, KrigingMode, NoiseMode};
 use mettle::data::Table;
 use mettle::evidence::GroupKind;
+use mettle::fixedmath::FixedMath;
 use mettle::model::TrainSpec;
 use mettle::observer::Silent;
 use mettle::Model;
@@ -30,7 +31,7 @@ fn synthetic_model() -> Model {
     let mut y = Vec::new();
     for _ in 0..400 {
         let v: [f64; 3] = std::array::from_fn(|_| rng.random_range(-1.0..1.0));
-        y.push((3.0 * v[0]).sin() + 0.5 * v[1] * v[1] + noise.sample(&mut rng));
+        y.push((3.0 * v[0]).sin_fixed() + 0.5 * v[1] * v[1] + noise.sample(&mut rng));
         for (col, vj) in x.iter_mut().zip(v) {
             col.push(vj);
         }

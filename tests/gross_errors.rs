@@ -29,6 +29,7 @@
 //!   68 % interval then covers about 68 % of fresh rows, where the
 //!   Gaussian's ±1 sd covers 77 %.
 
+use mettle::fixedmath::FixedMath;
 mod common;
 
 use common::{stderr, stdout, Workdir};
@@ -448,11 +449,11 @@ fn predict_output_reproduces_evaluates_nlpd_for_a_student_t_model_with_gross_err
     let ln_t = |t: f64| {
         ln_gamma((nu + 1.0) / 2.0)
             - ln_gamma(nu / 2.0)
-            - 0.5 * (nu * std::f64::consts::PI).ln()
-            - (nu + 1.0) / 2.0 * (1.0 + t * t / nu).ln()
+            - 0.5 * (nu * std::f64::consts::PI).ln_fixed()
+            - (nu + 1.0) / 2.0 * (1.0 + t * t / nu).ln_fixed()
     };
     let normal = |y: f64, m: f64, s: f64| {
-        (-(y - m).powi(2) / (2.0 * s * s)).exp() / (s * (2.0 * std::f64::consts::PI).sqrt())
+        (-(y - m).powi(2) / (2.0 * s * s)).exp_fixed() / (s * (2.0 * std::f64::consts::PI).sqrt())
     };
     let a = ((nu - 2.0) / nu).sqrt();
     let mut nlpd = 0.0;
@@ -462,8 +463,8 @@ fn predict_output_reproduces_evaluates_nlpd_for_a_student_t_model_with_gross_err
             e["mean"].as_f64().expect("mean"),
             e["sd"].as_f64().expect("sd"),
         );
-        let clean = (ln_t((y - m) / (a * s)) - (a * s).ln()).exp();
-        nlpd -= ((1.0 - share) * clean + share * normal(*y, gm, gs)).ln();
+        let clean = (ln_t((y - m) / (a * s)) - (a * s).ln_fixed()).exp_fixed();
+        nlpd -= ((1.0 - share) * clean + share * normal(*y, gm, gs)).ln_fixed();
     }
     nlpd /= truth.len() as f64;
     let e = evaluate(&w, "m.json", "fresh.csv");

@@ -9,6 +9,7 @@
 //! statrs). Searches are small (`--hidden 1..4 --restarts 2 --no-widen`)
 //! so that each test runs in a few seconds.
 
+use mettle::fixedmath::FixedMath;
 mod common;
 
 use std::collections::HashMap;
@@ -49,7 +50,7 @@ fn planted_csv() -> String {
     let noise = Normal::new(0.0, PLANTED_NOISE_SD).expect("positive sd");
     let mut s = String::from("idle,strong,weak,y\n");
     let mut row = |x: [f64; 3], rng: &mut Xoshiro256PlusPlus| {
-        let y = 1.5 * (2.5 * x[1]).sin() + 0.3 * (2.0 * x[2]).sin() + noise.sample(rng);
+        let y = 1.5 * (2.5 * x[1]).sin_fixed() + 0.3 * (2.0 * x[2]).sin_fixed() + noise.sample(rng);
         writeln!(s, "{},{},{},{y}", x[0], x[1], x[2]).expect("write to string");
     };
     for i in 0..270 {

@@ -23,6 +23,7 @@
 //!   `explain` describes the process; a model file whose process is
 //!   damaged is refused.
 
+use mettle::fixedmath::FixedMath;
 mod common;
 
 use common::{stderr, Workdir};
@@ -62,7 +63,7 @@ fn heats(n: usize, rng: &mut Xoshiro256PlusPlus) -> Vec<Heat> {
 /// Expected energy of a heat at `t` °C without its offset.
 fn curve(h: &Heat, t: f64) -> f64 {
     let t0 = -40.0 + 300.0 * (h.c_wt - 0.05) - 25.0 * (h.mn_wt - 0.8);
-    LOWER_SHELF + 0.5 * (UPPER_SHELF - LOWER_SHELF) * (1.0 + ((t - t0) / C).tanh())
+    LOWER_SHELF + 0.5 * (UPPER_SHELF - LOWER_SHELF) * (1.0 + ((t - t0) / C).tanh_fixed())
 }
 
 fn table(name: &str, hs: &[Heat], temps: &[f64], rng: &mut Xoshiro256PlusPlus) -> Table {

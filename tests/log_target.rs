@@ -7,6 +7,7 @@
 //! The data are invented: ln KV = ln 60 + 0.6·x1 + 0.4·sin(2·x2) + ε,
 //! ε ~ N(0, 0.25²), so KV = exp(f)·exp(ε) with a lognormal factor.
 
+use mettle::fixedmath::FixedMath;
 mod common;
 
 use std::fmt::Write as _;
@@ -28,8 +29,9 @@ fn lognormal_csv(n: usize, seed: u64) -> String {
     for _ in 0..n {
         let x1: f64 = rng.random_range(-1.0..1.0);
         let x2: f64 = rng.random_range(0.0..2.0);
-        let log_kv = 60.0_f64.ln() + 0.6 * x1 + 0.4 * (2.0 * x2).sin() + noise.sample(&mut rng);
-        writeln!(s, "{x1},{x2},{}", log_kv.exp()).expect("write to string");
+        let log_kv =
+            60.0_f64.ln_fixed() + 0.6 * x1 + 0.4 * (2.0 * x2).sin_fixed() + noise.sample(&mut rng);
+        writeln!(s, "{x1},{x2},{}", log_kv.exp_fixed()).expect("write to string");
     }
     s
 }

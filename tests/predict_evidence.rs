@@ -4,6 +4,7 @@
 //! definition (docs/guide-qa.md, src/explain/neighbours.rs), with the
 //! schema's identifier column; and the refusals. All data invented.
 
+use mettle::fixedmath::FixedMath;
 mod common;
 
 use std::fmt::Write as _;
@@ -23,7 +24,7 @@ fn training_csv() -> String {
     for i in 0..6 {
         for j in 0..5 {
             let (c, mn) = (0.05 + 0.02 * f64::from(i), 0.8 + 0.2 * f64::from(j));
-            let uts = 300.0 + 900.0 * c + 90.0 * mn + 3.0 * (f64::from(i * 5 + j)).sin();
+            let uts = 300.0 + 900.0 * c + 90.0 * mn + 3.0 * (f64::from(i * 5 + j)).sin_fixed();
             writeln!(s, "H{:02},{c},{mn},{uts:.1}", i * 5 + j).expect("write");
         }
     }
@@ -79,7 +80,11 @@ fn neighbours_are_the_nearest_training_rows_by_the_weighted_distance() {
         let s = &inputs[j]["scaling"];
         let (lo, hi) = (s["lo"].as_f64().expect("lo"), s["hi"].as_f64().expect("hi"));
         // an input taken through its logarithm is scaled on that scale
-        let x = if s["transform"] == "log" { x.ln() } else { x };
+        let x = if s["transform"] == "log" {
+            x.ln_fixed()
+        } else {
+            x
+        };
         ((x - lo) / (hi - lo) - 0.5) * weights[j]
     };
     let names: Vec<&str> = inputs

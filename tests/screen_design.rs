@@ -2,6 +2,7 @@
 //! model with a known Gaussian estimate, cost arithmetic by hand, and
 //! synthetic design problems with a known optimum. All data invented.
 
+use mettle::fixedmath::FixedMath;
 mod common;
 
 use std::fmt::Write as _;
@@ -23,7 +24,7 @@ fn fixture_model(w: &Workdir) {
     let mut s = String::from("x,y\n");
     for i in 0..30 {
         let x = i as f64 / 29.0;
-        writeln!(s, "{x},{}", 1.0 + 2.0 * x + 0.1 * (7.0 * x).sin()).expect("write");
+        writeln!(s, "{x},{}", 1.0 + 2.0 * x + 0.1 * (7.0 * x).sin_fixed()).expect("write");
     }
     w.write("lin.csv", s);
     w.ok(&[
@@ -121,8 +122,8 @@ fn two_target_fixture(w: &Workdir, rho: Option<f64>) {
     let mut s = String::from("x,y,y2\n");
     for i in 0..30 {
         let x = i as f64 / 29.0;
-        let y = 1.0 + 2.0 * x + 0.1 * (7.0 * x).sin();
-        writeln!(s, "{x},{y},{}", y + 0.05 * (3.0 * x).cos()).expect("write");
+        let y = 1.0 + 2.0 * x + 0.1 * (7.0 * x).sin_fixed();
+        writeln!(s, "{x},{y},{}", y + 0.05 * (3.0 * x).cos_fixed()).expect("write");
     }
     w.write("lin2.csv", s);
     w.ok(&[

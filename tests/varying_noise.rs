@@ -21,6 +21,7 @@
 
 use mettle::committee::{CommitteeParams, NoiseMode};
 use mettle::data::Table;
+use mettle::fixedmath::FixedMath;
 use mettle::model::TrainSpec;
 use mettle::observer::Silent;
 use mettle::Model;
@@ -34,12 +35,12 @@ const T0: f64 = -20.0;
 const C: f64 = 25.0;
 
 fn curve(t: f64) -> f64 {
-    LOWER_SHELF + 0.5 * (UPPER_SHELF - LOWER_SHELF) * (1.0 + ((t - T0) / C).tanh())
+    LOWER_SHELF + 0.5 * (UPPER_SHELF - LOWER_SHELF) * (1.0 + ((t - T0) / C).tanh_fixed())
 }
 
 /// dE/dT of the curve, J/°C.
 fn slope(t: f64) -> f64 {
-    let s = 1.0 / ((t - T0) / C).cosh();
+    let s = 1.0 / ((t - T0) / C).cosh_fixed();
     0.5 * (UPPER_SHELF - LOWER_SHELF) / C * s * s
 }
 
@@ -100,7 +101,7 @@ fn coverage(model: &Model, t: &Table, k: f64, keep: &dyn Fn(f64) -> bool) -> (f6
 /// training rows (relative sd ≈ 1/√(2·n_train), which moves the coverage
 /// by 2k·φ(k) per unit of relative error; φ the standard normal density).
 fn assert_calibrated(share: f64, n: usize, n_train: usize, k: f64, what: &str) {
-    let phi = (-0.5 * k * k).exp() / (2.0 * std::f64::consts::PI).sqrt();
+    let phi = (-0.5 * k * k).exp_fixed() / (2.0 * std::f64::consts::PI).sqrt();
     let p = 1.0 - 2.0 * (1.0 - normal_cdf(k));
     let binomial = p * (1.0 - p) / n as f64;
     let estimate = (2.0 * k * phi).powi(2) / (2.0 * n_train as f64);

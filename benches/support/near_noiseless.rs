@@ -18,6 +18,7 @@
 
 #![allow(dead_code)]
 
+use mettle::fixedmath::FixedMath;
 use rand::{Rng, SeedableRng};
 use rand_distr::{Distribution, Normal};
 use rand_xoshiro::Xoshiro256PlusPlus;
@@ -36,12 +37,12 @@ pub fn input_name(j: usize) -> String {
 /// The noise-free target for one row of `N_INPUTS` inputs.
 pub fn truth(x: &[f64]) -> f64 {
     use std::f64::consts::PI;
-    (PI * x[0]).sin() * (1.0 + 0.5 * x[1])
-        + 0.5 * (0.8 * x[2]).exp()
+    (PI * x[0]).sin_fixed() * (1.0 + 0.5 * x[1])
+        + 0.5 * (0.8 * x[2]).exp_fixed()
         + 2.0 * (x[3] - 0.5).powi(2)
-        + (3.0 * (x[4] - 0.5)).tanh() * x[5]
+        + (3.0 * (x[4] - 0.5)).tanh_fixed() * x[5]
         + 0.5 * x[6] * x[7]
-        + 0.15 * (2.0 * PI * x[8]).cos()
+        + 0.15 * (2.0 * PI * x[8]).cos_fixed()
         + 0.2 * x[9]
         + 0.05 * x[10]
 }

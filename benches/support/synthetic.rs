@@ -16,6 +16,7 @@
 
 #![allow(dead_code)]
 
+use mettle::fixedmath::FixedMath;
 use rand::{Rng, SeedableRng};
 use rand_distr::{Distribution, Normal};
 use rand_xoshiro::Xoshiro256PlusPlus;
@@ -33,7 +34,7 @@ pub fn truth(x: &[f64]) -> f64 {
     let mut y: f64 = x
         .iter()
         .enumerate()
-        .map(|(j, v)| 2.0 / (2.0 + j as f64) * (std::f64::consts::PI * v).sin())
+        .map(|(j, v)| 2.0 / (2.0 + j as f64) * (std::f64::consts::PI * v).sin_fixed())
         .sum();
     if x.len() >= 2 {
         y += 2.0 * (x[0] - 0.5) * (x[1] - 0.5);

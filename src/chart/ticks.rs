@@ -10,6 +10,8 @@
 //! the range (every other or every third power when there are many), with
 //! 2 and 5 between them when the range spans fewer than two decades.
 
+use crate::fixedmath::FixedMath;
+
 /// Ticks of one axis.
 #[derive(Clone, Debug, PartialEq)]
 pub struct Ticks {
@@ -41,8 +43,8 @@ impl Ticks {
 /// Heckbert's nice number near `x` > 0: 1, 2, 5 or 10 times a power of
 /// ten, rounded to the nearest (`round`) or taken at or above `x`.
 fn nice_number(x: f64, round: bool) -> f64 {
-    let e = x.log10().floor();
-    let p = 10f64.powf(e);
+    let e = x.log10_fixed().floor();
+    let p = 10f64.powf_fixed(e);
     let f = x / p;
     let n = if round {
         if f < 1.5 {
@@ -77,11 +79,11 @@ pub fn label(v: f64, step: f64) -> String {
     let small = step < 1e-4 && a < 1e-3;
     if big || small {
         // mantissa digits: enough to tell ticks `step` apart
-        let e = a.log10().floor();
-        let digits = (e - step.log10().floor()).clamp(0.0, 12.0) as usize;
+        let e = a.log10_fixed().floor();
+        let digits = (e - step.log10_fixed().floor()).clamp(0.0, 12.0) as usize;
         return format!("{v:.digits$e}");
     }
-    let decimals = (-step.log10().floor()).max(0.0) as usize;
+    let decimals = (-step.log10_fixed().floor()).max(0.0) as usize;
     let s = format!("{v:.decimals$}");
     if s.starts_with('-') && s.trim_start_matches(['-', '0', '.']).is_empty() {
         "0".into()
@@ -127,8 +129,8 @@ pub fn log(lo: f64, hi: f64, n: usize) -> Option<Ticks> {
     if !(lo > 0.0 && hi >= lo && hi.is_finite()) {
         return None;
     }
-    let e0 = lo.log10().floor() as i32;
-    let mut e1 = hi.log10().ceil() as i32;
+    let e0 = lo.log10_fixed().floor() as i32;
+    let mut e1 = hi.log10_fixed().ceil() as i32;
     if e1 == e0 {
         e1 += 1;
     }
@@ -167,10 +169,10 @@ pub fn log(lo: f64, hi: f64, n: usize) -> Option<Ticks> {
         .iter()
         .map(|&v| {
             if (1e-3..1e5).contains(&v) {
-                let decimals = (-v.log10().floor()).max(0.0) as usize;
+                let decimals = (-v.log10_fixed().floor()).max(0.0) as usize;
                 format!("{v:.decimals$}")
             } else {
-                format!("1e{}", v.log10().round() as i32)
+                format!("1e{}", v.log10_fixed().round() as i32)
             }
         })
         .collect();

@@ -1,6 +1,7 @@
 //! Charts on two numeric axes: plotters draws the frame with nice ticks,
 //! [`Layer`] the data; the legend goes in a strip under the plot.
 
+use crate::fixedmath::FixedMath;
 use plotters::coord::ranged1d::{KeyPointHint, NoDefaultFormatting, ValueFormatter};
 use plotters::coord::types::RangedCoordf64;
 use plotters::coord::Shift;
@@ -57,7 +58,7 @@ impl Axis {
 
     fn spanning(ticks: Ticks, log: bool) -> Axis {
         let (a, b) = ticks.span();
-        let t = |v: f64| if log { v.log10() } else { v };
+        let t = |v: f64| if log { v.log10_fixed() } else { v };
         Axis {
             lo: t(a),
             hi: t(b),
@@ -88,7 +89,7 @@ impl Axis {
         if !self.log {
             v
         } else if v > 0.0 {
-            v.log10()
+            v.log10_fixed()
         } else {
             f64::NAN
         }
@@ -106,7 +107,7 @@ impl Axis {
 
     /// The label of the tick at `u` (plot units).
     pub(crate) fn label(&self, u: f64) -> String {
-        let v = if self.log { 10f64.powf(u) } else { u };
+        let v = if self.log { 10f64.powf_fixed(u) } else { u };
         if self.log {
             // nearest in log units
             let i = self
@@ -114,7 +115,11 @@ impl Axis {
                 .values
                 .iter()
                 .enumerate()
-                .min_by(|a, b| (a.1.log10() - u).abs().total_cmp(&(b.1.log10() - u).abs()))
+                .min_by(|a, b| {
+                    (a.1.log10_fixed() - u)
+                        .abs()
+                        .total_cmp(&(b.1.log10_fixed() - u).abs())
+                })
                 .map_or(0, |p| p.0);
             return self.ticks.labels.get(i).cloned().unwrap_or_default();
         }

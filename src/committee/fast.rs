@@ -83,6 +83,7 @@
 //! ([`kd_order`]), so that the rows near a query, and their rows of
 //! K_y⁻¹, lie close together in memory.
 
+use crate::fixedmath::FixedMath;
 use ndarray::{s, Array1, Array2, ArrayView2, Axis};
 
 use super::kriging::{add_noise, kernel};
@@ -457,7 +458,7 @@ impl FastProcess {
         // the smallest noise variance
         let tau2 = k.signal_var;
         let kappa = 0.1 * FAST_SD_TOL * floor / (3.0 * n as f64 * tau2 * kinv_norm);
-        let safe_cut = (2.0 * (tau2 / kappa.min(tau2)).ln()).clamp(8.0, 200.0);
+        let safe_cut = (2.0 * (tau2 / kappa.min(tau2)).ln_fixed()).clamp(8.0, 200.0);
         let inv_len: Vec<f64> = k.length_scales.iter().map(|l| 1.0 / l).collect();
         let mut xl = k.x.to_owned();
         for mut row in xl.rows_mut() {
@@ -520,7 +521,7 @@ impl FastProcess {
         let tau2 = self.signal_var;
         let bands: Vec<(f64, f64)> = DROP_BANDS
             .iter()
-            .map(|m| (m * self.cut, tau2 * (-0.5 * m * self.cut).exp()))
+            .map(|m| (m * self.cut, tau2 * (-0.5 * m * self.cut).exp_fixed()))
             .collect();
         let mut work = RowWork::default();
         q.rows()
@@ -572,7 +573,7 @@ impl FastProcess {
                     d2 += e * e;
                 }
                 if d2 <= cut {
-                    active.push((i, tau2 * (-0.5 * d2).exp()));
+                    active.push((i, tau2 * (-0.5 * d2).exp_fixed()));
                     continue;
                 }
             }
@@ -753,7 +754,8 @@ impl FastCommittee<'_> {
                         .iter()
                         .zip(&v)
                         .map(|(m, v)| {
-                            constant / (-(m + 0.5 * v).clamp(-LOG_VAR_LIMIT, LOG_VAR_LIMIT)).exp()
+                            constant
+                                / (-(m + 0.5 * v).clamp(-LOG_VAR_LIMIT, LOG_VAR_LIMIT)).exp_fixed()
                         })
                         .collect();
                     let total = var - constant + &nv;
@@ -879,9 +881,9 @@ mod tests {
         let q = orthonormal(Array2::from_shape_fn((k, k), |_| n.sample(&mut rng)));
         let lambda = Array1::from_shape_fn(k, |i| {
             if i < big {
-                10f64.powf(-(i as f64) / big as f64)
+                10f64.powf_fixed(-(i as f64) / big as f64)
             } else {
-                1e-7 * 10f64.powf(-((i - big) as f64) / (k - big) as f64)
+                1e-7 * 10f64.powf_fixed(-((i - big) as f64) / (k - big) as f64)
             }
         });
         (&q * &lambda).dot(&q.t())
@@ -933,7 +935,7 @@ mod tests {
         let mut rng = Xoshiro256PlusPlus::seed_from_u64(5);
         let n = Normal::new(0.0, 1.0).expect("unit sd");
         let q = orthonormal(Array2::from_shape_fn((k, k), |_| n.sample(&mut rng)));
-        let lambda = Array1::from_shape_fn(k, |i| 10f64.powf(-4.0 * i as f64 / k as f64));
+        let lambda = Array1::from_shape_fn(k, |i| 10f64.powf_fixed(-4.0 * i as f64 / k as f64));
         let cov = (&q * &lambda).dot(&q.t());
         let cal = Array2::from_shape_fn((200, k), |_| n.sample(&mut rng));
         let exact: Vec<f64> = cal

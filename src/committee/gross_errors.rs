@@ -113,6 +113,7 @@
 //! likelihood; only the final refit uses the two-part one. The residual
 //! process (kriging) takes every row's residual at full weight.
 
+use crate::fixedmath::FixedMath;
 use ndarray::{Array1, ArrayView1, ArrayView2};
 use serde::{Deserialize, Serialize};
 use statrs::consts::LN_SQRT_2PI;
@@ -184,7 +185,7 @@ type Scored = (f64, f64, f64, Option<f64>);
 
 /// ln N(t; m, v).
 fn ln_normal(t: f64, m: f64, v: f64) -> f64 {
-    -LN_SQRT_2PI - 0.5 * (v.ln() + (t - m).powi(2) / v)
+    -LN_SQRT_2PI - 0.5 * (v.ln_fixed() + (t - m).powi(2) / v)
 }
 
 /// ln(e^a + e^b) without overflow.
@@ -193,7 +194,7 @@ fn ln_add(a: f64, b: f64) -> f64 {
     if hi == f64::NEG_INFINITY {
         return hi;
     }
-    hi + ((a - hi).exp() + (b - hi).exp()).ln()
+    hi + ((a - hi).exp_fixed() + (b - hi).exp_fixed()).ln_fixed()
 }
 
 impl GrossErrorModel {
@@ -271,7 +272,7 @@ impl GrossErrorModel {
                     vc.max(VAR_FLOOR)
                 })
                 .collect();
-            let penalty_c = c.map_or(0.0, |_| MODEL_VAR_SCALE_PENALTY_PER_LN_ROW * nf.ln());
+            let penalty_c = c.map_or(0.0, |_| MODEL_VAR_SCALE_PENALTY_PER_LN_ROW * nf.ln_fixed());
             for dof in dof_candidates(choices.heavy_tails) {
                 let shape = TailShape::new(dof);
                 let ln_bulk: Vec<f64> = (0..n)
@@ -287,7 +288,11 @@ impl GrossErrorModel {
                     let pi = em_share(&ln_bulk, &ln_bg);
                     // log posterior per row: mean log-likelihood + ln Beta(2, 2) density / N
                     let ln_lik = mean_ln(pi);
-                    (pi, ln_lik + (pi.ln() + (1.0 - pi).ln()) / nf, ln_lik)
+                    (
+                        pi,
+                        ln_lik + (pi.ln_fixed() + (1.0 - pi).ln_fixed()) / nf,
+                        ln_lik,
+                    )
                 } else {
                     let ln_lik = mean_ln(0.0);
                     (0.0, ln_lik, ln_lik)
@@ -344,11 +349,11 @@ impl GrossErrorModel {
         let shape = self.shape();
         Array1::from_shape_fn(t.len(), |n| {
             let noise_var = 1.0 / (net.beta * rho.map_or(1.0, |r| r[n]));
-            let ln_bulk = (1.0 - self.share).ln()
+            let ln_bulk = (1.0 - self.share).ln_fixed()
                 + shape.ln_density(t[n], mean[n], noise_var.max(VAR_FLOOR).sqrt());
-            let ln_gross = self.share.ln() + ln_normal(t[n], self.background_mean, bg_var);
+            let ln_gross = self.share.ln_fixed() + ln_normal(t[n], self.background_mean, bg_var);
             (ln_bulk - ln_add(ln_bulk, ln_gross))
-                .exp()
+                .exp_fixed()
                 .max(RESPONSIBILITY_FLOOR)
         })
     }
@@ -429,7 +434,7 @@ fn em_share(ln_bulk: &[f64], ln_bg: &[f64]) -> f64 {
             .map(|(&b, &g)| mix(share, b, g))
             .sum::<f64>()
             / nf
-            + (share.ln() + (1.0 - share).ln()) / nf
+            + (share.ln_fixed() + (1.0 - share).ln_fixed()) / nf
     };
     let mut share = GROSS_ERROR_SHARE_START;
     let mut last = ln_post(share);
@@ -437,7 +442,7 @@ fn em_share(ln_bulk: &[f64], ln_bg: &[f64]) -> f64 {
         let free: f64 = ln_bulk
             .iter()
             .zip(ln_bg)
-            .map(|(&b, &g)| ((1.0 - share).ln() + b - mix(share, b, g)).exp())
+            .map(|(&b, &g)| ((1.0 - share).ln_fixed() + b - mix(share, b, g)).exp_fixed())
             .sum();
         share = ((nf - free + 1.0) / (nf + 2.0)).min(GROSS_ERROR_SHARE_MAX);
         let now = ln_post(share);
@@ -455,7 +460,7 @@ fn mix(share: f64, ln_bulk: f64, ln_bg: f64) -> f64 {
     if share <= 0.0 {
         return ln_bulk;
     }
-    ln_add((1.0 - share).ln() + ln_bulk, share.ln() + ln_bg)
+    ln_add((1.0 - share).ln_fixed() + ln_bulk, share.ln_fixed() + ln_bg)
 }
 
 /// The error model of a predictive distribution on one scale: a share
@@ -491,8 +496,8 @@ impl GrossErrors {
         if self.share <= 0.0 {
             return 0.0;
         }
-        let ln_gross = self.share.ln() + ln_normal(y, self.mean, self.sd * self.sd);
-        (ln_gross - self.ln_density(y, m, s)).exp()
+        let ln_gross = self.share.ln_fixed() + ln_normal(y, self.mean, self.sd * self.sd);
+        (ln_gross - self.ln_density(y, m, s)).exp_fixed()
     }
 }
 
@@ -750,7 +755,7 @@ mod tests {
                 replaced[i] = true;
                 rng.random_range(-0.5..0.5)
             } else {
-                f64::sin(3.0 * x[[i, 0]]) / 3.0 + noise.sample(&mut rng)
+                (3.0 * x[[i, 0]]).sin_fixed() / 3.0 + noise.sample(&mut rng)
             }
         });
         let arch = Architecture::new(2, 3);

@@ -60,6 +60,7 @@
 //! sample) enter the process, so that its cost, O(N³) per evaluation,
 //! stays bounded on large archives.
 
+use crate::fixedmath::FixedMath;
 use std::cell::RefCell;
 use std::sync::{Arc, OnceLock};
 
@@ -158,7 +159,7 @@ pub(super) fn kernel(
     let mut k = matmul(a.view(), b.t());
     for ((i, j), v) in k.indexed_iter_mut() {
         let d2 = (na[i] + nb[j] - 2.0 * *v).max(0.0);
-        *v = signal_var * (-0.5 * d2).exp();
+        *v = signal_var * (-0.5 * d2).exp_fixed();
     }
     k
 }
@@ -191,9 +192,9 @@ pub(crate) fn neg_log_marginal(
 ) -> ValueGradient {
     let d = x.ncols();
     let n = x.nrows();
-    let length: Vec<f64> = theta[..d].iter().map(|v| v.exp()).collect();
-    let signal = theta[d].exp();
-    let factor = theta[d + 1].exp();
+    let length: Vec<f64> = theta[..d].iter().map(|v| v.exp_fixed()).collect();
+    let signal = theta[d].exp_fixed();
+    let factor = theta[d + 1].exp_fixed();
     let unit = kernel(x, x, &length, 1.0);
     let mut ky = &unit * signal;
     add_noise(&mut ky, factor, noise_var);
@@ -201,8 +202,9 @@ pub(crate) fn neg_log_marginal(
     let alpha = f.solve(r);
     let ln_det = f.ln_det();
     let inv = f.inverse();
-    let value =
-        0.5 * r.dot(&alpha) + 0.5 * ln_det + 0.5 * n as f64 * (2.0 * std::f64::consts::PI).ln();
+    let value = 0.5 * r.dot(&alpha)
+        + 0.5 * ln_det
+        + 0.5 * n as f64 * (2.0 * std::f64::consts::PI).ln_fixed();
     // W = ααᵀ − K_y⁻¹; ∂(−ln p)/∂θ_i = −½ tr(W ∂K_y/∂θ_i)
     let col = alpha.view().insert_axis(Axis(1));
     let w = matmul(col, col.t()) - inv;
@@ -247,8 +249,8 @@ pub(crate) fn neg_log_posterior(
     let d = x.ncols();
     let (signal, factor, f) = partition(theta[d], noise_var);
     let mut phi = theta[..d].to_vec();
-    phi.push(signal.ln());
-    phi.push(factor.ln());
+    phi.push(signal.ln_fixed());
+    phi.push(factor.ln_fixed());
     let (mut value, g) = neg_log_marginal(&phi, x, r, noise_var)?;
     let mut grad = Array1::zeros(d + 1);
     for k in 0..d {
@@ -265,7 +267,7 @@ pub(crate) fn neg_log_posterior(
 /// τ², s and f of the partition with logit `u` over rows with noise
 /// variances `noise_var`.
 fn partition(u: f64, noise_var: ArrayView1<f64>) -> (f64, f64, f64) {
-    let f = 1.0 / (1.0 + (-u).exp());
+    let f = 1.0 / (1.0 + (-u).exp_fixed());
     let mean_var = noise_var.mean().unwrap_or(0.0).max(VAR_FLOOR);
     (f * mean_var, 1.0 - f, f)
 }
@@ -323,7 +325,7 @@ impl Gradient for Problem<'_> {
 /// Starting θ: every length scale `length`, half the noise variance
 /// correlated (u = 0).
 fn default_start(d: usize, length: f64) -> Vec<f64> {
-    let mut theta = vec![length.ln(); d];
+    let mut theta = vec![length.ln_fixed(); d];
     theta.push(0.0);
     theta
 }
@@ -418,7 +420,7 @@ impl ResidualKriging {
             x: x.to_owned(),
             residual: r.to_vec(),
             noise_var: noise_var.to_vec(),
-            length_scales: theta[..d].iter().map(|v| v.exp()).collect(),
+            length_scales: theta[..d].iter().map(|v| v.exp_fixed()).collect(),
             signal_var,
             noise_factor,
             log_marginal_likelihood: -value,
@@ -440,8 +442,8 @@ impl ResidualKriging {
     ) -> Result<ResidualKriging, FitFailure> {
         // the same correlated share f = 1 − s of the (new) noise variance
         let f = (1.0 - self.noise_factor).clamp(1e-12, 1.0 - 1e-12);
-        let mut theta: Vec<f64> = self.length_scales.iter().map(|l| l.ln()).collect();
-        theta.push((f / (1.0 - f)).ln());
+        let mut theta: Vec<f64> = self.length_scales.iter().map(|l| l.ln_fixed()).collect();
+        theta.push((f / (1.0 - f)).ln_fixed());
         let (value, _) = neg_log_posterior(&theta, x, r, noise_var).ok_or_else(|| {
             FitFailure::Stalled(
                 "kriging: the kernel matrix on all the rows is not positive definite".into(),
@@ -611,7 +613,7 @@ mod tests {
         let (n, d) = (25, 3);
         let x: Array2<f64> = Array2::from_shape_fn((n, d), |_| rng.random_range(-0.5..0.5));
         let r = Array1::from_shape_fn(n, |i| {
-            (3.0 * x[[i, 0]]).sin() * 0.1 + rng.random_range(-0.02..0.02)
+            (3.0 * x[[i, 0]]).sin_fixed() * 0.1 + rng.random_range(-0.02..0.02)
         });
         let nv = Array1::from_shape_fn(n, |_| rng.random_range(0.0005..0.002));
         let general = |t: &[f64]| neg_log_marginal(t, x.view(), r.view(), nv.view());
@@ -672,9 +674,9 @@ mod tests {
         let length = vec("length_scales");
         let signal = v["signal_var"].as_f64().expect("signal");
         let factor = v["noise_factor"].as_f64().expect("factor");
-        let mut phi: Vec<f64> = length.iter().map(|l| l.ln()).collect();
-        phi.push(signal.ln());
-        phi.push(factor.ln());
+        let mut phi: Vec<f64> = length.iter().map(|l| l.ln_fixed()).collect();
+        phi.push(signal.ln_fixed());
+        phi.push(factor.ln_fixed());
         let (value, _) = neg_log_marginal(&phi, x.view(), r.view(), nv.view()).expect("pd");
         let lml = -value;
         let lml_ref = v["log_marginal_likelihood"].as_f64().expect("lml");
@@ -727,7 +729,7 @@ mod tests {
         // structure variance 0.1²/2 plus the noise
         let nv = Array1::from_elem(n, 0.005 + noise_sd * noise_sd);
         // structure along input 0 only
-        let r = Array1::from_shape_fn(n, |i| 0.1 * (6.0 * x[[i, 0]]).sin() + eps[i]);
+        let r = Array1::from_shape_fn(n, |i| 0.1 * (6.0 * x[[i, 0]]).sin_fixed() + eps[i]);
         let k = ResidualKriging::fit(x.view(), r.view(), nv.view()).expect("fits");
         assert!(
             k.length_scales[0] < 0.5,
@@ -749,7 +751,7 @@ mod tests {
         let x_new: Array2<f64> = Array2::from_shape_fn((50, d), |_| rng.random_range(-0.4..0.4));
         let (m, _) = k.predict(x_new.view()).expect("predicts");
         let err: f64 = (0..50)
-            .map(|i| (m[i] - 0.1 * (6.0 * x_new[[i, 0]]).sin()).powi(2))
+            .map(|i| (m[i] - 0.1 * (6.0 * x_new[[i, 0]]).sin_fixed()).powi(2))
             .sum::<f64>()
             / 50.0;
         assert!(

@@ -40,6 +40,7 @@
 //! not jointly, and the uncertainty of the noise network enters only
 //! through that log-normal factor.
 
+use crate::fixedmath::FixedMath;
 use ndarray::{Array1, Array2, ArrayView1, ArrayView2};
 use rand::SeedableRng;
 use rand_distr::{Distribution, Normal};
@@ -100,7 +101,7 @@ impl NoiseModel {
         let (mu, v) = predictive(&arch, &self.weights, &self.posterior_cov, f64::INFINITY, x);
         mu.iter()
             .zip(&v)
-            .map(|(m, v)| (-(m + 0.5 * v).clamp(-LOG_VAR_LIMIT, LOG_VAR_LIMIT)).exp())
+            .map(|(m, v)| (-(m + 0.5 * v).clamp(-LOG_VAR_LIMIT, LOG_VAR_LIMIT)).exp_fixed())
             .collect()
     }
 
@@ -168,7 +169,7 @@ fn noise_start(n_inputs: usize, seed: u64, u: &Array1<f64>) -> StartState {
         .map(|_| small.sample(&mut rng))
         .collect();
     let mean_u = u.mean().unwrap_or(1.0).max(f64::MIN_POSITIVE);
-    w[lay.output_bias] = mean_u.ln();
+    w[lay.output_bias] = mean_u.ln_fixed();
     StartState {
         weights: w,
         alpha: vec![NOISE_ALPHA_START; groups.len()],

@@ -34,6 +34,7 @@
 //! tanh units (with large output weights), so a linear input may rank below
 //! a curved one whose effect on the target is smaller.
 
+use crate::fixedmath::FixedMath;
 use serde::{Deserialize, Serialize};
 
 use super::Committee;
@@ -68,7 +69,7 @@ pub fn member_relevance(committee: &Committee) -> Option<Vec<Vec<f64>>> {
         for (kind, alpha) in m.groups.iter().zip(&m.alpha) {
             if let GroupKind::Input(i) = kind {
                 if let Some(s) = sigma.get_mut(*i) {
-                    *s = alpha.powf(-0.5);
+                    *s = alpha.powf_fixed(-0.5);
                 }
             }
         }

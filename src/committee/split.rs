@@ -1,6 +1,7 @@
 //! Stage 1 of training: the rows split into a training part and a held-out
 //! part, and the held-out score every later stage is judged by.
 
+use crate::fixedmath::FixedMath;
 use ndarray::{Array1, Array2, ArrayView1, ArrayView2, Axis};
 use rand::seq::SliceRandom;
 use rand::SeedableRng;
@@ -76,7 +77,7 @@ impl HeldOutSplit {
             t_ho: t.select(Axis(0), &held),
             train,
             held,
-            ln_width: target_width.ln(),
+            ln_width: target_width.ln_fixed(),
         })
     }
 
@@ -122,7 +123,7 @@ fn nlpd_scaled(mean: &Array1<f64>, var: &Array1<f64>, t: ArrayView1<f64>) -> f64
         .zip(t)
         .map(|((m, v), y)| {
             let v = v.max(VAR_FLOOR);
-            0.5 * (2.0 * std::f64::consts::PI * v).ln() + (y - m).powi(2) / (2.0 * v)
+            0.5 * (2.0 * std::f64::consts::PI * v).ln_fixed() + (y - m).powi(2) / (2.0 * v)
         })
         .sum::<f64>()
         / n
@@ -166,7 +167,7 @@ mod tests {
         let s = HeldOutSplit::new(&params(), x.view(), t.view(), 2.0, "small").expect("split");
         let v = Array1::ones(s.t_ho.len());
         let got = s.nlpd(&s.t_ho.clone(), &v);
-        let want = 0.5 * (2.0 * std::f64::consts::PI).ln() + 2.0_f64.ln();
+        let want = 0.5 * (2.0 * std::f64::consts::PI).ln_fixed() + 2.0_f64.ln_fixed();
         assert!((got - want).abs() < 1e-12, "{got} vs {want}");
     }
 

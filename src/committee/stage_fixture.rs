@@ -1,5 +1,6 @@
 //! Small data shared by the unit tests of the training stages.
 
+use crate::fixedmath::FixedMath;
 use ndarray::{Array1, Array2};
 use rand::{Rng, SeedableRng};
 use rand_xoshiro::Xoshiro256PlusPlus;
@@ -14,7 +15,7 @@ pub(super) fn small_data(n: usize) -> (Array2<f64>, Array1<f64>) {
     let mut rng = Xoshiro256PlusPlus::seed_from_u64(27);
     let x: Array2<f64> = Array2::from_shape_fn((n, 2), |_| rng.random_range(-0.5..0.5));
     let t = Array1::from_shape_fn(n, |i| {
-        (3.0 * x[[i, 0]]).sin() / 2.0 + x[[i, 1]] / 4.0 + rng.random_range(-0.0866..0.0866)
+        (3.0 * x[[i, 0]]).sin_fixed() / 2.0 + x[[i, 1]] / 4.0 + rng.random_range(-0.0866..0.0866)
     });
     (x, t)
 }

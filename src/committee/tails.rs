@@ -34,6 +34,7 @@
 //! per-row weights. The t of the noise is convolved with a Gaussian
 //! parameter uncertainty in truth; the shape is applied to the sum.
 
+use crate::fixedmath::FixedMath;
 use statrs::distribution::{Continuous, ContinuousCDF, Normal, StudentsT};
 
 use crate::prec::TAIL_DOF_GRID;
@@ -68,7 +69,7 @@ impl TailShape {
             TailShape::Gaussian(d) => d.ln_pdf(z),
             TailShape::StudentT(d) => d.ln_pdf(z),
         };
-        ln_unit - s.ln()
+        ln_unit - s.ln_fixed()
     }
 
     /// P(Y ≤ m + z·sd).
@@ -143,7 +144,7 @@ mod tests {
         for i in 0..=n {
             let z: f64 = lo + h * i as f64;
             let w = if i == 0 || i == n { 0.5 } else { 1.0 };
-            let p = shape.ln_density(z, 0.0, 1.0).exp();
+            let p = shape.ln_density(z, 0.0, 1.0).exp_fixed();
             mass += w * h * p;
             second += w * h * p * z * z;
         }

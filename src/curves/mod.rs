@@ -6,6 +6,7 @@
 //! flags for physically impossible estimates, which are shown as computed,
 //! never clipped.
 
+use crate::fixedmath::FixedMath;
 mod plot;
 mod transition;
 
@@ -183,7 +184,7 @@ fn training_median(model: &Model, j: usize) -> Option<f64> {
     let z = inp.scaling.unscale_linear(s);
     Some(match inp.scaling.transform {
         Transform::Identity => z,
-        Transform::Log => z.exp(),
+        Transform::Log => z.exp_fixed(),
     })
 }
 

@@ -23,6 +23,7 @@
 //! is found on the temperature grid; the interval is the central 95 % of
 //! the drawn crossings. Seeded, so the same call gives the same interval.
 
+use crate::fixedmath::FixedMath;
 use ndarray::Array2;
 use rand::{Rng, SeedableRng};
 use rand_distr::StandardNormal;
@@ -399,7 +400,7 @@ fn judge(
                     .sum::<f64>()
                     / members.len() as f64
             };
-            (p(&|m| m.1[0].hypot(m.2[0])), p(&|m| m.1[0]))
+            (p(&|m| m.1[0].hypot_fixed(m.2[0])), p(&|m| m.1[0]))
         }
     };
     let (table, _) = grid_table(base, std::slice::from_ref(&at))?;

@@ -35,6 +35,7 @@
 //! - inputs with fewer than [`FEW_DISTINCT_VALUES`] distinct values;
 //! - a short verdict list, most urgent first.
 
+use crate::fixedmath::FixedMath;
 use serde::Serialize;
 
 use crate::data::modes::{modes, Mode};
@@ -266,8 +267,8 @@ pub fn adjusted_fences(values: &[f64]) -> Option<(f64, f64)> {
     let mc = medcouple(&v);
     let (a, b) = if mc >= 0.0 { (-4.0, 3.0) } else { (-3.0, 4.0) };
     Some((
-        q1 - 1.5 * (a * mc).exp() * iqr,
-        q3 + 1.5 * (b * mc).exp() * iqr,
+        q1 - 1.5 * (a * mc).exp_fixed() * iqr,
+        q3 + 1.5 * (b * mc).exp_fixed() * iqr,
     ))
 }
 
@@ -877,7 +878,7 @@ mod tests {
         // Brys et al. 2004): a sample of 4000 from its quantile function
         let n = 4000;
         let exp: Vec<f64> = (1..=n)
-            .map(|k| -(1.0 - k as f64 / (n + 1) as f64).ln())
+            .map(|k| -(1.0 - k as f64 / (n + 1) as f64).ln_fixed())
             .collect();
         let mc = medcouple(&exp);
         assert!((mc - 1.0 / 3.0).abs() < 0.02, "MC {mc}");

@@ -3,6 +3,7 @@
 //! same cells become a CSV line or a spreadsheet row.
 
 use crate::data::csv_field;
+use crate::fixedmath::FixedMath;
 
 /// One cell of a CSV row.
 #[derive(Clone, Debug, PartialEq)]
@@ -167,7 +168,7 @@ fn sig_by_parsing(v: f64, digits: usize) -> String {
     let digits = digits.max(1);
     // the exponent after rounding to `digits` (9.9999996 becomes 10.0000)
     let rounded: f64 = format!("{v:.*e}", digits - 1).parse().unwrap_or(v);
-    let e = rounded.abs().log10().floor() as i32;
+    let e = rounded.abs().log10_fixed().floor() as i32;
     if !(-5..15).contains(&e) {
         return format!("{rounded:.*e}", digits - 1);
     }

@@ -17,6 +17,7 @@
 //! neighbour, so a lone typing slip is still judged against the group it
 //! strayed from.
 
+use crate::fixedmath::FixedMath;
 use crate::prec::{MODE_GRID, MODE_MIN_ROWS, MODE_MIN_SHARE, MODE_VALLEY_SHARE};
 
 /// One mode: its range of values and the number of values in it.
@@ -49,7 +50,7 @@ fn cuts(sorted: &[f64]) -> Vec<f64> {
     let sd = (sorted.iter().map(|x| (x - mean).powi(2)).sum::<f64>() / (n - 1) as f64).sqrt();
     let iqr = quantile(sorted, 0.75) - quantile(sorted, 0.25);
     let spread = if iqr > 0.0 { sd.min(iqr / 1.34) } else { sd };
-    let h = 0.9 * spread * (n as f64).powf(-0.2);
+    let h = 0.9 * spread * (n as f64).powf_fixed(-0.2);
     let (lo, hi) = (sorted[0], sorted[n - 1]);
     if h.is_nan() || h <= 0.0 || hi <= lo {
         return Vec::new();
@@ -64,7 +65,7 @@ fn cuts(sorted: &[f64]) -> Vec<f64> {
             let b = sorted.partition_point(|x| *x <= g + 5.0 * h);
             sorted[a..b]
                 .iter()
-                .map(|x| (-0.5 * ((g - x) / h).powi(2)).exp())
+                .map(|x| (-0.5 * ((g - x) / h).powi(2)).exp_fixed())
                 .sum()
         })
         .collect();

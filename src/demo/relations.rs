@@ -5,6 +5,8 @@
 //! **\[S\]** agrees across several independent secondary sources quoting the original;
 //! **\[M\]** from memory of the literature, provisional.
 
+use crate::fixedmath::FixedMath;
+
 /// Cooling time t8/5 (s) from 800 °C to 500 °C for three-dimensional (thick-plate)
 /// heat flow, EN 1011-2 Annex D \[S\]:
 ///
@@ -35,14 +37,14 @@ pub const F3_FILL_PASS: f64 = 0.9;
 pub fn transition_curve(temp_c: f64, lower_j: f64, upper_j: f64, t0_c: f64, width_c: f64) -> f64 {
     let a = 0.5 * (upper_j + lower_j);
     let b = 0.5 * (upper_j - lower_j);
-    a + b * ((temp_c - t0_c) / width_c).tanh()
+    a + b * ((temp_c - t0_c) / width_c).tanh_fixed()
 }
 
 /// Slope dKV/dT (J/°C) of [`transition_curve`]: (B/C)·sech²((T − T0)/C).
 /// Follows by differentiating the ASTM E2215 form \[S\].
 pub fn transition_slope(temp_c: f64, lower_j: f64, upper_j: f64, t0_c: f64, width_c: f64) -> f64 {
     let b = 0.5 * (upper_j - lower_j);
-    let th = ((temp_c - t0_c) / width_c).tanh();
+    let th = ((temp_c - t0_c) / width_c).tanh_fixed();
     b / width_c * (1.0 - th * th)
 }
 

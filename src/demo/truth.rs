@@ -6,6 +6,7 @@
 //! fictional Fellhaven scenario: chosen to be physically sensible in sign and size,
 //! not fitted to or taken from any test results.
 
+use crate::fixedmath::FixedMath;
 use rand::Rng;
 use rand_distr::{Distribution, LogNormal, Normal};
 
@@ -204,7 +205,7 @@ pub const CHARPY_SD_REL: f64 = 0.03;
 pub const CHARPY_SD_TEMP_C: f64 = 6.0;
 
 fn sigmoid(x: f64) -> f64 {
-    1.0 / (1.0 + (-x).exp())
+    1.0 / (1.0 + (-x).exp_fixed())
 }
 
 /// Smooth version of max(x, 0) with scale `s`: s·ln(1 + exp(x/s)).
@@ -213,7 +214,7 @@ fn softplus(x: f64, s: f64) -> f64 {
     if z > 30.0 {
         x
     } else {
-        s * z.exp().ln_1p()
+        s * z.exp_fixed().ln_1p_fixed()
     }
 }
 
@@ -229,9 +230,9 @@ pub fn free_nitrogen_wt(n_ppm: f64, ti_ppm: f64) -> f64 {
 /// Mo, Cr), peaks for oxygen near 330 ppm (enough inclusions to nucleate on, not so
 /// many that they coarsen) and falls with slower cooling (longer t8/5).
 pub fn acicular_fraction(x: &WeldInputs, t85_s: f64) -> f64 {
-    let ti_sat = 1.0 - (-x.ti_ppm.max(0.0) / 120.0).exp();
-    let b_sat = 1.0 - (-x.b_ppm.max(0.0) / 15.0).exp();
-    let o_window = (-((x.o_ppm - 330.0) / 180.0).powi(2)).exp();
+    let ti_sat = 1.0 - (-x.ti_ppm.max(0.0) / 120.0).exp_fixed();
+    let b_sat = 1.0 - (-x.b_ppm.max(0.0) / 15.0).exp_fixed();
+    let o_window = (-((x.o_ppm - 330.0) / 180.0).powi(2)).exp_fixed();
     let z = -1.2
         + 2.4 * ti_sat * o_window
         + 1.0 * b_sat * ti_sat
@@ -262,7 +263,7 @@ fn cap_yield_ratio(ratio: f64) -> f64 {
     if ratio <= 0.88 {
         ratio
     } else {
-        0.88 + 0.08 * ((ratio - 0.88) / 0.08).tanh()
+        0.88 + 0.08 * ((ratio - 0.88) / 0.08).tanh_fixed()
     }
 }
 
@@ -347,8 +348,8 @@ fn lognormal_mean_sd<R: Rng + ?Sized>(rng: &mut R, mean: f64, sd: f64) -> f64 {
     if sd <= 0.0 {
         return mean;
     }
-    let s2 = (1.0 + (sd / mean).powi(2)).ln();
-    let mu = mean.ln() - 0.5 * s2;
+    let s2 = (1.0 + (sd / mean).powi(2)).ln_fixed();
+    let mu = mean.ln_fixed() - 0.5 * s2;
     LogNormal::new(mu, s2.sqrt())
         .map(|d| d.sample(rng))
         .unwrap_or(mean)

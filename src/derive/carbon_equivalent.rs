@@ -9,6 +9,7 @@
 //! paper or standard.
 
 use super::{check_composition, Composition, Limit};
+use crate::fixedmath::FixedMath;
 
 /// Carbon content (wt%) that conventionally separates the domains of CE(IIW)
 /// (above) and Pcm (at or below). From memory of the literature, provisional.
@@ -113,7 +114,7 @@ pub fn check_cet(comp: &Composition) -> Vec<String> {
 ///
 /// Source: Yurioka et al. (1983), Welding Journal 62(6):147s.
 pub fn cen_carbon_factor(c: f64) -> f64 {
-    0.75 + 0.25 * (20.0 * (c - 0.12)).tanh()
+    0.75 + 0.25 * (20.0 * (c - 0.12)).tanh_fixed()
 }
 
 /// Carbon equivalent of Yurioka et al.:
@@ -155,8 +156,8 @@ pub fn check_cen(comp: &Composition) -> Vec<String> {
 /// warns on these. HD must be ≥ 0 for the power to be defined.
 pub fn preheat_method_b(cet: f64, thickness: f64, hydrogen: f64, heat_input: f64) -> f64 {
     697.0 * cet
-        + 160.0 * (thickness / 35.0).tanh()
-        + 62.0 * hydrogen.powf(0.35)
+        + 160.0 * (thickness / 35.0).tanh_fixed()
+        + 62.0 * hydrogen.powf_fixed(0.35)
         + (53.0 * cet - 32.0) * heat_input
         - 328.0
 }

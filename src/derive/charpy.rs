@@ -15,6 +15,7 @@
 //! Standardization News 3(11):24. Energies refer to the standard specimen
 //! 10 × 10 × 55 mm with a 2 mm V-notch (ISO 148-1, ASTM E23).
 
+use crate::fixedmath::FixedMath;
 use std::fmt;
 use std::str::FromStr;
 
@@ -29,7 +30,7 @@ use super::DeriveError;
 pub fn charpy_tanh(temperature: f64, lower_shelf: f64, upper_shelf: f64, t0: f64, c: f64) -> f64 {
     let a = 0.5 * (upper_shelf + lower_shelf);
     let b = 0.5 * (upper_shelf - lower_shelf);
-    a + b * ((temperature - t0) / c).tanh()
+    a + b * ((temperature - t0) / c).tanh_fixed()
 }
 
 /// Temperature at which the tanh curve reaches `energy` E:

@@ -4,6 +4,7 @@
 //! Compositions in wt%, temperatures in °C.
 
 use super::{check_composition, Composition, Limit};
+use crate::fixedmath::FixedMath;
 
 /// Koistinen–Marburger rate constant, 1/K (Koistinen & Marburger 1959).
 pub const KM_RATE: f64 = 0.011;
@@ -102,7 +103,7 @@ pub fn martensite_fraction_km(ms: f64, temperature: f64) -> f64 {
     if temperature >= ms {
         0.0
     } else {
-        1.0 - (-KM_RATE * (ms - temperature)).exp()
+        1.0 - (-KM_RATE * (ms - temperature)).exp_fixed()
     }
 }
 

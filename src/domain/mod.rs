@@ -53,6 +53,7 @@
 //!    distance D of the query (zero for a row the joint check rejects at
 //!    k = 1, f = 1; a handful for a row inside a well-covered region).
 
+use crate::fixedmath::FixedMath;
 mod physical;
 
 pub use crate::model::{pair_cells, DomainReference, NearMeasure, PairGrid};
@@ -769,7 +770,7 @@ pub fn fmt_num(v: f64) -> String {
     let s = if v.abs() >= 1000.0 || v.fract() == 0.0 {
         format!("{v:.0}")
     } else {
-        let digits = (4 - v.abs().log10().ceil() as i32).clamp(1, 8) as usize;
+        let digits = (4 - v.abs().log10_fixed().ceil() as i32).clamp(1, 8) as usize;
         format!("{v:.digits$}")
     };
     if s.contains('.') {

@@ -36,6 +36,7 @@
 //! weights enter as Σ r_n ln ρ_n (the Gaussian part of the expected
 //! complete-data log likelihood of EM; Dempster, Laird & Rubin 1977).
 
+use crate::fixedmath::FixedMath;
 use argmin::core::{Executor, State, TerminationReason};
 use argmin::solver::linesearch::MoreThuenteLineSearch;
 use argmin::solver::quasinewton::LBFGS;
@@ -212,7 +213,7 @@ fn eigen_inverse(a: &Array2<f64>) -> Option<(Array2<f64>, f64)> {
     let clamped = vals.mapv(|v| v.max(floor));
     let scaled = &vecs / &clamped.view().insert_axis(ndarray::Axis(0));
     let inv = matmul(scaled.view(), vecs.t());
-    Some((inv, clamped.iter().map(|v| v.ln()).sum()))
+    Some((inv, clamped.iter().map(|v| v.ln_fixed()).sum()))
 }
 
 /// A = c·JᵀRJ + diag(α) (or the exact Hessian where asked and possible),
@@ -294,7 +295,7 @@ fn hessian_of_m(
 }
 
 fn ln_factorial(h: usize) -> f64 {
-    (1..=h).map(|i| (i as f64).ln()).sum()
+    (1..=h).map(|i| (i as f64).ln_fixed()).sum()
 }
 
 fn rel_change(new: f64, old: f64) -> f64 {
@@ -541,7 +542,7 @@ impl RowCount {
                 let ln_rho: f64 = row_weights.map_or(0.0, |w| {
                     w.iter()
                         .enumerate()
-                        .map(|(k, w)| resp(k) * (w / resp(k)).ln())
+                        .map(|(k, w)| resp(k) * (w / resp(k)).ln_fixed())
                         .sum()
                 });
                 let counted = responsibilities.map_or(n_rows as f64, |r| r.sum());
@@ -576,7 +577,10 @@ impl RowCount {
     ) -> f64 {
         let n = self.n;
         let (data_term, noise_norm) = if self.gaussian {
-            (beta * e_d, 0.5 * n * beta.ln() + 0.5 * self.ln_rho_sum)
+            (
+                beta * e_d,
+                0.5 * n * beta.ln_fixed() + 0.5 * self.ln_rho_sum,
+            )
         } else {
             (e_d, 0.0)
         };
@@ -585,10 +589,10 @@ impl RowCount {
                 .sizes()
                 .iter()
                 .zip(alpha)
-                .map(|(&k, a)| 0.5 * k as f64 * a.ln())
+                .map(|(&k, a)| 0.5 * k as f64 * a.ln_fixed())
                 .sum::<f64>()
             + noise_norm
-            - 0.5 * n * (2.0 * std::f64::consts::PI).ln()
+            - 0.5 * n * (2.0 * std::f64::consts::PI).ln_fixed()
             + ln_factorial(h)
             + h as f64 * std::f64::consts::LN_2
     }
@@ -753,7 +757,7 @@ mod tests {
         let noise = Normal::new(0.0, noise_sd).expect("valid sd");
         let x = Array2::from_shape_fn((n, 2), |_| rng.random_range(-0.5..0.5));
         let t = Array1::from_shape_fn(n, |i| {
-            f64::sin(3.0 * x[[i, 0]]) / 3.0 + noise.sample(&mut rng)
+            (3.0 * x[[i, 0]]).sin_fixed() / 3.0 + noise.sample(&mut rng)
         });
         (x, t)
     }

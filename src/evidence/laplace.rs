@@ -111,6 +111,7 @@ pub fn quadratic_forms_by_product(cov: &Array2<f64>, jac: ArrayView2<f64>) -> Ar
 #[cfg(test)]
 mod tests {
     use super::*;
+    use crate::fixedmath::FixedMath;
     use rand::SeedableRng;
     use rand_distr::{Distribution, Normal};
     use rand_xoshiro::Xoshiro256PlusPlus;
@@ -123,7 +124,9 @@ mod tests {
         let g = Array2::from_shape_fn((k, k), |_| n.sample(&mut rng));
         // an orthogonal Q: the eigenvectors of the symmetric g + gᵀ
         let (_, q) = crate::linalg::symmetric_eigen((&g + &g.t()).view()).expect("eigen");
-        let lambda = Array1::from_shape_fn(k, |i| 10f64.powf(-decades * i as f64 / (k - 1) as f64));
+        let lambda = Array1::from_shape_fn(k, |i| {
+            10f64.powf_fixed(-decades * i as f64 / (k - 1) as f64)
+        });
         let scaled = &q * &lambda;
         scaled.dot(&q.t())
     }

@@ -29,6 +29,7 @@
 //! The optimiser sees M/N so that its tolerances do not depend on the
 //! number of rows.
 
+use crate::fixedmath::FixedMath;
 use std::cell::RefCell;
 
 use argmin::core::{CostFunction, Error as ArgminError, Gradient};
@@ -92,7 +93,7 @@ impl DataModel<'_> {
             }
             DataModel::LogVariance { u, row_weights } => {
                 let (s, act) = arch.outputs_and_activations(w, x);
-                let scaled = &u * &s.mapv(|v| (-v).exp());
+                let scaled = &u * &s.mapv(|v| (-v).exp_fixed());
                 let mut terms = &s + &scaled;
                 let mut dl_ds = scaled.mapv(|v| 0.5 * (1.0 - v));
                 if let Some(wt) = row_weights {
@@ -124,7 +125,9 @@ impl DataModel<'_> {
                     .iter()
                     .zip(u)
                     .enumerate()
-                    .map(|(n, (s, u))| row_weights.map_or(1.0, |wt| wt[n]) * (s + u * (-s).exp()))
+                    .map(|(n, (s, u))| {
+                        row_weights.map_or(1.0, |wt| wt[n]) * (s + u * (-s).exp_fixed())
+                    })
                     .sum::<f64>()
             }
         }

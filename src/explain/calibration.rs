@@ -64,6 +64,7 @@ pub fn calibration_curve(
 #[cfg(test)]
 mod tests {
     use super::*;
+    use crate::fixedmath::FixedMath;
     use rand::SeedableRng;
     use rand_distr::{Distribution, Normal as RNormal};
     use rand_xoshiro::Xoshiro256PlusPlus;
@@ -90,7 +91,9 @@ mod tests {
     fn draws_from_the_predictive_lie_on_the_diagonal() {
         let mut rng = Xoshiro256PlusPlus::seed_from_u64(11);
         let n = 4000;
-        let m: Vec<f64> = (0..n).map(|i| (i as f64 * 0.01).sin() * 5.0).collect();
+        let m: Vec<f64> = (0..n)
+            .map(|i| (i as f64 * 0.01).sin_fixed() * 5.0)
+            .collect();
         let s: Vec<f64> = (0..n).map(|i| 0.5 + (i % 7) as f64 * 0.3).collect();
         let e = RNormal::new(0.0, 1.0).expect("sd 1");
         let z: Vec<f64> = m

@@ -14,6 +14,7 @@
 //! through its logarithm (a heavy right tail otherwise crowds most rows into
 //! a small part of the scaled range).
 
+use crate::fixedmath::FixedMath;
 use serde::{Deserialize, Serialize};
 
 use crate::prec::LOG_SKEW_THRESHOLD;
@@ -51,7 +52,7 @@ pub fn skewness(values: &[f64]) -> f64 {
     if m2 <= 0.0 {
         0.0
     } else {
-        m3 / m2.powf(1.5)
+        m3 / m2.powf_fixed(1.5)
     }
 }
 
@@ -72,7 +73,7 @@ impl ColumnScaling {
         };
         let (lo, hi) = match transform {
             Transform::Identity => (min, max),
-            Transform::Log => (min.ln(), max.ln()),
+            Transform::Log => (min.ln_fixed(), max.ln_fixed()),
         };
         Some(ColumnScaling { transform, lo, hi })
     }
@@ -82,7 +83,7 @@ impl ColumnScaling {
     pub fn scale(&self, x: f64) -> Option<f64> {
         let z = match self.transform {
             Transform::Identity => x,
-            Transform::Log if x > 0.0 => x.ln(),
+            Transform::Log if x > 0.0 => x.ln_fixed(),
             Transform::Log => return None,
         };
         Some((z - self.lo) / (self.hi - self.lo) - 0.5)
@@ -98,7 +99,7 @@ impl ColumnScaling {
         let z = self.unscale_linear(s);
         match self.transform {
             Transform::Identity => z,
-            Transform::Log => z.exp(),
+            Transform::Log => z.exp_fixed(),
         }
     }
 

@@ -4,13 +4,14 @@
 
 use super::effects::main_inputs;
 use super::{esc, Ctx};
+use crate::fixedmath::FixedMath;
 
 /// A value to three significant digits, for the summary.
 fn sig3(v: f64) -> String {
     if !v.is_finite() || v == 0.0 {
         return format!("{v}");
     }
-    let d = (2 - v.abs().log10().floor() as i32).max(0) as usize;
+    let d = (2 - v.abs().log10_fixed().floor() as i32).max(0) as usize;
     format!("{v:.d$}")
 }
 use crate::explain::CalibrationPoint;

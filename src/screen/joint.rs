@@ -30,6 +30,7 @@
 //! the rectangle. More than two with some correlation: seeded Monte Carlo
 //! ([`JOINT_MC_SAMPLES`] draws), with its standard error reported.
 
+use crate::fixedmath::FixedMath;
 use ndarray::Array2;
 use rand::SeedableRng;
 use rand_distr::{Distribution, StandardNormal};
@@ -132,10 +133,10 @@ pub fn bvn_upper(h: f64, k: f64, r: f64) -> f64 {
     let mut bvn = 0.0;
     if r.abs() < 0.925 {
         let hs = (h * h + k * k) / 2.0;
-        let asr = r.asin() / 2.0;
+        let asr = r.asin_fixed() / 2.0;
         for &(w, x) in &nodes {
-            let sn = (asr * x).sin();
-            bvn += w * ((sn * hk - hs) / (1.0 - sn * sn)).exp();
+            let sn = (asr * x).sin_fixed();
+            bvn += w * ((sn * hk - hs) / (1.0 - sn * sn)).exp_fixed();
         }
         return (bvn * asr / tp + phi(-h) * phi(-k)).clamp(0.0, 1.0);
     }
@@ -151,12 +152,14 @@ pub fn bvn_upper(h: f64, k: f64, r: f64) -> f64 {
         let d = (12.0 - hk) / 80.0;
         let asr = -(bs / as_ + hk) / 2.0;
         if asr > -100.0 {
-            bvn = a * asr.exp() * (1.0 - c * (bs - as_) * (1.0 - d * bs) / 3.0 + c * d * as_ * as_);
+            bvn = a
+                * asr.exp_fixed()
+                * (1.0 - c * (bs - as_) * (1.0 - d * bs) / 3.0 + c * d * as_ * as_);
         }
         if hk > -100.0 {
             let b = bs.sqrt();
             let sp = tp.sqrt() * phi(-b / a);
-            bvn -= (-hk / 2.0).exp() * sp * b * (1.0 - c * bs * (1.0 - d * bs) / 3.0);
+            bvn -= (-hk / 2.0).exp_fixed() * sp * b * (1.0 - c * bs * (1.0 - d * bs) / 3.0);
         }
         a /= 2.0;
         for &(w, x) in &nodes {
@@ -165,8 +168,8 @@ pub fn bvn_upper(h: f64, k: f64, r: f64) -> f64 {
             if asr > -100.0 {
                 let sp = 1.0 + c * xs * (1.0 + 5.0 * d * xs);
                 let rs = (1.0 - xs).sqrt();
-                let ep = (-hk * xs / (2.0 * (1.0 + rs) * (1.0 + rs))).exp() / rs;
-                bvn += a * w * asr.exp() * (ep - sp);
+                let ep = (-hk * xs / (2.0 * (1.0 + rs) * (1.0 + rs))).exp_fixed() / rs;
+                bvn += a * w * asr.exp_fixed() * (ep - sp);
             }
         }
         bvn = -bvn / tp;

@@ -214,6 +214,7 @@ impl fmt::Display for Requirement {
 #[cfg(test)]
 mod tests {
     use super::*;
+    use crate::fixedmath::FixedMath;
     use approx::assert_abs_diff_eq;
 
     fn gauss(mean: f64, sd: f64) -> ScalePrediction {
@@ -290,17 +291,17 @@ mod tests {
         let p = r.probability(
             &TargetTransform::Log,
             TailShape::new(None),
-            &gauss(60f64.ln(), 0.5),
+            &gauss(60f64.ln_fixed(), 0.5),
         );
         assert_abs_diff_eq!(p, 0.5, epsilon = 1e-12);
         let r2 = Requirement {
-            threshold: 60.0 * 0.5f64.exp(),
+            threshold: 60.0 * 0.5f64.exp_fixed(),
             ..r.clone()
         };
         let p = r2.probability(
             &TargetTransform::Log,
             TailShape::new(None),
-            &gauss(60f64.ln(), 0.5),
+            &gauss(60f64.ln_fixed(), 0.5),
         );
         assert_abs_diff_eq!(p, 0.158_655, epsilon = 1e-6);
         // a threshold at or below zero is always met by a log target

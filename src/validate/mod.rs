@@ -377,6 +377,7 @@ pub fn cross_validate(
 mod tests {
     use super::*;
     use crate::committee::{CommitteeParams, KrigingMode, NoiseMode};
+    use crate::fixedmath::FixedMath;
     use crate::observer::Silent;
     use rand::SeedableRng;
     use rand_distr::{Distribution, Normal};
@@ -393,7 +394,7 @@ mod tests {
         let y: Vec<f64> = x1
             .iter()
             .zip(&x2)
-            .map(|(a, b)| (3.0 * a).sin() + 0.5 * b + e.sample(&mut rng))
+            .map(|(a, b)| (3.0 * a).sin_fixed() + 0.5 * b + e.sample(&mut rng))
             .collect();
         Table::from_columns(
             "synthetic.csv",

@@ -2,6 +2,7 @@
 //! binary: a private working directory and an invented fixture table.
 #![allow(dead_code)] // each test crate uses a different subset
 
+use mettle::fixedmath::FixedMath;
 use std::fmt::Write as _;
 use std::path::{Path, PathBuf};
 use std::process::{Command, Output};
@@ -15,7 +16,7 @@ pub const FIXTURE_NOISE_SD: f64 = 0.2;
 
 /// The fixture's noise-free function: y = 3·sin(2·x1) + 0.5·x2.
 pub fn fixture_truth(x1: f64, x2: f64) -> f64 {
-    3.0 * (2.0 * x1).sin() + 0.5 * x2
+    3.0 * (2.0 * x1).sin_fixed() + 0.5 * x2
 }
 
 /// `n` rows of x1 ~ U(−1, 1), x2 ~ U(0, 2), y = truth + N(0, 0.2²), as CSV
