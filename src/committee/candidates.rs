@@ -173,7 +173,7 @@ enum Running {
         state: PausedFit,
         nlpd: f64,
     },
-    Finished(Trial),
+    Finished(Box<Trial>),
 }
 
 /// Fit the candidates `specs` (hidden units, restart) of one batch, in
@@ -211,7 +211,7 @@ fn run_batch(
         let mut paused = Vec::new();
         for run in running.drain(..) {
             match run {
-                Running::Finished(t) => finished.push(t),
+                Running::Finished(t) => finished.push(*t),
                 p @ Running::Paused { .. } => paused.push(p),
             }
         }
@@ -243,7 +243,7 @@ fn run_batch(
             .collect();
     }
     finished.extend(running.into_iter().filter_map(|run| match run {
-        Running::Finished(t) => Some(t),
+        Running::Finished(t) => Some(*t),
         Running::Paused { .. } => None, // not reached: the last rung continues to the end
     }));
     finished
@@ -324,8 +324,10 @@ fn running(
                 nlpd: split.nlpd(&mean, &var),
             }
         }
-        Ok(FitProgress::Done(net)) => Running::Finished(scored(split, h, r, seed, Ok(net))),
-        Err(f) => Running::Finished(failed(h, r, seed, f)),
+        Ok(FitProgress::Done(net)) => {
+            Running::Finished(Box::new(scored(split, h, r, seed, Ok(net))))
+        }
+        Err(f) => Running::Finished(Box::new(failed(h, r, seed, f))),
     }
 }
 
