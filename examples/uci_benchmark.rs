@@ -7,7 +7,7 @@
 //! cargo run --release --example uci_benchmark -- [--data-dir ../shared/datasets/uci]
 //!     [--datasets concrete,energy,yacht,wine-quality-red] [--splits 20]
 //!     [--hidden 1..10] [--restarts 4] [--markdown FILE]
-//!     [--noise auto|constant|varying] [--kriging auto|on|off] [--gross-errors on|off] [--heavy-tails on|off] [--model-var-scale on|off] [--reweight-mean] [--first-split 0] [--no-widen] [--no-ard] [--max-cycles N] [--first-iters N] [--cycle-iters N]
+//!     [--noise auto|constant|varying] [--kriging auto|on|off] [--gross-errors on|off] [--heavy-tails on|off] [--model-var-scale on|off] [--reweight-mean] [--first-split 0] [--no-widen] [--no-early-stop] [--no-ard] [--max-cycles N] [--first-iters N] [--cycle-iters N]
 //!     [--max-members N] [--holdout FRACTION]
 //! ```
 //!
@@ -147,6 +147,7 @@ fn main() {
     let mut markdown: Option<PathBuf> = None;
     let mut first_split = 0usize;
     let mut widen = true;
+    let mut early_stop = true;
     let mut ard = true;
     let mut fit = FitSettings::default();
     let mut noise = NoiseMode::Auto;
@@ -229,6 +230,11 @@ fn main() {
                 i += 1;
                 continue;
             }
+            "--no-early-stop" => {
+                early_stop = false;
+                i += 1;
+                continue;
+            }
             other => panic!("unknown option {other}"),
         }
         i += 2;
@@ -258,6 +264,7 @@ fn main() {
                 .restarts(restarts)
                 .seed(k as u64)
                 .widen(widen)
+                .early_stop(early_stop)
                 .ard(ard)
                 .noise(noise)
                 .kriging(kriging)

@@ -400,3 +400,48 @@ pub const FAST_CALIBRATION_SHARE: f64 = 0.99;
 /// core: the members' Jacobians (rows × k) and the process's distances
 /// (rows × N) stay within a core's cache.
 pub const FAST_BLOCK_ROWS: usize = 256;
+
+/// The rungs of the candidate search's successive halving (issue 28
+/// item 1): after `cycles` evidence cycles every candidate still running
+/// is scored on the held-out part (mean NLPD of its network as it stands),
+/// and only the best `keep_share` of the batch (at least
+/// [`SEARCH_KEEP_MIN`]) are continued to the end; the others are recorded
+/// as stopped. Successive halving: Jamieson & Talwalkar (2016), "Non-
+/// stochastic best arm identification and hyperparameter optimization",
+/// AISTATS, PMLR 51:240–248; Li et al. (2018), "Hyperband", JMLR
+/// 18(185):1–52.
+///
+/// Measured on the training rows of split 0 of concrete and energy (held-
+/// out part only, 60 candidates each, docs/benchmarks.md "Training twice as
+/// fast"): a network's rank after 8 cycles put the final best four of
+/// concrete at ranks 1, 3, 4 and 7; after 3 cycles the rank is noisier,
+/// hence the gentle first cut. Under the default 20-cycle cap (which the
+/// candidates nearly always reach) a candidate costs about 0.23 of a full
+/// fit up to cycle 3 (the first cycle has 300 optimiser iterations, the
+/// others 100), 0.23 more up to cycle 8 and 0.55 to the end, so a batch of
+/// 40 costs about 9 + 20·0.23 + 10·0.55 ≈ 19 full fits instead of 40.
+pub const SEARCH_RUNGS: [(usize, f64); 2] = [(3, 0.5), (8, 0.25)];
+
+/// Fewest candidates of a batch continued past a rung of
+/// [`SEARCH_RUNGS`]: enough for the varying-noise pool (4) and the usual
+/// committee sizes (1–6 members on the shared UCI sets) with room for a
+/// rank that changes late.
+pub const SEARCH_KEEP_MIN: usize = 8;
+
+/// Most rows the candidate search works on (issue 28 item 2): on a larger
+/// table the training part and the held-out part are drawn from a seeded
+/// sample of this many rows, and the chosen members alone are refitted on
+/// every row. The search's cost grows with its rows times its 40–60
+/// candidates, the refit's with all the rows times the few members; what
+/// the sample costs in accuracy is measured in docs/benchmarks.md ("Large
+/// archives"). Tables up to this size are searched on every row, as
+/// before.
+pub const SEARCH_MAX_ROWS: usize = 4_000;
+
+/// Rows per block when a network's Gauss–Newton matrix JᵀJ is summed over
+/// more rows than this: the Jacobian (rows × weights) is then formed one
+/// block at a time and the blocks' products added in order, so that memory
+/// stays bounded (100 000 rows × 641 weights would be 513 MB at once).
+/// Up to this many rows the single product of earlier versions is kept, and
+/// with it every model trained on them bit for bit.
+pub const JACOBIAN_BLOCK_ROWS: usize = 8_192;

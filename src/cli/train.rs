@@ -145,6 +145,10 @@ pub struct TrainSettings {
     /// Do not widen the hidden-unit range when the best candidates sit at its top.
     #[arg(long)]
     pub no_widen: bool,
+    /// Train every candidate network to the end instead of stopping those that rank poorly on
+    /// the held-out rows after their first cycles (successive halving; twice the search time).
+    #[arg(long)]
+    pub no_early_stop: bool,
     /// One regularisation constant for all input weights instead of one per input (no ARD).
     #[arg(long)]
     pub no_ard: bool,
@@ -241,6 +245,7 @@ impl TrainSettings {
             .holdout_fraction(self.holdout)
             .max_members(self.max_members)
             .widen(!self.no_widen)
+            .early_stop(!self.no_early_stop)
             .noise(self.noise.into())
             .kriging(self.kriging.into())
             .gross_errors(self.gross_errors == Switch::On)

@@ -12,11 +12,15 @@ use rand_xoshiro::Xoshiro256PlusPlus;
 use rayon::prelude::*;
 
 use super::split::HeldOutSplit;
-use super::{Candidate, CheckedCommitteeParams, Member, NoiseModel};
+use super::{Candidate, CheckedCommitteeParams, Member, NoiseModel, StoppedEarly};
 use crate::error::{Error, Result};
-use crate::evidence::{fit_network, FitFailure, FittedNetwork, Groups, StartState};
+use crate::evidence::{
+    fit_network, fit_network_until, resume_fit, resume_until, FitFailure, FitProgress,
+    FittedNetwork, Groups, PausedFit, StartState,
+};
 use crate::net::Architecture;
 use crate::observer::{TrainEvent, TrainObserver};
+use crate::prec::{SEARCH_KEEP_MIN, SEARCH_RUNGS};
 
 /// Initial α of every group (scaled space): weak enough not to constrain
 /// weights of order one.
@@ -74,27 +78,23 @@ impl CandidateSearch {
                 .rev()
                 .flat_map(|h| (0..if h == 0 { 1 } else { restarts }).map(move |r| (h, r)))
                 .collect();
-            let new: Vec<Trial> = specs
-                .par_iter()
-                .map(|&(h, r)| {
-                    let trial = try_candidate(params, split, h, r);
-                    let k = done.fetch_add(1, Ordering::SeqCst) + 1;
-                    let best_now = {
-                        let mut b = best.lock().unwrap_or_else(|p| p.into_inner());
-                        if let Some(v) = trial.record.heldout_nlpd {
-                            *b = Some(b.map_or(v, |old: f64| old.min(v)));
-                        }
-                        *b
-                    };
-                    observer.observe(&TrainEvent::CandidateDone {
-                        target: target_name,
-                        done: k,
-                        total: planned,
-                        best_nlpd: best_now,
-                    });
-                    trial
-                })
-                .collect();
+            let on_done = |trial: &Trial| {
+                let k = done.fetch_add(1, Ordering::SeqCst) + 1;
+                let best_now = {
+                    let mut b = best.lock().unwrap_or_else(|p| p.into_inner());
+                    if let Some(v) = trial.record.heldout_nlpd {
+                        *b = Some(b.map_or(v, |old: f64| old.min(v)));
+                    }
+                    *b
+                };
+                observer.observe(&TrainEvent::CandidateDone {
+                    target: target_name,
+                    done: k,
+                    total: planned,
+                    best_nlpd: best_now,
+                });
+            };
+            let new = run_batch(params, split, &specs, &on_done);
             trials.extend(new);
             trials.sort_by_key(|t| (t.record.n_hidden, t.record.restart));
             let top = trials
@@ -163,25 +163,183 @@ impl CandidateSearch {
     }
 }
 
-/// Fit the candidate with `h` hidden units and restart `r` on the training
-/// part and score it on the held-out part.
-fn try_candidate(
+/// A candidate between two rungs of the search: still running (stopped
+/// after a rung's cycles, with its held-out NLPD there), or finished.
+enum Running {
+    Paused {
+        h: usize,
+        r: usize,
+        seed: u64,
+        state: PausedFit,
+        nlpd: f64,
+    },
+    Finished(Box<Trial>),
+}
+
+/// Fit the candidates `specs` (hidden units, restart) of one batch, in
+/// parallel: with early stopping (`params.early_stop`), by successive
+/// halving over [`SEARCH_RUNGS`] — each rung scores the candidates still
+/// running on the held-out part and continues only the best share of the
+/// batch (at least [`SEARCH_KEEP_MIN`]); a continued candidate ends exactly
+/// as it would have without the stop. `on_done` is called once per
+/// candidate when it is finished or stopped.
+fn run_batch(
+    params: &CheckedCommitteeParams,
+    split: &HeldOutSplit,
+    specs: &[(usize, usize)],
+    on_done: &(dyn Fn(&Trial) + Sync),
+) -> Vec<Trial> {
+    let rungs: &[(usize, f64)] = if params.early_stop && specs.len() > SEARCH_KEEP_MIN {
+        &SEARCH_RUNGS
+    } else {
+        &[]
+    };
+    let report = |run: Running| {
+        if let Running::Finished(t) = &run {
+            on_done(t);
+        }
+        run
+    };
+    let first = rungs.first().map(|r| r.0);
+    let mut running: Vec<Running> = specs
+        .par_iter()
+        .map(|&(h, r)| report(start_candidate(params, split, h, r, first)))
+        .collect();
+    let mut finished: Vec<Trial> = Vec::new();
+    for (i, &(cycles, share)) in rungs.iter().enumerate() {
+        let keep = ((specs.len() as f64 * share).ceil() as usize).max(SEARCH_KEEP_MIN);
+        let mut paused = Vec::new();
+        for run in running.drain(..) {
+            match run {
+                Running::Finished(t) => finished.push(*t),
+                p @ Running::Paused { .. } => paused.push(p),
+            }
+        }
+        paused.sort_by(|a, b| {
+            rung_key(a)
+                .partial_cmp(&rung_key(b))
+                .unwrap_or(std::cmp::Ordering::Equal)
+        });
+        let stopped = paused.split_off(keep.min(paused.len()));
+        for run in stopped {
+            if let Running::Paused {
+                h, r, seed, nlpd, ..
+            } = run
+            {
+                let t = stopped_trial(h, r, seed, cycles, nlpd);
+                on_done(&t);
+                finished.push(t);
+            }
+        }
+        let next = rungs.get(i + 1).map(|r| r.0);
+        running = paused
+            .into_par_iter()
+            .map(|run| match run {
+                Running::Paused {
+                    h, r, seed, state, ..
+                } => report(continue_candidate(params, split, h, r, seed, state, next)),
+                done => done,
+            })
+            .collect();
+    }
+    finished.extend(running.into_iter().filter_map(|run| match run {
+        Running::Finished(t) => Some(*t),
+        Running::Paused { .. } => None, // not reached: the last rung continues to the end
+    }));
+    finished
+}
+
+/// Order of the candidates at a rung: held-out NLPD (non-finite last),
+/// then hidden units, then restart.
+fn rung_key(run: &Running) -> (f64, usize, usize) {
+    match run {
+        Running::Paused { h, r, nlpd, .. } => (
+            if nlpd.is_finite() {
+                *nlpd
+            } else {
+                f64::INFINITY
+            },
+            *h,
+            *r,
+        ),
+        Running::Finished(t) => (f64::INFINITY, t.record.n_hidden, t.record.restart),
+    }
+}
+
+/// Start the candidate with `h` hidden units and restart `r` on the
+/// training part, stopping after `pause_after` cycles when given.
+fn start_candidate(
     params: &CheckedCommitteeParams,
     split: &HeldOutSplit,
     h: usize,
     r: usize,
-) -> Trial {
+    pause_after: Option<usize>,
+) -> Running {
     let arch = Architecture::new(split.n_inputs(), h);
     let seed = candidate_seed(params.seed, h, r);
     let start = initial_state(&arch, params.ard, seed, split.t_tr.view());
-    match fit_network(
-        arch,
-        params.ard,
-        split.x_tr.view(),
-        split.t_tr.view(),
-        start,
-        &params.fit,
-    ) {
+    let (x, t) = (split.x_tr.view(), split.t_tr.view());
+    let progress = match pause_after {
+        Some(c) => fit_network_until(arch, params.ard, x, t, start, &params.fit, c),
+        None => fit_network(arch, params.ard, x, t, start, &params.fit).map(FitProgress::Done),
+    };
+    running(split, h, r, seed, progress)
+}
+
+/// Continue a stopped candidate, to the next rung or to the end.
+fn continue_candidate(
+    params: &CheckedCommitteeParams,
+    split: &HeldOutSplit,
+    h: usize,
+    r: usize,
+    seed: u64,
+    state: PausedFit,
+    pause_after: Option<usize>,
+) -> Running {
+    let arch = Architecture::new(split.n_inputs(), h);
+    let (x, t) = (split.x_tr.view(), split.t_tr.view());
+    let progress = match pause_after {
+        Some(c) => resume_until(arch, params.ard, x, t, state, &params.fit, c),
+        None => resume_fit(arch, params.ard, x, t, state, &params.fit).map(FitProgress::Done),
+    };
+    running(split, h, r, seed, progress)
+}
+
+/// A fit's progress as a running or finished candidate.
+fn running(
+    split: &HeldOutSplit,
+    h: usize,
+    r: usize,
+    seed: u64,
+    progress: std::result::Result<FitProgress, FitFailure>,
+) -> Running {
+    match progress {
+        Ok(FitProgress::Paused { snapshot, state }) => {
+            let (mean, var) = snapshot.predict(split.x_ho.view());
+            Running::Paused {
+                h,
+                r,
+                seed,
+                state,
+                nlpd: split.nlpd(&mean, &var),
+            }
+        }
+        Ok(FitProgress::Done(net)) => {
+            Running::Finished(Box::new(scored(split, h, r, seed, Ok(net))))
+        }
+        Err(f) => Running::Finished(Box::new(failed(h, r, seed, f))),
+    }
+}
+
+/// A finished fit scored on the held-out part.
+fn scored(
+    split: &HeldOutSplit,
+    h: usize,
+    r: usize,
+    seed: u64,
+    fit: std::result::Result<FittedNetwork, FitFailure>,
+) -> Trial {
+    match fit {
         Ok(net) => {
             let (mean, var) = net.predict(split.x_ho.view());
             let nlpd = split.nlpd(&mean, &var);
@@ -195,6 +353,7 @@ fn try_candidate(
                         log_evidence: Some(net.log_evidence),
                         gamma: Some(net.gamma.iter().sum()),
                         failure: None,
+                        stopped: None,
                     },
                     net: Some(net),
                     heldout: Some((mean, var)),
@@ -269,6 +428,29 @@ fn failed(h: usize, r: usize, seed: u64, f: FitFailure) -> Trial {
             log_evidence: None,
             gamma: None,
             failure: Some(f),
+            stopped: None,
+        },
+        net: None,
+        heldout: None,
+    }
+}
+
+/// A candidate stopped at a rung of the search after `cycles` cycles, with
+/// its held-out NLPD there.
+fn stopped_trial(h: usize, r: usize, seed: u64, cycles: usize, nlpd: f64) -> Trial {
+    Trial {
+        record: Candidate {
+            n_hidden: h,
+            restart: r,
+            seed,
+            heldout_nlpd: None,
+            log_evidence: None,
+            gamma: None,
+            failure: None,
+            stopped: Some(StoppedEarly {
+                cycles,
+                heldout_nlpd: nlpd,
+            }),
         },
         net: None,
         heldout: None,
@@ -370,6 +552,67 @@ mod tests {
         // the score kept is the held-out NLPD of the kept predictions
         let (m, v) = ranked[0].heldout.clone().expect("trained");
         assert!((split.nlpd(&m, &v) - nlpd[0]).abs() < 1e-12);
+    }
+
+    /// With early stopping over more candidates than SEARCH_KEEP_MIN, the
+    /// worst at the first rung are recorded as stopped (no network, their
+    /// rung NLPD kept) and left out of the ranking; the ones continued are
+    /// the very networks a search without stopping trains.
+    #[test]
+    fn early_stopping_keeps_the_best_and_records_the_rest() {
+        let (x, t) = small_data(60);
+        let base = || {
+            super::super::CommitteeParams::default()
+                .hidden(1, 4)
+                .restarts(3)
+                .widen(false)
+                .seed(3)
+                .fit(crate::evidence::FitSettings {
+                    max_cycles: 5,
+                    first_iters: 60,
+                    cycle_iters: 30,
+                    ..crate::evidence::FitSettings::default()
+                })
+        };
+        let p = base().early_stop(true).check().expect("valid");
+        let full = base().early_stop(false).check().expect("valid");
+        let split = HeldOutSplit::new(&p, x.view(), t.view(), 1.0, "small").expect("split");
+        let stopped_search = CandidateSearch::run(&p, &split, "y", &Silent);
+        let full_search = CandidateSearch::run(&full, &split, "y", &Silent);
+        assert_eq!(stopped_search.trials.len(), 12);
+        let n_specs = 12.0_f64;
+        let keep = ((n_specs * SEARCH_RUNGS[0].1).ceil() as usize).max(SEARCH_KEEP_MIN);
+        let stopped: Vec<&Trial> = stopped_search
+            .trials
+            .iter()
+            .filter(|t| t.record.stopped.is_some())
+            .collect();
+        let trained = stopped_search
+            .trials
+            .iter()
+            .filter(|t| t.net.is_some())
+            .count();
+        assert!(trained <= keep, "{trained} trained, {keep} kept");
+        assert!(!stopped.is_empty());
+        for t in &stopped {
+            let s = t.record.stopped.as_ref().expect("stopped");
+            assert_eq!(s.cycles, SEARCH_RUNGS[0].0);
+            assert!(s.heldout_nlpd.is_finite());
+            assert!(t.net.is_none() && t.record.heldout_nlpd.is_none());
+        }
+        let ranked = stopped_search.ranked().expect("some trained");
+        assert!(ranked.iter().all(|t| t.record.stopped.is_none()));
+        for t in ranked {
+            let twin = full_search
+                .trials
+                .iter()
+                .find(|f| {
+                    (f.record.n_hidden, f.record.restart) == (t.record.n_hidden, t.record.restart)
+                })
+                .expect("same candidate");
+            assert_eq!(t.record, twin.record);
+            assert_eq!(t.network().weights, twin.network().weights);
+        }
     }
 
     /// No trained candidate: every distinct reason is reported once.

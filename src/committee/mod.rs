@@ -125,6 +125,22 @@ pub struct Candidate {
     pub gamma: Option<f64>,
     /// Why it was discarded, when it was.
     pub failure: Option<FitFailure>,
+    /// When the search stopped it early (successive halving,
+    /// [`crate::prec::SEARCH_RUNGS`]): after how many cycles, and its
+    /// held-out NLPD there. Absent for candidates trained to the end (and
+    /// in files written before the search stopped any).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub stopped: Option<StoppedEarly>,
+}
+
+/// A candidate the search stopped at a rung, for not being among the best
+/// there.
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+pub struct StoppedEarly {
+    /// Evidence cycles it had run.
+    pub cycles: usize,
+    /// Its held-out NLPD after those cycles (target units).
+    pub heldout_nlpd: f64,
 }
 
 /// How the committee was chosen.

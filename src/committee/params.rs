@@ -12,6 +12,7 @@
 //! | `max_members` | 16 | largest committee considered | 1 ..= 200 |
 //! | `seed` | 0 | seed of every random choice | any u64 |
 //! | `noise` | auto | constant noise, noise that varies with the inputs, or the better of the two on the held-out part | constant, varying, auto |
+//! | `early_stop` | true | stop hopeless candidates early: successive halving on the held-out NLPD at the rungs of `prec::SEARCH_RUNGS` | — |
 //! | `model_var_scale` | false | let the held-out part choose a factor on the committee's model variance (experimental; committee::gross_errors) | — |
 
 use serde::{Deserialize, Serialize};
@@ -71,6 +72,13 @@ pub struct CommitteeParams {
     /// choice existed reweighted and read as true.
     #[serde(default = "reweighted_before")]
     pub reweight_mean: bool,
+    /// Stop candidates that rank poorly on the held-out part after the
+    /// first cycles (successive halving at the rungs of
+    /// [`crate::prec::SEARCH_RUNGS`]); false: every candidate is trained
+    /// to the end. Files written before early stopping existed trained
+    /// every candidate to the end and read as false.
+    #[serde(default)]
+    pub early_stop: bool,
 }
 
 /// What model files before `reweight_mean` existed did.
@@ -126,6 +134,7 @@ impl Default for CommitteeParams {
             heavy_tails: true,
             model_var_scale: false,
             reweight_mean: false,
+            early_stop: true,
         }
     }
 }
@@ -234,6 +243,14 @@ impl CommitteeParams {
     #[must_use]
     pub fn reweight_mean(mut self, yes: bool) -> Self {
         self.reweight_mean = yes;
+        self
+    }
+
+    /// Early stopping of hopeless candidates (successive halving) on or
+    /// off.
+    #[must_use]
+    pub fn early_stop(mut self, yes: bool) -> Self {
+        self.early_stop = yes;
         self
     }
 

@@ -9,10 +9,14 @@ use rand_xoshiro::Xoshiro256PlusPlus;
 
 use super::CheckedCommitteeParams;
 use crate::error::{Error, Result};
-use crate::prec::VAR_FLOOR;
+use crate::prec::{SEARCH_MAX_ROWS, VAR_FLOOR};
 
 /// Mixed into the master seed for the shuffle that picks the held-out rows.
 const SPLIT_SEED_SALT: u64 = 0x005E_ED0F_5B11;
+
+/// Mixed into the master seed for the sample of rows the search runs on
+/// when the table has more than [`SEARCH_MAX_ROWS`].
+const SEARCH_SAMPLE_SEED_SALT: u64 = 0x005A_3B1E_0F20_0028;
 
 /// A prediction on the held-out part: mean and variance (scaled units).
 pub(super) type HeldOut = (Array1<f64>, Array1<f64>);
@@ -37,7 +41,11 @@ pub(super) struct HeldOutSplit {
 
 impl HeldOutSplit {
     /// Hold out `params.holdout_fraction` of the rows, chosen by a shuffle
-    /// seeded from the master seed.
+    /// seeded from the master seed. On a table of more than
+    /// [`SEARCH_MAX_ROWS`] rows both parts come from a seeded sample of that
+    /// many rows: the search, the choices and the residual process's
+    /// hyperparameters are made on it, and only the refit of the chosen
+    /// members sees every row (issue 28 item 2).
     ///
     /// # Errors
     /// [`Error::NotEnoughRows`] when fewer than max(2d + 10, 20) rows, or
@@ -61,7 +69,24 @@ impl HeldOutSplit {
                 needed,
             });
         }
-        let mut order: Vec<usize> = (0..n).collect();
+        // on a large table, a seeded sample of the rows (the members are
+        // refitted on every row afterwards)
+        let mut order: Vec<usize> = if n > SEARCH_MAX_ROWS {
+            let mut all: Vec<usize> = (0..n).collect();
+            all.shuffle(&mut Xoshiro256PlusPlus::seed_from_u64(
+                params.seed ^ SEARCH_SAMPLE_SEED_SALT,
+            ));
+            all.truncate(SEARCH_MAX_ROWS);
+            all.sort_unstable();
+            all
+        } else {
+            (0..n).collect()
+        };
+        let n_heldout = if n > SEARCH_MAX_ROWS {
+            ((order.len() as f64) * params.holdout_fraction).round() as usize
+        } else {
+            n_heldout
+        };
         order.shuffle(&mut Xoshiro256PlusPlus::seed_from_u64(
             params.seed ^ SPLIT_SEED_SALT,
         ));
@@ -131,6 +156,30 @@ fn nlpd_scaled(mean: &Array1<f64>, var: &Array1<f64>, t: ArrayView1<f64>) -> f64
 
 #[cfg(test)]
 mod tests {
+    /// A table larger than SEARCH_MAX_ROWS is searched on a seeded sample
+    /// of that many distinct rows, split by the holdout fraction; the same
+    /// seed gives the same sample (common practice, no source).
+    #[test]
+    fn a_large_table_is_searched_on_a_sample() {
+        use crate::committee::CommitteeParams;
+        let n = SEARCH_MAX_ROWS + 500;
+        let x = Array2::from_shape_fn((n, 2), |(i, j)| ((i * (j + 3)) % 101) as f64 / 101.0);
+        let t = Array1::from_shape_fn(n, |i| (i % 13) as f64);
+        let p = CommitteeParams::default().seed(4).check().expect("valid");
+        let a = HeldOutSplit::new(&p, x.view(), t.view(), 1.0, "big").expect("split");
+        assert_eq!(a.train.len() + a.held.len(), SEARCH_MAX_ROWS);
+        let expected_held = (SEARCH_MAX_ROWS as f64 * p.holdout_fraction).round() as usize;
+        assert_eq!(a.held.len(), expected_held);
+        let mut all: Vec<usize> = a.train.iter().chain(&a.held).copied().collect();
+        all.sort_unstable();
+        all.dedup();
+        assert_eq!(all.len(), SEARCH_MAX_ROWS);
+        assert!(all.iter().all(|&r| r < n));
+        assert_eq!(a.x_tr.nrows(), a.train.len());
+        let b = HeldOutSplit::new(&p, x.view(), t.view(), 1.0, "big").expect("split");
+        assert_eq!((a.train, a.held), (b.train, b.held));
+    }
+
     use super::super::stage_fixture::{params, small_data};
     use super::*;
 

@@ -50,7 +50,7 @@ use crate::linalg::{gram, matmul, symmetric_eigen, Cholesky};
 use crate::net::Architecture;
 use crate::prec::{
     ALPHA_MAX, ALPHA_MIN, BETA_MAX, BETA_MIN, COST_TOL, EIGEN_FLOOR_REL, GAMMA_ACTIVE, GRAD_TOL,
-    HYPER_REL_TOL, MIN_RESIDUAL_DOF_FRACTION,
+    HYPER_REL_TOL, JACOBIAN_BLOCK_ROWS, MIN_RESIDUAL_DOF_FRACTION,
 };
 
 /// Which Hessian of E_D enters A.
@@ -263,15 +263,7 @@ fn hessian_of_m(
             diag.exact_not_positive_definite += 1;
         }
     }
-    let (_, jac) = arch.jacobian(w, x);
-    let jtj = match rows {
-        None => gram(jac.view()),
-        Some(rho) => {
-            let weighted = &jac * &rho.insert_axis(ndarray::Axis(1));
-            matmul(jac.t(), weighted.view())
-        }
-    };
-    let gn = add_prior(jtj);
+    let gn = add_prior(gauss_newton(arch, w, x, rows));
     let kind = if arch.is_linear() && matches!(data, DataModel::Gaussian { .. }) {
         HessianKind::Exact
     } else {
@@ -292,6 +284,39 @@ fn hessian_of_m(
         kind,
         eigen_fallback: true,
     })
+}
+
+/// JᵀRJ, the Gauss–Newton form of ∇∇E_D (R = diag(ρ) for weighted rows,
+/// else the identity). Over more than [`JACOBIAN_BLOCK_ROWS`] rows the
+/// Jacobian is formed a block of rows at a time and the blocks' products
+/// are added in row order, so that memory stays bounded; up to that many
+/// rows one product, as before.
+fn gauss_newton(
+    arch: &Architecture,
+    w: &[f64],
+    x: ArrayView2<f64>,
+    rows: Option<ArrayView1<f64>>,
+) -> Array2<f64> {
+    let one = |x: ArrayView2<f64>, rows: Option<ArrayView1<f64>>| {
+        let (_, jac) = arch.jacobian(w, x);
+        match rows {
+            None => gram(jac.view()),
+            Some(rho) => {
+                let weighted = &jac * &rho.insert_axis(ndarray::Axis(1));
+                matmul(jac.t(), weighted.view())
+            }
+        }
+    };
+    if x.nrows() <= JACOBIAN_BLOCK_ROWS {
+        return one(x, rows);
+    }
+    let mut total = Array2::<f64>::zeros((arch.n_params(), arch.n_params()));
+    for start in (0..x.nrows()).step_by(JACOBIAN_BLOCK_ROWS) {
+        let end = (start + JACOBIAN_BLOCK_ROWS).min(x.nrows());
+        let block = x.slice(ndarray::s![start..end, ..]);
+        total += &one(block, rows.map(|r| r.slice_move(ndarray::s![start..end])));
+    }
+    total
 }
 
 fn ln_factorial(h: usize) -> f64 {
@@ -339,11 +364,7 @@ fn minimise<'a>(
         // M is quadratic: one Newton step w ← w − A⁻¹∇M is exact.
         let w = Array1::from(w0);
         let (_, grad) = obj.value_gradient(&w);
-        let (_, jac) = arch.jacobian(w.as_slice().unwrap_or(&[]), x);
-        let jtj = match row_weights {
-            None => gram(jac.view()),
-            Some(rho) => matmul(jac.t(), (&jac * &rho.insert_axis(ndarray::Axis(1))).view()),
-        };
+        let jtj = gauss_newton(arch, w.as_slice().unwrap_or(&[]), x, row_weights);
         let mut a = jtj * beta;
         for (k, al) in alpha_per_param.iter().enumerate() {
             a[[k, k]] += al;
@@ -430,16 +451,164 @@ pub fn fit_model<'a>(
     start: StartState,
     settings: &FitSettings,
 ) -> Result<FittedNetwork, FitFailure> {
+    match run_cycles(arch, ard, x, data, PausedFit::start(start), settings, None)? {
+        FitProgress::Done(net) => Ok(net),
+        FitProgress::Paused { snapshot, .. } => Ok(*snapshot),
+    }
+}
+
+/// A fit stopped between two cycles (after the re-estimation), to be
+/// continued by [`resume_fit`] exactly as if it had not stopped.
+#[derive(Clone, Debug)]
+pub struct PausedFit {
+    weights: Vec<f64>,
+    /// α of each group, before the output bias's flat prior is applied on
+    /// a fresh start (already applied when paused).
+    alpha: Vec<f64>,
+    beta: f64,
+    /// (β, γ, α) of the previous cycle, for the convergence test.
+    last: Option<(f64, f64, Vec<f64>)>,
+    /// Index of the next cycle.
+    next_cycle: usize,
+    diag: FitDiagnostics,
+}
+
+impl PausedFit {
+    fn start(start: StartState) -> Self {
+        PausedFit {
+            weights: start.weights,
+            alpha: start.alpha,
+            beta: start.beta,
+            last: None,
+            next_cycle: 0,
+            diag: FitDiagnostics::default(),
+        }
+    }
+
+    /// Cycles run so far.
+    pub fn cycles_done(&self) -> usize {
+        self.next_cycle
+    }
+}
+
+/// Where a fit that may stop early stands.
+#[derive(Debug)]
+pub enum FitProgress {
+    /// Settled or at the cycle cap: the network.
+    Done(FittedNetwork),
+    /// Stopped after the asked cycle: the network as it stood after that
+    /// cycle (weights, α, β and posterior of that cycle, its diagnostics
+    /// so far), and the state to continue from.
+    Paused {
+        /// The network after the last cycle run.
+        snapshot: Box<FittedNetwork>,
+        /// What [`resume_fit`] continues from.
+        state: PausedFit,
+    },
+}
+
+/// [`fit_network`] that stops after `pause_after` cycles (when it has not
+/// settled before), so that a search can score the network and decide
+/// whether to continue it with [`resume_fit`].
+///
+/// # Errors
+/// As [`fit_network`].
+pub fn fit_network_until<'a>(
+    arch: Architecture,
+    ard: bool,
+    x: ArrayView2<'a, f64>,
+    t: ArrayView1<'a, f64>,
+    start: StartState,
+    settings: &FitSettings,
+    pause_after: usize,
+) -> Result<FitProgress, FitFailure> {
+    let data = DataModel::Gaussian {
+        t,
+        row_weights: None,
+        responsibilities: None,
+    };
+    run_cycles(
+        arch,
+        ard,
+        x,
+        data,
+        PausedFit::start(start),
+        settings,
+        Some(pause_after),
+    )
+}
+
+/// Continue a fit of [`fit_network_until`] on the same rows with the same
+/// settings: the cycles it runs, and the network it ends with, are those
+/// of the fit had it never stopped (same arithmetic in the same order).
+///
+/// # Errors
+/// As [`fit_network`].
+pub fn resume_fit<'a>(
+    arch: Architecture,
+    ard: bool,
+    x: ArrayView2<'a, f64>,
+    t: ArrayView1<'a, f64>,
+    paused: PausedFit,
+    settings: &FitSettings,
+) -> Result<FittedNetwork, FitFailure> {
+    let data = DataModel::Gaussian {
+        t,
+        row_weights: None,
+        responsibilities: None,
+    };
+    match run_cycles(arch, ard, x, data, paused, settings, None)? {
+        FitProgress::Done(net) => Ok(net),
+        FitProgress::Paused { snapshot, .. } => Ok(*snapshot),
+    }
+}
+
+/// [`resume_fit`] that stops again after cycle `pause_after`.
+///
+/// # Errors
+/// As [`fit_network`].
+pub fn resume_until<'a>(
+    arch: Architecture,
+    ard: bool,
+    x: ArrayView2<'a, f64>,
+    t: ArrayView1<'a, f64>,
+    paused: PausedFit,
+    settings: &FitSettings,
+    pause_after: usize,
+) -> Result<FitProgress, FitFailure> {
+    let data = DataModel::Gaussian {
+        t,
+        row_weights: None,
+        responsibilities: None,
+    };
+    run_cycles(arch, ard, x, data, paused, settings, Some(pause_after))
+}
+
+/// The evidence cycles from `state` on, until settled, the cycle cap, or
+/// the end of cycle `pause_after` (counted from the fit's start).
+fn run_cycles<'a>(
+    arch: Architecture,
+    ard: bool,
+    x: ArrayView2<'a, f64>,
+    data: DataModel<'a>,
+    state: PausedFit,
+    settings: &FitSettings,
+    pause_after: Option<usize>,
+) -> Result<FitProgress, FitFailure> {
     let rows = RowCount::of(x.nrows(), &data);
     let groups = Groups::new(&arch, ard);
-    let mut diag = FitDiagnostics::default();
-    let mut w = start.weights;
-    let mut alpha = flat_output_bias(&groups, start.alpha);
-    let mut beta = start.beta;
-    let mut last: Option<(f64, f64, Vec<f64>)> = None; // (β, γ, α) of the previous cycle
+    let PausedFit {
+        weights: mut w,
+        alpha,
+        mut beta,
+        mut last,
+        next_cycle,
+        mut diag,
+    } = state;
+    let mut alpha = flat_output_bias(&groups, alpha);
     let mut snapshot: Option<FittedNetwork> = None;
 
-    for cycle in 0..settings.max_cycles {
+    for cycle in next_cycle..settings.max_cycles {
         let alpha_pp = groups.per_param(&alpha);
         let iters = if cycle == 0 {
             settings.first_iters
@@ -512,10 +681,26 @@ pub fn fit_model<'a>(
         }
         alpha = new_alpha;
         beta = new_beta;
+        if pause_after == Some(cycle + 1) {
+            let mut snap =
+                snapshot.ok_or_else(|| FitFailure::Stalled("no cycle was run".into()))?;
+            snap.diagnostics = diag.clone();
+            return Ok(FitProgress::Paused {
+                snapshot: Box::new(snap),
+                state: PausedFit {
+                    weights: w,
+                    alpha,
+                    beta,
+                    last,
+                    next_cycle: cycle + 1,
+                    diag,
+                },
+            });
+        }
     }
     let mut net = snapshot.ok_or_else(|| FitFailure::Stalled("no cycle was run".into()))?;
     net.diagnostics = diag;
-    Ok(net)
+    Ok(FitProgress::Done(net))
 }
 
 /// The rows as the evidence counts them.
@@ -712,6 +897,17 @@ pub fn predictive(
     beta: f64,
     x: ArrayView2<f64>,
 ) -> (Array1<f64>, Array1<f64>) {
+    if x.nrows() > JACOBIAN_BLOCK_ROWS {
+        // row by row the same sums: blocks bound the Jacobian's memory
+        let mut y = Vec::with_capacity(x.nrows());
+        let mut var = Vec::with_capacity(x.nrows());
+        for block in x.axis_chunks_iter(ndarray::Axis(0), JACOBIAN_BLOCK_ROWS) {
+            let (yb, vb) = predictive(arch, w, cov, beta, block);
+            y.extend(yb);
+            var.extend(vb);
+        }
+        return (Array1::from(y), Array1::from(var));
+    }
     let (y, jac) = arch.jacobian(w, x);
     let var = quadratic_forms_by_product(cov, jac.view()) + 1.0 / beta;
     (y, var)
@@ -748,6 +944,74 @@ mod tests {
                 .collect(),
             alpha: vec![0.1; g.len()],
             beta: 50.0,
+        }
+    }
+
+    /// A fit stopped after 3 cycles and resumed ends with the very network
+    /// of the fit run straight through (bit for bit: the search's
+    /// successive halving relies on it; common practice, no source).
+    #[test]
+    fn a_paused_fit_resumes_to_the_same_network() {
+        let (x, t) = synthetic(60, 0.05, 8);
+        let arch = Architecture::new(2, 3);
+        let settings = FitSettings {
+            max_cycles: 7,
+            first_iters: 80,
+            cycle_iters: 40,
+            ..FitSettings::default()
+        };
+        let straight = fit_network(
+            arch,
+            true,
+            x.view(),
+            t.view(),
+            start(&arch, true, 5),
+            &settings,
+        )
+        .expect("fit");
+        let paused = fit_network_until(
+            arch,
+            true,
+            x.view(),
+            t.view(),
+            start(&arch, true, 5),
+            &settings,
+            3,
+        )
+        .expect("fit");
+        let FitProgress::Paused { snapshot, state } = paused else {
+            panic!("expected a pause after 3 of 7 cycles");
+        };
+        assert_eq!(state.cycles_done(), 3);
+        assert_eq!(snapshot.diagnostics.cycles, 3);
+        let resumed = resume_fit(arch, true, x.view(), t.view(), state, &settings).expect("fit");
+        assert_eq!(resumed.weights, straight.weights);
+        assert_eq!(resumed.alpha, straight.alpha);
+        assert_eq!(resumed.beta.to_bits(), straight.beta.to_bits());
+        assert_eq!(resumed.posterior_cov, straight.posterior_cov);
+        assert_eq!(resumed.diagnostics, straight.diagnostics);
+    }
+
+    /// Over more than JACOBIAN_BLOCK_ROWS rows JᵀJ is summed block by block:
+    /// the same matrix up to rounding (relative 1e-12) as the single
+    /// product, plain and with row weights.
+    #[test]
+    fn blocked_gauss_newton_matches_the_single_product() {
+        let n = JACOBIAN_BLOCK_ROWS + 1000;
+        let (x, _) = synthetic(n, 0.05, 9);
+        let arch = Architecture::new(2, 2);
+        let w = start(&arch, true, 2).weights;
+        let rho = Array1::from_shape_fn(n, |i| 0.5 + (i % 7) as f64 / 7.0);
+        for rows in [None, Some(rho.view())] {
+            let blocked = gauss_newton(&arch, &w, x.view(), rows);
+            let (_, jac) = arch.jacobian(&w, x.view());
+            let single = match rows {
+                None => gram(jac.view()),
+                Some(r) => matmul(jac.t(), (&jac * &r.insert_axis(ndarray::Axis(1))).view()),
+            };
+            for (a, b) in blocked.iter().zip(&single) {
+                assert!((a - b).abs() <= 1e-12 * b.abs().max(1.0), "{a} vs {b}");
+            }
         }
     }
 
