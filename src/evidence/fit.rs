@@ -423,18 +423,7 @@ pub fn fit_network<'a>(
     start: StartState,
     settings: &FitSettings,
 ) -> Result<FittedNetwork, FitFailure> {
-    fit_model(
-        arch,
-        ard,
-        x,
-        DataModel::Gaussian {
-            t,
-            row_weights: None,
-            responsibilities: None,
-        },
-        start,
-        settings,
-    )
+    fit_model(arch, ard, x, DataModel::plain(t), start, settings)
 }
 
 /// Train one network for any [`DataModel`]: the mean under constant or
@@ -522,11 +511,7 @@ pub fn fit_network_until<'a>(
     settings: &FitSettings,
     pause_after: usize,
 ) -> Result<FitProgress, FitFailure> {
-    let data = DataModel::Gaussian {
-        t,
-        row_weights: None,
-        responsibilities: None,
-    };
+    let data = DataModel::plain(t);
     run_cycles(
         arch,
         ard,
@@ -552,11 +537,7 @@ pub fn resume_fit<'a>(
     paused: PausedFit,
     settings: &FitSettings,
 ) -> Result<FittedNetwork, FitFailure> {
-    let data = DataModel::Gaussian {
-        t,
-        row_weights: None,
-        responsibilities: None,
-    };
+    let data = DataModel::plain(t);
     match run_cycles(arch, ard, x, data, paused, settings, None)? {
         FitProgress::Done(net) => Ok(net),
         FitProgress::Paused { snapshot, .. } => Ok(*snapshot),
@@ -576,11 +557,7 @@ pub fn resume_until<'a>(
     settings: &FitSettings,
     pause_after: usize,
 ) -> Result<FitProgress, FitFailure> {
-    let data = DataModel::Gaussian {
-        t,
-        row_weights: None,
-        responsibilities: None,
-    };
+    let data = DataModel::plain(t);
     run_cycles(arch, ard, x, data, paused, settings, Some(pause_after))
 }
 

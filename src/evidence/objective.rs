@@ -61,6 +61,17 @@ pub enum DataModel<'a> {
     },
 }
 
+impl<'a> DataModel<'a> {
+    /// A Gaussian target with every row at weight 1 and full responsibility.
+    pub fn plain(t: ArrayView1<'a, f64>) -> Self {
+        DataModel::Gaussian {
+            t,
+            row_weights: None,
+            responsibilities: None,
+        }
+    }
+}
+
 impl DataModel<'_> {
     /// The data term (β·E_D, or E_L) and its gradient at `w`.
     pub fn value_gradient(
