@@ -182,9 +182,9 @@ fn noise_text(t: &TargetCard, unit: &str) -> String {
 /// The candidate search and the committee's members.
 fn committee_text(t: &TargetCard) -> String {
     let mut s = format!(
-        "  search: hidden units {}..{}, {} candidates ({} discarded), {} rows to train and {} held out\n  committee of {}:\n",
+        "  search: hidden units {}..{}, {} candidates ({} discarded, {} stopped early), {} rows to train and {} held out\n  committee of {}:\n",
         t.hidden_searched.0, t.hidden_searched.1, t.candidates.0, t.candidates.1,
-        t.search_rows.0, t.search_rows.1, t.members.len()
+        t.stopped_early, t.search_rows.0, t.search_rows.1, t.members.len()
     );
     let rows: Vec<Vec<String>> = t
         .members

@@ -158,8 +158,11 @@ pub struct TargetCard {
     pub search_rows: (usize, usize),
     /// Hidden-unit range searched.
     pub hidden_searched: (usize, usize),
-    /// Candidates trained and candidates discarded.
+    /// Candidates tried and candidates discarded (failed to train).
     pub candidates: (usize, usize),
+    /// Candidates the search stopped early at a rung (successive halving):
+    /// tried, not discarded, but not trained to the end.
+    pub stopped_early: usize,
     /// Held-out NLPD of the committee of the best n candidates, n = 1, 2, …
     pub nlpd_by_size: Vec<f64>,
     /// The residual process, when the committee kriges its residuals.
@@ -500,6 +503,7 @@ pub fn model_card(model: &Model) -> ModelCard {
                     c.candidates.len(),
                     c.candidates.iter().filter(|k| k.failure.is_some()).count(),
                 ),
+                stopped_early: c.candidates.iter().filter(|k| k.stopped.is_some()).count(),
                 nlpd_by_size: c.selection.nlpd_by_size.clone(),
             }
         })

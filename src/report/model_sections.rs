@@ -295,7 +295,8 @@ pub(super) fn search_section(model: &Model, card: &ModelCard) -> Result<String> 
                     .map(|v| (k.n_hidden as f64 + shift(k.restart), v))
             })
             .collect();
-        let failed = c.candidates.len() - ok.len();
+        let failed = c.candidates.iter().filter(|k| k.failure.is_some()).count();
+        let stopped = c.candidates.iter().filter(|k| k.stopped.is_some()).count();
         let members: Vec<(f64, f64)> = c
             .members
             .iter()
@@ -327,7 +328,7 @@ pub(super) fn search_section(model: &Model, card: &ModelCard) -> Result<String> 
             &format!("fig-candidates-{}", id_part(&t.name)),
             &xy_svg(&chart)?,
             &format!(
-                "Each mark is one candidate network trained on the search's training part ({} rows) and scored on its held-out part ({} rows); triangles are the members chosen. {failed} candidate(s) failed and are not shown.",
+                "Each mark is one candidate network trained on the search's training part ({} rows) and scored on its held-out part ({} rows); triangles are the members chosen. {failed} candidate(s) failed and {stopped} were stopped early by the search (successive halving, scored on fewer cycles); neither is shown.",
                 tc.search_rows.0, tc.search_rows.1
             ),
         ));
