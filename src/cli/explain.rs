@@ -32,7 +32,8 @@ log_evidence, heldout_nlpd, gamma, n_weights, varying_noise), relevance (an obje
 value, or null without ARD), relevance_range (an array of input, value, low, high: the smallest \
 and largest over the members; null without ARD), relevance_note, fit_notes (plain notes on \
 likely overfitting or underfitting; empty when nothing is flagged), search_rows, \
-hidden_searched, candidates, nlpd_by_size, kriging (null when the residuals are not kriged; \
+hidden_searched, candidates (tried, discarded), stopped_early (candidates the search stopped at a \
+rung, not trained to the end), nlpd_by_size, kriging (null when the residuals are not kriged; \
 else n_rows, correlated_share, length_scales as [input, share of its range] pairs, \
 heldout_nlpd_with and heldout_nlpd_without) and gross_errors (null without that part; else \
 share, n_heldout, heldout_nlpd_gaussian, heldout_nlpd, refit_gross_rows, n_rows, \
