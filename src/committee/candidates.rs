@@ -15,8 +15,7 @@ use super::split::HeldOutSplit;
 use super::{Candidate, CheckedCommitteeParams, Member, NoiseModel, StoppedEarly};
 use crate::error::{Error, Result};
 use crate::evidence::{
-    fit_network, fit_network_until, resume_fit, resume_until, FitFailure, FitProgress,
-    FittedNetwork, Groups, PausedFit, StartState,
+    fit_network_from, FitFailure, FitProgress, FittedNetwork, Groups, PausedFit, StartState,
 };
 use crate::net::Architecture;
 use crate::observer::{TrainEvent, TrainObserver};
@@ -278,15 +277,11 @@ fn start_candidate(
     let arch = Architecture::new(split.n_inputs(), h);
     let seed = candidate_seed(params.seed, h, r);
     let start = initial_state(&arch, params.ard, seed, split.t_tr.view());
-    let (x, t) = (split.x_tr.view(), split.t_tr.view());
-    let progress = match pause_after {
-        Some(c) => fit_network_until(arch, params.ard, x, t, start, &params.fit, c),
-        None => fit_network(arch, params.ard, x, t, start, &params.fit).map(FitProgress::Done),
-    };
-    running(split, h, r, seed, progress)
+    let state = PausedFit::start(start);
+    continue_candidate(params, split, h, r, seed, state, pause_after)
 }
 
-/// Continue a stopped candidate, to the next rung or to the end.
+/// Continue a candidate from `state`, to the next rung or to the end.
 fn continue_candidate(
     params: &CheckedCommitteeParams,
     split: &HeldOutSplit,
@@ -298,10 +293,7 @@ fn continue_candidate(
 ) -> Running {
     let arch = Architecture::new(split.n_inputs(), h);
     let (x, t) = (split.x_tr.view(), split.t_tr.view());
-    let progress = match pause_after {
-        Some(c) => resume_until(arch, params.ard, x, t, state, &params.fit, c),
-        None => resume_fit(arch, params.ard, x, t, state, &params.fit).map(FitProgress::Done),
-    };
+    let progress = fit_network_from(arch, params.ard, x, t, state, &params.fit, pause_after);
     running(split, h, r, seed, progress)
 }
 

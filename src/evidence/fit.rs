@@ -447,7 +447,7 @@ pub fn fit_model<'a>(
 }
 
 /// A fit stopped between two cycles (after the re-estimation), to be
-/// continued by [`resume_fit`] exactly as if it had not stopped.
+/// continued by [`fit_network_from`] exactly as if it had not stopped.
 #[derive(Clone, Debug)]
 pub struct PausedFit {
     weights: Vec<f64>,
@@ -463,7 +463,8 @@ pub struct PausedFit {
 }
 
 impl PausedFit {
-    fn start(start: StartState) -> Self {
+    /// A fit not yet begun, from its initial state.
+    pub fn start(start: StartState) -> Self {
         PausedFit {
             weights: start.weights,
             alpha: start.alpha,
@@ -491,74 +492,38 @@ pub enum FitProgress {
     Paused {
         /// The network after the last cycle run.
         snapshot: Box<FittedNetwork>,
-        /// What [`resume_fit`] continues from.
+        /// What [`fit_network_from`] continues from.
         state: PausedFit,
     },
 }
 
-/// [`fit_network`] that stops after `pause_after` cycles (when it has not
-/// settled before), so that a search can score the network and decide
-/// whether to continue it with [`resume_fit`].
+/// [`fit_network`] from `state` (a fresh start, [`PausedFit::start`], or a
+/// fit paused before), stopping after cycle `pause_after` (counted from the
+/// fit's start) when given and the fit has not settled before, so that a
+/// search can score the network and decide whether to continue it. A paused
+/// fit continued here runs the cycles, and ends with the network, of the fit
+/// had it never stopped (same arithmetic in the same order).
 ///
 /// # Errors
 /// As [`fit_network`].
-pub fn fit_network_until<'a>(
+pub fn fit_network_from<'a>(
     arch: Architecture,
     ard: bool,
     x: ArrayView2<'a, f64>,
     t: ArrayView1<'a, f64>,
-    start: StartState,
+    state: PausedFit,
     settings: &FitSettings,
-    pause_after: usize,
+    pause_after: Option<usize>,
 ) -> Result<FitProgress, FitFailure> {
-    let data = DataModel::plain(t);
     run_cycles(
         arch,
         ard,
         x,
-        data,
-        PausedFit::start(start),
+        DataModel::plain(t),
+        state,
         settings,
-        Some(pause_after),
+        pause_after,
     )
-}
-
-/// Continue a fit of [`fit_network_until`] on the same rows with the same
-/// settings: the cycles it runs, and the network it ends with, are those
-/// of the fit had it never stopped (same arithmetic in the same order).
-///
-/// # Errors
-/// As [`fit_network`].
-pub fn resume_fit<'a>(
-    arch: Architecture,
-    ard: bool,
-    x: ArrayView2<'a, f64>,
-    t: ArrayView1<'a, f64>,
-    paused: PausedFit,
-    settings: &FitSettings,
-) -> Result<FittedNetwork, FitFailure> {
-    let data = DataModel::plain(t);
-    match run_cycles(arch, ard, x, data, paused, settings, None)? {
-        FitProgress::Done(net) => Ok(net),
-        FitProgress::Paused { snapshot, .. } => Ok(*snapshot),
-    }
-}
-
-/// [`resume_fit`] that stops again after cycle `pause_after`.
-///
-/// # Errors
-/// As [`fit_network`].
-pub fn resume_until<'a>(
-    arch: Architecture,
-    ard: bool,
-    x: ArrayView2<'a, f64>,
-    t: ArrayView1<'a, f64>,
-    paused: PausedFit,
-    settings: &FitSettings,
-    pause_after: usize,
-) -> Result<FitProgress, FitFailure> {
-    let data = DataModel::plain(t);
-    run_cycles(arch, ard, x, data, paused, settings, Some(pause_after))
 }
 
 /// The evidence cycles from `state` on, until settled, the cycle cap, or
@@ -946,14 +911,14 @@ mod tests {
             &settings,
         )
         .expect("fit");
-        let paused = fit_network_until(
+        let paused = fit_network_from(
             arch,
             true,
             x.view(),
             t.view(),
-            start(&arch, true, 5),
+            PausedFit::start(start(&arch, true, 5)),
             &settings,
-            3,
+            Some(3),
         )
         .expect("fit");
         let FitProgress::Paused { snapshot, state } = paused else {
@@ -961,7 +926,10 @@ mod tests {
         };
         assert_eq!(state.cycles_done(), 3);
         assert_eq!(snapshot.diagnostics.cycles, 3);
-        let resumed = resume_fit(arch, true, x.view(), t.view(), state, &settings).expect("fit");
+        let resumed = fit_network_from(arch, true, x.view(), t.view(), state, &settings, None);
+        let Ok(FitProgress::Done(resumed)) = resumed else {
+            panic!("expected the resumed fit to finish");
+        };
         assert_eq!(resumed.weights, straight.weights);
         assert_eq!(resumed.alpha, straight.alpha);
         assert_eq!(resumed.beta.to_bits(), straight.beta.to_bits());

@@ -7,9 +7,9 @@ mod laplace;
 mod objective;
 
 pub use fit::{
-    fit_model, fit_network, fit_network_until, predictive, predictive_factored, resume_fit,
-    resume_until, FitDiagnostics, FitFailure, FitProgress, FitSettings, FittedNetwork,
-    HessianChoice, HessianKind, PausedFit, StartState,
+    fit_model, fit_network, fit_network_from, predictive, predictive_factored, FitDiagnostics,
+    FitFailure, FitProgress, FitSettings, FittedNetwork, HessianChoice, HessianKind, PausedFit,
+    StartState,
 };
 pub use groups::{GroupKind, Groups};
 pub use laplace::PosteriorFactor;
