@@ -38,20 +38,7 @@ struct Case {
 
 /// A workbook holding `csv` (numbers as numbers) in a sheet `sheet`.
 fn workbook_bytes(sheet: &str, csv: &str) -> Vec<u8> {
-    let mut book = rust_xlsxwriter::Workbook::new();
-    let ws = book.add_worksheet();
-    ws.set_name(sheet).expect("sheet name");
-    for (i, line) in csv.lines().enumerate() {
-        for (j, cell) in line.split(',').enumerate() {
-            let (r, c) = (i as u32, j as u16);
-            match cell.parse::<f64>() {
-                Ok(v) if i > 0 => ws.write_number(r, c, v).map(|_| ()),
-                _ => ws.write_string(r, c, cell).map(|_| ()),
-            }
-            .expect("cell");
-        }
-    }
-    book.save_to_buffer().expect("workbook bytes")
+    common::workbook_bytes(sheet, csv, None)
 }
 
 fn case(

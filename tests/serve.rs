@@ -733,7 +733,11 @@ const XLSX: &str = "application/vnd.openxmlformats-officedocument.spreadsheetml.
 
 /// The test's workbook: sheet `name` holding `csv`, after a cover sheet.
 fn workbook(name: &str, csv: &str) -> Vec<u8> {
-    common::workbook_bytes(name, csv, "INVENTED Fellhaven heats, not test results")
+    common::workbook_bytes(
+        name,
+        csv,
+        Some("INVENTED Fellhaven heats, not test results"),
+    )
 }
 
 /// Status and bytes of a POST.

@@ -18,7 +18,7 @@ use serde_json::Value;
 /// Write `csv` (header + rows, numbers stored as numbers) as sheet `name`
 /// of a workbook whose first sheet is a cover note.
 fn workbook(path: &std::path::Path, name: &str, csv: &str) {
-    let bytes = common::workbook_bytes(name, csv, "invented test records");
+    let bytes = common::workbook_bytes(name, csv, Some("invented test records"));
     std::fs::write(path, bytes).expect("save workbook");
 }
 

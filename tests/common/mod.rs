@@ -559,14 +559,16 @@ pub fn predict_rows(stdout: &[u8]) -> Vec<serde_json::Value> {
 }
 
 /// An invented workbook's bytes, written with rust_xlsxwriter (the writer
-/// mettle itself uses; the reader under test is calamine): a first sheet
-/// `cover` holding `cover_note`, then sheet `name` holding `csv` (header +
-/// rows), numbers stored as numbers.
-pub fn workbook_bytes(name: &str, csv: &str, cover_note: &str) -> Vec<u8> {
+/// mettle itself uses; the reader under test is calamine): with a
+/// `cover_note`, a first sheet `cover` holding it; then sheet `name` holding
+/// `csv` (header + rows), numbers stored as numbers.
+pub fn workbook_bytes(name: &str, csv: &str, cover_note: Option<&str>) -> Vec<u8> {
     let mut book = rust_xlsxwriter::Workbook::new();
-    let cover = book.add_worksheet();
-    cover.set_name("cover").expect("name");
-    cover.write_string(0, 0, cover_note).expect("cell");
+    if let Some(note) = cover_note {
+        let cover = book.add_worksheet();
+        cover.set_name("cover").expect("name");
+        cover.write_string(0, 0, note).expect("cell");
+    }
     let ws = book.add_worksheet();
     ws.set_name(name).expect("name");
     for (i, line) in csv.lines().enumerate() {
