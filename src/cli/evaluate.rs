@@ -7,6 +7,7 @@ use mettle::data::{RowLabels, Table};
 use mettle::explain::{estimate_rows, OutOfLine};
 use mettle::metrics::Evaluation;
 use mettle::prec::OUT_OF_LINE_Z;
+use mettle::report::validation::FIGURE_HEADER;
 use serde_json::json;
 
 use super::output::{aligned, emit, num, wrap};
@@ -154,19 +155,8 @@ fn json_text(
 /// The evaluation table, then each target's rows out of line.
 fn table_text(results: &Results, out_of_line: &OutOfLines, labels: Option<&RowLabels>) -> String {
     let label = |row: usize| labels.map(|l| l.get(row - 1).to_string());
-    let h: Vec<String> = [
-        "target",
-        "n",
-        "rmse",
-        "mae",
-        "r2",
-        "nlpd",
-        "coverage_68",
-        "coverage_95",
-    ]
-    .iter()
-    .map(|s| s.to_string())
-    .collect();
+    // the same columns as validate's table of cross-validated figures
+    let h: Vec<String> = FIGURE_HEADER.iter().map(|s| s.to_string()).collect();
     let body: Vec<Vec<String>> = results
         .iter()
         .map(|(name, e)| {
