@@ -445,3 +445,11 @@ pub const SEARCH_MAX_ROWS: usize = 4_000;
 /// Up to this many rows the single product of earlier versions is kept, and
 /// with it every model trained on them bit for bit.
 pub const JACOBIAN_BLOCK_ROWS: usize = 8_192;
+
+/// The varying-noise combination is chosen over the best constant-noise one
+/// only when its held-out score is lower by more than this many standard
+/// errors of the paired per-row difference: the one-standard-error rule
+/// (Breiman, Friedman, Olshen & Stone 1984, *Classification and Regression
+/// Trees*, §3.4.3; Hastie, Tibshirani & Friedman 2009, *The Elements of
+/// Statistical Learning*, §7.10), the simpler noise model kept on a tie.
+pub const NOISE_PARSIMONY_SE: f64 = 1.0;
