@@ -145,7 +145,10 @@ fn parsimonious<'c>(
     let (Some(a), Some(b)) = (heldout(best), heldout(constant)) else {
         return Some(best);
     };
-    let se = paired_se(&row_nlpd(a, split.t_ho.view()), &row_nlpd(b, split.t_ho.view()));
+    let se = paired_se(
+        &row_nlpd(a, split.t_ho.view()),
+        &row_nlpd(b, split.t_ho.view()),
+    );
     Some(if constant.0 - best.0 <= NOISE_PARSIMONY_SE * se {
         constant
     } else {
