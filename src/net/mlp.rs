@@ -132,7 +132,10 @@ impl Architecture {
         }
         let mut act = crate::linalg::matmul(x, p.input_w.t());
         act += &p.hidden_b;
-        act.mapv_inplace(tanh);
+        tanh_in_place(
+            act.as_slice_mut()
+                .expect("a fresh product is in standard layout"),
+        );
         let y = act.dot(&p.output_w) + p.output_b;
         (y, act)
     }
@@ -292,21 +295,110 @@ impl Architecture {
     }
 }
 
-/// tanh(x) from one call of `exp`: `sign(x)·(1 − 2/(e^{2|x|} + 1))`, with
+/// tanh(x) from one exponential: `sign(x)·(1 − 2/(e^{2|x|} + 1))`, with
 /// its Taylor series `x − x³/3 + 2x⁵/15 − 17x⁷/315` below |x| = 0.02 where
 /// that form loses relative precision. Absolute error ≤ 3·10⁻¹⁶ against
 /// the C library's `tanh`, which is 2–3 times slower and was most of the
 /// training time (it goes through `expm1`). The identity and the series are
-/// standard (Abramowitz & Stegun 1964, 4.5.17 and 4.5.64).
-#[inline]
+/// standard (Abramowitz & Stegun 1964, 4.5.17 and 4.5.64). The exponential
+/// is [`exp_mid`], the same bits as `libm::exp` on the arguments it gets.
+#[inline(always)]
 pub fn tanh(x: f64) -> f64 {
     let ax = x.abs();
+    let x2 = x * x;
+    let series = x * (1.0 + x2 * (-1.0 / 3.0 + x2 * (2.0 / 15.0 - x2 * (17.0 / 315.0))));
+    // above |x| = 20, e^{2|x|} > 2⁵⁷ and 1 − 2/(e + 1) rounds to 1 exactly
+    let z = if ax > TANH_SATURATES {
+        2.0 * TANH_SATURATES
+    } else {
+        2.0 * ax
+    };
+    let e = exp_mid(z);
+    let long = (1.0 - 2.0 / (e + 1.0)).copysign(x);
     if ax < 0.02 {
-        let x2 = x * x;
-        return x * (1.0 + x2 * (-1.0 / 3.0 + x2 * (2.0 / 15.0 - x2 * (17.0 / 315.0))));
+        series
+    } else {
+        long
     }
-    let e = (2.0 * ax).exp_fixed();
-    (1.0 - 2.0 / (e + 1.0)).copysign(x)
+}
+
+/// |x| above which tanh(x) = ±1 in f64 by the formula of [`tanh`]:
+/// e^{2·20} ≈ 2.4·10¹⁷, 2/(e + 1) < 2⁻⁵⁴ (half an ulp below 1).
+const TANH_SATURATES: f64 = 20.0;
+
+/// tanh of every element in place, each as [`tanh`] gives it (the same
+/// bits): a loop without calls or data-dependent jumps, which the compiler
+/// turns into vector instructions, compiled twice like
+/// [`crate::linalg`]'s product (baseline SSE2, and AVX where the CPU has
+/// it); both perform the same IEEE operations on each element, so the same
+/// bits (unit test).
+pub fn tanh_in_place(v: &mut [f64]) {
+    #[cfg(target_arch = "x86_64")]
+    {
+        if std::arch::is_x86_feature_detected!("avx") {
+            // SAFETY: the CPU has AVX, the only feature the function enables.
+            #[allow(unsafe_code)]
+            return unsafe { tanh_in_place_avx(v) };
+        }
+    }
+    tanh_in_place_portable(v);
+}
+
+fn tanh_in_place_portable(v: &mut [f64]) {
+    for x in v.iter_mut() {
+        *x = tanh(*x);
+    }
+}
+
+#[cfg(target_arch = "x86_64")]
+#[target_feature(enable = "avx")]
+fn tanh_in_place_avx(v: &mut [f64]) {
+    for x in v.iter_mut() {
+        *x = tanh(*x);
+    }
+}
+
+/// eˣ for 0 ≤ x ≤ 40 (and NaN), the algorithm of FreeBSD's `e_exp.c` as
+/// the `libm` crate ports it, step for step, without its branches for
+/// overflow, underflow and tiny arguments (none arises on this range) and
+/// with the final scaling by 2ᵏ as one exact product (y·2ᵏ stays normal
+/// for k ≤ 58): the same IEEE operations in the same order, so the same
+/// bits as `libm::exp` (unit test over the range and at its branch
+/// points). Reduction x = k·ln 2 + r with k = ⌊x/ln 2 + ½⌋ above 1.5 ln 2,
+/// k = 1 above ½ ln 2, else 0; then eʳ = 1 + r + r·c/(2 − c) with c from
+/// a degree-5 Remez polynomial (error < 2⁻⁵⁹; the source's comment).
+#[inline(always)]
+fn exp_mid(x: f64) -> f64 {
+    const LN2HI: f64 = 6.931_471_803_691_238_164_90e-1;
+    const LN2LO: f64 = 1.908_214_929_270_587_700_02e-10;
+    const INVLN2: f64 = 1.442_695_040_888_963_387_00;
+    const P1: f64 = 1.666_666_666_666_660_190_37e-1;
+    const P2: f64 = -2.777_777_777_701_559_338_42e-3;
+    const P3: f64 = 6.613_756_321_437_934_361_17e-5;
+    const P4: f64 = -1.653_390_220_546_525_153_90e-6;
+    const P5: f64 = 4.138_136_797_057_238_460_39e-8;
+    // the source compares the high word of |x|: above 0x3fd62e42 (½ ln 2)
+    // and from 0x3ff0a2b2 (1.5 ln 2); for x ≥ 0 the same as these compares
+    const HALF_LN2_WORD_END: f64 = f64::from_bits(0x3fd6_2e42_ffff_ffff);
+    const THREE_HALF_LN2_WORD: f64 = f64::from_bits(0x3ff0_a2b2_0000_0000);
+    let k_round = ((INVLN2 * x + 0.5) as i32) as f64;
+    let k = if x >= THREE_HALF_LN2_WORD {
+        k_round
+    } else if x > HALF_LN2_WORD_END {
+        1.0
+    } else {
+        0.0
+    };
+    // k = 0: hi = x − 0 = x, lo = 0, r = x, as the source's own branch
+    let hi = x - k * LN2HI;
+    let lo = k * LN2LO;
+    let r = hi - lo;
+    let rr = r * r;
+    let c = r - rr * (P1 + rr * (P2 + rr * (P3 + rr * (P4 + rr * P5))));
+    let y = 1.0 + (r * c / (2.0 - c) - lo + hi);
+    // 2ᵏ from its bits (k is a small whole number, 0 for NaN)
+    let two_k = f64::from_bits(((k as i64 + 1023) as u64) << 52);
+    y * two_k
 }
 
 struct Parts<'a> {
@@ -357,6 +449,92 @@ mod tests {
         assert!((tanh(800.0) - 1.0).abs() < f64::EPSILON);
         assert!((tanh(-800.0) + 1.0).abs() < f64::EPSILON);
         assert!(tanh(f64::NAN).is_nan());
+    }
+
+    /// The formula of [`tanh`] with the `libm` crate's own `exp` (what it
+    /// called before [`exp_mid`]).
+    fn tanh_by_libm(x: f64) -> f64 {
+        let ax = x.abs();
+        if ax < 0.02 {
+            let x2 = x * x;
+            return x * (1.0 + x2 * (-1.0 / 3.0 + x2 * (2.0 / 15.0 - x2 * (17.0 / 315.0))));
+        }
+        let e = (2.0 * ax).exp_fixed();
+        (1.0 - 2.0 / (e + 1.0)).copysign(x)
+    }
+
+    /// Arguments for the bit-for-bit checks: a dense grid, every branch
+    /// point of the exponential and its neighbours, random bit patterns.
+    fn awkward_arguments() -> Vec<f64> {
+        let mut xs: Vec<f64> = (-2_000_000..=2_000_000)
+            .map(|i| f64::from(i) * 1.3e-5)
+            .collect();
+        for b in [
+            0x3fd6_2e42_ffff_ffff_u64,
+            0x3fd6_2e43_0000_0000,
+            0x3ff0_a2b2_0000_0000,
+            0x3ff0_a2b1_ffff_ffff,
+            0.02_f64.to_bits(),
+            20.0_f64.to_bits(),
+            40.0_f64.to_bits(),
+        ] {
+            for d in 0..5_u64 {
+                for v in [f64::from_bits(b + d), f64::from_bits(b - d)] {
+                    xs.extend([v, -v, 0.5 * v, -0.5 * v]);
+                }
+            }
+        }
+        let mut rng = Xoshiro256PlusPlus::seed_from_u64(99);
+        for _ in 0..200_000 {
+            xs.push(f64::from_bits(rng.random::<u64>()));
+            xs.push(rng.random_range(-30.0..30.0));
+        }
+        xs.extend([
+            0.0,
+            -0.0,
+            1e-300,
+            -5e-324,
+            1e300,
+            f64::INFINITY,
+            f64::NEG_INFINITY,
+        ]);
+        xs
+    }
+
+    #[test]
+    fn exp_mid_is_libm_exp_bit_for_bit() {
+        let mut rng = Xoshiro256PlusPlus::seed_from_u64(98);
+        let mut xs: Vec<f64> = (0..=4_000_000).map(|i| f64::from(i) * 1e-5).collect();
+        xs.extend((0..200_000).map(|_| rng.random_range(0.0..40.0)));
+        xs.extend([
+            f64::from_bits(0x3fd6_2e42_ffff_ffff),
+            f64::from_bits(0x3fd6_2e43_0000_0000),
+            f64::from_bits(0x3ff0_a2b1_ffff_ffff),
+            f64::from_bits(0x3ff0_a2b2_0000_0000),
+        ]);
+        for x in xs {
+            assert_eq!(exp_mid(x).to_bits(), libm::exp(x).to_bits(), "exp({x:e})");
+        }
+        assert!(exp_mid(f64::NAN).is_nan());
+    }
+
+    #[test]
+    fn tanh_is_the_libm_formula_bit_for_bit_in_both_builds() {
+        let xs = awkward_arguments();
+        let mut portable = xs.clone();
+        tanh_in_place_portable(&mut portable);
+        let mut dispatched = xs.clone();
+        tanh_in_place(&mut dispatched);
+        for ((x, p), d) in xs.iter().zip(&portable).zip(&dispatched) {
+            let want = tanh_by_libm(*x);
+            if want.is_nan() {
+                assert!(tanh(*x).is_nan() && p.is_nan() && d.is_nan(), "tanh({x:e})");
+                continue;
+            }
+            assert_eq!(tanh(*x).to_bits(), want.to_bits(), "tanh({x:e})");
+            assert_eq!(p.to_bits(), want.to_bits(), "portable tanh({x:e})");
+            assert_eq!(d.to_bits(), want.to_bits(), "dispatched tanh({x:e})");
+        }
     }
 
     #[test]
