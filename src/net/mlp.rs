@@ -22,7 +22,6 @@
 //! i: index `j·d + i`), hidden biases `b` (H), output weights `v` (H),
 //! output bias `c`. In linear mode: `a` (d), then `c`.
 
-use crate::fixedmath::FixedMath;
 use ndarray::{s, Array1, Array2, ArrayView1, ArrayView2, Axis};
 use serde::{Deserialize, Serialize};
 
@@ -131,12 +130,32 @@ impl Architecture {
             return (y, Array2::zeros((0, 0)));
         }
         let mut act = crate::linalg::matmul(x, p.input_w.t());
-        act += &p.hidden_b;
-        tanh_in_place(
-            act.as_slice_mut()
-                .expect("a fresh product is in standard layout"),
+        let h = self.n_hidden;
+        let b = p
+            .hidden_b
+            .as_slice()
+            .expect("a slice of the parameter vector");
+        let v = p
+            .output_w
+            .as_slice()
+            .expect("a slice of the parameter vector");
+        let flat = act
+            .as_slice_mut()
+            .expect("a fresh product is in standard layout");
+        // plain loops, the same operations as `act += &b`, tanh of each
+        // element, then `act.dot(&v) + c` (ndarray's product of a matrix and
+        // a vector: each row's [`unrolled_dot`], times 1) without their
+        // iterator and allocation overhead: the same bits (unit test)
+        for row in flat.chunks_exact_mut(h) {
+            for (a, bj) in row.iter_mut().zip(b) {
+                *a += bj;
+            }
+        }
+        tanh_in_place(flat);
+        let y = Array1::from_iter(
+            flat.chunks_exact(h)
+                .map(|row| unrolled_dot(row, v) * 1.0 + p.output_b),
         );
-        let y = act.dot(&p.output_w) + p.output_b;
         (y, act)
     }
 
@@ -191,18 +210,49 @@ impl Architecture {
             return g;
         }
         let p = self.split(w);
-        let h = self.n_hidden;
-        // δ_nj = r_n v_j (1 − a_nj²)
-        let mut delta = act.mapv(|a| 1.0 - a * a);
-        delta *= &p.output_w;
-        delta *= &r.view().insert_axis(Axis(1));
-        let g_w = crate::linalg::matmul(delta.t(), x);
-        g.slice_mut(s![..lay.hidden_bias])
-            .assign(&Array1::from_iter(g_w.iter().copied()));
+        let (n, h) = (x.nrows(), self.n_hidden);
+        let v = p
+            .output_w
+            .as_slice()
+            .expect("a slice of the parameter vector");
+        let a_flat = act
+            .as_slice()
+            .expect("activations of the forward pass are in standard layout");
+        // δ_nj = ((1 − a_nj²)·v_j)·r_n, kept transposed (H × N) for the
+        // product δᵀX; ∂/∂b_j = Σ_n δ_nj and ∂/∂v_j = Σ_n a_nj r_n summed
+        // from 0 in increasing n — the operations and order of the former
+        // `act.mapv(…) *= v *= r`, `delta.sum_axis(Axis(0))` and
+        // `act.t().dot(r)` (ndarray sums a strided row in order, a
+        // contiguous one, H = 1, by [`unrolled_dot`]): the same bits, one
+        // pass, no temporaries (unit test)
+        let r_s = r.as_slice().expect("a fresh vector is contiguous");
+        let mut delta_t = Array2::<f64>::zeros((h, n));
+        let dt = delta_t
+            .as_slice_mut()
+            .expect("a fresh array is in standard layout");
+        let mut g_b = vec![0.0; h];
+        let mut g_v = vec![0.0; h];
+        for (row, (a_n, &r_n)) in a_flat.chunks_exact(h).zip(r_s).enumerate() {
+            for j in 0..h {
+                let a = a_n[j];
+                let d = ((1.0 - a * a) * v[j]) * r_n;
+                dt[j * n + row] = d;
+                g_b[j] += d;
+                g_v[j] += a * r_n;
+            }
+        }
+        if h == 1 {
+            g_v[0] = unrolled_dot(a_flat, r_s);
+        }
+        let g_w = crate::linalg::matmul(delta_t.view(), x);
+        g.slice_mut(s![..lay.hidden_bias]).assign(&ArrayView1::from(
+            g_w.as_slice()
+                .expect("a fresh product is in standard layout"),
+        ));
         g.slice_mut(s![lay.hidden_bias..lay.output_weights])
-            .assign(&delta.sum_axis(Axis(0)));
+            .assign(&ArrayView1::from(&g_b));
         g.slice_mut(s![lay.output_weights..lay.output_weights + h])
-            .assign(&act.t().dot(r));
+            .assign(&ArrayView1::from(&g_v));
         g[lay.output_bias] = r.sum();
         g
     }
@@ -322,6 +372,35 @@ pub fn tanh(x: f64) -> f64 {
     }
 }
 
+/// Σ xᵢyᵢ in ndarray's order for contiguous vectors (its
+/// `numeric_util::unrolled_dot`, which `ArrayView1::dot` and the product
+/// of a matrix and a vector call): eight partial sums over the full blocks
+/// of eight, combined as ((0 + (p₀ + p₄)) + (p₁ + p₅)) + …, then the
+/// remaining terms one by one. Copied so that fused loops give the bits
+/// ndarray's products gave (unit test against `dot`).
+#[inline(always)]
+fn unrolled_dot(xs: &[f64], ys: &[f64]) -> f64 {
+    let len = xs.len().min(ys.len());
+    let (mut xs, mut ys) = (&xs[..len], &ys[..len]);
+    let mut sum = 0.0;
+    let mut p = [0.0; 8];
+    while xs.len() >= 8 {
+        for l in 0..8 {
+            p[l] += xs[l] * ys[l];
+        }
+        xs = &xs[8..];
+        ys = &ys[8..];
+    }
+    sum += p[0] + p[4];
+    sum += p[1] + p[5];
+    sum += p[2] + p[6];
+    sum += p[3] + p[7];
+    for (x, y) in xs.iter().zip(ys) {
+        sum += x * y;
+    }
+    sum
+}
+
 /// |x| above which tanh(x) = ±1 in f64 by the formula of [`tanh`]:
 /// e^{2·20} ≈ 2.4·10¹⁷, 2/(e + 1) < 2⁻⁵⁴ (half an ulp below 1).
 const TANH_SATURATES: f64 = 20.0;
@@ -381,7 +460,13 @@ fn exp_mid(x: f64) -> f64 {
     // and from 0x3ff0a2b2 (1.5 ln 2); for x ≥ 0 the same as these compares
     const HALF_LN2_WORD_END: f64 = f64::from_bits(0x3fd6_2e42_ffff_ffff);
     const THREE_HALF_LN2_WORD: f64 = f64::from_bits(0x3ff0_a2b2_0000_0000);
-    let k_round = ((INVLN2 * x + 0.5) as i32) as f64;
+    // the source's `(INVLN2·x + ½) as i32`, by floating-point steps that
+    // vectorise: for 0 ≤ v < 2⁵¹, (v + 2⁵²) − 2⁵² is v rounded to the
+    // nearest whole number (exact), one less where that rounded up
+    const TWO_52: f64 = 4_503_599_627_370_496.0;
+    let v = INVLN2 * x + 0.5;
+    let nearest = (v + TWO_52) - TWO_52;
+    let k_round = if nearest > v { nearest - 1.0 } else { nearest };
     let k = if x >= THREE_HALF_LN2_WORD {
         k_round
     } else if x > HALF_LN2_WORD_END {
@@ -396,8 +481,10 @@ fn exp_mid(x: f64) -> f64 {
     let rr = r * r;
     let c = r - rr * (P1 + rr * (P2 + rr * (P3 + rr * (P4 + rr * P5))));
     let y = 1.0 + (r * c / (2.0 - c) - lo + hi);
-    // 2ᵏ from its bits (k is a small whole number, 0 for NaN)
-    let two_k = f64::from_bits(((k as i64 + 1023) as u64) << 52);
+    // 2ᵏ from its bits: k + 2⁵² holds k in its low bits (k is a whole
+    // number, 0 ≤ k ≤ 58; 0 for NaN)
+    let k_bits = (k + TWO_52).to_bits() - TWO_52.to_bits();
+    let two_k = f64::from_bits((k_bits + 1023) << 52);
     y * two_k
 }
 
@@ -411,6 +498,7 @@ struct Parts<'a> {
 #[cfg(test)]
 mod tests {
     use super::*;
+    use crate::fixedmath::FixedMath;
     use crate::prec::FD_STEP;
     use approx::assert_abs_diff_eq;
     use rand::{Rng, SeedableRng};
@@ -534,6 +622,69 @@ mod tests {
             assert_eq!(tanh(*x).to_bits(), want.to_bits(), "tanh({x:e})");
             assert_eq!(p.to_bits(), want.to_bits(), "portable tanh({x:e})");
             assert_eq!(d.to_bits(), want.to_bits(), "dispatched tanh({x:e})");
+        }
+    }
+
+    /// The forward pass and back-propagation as ndarray's operations did
+    /// them before the fused loops (the reference for bit-for-bit checks).
+    fn ndarray_forward_backprop(
+        arch: &Architecture,
+        w: &[f64],
+        x: ArrayView2<f64>,
+        t: ArrayView1<f64>,
+    ) -> (Array1<f64>, f64, Array1<f64>) {
+        let p = arch.split(w);
+        let lay = arch.layout();
+        let mut act = crate::linalg::matmul(x, p.input_w.t());
+        act += &p.hidden_b;
+        act.mapv_inplace(tanh_by_libm);
+        let y = act.dot(&p.output_w) + p.output_b;
+        let r = &y - &t;
+        let e_d = 0.5 * r.dot(&r);
+        let mut g = Array1::zeros(arch.n_params());
+        let mut delta = act.mapv(|a| 1.0 - a * a);
+        delta *= &p.output_w;
+        delta *= &r.view().insert_axis(Axis(1));
+        let g_w = crate::linalg::matmul(delta.t(), x);
+        g.slice_mut(s![..lay.hidden_bias])
+            .assign(&Array1::from_iter(g_w.iter().copied()));
+        g.slice_mut(s![lay.hidden_bias..lay.output_weights])
+            .assign(&delta.sum_axis(Axis(0)));
+        g.slice_mut(s![lay.output_weights..lay.output_bias])
+            .assign(&act.t().dot(&r));
+        g[lay.output_bias] = r.sum();
+        (y, e_d, g)
+    }
+
+    #[test]
+    fn fused_passes_give_ndarrays_bits() {
+        for (d, h, n, seed) in [
+            (8, 1, 37, 21),
+            (8, 10, 741, 22),
+            (3, 7, 9, 23),
+            (30, 20, 200, 24),
+            (2, 16, 1, 25),
+        ] {
+            let (arch, w, x, t) = random_problem(d, h, n, seed);
+            let (y0, e0, g0) = ndarray_forward_backprop(&arch, &w, x.view(), t.view());
+            let (e1, g1) = arch.data_error_gradient(&w, x.view(), t.view());
+            let y1 = arch.predict(&w, x.view());
+            assert_eq!(e1.to_bits(), e0.to_bits(), "E_D, d {d} h {h}");
+            for (a, b) in y1.iter().zip(&y0) {
+                assert_eq!(a.to_bits(), b.to_bits(), "y, d {d} h {h}");
+            }
+            for (k, (a, b)) in g1.iter().zip(&g0).enumerate() {
+                assert_eq!(a.to_bits(), b.to_bits(), "gradient {k}, d {d} h {h}");
+            }
+        }
+        let xs: Vec<f64> = (0..29).map(|i| f64::from(i).sin_fixed() * 1e3).collect();
+        let ys: Vec<f64> = (0..29).map(|i| f64::from(i).cos_fixed()).collect();
+        for len in 0..29 {
+            let want = ArrayView1::from(&xs[..len]).dot(&ArrayView1::from(&ys[..len]));
+            assert_eq!(
+                unrolled_dot(&xs[..len], &ys[..len]).to_bits(),
+                want.to_bits()
+            );
         }
     }
 
