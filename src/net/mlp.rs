@@ -129,7 +129,6 @@ impl Architecture {
             let y = x.dot(&p.input_w.row(0)) + p.output_b;
             return (y, Array2::zeros((0, 0)));
         }
-        let mut act = crate::linalg::matmul(x, p.input_w.t());
         let h = self.n_hidden;
         let b = p
             .hidden_b
@@ -139,18 +138,14 @@ impl Architecture {
             .output_w
             .as_slice()
             .expect("a slice of the parameter vector");
+        let mut act = hidden_sums(x, p.input_w, b);
         let flat = act
             .as_slice_mut()
-            .expect("a fresh product is in standard layout");
-        // plain loops, the same operations as `act += &b`, tanh of each
-        // element, then `act.dot(&v) + c` (ndarray's product of a matrix and
-        // a vector: each row's [`unrolled_dot`], times 1) without their
-        // iterator and allocation overhead: the same bits (unit test)
-        for row in flat.chunks_exact_mut(h) {
-            for (a, bj) in row.iter_mut().zip(b) {
-                *a += bj;
-            }
-        }
+            .expect("a fresh array is in standard layout");
+        // tanh of each element, then `act.dot(&v) + c` (ndarray's product
+        // of a matrix and a vector: each row's [`unrolled_dot`], times 1)
+        // without its iterator and allocation overhead: the same bits
+        // (unit test)
         tanh_in_place(flat);
         let y = Array1::from_iter(
             flat.chunks_exact(h)
@@ -369,6 +364,63 @@ pub fn tanh(x: f64) -> f64 {
         series
     } else {
         long
+    }
+}
+
+/// The hidden units' inputs `X·Wᵀ + b` (N × H): element (n, j) is
+/// `(0 + Σ_i x_ni W_ji) + b_j`, the sum from 0 in increasing i — the bits
+/// of the former `linalg::matmul(x, Wᵀ)` (whose register block sums from 0
+/// in increasing i and then adds the sum to C's 0) followed by `+= b` —
+/// one row at a time with the sums of all H units side by side (the
+/// compiler vectorises over j), without packing either operand. Compiled
+/// for the baseline and with AVX like [`tanh_in_place`]; the same bits
+/// either way (unit test).
+fn hidden_sums(x: ArrayView2<f64>, w: ArrayView2<f64>, b: &[f64]) -> Array2<f64> {
+    let (n, h) = (x.nrows(), w.nrows());
+    let d = x.ncols();
+    // Wᵀ row-major: wt[i·H + j] = W_ji
+    let wt: Vec<f64> = (0..d).flat_map(|i| w.column(i).to_vec()).collect();
+    let mut out = Array2::<f64>::zeros((n, h));
+    let flat = out
+        .as_slice_mut()
+        .expect("a fresh array is in standard layout");
+    #[cfg(target_arch = "x86_64")]
+    {
+        if std::arch::is_x86_feature_detected!("avx") {
+            // SAFETY: the CPU has AVX, the only feature the function enables.
+            #[allow(unsafe_code)]
+            unsafe {
+                hidden_sums_avx(x, &wt, b, flat)
+            };
+            return out;
+        }
+    }
+    hidden_sums_body(x, &wt, b, flat);
+    out
+}
+
+#[cfg(target_arch = "x86_64")]
+#[target_feature(enable = "avx")]
+fn hidden_sums_avx(x: ArrayView2<f64>, wt: &[f64], b: &[f64], out: &mut [f64]) {
+    hidden_sums_body(x, wt, b, out);
+}
+
+#[inline(always)]
+fn hidden_sums_body(x: ArrayView2<f64>, wt: &[f64], b: &[f64], out: &mut [f64]) {
+    let h = b.len();
+    if h == 0 {
+        return;
+    }
+    for (row, x_n) in out.chunks_exact_mut(h).zip(x.rows()) {
+        // `row` holds 0 (a fresh array): each += is the block's acc += a·b
+        for (xi, wt_i) in x_n.iter().zip(wt.chunks_exact(h)) {
+            for (acc, wji) in row.iter_mut().zip(wt_i) {
+                *acc += xi * wji;
+            }
+        }
+        for (acc, bj) in row.iter_mut().zip(b) {
+            *acc = (0.0 + *acc) + bj;
+        }
     }
 }
 
@@ -676,6 +728,20 @@ mod tests {
             for (k, (a, b)) in g1.iter().zip(&g0).enumerate() {
                 assert_eq!(a.to_bits(), b.to_bits(), "gradient {k}, d {d} h {h}");
             }
+        }
+        // both builds of the hidden sums against matmul + b
+        let (arch, w, x, _) = random_problem(9, 13, 53, 26);
+        let p = arch.split(&w);
+        let b = p.hidden_b.to_vec();
+        let mut want = crate::linalg::matmul(x.view(), p.input_w.t());
+        want += &p.hidden_b;
+        let got = hidden_sums(x.view(), p.input_w, &b);
+        let wt: Vec<f64> = (0..9).flat_map(|i| p.input_w.column(i).to_vec()).collect();
+        let mut portable = vec![0.0; 53 * 13];
+        hidden_sums_body(x.view(), &wt, &b, &mut portable);
+        for ((g, p), w) in got.iter().zip(&portable).zip(want.iter()) {
+            assert_eq!(g.to_bits(), w.to_bits());
+            assert_eq!(p.to_bits(), w.to_bits());
         }
         let xs: Vec<f64> = (0..29).map(|i| f64::from(i).sin_fixed() * 1e3).collect();
         let ys: Vec<f64> = (0..29).map(|i| f64::from(i).cos_fixed()).collect();
