@@ -500,14 +500,15 @@ fn tanh_in_place_avx(v: &mut [f64]) {
 /// a degree-5 Remez polynomial (error < 2⁻⁵⁹; the source's comment).
 #[inline(always)]
 fn exp_mid(x: f64) -> f64 {
-    const LN2HI: f64 = 6.931_471_803_691_238_164_90e-1;
-    const LN2LO: f64 = 1.908_214_929_270_587_700_02e-10;
-    const INVLN2: f64 = 1.442_695_040_888_963_387_00;
-    const P1: f64 = 1.666_666_666_666_660_190_37e-1;
-    const P2: f64 = -2.777_777_777_701_559_338_42e-3;
-    const P3: f64 = 6.613_756_321_437_934_361_17e-5;
-    const P4: f64 = -1.653_390_220_546_525_153_90e-6;
-    const P5: f64 = 4.138_136_797_057_238_460_39e-8;
+    // the source's constants by their bits (its comments give them so)
+    const LN2HI: f64 = f64::from_bits(0x3fe6_2e42_fee0_0000);
+    const LN2LO: f64 = f64::from_bits(0x3dea_39ef_3579_3c76);
+    const INVLN2: f64 = f64::from_bits(0x3ff7_1547_652b_82fe);
+    const P1: f64 = f64::from_bits(0x3fc5_5555_5555_553e);
+    const P2: f64 = f64::from_bits(0xbf66_c16c_16be_bd93);
+    const P3: f64 = f64::from_bits(0x3f11_566a_af25_de2c);
+    const P4: f64 = f64::from_bits(0xbebb_bd41_c5d2_6bf1);
+    const P5: f64 = f64::from_bits(0x3e66_3769_72be_a4d0);
     // the source compares the high word of |x|: above 0x3fd62e42 (½ ln 2)
     // and from 0x3ff0a2b2 (1.5 ln 2); for x ≥ 0 the same as these compares
     const HALF_LN2_WORD_END: f64 = f64::from_bits(0x3fd6_2e42_ffff_ffff);
