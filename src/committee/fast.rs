@@ -115,6 +115,10 @@ const RETRY_FACTOR: f64 = 1.5;
 /// is at least m·cut has a kernel value of at most τ²·exp(−m·cut/2).
 const DROP_BANDS: [f64; 7] = [1.0, 1.5, 2.0, 3.0, 4.0, 6.0, 8.0];
 
+/// Queries whose screen products with the process's rows are formed at
+/// once (32 × 1 000 rows: 256 kB).
+const SCREEN_ROWS: usize = 32;
+
 /// Calibration rows drawn in the scaled box when the model stores no
 /// training rows.
 const BOX_ROWS: usize = 512;
@@ -568,23 +572,27 @@ impl FastProcess {
                 qr[j] = xr[j] * self.inv_len[j];
             }
         }
-        let mut g = Array2::zeros((b, n));
-        multiply_into(q.view(), self.xl.t(), g.view_mut());
         let tau2 = self.signal_var;
         let bands: Vec<(f64, f64)> = DROP_BANDS
             .iter()
             .map(|m| (m * cut, tau2 * (-0.5 * m * cut).exp_fixed()))
             .collect();
         let mut work = RowWork::default();
-        q.rows()
-            .into_iter()
-            .zip(g.rows())
-            .map(|(qr, gr)| {
+        let mut out = Vec::with_capacity(b);
+        // the screen's products for a few rows at a time, so that they
+        // stay in the cache (each product is summed the same way whatever
+        // the number of rows)
+        let mut g = Array2::zeros((SCREEN_ROWS.min(b), n));
+        for q in q.axis_chunks_iter(Axis(0), SCREEN_ROWS) {
+            let mut g = g.slice_mut(s![..q.nrows(), ..]);
+            multiply_into(q, self.xl.t(), g.view_mut());
+            for (qr, gr) in q.rows().into_iter().zip(g.rows()) {
                 let qr = qr.as_slice().expect("a fresh array");
-                let gr = gr.as_slice().expect("a fresh array");
-                self.row_at(qr, gr, cut, &bands, &mut work)
-            })
-            .collect()
+                let gr = gr.as_slice().expect("a standard layout");
+                out.push(self.row_at(qr, gr, cut, &bands, &mut work));
+            }
+        }
+        out
     }
 
     /// One scaled query `qr` (its products with the training rows `gr`)
