@@ -47,10 +47,19 @@
 //! computes anyway; the kernel matrix is positive semi-definite, so by
 //! Weyl's inequality the smallest eigenvalue of K_y is at least the
 //! smallest entry of its diagonal noise, less a rounding allowance). The
-//! cut c is the shortest of a ladder (8 … 48) at which, on 99 % of the
+//! cut c is the shortest of a ladder (4 … 48) at which, on 99 % of the
 //! calibration rows, the variance bound is at most half of
-//! [`FAST_SD_TOL`] of the smallest noise variance and the mean's a
-//! twentieth of it of that sd. The rows near a query are found by one
+//! [`FAST_SD_TOL`] of the row's own variance without the process (the
+//! members' noise under the process's factor and their model variance;
+//! the smallest noise variance when the committee has none) and the
+//! mean's a twentieth of it of that sd. A row whose check (below) fails
+//! at c is computed once more at 1.5·c before it goes the exact way. The
+//! bounds are far from tight: on the concrete rows of docs/benchmarks.md
+//! the variance's true error is about a thousandth of its bound, but
+//! the mean's true error alone, measured against the exact process,
+//! asks for a cut of 20–26 at a twentieth of the tolerance, so a cut
+//! chosen by measured error instead saves little (tried and dropped,
+//! docs/benchmarks.md). The rows near a query are found by one
 //! product of the scaled queries with the scaled training rows (the
 //! screen of [`crate::domain`]), their distances then summed one by one;
 //! kᵀBk over S uses B's symmetry.
