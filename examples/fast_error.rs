@@ -3,16 +3,21 @@
 //! INPUT.csv pair, every row's |sd/exact − 1| (the total sd and the
 //! committee's own), |mean − exact|/sd, the rows sent to the exact path,
 //! and, for the residual process alone, the error and work at each cut of
-//! a ladder against the exact process.
+//! a ladder against the exact process; then, for the members, the error
+//! of an uncertified truncation of their posteriors
+//! ([`mettle::committee::truncation_changes`]).
 //!
 //! ```text
 //! cargo run --release --locked --example fast_error -- MODEL.json INPUT.csv [MODEL.json INPUT.csv …]
 //! ```
 //!
-//! Used for docs/benchmarks.md ("The fast path's process: a tighter
-//! bound"): the default committee of each of the 20 concrete splits on its
-//! test rows (data and splits from the shared UCI benchmark folder, not
-//! kept in the repository).
+//! Used for docs/benchmarks.md ("The fast path's process bound, and what
+//! approximations could save"): the default committee of each concrete
+//! split (`mettle train --seed 1` on its training rows) on its test rows,
+//! the data and splits read from the shared UCI benchmark folder (UCI
+//! concrete compressive strength, Yeh 1998, Cement and Concrete Research
+//! 28:1797), written per split to a scratch folder, not kept in the
+//! repository.
 
 use std::path::Path;
 use std::time::Instant;
