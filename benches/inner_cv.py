@@ -7,7 +7,8 @@ its default settings. The test parts of the standard splits are never read.
         --config default= --config restarts8=--restarts,8 --catboost --out /tmp/cv
 
 --config NAME=ARGS: a mettle setting to try, ARGS = extra `mettle train` options separated
-by commas (empty: the defaults). For each outer split K, the training rows
+by commas (empty: the defaults); NAME@PATH=ARGS runs the mettle binary at PATH (two builds
+of the engine side by side, paired on the same folds). For each outer split K, the training rows
 (splits/train_K.txt) are cut into --folds folds by a seeded shuffle (seed 1000 + K); every
 setting is trained on all folds but one and predicts the left-out fold, so every training
 row is predicted once by a model that did not see it. Printed per setting: the
@@ -16,6 +17,11 @@ paired RMSE difference against the first setting (mean over folds ± its SE), an
 time of the fits. With --rows DIR the per-row out-of-fold predictions are written as
 DIR/<dataset>_<outer>_<setting>.csv (row = index into data.csv, y, mean, sd) for the
 residual study (benches/inner_cv.py --groups).
+
+--paired: instead of training, read the per-row files of --rows DIR for the outer splits
+--outer and report, per setting against the first --config, the paired difference of the
+fold RMSE and of the fold's mean Gaussian LL over all (outer split, fold) pairs (mean ± SE),
+and on how many pairs the setting's RMSE is lower.
 
 --groups: instead of training, read the per-row files of --rows DIR and report how much of
 each setting's out-of-fold squared error is shared by the rows of one group (concrete: one
@@ -45,6 +51,7 @@ p.add_argument("--mettle", type=Path,
 p.add_argument("--threads", type=int, default=2)
 p.add_argument("--rows", type=Path, default=None)
 p.add_argument("--groups", action="store_true")
+p.add_argument("--paired", action="store_true")
 ARGS = p.parse_args()
 for var in ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS"):
     os.environ[var] = str(ARGS.threads)
@@ -68,17 +75,18 @@ def child_cpu():
     return r.ru_utime + r.ru_stime
 
 
-def mettle_fold(header, train, test, extra, work):
+def mettle_fold(header, train, test, config, work):
+    binary, extra = config
     tr, te, m = work / "tr.csv", work / "te.csv", work / "m.json"
     write_csv(tr, header, train)
     write_csv(te, header, test)
     env = dict(os.environ, RAYON_NUM_THREADS=str(ARGS.threads))
     c0 = child_cpu()
-    cmd = [ARGS.mettle, "train", "--data", tr, "--target", header[-1], "--out", m, "--quiet"]
+    cmd = [binary, "train", "--data", tr, "--target", header[-1], "--out", m, "--quiet"]
     subprocess.run(cmd + extra, env=env, check=True)
     cpu = child_cpu() - c0
     import json
-    out = subprocess.run([ARGS.mettle, "predict", "--model", m, "--input", te, "--format",
+    out = subprocess.run([binary, "predict", "--model", m, "--input", te, "--format",
                           "json", "--exact"], env=env, check=True, capture_output=True, text=True)
     rows = json.loads(out.stdout)["rows"]
     est = [r["estimates"][header[-1]] for r in rows]
@@ -109,7 +117,9 @@ def train_all():
     configs = []
     for c in ARGS.config:
         name, _, extra = c.partition("=")
-        configs.append((name, [a for a in extra.split(",") if a]))
+        name, _, binary = name.partition("@")
+        configs.append((name, (Path(binary) if binary else ARGS.mettle,
+                               [a for a in extra.split(",") if a])))
     if ARGS.catboost:
         configs.append(("catboost", None))
     work = Path(tempfile.mkdtemp(prefix="mettle-inner-cv-"))
@@ -187,7 +197,33 @@ def groups():
                 print(f"    {h} (value:RMSE/mean residual) " + " ".join(cells))
 
 
-if ARGS.groups:
+def paired():
+    names = [c.partition("=")[0].partition("@")[0] for c in ARGS.config]
+    rmse = {n: [] for n in names}
+    ll = {n: [] for n in names}
+    for k in map(int, ARGS.outer.split(",")):
+        for n in names:
+            r = np.loadtxt(ARGS.rows / f"{ARGS.dataset}_{k}_{n}.csv", delimiter=",", skiprows=1)
+            fold = np.random.default_rng(1000 + k).permutation(len(r)) % ARGS.folds
+            for f in range(ARGS.folds):
+                y, mean, sd = r[fold == f, 1], r[fold == f, 2], r[fold == f, 3]
+                rm, l, _, _ = scores(y, mean, sd)
+                rmse[n].append(rm)
+                ll[n].append(l)
+    base = names[0]
+    for n in names:
+        a, b = np.array(rmse[n]), np.array(rmse[base])
+        d, dl = a - b, np.array(ll[n]) - np.array(ll[base])
+        se = d.std(ddof=1) / math.sqrt(len(d))
+        sel = dl.std(ddof=1) / math.sqrt(len(dl))
+        print(f"{ARGS.dataset} outer {ARGS.outer} {n:>16}: mean fold RMSE {a.mean():.4f} | "
+              f"RMSE − {base} {d.mean():+.4f} ± {se:.4f} ({d.mean() / se if se > 0 else 0:+.1f} SE), "
+              f"lower on {np.sum(d < 0)}/{len(d)} | LL − {base} {dl.mean():+.4f} ± {sel:.4f}")
+
+
+if ARGS.paired:
+    paired()
+elif ARGS.groups:
     groups()
 else:
     train_all()
