@@ -151,6 +151,21 @@ fn fast_path_is_within_its_bound_on_the_test_rows() {
     check_against_exact(&few, "60 rows");
 }
 
+/// A committee whose model part carries a scale (the gross-error refit's
+/// `model_var_scale`, set here by hand so that the case is always there):
+/// the fast path scales it as the exact path does.
+#[test]
+fn fast_path_applies_the_model_variance_scale() {
+    let mut model = train(60, (8, 8), NoiseMode::Constant);
+    let gross = model.targets[0]
+        .committee
+        .gross_errors
+        .as_mut()
+        .expect("the default fits the share of gross errors");
+    gross.model_var_scale = Some(1.7);
+    check_against_exact(&model, "60 rows, model variance × 1.7");
+}
+
 /// The scaled test rows, repeated to span several blocks.
 fn many_scaled(model: &Model) -> Array2<f64> {
     let (_, scaled) = model.scaled_inputs(&test_rows()).expect("scaled");

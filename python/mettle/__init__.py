@@ -187,6 +187,7 @@ class Model:
         heavy_tails: bool | str = True,
         reweight_mean: bool = False,
         widen: bool = True,
+        early_stop: bool = True,
         ard: bool = True,
         log_inputs: bool = True,
         drop_incomplete_rows: bool = False,
@@ -209,7 +210,7 @@ class Model:
         model), ``restarts``, ``seed``, ``holdout``, ``max_members``,
         ``noise`` (constant, varying, auto), ``kriging`` (on, off, auto),
         ``gross_errors``, ``heavy_tails``, ``reweight_mean``; ``widen=False``
-        is ``--no-widen``, ``ard=False`` ``--no-ard``, ``log_inputs=False``
+        is ``--no-widen``, ``early_stop=False`` ``--no-early-stop``, ``ard=False`` ``--no-ard``, ``log_inputs=False``
         ``--no-log-inputs``. The same data, settings and seed give a model
         file byte-identical to the CLI's.
 
@@ -242,6 +243,7 @@ class Model:
             "heavy_tails": _switch("heavy_tails", heavy_tails),
             "reweight_mean": bool(reweight_mean),
             "widen": bool(widen),
+            "early_stop": bool(early_stop),
             "ard": bool(ard),
             "log_inputs": bool(log_inputs),
         }

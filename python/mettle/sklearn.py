@@ -45,6 +45,7 @@ class MettleRegressor(RegressorMixin, BaseEstimator):
         heavy_tails=True,
         reweight_mean=False,
         widen=True,
+        early_stop=True,
         ard=True,
         log_inputs=True,
         progress=False,
@@ -60,6 +61,7 @@ class MettleRegressor(RegressorMixin, BaseEstimator):
         self.heavy_tails = heavy_tails
         self.reweight_mean = reweight_mean
         self.widen = widen
+        self.early_stop = early_stop
         self.ard = ard
         self.log_inputs = log_inputs
         self.progress = progress
@@ -94,6 +96,7 @@ class MettleRegressor(RegressorMixin, BaseEstimator):
             heavy_tails=self.heavy_tails,
             reweight_mean=self.reweight_mean,
             widen=self.widen,
+            early_stop=self.early_stop,
             ard=self.ard,
             log_inputs=self.log_inputs,
             progress=self.progress,

@@ -86,6 +86,7 @@ pub struct Settings {
     heavy_tails: bool,
     reweight_mean: bool,
     widen: bool,
+    early_stop: bool,
     ard: bool,
     log_inputs: bool,
 }
@@ -101,6 +102,7 @@ impl Settings {
             .holdout_fraction(self.holdout)
             .max_members(self.max_members)
             .widen(self.widen)
+            .early_stop(self.early_stop)
             .noise(noise_mode(&self.noise)?)
             .kriging(kriging_mode(&self.kriging)?)
             .gross_errors(self.gross_errors)

@@ -44,6 +44,20 @@ def test_model_file_is_byte_identical_to_the_cli(tiny):
     assert m2.to_json() == cli
 
 
+def test_early_stop_off_is_the_clis_no_early_stop(tiny, mettle_bin):
+    # twelve candidates (hidden 1..6, two restarts): more than the search keeps
+    # past its first rung, so stopping early changes which ones finish
+    d, df = tiny
+    wide = ["--hidden", "1..6", "--restarts", "2", "--seed", "5"]
+    p = run_cli(mettle_bin, ["train", "--data", "tiny.csv", "--target", "y", *wide, "--no-early-stop", "--quiet", "--out", "cli_full.json"], d)
+    assert p.returncode == 0, p.stderr
+    settings = {"hidden": "1..6", "restarts": 2, "seed": 5}
+    full = mettle.Model.train(df, targets="y", progress=False, source="tiny.csv", early_stop=False, **settings)
+    assert full.to_json() == (d / "cli_full.json").read_bytes()
+    halved = mettle.Model.train(df, targets="y", progress=False, source="tiny.csv", **settings)
+    assert halved.to_json() != full.to_json()
+
+
 def test_polars_and_numpy_inputs_train_the_same_model(tiny):
     d, df = tiny
     cli = (d / "cli.json").read_bytes()

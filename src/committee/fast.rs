@@ -37,18 +37,29 @@
 //! kₙ ≤ κ_m = τ²·exp(−c·m/2):
 //!
 //! ```text
-//! |mean error|     = |Σ_D kₙαₙ|                 ≤ Σ_m κ_m Σ_{D_m} |αₙ|
-//! |variance error| = |2 k_Sᵀ B k_D + k_Dᵀ B k_D|  ≤ ‖B‖₂ (2‖k_S‖‖k_D‖ + ‖k_D‖²),   ‖k_D‖² ≤ Σ_m κ_m² |D_m|
-//! ‖B‖₂ = 1/λ_min(K_y) ≤ 1/(min_n s·σ²ₙ + jitter − N·τ²·1e-12)
+//! |mean error|     = |Σ_D kₙαₙ| = |k_DᵀBr|      ≤ min(Σ_m κ_m Σ_{D_m} |αₙ|,  √‖B‖₂ ‖k_D‖ √(rᵀα))
+//! |variance error| = |2 k_Sᵀ B k_D + k_Dᵀ B k_D|  ≤ 2 min(√(k_SᵀBk_S ‖B‖₂), ‖B‖₂‖k_S‖) ‖k_D‖ + ‖B‖₂‖k_D‖²
+//! ‖k_D‖² ≤ Σ_m κ_m² |D_m|,   ‖B‖₂ = 1/λ_min(K_y) ≤ 1/(min_n s·σ²ₙ + jitter − N·τ²·1e-12)
 //! ```
 //!
-//! (Cauchy–Schwarz; the kernel matrix is positive semi-definite, so by
+//! (Cauchy–Schwarz, in B's inner product ⟨u, v⟩ = uᵀBv for the terms
+//! with √: B is positive definite, and k_SᵀBk_S is the sum the row
+//! computes anyway; the kernel matrix is positive semi-definite, so by
 //! Weyl's inequality the smallest eigenvalue of K_y is at least the
 //! smallest entry of its diagonal noise, less a rounding allowance). The
-//! cut c is the shortest of a ladder (8 … 48) at which, on 99 % of the
+//! cut c is the shortest of a ladder (4 … 48) at which, on 99 % of the
 //! calibration rows, the variance bound is at most half of
-//! [`FAST_SD_TOL`] of the smallest noise variance and the mean's a
-//! twentieth of it of that sd. The rows near a query are found by one
+//! [`FAST_SD_TOL`] of the row's own variance without the process (the
+//! members' noise under the process's factor and their model variance;
+//! the smallest noise variance when the committee has none) and the
+//! mean's a twentieth of it of that sd. A row whose check (below) fails
+//! at c is computed once more at 1.5·c before it goes the exact way. The
+//! bounds are far from tight: on the concrete rows of docs/benchmarks.md
+//! the variance's true error is about a thousandth of its bound, but
+//! the mean's true error alone, measured against the exact process,
+//! asks for a cut of 20–26 at a twentieth of the tolerance, so a cut
+//! chosen by measured error instead saves little (tried and dropped,
+//! docs/benchmarks.md). The rows near a query are found by one
 //! product of the scaled queries with the scaled training rows (the
 //! screen of [`crate::domain`]), their distances then summed one by one;
 //! kᵀBk over S uses B's symmetry.
@@ -99,13 +110,23 @@ use crate::prec::{
 /// process, shortest first (exp(−c/2) = 0.018 … 2e-11 of τ²). The work of
 /// a row grows as the square of the rows inside, about as c^(d/2) in d
 /// inputs, so the steps are small.
-const PROCESS_CUTS: [f64; 16] = [
-    8.0, 10.0, 12.0, 14.0, 16.0, 18.0, 20.0, 22.0, 24.0, 26.0, 28.0, 30.0, 33.0, 36.0, 40.0, 48.0,
+const PROCESS_CUTS: [f64; 20] = [
+    4.0, 5.0, 6.0, 7.0, 8.0, 10.0, 12.0, 14.0, 16.0, 18.0, 20.0, 22.0, 24.0, 26.0, 28.0, 30.0,
+    33.0, 36.0, 40.0, 48.0,
 ];
+
+/// A row whose bound fails at the cut is tried again at this multiple of
+/// it (at most the worst-case cut) before the exact path: the rows it
+/// leaves out then weigh at most exp(−c/4) of what they did.
+const RETRY_FACTOR: f64 = 1.5;
 
 /// Bands of the dropped rows, as multiples of the cut: a row whose d²
 /// is at least m·cut has a kernel value of at most τ²·exp(−m·cut/2).
 const DROP_BANDS: [f64; 7] = [1.0, 1.5, 2.0, 3.0, 4.0, 6.0, 8.0];
+
+/// Queries whose screen products with the process's rows are formed at
+/// once (32 × 1 000 rows: 256 kB).
+const SCREEN_ROWS: usize = 32;
 
 /// Calibration rows drawn in the scaled box when the model stores no
 /// training rows.
@@ -151,8 +172,13 @@ struct FastProcess {
     /// Upper bound on ‖K_y⁻¹‖₂.
     kinv_norm: f64,
     signal_var: f64,
+    /// rᵀK_y⁻¹r (the mean's second bound).
+    r_alpha: f64,
     /// Rows with d² > cut are left out.
     cut: f64,
+    /// The cut a row whose bound fails at `cut` is tried at before the
+    /// exact path (`cut` itself when it is the longest).
+    retry_cut: f64,
 }
 
 /// A committee prepared for fast prediction ([`Committee::fast`]).
@@ -190,8 +216,19 @@ impl Committee {
             Some(b) => b.view(),
             None => calibration.reborrow(),
         };
-        let cv = members_predict(&self.members, d, cal).committee_var;
-        let cv = cv.as_slice().expect("a fresh array");
+        let mp = members_predict(&self.members, d, cal);
+        let cv = mp.committee_var.as_slice().expect("a fresh array");
+        // each calibration row's variance without the process (the
+        // process's own is non-negative): the noise under the process's
+        // factor and the committee's part under its scale
+        let model_scale = self.model_var_scale().unwrap_or(1.0);
+        let row_var: Option<Vec<f64>> = self.kriging.as_ref().map(|k| {
+            mp.noise_var
+                .iter()
+                .zip(cv)
+                .map(|(nv, c)| nv * k.noise_factor + c * model_scale)
+                .collect()
+        });
         // the members' eigen-decompositions (Householder and implicit QL,
         // k = 131–201) spread over the threads, beside the process's
         // factorisation; each is computed alone, so the threads change no
@@ -217,7 +254,9 @@ impl Committee {
                 .collect()
         };
         let (members, process) = rayon::join(build_members, || {
-            self.kriging.as_ref().and_then(|k| FastProcess::new(k, cal))
+            self.kriging
+                .as_ref()
+                .and_then(|k| FastProcess::new(k, cal, row_var.as_deref()))
         });
         FastCommittee {
             committee: self,
@@ -428,7 +467,14 @@ impl LowRank {
 }
 
 impl FastProcess {
-    fn new(k: &ResidualKriging, calibration: ArrayView2<f64>) -> Option<FastProcess> {
+    /// The fast path of `k`, its cut chosen on the `calibration` rows,
+    /// whose total variance without the process is at least `row_var`
+    /// (None: the smallest noise variance serves for every row).
+    fn new(
+        k: &ResidualKriging,
+        calibration: ArrayView2<f64>,
+        row_var: Option<&[f64]>,
+    ) -> Option<FastProcess> {
         let n = k.x.nrows();
         if n == 0 || k.residual.len() != n || k.noise_var.len() != n {
             return None;
@@ -472,6 +518,13 @@ impl FastProcess {
         let order = kd_order(xl.view());
         let xl = xl.select(Axis(0), &order);
         let kinv = Array2::from_shape_fn((n, n), |(i, j)| kinv[[order[i], order[j]]]);
+        let r_alpha = alpha
+            .iter()
+            .zip(&k.residual)
+            .map(|(a, r)| a * r)
+            .sum::<f64>()
+            .max(0.0)
+            * (1.0 + 1e-9);
         let alpha: Vec<f64> = order.iter().map(|&i| alpha[i]).collect();
         let xl_norm = xl.rows().into_iter().map(|r| r.dot(&r)).collect();
         let mut fp = FastProcess {
@@ -482,22 +535,29 @@ impl FastProcess {
             kinv,
             kinv_norm,
             signal_var: tau2,
+            r_alpha,
             cut: safe_cut,
+            retry_cut: safe_cut,
         };
         // a shorter cut where the rows' own bounds allow it: the smallest
-        // of the ladder whose bound is a tenth of tol of the smallest
-        // noise variance on 99 % of the calibration rows
+        // of the ladder whose bounds are within half the tolerance of each
+        // calibration row's variance (the row's check below gives the
+        // process at most that) on 99 % of the rows
         let need = (FAST_CALIBRATION_SHARE * calibration.nrows() as f64).ceil() as usize;
+        let var_of = |i: usize| row_var.map_or(floor, |v| v[i].max(floor));
         for cut in PROCESS_CUTS.iter().copied().filter(|&c| c < safe_cut) {
             fp.cut = cut;
             let ok = calibration
                 .axis_chunks_iter(Axis(0), FAST_BLOCK_ROWS)
                 .flat_map(|b| fp.predict(b))
-                .filter(|r| {
-                    r.3 <= 0.5 * FAST_SD_TOL * floor && r.2 <= 0.05 * FAST_SD_TOL * floor.sqrt()
+                .enumerate()
+                .filter(|(i, r)| {
+                    let v = var_of(*i);
+                    r.3 <= 0.5 * FAST_SD_TOL * v && r.2 <= 0.05 * FAST_SD_TOL * v.sqrt()
                 })
                 .count();
             if ok >= need && calibration.nrows() > 0 {
+                fp.retry_cut = (RETRY_FACTOR * cut).min(safe_cut);
                 return Some(fp);
             }
         }
@@ -507,7 +567,12 @@ impl FastProcess {
 
     /// Mean, variance and the bounds on their errors for each row of `x`,
     /// and the number of training rows inside the cut.
-    fn predict(&self, x: ArrayView2<f64>) -> Vec<(f64, f64, f64, f64, usize)> {
+    fn predict(&self, x: ArrayView2<f64>) -> Vec<ProcessRow> {
+        self.predict_at(x, self.cut)
+    }
+
+    /// As [`FastProcess::predict`] at cut `cut`.
+    fn predict_at(&self, x: ArrayView2<f64>, cut: f64) -> Vec<ProcessRow> {
         let (b, d) = x.dim();
         let n = self.xl.nrows();
         let mut q = Array2::zeros((b, d));
@@ -516,23 +581,27 @@ impl FastProcess {
                 qr[j] = xr[j] * self.inv_len[j];
             }
         }
-        let mut g = Array2::zeros((b, n));
-        multiply_into(q.view(), self.xl.t(), g.view_mut());
         let tau2 = self.signal_var;
         let bands: Vec<(f64, f64)> = DROP_BANDS
             .iter()
-            .map(|m| (m * self.cut, tau2 * (-0.5 * m * self.cut).exp_fixed()))
+            .map(|m| (m * cut, tau2 * (-0.5 * m * cut).exp_fixed()))
             .collect();
         let mut work = RowWork::default();
-        q.rows()
-            .into_iter()
-            .zip(g.rows())
-            .map(|(qr, gr)| {
+        let mut out = Vec::with_capacity(b);
+        // the screen's products for a few rows at a time, so that they
+        // stay in the cache (each product is summed the same way whatever
+        // the number of rows)
+        let mut g = Array2::zeros((SCREEN_ROWS.min(b), n));
+        for q in q.axis_chunks_iter(Axis(0), SCREEN_ROWS) {
+            let mut g = g.slice_mut(s![..q.nrows(), ..]);
+            multiply_into(q, self.xl.t(), g.view_mut());
+            for (qr, gr) in q.rows().into_iter().zip(g.rows()) {
                 let qr = qr.as_slice().expect("a fresh array");
-                let gr = gr.as_slice().expect("a fresh array");
-                self.row_at(qr, gr, self.cut, &bands, &mut work)
-            })
-            .collect()
+                let gr = gr.as_slice().expect("a standard layout");
+                out.push(self.row_at(qr, gr, cut, &bands, &mut work));
+            }
+        }
+        out
     }
 
     /// One scaled query `qr` (its products with the training rows `gr`)
@@ -545,7 +614,7 @@ impl FastProcess {
         cut: f64,
         bands: &[(f64, f64)],
         work: &mut RowWork,
-    ) -> (f64, f64, f64, f64, usize) {
+    ) -> ProcessRow {
         let d = qr.len();
         let n = self.xl.nrows();
         let tau2 = self.signal_var;
@@ -621,13 +690,25 @@ impl FastProcess {
             kd2 += kb * kb * c as f64;
         }
         let kd = kd2.sqrt() * (1.0 + 1e-12);
-        let var_err = self.kinv_norm * (2.0 * ks2.sqrt() * kd + kd * kd)
-            + 4.0 * n as f64 * f64::EPSILON * self.kinv_norm * ks2.max(tau2 * tau2);
-        let mean_err = mean_err * (1.0 + 1e-12);
+        let rounding = 4.0 * n as f64 * f64::EPSILON * self.kinv_norm * ks2.max(tau2 * tau2);
+        // the cross term by Cauchy–Schwarz in B's inner product,
+        // |k_SᵀBk_D| ≤ √(k_SᵀBk_S)·√‖B‖·‖k_D‖, never above the plain
+        // ‖B‖·‖k_S‖·‖k_D‖ (k_SᵀBk_S ≤ ‖B‖‖k_S‖²); the computed k_SᵀBk_S
+        // raised by its rounding allowance
+        let cross = (self.kinv_norm * (quad.max(0.0) + rounding)).sqrt() * kd;
+        let var_err =
+            2.0 * cross.min(self.kinv_norm * ks2.sqrt() * kd) + self.kinv_norm * kd * kd + rounding;
+        // the mean's likewise: |k_DᵀBr| ≤ √‖B‖·‖k_D‖·√(rᵀBr)
+        let mean_err =
+            mean_err.min(self.kinv_norm.sqrt() * kd * self.r_alpha.sqrt()) * (1.0 + 1e-12);
         let var = (tau2 - quad).max(VAR_FLOOR);
         (mean, var, mean_err, var_err, active.len())
     }
 }
+
+/// A row of the process's fast path: mean, variance, the bounds on their
+/// errors, and the number of training rows inside the cut.
+pub type ProcessRow = (f64, f64, f64, f64, usize);
 
 /// Buffers of [`FastProcess::row_at`], reused from row to row.
 #[derive(Default)]
@@ -644,12 +725,36 @@ pub struct FastProcessProbe(FastProcess);
 impl FastProcessProbe {
     /// The fast path of `k`; None when it cannot be built.
     pub fn new(k: &ResidualKriging, calibration: ArrayView2<f64>) -> Option<Self> {
-        FastProcess::new(k, calibration).map(FastProcessProbe)
+        FastProcess::new(k, calibration, None).map(FastProcessProbe)
     }
 
     /// The cut chosen.
     pub fn cut(&self) -> f64 {
         self.0.cut
+    }
+
+    /// The fast path of `k` with its cut chosen as [`Committee::fast`]
+    /// chooses it: against `row_var`, each calibration row's variance
+    /// without the process.
+    pub fn with_row_var(
+        k: &ResidualKriging,
+        calibration: ArrayView2<f64>,
+        row_var: &[f64],
+    ) -> Option<Self> {
+        FastProcess::new(k, calibration, Some(row_var)).map(FastProcessProbe)
+    }
+
+    /// The longer cut a failing row is tried at.
+    pub fn retry_cut(&self) -> f64 {
+        self.0.retry_cut
+    }
+
+    /// Every row of `x` at cut `cut`: mean, variance, their bounds and the
+    /// rows inside.
+    pub fn rows_at(&self, cut: f64, x: ArrayView2<f64>) -> Vec<ProcessRow> {
+        x.axis_chunks_iter(Axis(0), FAST_BLOCK_ROWS)
+            .flat_map(|b| self.0.predict_at(b, cut))
+            .collect()
     }
 
     /// Per row of `x` at cut `cut`: the bounds on the mean's and the
@@ -765,19 +870,48 @@ impl FastCommittee<'_> {
             });
         }
         let mut p = super::committee_of(parts.into_iter(), b);
-        let e_c: Vec<f64> = bound.iter().map(|v| v / n_members as f64).collect();
+        let scale = c.model_var_scale();
+        let e_c: Vec<f64> = bound
+            .iter()
+            .map(|v| v / n_members as f64 * scale.unwrap_or(1.0))
+            .collect();
+        if let Some(c) = scale {
+            // as the exact path: the model part c·(parameter variance +
+            // spread)
+            p.committee_var *= c;
+            p.var = &p.noise_var + &p.committee_var;
+        }
         let mut redo: Vec<usize> = Vec::new();
         match (&c.kriging, &self.process) {
             (Some(k), Some(fp)) => {
                 let factor = k.noise_factor;
-                for (i, (gm, gv, em, ev, _)) in fp.predict(x).into_iter().enumerate() {
-                    p.mean[i] += gm;
-                    p.var[i] = p.var[i] + p.noise_var[i] * (factor - 1.0) + gv;
-                    p.noise_var[i] *= factor;
-                    let total_err = e_c[i] + ev;
-                    if !self.row_ok(e_c[i], p.committee_var[i], total_err, p.var[i], em) {
-                        redo.push(i);
+                let base = p.clone();
+                // the row with the process's part: whether its check holds
+                let mut take = |i: usize, (gm, gv, em, ev, _): ProcessRow| {
+                    p.mean[i] = base.mean[i] + gm;
+                    p.var[i] = base.var[i] + base.noise_var[i] * (factor - 1.0) + gv;
+                    p.noise_var[i] = base.noise_var[i] * factor;
+                    self.row_ok(e_c[i], p.committee_var[i], e_c[i] + ev, p.var[i], em)
+                };
+                let mut retry = Vec::new();
+                for (i, row) in fp.predict(x).into_iter().enumerate() {
+                    if !take(i, row) {
+                        retry.push(i);
                     }
+                }
+                // a row whose bound failed: once more at the longer cut
+                // (each row's sums its own, so that its result does not
+                // depend on the block), then the exact path
+                if fp.retry_cut > fp.cut && !retry.is_empty() {
+                    let rows = x.select(Axis(0), &retry);
+                    let again = fp.predict_at(rows.view(), fp.retry_cut);
+                    for (&i, row) in retry.iter().zip(again) {
+                        if !take(i, row) {
+                            redo.push(i);
+                        }
+                    }
+                } else {
+                    redo = retry;
                 }
             }
             // not reached: predict_scaled takes the exact path then
@@ -830,6 +964,58 @@ impl FastCommittee<'_> {
         }
         (out, n)
     }
+}
+
+/// For measuring an uncertified truncation of the members' posteriors
+/// (docs/benchmarks.md, not a prediction path): for each share in `shares`,
+/// per row of `x`, the change in the committee's model variance when every
+/// member's gᵀΣg is taken from its r = ⌈share·k⌉ leading eigenpairs and
+/// the rest estimated as the mean of the k − r remaining eigenvalues times
+/// the Jacobian's mass outside the leading directions,
+///
+/// ```text
+/// gᵀΣg ≈ Σ_{i≤r} λᵢ pᵢ² + λ̄_tail (‖g‖² − Σ_{i≤r} pᵢ²),   λ̄_tail = Σ_{i>r} λᵢ / (k − r)
+/// ```
+///
+/// (the mean over the members, before any scale on the model part).
+pub fn truncation_changes(c: &Committee, x: ArrayView2<f64>, shares: &[f64]) -> Vec<Array1<f64>> {
+    let d = c.n_inputs;
+    let mut out = vec![Array1::zeros(x.nrows()); shares.len()];
+    let n_members = c.members.len().max(1) as f64;
+    for m in &c.members {
+        let arch = m.arch(d);
+        let (_, jac) = jacobian_rows(&arch, &m.weights, x);
+        let exact = m.posterior_factor().quadratic_forms(jac.view());
+        let k = m.posterior_cov.nrows();
+        let Some((values, vectors)) = symmetric_eigen_ql(m.posterior_cov.view()) else {
+            continue;
+        };
+        let order: Vec<usize> = (0..k).rev().collect();
+        let lambda: Vec<f64> = order.iter().map(|&i| values[i].max(0.0)).collect();
+        let u = vectors.select(Axis(1), &order);
+        let mut p = Array2::zeros((x.nrows(), k));
+        multiply_into(jac.view(), u.view(), p.view_mut());
+        for (share, o) in shares.iter().zip(out.iter_mut()) {
+            let r = ((share * k as f64).ceil() as usize).min(k);
+            let tail = if r < k {
+                lambda[r..].iter().sum::<f64>() / (k - r) as f64
+            } else {
+                0.0
+            };
+            for (i, (g, pr)) in jac.rows().into_iter().zip(p.rows()).enumerate() {
+                let g2: f64 = g.iter().map(|v| v * v).sum();
+                let mut s2 = 0.0;
+                let mut q = 0.0;
+                for (pi, li) in pr.iter().take(r).zip(&lambda) {
+                    s2 += pi * pi;
+                    q += li * pi * pi;
+                }
+                let est = q + tail * (g2 - s2).max(0.0);
+                o[i] += (est - exact[i]) / n_members;
+            }
+        }
+    }
+    out
 }
 
 #[cfg(test)]

@@ -49,7 +49,9 @@ mod stage_fixture;
 mod tails;
 mod varying;
 
-pub use fast::{FastCommittee, FastProcessProbe, FastStats, PROFILE_TOLERANCES};
+pub use fast::{
+    truncation_changes, FastCommittee, FastProcessProbe, FastStats, ProcessRow, PROFILE_TOLERANCES,
+};
 #[cfg(test)]
 pub(crate) use gross_errors::scipy_reference as gross_errors_reference;
 pub use gross_errors::{GrossErrorModel, GrossErrors};
@@ -365,7 +367,7 @@ impl Committee {
 
     fn predict_block(&self, factors: &[PosteriorFactor], x: ArrayView2<f64>) -> ScaledPrediction {
         let mut p = members_predict_factored(&self.members, factors, self.n_inputs, x);
-        if let Some(c) = self.gross_errors.as_ref().and_then(|g| g.model_var_scale) {
+        if let Some(c) = self.model_var_scale() {
             // the committee's model part, c·(parameter variance + spread)
             p.committee_var *= c;
             p.var = &p.noise_var + &p.committee_var;
@@ -377,6 +379,12 @@ impl Committee {
             p.noise_var *= factor;
         }
         p
+    }
+
+    /// The factor c on the committee's model part (parameter variance and
+    /// spread) when the gross-error refit chose one.
+    pub(crate) fn model_var_scale(&self) -> Option<f64> {
+        self.gross_errors.as_ref().and_then(|g| g.model_var_scale)
     }
 
     /// The residual process's mean and variance at scaled inputs `x`, with

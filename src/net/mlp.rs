@@ -22,7 +22,6 @@
 //! i: index `j·d + i`), hidden biases `b` (H), output weights `v` (H),
 //! output bias `c`. In linear mode: `a` (d), then `c`.
 
-use crate::fixedmath::FixedMath;
 use ndarray::{s, Array1, Array2, ArrayView1, ArrayView2, Axis};
 use serde::{Deserialize, Serialize};
 
@@ -130,10 +129,28 @@ impl Architecture {
             let y = x.dot(&p.input_w.row(0)) + p.output_b;
             return (y, Array2::zeros((0, 0)));
         }
-        let mut act = crate::linalg::matmul(x, p.input_w.t());
-        act += &p.hidden_b;
-        act.mapv_inplace(tanh);
-        let y = act.dot(&p.output_w) + p.output_b;
+        let h = self.n_hidden;
+        let b = p
+            .hidden_b
+            .as_slice()
+            .expect("a slice of the parameter vector");
+        let v = p
+            .output_w
+            .as_slice()
+            .expect("a slice of the parameter vector");
+        let mut act = hidden_sums(x, p.input_w, b);
+        let flat = act
+            .as_slice_mut()
+            .expect("a fresh array is in standard layout");
+        // tanh of each element, then `act.dot(&v) + c` (ndarray's product
+        // of a matrix and a vector: each row's [`unrolled_dot`], times 1)
+        // without its iterator and allocation overhead: the same bits
+        // (unit test)
+        tanh_in_place(flat);
+        let y = Array1::from_iter(
+            flat.chunks_exact(h)
+                .map(|row| unrolled_dot(row, v) * 1.0 + p.output_b),
+        );
         (y, act)
     }
 
@@ -188,18 +205,49 @@ impl Architecture {
             return g;
         }
         let p = self.split(w);
-        let h = self.n_hidden;
-        // δ_nj = r_n v_j (1 − a_nj²)
-        let mut delta = act.mapv(|a| 1.0 - a * a);
-        delta *= &p.output_w;
-        delta *= &r.view().insert_axis(Axis(1));
-        let g_w = crate::linalg::matmul(delta.t(), x);
-        g.slice_mut(s![..lay.hidden_bias])
-            .assign(&Array1::from_iter(g_w.iter().copied()));
+        let (n, h) = (x.nrows(), self.n_hidden);
+        let v = p
+            .output_w
+            .as_slice()
+            .expect("a slice of the parameter vector");
+        let a_flat = act
+            .as_slice()
+            .expect("activations of the forward pass are in standard layout");
+        // δ_nj = ((1 − a_nj²)·v_j)·r_n, kept transposed (H × N) for the
+        // product δᵀX; ∂/∂b_j = Σ_n δ_nj and ∂/∂v_j = Σ_n a_nj r_n summed
+        // from 0 in increasing n — the operations and order of the former
+        // `act.mapv(…) *= v *= r`, `delta.sum_axis(Axis(0))` and
+        // `act.t().dot(r)` (ndarray sums a strided row in order, a
+        // contiguous one, H = 1, by [`unrolled_dot`]): the same bits, one
+        // pass, no temporaries (unit test)
+        let r_s = r.as_slice().expect("a fresh vector is contiguous");
+        let mut delta_t = Array2::<f64>::zeros((h, n));
+        let dt = delta_t
+            .as_slice_mut()
+            .expect("a fresh array is in standard layout");
+        let mut g_b = vec![0.0; h];
+        let mut g_v = vec![0.0; h];
+        for (row, (a_n, &r_n)) in a_flat.chunks_exact(h).zip(r_s).enumerate() {
+            for j in 0..h {
+                let a = a_n[j];
+                let d = ((1.0 - a * a) * v[j]) * r_n;
+                dt[j * n + row] = d;
+                g_b[j] += d;
+                g_v[j] += a * r_n;
+            }
+        }
+        if h == 1 {
+            g_v[0] = unrolled_dot(a_flat, r_s);
+        }
+        let g_w = crate::linalg::matmul(delta_t.view(), x);
+        g.slice_mut(s![..lay.hidden_bias]).assign(&ArrayView1::from(
+            g_w.as_slice()
+                .expect("a fresh product is in standard layout"),
+        ));
         g.slice_mut(s![lay.hidden_bias..lay.output_weights])
-            .assign(&delta.sum_axis(Axis(0)));
+            .assign(&ArrayView1::from(&g_b));
         g.slice_mut(s![lay.output_weights..lay.output_weights + h])
-            .assign(&act.t().dot(r));
+            .assign(&ArrayView1::from(&g_v));
         g[lay.output_bias] = r.sum();
         g
     }
@@ -292,21 +340,205 @@ impl Architecture {
     }
 }
 
-/// tanh(x) from one call of `exp`: `sign(x)·(1 − 2/(e^{2|x|} + 1))`, with
+/// tanh(x) from one exponential: `sign(x)·(1 − 2/(e^{2|x|} + 1))`, with
 /// its Taylor series `x − x³/3 + 2x⁵/15 − 17x⁷/315` below |x| = 0.02 where
 /// that form loses relative precision. Absolute error ≤ 3·10⁻¹⁶ against
 /// the C library's `tanh`, which is 2–3 times slower and was most of the
 /// training time (it goes through `expm1`). The identity and the series are
-/// standard (Abramowitz & Stegun 1964, 4.5.17 and 4.5.64).
-#[inline]
+/// standard (Abramowitz & Stegun 1964, 4.5.17 and 4.5.64). The exponential
+/// is [`exp_mid`], the same bits as `libm::exp` on the arguments it gets.
+#[inline(always)]
 pub fn tanh(x: f64) -> f64 {
     let ax = x.abs();
+    let x2 = x * x;
+    let series = x * (1.0 + x2 * (-1.0 / 3.0 + x2 * (2.0 / 15.0 - x2 * (17.0 / 315.0))));
+    // above |x| = 20, e^{2|x|} > 2⁵⁷ and 1 − 2/(e + 1) rounds to 1 exactly
+    let z = if ax > TANH_SATURATES {
+        2.0 * TANH_SATURATES
+    } else {
+        2.0 * ax
+    };
+    let e = exp_mid(z);
+    let long = (1.0 - 2.0 / (e + 1.0)).copysign(x);
     if ax < 0.02 {
-        let x2 = x * x;
-        return x * (1.0 + x2 * (-1.0 / 3.0 + x2 * (2.0 / 15.0 - x2 * (17.0 / 315.0))));
+        series
+    } else {
+        long
     }
-    let e = (2.0 * ax).exp_fixed();
-    (1.0 - 2.0 / (e + 1.0)).copysign(x)
+}
+
+/// The hidden units' inputs `X·Wᵀ + b` (N × H): element (n, j) is
+/// `(0 + Σ_i x_ni W_ji) + b_j`, the sum from 0 in increasing i — the bits
+/// of the former `linalg::matmul(x, Wᵀ)` (whose register block sums from 0
+/// in increasing i and then adds the sum to C's 0) followed by `+= b` —
+/// one row at a time with the sums of all H units side by side (the
+/// compiler vectorises over j), without packing either operand. Compiled
+/// for the baseline and with AVX like [`tanh_in_place`]; the same bits
+/// either way (unit test).
+fn hidden_sums(x: ArrayView2<f64>, w: ArrayView2<f64>, b: &[f64]) -> Array2<f64> {
+    let (n, h) = (x.nrows(), w.nrows());
+    let d = x.ncols();
+    // Wᵀ row-major: wt[i·H + j] = W_ji
+    let wt: Vec<f64> = (0..d).flat_map(|i| w.column(i).to_vec()).collect();
+    let mut out = Array2::<f64>::zeros((n, h));
+    let flat = out
+        .as_slice_mut()
+        .expect("a fresh array is in standard layout");
+    #[cfg(target_arch = "x86_64")]
+    {
+        if std::arch::is_x86_feature_detected!("avx") {
+            // SAFETY: the CPU has AVX, the only feature the function enables.
+            #[allow(unsafe_code)]
+            unsafe {
+                hidden_sums_avx(x, &wt, b, flat)
+            };
+            return out;
+        }
+    }
+    hidden_sums_body(x, &wt, b, flat);
+    out
+}
+
+#[cfg(target_arch = "x86_64")]
+#[target_feature(enable = "avx")]
+fn hidden_sums_avx(x: ArrayView2<f64>, wt: &[f64], b: &[f64], out: &mut [f64]) {
+    hidden_sums_body(x, wt, b, out);
+}
+
+#[inline(always)]
+fn hidden_sums_body(x: ArrayView2<f64>, wt: &[f64], b: &[f64], out: &mut [f64]) {
+    let h = b.len();
+    if h == 0 {
+        return;
+    }
+    for (row, x_n) in out.chunks_exact_mut(h).zip(x.rows()) {
+        // `row` holds 0 (a fresh array): each += is the block's acc += a·b
+        for (xi, wt_i) in x_n.iter().zip(wt.chunks_exact(h)) {
+            for (acc, wji) in row.iter_mut().zip(wt_i) {
+                *acc += xi * wji;
+            }
+        }
+        for (acc, bj) in row.iter_mut().zip(b) {
+            *acc = (0.0 + *acc) + bj;
+        }
+    }
+}
+
+/// Σ xᵢyᵢ in ndarray's order for contiguous vectors (its
+/// `numeric_util::unrolled_dot`, which `ArrayView1::dot` and the product
+/// of a matrix and a vector call): eight partial sums over the full blocks
+/// of eight, combined as ((0 + (p₀ + p₄)) + (p₁ + p₅)) + …, then the
+/// remaining terms one by one. Copied so that fused loops give the bits
+/// ndarray's products gave (unit test against `dot`).
+#[inline(always)]
+fn unrolled_dot(xs: &[f64], ys: &[f64]) -> f64 {
+    let len = xs.len().min(ys.len());
+    let (mut xs, mut ys) = (&xs[..len], &ys[..len]);
+    let mut sum = 0.0;
+    let mut p = [0.0; 8];
+    while xs.len() >= 8 {
+        for l in 0..8 {
+            p[l] += xs[l] * ys[l];
+        }
+        xs = &xs[8..];
+        ys = &ys[8..];
+    }
+    sum += p[0] + p[4];
+    sum += p[1] + p[5];
+    sum += p[2] + p[6];
+    sum += p[3] + p[7];
+    for (x, y) in xs.iter().zip(ys) {
+        sum += x * y;
+    }
+    sum
+}
+
+/// |x| above which tanh(x) = ±1 in f64 by the formula of [`tanh`]:
+/// e^{2·20} ≈ 2.4·10¹⁷, 2/(e + 1) < 2⁻⁵⁴ (half an ulp below 1).
+const TANH_SATURATES: f64 = 20.0;
+
+/// tanh of every element in place, each as [`tanh`] gives it (the same
+/// bits): a loop without calls or data-dependent jumps, which the compiler
+/// turns into vector instructions, compiled twice like
+/// [`crate::linalg`]'s product (baseline SSE2, and AVX where the CPU has
+/// it); both perform the same IEEE operations on each element, so the same
+/// bits (unit test).
+pub fn tanh_in_place(v: &mut [f64]) {
+    #[cfg(target_arch = "x86_64")]
+    {
+        if std::arch::is_x86_feature_detected!("avx") {
+            // SAFETY: the CPU has AVX, the only feature the function enables.
+            #[allow(unsafe_code)]
+            return unsafe { tanh_in_place_avx(v) };
+        }
+    }
+    tanh_in_place_portable(v);
+}
+
+fn tanh_in_place_portable(v: &mut [f64]) {
+    for x in v.iter_mut() {
+        *x = tanh(*x);
+    }
+}
+
+#[cfg(target_arch = "x86_64")]
+#[target_feature(enable = "avx")]
+fn tanh_in_place_avx(v: &mut [f64]) {
+    for x in v.iter_mut() {
+        *x = tanh(*x);
+    }
+}
+
+/// eˣ for 0 ≤ x ≤ 40 (and NaN), the algorithm of FreeBSD's `e_exp.c` as
+/// the `libm` crate ports it, step for step, without its branches for
+/// overflow, underflow and tiny arguments (none arises on this range) and
+/// with the final scaling by 2ᵏ as one exact product (y·2ᵏ stays normal
+/// for k ≤ 58): the same IEEE operations in the same order, so the same
+/// bits as `libm::exp` (unit test over the range and at its branch
+/// points). Reduction x = k·ln 2 + r with k = ⌊x/ln 2 + ½⌋ above 1.5 ln 2,
+/// k = 1 above ½ ln 2, else 0; then eʳ = 1 + r + r·c/(2 − c) with c from
+/// a degree-5 Remez polynomial (error < 2⁻⁵⁹; the source's comment).
+#[inline(always)]
+fn exp_mid(x: f64) -> f64 {
+    // the source's constants by their bits (its comments give them so)
+    const LN2HI: f64 = f64::from_bits(0x3fe6_2e42_fee0_0000);
+    const LN2LO: f64 = f64::from_bits(0x3dea_39ef_3579_3c76);
+    const INVLN2: f64 = f64::from_bits(0x3ff7_1547_652b_82fe);
+    const P1: f64 = f64::from_bits(0x3fc5_5555_5555_553e);
+    const P2: f64 = f64::from_bits(0xbf66_c16c_16be_bd93);
+    const P3: f64 = f64::from_bits(0x3f11_566a_af25_de2c);
+    const P4: f64 = f64::from_bits(0xbebb_bd41_c5d2_6bf1);
+    const P5: f64 = f64::from_bits(0x3e66_3769_72be_a4d0);
+    // the source compares the high word of |x|: above 0x3fd62e42 (½ ln 2)
+    // and from 0x3ff0a2b2 (1.5 ln 2); for x ≥ 0 the same as these compares
+    const HALF_LN2_WORD_END: f64 = f64::from_bits(0x3fd6_2e42_ffff_ffff);
+    const THREE_HALF_LN2_WORD: f64 = f64::from_bits(0x3ff0_a2b2_0000_0000);
+    // the source's `(INVLN2·x + ½) as i32`, by floating-point steps that
+    // vectorise: for 0 ≤ v < 2⁵¹, (v + 2⁵²) − 2⁵² is v rounded to the
+    // nearest whole number (exact), one less where that rounded up
+    const TWO_52: f64 = 4_503_599_627_370_496.0;
+    let v = INVLN2 * x + 0.5;
+    let nearest = (v + TWO_52) - TWO_52;
+    let k_round = if nearest > v { nearest - 1.0 } else { nearest };
+    let k = if x >= THREE_HALF_LN2_WORD {
+        k_round
+    } else if x > HALF_LN2_WORD_END {
+        1.0
+    } else {
+        0.0
+    };
+    // k = 0: hi = x − 0 = x, lo = 0, r = x, as the source's own branch
+    let hi = x - k * LN2HI;
+    let lo = k * LN2LO;
+    let r = hi - lo;
+    let rr = r * r;
+    let c = r - rr * (P1 + rr * (P2 + rr * (P3 + rr * (P4 + rr * P5))));
+    let y = 1.0 + (r * c / (2.0 - c) - lo + hi);
+    // 2ᵏ from its bits: k + 2⁵² holds k in its low bits (k is a whole
+    // number, 0 ≤ k ≤ 58; 0 for NaN)
+    let k_bits = (k + TWO_52).to_bits() - TWO_52.to_bits();
+    let two_k = f64::from_bits((k_bits + 1023) << 52);
+    y * two_k
 }
 
 struct Parts<'a> {
@@ -319,6 +551,7 @@ struct Parts<'a> {
 #[cfg(test)]
 mod tests {
     use super::*;
+    use crate::fixedmath::FixedMath;
     use crate::prec::FD_STEP;
     use approx::assert_abs_diff_eq;
     use rand::{Rng, SeedableRng};
@@ -357,6 +590,169 @@ mod tests {
         assert!((tanh(800.0) - 1.0).abs() < f64::EPSILON);
         assert!((tanh(-800.0) + 1.0).abs() < f64::EPSILON);
         assert!(tanh(f64::NAN).is_nan());
+    }
+
+    /// The formula of [`tanh`] with the `libm` crate's own `exp` (what it
+    /// called before [`exp_mid`]).
+    fn tanh_by_libm(x: f64) -> f64 {
+        let ax = x.abs();
+        if ax < 0.02 {
+            let x2 = x * x;
+            return x * (1.0 + x2 * (-1.0 / 3.0 + x2 * (2.0 / 15.0 - x2 * (17.0 / 315.0))));
+        }
+        let e = (2.0 * ax).exp_fixed();
+        (1.0 - 2.0 / (e + 1.0)).copysign(x)
+    }
+
+    /// Arguments for the bit-for-bit checks: a dense grid, every branch
+    /// point of the exponential and its neighbours, random bit patterns.
+    fn awkward_arguments() -> Vec<f64> {
+        let mut xs: Vec<f64> = (-2_000_000..=2_000_000)
+            .map(|i| f64::from(i) * 1.3e-5)
+            .collect();
+        for b in [
+            0x3fd6_2e42_ffff_ffff_u64,
+            0x3fd6_2e43_0000_0000,
+            0x3ff0_a2b2_0000_0000,
+            0x3ff0_a2b1_ffff_ffff,
+            0.02_f64.to_bits(),
+            20.0_f64.to_bits(),
+            40.0_f64.to_bits(),
+        ] {
+            for d in 0..5_u64 {
+                for v in [f64::from_bits(b + d), f64::from_bits(b - d)] {
+                    xs.extend([v, -v, 0.5 * v, -0.5 * v]);
+                }
+            }
+        }
+        let mut rng = Xoshiro256PlusPlus::seed_from_u64(99);
+        for _ in 0..200_000 {
+            xs.push(f64::from_bits(rng.random::<u64>()));
+            xs.push(rng.random_range(-30.0..30.0));
+        }
+        xs.extend([
+            0.0,
+            -0.0,
+            1e-300,
+            -5e-324,
+            1e300,
+            f64::INFINITY,
+            f64::NEG_INFINITY,
+        ]);
+        xs
+    }
+
+    #[test]
+    fn exp_mid_is_libm_exp_bit_for_bit() {
+        let mut rng = Xoshiro256PlusPlus::seed_from_u64(98);
+        let mut xs: Vec<f64> = (0..=4_000_000).map(|i| f64::from(i) * 1e-5).collect();
+        xs.extend((0..200_000).map(|_| rng.random_range(0.0..40.0)));
+        xs.extend([
+            f64::from_bits(0x3fd6_2e42_ffff_ffff),
+            f64::from_bits(0x3fd6_2e43_0000_0000),
+            f64::from_bits(0x3ff0_a2b1_ffff_ffff),
+            f64::from_bits(0x3ff0_a2b2_0000_0000),
+        ]);
+        for x in xs {
+            assert_eq!(exp_mid(x).to_bits(), libm::exp(x).to_bits(), "exp({x:e})");
+        }
+        assert!(exp_mid(f64::NAN).is_nan());
+    }
+
+    #[test]
+    fn tanh_is_the_libm_formula_bit_for_bit_in_both_builds() {
+        let xs = awkward_arguments();
+        let mut portable = xs.clone();
+        tanh_in_place_portable(&mut portable);
+        let mut dispatched = xs.clone();
+        tanh_in_place(&mut dispatched);
+        for ((x, p), d) in xs.iter().zip(&portable).zip(&dispatched) {
+            let want = tanh_by_libm(*x);
+            if want.is_nan() {
+                assert!(tanh(*x).is_nan() && p.is_nan() && d.is_nan(), "tanh({x:e})");
+                continue;
+            }
+            assert_eq!(tanh(*x).to_bits(), want.to_bits(), "tanh({x:e})");
+            assert_eq!(p.to_bits(), want.to_bits(), "portable tanh({x:e})");
+            assert_eq!(d.to_bits(), want.to_bits(), "dispatched tanh({x:e})");
+        }
+    }
+
+    /// The forward pass and back-propagation as ndarray's operations did
+    /// them before the fused loops (the reference for bit-for-bit checks).
+    fn ndarray_forward_backprop(
+        arch: &Architecture,
+        w: &[f64],
+        x: ArrayView2<f64>,
+        t: ArrayView1<f64>,
+    ) -> (Array1<f64>, f64, Array1<f64>) {
+        let p = arch.split(w);
+        let lay = arch.layout();
+        let mut act = crate::linalg::matmul(x, p.input_w.t());
+        act += &p.hidden_b;
+        act.mapv_inplace(tanh_by_libm);
+        let y = act.dot(&p.output_w) + p.output_b;
+        let r = &y - &t;
+        let e_d = 0.5 * r.dot(&r);
+        let mut g = Array1::zeros(arch.n_params());
+        let mut delta = act.mapv(|a| 1.0 - a * a);
+        delta *= &p.output_w;
+        delta *= &r.view().insert_axis(Axis(1));
+        let g_w = crate::linalg::matmul(delta.t(), x);
+        g.slice_mut(s![..lay.hidden_bias])
+            .assign(&Array1::from_iter(g_w.iter().copied()));
+        g.slice_mut(s![lay.hidden_bias..lay.output_weights])
+            .assign(&delta.sum_axis(Axis(0)));
+        g.slice_mut(s![lay.output_weights..lay.output_bias])
+            .assign(&act.t().dot(&r));
+        g[lay.output_bias] = r.sum();
+        (y, e_d, g)
+    }
+
+    #[test]
+    fn fused_passes_give_ndarrays_bits() {
+        for (d, h, n, seed) in [
+            (8, 1, 37, 21),
+            (8, 10, 741, 22),
+            (3, 7, 9, 23),
+            (30, 20, 200, 24),
+            (2, 16, 1, 25),
+        ] {
+            let (arch, w, x, t) = random_problem(d, h, n, seed);
+            let (y0, e0, g0) = ndarray_forward_backprop(&arch, &w, x.view(), t.view());
+            let (e1, g1) = arch.data_error_gradient(&w, x.view(), t.view());
+            let y1 = arch.predict(&w, x.view());
+            assert_eq!(e1.to_bits(), e0.to_bits(), "E_D, d {d} h {h}");
+            for (a, b) in y1.iter().zip(&y0) {
+                assert_eq!(a.to_bits(), b.to_bits(), "y, d {d} h {h}");
+            }
+            for (k, (a, b)) in g1.iter().zip(&g0).enumerate() {
+                assert_eq!(a.to_bits(), b.to_bits(), "gradient {k}, d {d} h {h}");
+            }
+        }
+        // both builds of the hidden sums against matmul + b
+        let (arch, w, x, _) = random_problem(9, 13, 53, 26);
+        let p = arch.split(&w);
+        let b = p.hidden_b.to_vec();
+        let mut want = crate::linalg::matmul(x.view(), p.input_w.t());
+        want += &p.hidden_b;
+        let got = hidden_sums(x.view(), p.input_w, &b);
+        let wt: Vec<f64> = (0..9).flat_map(|i| p.input_w.column(i).to_vec()).collect();
+        let mut portable = vec![0.0; 53 * 13];
+        hidden_sums_body(x.view(), &wt, &b, &mut portable);
+        for ((g, p), w) in got.iter().zip(&portable).zip(want.iter()) {
+            assert_eq!(g.to_bits(), w.to_bits());
+            assert_eq!(p.to_bits(), w.to_bits());
+        }
+        let xs: Vec<f64> = (0..29).map(|i| f64::from(i).sin_fixed() * 1e3).collect();
+        let ys: Vec<f64> = (0..29).map(|i| f64::from(i).cos_fixed()).collect();
+        for len in 0..29 {
+            let want = ArrayView1::from(&xs[..len]).dot(&ArrayView1::from(&ys[..len]));
+            assert_eq!(
+                unrolled_dot(&xs[..len], &ys[..len]).to_bits(),
+                want.to_bits()
+            );
+        }
     }
 
     #[test]
