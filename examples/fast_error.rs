@@ -106,12 +106,7 @@ fn main() {
             // the exact total variance in scaled target units
             let sp = t.committee.predict_scaled(exact.scaled.view());
             let var = sp.var.to_vec();
-            let scale = t
-                .committee
-                .gross_errors
-                .as_ref()
-                .and_then(|g| g.model_var_scale)
-                .unwrap_or(1.0);
+            let scale = t.committee.model_var_scale().unwrap_or(1.0);
             let changes = truncation_changes(&t.committee, exact.scaled.view(), &SHARES);
             for (share, ch) in SHARES.iter().zip(&changes) {
                 let mut worst = (0.0f64, 0.0f64);

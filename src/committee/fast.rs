@@ -733,22 +733,6 @@ impl FastProcessProbe {
         self.0.cut
     }
 
-    /// The fast path of `k` with its cut chosen as [`Committee::fast`]
-    /// chooses it: against `row_var`, each calibration row's variance
-    /// without the process.
-    pub fn with_row_var(
-        k: &ResidualKriging,
-        calibration: ArrayView2<f64>,
-        row_var: &[f64],
-    ) -> Option<Self> {
-        FastProcess::new(k, calibration, Some(row_var)).map(FastProcessProbe)
-    }
-
-    /// The longer cut a failing row is tried at.
-    pub fn retry_cut(&self) -> f64 {
-        self.0.retry_cut
-    }
-
     /// Every row of `x` at cut `cut`: mean, variance, their bounds and the
     /// rows inside.
     pub fn rows_at(&self, cut: f64, x: ArrayView2<f64>) -> Vec<ProcessRow> {
@@ -760,10 +744,9 @@ impl FastProcessProbe {
     /// Per row of `x` at cut `cut`: the bounds on the mean's and the
     /// variance's error.
     pub fn bounds_at(&self, cut: f64, x: ArrayView2<f64>) -> Vec<(f64, f64)> {
-        let mut p = self.0.clone();
-        p.cut = cut;
-        x.axis_chunks_iter(Axis(0), FAST_BLOCK_ROWS)
-            .flat_map(|b| p.predict(b).into_iter().map(|r| (r.2, r.3)))
+        self.rows_at(cut, x)
+            .into_iter()
+            .map(|r| (r.2, r.3))
             .collect()
     }
 

@@ -383,7 +383,7 @@ impl Committee {
 
     /// The factor c on the committee's model part (parameter variance and
     /// spread) when the gross-error refit chose one.
-    pub(crate) fn model_var_scale(&self) -> Option<f64> {
+    pub fn model_var_scale(&self) -> Option<f64> {
         self.gross_errors.as_ref().and_then(|g| g.model_var_scale)
     }
 
