@@ -396,15 +396,7 @@ pub fn run(a: TrainArgs) -> anyhow::Result<()> {
             );
             let failed = c.candidates.iter().filter(|c| c.failure.is_some()).count();
             let ns = &c.selection.noise;
-            let noise_kind = match (ns.varying, ns.constant_nlpd, ns.varying_nlpd) {
-                (true, Some(cn), Some(vn)) => format!(
-                    "noise varies with the inputs (held-out NLPD {vn:.3} against {cn:.3} with constant noise), median noise sd"
-                ),
-                (false, Some(cn), Some(vn)) => format!(
-                    "constant noise (held-out NLPD {cn:.3} against {vn:.3} with varying noise), noise sd"
-                ),
-                _ => "constant noise, noise sd".to_string(),
-            };
+            let noise_kind = noise_kind(ns);
             let ks = &c.selection.kriging;
             let kriging = match (&c.kriging, ks.kriging_nlpd, ks.committee_nlpd) {
                 (Some(k), Some(kn), Some(cn)) => format!(
@@ -458,6 +450,27 @@ pub fn run(a: TrainArgs) -> anyhow::Result<()> {
 
 /// Warnings of training through a schema, on stderr. Derivation warnings
 /// are shown for the first rows only, with a count of the rest.
+/// How the noise model was chosen, for the training summary: the two
+/// held-out NLPDs and, when the one-standard-error rule kept constant noise
+/// although varying noise scored lower, by how many standard errors.
+fn noise_kind(ns: &mettle::committee::NoiseSelection) -> String {
+    match (ns.varying, ns.constant_nlpd, ns.varying_nlpd) {
+        (true, Some(cn), Some(vn)) => format!(
+            "noise varies with the inputs (held-out NLPD {vn:.3} against {cn:.3} with constant noise), median noise sd"
+        ),
+        (false, Some(cn), Some(vn)) => match ns.varying_margin_se {
+            Some(m) if m > 0.0 => format!(
+                "constant noise (varying noise scored better on the held-out part by only {m:.2} \
+                 standard errors: the simpler model is kept), noise sd"
+            ),
+            _ => format!(
+                "constant noise (held-out NLPD {cn:.3} against {vn:.3} with varying noise), noise sd"
+            ),
+        },
+        _ => "constant noise, noise sd".to_string(),
+    }
+}
+
 fn print_schema_report(r: &SchemaTrainReport, data: &std::path::Path) {
     for line in r.lines(&data.display().to_string(), "--drop-incomplete-rows") {
         eprintln!("{line}");

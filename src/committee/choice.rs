@@ -25,6 +25,10 @@ pub(super) struct Choice {
     /// Share of gross errors and error shape on the held-out part, when
     /// asked for.
     pub gross: Option<GrossErrorModel>,
+    /// The varying-noise combination's lead over the best constant-noise
+    /// one in standard errors, when both were judged
+    /// ([`super::NoiseSelection::varying_margin_se`]).
+    pub varying_margin_se: Option<f64>,
 }
 
 impl Choice {
@@ -55,7 +59,9 @@ impl Choice {
                 choices.push((k, j.trial.varying, true));
             }
         }
-        let Some(&(_, varying, use_kriging)) = parsimonious(&choices, &judged, split) else {
+        let Some((&(_, varying, use_kriging), varying_margin_se)) =
+            parsimonious(&choices, &judged, split)
+        else {
             return Err(Error::AllCandidatesFailed {
                 reasons: format!(
                     "the residual process could not be fitted: {}",
@@ -84,6 +90,7 @@ impl Choice {
                 process: chosen.trial.process,
                 kriging,
                 gross: chosen.kriging_gross,
+                varying_margin_se,
             }
         } else {
             Choice {
@@ -91,6 +98,7 @@ impl Choice {
                 process: None,
                 kriging,
                 gross: chosen.committee_gross,
+                varying_margin_se,
             }
         })
     }
@@ -114,6 +122,9 @@ impl Choice {
 /// differences of Gaussian NLPD of the two held-out predictions,
 /// sd(d)/√n ([`paired_se`]); the scores themselves are those judged as the
 /// model will predict (two-part NLPD when gross errors are estimated).
+/// Beside the choice, the lead m = (score_constant − score_varying)/SE of
+/// the best varying-noise combination, when both noise models were judged
+/// (varying noise is chosen exactly when m > [`NOISE_PARSIMONY_SE`]).
 ///
 /// Why: the varying-noise committee wins the held-out NLPD on some data
 /// by small margins while its mean is less accurate (issue 29's inner
@@ -122,17 +133,16 @@ fn parsimonious<'c>(
     choices: &'c [(f64, bool, bool)],
     judged: &[Judged],
     split: &HeldOutSplit,
-) -> Option<&'c (f64, bool, bool)> {
+) -> Option<(&'c (f64, bool, bool), Option<f64>)> {
+    let best_of = |varying: bool| {
+        choices
+            .iter()
+            .filter(|c| c.1 == varying)
+            .min_by(|a, b| a.0.total_cmp(&b.0))
+    };
     let best = choices.iter().min_by(|a, b| a.0.total_cmp(&b.0))?;
-    if !best.1 {
-        return Some(best);
-    }
-    let Some(constant) = choices
-        .iter()
-        .filter(|c| !c.1)
-        .min_by(|a, b| a.0.total_cmp(&b.0))
-    else {
-        return Some(best);
+    let (Some(varying), Some(constant)) = (best_of(true), best_of(false)) else {
+        return Some((best, None));
     };
     let heldout = |&(_, varying, kriged): &(f64, bool, bool)| {
         let j = judged.iter().find(|j| j.trial.varying == varying)?;
@@ -142,18 +152,22 @@ fn parsimonious<'c>(
             Some(&j.trial.committee_heldout)
         }
     };
-    let (Some(a), Some(b)) = (heldout(best), heldout(constant)) else {
-        return Some(best);
+    let (Some(a), Some(b)) = (heldout(varying), heldout(constant)) else {
+        return Some((best, None));
     };
     let se = paired_se(
         &row_nlpd(a, split.t_ho.view()),
         &row_nlpd(b, split.t_ho.view()),
     );
-    Some(if constant.0 - best.0 <= NOISE_PARSIMONY_SE * se {
-        constant
-    } else {
-        best
-    })
+    let margin = (constant.0 - varying.0) / se;
+    Some((
+        if margin > NOISE_PARSIMONY_SE {
+            varying
+        } else {
+            constant
+        },
+        Some(margin),
+    ))
 }
 
 /// Per-row Gaussian NLPD of a held-out prediction (`mean`, `var` scaled)

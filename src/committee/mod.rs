@@ -202,6 +202,13 @@ pub struct NoiseSelection {
     pub varying_nlpd: Option<f64>,
     /// Candidates whose varying-noise fit failed, with the reason.
     pub varying_failures: Vec<String>,
+    /// By how many standard errors of the paired per-row held-out
+    /// difference the best varying-noise combination's score lay below the
+    /// best constant-noise one's (negative: above it), when both were
+    /// judged; varying noise is kept only above
+    /// [`crate::prec::NOISE_PARSIMONY_SE`] (the one-standard-error rule).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub varying_margin_se: Option<f64>,
 }
 
 /// A trained committee.

@@ -36,6 +36,7 @@ impl<'t> NoiseModels<'t> {
             varying_failures: varying
                 .as_ref()
                 .map_or_else(Vec::new, |v| v.failures.clone()),
+            varying_margin_se: None,
         };
         if requested == NoiseMode::Varying && selection.varying_nlpd.is_none() {
             return Err(Error::AllCandidatesFailed {

@@ -90,6 +90,7 @@ pub fn train_committee(
     // 8. the committee
     let mut noise = models.selection.clone();
     noise.varying = choice.varying;
+    noise.varying_margin_se = choice.varying_margin_se;
     let by_size = models.by_size(choice.varying);
     let parts = Parts {
         split: &split,
