@@ -114,6 +114,9 @@ impl Choice {
     }
 }
 
+/// A judged combination: (held-out score, varying noise, kriged).
+type Scored = (f64, bool, bool);
+
 /// The combination (held-out score, varying, kriged) with the least score,
 /// unless it has varying noise and the best constant-noise combination's
 /// score is within [`NOISE_PARSIMONY_SE`] standard errors of it: then that
@@ -130,10 +133,10 @@ impl Choice {
 /// by small margins while its mean is less accurate (issue 29's inner
 /// cross-validation on the energy data; docs/benchmarks.md).
 fn parsimonious<'c>(
-    choices: &'c [(f64, bool, bool)],
+    choices: &'c [Scored],
     judged: &[Judged],
     split: &HeldOutSplit,
-) -> Option<(&'c (f64, bool, bool), Option<f64>)> {
+) -> Option<(&'c Scored, Option<f64>)> {
     let best_of = |varying: bool| {
         choices
             .iter()
@@ -144,7 +147,7 @@ fn parsimonious<'c>(
     let (Some(varying), Some(constant)) = (best_of(true), best_of(false)) else {
         return Some((best, None));
     };
-    let heldout = |&(_, varying, kriged): &(f64, bool, bool)| {
+    let heldout = |&(_, varying, kriged): &Scored| {
         let j = judged.iter().find(|j| j.trial.varying == varying)?;
         if kriged {
             j.trial.kriged.as_ref().map(|k| &k.1)
