@@ -177,6 +177,17 @@ fn pack_rows<const MR: usize>(a: ArrayView2<f64>, i0: usize, out: &mut [f64]) {
 /// product rounded and then a sum rounded (Rust never fuses them).
 #[inline(always)]
 fn block<const MR: usize, const NR: usize>(pa: &[f64], pb: &[f64]) -> [[f64; NR]; MR] {
+    register_block::<MR, NR>(pa, pb)
+}
+
+/// [`block`] for the crate's own fused loops: `pa` holds a_rk at k·MR + r,
+/// `pb` b_kc at k·NR + c; acc[r][c] = 0 + Σ_k a_rk·b_kc in increasing k
+/// (as many k as both slices hold).
+#[inline(always)]
+pub(crate) fn register_block<const MR: usize, const NR: usize>(
+    pa: &[f64],
+    pb: &[f64],
+) -> [[f64; NR]; MR] {
     let mut acc = [[0.0; NR]; MR];
     for (ak, bk) in pa.chunks_exact(MR).zip(pb.chunks_exact(NR)) {
         let ak: &[f64; MR] = ak.try_into().expect("MR values");

@@ -410,8 +410,8 @@ fn hidden_sums_avx(x: ArrayView2<f64>, wt: &[f64], b: &[f64], out: &mut [f64]) {
 /// Rows per register block of [`hidden_sums_body`].
 const HIDDEN_ROWS: usize = 8;
 /// Hidden units per register block of [`hidden_sums_body`] (one AVX
-/// vector); H is padded to a multiple with zero weights, whose sums are
-/// not stored.
+/// vector); the last block's missing units have zero weights, and their
+/// sums are not stored.
 const HIDDEN_UNITS: usize = 4;
 
 #[inline(always)]
@@ -431,29 +431,33 @@ fn hidden_sums_body(x: ArrayView2<f64>, wt: &[f64], b: &[f64], out: &mut [f64]) 
             standard.as_slice().expect("standard layout")
         }
     };
-    // Wᵀ padded to hp units: wp[i·hp + j] = W_ji, zero for j ≥ H
-    let hp = h.div_ceil(J) * J;
-    let mut wp = vec![0.0; d * hp];
-    for (dst, src) in wp.chunks_exact_mut(hp).zip(wt.chunks_exact(h)) {
-        dst[..h].copy_from_slice(src);
-    }
-    let whole = n / R * R;
-    for n0 in (0..whole).step_by(R) {
-        let x_blk = &xs[n0 * d..(n0 + R) * d];
-        for j0 in (0..hp).step_by(J) {
-            let mut acc = [[0.0; J]; R];
-            for i in 0..d {
-                let w: &[f64; J] = wp[i * hp + j0..i * hp + j0 + J]
-                    .try_into()
-                    .expect("J weights");
-                for (r, acc_r) in acc.iter_mut().enumerate() {
-                    let xv = x_blk[r * d + i];
-                    for (a, wj) in acc_r.iter_mut().zip(w) {
-                        *a += xv * wj;
-                    }
+    // Wᵀ in panels of J units: panel g holds W_(gJ+c),i at i·J + c, zero
+    // for units beyond H
+    let groups = h.div_ceil(J);
+    let mut wp = vec![0.0; groups * d * J];
+    for (g, panel) in wp.chunks_exact_mut((d * J).max(1)).enumerate().take(groups) {
+        for (i, dst) in panel.chunks_exact_mut(J).enumerate() {
+            for (c, o) in dst.iter_mut().enumerate() {
+                if g * J + c < h {
+                    *o = wt[i * h + g * J + c];
                 }
             }
-            let cols = J.min(h - j0.min(h));
+        }
+    }
+    // R rows of X side by side: xt[i·R + r] = x_(n0+r),i
+    let mut xt = vec![0.0; d * R];
+    let whole = n / R * R;
+    for n0 in (0..whole).step_by(R) {
+        for (r, x_r) in xs[n0 * d..(n0 + R) * d].chunks_exact(d.max(1)).enumerate() {
+            for (i, v) in x_r.iter().enumerate() {
+                xt[i * R + r] = *v;
+            }
+        }
+        for g in 0..groups {
+            let j0 = g * J;
+            // acc[r][c] = 0 + Σ_i x_(n0+r),i · W_(j0+c),i, in increasing i
+            let acc = crate::linalg::register_block::<R, J>(&xt, &wp[g * d * J..(g + 1) * d * J]);
+            let cols = J.min(h - j0);
             for (r, acc_r) in acc.iter().enumerate() {
                 let row = &mut out[(n0 + r) * h + j0..(n0 + r) * h + j0 + cols];
                 for ((o, a), bj) in row.iter_mut().zip(acc_r).zip(&b[j0..j0 + cols]) {
