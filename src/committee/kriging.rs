@@ -60,7 +60,7 @@
 //! sample) enter the process, so that its cost, O(N³) per evaluation,
 //! stays bounded on large archives.
 
-use crate::fixedmath::FixedMath;
+use crate::fixedmath::{exp_in_place, FixedMath};
 use std::cell::RefCell;
 use std::sync::{Arc, OnceLock};
 
@@ -184,9 +184,10 @@ fn prior(v: f64, (centre, sd): (f64, f64)) -> (f64, f64) {
 
 /// [`kernel`]`(x, x, length, 1.0)` into `out` (reshaped when it is not
 /// N × N), the same bits: only the register blocks of X·Xᵀ that reach the
-/// diagonal are formed and only the lower triangle is exponentiated, then
-/// mirrored. The matrix is symmetric bit for bit: x_ik·x_jk = x_jk·x_ik
-/// and both sums run in increasing k, and na_i + na_j = na_j + na_i.
+/// diagonal are formed and only the lower triangle is exponentiated (by
+/// [`exp_in_place`], the bits of `libm::exp`), then mirrored. The matrix
+/// is symmetric bit for bit: x_ik·x_jk = x_jk·x_ik and both sums run in
+/// increasing k, and na_i + na_j = na_j + na_i.
 pub(super) fn unit_kernel_into(x: ArrayView2<f64>, length: &[f64], out: &mut Array2<f64>) {
     let n = x.nrows();
     let inv = Array1::from_iter(length.iter().map(|l| 1.0 / l));
@@ -198,9 +199,17 @@ pub(super) fn unit_kernel_into(x: ArrayView2<f64>, length: &[f64], out: &mut Arr
     multiply_lower_into(a.view(), a.t(), out.view_mut());
     let signal_var = 1.0;
     for (i, mut row) in out.outer_iter_mut().enumerate() {
-        for (j, v) in row.iter_mut().enumerate().take(i + 1) {
+        let lower = &mut row
+            .as_slice_mut()
+            .expect("a standard-layout row is contiguous")[..=i];
+        for (j, v) in lower.iter_mut().enumerate() {
             let d2 = (na[i] + na[j] - 2.0 * *v).max(0.0);
-            *v = signal_var * (-0.5 * d2).exp_fixed();
+            *v = -0.5 * d2;
+        }
+        // e^(−½d²) as `exp_fixed` gives it, vectorised
+        exp_in_place(lower);
+        for v in lower.iter_mut() {
+            *v *= signal_var;
         }
     }
     mirror_lower(out);
