@@ -137,7 +137,7 @@ fn exp_in_place_body(v: &mut [f64]) {
             *x = exp_core(*x);
         }
         for (x, o) in chunk.iter_mut().zip(&orig) {
-            if !(o.abs() < EXP_CORE_LIMIT) {
+            if o.is_nan() || o.abs() >= EXP_CORE_LIMIT {
                 *x = libm::exp(*o);
             }
         }
