@@ -19,7 +19,7 @@
 //!
 //! - Products C = A·B ([`matmul`]) and AᵀA ([`gram`]): each element is
 //!   Σ_k a_ik b_kj summed from 0 in increasing k, in register blocks of
-//!   4 × 4 or 4 × 8 elements with both operands packed first (the blocked
+//!   4 × 4 or 6 × 8 elements with both operands packed first (the blocked
 //!   product of Golub & Van Loan 2013, *Matrix Computations*, 4th ed.,
 //!   §1.5; Goto & van de Geijn 2008, ACM TOMS 34(3):12). Blocking changes
 //!   only which elements are computed together, not the order of any sum,
