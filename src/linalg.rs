@@ -19,7 +19,7 @@
 //!
 //! - Products C = A·B ([`matmul`]) and AᵀA ([`gram`]): each element is
 //!   Σ_k a_ik b_kj summed from 0 in increasing k, in register blocks of
-//!   4 × 4 or 4 × 8 elements with both operands packed first (the blocked
+//!   4 × 4 or 6 × 8 elements with both operands packed first (the blocked
 //!   product of Golub & Van Loan 2013, *Matrix Computations*, 4th ed.,
 //!   §1.5; Goto & van de Geijn 2008, ACM TOMS 34(3):12). Blocking changes
 //!   only which elements are computed together, not the order of any sum,
@@ -40,6 +40,8 @@
 //!   decomposes (k = 100–200). Training keeps the Jacobi routine, so no
 //!   trained model changes.
 
+use std::cell::RefCell;
+
 use crate::fixedmath::FixedMath;
 use ndarray::{Array1, Array2, ArrayView1, ArrayView2, ArrayViewMut2, Axis};
 
@@ -50,15 +52,32 @@ pub const CHOL_BLOCK: usize = 48;
 /// 2013, §8.5.3).
 pub const JACOBI_MAX_SWEEPS: usize = 60;
 
+/// Doubles of packing buffer a thread keeps between products (8 MB each);
+/// a larger buffer is freed after its product.
+const PACK_KEEP: usize = 1 << 20;
+
+thread_local! {
+    /// The packed A and B of the last product on this thread, kept so that
+    /// the next one neither allocates nor zero-fills them.
+    static PACKS: RefCell<(Vec<f64>, Vec<f64>)> = const { RefCell::new((Vec::new(), Vec::new())) };
+}
+
+/// The first `len` doubles of `buf`, grown when short (old contents kept:
+/// every element read is written first).
+fn sized(buf: &mut Vec<f64>, len: usize) -> &mut [f64] {
+    if buf.len() < len {
+        buf.resize(len, 0.0);
+    }
+    &mut buf[..len]
+}
+
 /// B packed in panels of `NR` columns: panel p holds b[k, p·NR + c] at
 /// k·NR + c, zero beyond the last column.
 #[inline(always)]
-fn pack_columns<const NR: usize>(b: ArrayView2<f64>) -> Vec<f64> {
+fn pack_columns<const NR: usize>(b: ArrayView2<f64>, out: &mut [f64]) {
     let (n, p) = b.dim();
-    let panels = p.div_ceil(NR);
-    let mut out = vec![0.0; panels * n * NR];
     if n == 0 {
-        return out;
+        return;
     }
     let by_rows = b.strides()[1].unsigned_abs() <= b.strides()[0].unsigned_abs();
     if by_rows {
@@ -69,26 +88,66 @@ fn pack_columns<const NR: usize>(b: ArrayView2<f64>) -> Vec<f64> {
                     for (pi, part) in r.chunks(NR).enumerate() {
                         let at = pi * n * NR + k * NR;
                         out[at..at + part.len()].copy_from_slice(part);
+                        out[at + part.len()..at + NR].fill(0.0);
                     }
                 }
                 None => {
-                    for (j, v) in row.iter().enumerate() {
-                        out[(j / NR) * n * NR + k * NR + j % NR] = *v;
+                    for (pi, chunk) in out.chunks_exact_mut(n * NR).enumerate() {
+                        let j0 = pi * NR;
+                        let dst = &mut chunk[k * NR..(k + 1) * NR];
+                        for (c, o) in dst.iter_mut().enumerate() {
+                            *o = if j0 + c < p { row[j0 + c] } else { 0.0 };
+                        }
                     }
                 }
             }
         }
     } else {
-        for (pi, chunk) in out.chunks_exact_mut(n * NR).enumerate() {
-            let j0 = pi * NR;
-            for c in 0..NR.min(p - j0) {
-                for (k, v) in b.column(j0 + c).iter().enumerate() {
-                    chunk[k * NR + c] = *v;
+        for pi in 0..p.div_ceil(NR) {
+            pack_panel::<NR>(b, pi * NR, 0, &mut out[pi * n * NR..(pi + 1) * n * NR]);
+        }
+    }
+}
+
+/// Columns j0.. of B as one panel of `NR` columns, rows k0.. only:
+/// b[k, j0 + c] at k·NR + c for k ≥ k0 (the rows above are not written),
+/// zero beyond the last column.
+#[inline(always)]
+fn pack_panel<const NR: usize>(b: ArrayView2<f64>, j0: usize, k0: usize, out: &mut [f64]) {
+    let (n, p) = b.dim();
+    let cols = NR.min(p - j0);
+    let by_rows = b.strides()[1].unsigned_abs() <= b.strides()[0].unsigned_abs();
+    if by_rows {
+        let part = b.slice(ndarray::s![k0.., j0..j0 + cols]);
+        for (row, dst) in part
+            .rows()
+            .into_iter()
+            .zip(out[k0 * NR..].chunks_exact_mut(NR))
+        {
+            match row.as_slice() {
+                Some(r) => dst[..cols].copy_from_slice(r),
+                None => {
+                    for (o, v) in dst.iter_mut().zip(row.iter()) {
+                        *o = *v;
+                    }
+                }
+            }
+            dst[cols..].fill(0.0);
+        }
+    } else {
+        for c in 0..NR {
+            if c < cols {
+                let col = b.column(j0 + c);
+                for (k, v) in col.slice(ndarray::s![k0..]).iter().enumerate() {
+                    out[(k0 + k) * NR + c] = *v;
+                }
+            } else {
+                for k in k0..n {
+                    out[k * NR + c] = 0.0;
                 }
             }
         }
     }
-    out
 }
 
 /// Rows i0.. of A packed as one panel: a[i0 + r, k] at k·MR + r.
@@ -118,6 +177,17 @@ fn pack_rows<const MR: usize>(a: ArrayView2<f64>, i0: usize, out: &mut [f64]) {
 /// product rounded and then a sum rounded (Rust never fuses them).
 #[inline(always)]
 fn block<const MR: usize, const NR: usize>(pa: &[f64], pb: &[f64]) -> [[f64; NR]; MR] {
+    register_block::<MR, NR>(pa, pb)
+}
+
+/// [`block`] for the crate's own fused loops: `pa` holds a_rk at k·MR + r,
+/// `pb` b_kc at k·NR + c; acc[r][c] = 0 + Σ_k a_rk·b_kc in increasing k
+/// (as many k as both slices hold).
+#[inline(always)]
+pub(crate) fn register_block<const MR: usize, const NR: usize>(
+    pa: &[f64],
+    pb: &[f64],
+) -> [[f64; NR]; MR] {
     let mut acc = [[0.0; NR]; MR];
     for (ak, bk) in pa.chunks_exact(MR).zip(pb.chunks_exact(NR)) {
         let ak: &[f64; MR] = ak.try_into().expect("MR values");
@@ -145,60 +215,145 @@ enum Part {
     AllLowerB,
 }
 
-/// C ← C + s·(A·B) in register blocks of MR × NR, each element's sum formed
-/// first (from 0, increasing k) and then added once. The block shape only
-/// groups elements; no sum depends on it.
-#[inline(always)]
-fn product_body<const MR: usize, const NR: usize>(
-    a: ArrayView2<f64>,
-    b: ArrayView2<f64>,
-    s: f64,
-    mut c: ArrayViewMut2<f64>,
-    part: Part,
-) {
-    let (m, n) = a.dim();
-    let p = b.ncols();
-    let packed_b = pack_columns::<NR>(b);
-    let mut packed_a = vec![0.0; n * MR];
-    for i0 in (0..m).step_by(MR) {
-        pack_rows::<MR>(a, i0, &mut packed_a);
-        let rows = MR.min(m - i0);
-        for pi in 0..p.div_ceil(NR) {
-            let j0 = pi * NR;
-            if part == Part::Lower && j0 >= i0 + rows {
-                break;
+/// Where a product writes: the rows of C as slices when each row is
+/// contiguous (found once, not per block), else the view itself.
+enum Target<'a> {
+    Rows(Vec<&'a mut [f64]>),
+    View(ArrayViewMut2<'a, f64>),
+}
+
+impl<'a> Target<'a> {
+    fn new(c: ArrayViewMut2<'a, f64>) -> Self {
+        if c.ncols() <= 1 || c.strides()[1] == 1 {
+            let mut rows = Vec::with_capacity(c.nrows());
+            let mut rest = c;
+            while rest.nrows() > 0 {
+                let (row, tail) = rest.split_at(Axis(0), 1);
+                rows.push(row.into_slice().expect("a contiguous row"));
+                rest = tail;
             }
-            let k0 = if part == Part::AllLowerB {
-                j0.min(n)
-            } else {
-                0
-            };
-            let acc = if n == k0 {
-                [[0.0; NR]; MR]
-            } else {
-                block::<MR, NR>(
-                    &packed_a[k0 * MR..],
-                    &packed_b[pi * n * NR + k0 * NR..(pi + 1) * n * NR],
-                )
-            };
-            let cols = NR.min(p - j0);
-            for (r, acc_r) in acc.iter().enumerate().take(rows) {
-                let mut row = c.row_mut(i0 + r);
-                match row.as_slice_mut() {
-                    Some(out) => {
-                        for (o, v) in out[j0..j0 + cols].iter_mut().zip(acc_r) {
-                            *o += s * v;
-                        }
+            Target::Rows(rows)
+        } else {
+            Target::View(c)
+        }
+    }
+
+    /// c[i0 + r, j0 + cc] += s·acc[r][cc] for r < rows, cc < cols.
+    #[inline(always)]
+    fn add<const MR: usize, const NR: usize>(
+        &mut self,
+        (i0, rows): (usize, usize),
+        (j0, cols): (usize, usize),
+        s: f64,
+        acc: &[[f64; NR]; MR],
+    ) {
+        match self {
+            Target::Rows(out) => {
+                for (row, acc_r) in out[i0..i0 + rows].iter_mut().zip(acc) {
+                    for (o, v) in row[j0..j0 + cols].iter_mut().zip(acc_r) {
+                        *o += s * v;
                     }
-                    None => {
-                        for (cc, v) in acc_r.iter().enumerate().take(cols) {
-                            row[j0 + cc] += s * v;
-                        }
+                }
+            }
+            Target::View(c) => {
+                for (r, acc_r) in acc.iter().enumerate().take(rows) {
+                    for (cc, v) in acc_r.iter().enumerate().take(cols) {
+                        c[[i0 + r, j0 + cc]] += s * v;
                     }
                 }
             }
         }
     }
+}
+
+/// C ← C + s·(A·B) in register blocks of MR × NR, each element's sum formed
+/// first (from 0, increasing k) and then added once. The block shape and
+/// the order in which blocks are visited only group elements; no sum
+/// depends on them. When A has fewer rows than B has columns, A is packed
+/// whole and B one panel at a time (the panel stays in cache while every
+/// row panel of A passes it), else B whole and A one panel at a time; the
+/// packing buffers are the thread's, kept between calls.
+#[inline(always)]
+fn product_body<const MR: usize, const NR: usize>(
+    a: ArrayView2<f64>,
+    b: ArrayView2<f64>,
+    s: f64,
+    c: ArrayViewMut2<f64>,
+    part: Part,
+) {
+    let (m, n) = a.dim();
+    let p = b.ncols();
+    let (mut buf_a, mut buf_b) = PACKS.with(|packs| std::mem::take(&mut *packs.borrow_mut()));
+    let mut target = Target::new(c);
+    let k_start = |j0: usize| {
+        if part == Part::AllLowerB {
+            j0.min(n)
+        } else {
+            0
+        }
+    };
+    let row_panels = m.div_ceil(MR);
+    let col_panels = p.div_ceil(NR);
+    if m < p {
+        let packed_a = sized(&mut buf_a, row_panels * n * MR);
+        if n > 0 {
+            for (ip, panel) in packed_a.chunks_exact_mut(n * MR).enumerate() {
+                pack_rows::<MR>(a, ip * MR, panel);
+            }
+        }
+        let packed_b = sized(&mut buf_b, n * NR);
+        for pi in 0..col_panels {
+            let j0 = pi * NR;
+            let k0 = k_start(j0);
+            pack_panel::<NR>(b, j0, k0, packed_b);
+            for ip in 0..row_panels {
+                let i0 = ip * MR;
+                let rows = MR.min(m - i0);
+                if part == Part::Lower && j0 >= i0 + rows {
+                    continue;
+                }
+                let acc = if n == k0 {
+                    [[0.0; NR]; MR]
+                } else {
+                    block::<MR, NR>(
+                        &packed_a[ip * n * MR + k0 * MR..(ip + 1) * n * MR],
+                        &packed_b[k0 * NR..],
+                    )
+                };
+                target.add::<MR, NR>((i0, rows), (j0, NR.min(p - j0)), s, &acc);
+            }
+        }
+    } else {
+        let packed_b = sized(&mut buf_b, col_panels * n * NR);
+        pack_columns::<NR>(b, packed_b);
+        let packed_a = sized(&mut buf_a, n * MR);
+        for i0 in (0..m).step_by(MR) {
+            pack_rows::<MR>(a, i0, packed_a);
+            let rows = MR.min(m - i0);
+            for pi in 0..col_panels {
+                let j0 = pi * NR;
+                if part == Part::Lower && j0 >= i0 + rows {
+                    break;
+                }
+                let k0 = k_start(j0);
+                let acc = if n == k0 {
+                    [[0.0; NR]; MR]
+                } else {
+                    block::<MR, NR>(
+                        &packed_a[k0 * MR..],
+                        &packed_b[pi * n * NR + k0 * NR..(pi + 1) * n * NR],
+                    )
+                };
+                target.add::<MR, NR>((i0, rows), (j0, NR.min(p - j0)), s, &acc);
+            }
+        }
+    }
+    for buf in [&mut buf_a, &mut buf_b] {
+        if buf.len() > PACK_KEEP {
+            *buf = Vec::new();
+        }
+    }
+    PACKS.with(|packs| *packs.borrow_mut() = (buf_a, buf_b));
 }
 
 /// [`product_body`] compiled for the target's baseline (SSE2 on x86-64):
@@ -213,15 +368,18 @@ fn product_portable(
     product_body::<4, 4>(a, b, s, c, part);
 }
 
-/// [`product_body`] compiled with AVX enabled: 4 × 8 blocks in eight
-/// 4-wide accumulators. The same operations on each element in the same
-/// order (no fused multiply-add: that feature is not enabled, and Rust
-/// never contracts a product and a sum anyway), so the same bits as
-/// [`product_portable`] (unit test); only faster.
+/// [`product_body`] compiled with AVX enabled: 6 × 8 blocks in twelve
+/// 4-wide accumulators (of the sixteen registers; on the build machine's
+/// AMD EPYC about 1.5 times the multiply-adds per second of 4 × 8 blocks,
+/// whose eight chains of additions left the adders idle). The same
+/// operations on each element in the same order (no fused multiply-add:
+/// that feature is not enabled, and Rust never contracts a product and a
+/// sum anyway), so the same bits as [`product_portable`] (unit test); only
+/// faster.
 #[cfg(target_arch = "x86_64")]
 #[target_feature(enable = "avx")]
 fn product_avx(a: ArrayView2<f64>, b: ArrayView2<f64>, s: f64, c: ArrayViewMut2<f64>, part: Part) {
-    product_body::<4, 8>(a, b, s, c, part);
+    product_body::<6, 8>(a, b, s, c, part);
 }
 
 /// C ← C + s·(A·B), by the AVX build where the CPU has AVX, else the
@@ -271,6 +429,17 @@ pub fn multiply_into(a: ArrayView2<f64>, b: ArrayView2<f64>, mut c: ArrayViewMut
     product_add(a, b, 1.0, c, Part::All);
 }
 
+/// C ← A·B on and below the diagonal (C square), each element as by
+/// [`matmul`]; the elements above the diagonal are left zero or hold
+/// products of the register blocks that reach the diagonal.
+///
+/// # Panics
+/// When the shapes do not chain: A is m × n, B n × m, C m × m.
+pub fn multiply_lower_into(a: ArrayView2<f64>, b: ArrayView2<f64>, mut c: ArrayViewMut2<f64>) {
+    c.fill(0.0);
+    product_add(a, b, 1.0, c, Part::Lower);
+}
+
 /// AᵀA (k × k for A of N × k): the lower triangle computed as by
 /// [`matmul`]`(Aᵀ, A)` and mirrored (products commute exactly, so the
 /// mirrored elements equal the computed ones bit for bit).
@@ -282,11 +451,18 @@ pub fn gram(a: ArrayView2<f64>) -> Array2<f64> {
     c
 }
 
-/// Copy the strict lower triangle onto the upper one.
-fn mirror_lower(c: &mut Array2<f64>) {
-    for i in 0..c.nrows() {
-        for j in 0..i {
-            c[[j, i]] = c[[i, j]];
+/// Copy the strict lower triangle onto the upper one, in square tiles so
+/// that the column-wise writes stay in cache.
+pub(crate) fn mirror_lower(c: &mut Array2<f64>) {
+    const TILE: usize = 32;
+    let n = c.nrows();
+    for i0 in (0..n).step_by(TILE) {
+        for j0 in (0..=i0).step_by(TILE) {
+            for i in i0..(i0 + TILE).min(n) {
+                for j in j0..(j0 + TILE).min(i) {
+                    c[[j, i]] = c[[i, j]];
+                }
+            }
         }
     }
 }
@@ -329,21 +505,37 @@ impl Cholesky {
                 l[[i, j]] = a[[i, j]];
             }
         }
+        Self::in_place(l)
+    }
+
+    /// Factor `a` in its own storage (its lower triangle is read), as
+    /// [`Cholesky::new`] does on a copy, with the same bits.
+    pub fn from_matrix(a: Array2<f64>) -> Option<Self> {
+        assert_eq!(a.ncols(), a.nrows(), "a square matrix");
+        if a.is_standard_layout() {
+            Self::in_place(a)
+        } else {
+            Self::new(a.view())
+        }
+    }
+
+    /// The blocked factorisation of the row-major `l` in place.
+    fn in_place(mut l: Array2<f64>) -> Option<Self> {
+        let n = l.nrows();
         for k0 in (0..n).step_by(CHOL_BLOCK) {
             let k1 = (k0 + CHOL_BLOCK).min(n);
             factor_diagonal_block(&mut l, k0, k1)?;
             if k1 < n {
                 solve_panel(&mut l, k0, k1);
                 // A22 ← A22 − L21·L21ᵀ, lower part only
-                let panel = l.slice(ndarray::s![k1.., k0..k1]).to_owned();
-                let update = l.slice_mut(ndarray::s![k1.., k1..]);
-                product_add(panel.view(), panel.t(), -1.0, update, Part::Lower);
+                let (panel, update) =
+                    l.multi_slice_mut((ndarray::s![k1.., k0..k1], ndarray::s![k1.., k1..]));
+                let panel = panel.view();
+                product_add(panel, panel.t(), -1.0, update, Part::Lower);
             }
         }
         for i in 0..n {
-            for j in i + 1..n {
-                l[[i, j]] = 0.0;
-            }
+            l.row_mut(i).slice_mut(ndarray::s![i + 1..]).fill(0.0);
         }
         Some(Cholesky { lower: l })
     }
@@ -439,26 +631,85 @@ impl Cholesky {
 
     /// A⁻¹ = L⁻ᵀ·L⁻¹, symmetric (lower triangle computed, then mirrored).
     pub fn inverse(&self) -> Array2<f64> {
+        let mut out = Array2::zeros((0, 0));
+        self.clone().into_inverse(&mut out);
+        out
+    }
+
+    /// A⁻¹ into `out` (reshaped when it is not n × n), the same bits as
+    /// [`Cholesky::inverse`], with L⁻¹ formed in L's own storage; returns
+    /// that storage, now L⁻¹ (lower triangular), for reuse.
+    ///
+    /// (A⁻¹)_ij = Σ_k x_ki x_kj over k ≥ max(i, j) (L⁻¹ = X is lower
+    /// triangular): rows [i0, i1) of the lower triangle from rows i0.. of
+    /// X, one product per block of rows.
+    pub fn into_inverse(self, out: &mut Array2<f64>) -> Array2<f64> {
         let n = self.lower.nrows();
-        let mut l_inv = Array2::<f64>::eye(n);
-        self.solve_lower_in_place(&mut l_inv, true);
-        // (A⁻¹)_ij = Σ_k x_ki x_kj over k ≥ max(i, j) (L⁻¹ = X is lower
-        // triangular): rows [i0, i1) of the lower triangle from rows i0..
-        // of X, one product per block of rows
-        let mut c = Array2::zeros((n, n));
+        let mut x = self.lower;
+        invert_lower_in_place(&mut x);
+        if out.dim() == (n, n) && out.is_standard_layout() {
+            out.fill(0.0);
+        } else {
+            *out = Array2::zeros((n, n));
+        }
         for i0 in (0..n).step_by(CHOL_BLOCK) {
             let i1 = (i0 + CHOL_BLOCK).min(n);
-            let below = l_inv.slice(ndarray::s![i0.., ..]);
+            let below = x.slice(ndarray::s![i0.., ..]);
             product_add(
                 below.slice(ndarray::s![.., i0..i1]).t(),
                 below.slice(ndarray::s![.., ..i1]),
                 1.0,
-                c.slice_mut(ndarray::s![i0..i1, ..i1]),
+                out.slice_mut(ndarray::s![i0..i1, ..i1]),
                 Part::All,
             );
         }
-        mirror_lower(&mut c);
-        c
+        mirror_lower(out);
+        x
+    }
+}
+
+/// X ← L⁻¹ in L's own storage (row-major, upper triangle zero), blocked by
+/// [`CHOL_BLOCK`] rows: block I starts as the identity's rows I, loses
+/// L[I, ..i0]·X[..i0] (one product, each sum in increasing j; X[..i0] is
+/// lower triangular, so the sums of a column block start at its first
+/// column, skipping terms l_ij·0 that change no element), then
+/// X_i = (X_i − Σ_{i0≤j<i} l_ij X_j) / l_ii within the block, X_i up to
+/// column i (zero beyond). The block is formed aside and written over L's
+/// rows I once they are no longer read.
+fn invert_lower_in_place(x: &mut Array2<f64>) {
+    let n = x.nrows();
+    let mut rows = Array2::<f64>::zeros((CHOL_BLOCK.min(n), n));
+    for i0 in (0..n).step_by(CHOL_BLOCK) {
+        let i1 = (i0 + CHOL_BLOCK).min(n);
+        let mut blk = rows.slice_mut(ndarray::s![..i1 - i0, ..i1]);
+        blk.fill(0.0);
+        for r in 0..i1 - i0 {
+            blk[[r, i0 + r]] = 1.0;
+        }
+        if i0 > 0 {
+            product_add(
+                x.slice(ndarray::s![i0..i1, ..i0]),
+                x.slice(ndarray::s![..i0, ..i0]),
+                -1.0,
+                blk.slice_mut(ndarray::s![.., ..i0]),
+                Part::AllLowerB,
+            );
+        }
+        for i in i0..i1 {
+            let cols = i + 1;
+            let (done, mut rest) = blk.view_mut().split_at(Axis(0), i - i0);
+            let mut xi = rest.row_mut(0);
+            let mut xi = xi.slice_mut(ndarray::s![..cols]);
+            for j in i0..i {
+                let lij = x[[i, j]];
+                xi.zip_mut_with(&done.row(j - i0).slice(ndarray::s![..cols]), |v, d| {
+                    *v -= lij * d
+                });
+            }
+            let d = x[[i, i]];
+            xi.mapv_inplace(|v| v / d);
+        }
+        x.slice_mut(ndarray::s![i0..i1, ..i1]).assign(&blk);
     }
 }
 
@@ -488,13 +739,90 @@ fn factor_diagonal_block(l: &mut Array2<f64>, k0: usize, k1: usize) -> Option<()
     Some(())
 }
 
-/// L21 ← A21·L11⁻ᵀ for the rows below the diagonal block [k0, k1).
+/// Rows solved side by side in [`solve_panel`].
+const PANEL_ROWS: usize = 4;
+
+/// L21 ← A21·L11⁻ᵀ for the rows below the diagonal block [k0, k1):
+/// l_ij = (a_ij − Σ_{k0≤t<j} l_it l_jt) / l_jj, each sum as [`dot`] forms
+/// it (eight interleaved partial sums, combined in a fixed order, then the
+/// rest of the terms one by one). [`PANEL_ROWS`] rows at a time, their
+/// entries side by side, so that the vector lanes run across rows (across
+/// independent sums) while each sum keeps its own order; by the AVX build
+/// where the CPU has AVX, else the portable one, the same bits either way.
 fn solve_panel(l: &mut Array2<f64>, k0: usize, k1: usize) {
+    #[cfg(target_arch = "x86_64")]
+    {
+        if std::arch::is_x86_feature_detected!("avx") {
+            // SAFETY: the CPU has AVX, the only feature the function enables.
+            #[allow(unsafe_code)]
+            return unsafe { solve_panel_avx(l, k0, k1) };
+        }
+    }
+    solve_panel_body::<PANEL_ROWS>(l, k0, k1);
+}
+
+/// [`solve_panel_body`] compiled with AVX enabled (4-wide lanes).
+#[cfg(target_arch = "x86_64")]
+#[target_feature(enable = "avx")]
+fn solve_panel_avx(l: &mut Array2<f64>, k0: usize, k1: usize) {
+    solve_panel_body::<PANEL_ROWS>(l, k0, k1);
+}
+
+#[inline(always)]
+fn solve_panel_body<const R: usize>(l: &mut Array2<f64>, k0: usize, k1: usize) {
     let n = l.nrows();
-    for i in k1..n {
-        for j in k0..k1 {
-            let v = l[[i, j]] - row_dot(l, i, j, k0);
-            l[[i, j]] = v / l[[j, j]];
+    let w = k1 - k0;
+    // rows[t][r] = l[i + r, k0 + t], the panel's rows side by side
+    let mut rows = vec![[0.0; R]; w];
+    for i in (k1..n).step_by(R) {
+        let count = R.min(n - i);
+        {
+            let s = l.as_slice().expect("row-major");
+            for (t, lane) in rows.iter_mut().enumerate() {
+                for (r, v) in lane.iter_mut().enumerate() {
+                    *v = if r < count {
+                        s[(i + r) * n + k0 + t]
+                    } else {
+                        0.0
+                    };
+                }
+            }
+            for j in k0..k1 {
+                let len = j - k0;
+                let lj = &s[j * n + k0..j * n + j];
+                let mut acc = [[0.0; R]; 8];
+                let whole = len / 8 * 8;
+                for (ys, xs) in lj[..whole]
+                    .chunks_exact(8)
+                    .zip(rows[..whole].chunks_exact(8))
+                {
+                    for q in 0..8 {
+                        for r in 0..R {
+                            acc[q][r] += xs[q][r] * ys[q];
+                        }
+                    }
+                }
+                let mut sum = [0.0; R];
+                for (r, v) in sum.iter_mut().enumerate() {
+                    *v = ((acc[0][r] + acc[4][r]) + (acc[1][r] + acc[5][r]))
+                        + ((acc[2][r] + acc[6][r]) + (acc[3][r] + acc[7][r]));
+                }
+                for (y, xs) in lj[whole..].iter().zip(&rows[whole..len]) {
+                    for r in 0..R {
+                        sum[r] += xs[r] * y;
+                    }
+                }
+                let d = s[j * n + j];
+                for r in 0..R {
+                    rows[len][r] = (rows[len][r] - sum[r]) / d;
+                }
+            }
+        }
+        let s = l.as_slice_mut().expect("row-major");
+        for (t, lane) in rows.iter().enumerate() {
+            for (r, v) in lane.iter().enumerate().take(count) {
+                s[(i + r) * n + k0 + t] = *v;
+            }
         }
     }
 }
@@ -831,6 +1159,287 @@ fn implicit_ql(n: usize, d: &mut [f64], e: &mut [f64], z: &mut [f64]) -> bool {
     true
 }
 
+/// The routines as they were before the buffers were kept, the panels
+/// solved four rows at a time and the inverse formed in place (commit
+/// c9d78cb): the oracle of the bit-for-bit tests.
+#[cfg(test)]
+pub(crate) mod former {
+    use super::{block, factor_diagonal_block, pack_rows, row_dot, Part, CHOL_BLOCK};
+    use crate::fixedmath::FixedMath;
+    use ndarray::{Array2, ArrayView2, ArrayViewMut2, Axis};
+
+    /// B packed in panels of `NR` columns: panel p holds b[k, p·NR + c] at
+    /// k·NR + c, zero beyond the last column.
+    #[inline(always)]
+    fn pack_columns<const NR: usize>(b: ArrayView2<f64>) -> Vec<f64> {
+        let (n, p) = b.dim();
+        let panels = p.div_ceil(NR);
+        let mut out = vec![0.0; panels * n * NR];
+        if n == 0 {
+            return out;
+        }
+        let by_rows = b.strides()[1].unsigned_abs() <= b.strides()[0].unsigned_abs();
+        if by_rows {
+            // read B row by row (contiguous when row-major)
+            for (k, row) in b.rows().into_iter().enumerate() {
+                match row.as_slice() {
+                    Some(r) => {
+                        for (pi, part) in r.chunks(NR).enumerate() {
+                            let at = pi * n * NR + k * NR;
+                            out[at..at + part.len()].copy_from_slice(part);
+                        }
+                    }
+                    None => {
+                        for (j, v) in row.iter().enumerate() {
+                            out[(j / NR) * n * NR + k * NR + j % NR] = *v;
+                        }
+                    }
+                }
+            }
+        } else {
+            for (pi, chunk) in out.chunks_exact_mut(n * NR).enumerate() {
+                let j0 = pi * NR;
+                for c in 0..NR.min(p - j0) {
+                    for (k, v) in b.column(j0 + c).iter().enumerate() {
+                        chunk[k * NR + c] = *v;
+                    }
+                }
+            }
+        }
+        out
+    }
+
+    /// C ← C + s·(A·B) in register blocks of MR × NR, each element's sum formed
+    /// first (from 0, increasing k) and then added once. The block shape only
+    /// groups elements; no sum depends on it.
+    #[inline(always)]
+    fn product_body<const MR: usize, const NR: usize>(
+        a: ArrayView2<f64>,
+        b: ArrayView2<f64>,
+        s: f64,
+        mut c: ArrayViewMut2<f64>,
+        part: Part,
+    ) {
+        let (m, n) = a.dim();
+        let p = b.ncols();
+        let packed_b = pack_columns::<NR>(b);
+        let mut packed_a = vec![0.0; n * MR];
+        for i0 in (0..m).step_by(MR) {
+            pack_rows::<MR>(a, i0, &mut packed_a);
+            let rows = MR.min(m - i0);
+            for pi in 0..p.div_ceil(NR) {
+                let j0 = pi * NR;
+                if part == Part::Lower && j0 >= i0 + rows {
+                    break;
+                }
+                let k0 = if part == Part::AllLowerB {
+                    j0.min(n)
+                } else {
+                    0
+                };
+                let acc = if n == k0 {
+                    [[0.0; NR]; MR]
+                } else {
+                    block::<MR, NR>(
+                        &packed_a[k0 * MR..],
+                        &packed_b[pi * n * NR + k0 * NR..(pi + 1) * n * NR],
+                    )
+                };
+                let cols = NR.min(p - j0);
+                for (r, acc_r) in acc.iter().enumerate().take(rows) {
+                    let mut row = c.row_mut(i0 + r);
+                    match row.as_slice_mut() {
+                        Some(out) => {
+                            for (o, v) in out[j0..j0 + cols].iter_mut().zip(acc_r) {
+                                *o += s * v;
+                            }
+                        }
+                        None => {
+                            for (cc, v) in acc_r.iter().enumerate().take(cols) {
+                                row[j0 + cc] += s * v;
+                            }
+                        }
+                    }
+                }
+            }
+        }
+    }
+
+    /// C ← C + s·(A·B) by the former body (the AVX build where the CPU has it).
+    pub(super) fn product_add(
+        a: ArrayView2<f64>,
+        b: ArrayView2<f64>,
+        s: f64,
+        c: ArrayViewMut2<f64>,
+        part: Part,
+    ) {
+        #[cfg(target_arch = "x86_64")]
+        {
+            if std::arch::is_x86_feature_detected!("avx") {
+                // SAFETY: the CPU has AVX, the only feature the function enables.
+                #[allow(unsafe_code)]
+                return unsafe { product_avx(a, b, s, c, part) };
+            }
+        }
+        product_body::<4, 4>(a, b, s, c, part);
+    }
+
+    #[cfg(target_arch = "x86_64")]
+    #[target_feature(enable = "avx")]
+    fn product_avx(
+        a: ArrayView2<f64>,
+        b: ArrayView2<f64>,
+        s: f64,
+        c: ArrayViewMut2<f64>,
+        part: Part,
+    ) {
+        product_body::<4, 8>(a, b, s, c, part);
+    }
+
+    /// A·B by the former product.
+    pub(crate) fn matmul(a: ArrayView2<f64>, b: ArrayView2<f64>) -> Array2<f64> {
+        let mut c = Array2::zeros((a.nrows(), b.ncols()));
+        product_add(a, b, 1.0, c.view_mut(), Part::All);
+        c
+    }
+
+    /// Copy the strict lower triangle onto the upper one.
+    fn mirror_lower(c: &mut Array2<f64>) {
+        for i in 0..c.nrows() {
+            for j in 0..i {
+                c[[j, i]] = c[[i, j]];
+            }
+        }
+    }
+
+    /// L21 ← A21·L11⁻ᵀ for the rows below the diagonal block [k0, k1).
+    pub(crate) fn solve_panel(l: &mut Array2<f64>, k0: usize, k1: usize) {
+        let n = l.nrows();
+        for i in k1..n {
+            for j in k0..k1 {
+                let v = l[[i, j]] - row_dot(l, i, j, k0);
+                l[[i, j]] = v / l[[j, j]];
+            }
+        }
+    }
+
+    /// The former factor L.
+    pub(crate) struct Cholesky {
+        pub(crate) lower: Array2<f64>,
+    }
+
+    impl Cholesky {
+        /// ln |A| and A⁻¹·b as the current (unchanged) code forms them.
+        pub(crate) fn ln_det(&self) -> f64 {
+            2.0 * self.lower.diag().iter().map(|v| v.ln_fixed()).sum::<f64>()
+        }
+
+        pub(crate) fn solve(&self, b: ndarray::ArrayView1<f64>) -> ndarray::Array1<f64> {
+            super::Cholesky {
+                lower: self.lower.clone(),
+            }
+            .solve(b)
+        }
+
+        /// Factor `a` (its lower triangle is read). `None` when a pivot is not
+        /// positive and finite: A is not numerically positive definite.
+        pub fn new(a: ArrayView2<f64>) -> Option<Self> {
+            let n = a.nrows();
+            assert_eq!(a.ncols(), n, "a square matrix");
+            let mut l = Array2::zeros((n, n));
+            for i in 0..n {
+                for j in 0..=i {
+                    l[[i, j]] = a[[i, j]];
+                }
+            }
+            for k0 in (0..n).step_by(CHOL_BLOCK) {
+                let k1 = (k0 + CHOL_BLOCK).min(n);
+                factor_diagonal_block(&mut l, k0, k1)?;
+                if k1 < n {
+                    solve_panel(&mut l, k0, k1);
+                    // A22 ← A22 − L21·L21ᵀ, lower part only
+                    let panel = l.slice(ndarray::s![k1.., k0..k1]).to_owned();
+                    let update = l.slice_mut(ndarray::s![k1.., k1..]);
+                    product_add(panel.view(), panel.t(), -1.0, update, Part::Lower);
+                }
+            }
+            for i in 0..n {
+                for j in i + 1..n {
+                    l[[i, j]] = 0.0;
+                }
+            }
+            Some(Cholesky { lower: l })
+        }
+
+        /// X ← L⁻¹·X, blocked by [`CHOL_BLOCK`] rows: the rows of block I first
+        /// lose L[I, ..i0]·X[..i0] (one product, each sum in increasing j),
+        /// then X_i = (X_i − Σ_{i0≤j<i} l_ij X_j) / l_ii within the block.
+        /// With `unit_lower` X starts as the identity, so that every X_j is zero
+        /// beyond column j; the terms skipped then are l_ij·0, which change no
+        /// element.
+        pub(crate) fn solve_lower_in_place(&self, x: &mut Array2<f64>, unit_lower: bool) {
+            let n = self.lower.nrows();
+            let m = x.ncols();
+            for i0 in (0..n).step_by(CHOL_BLOCK) {
+                let i1 = (i0 + CHOL_BLOCK).min(n);
+                if i0 > 0 {
+                    let cols = if unit_lower { i0 } else { m };
+                    let (done, mut rest) = x.view_mut().split_at(Axis(0), i0);
+                    product_add(
+                        self.lower.slice(ndarray::s![i0..i1, ..i0]),
+                        done.slice(ndarray::s![.., ..cols]),
+                        -1.0,
+                        rest.slice_mut(ndarray::s![..i1 - i0, ..cols]),
+                        if unit_lower {
+                            Part::AllLowerB
+                        } else {
+                            Part::All
+                        },
+                    );
+                }
+                for i in i0..i1 {
+                    let cols = if unit_lower { i + 1 } else { m };
+                    let (done, mut rest) = x.view_mut().split_at(Axis(0), i);
+                    let mut xi = rest.row_mut(0);
+                    let mut xi = xi.slice_mut(ndarray::s![..cols]);
+                    for j in i0..i {
+                        let lij = self.lower[[i, j]];
+                        xi.zip_mut_with(&done.row(j).slice(ndarray::s![..cols]), |v, d| {
+                            *v -= lij * d
+                        });
+                    }
+                    let d = self.lower[[i, i]];
+                    xi.mapv_inplace(|v| v / d);
+                }
+            }
+        }
+
+        /// A⁻¹ = L⁻ᵀ·L⁻¹, symmetric (lower triangle computed, then mirrored).
+        pub fn inverse(&self) -> Array2<f64> {
+            let n = self.lower.nrows();
+            let mut l_inv = Array2::<f64>::eye(n);
+            self.solve_lower_in_place(&mut l_inv, true);
+            // (A⁻¹)_ij = Σ_k x_ki x_kj over k ≥ max(i, j) (L⁻¹ = X is lower
+            // triangular): rows [i0, i1) of the lower triangle from rows i0..
+            // of X, one product per block of rows
+            let mut c = Array2::zeros((n, n));
+            for i0 in (0..n).step_by(CHOL_BLOCK) {
+                let i1 = (i0 + CHOL_BLOCK).min(n);
+                let below = l_inv.slice(ndarray::s![i0.., ..]);
+                product_add(
+                    below.slice(ndarray::s![.., i0..i1]).t(),
+                    below.slice(ndarray::s![.., ..i1]),
+                    1.0,
+                    c.slice_mut(ndarray::s![i0..i1, ..i1]),
+                    Part::All,
+                );
+            }
+            mirror_lower(&mut c);
+            c
+        }
+    }
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -891,6 +1500,174 @@ mod tests {
         assert_eq!(gram(j.view()), naive(j.t(), j.view()));
         let sl = j.slice(s![1..20;2, 2..9]);
         assert_eq!(gram(sl), naive(sl.t(), sl));
+    }
+
+    /// Random views of four layouts of an m × n matrix: row-major,
+    /// column-major, a transposed view and a strided slice.
+    fn layouts(m: usize, n: usize, seed: u64) -> Vec<Array2<f64>> {
+        let a = random(m, n, seed);
+        let mut f = Array2::zeros((m, n).f());
+        f.assign(&a);
+        vec![a, f]
+    }
+
+    /// Every element bit for bit, or with `Part::Lower` those on and below
+    /// the diagonal (the register blocks that reach it also write a few
+    /// elements above it, which no caller reads: which ones depends on
+    /// the block's shape).
+    fn agree(new: &Array2<f64>, old: &Array2<f64>, part: Part) -> bool {
+        new.dim() == old.dim()
+            && new.indexed_iter().all(|((i, j), v)| {
+                (part == Part::Lower && j > i) || v.to_bits() == old[[i, j]].to_bits()
+            })
+    }
+
+    /// The kept buffers, the two visiting orders, the panel packing that
+    /// skips a triangular B's zero head and the row-slice write-back change
+    /// no bit: every product against the former code, for each part, many
+    /// shapes (remainders of both register blocks, m < p and m ≥ p), layouts
+    /// and a C that already holds values.
+    #[test]
+    fn products_equal_the_former_code_bit_for_bit() {
+        let sizes = [1, 2, 3, 4, 5, 7, 8, 9, 13, 16, 17, 31, 48, 49, 64, 97];
+        let mut case = 0u64;
+        for &m in &sizes {
+            for &n in &[0, 1, 3, 8, 11, 48, 50] {
+                for &p in &sizes {
+                    case += 1;
+                    for (la, a) in layouts(m, n, case).iter().enumerate() {
+                        for (lb, b0) in layouts(n, p, case + 1000).iter().enumerate() {
+                            let mut b = b0.clone();
+                            for part in [Part::All, Part::Lower, Part::AllLowerB] {
+                                if part == Part::AllLowerB {
+                                    for k in 0..n {
+                                        for c in k + 1..p {
+                                            b[[k, c]] = 0.0;
+                                        }
+                                    }
+                                }
+                                let c0 = random(m, p, case + 2000);
+                                let (mut new, mut old) = (c0.clone(), c0.clone());
+                                product_add(a.view(), b.view(), -1.0, new.view_mut(), part);
+                                former::product_add(a.view(), b.view(), -1.0, old.view_mut(), part);
+                                assert!(agree(&new, &old, part), "{m}×{n}×{p}, layouts {la}/{lb}");
+                                // a column-major C (written element by element)
+                                let mut cf = Array2::zeros((m, p).f());
+                                cf.assign(&c0);
+                                product_add(a.view(), b.view(), -1.0, cf.view_mut(), part);
+                                assert!(agree(&cf, &old, part), "column-major C, {m}×{n}×{p}");
+                            }
+                        }
+                    }
+                }
+            }
+        }
+        // transposed and strided views, as the factorisation and the
+        // inverse pass them
+        let big = random(120, 90, 77);
+        let a = big.slice(s![3..60;2, 5..80]);
+        let b = big.slice(s![10..85, 1..90;3]);
+        for part in [Part::All, Part::Lower] {
+            let (mut new, mut old) = (Array2::zeros((29, 30)), Array2::zeros((29, 30)));
+            product_add(a, b, 1.0, new.view_mut(), part);
+            former::product_add(a, b, 1.0, old.view_mut(), part);
+            assert!(agree(&new, &old, part));
+            let (mut new, mut old) = (Array2::zeros((75, 75)), Array2::zeros((75, 75)));
+            product_add(b, b.t(), 1.0, new.view_mut(), part);
+            former::product_add(b, b.t(), 1.0, old.view_mut(), part);
+            assert!(agree(&new, &old, part));
+            // the baseline build, whatever this CPU has
+            let mut portable = Array2::zeros((75, 75));
+            product_portable(b, b.t(), 1.0, portable.view_mut(), part);
+            assert!(agree(&portable, &old, part));
+        }
+    }
+
+    /// The panel solved four rows at a time, in the baseline build as in
+    /// the dispatched one, equals the former row-by-row solve bit for bit.
+    #[test]
+    fn panel_solve_equals_the_former_code_in_both_builds() {
+        for n in [49, 50, 53, 96, 130] {
+            let a = spd(n, 40 + n as u64);
+            let mut l = Array2::zeros((n, n));
+            for i in 0..n {
+                for j in 0..=i {
+                    l[[i, j]] = a[[i, j]];
+                }
+            }
+            factor_diagonal_block(&mut l, 0, CHOL_BLOCK).expect("positive definite");
+            let mut old = l.clone();
+            former::solve_panel(&mut old, 0, CHOL_BLOCK);
+            let mut portable = l.clone();
+            solve_panel_body::<PANEL_ROWS>(&mut portable, 0, CHOL_BLOCK);
+            solve_panel(&mut l, 0, CHOL_BLOCK);
+            assert!(bits_equal(&portable, &old) && bits_equal(&l, &old), "n {n}");
+        }
+    }
+
+    /// A squared-exponential kernel matrix plus a small diagonal, the shape
+    /// of the residual process's K_y (ill-conditioned for long scales).
+    fn kernel_like(n: usize, seed: u64, length: f64, nugget: f64) -> Array2<f64> {
+        let x = random(n, 3, seed);
+        Array2::from_shape_fn((n, n), |(i, j)| {
+            let d2: f64 = (0..3).map(|k| (x[[i, k]] - x[[j, k]]).powi(2)).sum();
+            (-0.5 * d2 / (length * length)).exp_fixed() + if i == j { nugget } else { 0.0 }
+        })
+    }
+
+    fn bits_equal(a: &Array2<f64>, b: &Array2<f64>) -> bool {
+        a.dim() == b.dim() && a.iter().zip(b).all(|(x, y)| x.to_bits() == y.to_bits())
+    }
+
+    /// The factor, L⁻¹ and A⁻¹ against the former code bit for bit: every
+    /// n from 1 to 110 and a spread up to 300 (n a multiple of the block,
+    /// one more and one less, odd sizes), random and kernel-like SPD
+    /// matrices; a matrix that is not positive definite fails in both.
+    #[test]
+    fn cholesky_and_inverse_equal_the_former_code_bit_for_bit() {
+        let mut sizes: Vec<usize> = (1..=110).collect();
+        sizes.extend([
+            143, 144, 145, 167, 191, 192, 193, 211, 239, 240, 241, 263, 288, 299, 300,
+        ]);
+        let mut work = Array2::zeros((0, 0));
+        for &n in &sizes {
+            let cases = [
+                spd(n, 500 + n as u64),
+                kernel_like(n, 900 + n as u64, 0.4, 1e-3),
+                kernel_like(n, 1300 + n as u64, 2.0, 1e-6),
+            ];
+            for (ci, a) in cases.iter().enumerate() {
+                let old = former::Cholesky::new(a.view());
+                // the upper triangle is never read
+                let mut messy = a.clone();
+                for i in 0..n {
+                    for j in i + 1..n {
+                        messy[[i, j]] = f64::NAN;
+                    }
+                }
+                let new = Cholesky::new(a.view());
+                let owned = Cholesky::from_matrix(messy);
+                let (Some(old), Some(new), Some(owned)) = (old, new, owned) else {
+                    panic!("n {n} case {ci}: a factor failed");
+                };
+                assert!(bits_equal(new.lower(), &old.lower), "L, n {n} case {ci}");
+                assert!(
+                    bits_equal(owned.lower(), &old.lower),
+                    "L in place, n {n} case {ci}"
+                );
+                let want = old.inverse();
+                assert!(bits_equal(&new.inverse(), &want), "A⁻¹, n {n} case {ci}");
+                let mut want_x = Array2::<f64>::eye(n);
+                old.solve_lower_in_place(&mut want_x, true);
+                let x = owned.into_inverse(&mut work);
+                assert!(bits_equal(&work, &want), "A⁻¹ in place, n {n} case {ci}");
+                assert!(bits_equal(&x, &want_x), "L⁻¹ in place, n {n} case {ci}");
+            }
+        }
+        let mut bad = spd(60, 3);
+        bad[[50, 50]] = -1.0;
+        assert!(Cholesky::new(bad.view()).is_none() && former::Cholesky::new(bad.view()).is_none());
+        assert!(Cholesky::from_matrix(bad).is_none());
     }
 
     /// ndarray's own product (another summation order) agrees to rounding.

@@ -60,7 +60,7 @@
 //! sample) enter the process, so that its cost, O(N³) per evaluation,
 //! stays bounded on large archives.
 
-use crate::fixedmath::FixedMath;
+use crate::fixedmath::{exp_in_place, FixedMath};
 use std::cell::RefCell;
 use std::sync::{Arc, OnceLock};
 
@@ -73,7 +73,7 @@ use ndarray::{Array1, Array2, ArrayView1, ArrayView2, Axis};
 use serde::{Deserialize, Serialize};
 
 use crate::evidence::FitFailure;
-use crate::linalg::{matmul, Cholesky};
+use crate::linalg::{matmul, mirror_lower, multiply_lower_into, Cholesky};
 use crate::prec::{KRIGING_COST_TOL, KRIGING_GRAD_TOL, KRIGING_JITTER, VAR_FLOOR};
 
 /// Largest number of rows the process is fitted on.
@@ -182,9 +182,74 @@ fn prior(v: f64, (centre, sd): (f64, f64)) -> (f64, f64) {
     (0.5 * z * z, z / sd)
 }
 
+/// [`kernel`]`(x, x, length, 1.0)` into `out` (reshaped when it is not
+/// N × N), the same bits: only the register blocks of X·Xᵀ that reach the
+/// diagonal are formed and only the lower triangle is exponentiated (by
+/// [`exp_in_place`], the bits of `libm::exp`), then mirrored. The matrix
+/// is symmetric bit for bit: x_ik·x_jk = x_jk·x_ik and both sums run in
+/// increasing k, and na_i + na_j = na_j + na_i.
+pub(super) fn unit_kernel_into(x: ArrayView2<f64>, length: &[f64], out: &mut Array2<f64>) {
+    let n = x.nrows();
+    let inv = Array1::from_iter(length.iter().map(|l| 1.0 / l));
+    let a = &x * &inv;
+    let na: Array1<f64> = a.map_axis(Axis(1), |r| r.dot(&r));
+    if out.dim() != (n, n) || !out.is_standard_layout() {
+        *out = Array2::zeros((n, n));
+    }
+    multiply_lower_into(a.view(), a.t(), out.view_mut());
+    let signal_var = 1.0;
+    for (i, mut row) in out.outer_iter_mut().enumerate() {
+        let lower = &mut row
+            .as_slice_mut()
+            .expect("a standard-layout row is contiguous")[..=i];
+        for (j, v) in lower.iter_mut().enumerate() {
+            let d2 = (na[i] + na[j] - 2.0 * *v).max(0.0);
+            *v = -0.5 * d2;
+        }
+        // e^(−½d²) as `exp_fixed` gives it, vectorised
+        exp_in_place(lower);
+        for v in lower.iter_mut() {
+            *v *= signal_var;
+        }
+    }
+    mirror_lower(out);
+}
+
+/// The N × N matrices of one evaluation of [`neg_log_marginal`], kept
+/// between the evaluations of a search so that none is allocated (and its
+/// pages faulted in) again.
+#[derive(Default)]
+pub(crate) struct LikelihoodWork {
+    /// R, the kernel matrix with unit signal variance.
+    unit: Array2<f64>,
+    /// K_y, then its Cholesky factor L, then L⁻¹ (in place).
+    ky: Array2<f64>,
+    /// K_y⁻¹, then W ∘ R (in place).
+    m: Array2<f64>,
+}
+
 /// The negative log marginal likelihood of the residuals and its gradient
 /// in φ = (ln ℓ_1…ln ℓ_d, ln τ², ln s), any τ² and s.
+#[cfg(test)]
 pub(crate) fn neg_log_marginal(
+    theta: &[f64],
+    x: ArrayView2<f64>,
+    r: ArrayView1<f64>,
+    noise_var: ArrayView1<f64>,
+) -> ValueGradient {
+    neg_log_marginal_in(&mut LikelihoodWork::default(), theta, x, r, noise_var)
+}
+
+/// [`neg_log_marginal`] in the matrices of `work`.
+///
+/// With K_y = τ²R + s·diag(σ²) = L·Lᵀ and α = K_y⁻¹r:
+/// −ln p = ½ rᵀα + ½ ln|K_y| + ½ N ln 2π, and with W = ααᵀ − K_y⁻¹,
+/// ∂(−ln p)/∂θ_i = −½ tr(W ∂K_y/∂θ_i) (Rasmussen & Williams 2006,
+/// eqs. 2.30 and 5.9). Every element is formed as the former code formed
+/// it (separate matrices for R, τ²R, ααᵀ, W and W ∘ R), so the bits are
+/// the same (unit test).
+pub(crate) fn neg_log_marginal_in(
+    work: &mut LikelihoodWork,
     theta: &[f64],
     x: ArrayView2<f64>,
     r: ArrayView1<f64>,
@@ -195,25 +260,49 @@ pub(crate) fn neg_log_marginal(
     let length: Vec<f64> = theta[..d].iter().map(|v| v.exp_fixed()).collect();
     let signal = theta[d].exp_fixed();
     let factor = theta[d + 1].exp_fixed();
-    let unit = kernel(x, x, &length, 1.0);
-    let mut ky = &unit * signal;
+    unit_kernel_into(x, &length, &mut work.unit);
+    // K_y's lower triangle (the factorisation reads no other element)
+    let mut ky = std::mem::take(&mut work.ky);
+    if ky.dim() != (n, n) || !ky.is_standard_layout() {
+        ky = Array2::zeros((n, n));
+    }
+    for (i, (mut k_row, u_row)) in ky.outer_iter_mut().zip(work.unit.outer_iter()).enumerate() {
+        for (k, u) in k_row.iter_mut().zip(u_row.iter()).take(i + 1) {
+            *k = u * signal;
+        }
+    }
     add_noise(&mut ky, factor, noise_var);
-    let f = Cholesky::new(ky.view())?;
+    let f = Cholesky::from_matrix(ky)?;
     let alpha = f.solve(r);
     let ln_det = f.ln_det();
-    let inv = f.inverse();
+    work.ky = f.into_inverse(&mut work.m);
     let value = 0.5 * r.dot(&alpha)
         + 0.5 * ln_det
         + 0.5 * n as f64 * (2.0 * std::f64::consts::PI).ln_fixed();
-    // W = ααᵀ − K_y⁻¹; ∂(−ln p)/∂θ_i = −½ tr(W ∂K_y/∂θ_i)
-    let col = alpha.view().insert_axis(Axis(1));
-    let w = matmul(col, col.t()) - inv;
-    let m = &w * &unit; // W ∘ R
+    // W = ααᵀ − K_y⁻¹ (ααᵀ as a product formed it: 0 + α_i·α_j) and
+    // M = W ∘ R, over the inverse
+    let mut w_diag = Vec::with_capacity(n);
+    for (i, (mut m_row, u_row)) in work
+        .m
+        .outer_iter_mut()
+        .zip(work.unit.outer_iter())
+        .enumerate()
+    {
+        let ai = alpha[i];
+        for (j, (m, u)) in m_row.iter_mut().zip(u_row.iter()).enumerate() {
+            let w = (0.0 + ai * alpha[j]) - *m;
+            if j == i {
+                w_diag.push(w);
+            }
+            *m = w * u;
+        }
+    }
+    let m = &work.m;
     let mut grad = Array1::zeros(d + 2);
     // ln τ²: ∂K/∂ln τ² = τ²R
     grad[d] = -0.5 * signal * m.sum();
     // ln s: ∂K/∂ln s = s·diag(σ²)
-    grad[d + 1] = -0.5 * factor * (0..n).map(|i| w[[i, i]] * noise_var[i]).sum::<f64>();
+    grad[d + 1] = -0.5 * factor * (0..n).map(|i| w_diag[i] * noise_var[i]).sum::<f64>();
     // ln ℓ_k: ∂K_ij/∂ln ℓ_k = τ²R_ij (x_ik − x_jk)²/ℓ_k², and
     // Σ_ij M_ij (x_ik − x_jk)² = 2 Σ_i x_ik² (M1)_i − 2 x_kᵀ M x_k
     let row_sums = m.sum_axis(Axis(1));
@@ -246,12 +335,23 @@ pub(crate) fn neg_log_posterior(
     r: ArrayView1<f64>,
     noise_var: ArrayView1<f64>,
 ) -> ValueGradient {
+    neg_log_posterior_in(&mut LikelihoodWork::default(), theta, x, r, noise_var)
+}
+
+/// [`neg_log_posterior`] in the matrices of `work`.
+fn neg_log_posterior_in(
+    work: &mut LikelihoodWork,
+    theta: &[f64],
+    x: ArrayView2<f64>,
+    r: ArrayView1<f64>,
+    noise_var: ArrayView1<f64>,
+) -> ValueGradient {
     let d = x.ncols();
     let (signal, factor, f) = partition(theta[d], noise_var);
     let mut phi = theta[..d].to_vec();
     phi.push(signal.ln_fixed());
     phi.push(factor.ln_fixed());
-    let (mut value, g) = neg_log_marginal(&phi, x, r, noise_var)?;
+    let (mut value, g) = neg_log_marginal_in(work, &phi, x, r, noise_var)?;
     let mut grad = Array1::zeros(d + 1);
     for k in 0..d {
         let (p, gp) = prior(theta[k], PRIOR_LN_LENGTH);
@@ -279,12 +379,14 @@ type Evaluation = (Array1<f64>, f64, Array1<f64>);
 type ValueGradient = Option<(f64, Array1<f64>)>;
 
 /// The optimiser's view of [`neg_log_posterior`], caching the last
-/// evaluation (argmin asks for cost and gradient separately).
+/// evaluation (argmin asks for cost and gradient separately) and keeping
+/// the matrices of an evaluation for the next.
 struct Problem<'a> {
     x: ArrayView2<'a, f64>,
     r: ArrayView1<'a, f64>,
     noise_var: ArrayView1<'a, f64>,
     cache: RefCell<Option<Evaluation>>,
+    work: RefCell<LikelihoodWork>,
 }
 
 impl Problem<'_> {
@@ -294,7 +396,8 @@ impl Problem<'_> {
                 return (*v, g.clone());
             }
         }
-        let out = neg_log_posterior(
+        let out = neg_log_posterior_in(
+            &mut self.work.borrow_mut(),
             theta.as_slice().unwrap_or(&theta.to_vec()),
             self.x,
             self.r,
@@ -349,6 +452,7 @@ fn minimise<'a>(
             r,
             noise_var,
             cache: RefCell::new(None),
+            work: RefCell::new(LikelihoodWork::default()),
         };
         let solver = LBFGS::new(MoreThuenteLineSearch::new(), 7)
             .with_tolerance_grad(KRIGING_GRAD_TOL)
@@ -578,6 +682,7 @@ mod as_rows {
 #[cfg(test)]
 mod tests {
     use super::*;
+    use crate::linalg::former;
     use crate::prec::FD_STEP;
     use rand::{Rng, SeedableRng};
     use rand_xoshiro::Xoshiro256PlusPlus;
@@ -596,6 +701,181 @@ mod tests {
                 g[k]
             );
         }
+    }
+
+    /// [`kernel`] with the former product.
+    fn former_kernel(
+        a: ArrayView2<f64>,
+        b: ArrayView2<f64>,
+        length: &[f64],
+        signal_var: f64,
+    ) -> Array2<f64> {
+        let inv = Array1::from_iter(length.iter().map(|l| 1.0 / l));
+        let a = &a * &inv;
+        let b = &b * &inv;
+        let na: Array1<f64> = a.map_axis(Axis(1), |r| r.dot(&r));
+        let nb: Array1<f64> = b.map_axis(Axis(1), |r| r.dot(&r));
+        let mut k = former::matmul(a.view(), b.t());
+        for ((i, j), v) in k.indexed_iter_mut() {
+            let d2 = (na[i] + nb[j] - 2.0 * *v).max(0.0);
+            *v = signal_var * (-0.5 * d2).exp_fixed();
+        }
+        k
+    }
+
+    /// The likelihood and its gradient as the code of commit c9d78cb formed
+    /// them (fresh matrices for R, τ²R, ααᵀ, W and W ∘ R; the former linear
+    /// algebra): the oracle of the bit-for-bit test.
+    fn former_neg_log_marginal(
+        theta: &[f64],
+        x: ArrayView2<f64>,
+        r: ArrayView1<f64>,
+        noise_var: ArrayView1<f64>,
+    ) -> ValueGradient {
+        let d = x.ncols();
+        let n = x.nrows();
+        let length: Vec<f64> = theta[..d].iter().map(|v| v.exp_fixed()).collect();
+        let signal = theta[d].exp_fixed();
+        let factor = theta[d + 1].exp_fixed();
+        let unit = former_kernel(x, x, &length, 1.0);
+        let mut ky = &unit * signal;
+        add_noise(&mut ky, factor, noise_var);
+        let f = crate::linalg::former::Cholesky::new(ky.view())?;
+        let alpha = f.solve(r);
+        let ln_det = f.ln_det();
+        let inv = f.inverse();
+        let value = 0.5 * r.dot(&alpha)
+            + 0.5 * ln_det
+            + 0.5 * n as f64 * (2.0 * std::f64::consts::PI).ln_fixed();
+        // W = ααᵀ − K_y⁻¹; ∂(−ln p)/∂θ_i = −½ tr(W ∂K_y/∂θ_i)
+        let col = alpha.view().insert_axis(Axis(1));
+        let w = former::matmul(col, col.t()) - inv;
+        let m = &w * &unit; // W ∘ R
+        let mut grad = Array1::zeros(d + 2);
+        // ln τ²: ∂K/∂ln τ² = τ²R
+        grad[d] = -0.5 * signal * m.sum();
+        // ln s: ∂K/∂ln s = s·diag(σ²)
+        grad[d + 1] = -0.5 * factor * (0..n).map(|i| w[[i, i]] * noise_var[i]).sum::<f64>();
+        // ln ℓ_k: ∂K_ij/∂ln ℓ_k = τ²R_ij (x_ik − x_jk)²/ℓ_k², and
+        // Σ_ij M_ij (x_ik − x_jk)² = 2 Σ_i x_ik² (M1)_i − 2 x_kᵀ M x_k
+        let row_sums = m.sum_axis(Axis(1));
+        let mx = former::matmul(m.view(), x);
+        for k in 0..d {
+            let xk = x.column(k);
+            let s2: f64 = xk.iter().zip(&row_sums).map(|(v, s)| v * v * s).sum();
+            let cross: f64 = xk.iter().zip(mx.column(k)).map(|(a, b)| a * b).sum();
+            let total = 2.0 * s2 - 2.0 * cross;
+            grad[k] = -0.5 * signal * total / (length[k] * length[k]);
+        }
+        finite(value, grad)
+    }
+
+    fn same_bits(a: &[f64], b: &[f64]) -> bool {
+        a.len() == b.len() && a.iter().zip(b).all(|(x, y)| x.to_bits() == y.to_bits())
+    }
+
+    /// Scaled inputs in [−0.5, 0.5], every seventh row a copy of the row
+    /// before (repeat tests give equal rows, whose kernel entries are 1).
+    fn inputs(n: usize, d: usize, seed: u64) -> Array2<f64> {
+        let mut rng = Xoshiro256PlusPlus::seed_from_u64(seed);
+        let mut x = Array2::from_shape_fn((n, d), |_| rng.random_range(-0.5..0.5));
+        for i in (7..n).step_by(7) {
+            let prev = x.row(i - 1).to_owned();
+            x.row_mut(i).assign(&prev);
+        }
+        x
+    }
+
+    /// The symmetric kernel equals [`kernel`]`(x, x, ℓ, 1)` and the former
+    /// product's kernel bit for bit.
+    #[test]
+    fn unit_kernel_equals_the_full_kernel_bit_for_bit() {
+        let mut out = Array2::zeros((0, 0));
+        for (n, d) in [(1, 1), (2, 3), (9, 2), (48, 5), (49, 8), (97, 4), (250, 8)] {
+            let x = inputs(n, d, n as u64);
+            for scale in [0.05, 0.3, 3.0] {
+                let length: Vec<f64> = (0..d).map(|k| scale * (1.0 + 0.3 * k as f64)).collect();
+                unit_kernel_into(x.view(), &length, &mut out);
+                let full = kernel(x.view(), x.view(), &length, 1.0);
+                let former = former_kernel(x.view(), x.view(), &length, 1.0);
+                let (o, f, g) = (out.as_slice(), full.as_slice(), former.as_slice());
+                let (o, f, g) = (
+                    o.expect("row-major"),
+                    f.expect("row-major"),
+                    g.expect("row-major"),
+                );
+                assert!(
+                    same_bits(o, f) && same_bits(f, g),
+                    "n {n}, d {d}, scale {scale}"
+                );
+            }
+        }
+    }
+
+    /// The likelihood and its gradient in kept matrices (one workspace
+    /// through every size, as a search reuses it) equal the former code
+    /// bit for bit: sizes across the Cholesky block (48), up to 300 rows,
+    /// 1–8 inputs, short and long length scales, a small and a large
+    /// noise share, and a θ where K_y does not factorise in either.
+    #[test]
+    fn likelihood_equals_the_former_code_bit_for_bit() {
+        let mut work = LikelihoodWork::default();
+        let shapes = [
+            (1, 1),
+            (2, 3),
+            (5, 2),
+            (17, 4),
+            (47, 8),
+            (48, 3),
+            (49, 5),
+            (97, 8),
+            (150, 6),
+            (211, 8),
+            (300, 4),
+            (31, 2),
+        ];
+        for (case, &(n, d)) in shapes.iter().enumerate() {
+            let x = inputs(n, d, 40 + case as u64);
+            let mut rng = Xoshiro256PlusPlus::seed_from_u64(70 + case as u64);
+            let r = Array1::from_shape_fn(n, |i| {
+                0.1 * (4.0 * x[[i, 0]]).sin_fixed() + rng.random_range(-0.03..0.03)
+            });
+            let nv = Array1::from_shape_fn(n, |_| rng.random_range(0.0005..0.003));
+            for (ln_l, ln_tau2, ln_s) in [
+                (-1.2, -6.0, -0.7),
+                (-2.5, -4.0, -3.0),
+                (0.8, -7.0, 0.0),
+                (-0.3, -3.0, -12.0),
+            ] {
+                let mut theta: Vec<f64> = (0..d).map(|k| ln_l + 0.2 * k as f64).collect();
+                theta.push(ln_tau2);
+                theta.push(ln_s);
+                let want = former_neg_log_marginal(&theta, x.view(), r.view(), nv.view());
+                let got = neg_log_marginal_in(&mut work, &theta, x.view(), r.view(), nv.view());
+                match (want, got) {
+                    (None, None) => {}
+                    (Some((v0, g0)), Some((v1, g1))) => {
+                        assert_eq!(
+                            v0.to_bits(),
+                            v1.to_bits(),
+                            "value, n {n}, d {d}, θ {theta:?}"
+                        );
+                        assert!(
+                            same_bits(g0.as_slice().expect("g"), g1.as_slice().expect("g")),
+                            "gradient, n {n}, d {d}, θ {theta:?}: {g0} against {g1}"
+                        );
+                    }
+                    (w, g) => panic!("n {n}: former {:?}, now {:?}", w.is_some(), g.is_some()),
+                }
+            }
+        }
+        // a matrix that does not factorise (negative noise) fails in both
+        let x = inputs(60, 3, 9);
+        let r = Array1::from_elem(60, 0.01);
+        let nv = Array1::from_elem(60, -1.0);
+        let theta = [-1.0, -1.0, -1.0, -6.0, 0.0];
+        assert!(former_neg_log_marginal(&theta, x.view(), r.view(), nv.view()).is_none());
+        assert!(neg_log_marginal_in(&mut work, &theta, x.view(), r.view(), nv.view()).is_none());
     }
 
     #[test]

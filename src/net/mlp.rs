@@ -371,10 +371,12 @@ pub fn tanh(x: f64) -> f64 {
 /// `(0 + Σ_i x_ni W_ji) + b_j`, the sum from 0 in increasing i — the bits
 /// of the former `linalg::matmul(x, Wᵀ)` (whose register block sums from 0
 /// in increasing i and then adds the sum to C's 0) followed by `+= b` —
-/// one row at a time with the sums of all H units side by side (the
-/// compiler vectorises over j), without packing either operand. Compiled
-/// for the baseline and with AVX like [`tanh_in_place`]; the same bits
-/// either way (unit test).
+/// in register blocks of [`HIDDEN_ROWS`] rows × [`HIDDEN_UNITS`] units
+/// whose sums stay in registers through the d inputs (the vector lanes run
+/// across units, each sum in its own lane, in its own order), without
+/// packing either operand; the last rows one at a time. Compiled for the
+/// baseline and with AVX like [`tanh_in_place`]; the same bits either way
+/// (unit test).
 fn hidden_sums(x: ArrayView2<f64>, w: ArrayView2<f64>, b: &[f64]) -> Array2<f64> {
     let (n, h) = (x.nrows(), w.nrows());
     let d = x.ncols();
@@ -405,14 +407,69 @@ fn hidden_sums_avx(x: ArrayView2<f64>, wt: &[f64], b: &[f64], out: &mut [f64]) {
     hidden_sums_body(x, wt, b, out);
 }
 
+/// Rows per register block of [`hidden_sums_body`].
+const HIDDEN_ROWS: usize = 8;
+/// Hidden units per register block of [`hidden_sums_body`] (one AVX
+/// vector); the last block's missing units have zero weights, and their
+/// sums are not stored.
+const HIDDEN_UNITS: usize = 4;
+
 #[inline(always)]
 fn hidden_sums_body(x: ArrayView2<f64>, wt: &[f64], b: &[f64], out: &mut [f64]) {
+    const R: usize = HIDDEN_ROWS;
+    const J: usize = HIDDEN_UNITS;
     let h = b.len();
     if h == 0 {
         return;
     }
-    for (row, x_n) in out.chunks_exact_mut(h).zip(x.rows()) {
-        // `row` holds 0 (a fresh array): each += is the block's acc += a·b
+    let (n, d) = x.dim();
+    let standard;
+    let xs = match x.as_slice() {
+        Some(s) => s,
+        None => {
+            standard = x.as_standard_layout().into_owned();
+            standard.as_slice().expect("standard layout")
+        }
+    };
+    // Wᵀ in panels of J units: panel g holds W_(gJ+c),i at i·J + c, zero
+    // for units beyond H
+    let groups = h.div_ceil(J);
+    let mut wp = vec![0.0; groups * d * J];
+    for (g, panel) in wp.chunks_exact_mut((d * J).max(1)).enumerate().take(groups) {
+        for (i, dst) in panel.chunks_exact_mut(J).enumerate() {
+            for (c, o) in dst.iter_mut().enumerate() {
+                if g * J + c < h {
+                    *o = wt[i * h + g * J + c];
+                }
+            }
+        }
+    }
+    // R rows of X side by side: xt[i·R + r] = x_(n0+r),i
+    let mut xt = vec![0.0; d * R];
+    let whole = n / R * R;
+    for n0 in (0..whole).step_by(R) {
+        for (r, x_r) in xs[n0 * d..(n0 + R) * d].chunks_exact(d.max(1)).enumerate() {
+            for (i, v) in x_r.iter().enumerate() {
+                xt[i * R + r] = *v;
+            }
+        }
+        for g in 0..groups {
+            let j0 = g * J;
+            // acc[r][c] = 0 + Σ_i x_(n0+r),i · W_(j0+c),i, in increasing i
+            let acc = crate::linalg::register_block::<R, J>(&xt, &wp[g * d * J..(g + 1) * d * J]);
+            let cols = J.min(h - j0);
+            for (r, acc_r) in acc.iter().enumerate() {
+                let row = &mut out[(n0 + r) * h + j0..(n0 + r) * h + j0 + cols];
+                for ((o, a), bj) in row.iter_mut().zip(acc_r).zip(&b[j0..j0 + cols]) {
+                    *o = (0.0 + *a) + bj;
+                }
+            }
+        }
+    }
+    // the last rows one at a time, the sums of all H units side by side
+    for (k, row) in out[whole * h..].chunks_exact_mut(h).enumerate() {
+        let x_n = &xs[(whole + k) * d..(whole + k + 1) * d];
+        row.fill(0.0);
         for (xi, wt_i) in x_n.iter().zip(wt.chunks_exact(h)) {
             for (acc, wji) in row.iter_mut().zip(wt_i) {
                 *acc += xi * wji;
@@ -730,7 +787,37 @@ mod tests {
                 assert_eq!(a.to_bits(), b.to_bits(), "gradient {k}, d {d} h {h}");
             }
         }
-        // both builds of the hidden sums against matmul + b
+        // both builds of the hidden sums against matmul + b, for every
+        // remainder of the register block (rows and units) and a strided x
+        for (d, h, n, seed) in [
+            (1, 1, 1, 40),
+            (3, 2, 7, 41),
+            (8, 10, 8, 42),
+            (8, 10, 9, 43),
+            (8, 4, 17, 44),
+            (5, 5, 23, 45),
+            (0, 3, 11, 46),
+            (12, 20, 130, 47),
+            (8, 16, 61, 48),
+            (6, 7, 100, 49),
+        ] {
+            let (arch, w, x, _) = random_problem(d, h, n, seed);
+            let p = arch.split(&w);
+            let b = p.hidden_b.to_vec();
+            let mut want = crate::linalg::matmul(x.view(), p.input_w.t());
+            want += &p.hidden_b;
+            let got = hidden_sums(x.view(), p.input_w, &b);
+            let wt: Vec<f64> = (0..d).flat_map(|i| p.input_w.column(i).to_vec()).collect();
+            let mut portable = vec![0.0; n * h];
+            hidden_sums_body(x.view(), &wt, &b, &mut portable);
+            let xf = x.t().as_standard_layout().into_owned();
+            let strided = hidden_sums(xf.t(), p.input_w, &b);
+            for (((g, p), s), w) in got.iter().zip(&portable).zip(&strided).zip(want.iter()) {
+                assert_eq!(g.to_bits(), w.to_bits(), "d {d} h {h} n {n}");
+                assert_eq!(p.to_bits(), w.to_bits(), "portable, d {d} h {h} n {n}");
+                assert_eq!(s.to_bits(), w.to_bits(), "strided, d {d} h {h} n {n}");
+            }
+        }
         let (arch, w, x, _) = random_problem(9, 13, 53, 26);
         let p = arch.split(&w);
         let b = p.hidden_b.to_vec();
