@@ -76,31 +76,29 @@ pub(super) fn further_partition(
     let pp = params.with_seed(partition_seed(params.seed, p));
     let split = HeldOutSplit::new(&pp, x, t, target_width, source)?;
     let search = CandidateSearch::run(&pp, &split, target, obs);
-    let constant = ConstantCommittee::choose(search.ranked()?, pp.max_members, &split);
-    let varying_fit = varying.then(|| VaryingCommittee::fit(&pp, &split, &constant, target, obs));
-    // Auto never refuses: a partition where varying noise failed keeps constant noise
-    let models = NoiseModels::new(NoiseMode::Auto, constant, varying_fit)?;
-    let use_varying = varying && models.selection.varying_nlpd.is_some();
-    let refitted = Refitted::run(&pp, x, t, &models, use_varying, gross, target, obs)?;
-    let (n_members, nlpd_by_size) = models.by_size(use_varying);
-    let record = PooledPartition {
-        seed: pp.seed,
-        n_train_part: split.train.len(),
-        n_heldout: split.held.len(),
-        hidden_searched: (pp.hidden_min, search.hidden_max),
-        nlpd_by_size,
-        n_members,
-        varying: use_varying,
-        refit_failures: refitted.failures.clone(),
-        candidates: Vec::new(),
+    let (refitted, use_varying, (n_members, nlpd_by_size)) = {
+        let constant = ConstantCommittee::choose(search.ranked()?, pp.max_members, &split);
+        let varying_fit =
+            varying.then(|| VaryingCommittee::fit(&pp, &split, &constant, target, obs));
+        // Auto never refuses: a partition where varying noise failed keeps constant noise
+        let models = NoiseModels::new(NoiseMode::Auto, constant, varying_fit)?;
+        let use_varying = varying && models.selection.varying_nlpd.is_some();
+        let refitted = Refitted::run(&pp, x, t, &models, use_varying, gross, target, obs)?;
+        (refitted, use_varying, models.by_size(use_varying))
     };
-    drop(models);
     Ok(Pooled {
-        refitted,
         record: PooledPartition {
+            seed: pp.seed,
+            n_train_part: split.train.len(),
+            n_heldout: split.held.len(),
+            hidden_searched: (pp.hidden_min, search.hidden_max),
+            nlpd_by_size,
+            n_members,
+            varying: use_varying,
+            refit_failures: refitted.failures.clone(),
             candidates: search.into_records(),
-            ..record
         },
+        refitted,
     })
 }
 
