@@ -21,7 +21,9 @@ residual study (benches/inner_cv.py --groups).
 --paired: instead of training, read the per-row files of --rows DIR for the outer splits
 --outer and report, per setting against the first --config, the paired difference of the
 fold RMSE and of the fold's mean Gaussian LL over all (outer split, fold) pairs (mean ± SE),
-and on how many pairs the setting's RMSE is lower.
+and on how many pairs the setting's RMSE is lower. `--config NAME=pool:A+B` there scores the
+equal-weight average of the saved models of settings A and B (mean of the means, variance of
+the mixture), e.g. two seeds' models averaged.
 
 --groups: instead of training, read the per-row files of --rows DIR and report how much of
 each setting's out-of-fold squared error is shared by the rows of one group (concrete: one
@@ -197,13 +199,32 @@ def groups():
                 print(f"    {h} (value:RMSE/mean residual) " + " ".join(cells))
 
 
+def load_rows(k, name, pooled):
+    """The per-row file of setting `name` on outer split k; with `pooled` (a list of
+    settings) the equal-weight average of their models instead: the mean of their means,
+    and the mixture's variance (mean of the variances plus the spread of the means)."""
+    if not pooled:
+        return np.loadtxt(ARGS.rows / f"{ARGS.dataset}_{k}_{name}.csv", delimiter=",",
+                          skiprows=1)
+    rs = [load_rows(k, p, None) for p in pooled]
+    m = np.mean([r[:, 2] for r in rs], axis=0)
+    v = np.mean([r[:, 3] ** 2 + (r[:, 2] - m) ** 2 for r in rs], axis=0)
+    return np.column_stack([rs[0][:, 0], rs[0][:, 1], m, np.sqrt(v)])
+
+
 def paired():
-    names = [c.partition("=")[0].partition("@")[0] for c in ARGS.config]
+    names, pools = [], {}
+    for c in ARGS.config:
+        name, _, extra = c.partition("=")
+        name = name.partition("@")[0]
+        names.append(name)
+        # NAME=pool:A+B averages the saved models of settings A and B (model averaging)
+        pools[name] = extra[5:].split("+") if extra.startswith("pool:") else None
     rmse = {n: [] for n in names}
     ll = {n: [] for n in names}
     for k in map(int, ARGS.outer.split(",")):
         for n in names:
-            r = np.loadtxt(ARGS.rows / f"{ARGS.dataset}_{k}_{n}.csv", delimiter=",", skiprows=1)
+            r = load_rows(k, n, pools[n])
             fold = np.random.default_rng(1000 + k).permutation(len(r)) % ARGS.folds
             for f in range(ARGS.folds):
                 y, mean, sd = r[fold == f, 1], r[fold == f, 2], r[fold == f, 3]

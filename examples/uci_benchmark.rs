@@ -8,7 +8,7 @@
 //!     [--datasets concrete,energy,yacht,wine-quality-red] [--splits 20]
 //!     [--hidden 1..10] [--restarts 4] [--markdown FILE]
 //!     [--noise auto|constant|varying] [--kriging auto|on|off] [--gross-errors on|off] [--heavy-tails on|off] [--model-var-scale on|off] [--reweight-mean] [--first-split 0] [--no-widen] [--no-early-stop] [--no-ard] [--max-cycles N] [--first-iters N] [--cycle-iters N]
-//!     [--max-members N] [--holdout FRACTION]
+//!     [--max-members N] [--holdout FRACTION] [--partitions N]
 //! ```
 //!
 //! The options after `--markdown` exist to study the engine's settings;
@@ -153,6 +153,7 @@ fn main() {
     let mut noise = NoiseMode::Auto;
     let mut kriging = KrigingMode::Auto;
     let mut max_members: Option<usize> = None;
+    let mut partitions: Option<usize> = None;
     let mut holdout: Option<f64> = None;
     let mut gross_errors = true;
     let mut heavy_tails = true;
@@ -189,6 +190,7 @@ fn main() {
                 }
             }
             "--max-members" => max_members = Some(v.parse().expect("--max-members N")),
+            "--partitions" => partitions = Some(v.parse().expect("--partitions N")),
             "--holdout" => holdout = Some(v.parse().expect("--holdout FRACTION")),
             "--first-split" => first_split = v.parse().expect("--first-split N"),
             "--max-cycles" => fit.max_cycles = v.parse().expect("--max-cycles N"),
@@ -278,6 +280,9 @@ fn main() {
             }
             if let Some(f) = holdout {
                 spec.params = spec.params.holdout_fraction(f);
+            }
+            if let Some(n) = partitions {
+                spec.params = spec.params.partitions(n);
             }
             let t0 = Instant::now();
             let model = Model::train(&tr, &spec, &Silent).expect("training");

@@ -39,6 +39,7 @@ mod noise;
 mod noise_models;
 mod params;
 mod pipeline;
+mod pool;
 mod refit;
 mod relevance;
 mod residual;
@@ -168,6 +169,37 @@ pub struct Selection {
     /// Whether kriging of the residuals was used, and why.
     #[serde(default)]
     pub kriging: KrigingSelection,
+    /// The further held-out partitions whose committees were pooled into
+    /// this one (cross-fitting, [`CommitteeParams::partitions`]); empty with
+    /// one partition (and in files written before pooling existed).
+    #[serde(default, skip_serializing_if = "Vec::is_empty")]
+    pub pooled: Vec<PooledPartition>,
+}
+
+/// A further held-out partition of the rows (cross-fitting): its own
+/// search and committee, chosen on its own held-out part with the noise
+/// model of the first partition; its members, refitted on all the rows,
+/// are pooled with the first partition's.
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+pub struct PooledPartition {
+    /// Master seed of the partition's split and search.
+    pub seed: u64,
+    /// Rows in its training part.
+    pub n_train_part: usize,
+    /// Rows in its held-out part.
+    pub n_heldout: usize,
+    /// Hidden-unit range finally searched.
+    pub hidden_searched: (usize, usize),
+    /// Held-out NLPD of its committee of the best n candidates, n = 1, 2, …
+    pub nlpd_by_size: Vec<f64>,
+    /// Members it added to the committee.
+    pub n_members: usize,
+    /// Whether its members' noise varies with the inputs.
+    pub varying: bool,
+    /// Members whose refit failed (dropped), with the reason.
+    pub refit_failures: Vec<String>,
+    /// Every candidate it tried.
+    pub candidates: Vec<Candidate>,
 }
 
 /// The choice of kriging the committee's residuals, on the held-out part

@@ -13,6 +13,7 @@
 //! | `seed` | 0 | seed of every random choice | any u64 |
 //! | `noise` | auto | constant noise, noise that varies with the inputs, or the better of the two on the held-out part | constant, varying, auto |
 //! | `early_stop` | true | stop hopeless candidates early: successive halving on the held-out NLPD at the rungs of `prec::SEARCH_RUNGS` | — |
+//! | `partitions` | 1 | held-out partitions whose committees are pooled (cross-fitting; each runs its own search) | 1 ..= 8 |
 //! | `model_var_scale` | false | let the held-out part choose a factor on the committee's model variance (experimental; committee::gross_errors) | — |
 
 use serde::{Deserialize, Serialize};
@@ -79,6 +80,23 @@ pub struct CommitteeParams {
     /// every candidate to the end and read as false.
     #[serde(default)]
     pub early_stop: bool,
+    /// Held-out partitions of the rows, each with its own candidate search
+    /// and committee, whose refitted members are pooled into one committee
+    /// (cross-fitting; committee::pool). 1: one partition, as before the
+    /// setting existed (files written before it read as 1).
+    #[serde(default = "one_partition", skip_serializing_if = "is_one")]
+    pub partitions: usize,
+}
+
+/// What model files before `partitions` existed did.
+fn one_partition() -> usize {
+    1
+}
+
+/// One partition is not written, so that such files stay as before.
+#[allow(clippy::trivially_copy_pass_by_ref)]
+fn is_one(n: &usize) -> bool {
+    *n == 1
 }
 
 /// What model files before `reweight_mean` existed did.
@@ -135,6 +153,7 @@ impl Default for CommitteeParams {
             model_var_scale: false,
             reweight_mean: false,
             early_stop: true,
+            partitions: 1,
         }
     }
 }
@@ -147,6 +166,17 @@ impl std::ops::Deref for CheckedCommitteeParams {
     type Target = CommitteeParams;
     fn deref(&self) -> &CommitteeParams {
         &self.0
+    }
+}
+
+impl CheckedCommitteeParams {
+    /// The same settings with another master seed (a further held-out
+    /// partition's search, committee::pool).
+    pub(super) fn with_seed(&self, seed: u64) -> CheckedCommitteeParams {
+        CheckedCommitteeParams(CommitteeParams {
+            seed,
+            ..self.0.clone()
+        })
     }
 }
 
@@ -254,6 +284,13 @@ impl CommitteeParams {
         self
     }
 
+    /// Held-out partitions whose committees are pooled.
+    #[must_use]
+    pub fn partitions(mut self, n: usize) -> Self {
+        self.partitions = n;
+        self
+    }
+
     /// Noise model.
     #[must_use]
     pub fn noise(mut self, mode: NoiseMode) -> Self {
@@ -303,6 +340,9 @@ impl CommitteeParams {
                 self.fit.max_cycles.to_string(),
                 "between 1 and 1000",
             );
+        }
+        if self.partitions == 0 || self.partitions > 8 {
+            return bad("partitions", self.partitions.to_string(), "between 1 and 8");
         }
         let mut p = self;
         p.hidden_cap = p.hidden_cap.max(p.hidden_max);

@@ -10,6 +10,8 @@
 //! 5 residual.rs     NoiseModels     → ProcessTrial per model  [kriging not off]
 //! 6 choice.rs       ProcessTrials   → Choice (noise model, process, gross errors and shape)
 //! 7 refit.rs        Choice          → Refitted (members on all rows)
+//!   pool.rs         [partitions > 1] stages 1–4 and 7 on further held-out
+//!                   partitions, their members added to Refitted
 //!   residual.rs     Refitted        → the process on all rows [process chosen]
 //! 8 assemble.rs     everything      → Committee
 //! ```
@@ -21,6 +23,7 @@ use super::by_size::ConstantCommittee;
 use super::candidates::CandidateSearch;
 use super::choice::Choice;
 use super::noise_models::NoiseModels;
+use super::pool::further_partition;
 use super::refit::Refitted;
 use super::residual::{process_on_all_rows, process_wanted, try_processes, ProcessRows};
 use super::split::HeldOutSplit;
@@ -67,7 +70,7 @@ pub fn train_committee(
     let mut choice = Choice::make(params, &split, tried)?;
     let gross = choice.gross_over_all_rows(t);
     // 7. the chosen members refitted on all rows, then the chosen process
-    let refitted = Refitted::run(
+    let mut refitted = Refitted::run(
         params,
         x,
         t,
@@ -77,6 +80,24 @@ pub fn train_committee(
         target,
         obs,
     )?;
+    // 7b. [partitions > 1] further partitions' committees pooled in (pool.rs)
+    let mut pooled = Vec::new();
+    for p in 1..params.partitions {
+        let further = further_partition(
+            params,
+            p,
+            x,
+            t,
+            target_width,
+            source,
+            choice.varying,
+            gross.as_ref(),
+            target,
+            obs,
+        )?;
+        refitted.absorb(further.refitted);
+        pooled.push(further.record);
+    }
     let process = process_on_all_rows(
         params,
         x,
@@ -102,6 +123,7 @@ pub fn train_committee(
         refitted,
         process,
         gross,
+        pooled,
     };
     Ok(assemble(parts, target, obs))
 }

@@ -198,6 +198,7 @@ mod tests {
                 refit_failures: vec![],
                 noise: NoiseSelection::default(),
                 kriging: Default::default(),
+                pooled: vec![],
             },
             kriging: None,
             gross_errors: None,
