@@ -121,7 +121,9 @@ pub(super) fn try_processes(
                         if let Some((gm, gv)) = process.predict(split.x_ho.view()) {
                             let s = process.noise_factor;
                             let mean = &p.mean + &gm;
-                            let var = &p.var + &(&p.noise_var * (s - 1.0)) + &gv;
+                            let var = Array1::from_iter((0..gv.len()).map(|i| {
+                                process.total_var(p.noise_var[i], p.committee_var[i], gv[i])
+                            }));
                             let nlpd = split.nlpd(&mean, &var);
                             if nlpd.is_finite() {
                                 trial.kriged = Some((nlpd, (mean, var), &p.noise_var * s + &gv));
