@@ -453,3 +453,11 @@ pub const JACOBIAN_BLOCK_ROWS: usize = 8_192;
 /// Trees*, §3.4.3; Hastie, Tibshirani & Friedman 2009, *The Elements of
 /// Statistical Learning*, §7.10), the simpler noise model kept on a tie.
 pub const NOISE_PARSIMONY_SE: f64 = 1.0;
+
+/// The committee's model part is taken times ρ beside the residual process
+/// (committee::kriging, "The committee's model part beside the process")
+/// only when that lowers the held-out Gaussian NLPD by more than this many
+/// standard errors of the paired per-row difference; else it is kept
+/// whole: the one-standard-error rule as for [`NOISE_PARSIMONY_SE`]
+/// (Breiman et al. 1984, §3.4.3; Hastie et al. 2009, §7.10).
+pub const MODEL_PART_PARSIMONY_SE: f64 = 1.0;

@@ -73,7 +73,8 @@
 //! [`FAST_SD_TOL`], and E_t = E without a process, E_t = ρE + (v_c +
 //! E)·E_p/τ² + E_p with one (the total s·σ² + ρ·v_c + process variance,
 //! ρ = process variance/τ² clamped to [0, 1], so that ρ errs by at most
-//! E_p/τ²; module kriging). Since |√a/√b − 1| = |a − b|/(√b(√a + √b)) ≤ |a − b|/b,
+//! E_p/τ²; module kriging; when the held-out part kept the model part
+//! whole, ρ = 1 and E_t = E + E_p). Since |√a/√b − 1| = |a − b|/(√b(√a + √b)) ≤ |a − b|/b,
 //! both sds (the total and the committee's own, the domain guard's signal)
 //! then lie within tol of the exact ones. Any other row is computed by the
 //! exact path, one row at a time, so that no result depends on how rows
@@ -553,8 +554,8 @@ impl FastProcess {
         let var_of = |i: usize, gv: f64| {
             let (noise, model) = row_var.map_or((floor, 0.0), |v| v[i]);
             (
-                (noise + k.remaining_share(gv) * model + gv).max(floor),
-                1.0 + model / tau2,
+                (noise + k.model_part_share(gv) * model + gv).max(floor),
+                1.0 + model * k.model_part_share_slope(),
             )
         };
         for cut in PROCESS_CUTS.iter().copied().filter(|&c| c < safe_cut) {
@@ -883,14 +884,15 @@ impl FastCommittee<'_> {
                 let base = p.clone();
                 // the row with the process's part: whether its check holds
                 // (the variance s·σ² + ρ·v_c + gv with ρ = gv/τ² clamped to
-                // [0, 1]: its error is at most ρ·E + (v_c + E)·E_p/τ² + E_p)
-                let tau2 = k.signal_var.max(VAR_FLOOR);
+                // [0, 1], or 1: its error is at most ρ·E + (v_c + E)·E_p·ρ' +
+                // E_p, ρ' = 1/τ² or 0)
+                let slope = k.model_part_share_slope();
                 let mut take = |i: usize, (gm, gv, em, ev, _): ProcessRow| {
                     p.mean[i] = base.mean[i] + gm;
                     let cv = base.committee_var[i];
                     p.var[i] = k.total_var(base.noise_var[i], cv, gv);
                     p.noise_var[i] = base.noise_var[i] * factor;
-                    let e_total = k.remaining_share(gv) * e_c[i] + (cv + e_c[i]) * ev / tau2 + ev;
+                    let e_total = k.model_part_share(gv) * e_c[i] + (cv + e_c[i]) * ev * slope + ev;
                     self.row_ok(e_c[i], p.committee_var[i], e_total, p.var[i], em)
                 };
                 let mut retry = Vec::new();

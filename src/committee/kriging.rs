@@ -48,7 +48,7 @@
 //! ```text
 //! mean = ȳ(x*) + k*ᵀα
 //! var  = s·σ²(x*) + ρ(x*)·model variance(x*) + τ² − k*ᵀK_y⁻¹k*
-//! ρ(x*) = (τ² − k*ᵀK_y⁻¹k*)/τ²
+//! ρ(x*) = (τ² − k*ᵀK_y⁻¹k*)/τ²   (or 1, as the held-out part chose)
 //! ```
 //!
 //! # The committee's model part beside the process
@@ -70,13 +70,18 @@
 //! ```
 //!
 //! (τ²wᵀRw + wᵀSw = τ²wᵀr* from (τ²R + S)w = τ²r*, S = s·diag(σ²)). The
-//! committee's model part is therefore taken times ρ, an upper bound of
-//! the exact term that costs nothing beyond the process's own variance:
+//! committee's model part can therefore be taken times ρ, an upper bound
+//! of the exact term that costs nothing beyond the process's own variance:
 //! next to rows that pin the residual down it mostly goes, far from them
-//! (ρ → 1) it is whole. Adding v_c in full counted the error the process
+//! (ρ → 1) it is whole. Adding v_c in full counts the error the process
 //! corrects twice; on invented near-noiseless data (noise sd 1e-4 of the
 //! range, docs/benchmarks.md, "Calibration when the noise is tiny") that
-//! put 0.85 of fresh rows within ±1 sd. The committee's own model
+//! put 0.85 of fresh rows within ±1 sd. But the premise, an error that
+//! shares the process's correlation, does not hold everywhere (on yacht
+//! ρ narrowed the bands too far), so the held-out part chooses between ρ
+//! and the whole part, the whole kept unless ρ wins by more than one
+//! standard error ([`ResidualKriging::shares_model_part`],
+//! [`crate::prec::MODEL_PART_PARSIMONY_SE`]). The committee's own model
 //! variance is still what the domain guard reads.
 //!
 //! # Approximations
@@ -148,6 +153,11 @@ pub struct ResidualKriging {
     /// The maximised objective at the chosen θ: log marginal likelihood
     /// of the residuals plus the log hyperprior (up to its constant).
     pub log_marginal_likelihood: f64,
+    /// True when the committee's model part is taken times ρ beside the
+    /// process (module doc), as the held-out part chose; false (and in
+    /// files written before 2026-12-05): taken whole.
+    #[serde(default, skip_serializing_if = "std::ops::Not::not")]
+    pub shares_model_part: bool,
     /// The factorised kernel matrix, built on first use.
     #[serde(skip)]
     state: OnceLock<Option<Arc<KrigingState>>>,
@@ -162,6 +172,7 @@ impl PartialEq for ResidualKriging {
             && self.signal_var == other.signal_var
             && self.noise_factor == other.noise_factor
             && self.log_marginal_likelihood == other.log_marginal_likelihood
+            && self.shares_model_part == other.shares_model_part
     }
 }
 
@@ -453,6 +464,7 @@ impl ResidualKriging {
             signal_var,
             noise_factor,
             log_marginal_likelihood: -value,
+            shares_model_part: false,
             state: OnceLock::new(),
         })
     }
@@ -486,6 +498,7 @@ impl ResidualKriging {
             signal_var,
             noise_factor,
             log_marginal_likelihood: -value,
+            shares_model_part: self.shares_model_part,
             state: OnceLock::new(),
             length_scales: self.length_scales.clone(),
         })
@@ -548,12 +561,41 @@ impl ResidualKriging {
         (process_var / self.signal_var.max(VAR_FLOOR)).clamp(0.0, 1.0)
     }
 
+    /// The share of the committee's model part kept beside the process at
+    /// a row with the process's variance `process_var`:
+    /// [`ResidualKriging::remaining_share`] when the held-out part chose
+    /// it ([`ResidualKriging::shares_model_part`]), else 1.
+    pub fn model_part_share(&self, process_var: f64) -> f64 {
+        if self.shares_model_part {
+            self.remaining_share(process_var)
+        } else {
+            1.0
+        }
+    }
+
+    /// How fast [`ResidualKriging::model_part_share`] can change with the
+    /// process's variance: 1/τ² when it is ρ, else 0 (for error bounds).
+    pub fn model_part_share_slope(&self) -> f64 {
+        if self.shares_model_part {
+            1.0 / self.signal_var.max(VAR_FLOOR)
+        } else {
+            0.0
+        }
+    }
+
+    /// This process with the committee's model part taken times ρ
+    /// (`yes`) or whole.
+    pub(crate) fn sharing_model_part(mut self, yes: bool) -> Self {
+        self.shares_model_part = yes;
+        self
+    }
+
     /// The variance of an estimate with the process (module doc): the
     /// committee's noise variance `noise_var` under the factor s, its model
-    /// variance `model_var` times [`ResidualKriging::remaining_share`], and
-    /// the process's posterior variance `process_var`.
+    /// variance `model_var` times [`ResidualKriging::model_part_share`],
+    /// and the process's posterior variance `process_var`.
     pub fn total_var(&self, noise_var: f64, model_var: f64, process_var: f64) -> f64 {
-        self.noise_factor * noise_var + self.remaining_share(process_var) * model_var + process_var
+        self.noise_factor * noise_var + self.model_part_share(process_var) * model_var + process_var
     }
 
     /// Whether the stored process can be used (its kernel matrix factorises).
@@ -782,6 +824,7 @@ mod tests {
             signal_var: 1.0,
             noise_factor: 1.0,
             log_marginal_likelihood: 0.0,
+            shares_model_part: true,
             state: OnceLock::new(),
         };
         let tau2 = k.signal_var;

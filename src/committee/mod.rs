@@ -21,10 +21,11 @@
 //! uncertainty), the second their disagreement. A committee may also
 //! carry a Gaussian process on its residuals ([`ResidualKriging`]), which
 //! adds its posterior mean and variance, takes a share of the noise
-//! variance and keeps of the committee's model part the share ρ(x) of its
-//! own prior variance left at x, since its mean corrects the committee's
-//! error from nearby residuals (docs/method.md §6a; module kriging, "The
-//! committee's model part beside the process"), and a share of gross errors estimated on
+//! variance and, when the held-out part shows it, keeps of the committee's
+//! model part only the share ρ(x) of its own prior variance left at x,
+//! since its mean corrects the committee's error from nearby residuals
+//! (docs/method.md §6a; module kriging, "The committee's model part beside
+//! the process"), and a share of gross errors estimated on
 //! the held-out part ([`GrossErrorModel`]): measured values unrelated to the
 //! inputs, beside the Gaussian (docs/method.md §6b). The held-out part may
 //! also put a factor c on the committee's model part:
@@ -379,8 +380,9 @@ impl Committee {
             (self.kriging_correction(x), self.kriging.as_ref())
         {
             // var = s·σ²(x) + ρ(x)·(parameter + committee variance) + GP
-            // variance (module kriging, "The committee's model part beside
-            // the process"); committee_var stays whole for the domain guard
+            // variance, ρ = 1 unless the held-out part chose otherwise
+            // (module kriging, "The committee's model part beside the
+            // process"); committee_var stays whole for the domain guard
             p.mean += &gp_mean;
             for i in 0..p.var.len() {
                 p.var[i] = k.total_var(p.noise_var[i], p.committee_var[i], gp_var[i]);
