@@ -10,6 +10,8 @@
 //!
 //! ```text
 //! cargo run --release --example near_noiseless -- --rows 3000 --hidden 1..8 --restarts 2
+//! # --min-heldout N: held-out rows the model part's share needs (default
+//! # prec::MODEL_PART_MIN_HELDOUT)
 //! ```
 
 use mettle::fixedmath::FixedMath;
@@ -82,7 +84,11 @@ fn main() -> anyhow::Result<()> {
         .seed(seed)
         .kriging(kriging)
         .noise(noise)
-        .heavy_tails(!args.iter().any(|a| a == "--no-tails"));
+        .heavy_tails(!args.iter().any(|a| a == "--no-tails"))
+        .model_part_min_heldout(
+            arg(&args, "--min-heldout")
+                .map_or(Ok(mettle::prec::MODEL_PART_MIN_HELDOUT), |s| s.parse())?,
+        );
     let t0 = std::time::Instant::now();
     let model = Model::train(&train, &spec, &Silent)?;
     println!(
@@ -110,6 +116,12 @@ fn main() -> anyhow::Result<()> {
         c.selection.kriging.kriging_nlpd,
         c.selection.nlpd_by_size
     );
+    if let Some(mp) = &c.selection.kriging.model_part {
+        println!(
+            "model part beside the process (held-out): whole nlpd {:.4}  times ρ {:.4}  se {:.4}  mean z² whole {:.3}  P(χ² ≤) {:.2e}  shared {}",
+            mp.whole_nlpd, mp.shared_nlpd, mp.se, mp.whole_mean_z2, mp.whole_too_wide_p, mp.shared
+        );
+    }
     if let Some(g) = &c.gross_errors {
         println!(
             "gross share {:.4}  tail dof {:?}  heldout nlpd gaussian {:.4} -> {:.4}",

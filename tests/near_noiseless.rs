@@ -17,9 +17,14 @@
 //! Before 2026-12-05 the committee's model variance was added in full
 //! beside the residual process, whose mean corrects that very error: the
 //! bands were too wide at the centre (module committee::kriging, "The
-//! committee's model part beside the process"). The cheap test below runs
-//! by default (a reduced search on 1500 rows); the study at 4000 rows with
-//! a wider search is ignored for its minutes of training.
+//! committee's model part beside the process"). The held-out part now
+//! may take that part times ρ, the share of the process's prior variance
+//! left at the row, when it has at least prec::MODEL_PART_MIN_HELDOUT
+//! rows. The cheap test below runs by default: a reduced search on 1500
+//! rows, whose 300 held-out rows are below that threshold, so the choice
+//! is let through explicitly (`model_part_min_heldout(0)`); the study at
+//! 4000 rows (800 held-out rows) checks the default and is ignored for its
+//! minutes of training.
 
 #[path = "../benches/support/near_noiseless.rs"]
 mod near_noiseless;
@@ -36,7 +41,12 @@ const FRESH_ROWS: usize = 2000;
 /// coverage_68, coverage_95 and NLPD on fresh rows of a committee trained
 /// with default settings but for the search (hidden units `hidden`,
 /// `restarts` restarts) on `train_rows` rows.
-fn coverages(train_rows: usize, hidden: (usize, usize), restarts: usize) -> (f64, f64, f64) {
+fn coverages(
+    train_rows: usize,
+    hidden: (usize, usize),
+    restarts: usize,
+    min_heldout: usize,
+) -> (f64, f64, f64) {
     let (train, _) = near_noiseless::columns(train_rows, 7);
     let (fresh, _) = near_noiseless::columns(FRESH_ROWS, 1007);
     let train = Table::from_columns("near-noiseless (invented)", train).expect("table");
@@ -46,7 +56,8 @@ fn coverages(train_rows: usize, hidden: (usize, usize), restarts: usize) -> (f64
     spec.params = CommitteeParams::default()
         .hidden(hidden.0, hidden.1)
         .restarts(restarts)
-        .seed(7);
+        .seed(7)
+        .model_part_min_heldout(min_heldout);
     let model = Model::train(&train, &spec, &Silent).expect("training succeeds");
     let (_, e) = model
         .evaluate(&fresh)
@@ -66,13 +77,16 @@ fn check(c68: f64, c95: f64, nlpd: f64) {
 
 #[test]
 fn central_interval_covers_its_share_when_the_noise_is_tiny() {
-    let (c68, c95, nlpd) = coverages(1500, (2, 4), 1);
+    // 300 held-out rows: below prec::MODEL_PART_MIN_HELDOUT, so the choice
+    // is let through explicitly
+    let (c68, c95, nlpd) = coverages(1500, (2, 4), 1, 0);
     check(c68, c95, nlpd);
 }
 
 #[test]
 #[ignore = "minutes of training (4000 rows, search 1..6 × 2); run with --ignored"]
 fn central_interval_covers_its_share_when_the_noise_is_tiny_study() {
-    let (c68, c95, nlpd) = coverages(4000, (1, 6), 2);
+    // 800 held-out rows: the default lets the held-out part choose
+    let (c68, c95, nlpd) = coverages(4000, (1, 6), 2, mettle::prec::MODEL_PART_MIN_HELDOUT);
     check(c68, c95, nlpd);
 }

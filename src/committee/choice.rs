@@ -76,6 +76,7 @@ impl Choice {
             committee_nlpd: Some(chosen.trial.committee_nlpd),
             kriging_nlpd: chosen.trial.kriged.as_ref().map(|k| k.0),
             failure: chosen.trial.failure,
+            model_part: chosen.trial.model_part,
             ..KrigingSelection::default()
         };
         Ok(if use_kriging {
@@ -274,6 +275,7 @@ mod tests {
             committee_noise_var: Array1::ones(8),
             kriged: kriged.map(|k| (k, z(), Array1::ones(8))),
             process: None,
+            model_part: None,
             failure: kriged.is_none().then(|| "singular".to_string()),
         }
     }

@@ -890,7 +890,7 @@ impl FastCommittee<'_> {
                 let mut take = |i: usize, (gm, gv, em, ev, _): ProcessRow| {
                     p.mean[i] = base.mean[i] + gm;
                     let cv = base.committee_var[i];
-                    p.var[i] = k.total_var(base.noise_var[i], cv, gv);
+                    p.var[i] = k.total_var(base.var[i], base.noise_var[i], cv, gv);
                     p.noise_var[i] = base.noise_var[i] * factor;
                     let e_total = k.model_part_share(gv) * e_c[i] + (cv + e_c[i]) * ev * slope + ev;
                     self.row_ok(e_c[i], p.committee_var[i], e_total, p.var[i], em)

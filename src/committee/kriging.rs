@@ -77,11 +77,13 @@
 //! corrects twice; on invented near-noiseless data (noise sd 1e-4 of the
 //! range, docs/benchmarks.md, "Calibration when the noise is tiny") that
 //! put 0.85 of fresh rows within ±1 sd. But the premise, an error that
-//! shares the process's correlation, does not hold everywhere (on yacht
-//! ρ narrowed the bands too far), so the held-out part chooses between ρ
-//! and the whole part, the whole kept unless ρ wins by more than one
-//! standard error ([`ResidualKriging::shares_model_part`],
-//! [`crate::prec::MODEL_PART_PARSIMONY_SE`]). The committee's own model
+//! shares the process's correlation, cannot be taken for granted (on
+//! yacht ρ taken always narrowed the bands too far), so the held-out part
+//! chooses between ρ and the whole part when it has enough rows
+//! (committee::residual: the whole bands shown too wide by a χ² test and
+//! ρ better by more than one standard error;
+//! [`ResidualKriging::shares_model_part`],
+//! [`crate::prec::MODEL_PART_MIN_HELDOUT`]). The committee's own model
 //! variance is still what the domain guard reads.
 //!
 //! # Approximations
@@ -590,12 +592,21 @@ impl ResidualKriging {
         self
     }
 
-    /// The variance of an estimate with the process (module doc): the
-    /// committee's noise variance `noise_var` under the factor s, its model
-    /// variance `model_var` times [`ResidualKriging::model_part_share`],
-    /// and the process's posterior variance `process_var`.
-    pub fn total_var(&self, noise_var: f64, model_var: f64, process_var: f64) -> f64 {
-        self.noise_factor * noise_var + self.model_part_share(process_var) * model_var + process_var
+    /// The variance of an estimate with the process (module doc) from the
+    /// committee's variance `var` = `noise_var` + `model_var`: the noise
+    /// under the factor s, the model part times
+    /// [`ResidualKriging::model_part_share`], and the process's posterior
+    /// variance `process_var`. With the model part whole it is computed
+    /// as before the share existed, var + (s − 1)·noise + process, so that
+    /// such a committee's choices and estimates keep their last bits.
+    pub fn total_var(&self, var: f64, noise_var: f64, model_var: f64, process_var: f64) -> f64 {
+        if self.shares_model_part {
+            self.noise_factor * noise_var
+                + self.model_part_share(process_var) * model_var
+                + process_var
+        } else {
+            var + noise_var * (self.noise_factor - 1.0) + process_var
+        }
     }
 
     /// Whether the stored process can be used (its kernel matrix factorises).

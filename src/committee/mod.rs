@@ -191,6 +191,35 @@ pub struct KrigingSelection {
     pub n_rows: usize,
     /// Why the process could not be fitted, when it could not.
     pub failure: Option<String>,
+    /// The held-out choice of the committee's model part beside the
+    /// process (whole or times ρ), when a process was scored.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub model_part: Option<ModelPartChoice>,
+}
+
+/// The held-out comparison of the committee's model part taken whole and
+/// times ρ beside the residual process (module kriging, "The committee's
+/// model part beside the process"): mean Gaussian NLPD per held-out row
+/// (scaled target units) of each, and the standard error of their paired
+/// difference.
+#[derive(Clone, Debug, Default, PartialEq, Serialize, Deserialize)]
+pub struct ModelPartChoice {
+    /// With the model part whole.
+    pub whole_nlpd: f64,
+    /// With the model part times ρ.
+    pub shared_nlpd: f64,
+    /// Standard error of the mean paired difference.
+    pub se: f64,
+    /// Mean of z² = (t − mean)²/variance over the held-out rows with the
+    /// model part whole (1 for honest Gaussian bands).
+    #[serde(default)]
+    pub whole_mean_z2: f64,
+    /// P(χ²_n ≤ Σz²) for those n rows: small when the whole bands are too
+    /// wide.
+    #[serde(default)]
+    pub whole_too_wide_p: f64,
+    /// Whether ρ was chosen.
+    pub shared: bool,
 }
 
 /// The choice between constant and varying noise, on the held-out part.
@@ -385,7 +414,7 @@ impl Committee {
             // process"); committee_var stays whole for the domain guard
             p.mean += &gp_mean;
             for i in 0..p.var.len() {
-                p.var[i] = k.total_var(p.noise_var[i], p.committee_var[i], gp_var[i]);
+                p.var[i] = k.total_var(p.var[i], p.noise_var[i], p.committee_var[i], gp_var[i]);
             }
             p.noise_var *= factor;
         }

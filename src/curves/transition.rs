@@ -216,7 +216,7 @@ fn member_curves(model: &Model, k: usize, scaled: &Array2<f64>) -> MemberCurves 
             if let (Some((gm, gv, factor)), Some(k)) = (&correction, process) {
                 y += gm;
                 var = Array1::from_iter(
-                    (0..gv.len()).map(|i| k.total_var(nv[i], var[i] - nv[i], gv[i])),
+                    (0..gv.len()).map(|i| k.total_var(var[i], nv[i], var[i] - nv[i], gv[i])),
                 );
                 nv *= *factor;
             }
