@@ -790,6 +790,7 @@ mod tests {
             signal_var: signal,
             noise_factor: factor,
             log_marginal_likelihood: lml,
+            shares_model_part: false,
             state: OnceLock::new(),
         };
         // tolerance: one part in a million of the process's sd (our

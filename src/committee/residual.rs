@@ -176,15 +176,17 @@ pub(super) fn try_processes(
 ///
 /// Otherwise the model part is kept whole, as before 2026-12-05.
 ///
-/// Why both: on invented near-noiseless data ρ brings ±1 sd from 0.85 of
-/// fresh rows to 0.68, but on yacht's inner cross-validation
-/// (docs/benchmarks.md, "Calibration when the noise is tiny") the NLPD
-/// rule alone took ρ on every fold, and the bands came out too narrow
+/// Asked only with at least [`crate::prec::MODEL_PART_MIN_HELDOUT`]
+/// held-out rows ([`try_processes`]). Why: on invented near-noiseless data
+/// ρ brings ±1 sd from 0.85 of fresh rows to 0.68, but on yacht's inner
+/// cross-validation (docs/benchmarks.md, "Calibration when the noise is
+/// tiny") the NLPD rule alone took ρ and the bands came out too narrow
 /// (coverage_95 0.90 against 0.93): the held-out part, which also ranked
-/// the candidates, is optimistic about their error, and with about 50
-/// rows it read that as over-wide bands. The χ² condition asks for the
-/// issue's own symptom, bands too wide at the centre, before narrowing
-/// them.
+/// the candidates, is optimistic about their error, and with about 55
+/// rows it read that as over-wide bands — the χ² condition too was met on
+/// 5 of 8 yacht training parts. The χ² condition asks for the issue's own
+/// symptom, bands too wide at the centre, before narrowing them; the
+/// floor on the rows keeps the optimism small.
 fn model_part_choice(
     split: &HeldOutSplit,
     mean: &Array1<f64>,
