@@ -549,12 +549,14 @@ impl FastProcess {
         // calibration row's variance (the row's check below gives the
         // process at most that) on 99 % of the rows
         let need = (FAST_CALIBRATION_SHARE * calibration.nrows() as f64).ceil() as usize;
-        // a row's variance with the process's variance `gv`, and the
-        // factor on the process's bound (module doc, "Each row checked")
+        // a row's variance without the process's own (non-negative) part,
+        // given the process's variance `gv`, and the factor on the
+        // process's bound (module doc, "Each row checked"); with the model
+        // part whole, the noise and model part as before the share existed
         let var_of = |i: usize, gv: f64| {
             let (noise, model) = row_var.map_or((floor, 0.0), |v| v[i]);
             (
-                (noise + k.model_part_share(gv) * model + gv).max(floor),
+                (noise + k.model_part_share(gv) * model).max(floor),
                 1.0 + model * k.model_part_share_slope(),
             )
         };
