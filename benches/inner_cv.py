@@ -13,8 +13,9 @@ of the engine side by side, paired on the same folds). For each outer split K, t
 setting is trained on all folds but one and predicts the left-out fold, so every training
 row is predicted once by a model that did not see it. Printed per setting: the
 cross-validated RMSE, a Gaussian LL (mean log N(y | mean, sd^2), for mettle not its own density: a diagnostic of the mean first), coverage of ±1 sd and ±2 sd, the
-paired RMSE difference against the first setting (mean over folds ± its SE), and the CPU
-time of the fits. With --rows DIR the per-row out-of-fold predictions are written as
+paired RMSE difference against the first setting (mean over folds ± its SE), the CPU
+time of the fits, and for mettle its own LL (−nlpd of `mettle evaluate`, with the model's error
+shape and share of gross errors) and central-interval coverages over the folds. With --rows DIR the per-row out-of-fold predictions are written as
 DIR/<dataset>_<outer>_<setting>.csv (row = index into data.csv, y, mean, sd) for the
 residual study (benches/inner_cv.py --groups).
 
@@ -92,7 +93,25 @@ def mettle_fold(header, train, test, config, work):
                           "json", "--exact"], env=env, check=True, capture_output=True, text=True)
     rows = json.loads(out.stdout)["rows"]
     est = [r["estimates"][header[-1]] for r in rows]
+    # mettle's own density and central intervals (`mettle evaluate`), summed over the fold's rows
+    ev = json.loads(subprocess.run([binary, "evaluate", "--model", m, "--data", te, "--format",
+                                    "json"], env=env, check=True, capture_output=True,
+                                   text=True).stdout)
+    ev = ev[0] if isinstance(ev, list) else ev
+    n = len(test)
+    OWN.append((n, n * ev["nlpd"], n * ev["coverage_68"], n * ev["coverage_95"]))
     return np.array([e["mean"] for e in est]), np.array([e["sd"] for e in est]), cpu
+
+
+OWN = []
+
+
+def own_scores():
+    """mettle's own LL (−nlpd) and coverages over the folds since the last call."""
+    a = np.array(OWN) if OWN else np.zeros((1, 4))
+    OWN.clear()
+    n = a[:, 0].sum()
+    return (-a[:, 1].sum() / n, a[:, 2].sum() / n, a[:, 3].sum() / n) if n else None
 
 
 def catboost_fold(train, test, seed):
@@ -146,12 +165,15 @@ def train_all():
                 math.sqrt(np.mean((y[fold == f] - mean[fold == f]) ** 2))
                 for f in range(ARGS.folds)])
             rmse, ll, c68, c95 = scores(y, mean, sd)
+            own = own_scores()
+            own = (f" | own LL {own[0]:.3f} cov68 {own[1]:.3f} cov95 {own[2]:.3f}"
+                   if own else "")
             first = per_fold_rmse[configs[0][0]]
             d = per_fold_rmse[name] - first
             se = d.std(ddof=1) / math.sqrt(len(d)) if len(d) > 1 else float("nan")
             print(f"{ARGS.dataset} outer {k} {name:>16}: CV RMSE {rmse:.4f} LL {ll:.3f} "
                   f"cov68 {c68:.3f} cov95 {c95:.3f} | RMSE − {configs[0][0]} "
-                  f"{d.mean():+.4f} ± {se:.4f} (folds) | CPU {cpu:.1f} s", flush=True)
+                  f"{d.mean():+.4f} ± {se:.4f} (folds) | CPU {cpu:.1f} s{own}", flush=True)
             if ARGS.rows:
                 np.savetxt(ARGS.rows / f"{ARGS.dataset}_{k}_{name}.csv",
                            np.column_stack([tr, y, mean, sd]), delimiter=",",

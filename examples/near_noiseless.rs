@@ -3,10 +3,15 @@
 //! inputs, noise sd 1e-4 of its range). Trains one committee and reports,
 //! on fresh rows of the same generator, the coverages, rms of
 //! z = (y − mean)/sd, and where the variance comes from (noise, members'
-//! parameter variance, committee spread, residual process).
+//! parameter variance, committee spread, residual process, the share ρ
+//! of the model part kept beside the process), with the variance as
+//! before ρ ("model part whole") beside today's, by quintile of the
+//! predicted sd.
 //!
 //! ```text
 //! cargo run --release --example near_noiseless -- --rows 3000 --hidden 1..8 --restarts 2
+//! # --min-heldout N: held-out rows the model part's share needs (default
+//! # prec::MODEL_PART_MIN_HELDOUT)
 //! ```
 
 use mettle::fixedmath::FixedMath;
@@ -79,7 +84,11 @@ fn main() -> anyhow::Result<()> {
         .seed(seed)
         .kriging(kriging)
         .noise(noise)
-        .heavy_tails(!args.iter().any(|a| a == "--no-tails"));
+        .heavy_tails(!args.iter().any(|a| a == "--no-tails"))
+        .model_part_min_heldout(
+            arg(&args, "--min-heldout")
+                .map_or(Ok(mettle::prec::MODEL_PART_MIN_HELDOUT), |s| s.parse())?,
+        );
     let t0 = std::time::Instant::now();
     let model = Model::train(&train, &spec, &Silent)?;
     println!(
@@ -107,6 +116,12 @@ fn main() -> anyhow::Result<()> {
         c.selection.kriging.kriging_nlpd,
         c.selection.nlpd_by_size
     );
+    if let Some(mp) = &c.selection.kriging.model_part {
+        println!(
+            "model part beside the process (held-out): whole nlpd {:.4}  times ρ {:.4}  se {:.4}  mean z² whole {:.3}  P(χ² ≤) {:.2e}  shared {}",
+            mp.whole_nlpd, mp.shared_nlpd, mp.se, mp.whole_mean_z2, mp.whole_too_wide_p, mp.shared
+        );
+    }
     if let Some(g) = &c.gross_errors {
         println!(
             "gross share {:.4}  tail dof {:?}  heldout nlpd gaussian {:.4} -> {:.4}",
@@ -176,10 +191,54 @@ fn main() -> anyhow::Result<()> {
         g.0,
         g.1,
     );
-    let pv: Vec<f64> = (0..n).map(|i| p.var[i] - spread[i]).collect();
-    stats("without spread, gaussian", &y, &m, &pv, g.0, g.1);
-    let sv: Vec<f64> = (0..n).map(|i| p.var[i] - param[i]).collect();
-    stats("without param var, gaussian", &y, &m, &sv, g.0, g.1);
+    // the model part discounted by what the process learnt near each row:
+    // ρ = process variance / its prior variance τ²
+    if let (Some((_, gv, s)), Some(k)) = (gp.as_ref(), c.kriging.as_ref()) {
+        let tau2 = k.signal_var;
+        let rho: Vec<f64> = gv.iter().map(|v| (v / tau2).clamp(0.0, 1.0)).collect();
+        let model: Vec<f64> = (0..n).map(|i| param[i] + spread[i]).collect();
+        let nv: Vec<f64> = (0..n).map(|i| p.noise_var[i]).collect();
+        let dv: Vec<f64> = (0..n).map(|i| nv[i] + rho[i] * model[i] + gv[i]).collect();
+        stats("model part × ρ, gaussian", &y, &m, &dv, g.0, g.1);
+        let wv: Vec<f64> = (0..n).map(|i| nv[i] + model[i] + gv[i]).collect();
+        stats("model part whole (before), gaussian", &y, &m, &wv, g.0, g.1);
+        let ov: Vec<f64> = (0..n).map(|i| nv[i] + gv[i]).collect();
+        stats("no model part, gaussian", &y, &m, &ov, g.0, g.1);
+        println!(
+            "tau2 {tau2:.3e}  s {s:.3}  mean rho {:.3}  median rho {:.3}",
+            rho.iter().sum::<f64>() / n as f64,
+            {
+                let mut r = rho.clone();
+                r.sort_by(f64::total_cmp);
+                r[n / 2]
+            }
+        );
+        // parts by quintile of the predicted sd
+        let mut order: Vec<usize> = (0..n).collect();
+        order.sort_by(|&a, &b| v[a].total_cmp(&v[b]));
+        println!("| sd quintile | noise s/β | param gᵀA⁻¹g | spread | process | ρ | total | error² | error²/total |");
+        println!("|---|---|---|---|---|---|---|---|---|");
+        for q in 0..5 {
+            let idx = &order[q * n / 5..(q + 1) * n / 5];
+            let mean = |f: &dyn Fn(usize) -> f64| {
+                idx.iter().map(|&i| f(i)).sum::<f64>() / idx.len() as f64
+            };
+            let tot = mean(&|i| v[i]);
+            let e2 = mean(&|i| (y[i] - m[i]).powi(2));
+            println!(
+                "| {} | {:.2e} | {:.2e} | {:.2e} | {:.2e} | {:.2} | {:.2e} | {:.2e} | {:.2} |",
+                q + 1,
+                mean(&|i| nv[i]),
+                mean(&|i| param[i]),
+                mean(&|i| spread[i]),
+                mean(&|i| gv[i]),
+                mean(&|i| rho[i]),
+                tot,
+                e2,
+                e2 / tot
+            );
+        }
+    }
     // split by share of the model part
     for (lab, lo, hi) in [
         ("noise share > 0.5", 0.5, 1.01),

@@ -82,6 +82,7 @@ impl Choice {
             committee_nlpd: Some(chosen.trial.committee_nlpd),
             kriging_nlpd: chosen.trial.kriged.as_ref().map(|k| k.0),
             failure: chosen.trial.failure,
+            model_part: chosen.trial.model_part,
             ..KrigingSelection::default()
         };
         Ok(if use_kriging {
@@ -176,7 +177,7 @@ fn parsimonious<'c>(
 /// Per-row Gaussian NLPD of a held-out prediction (`mean`, `var` scaled)
 /// at targets `t` (scaled units: the target width's log cancels in a
 /// paired difference).
-fn row_nlpd((mean, var): &HeldOut, t: ArrayView1<f64>) -> Vec<f64> {
+pub(super) fn row_nlpd((mean, var): &HeldOut, t: ArrayView1<f64>) -> Vec<f64> {
     let c = (2.0 * std::f64::consts::PI).ln_fixed();
     mean.iter()
         .zip(var)
@@ -192,7 +193,7 @@ fn row_nlpd((mean, var): &HeldOut, t: ArrayView1<f64>) -> Vec<f64> {
 /// sd on n − 1 (the paired t-test's; Rice, *Mathematical Statistics and
 /// Data Analysis*, §11.3); infinite with fewer than two rows, so that
 /// nothing counts as shown.
-fn paired_se(a: &[f64], b: &[f64]) -> f64 {
+pub(super) fn paired_se(a: &[f64], b: &[f64]) -> f64 {
     let d: Vec<f64> = a.iter().zip(b).map(|(x, y)| x - y).collect();
     let n = d.len() as f64;
     if d.len() < 2 {
@@ -291,6 +292,7 @@ mod tests {
             committee_noise_var: Array1::ones(8),
             kriged: kriged.map(|k| (k, z(), Array1::ones(8))),
             process: None,
+            model_part: None,
             failure: kriged.is_none().then(|| "singular".to_string()),
         }
     }

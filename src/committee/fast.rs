@@ -68,9 +68,13 @@
 //!
 //! Per row, E is the bound on the committee's variance error (the mean of
 //! its members' bounds) and E_p the process's: the row is kept when
-//! E ≤ tol·(committee variance − E), E + E_p ≤ tol·(total variance − E −
-//! E_p) and the mean's bound is at most tol/10 of the sd, with tol =
-//! [`FAST_SD_TOL`]. Since |√a/√b − 1| = |a − b|/(√b(√a + √b)) ≤ |a − b|/b,
+//! E ≤ tol·(committee variance − E), E_t ≤ tol·(total variance − E_t)
+//! and the mean's bound is at most tol/10 of the sd, with tol =
+//! [`FAST_SD_TOL`], and E_t = E without a process, E_t = ρE + (v_c +
+//! E)·E_p/τ² + E_p with one (the total s·σ² + ρ·v_c + process variance,
+//! ρ = process variance/τ² clamped to [0, 1], so that ρ errs by at most
+//! E_p/τ²; module kriging; when the held-out part kept the model part
+//! whole, ρ = 1 and E_t = E + E_p). Since |√a/√b − 1| = |a − b|/(√b(√a + √b)) ≤ |a − b|/b,
 //! both sds (the total and the committee's own, the domain guard's signal)
 //! then lie within tol of the exact ones. Any other row is computed by the
 //! exact path, one row at a time, so that no result depends on how rows
@@ -218,15 +222,15 @@ impl Committee {
         };
         let mp = members_predict(&self.members, d, cal);
         let cv = mp.committee_var.as_slice().expect("a fresh array");
-        // each calibration row's variance without the process (the
-        // process's own is non-negative): the noise under the process's
-        // factor and the committee's part under its scale
+        // each calibration row's noise under the process's factor and the
+        // committee's model part under its scale (the variance with the
+        // process adds ρ times the latter and the process's own)
         let model_scale = self.model_var_scale().unwrap_or(1.0);
-        let row_var: Option<Vec<f64>> = self.kriging.as_ref().map(|k| {
+        let row_var: Option<Vec<(f64, f64)>> = self.kriging.as_ref().map(|k| {
             mp.noise_var
                 .iter()
                 .zip(cv)
-                .map(|(nv, c)| nv * k.noise_factor + c * model_scale)
+                .map(|(nv, c)| (nv * k.noise_factor, c * model_scale))
                 .collect()
         });
         // the members' eigen-decompositions (Householder and implicit QL,
@@ -468,12 +472,13 @@ impl LowRank {
 
 impl FastProcess {
     /// The fast path of `k`, its cut chosen on the `calibration` rows,
-    /// whose total variance without the process is at least `row_var`
-    /// (None: the smallest noise variance serves for every row).
+    /// whose noise variance under the process's factor and model variance
+    /// are `row_var` (None: the smallest noise variance serves for every
+    /// row, with no model part).
     fn new(
         k: &ResidualKriging,
         calibration: ArrayView2<f64>,
-        row_var: Option<&[f64]>,
+        row_var: Option<&[(f64, f64)]>,
     ) -> Option<FastProcess> {
         let n = k.x.nrows();
         if n == 0 || k.residual.len() != n || k.noise_var.len() != n {
@@ -544,7 +549,17 @@ impl FastProcess {
         // calibration row's variance (the row's check below gives the
         // process at most that) on 99 % of the rows
         let need = (FAST_CALIBRATION_SHARE * calibration.nrows() as f64).ceil() as usize;
-        let var_of = |i: usize| row_var.map_or(floor, |v| v[i].max(floor));
+        // a row's variance without the process's own (non-negative) part,
+        // given the process's variance `gv`, and the factor on the
+        // process's bound (module doc, "Each row checked"); with the model
+        // part whole, the noise and model part as before the share existed
+        let var_of = |i: usize, gv: f64| {
+            let (noise, model) = row_var.map_or((floor, 0.0), |v| v[i]);
+            (
+                (noise + k.model_part_share(gv) * model).max(floor),
+                1.0 + model * k.model_part_share_slope(),
+            )
+        };
         for cut in PROCESS_CUTS.iter().copied().filter(|&c| c < safe_cut) {
             fp.cut = cut;
             let ok = calibration
@@ -552,8 +567,8 @@ impl FastProcess {
                 .flat_map(|b| fp.predict(b))
                 .enumerate()
                 .filter(|(i, r)| {
-                    let v = var_of(*i);
-                    r.3 <= 0.5 * FAST_SD_TOL * v && r.2 <= 0.05 * FAST_SD_TOL * v.sqrt()
+                    let (v, grow) = var_of(*i, r.1);
+                    grow * r.3 <= 0.5 * FAST_SD_TOL * v && r.2 <= 0.05 * FAST_SD_TOL * v.sqrt()
                 })
                 .count();
             if ok >= need && calibration.nrows() > 0 {
@@ -870,11 +885,17 @@ impl FastCommittee<'_> {
                 let factor = k.noise_factor;
                 let base = p.clone();
                 // the row with the process's part: whether its check holds
+                // (the variance s·σ² + ρ·v_c + gv with ρ = gv/τ² clamped to
+                // [0, 1], or 1: its error is at most ρ·E + (v_c + E)·E_p·ρ' +
+                // E_p, ρ' = 1/τ² or 0)
+                let slope = k.model_part_share_slope();
                 let mut take = |i: usize, (gm, gv, em, ev, _): ProcessRow| {
                     p.mean[i] = base.mean[i] + gm;
-                    p.var[i] = base.var[i] + base.noise_var[i] * (factor - 1.0) + gv;
+                    let cv = base.committee_var[i];
+                    p.var[i] = k.total_var(base.var[i], base.noise_var[i], cv, gv);
                     p.noise_var[i] = base.noise_var[i] * factor;
-                    self.row_ok(e_c[i], p.committee_var[i], e_c[i] + ev, p.var[i], em)
+                    let e_total = k.model_part_share(gv) * e_c[i] + (cv + e_c[i]) * ev * slope + ev;
+                    self.row_ok(e_c[i], p.committee_var[i], e_total, p.var[i], em)
                 };
                 let mut retry = Vec::new();
                 for (i, row) in fp.predict(x).into_iter().enumerate() {

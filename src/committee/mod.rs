@@ -20,8 +20,12 @@
 //! the first term the members' own variances (noise + parameter
 //! uncertainty), the second their disagreement. A committee may also
 //! carry a Gaussian process on its residuals ([`ResidualKriging`]), which
-//! adds its posterior mean and variance and takes a share of the noise
-//! variance (docs/method.md §6a), and a share of gross errors estimated on
+//! adds its posterior mean and variance, takes a share of the noise
+//! variance and, when the held-out part shows it, keeps of the committee's
+//! model part only the share ρ(x) of its own prior variance left at x,
+//! since its mean corrects the committee's error from nearby residuals
+//! (docs/method.md §6a; module kriging, "The committee's model part beside
+//! the process"), and a share of gross errors estimated on
 //! the held-out part ([`GrossErrorModel`]): measured values unrelated to the
 //! inputs, beside the Gaussian (docs/method.md §6b). The held-out part may
 //! also put a factor c on the committee's model part:
@@ -219,6 +223,35 @@ pub struct KrigingSelection {
     pub n_rows: usize,
     /// Why the process could not be fitted, when it could not.
     pub failure: Option<String>,
+    /// The held-out choice of the committee's model part beside the
+    /// process (whole or times ρ), when a process was scored.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub model_part: Option<ModelPartChoice>,
+}
+
+/// The held-out comparison of the committee's model part taken whole and
+/// times ρ beside the residual process (module kriging, "The committee's
+/// model part beside the process"): mean Gaussian NLPD per held-out row
+/// (scaled target units) of each, and the standard error of their paired
+/// difference.
+#[derive(Clone, Debug, Default, PartialEq, Serialize, Deserialize)]
+pub struct ModelPartChoice {
+    /// With the model part whole.
+    pub whole_nlpd: f64,
+    /// With the model part times ρ.
+    pub shared_nlpd: f64,
+    /// Standard error of the mean paired difference.
+    pub se: f64,
+    /// Mean of z² = (t − mean)²/variance over the held-out rows with the
+    /// model part whole (1 for honest Gaussian bands).
+    #[serde(default)]
+    pub whole_mean_z2: f64,
+    /// P(χ²_n ≤ Σz²) for those n rows: small when the whole bands are too
+    /// wide.
+    #[serde(default)]
+    pub whole_too_wide_p: f64,
+    /// Whether ρ was chosen.
+    pub shared: bool,
 }
 
 /// The choice between constant and varying noise, on the held-out part.
@@ -411,10 +444,17 @@ impl Committee {
             p.committee_var *= c;
             p.var = &p.noise_var + &p.committee_var;
         }
-        if let Some((gp_mean, gp_var, factor)) = self.kriging_correction(x) {
-            // var = s·σ²(x) + (parameter + committee variance) + GP variance
+        if let (Some((gp_mean, gp_var, factor)), Some(k)) =
+            (self.kriging_correction(x), self.kriging.as_ref())
+        {
+            // var = s·σ²(x) + ρ(x)·(parameter + committee variance) + GP
+            // variance, ρ = 1 unless the held-out part chose otherwise
+            // (module kriging, "The committee's model part beside the
+            // process"); committee_var stays whole for the domain guard
             p.mean += &gp_mean;
-            p.var = &p.var + &(&p.noise_var * (factor - 1.0)) + &gp_var;
+            for i in 0..p.var.len() {
+                p.var[i] = k.total_var(p.var[i], p.noise_var[i], p.committee_var[i], gp_var[i]);
+            }
             p.noise_var *= factor;
         }
         p

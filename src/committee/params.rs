@@ -14,9 +14,19 @@
 //! | `noise` | auto | constant noise, noise that varies with the inputs, or the better of the two on the held-out part | constant, varying, auto |
 //! | `early_stop` | true | stop hopeless candidates early: successive halving on the held-out NLPD at the rungs of `prec::SEARCH_RUNGS` | — |
 //! | `partitions` | 1 | held-out partitions whose committees are pooled (cross-fitting; each runs its own search) | 1 ..= 8 |
+//! | `model_part_min_heldout` | 500 (`prec::MODEL_PART_MIN_HELDOUT`) | held-out rows needed before the held-out part may take the committee's model part times ρ beside the residual process (committee::kriging) | any |
 //! | `model_var_scale` | false | let the held-out part choose a factor on the committee's model variance (experimental; committee::gross_errors) | — |
 
 use serde::{Deserialize, Serialize};
+
+/// Serde default of [`CommitteeParams::model_part_min_heldout`].
+fn default_min_heldout() -> usize {
+    crate::prec::MODEL_PART_MIN_HELDOUT
+}
+
+fn is_default_min_heldout(rows: &usize) -> bool {
+    *rows == crate::prec::MODEL_PART_MIN_HELDOUT
+}
 
 use crate::error::{Error, Result};
 use crate::evidence::FitSettings;
@@ -67,6 +77,18 @@ pub struct CommitteeParams {
     /// written before the factor existed read as false.
     #[serde(default)]
     pub model_var_scale: bool,
+    /// Held-out rows needed before the held-out part may take the
+    /// committee's model part times ρ beside the residual process
+    /// (committee::kriging, "The committee's model part beside the
+    /// process"; committee::residual); with fewer the part stays whole.
+    /// Not written when it is the default, so that a default model file
+    /// is what it was before the choice existed; read as the default when
+    /// absent.
+    #[serde(
+        default = "default_min_heldout",
+        skip_serializing_if = "is_default_min_heldout"
+    )]
+    pub model_part_min_heldout: usize,
     /// With varying noise, refit the mean network with each row weighted
     /// by its fitted noise precision (committee::noise); false: the mean
     /// fitted with every row alike is kept. Files written before the
@@ -151,6 +173,7 @@ impl Default for CommitteeParams {
             gross_errors: true,
             heavy_tails: true,
             model_var_scale: false,
+            model_part_min_heldout: crate::prec::MODEL_PART_MIN_HELDOUT,
             reweight_mean: false,
             early_stop: true,
             partitions: 1,
@@ -258,6 +281,15 @@ impl CommitteeParams {
     #[must_use]
     pub fn heavy_tails(mut self, yes: bool) -> Self {
         self.heavy_tails = yes;
+        self
+    }
+
+    /// Held-out rows needed before the held-out part may take the
+    /// committee's model part times ρ beside the residual process (0:
+    /// always let it choose; usize::MAX: never).
+    #[must_use]
+    pub fn model_part_min_heldout(mut self, rows: usize) -> Self {
+        self.model_part_min_heldout = rows;
         self
     }
 

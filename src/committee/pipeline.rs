@@ -65,7 +65,13 @@ pub fn train_committee(
     // 5. [kriging not off] a residual process tried on each noise model
     let rows =
         process_wanted(params).then(|| ProcessRows::on_training_part(params, &split, target, obs));
-    let tried = try_processes(&models, rows.as_ref(), &split, params.model_var_scale);
+    let tried = try_processes(
+        &models,
+        rows.as_ref(),
+        &split,
+        params.model_var_scale,
+        params.model_part_min_heldout,
+    );
     // 6. gross errors and error shape beside each; the noise model and process chosen
     let mut choice = Choice::make(params, &split, tried)?;
     let gross = choice.gross_over_all_rows(t);

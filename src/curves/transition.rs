@@ -24,7 +24,7 @@
 //! the drawn crossings. Seeded, so the same call gives the same interval.
 
 use crate::fixedmath::FixedMath;
-use ndarray::Array2;
+use ndarray::{Array1, Array2};
 use rand::{Rng, SeedableRng};
 use rand_distr::StandardNormal;
 use rand_xoshiro::Xoshiro256PlusPlus;
@@ -204,17 +204,20 @@ fn member_curves(model: &Model, k: usize, scaled: &Array2<f64>) -> MemberCurves 
     let t = &model.targets[k];
     let w = t.scaling.width();
     // the residual process, when there is one, shifts every member's mean
-    // and adds its variance to the parameter part, as in the committee's
-    // own prediction
+    // and adds its variance to the parameter part, which it takes times ρ,
+    // as in the committee's own prediction
     let correction = t.committee.kriging_correction(scaled.view());
+    let process = t.committee.kriging.as_ref();
     t.committee
         .members
         .iter()
         .map(|m| {
             let (mut y, mut var, mut nv) = m.predictive(t.committee.n_inputs, scaled.view());
-            if let Some((gm, gv, factor)) = &correction {
+            if let (Some((gm, gv, factor)), Some(k)) = (&correction, process) {
                 y += gm;
-                var = &var + &(&nv * (factor - 1.0)) + gv;
+                var = Array1::from_iter(
+                    (0..gv.len()).map(|i| k.total_var(var[i], nv[i], var[i] - nv[i], gv[i])),
+                );
                 nv *= *factor;
             }
             let mean = y.iter().map(|v| t.scaling.unscale_linear(*v)).collect();
