@@ -169,7 +169,7 @@ enum Running {
         h: usize,
         r: usize,
         seed: u64,
-        state: PausedFit,
+        state: Box<PausedFit>,
         nlpd: f64,
     },
     Finished(Box<Trial>),
@@ -236,7 +236,7 @@ fn run_batch(
             .map(|run| match run {
                 Running::Paused {
                     h, r, seed, state, ..
-                } => report(continue_candidate(params, split, h, r, seed, state, next)),
+                } => report(continue_candidate(params, split, h, r, seed, *state, next)),
                 done => done,
             })
             .collect();
@@ -312,7 +312,7 @@ fn running(
                 h,
                 r,
                 seed,
-                state,
+                state: Box::new(state),
                 nlpd: split.nlpd(&mean, &var),
             }
         }

@@ -12,8 +12,32 @@ use super::noise_models::NoiseModels;
 use super::varying::{provisional_member, VaryingCandidate, NOISE_SEED_SALT};
 use super::{CheckedCommitteeParams, Member};
 use crate::error::{Error, Result};
-use crate::evidence::{fit_network, FitSettings, StartState};
+use crate::evidence::{fit_network, FitSettings, GaussNewtonSample, StartState};
 use crate::observer::{TrainEvent, TrainObserver};
+use crate::prec::{GAUSS_NEWTON_SAMPLE_ROWS, LARGE_REFIT_MAX_CYCLES, LARGE_TABLE_ROWS};
+
+/// Mixed into the master seed for the rows a large table's Gauss–Newton
+/// matrices are formed from.
+const GAUSS_NEWTON_SEED_SALT: u64 = 0x0064_A055_0028_0002;
+
+/// The fit settings of the refit on `n_rows` rows: `fit` as given, and on a
+/// large table (more than [`LARGE_TABLE_ROWS`]) at most
+/// [`LARGE_REFIT_MAX_CYCLES`] cycles with the Gauss–Newton matrix from a
+/// seeded sample of [`GAUSS_NEWTON_SAMPLE_ROWS`] rows (issue 28 item 2;
+/// the costs in accuracy are in docs/benchmarks.md).
+pub(super) fn refit_settings(fit: &FitSettings, n_rows: usize, seed: u64) -> FitSettings {
+    if n_rows <= LARGE_TABLE_ROWS {
+        return fit.clone();
+    }
+    FitSettings {
+        max_cycles: fit.max_cycles.min(LARGE_REFIT_MAX_CYCLES),
+        gauss_newton_sample: Some(GaussNewtonSample {
+            rows: GAUSS_NEWTON_SAMPLE_ROWS,
+            seed: seed ^ GAUSS_NEWTON_SEED_SALT,
+        }),
+        ..fit.clone()
+    }
+}
 
 /// One member's refit: (member, Σ(1 − r_n) when refitted with the share,
 /// why the refit with the share failed and the Gaussian one was kept
@@ -144,7 +168,7 @@ fn refit_varying(
             x.view(),
             t.view(),
             rec.seed ^ NOISE_SEED_SALT,
-            &params.fit,
+            &refit_settings(&params.fit, x.nrows(), params.seed),
         )
     };
     let (fit, fallback) = match refit(gross) {
@@ -169,9 +193,10 @@ fn refit_constant(
     gross: Option<&GrossErrorModel>,
 ) -> Refit {
     // warm-started: the first cycle needs no more iterations than the others
+    let fit = refit_settings(&params.fit, x.nrows(), params.seed);
     let settings = FitSettings {
-        first_iters: params.fit.cycle_iters,
-        ..params.fit.clone()
+        first_iters: fit.cycle_iters,
+        ..fit
     };
     let net = trial.network();
     let start = StartState {

@@ -87,6 +87,62 @@ pub struct FitSettings {
     pub lbfgs_memory: usize,
     /// Which Hessian to use in A.
     pub hessian: HessianChoice,
+    /// When given and the fit has more rows than its size: the
+    /// Gauss–Newton matrix from this seeded row sample (see
+    /// [`GaussNewtonSample`]); none (every row) by default. Left out of a
+    /// model file when none, so that files written before it read and
+    /// write the same.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub gauss_newton_sample: Option<GaussNewtonSample>,
+}
+
+/// A seeded sample of rows that the Gauss–Newton matrix of a fit over more
+/// rows is formed from: JᵀRJ ≈ (N/m)·Σ_{n∈S} ρ_n J_nᵀJ_n, S the m sampled
+/// rows (drawn without replacement, in row order), an unbiased estimate of
+/// the sum over all N rows. It enters A, γ, ln|A| and the posterior
+/// covariance; the gradient of M, E_D and β's update use every row. The
+/// subsampled-Hessian scheme of Byrd, Chin, Neveitt & Nocedal (2011), SIAM
+/// J. Optim. 21(3):977–995, with one sample for the whole fit (see
+/// [`crate::prec::GAUSS_NEWTON_SAMPLE_ROWS`]).
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize, Deserialize)]
+pub struct GaussNewtonSample {
+    /// Rows sampled, m.
+    pub rows: usize,
+    /// Seed of the draw.
+    pub seed: u64,
+}
+
+impl GaussNewtonSample {
+    /// The sampled rows of a table of `n` rows, in increasing order; None
+    /// when `n` is not above the sample's size (every row is used).
+    pub fn indices(&self, n: usize) -> Option<Vec<usize>> {
+        use rand::SeedableRng;
+        if n <= self.rows || self.rows == 0 {
+            return None;
+        }
+        let mut rng = rand_xoshiro::Xoshiro256PlusPlus::seed_from_u64(self.seed);
+        let mut picked = rand::seq::index::sample(&mut rng, n, self.rows).into_vec();
+        picked.sort_unstable();
+        Some(picked)
+    }
+}
+
+/// The sampled rows of one fit: their inputs and the factor N/m.
+struct SampledRows {
+    idx: Vec<usize>,
+    x: Array2<f64>,
+    scale: f64,
+}
+
+impl SampledRows {
+    fn of(sample: Option<GaussNewtonSample>, x: ArrayView2<f64>) -> Option<Self> {
+        let idx = sample?.indices(x.nrows())?;
+        Some(SampledRows {
+            x: x.select(ndarray::Axis(0), &idx),
+            scale: x.nrows() as f64 / idx.len() as f64,
+            idx,
+        })
+    }
 }
 
 impl Default for FitSettings {
@@ -97,6 +153,7 @@ impl Default for FitSettings {
             cycle_iters: 100,
             lbfgs_memory: 10,
             hessian: HessianChoice::GaussNewton,
+            gauss_newton_sample: None,
         }
     }
 }
@@ -128,6 +185,10 @@ pub struct FitDiagnostics {
     pub eigen_fallbacks: usize,
     /// Hyperparameter bounds that were hit, in words.
     pub bounds_hit: Vec<String>,
+    /// Rows the Gauss–Newton matrix was formed from when a sample of them
+    /// ([`GaussNewtonSample`]); absent when every row.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub gauss_newton_rows: Option<usize>,
 }
 
 /// A trained network with its posterior.
@@ -220,6 +281,10 @@ fn eigen_inverse(a: &Array2<f64>) -> Option<(Array2<f64>, f64)> {
 /// factorised. `c` is β for a Gaussian mean and ½ for a log variance (the
 /// expected curvature of ½(s + u·e^(−s)) at its minimum); R is diag(ρ) for
 /// weighted rows, otherwise the identity.
+///
+/// With `sample`, JᵀRJ is (N/m) times the sum over the sampled rows (see
+/// [`GaussNewtonSample`]) and the exact Hessian is not tried.
+#[allow(clippy::too_many_arguments)]
 fn hessian_of_m(
     arch: &Architecture,
     w: &[f64],
@@ -227,6 +292,7 @@ fn hessian_of_m(
     data: &DataModel,
     hyper: Hyper,
     choice: HessianChoice,
+    sample: Option<&SampledRows>,
     diag: &mut FitDiagnostics,
 ) -> Option<Factorised> {
     let Hyper {
@@ -250,7 +316,10 @@ fn hessian_of_m(
         ..
     } = *data
     {
-        if choice == HessianChoice::ExactWherePositiveDefinite && !arch.is_linear() {
+        if choice == HessianChoice::ExactWherePositiveDefinite
+            && !arch.is_linear()
+            && sample.is_none()
+        {
             let exact = add_prior(arch.data_hessian_exact(w, x, t));
             if let Some((inv, ln_det)) = cholesky_inverse(&exact) {
                 return Some(Factorised {
@@ -263,7 +332,13 @@ fn hessian_of_m(
             diag.exact_not_positive_definite += 1;
         }
     }
-    let gn = add_prior(gauss_newton(arch, w, x, rows));
+    let gn = add_prior(match sample {
+        None => gauss_newton(arch, w, x, rows),
+        Some(s) => {
+            let picked = rows.map(|r| s.idx.iter().map(|&i| r[i]).collect::<Array1<f64>>());
+            gauss_newton(arch, w, s.x.view(), picked.as_ref().map(|r| r.view())) * s.scale
+        }
+    });
     let kind = if arch.is_linear() && matches!(data, DataModel::Gaussian { .. }) {
         HessianKind::Exact
     } else {
@@ -549,6 +624,10 @@ fn run_cycles<'a>(
     } = state;
     let mut alpha = flat_output_bias(&groups, alpha);
     let mut snapshot: Option<FittedNetwork> = None;
+    let sampled = SampledRows::of(settings.gauss_newton_sample, x);
+    if let Some(s) = &sampled {
+        diag.gauss_newton_rows = Some(s.idx.len());
+    }
 
     for cycle in next_cycle..settings.max_cycles {
         let alpha_pp = groups.per_param(&alpha);
@@ -576,10 +655,19 @@ fn run_cycles<'a>(
                 "non-finite error in cycle {cycle}"
             )));
         }
-        let fact = hessian_of_m(&arch, &w, x, &data, hyper(), settings.hessian, &mut diag)
-            .ok_or_else(|| {
-                FitFailure::NotPositiveDefinite(format!("no factorisation in cycle {cycle}"))
-            })?;
+        let fact = hessian_of_m(
+            &arch,
+            &w,
+            x,
+            &data,
+            hyper(),
+            settings.hessian,
+            sampled.as_ref(),
+            &mut diag,
+        )
+        .ok_or_else(|| {
+            FitFailure::NotPositiveDefinite(format!("no factorisation in cycle {cycle}"))
+        })?;
         let sum_sq = groups.sum_squares(&w);
         let gamma = well_determined(&groups, &alpha, &fact.inv);
         let gamma_total: f64 = gamma.iter().sum();
@@ -958,6 +1046,91 @@ mod tests {
                 assert!((a - b).abs() <= 1e-12 * b.abs().max(1.0), "{a} vs {b}");
             }
         }
+    }
+
+    /// The Gauss–Newton sample: the same rows for the same seed, distinct
+    /// and in increasing order, another draw for another seed, and none
+    /// (every row) when the table is not larger than the sample.
+    #[test]
+    fn the_gauss_newton_sample_is_seeded_sorted_and_distinct() {
+        let s = GaussNewtonSample { rows: 50, seed: 7 };
+        let a = s.indices(400).expect("a sample");
+        assert_eq!(a, s.indices(400).expect("a sample"));
+        assert_eq!(a.len(), 50);
+        assert!(a.windows(2).all(|p| p[0] < p[1]) && a[49] < 400);
+        let other = GaussNewtonSample { rows: 50, seed: 8 };
+        assert_ne!(a, other.indices(400).expect("a sample"));
+        assert_eq!(s.indices(50), None);
+        assert_eq!(s.indices(20), None);
+    }
+
+    /// (N/m)·Σ_S J_nᵀρ_nJ_n is an unbiased estimate of JᵀRJ over all N
+    /// rows (the expansion estimator of a total under simple random
+    /// sampling; Cochran 1977, *Sampling Techniques*, 3rd ed., ch. 2): averaged over 400 seeds it comes within 2 % of
+    /// the full sum (Frobenius norm), plain and with row weights, while
+    /// one draw alone is further off.
+    #[test]
+    fn the_sampled_gauss_newton_matrix_is_unbiased() {
+        let n = 240;
+        let (x, _) = synthetic(n, 0.05, 4);
+        let arch = Architecture::new(2, 3);
+        let w = start(&arch, true, 3).weights;
+        let rho = Array1::from_shape_fn(n, |i| 0.5 + (i % 5) as f64 / 5.0);
+        let frob = |m: &Array2<f64>| m.iter().map(|v| v * v).sum::<f64>().sqrt();
+        for rows in [None, Some(rho.view())] {
+            let full = gauss_newton(&arch, &w, x.view(), rows);
+            let sampled = |seed: u64| {
+                let s = SampledRows::of(Some(GaussNewtonSample { rows: 30, seed }), x.view())
+                    .expect("a sample");
+                let picked = rows.map(|r| s.idx.iter().map(|&i| r[i]).collect::<Array1<f64>>());
+                gauss_newton(&arch, &w, s.x.view(), picked.as_ref().map(|r| r.view())) * s.scale
+            };
+            let mut mean = Array2::<f64>::zeros(full.dim());
+            let draws = 400;
+            for seed in 0..draws {
+                mean += &sampled(seed);
+            }
+            mean /= draws as f64;
+            let rel = frob(&(&mean - &full)) / frob(&full);
+            assert!(rel < 0.02, "mean of the draws off by {rel}");
+            let one = frob(&(&sampled(0) - &full)) / frob(&full);
+            assert!(one > rel, "one draw {one} against the mean's {rel}");
+        }
+    }
+
+    /// A fit whose sample is not smaller than its rows is the fit without
+    /// a sample, bit for bit; with a sample of a quarter of 1 600 rows the
+    /// fit recovers the noise level as the exact fit does (truth 0.05,
+    /// within 5 %) and its γ comes within 5 % of the exact fit's.
+    #[test]
+    fn a_sampled_fit_is_exact_without_a_real_sample_and_close_with_one() {
+        let (x, t) = synthetic(1600, 0.05, 12);
+        let arch = Architecture::new(2, 3);
+        let settings = FitSettings {
+            max_cycles: 8,
+            ..FitSettings::default()
+        };
+        let fit = |sample: Option<GaussNewtonSample>| {
+            let s = FitSettings {
+                gauss_newton_sample: sample,
+                ..settings.clone()
+            };
+            fit_network(arch, true, x.view(), t.view(), start(&arch, true, 6), &s).expect("fit")
+        };
+        let exact = fit(None);
+        let whole = fit(Some(GaussNewtonSample {
+            rows: 1600,
+            seed: 1,
+        }));
+        assert_eq!(whole.weights, exact.weights);
+        assert_eq!(whole.posterior_cov, exact.posterior_cov);
+        assert_eq!(whole.diagnostics, exact.diagnostics);
+        let sampled = fit(Some(GaussNewtonSample { rows: 400, seed: 1 }));
+        assert_eq!(sampled.diagnostics.gauss_newton_rows, Some(400));
+        let sd = 1.0 / sampled.beta.sqrt();
+        assert!((sd - 0.05).abs() < 0.0025, "noise sd {sd}");
+        let (g_s, g_e): (f64, f64) = (sampled.gamma.iter().sum(), exact.gamma.iter().sum());
+        assert!((g_s - g_e).abs() < 0.05 * g_e, "gamma {g_s} against {g_e}");
     }
 
     /// y = sin(3 x0) / 3 + 0 · x1 + noise: x1 has no effect.

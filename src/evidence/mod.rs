@@ -8,8 +8,8 @@ mod objective;
 
 pub use fit::{
     fit_model, fit_network, fit_network_from, predictive, predictive_factored, FitDiagnostics,
-    FitFailure, FitProgress, FitSettings, FittedNetwork, HessianChoice, HessianKind, PausedFit,
-    StartState,
+    FitFailure, FitProgress, FitSettings, FittedNetwork, GaussNewtonSample, HessianChoice,
+    HessianKind, PausedFit, StartState,
 };
 pub use groups::{GroupKind, Groups};
 pub use laplace::PosteriorFactor;

@@ -15,8 +15,8 @@ pub use file::{MODEL_FORMAT, MODEL_FORMAT_VERSION};
 pub use near::NearMeasure;
 pub use reference::{pair_cells, DomainReference, PairGrid};
 pub use summary::{
-    noise_profile, replicate_scatter, summarise_training, NoiseBin, NoiseProfile, NoiseSpread,
-    ReplicateScatter, TrainingSummary, PROFILE_BINS,
+    noise_profile, replicate_scatter, summarise_prediction, summarise_training, NoiseBin,
+    NoiseProfile, NoiseSpread, ReplicateScatter, TrainingSummary, PROFILE_BINS,
 };
 pub use train::{SchemaTrainOptions, SchemaTrainReport, TrainSpec};
 

@@ -121,6 +121,20 @@ pub fn summarise_training(
     measured: &[f64],
 ) -> TrainingSummary {
     let p = committee.predict_scaled(x);
+    summarise_prediction(committee, &p, scaling, transform, raw_inputs, measured)
+}
+
+/// [`summarise_training`] from the committee's prediction `p` of its
+/// training rows, made once by the caller (training also takes the
+/// domain guard's yardsticks from it).
+pub fn summarise_prediction(
+    committee: &Committee,
+    p: &crate::committee::ScaledPrediction,
+    scaling: &ColumnScaling,
+    transform: &TargetTransform,
+    raw_inputs: &[Vec<f64>],
+    measured: &[f64],
+) -> TrainingSummary {
     let w = scaling.width();
     let noise: Vec<f64> = p
         .mean
@@ -136,7 +150,7 @@ pub fn summarise_training(
                 .map(|(i, _)| i)
         })
         .unwrap_or(0);
-    let fit = training_fit(&p, scaling, transform, measured);
+    let fit = training_fit(p, scaling, transform, measured);
     TrainingSummary {
         noise_sd: spread(&noise),
         replicates: replicate_scatter(raw_inputs, measured),

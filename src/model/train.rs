@@ -3,7 +3,7 @@
 use ndarray::{Array1, Array2};
 
 use super::{
-    summarise_training, DomainReference, InputColumn, Model, SetAside, TargetModel,
+    summarise_prediction, DomainReference, InputColumn, Model, SetAside, TargetModel,
     TargetTransform, TrainingRecord, MODEL_FORMAT, MODEL_FORMAT_VERSION,
 };
 use crate::committee::{train_committee, CheckedCommitteeParams, CommitteeParams};
@@ -465,16 +465,12 @@ impl TargetRun<'_> {
             .iter()
             .map(|&i| self.input_values.iter().map(|v| v[i]).collect())
             .collect();
-        let summary = summarise_training(
-            &committee,
-            &scaling,
-            &transform,
-            x_t.view(),
-            &raw_rows,
-            &present,
-        );
-        let (typical_committee_sd, high_committee_sd) =
-            committee_sd_quantiles(&committee, x_t.view(), scaling.width());
+        // one prediction of the training rows for the summary and the
+        // domain guard's yardsticks
+        let p = committee.predict_scaled(x_t.view());
+        let summary =
+            summarise_prediction(&committee, &p, &scaling, &transform, &raw_rows, &present);
+        let (typical_committee_sd, high_committee_sd) = committee_sd_quantiles(&p, scaling.width());
         let (min, max) = min_max(&present);
         Ok(TargetModel {
             name: name.to_string(),
@@ -493,15 +489,13 @@ impl TargetRun<'_> {
 }
 
 /// The median and the [`DOMAIN_REFERENCE_QUANTILE`] quantile over the
-/// training rows `x` (scaled inputs) of the committee's model sd alone
+/// training rows (their prediction `p`) of the committee's model sd alone
 /// (learnt-scale target units: scaled sd times `width`): the domain
 /// guard's yardsticks. `None` without rows.
 fn committee_sd_quantiles(
-    committee: &crate::committee::Committee,
-    x: ndarray::ArrayView2<f64>,
+    p: &crate::committee::ScaledPrediction,
     width: f64,
 ) -> (Option<f64>, Option<f64>) {
-    let p = committee.predict_scaled(x);
     let mut sd: Vec<f64> = p.committee_var.iter().map(|v| v.sqrt() * width).collect();
     sd.sort_by(f64::total_cmp);
     let q = |q: f64| Some(super::reference::quantile_sorted(&sd, q)).filter(|v| v.is_finite());
