@@ -6,9 +6,9 @@
 use ndarray::{Array1, Array2, ArrayView1, ArrayView2, Axis};
 use rayon::prelude::*;
 
-use super::choice::{paired_se, row_nlpd};
 use super::kriging::{process_rows, ResidualKriging};
 use super::noise_models::NoiseModels;
+use super::paired::{paired_se, row_nlpd};
 use super::split::{HeldOut, HeldOutSplit};
 use super::{
     members_predict, CheckedCommitteeParams, KrigingMode, KrigingSelection, Member, ModelPartChoice,
