@@ -188,6 +188,7 @@ class Model:
         reweight_mean: bool = False,
         widen: bool = True,
         early_stop: bool = True,
+        partitions: int = 1,
         ard: bool = True,
         log_inputs: bool = True,
         drop_incomplete_rows: bool = False,
@@ -209,7 +210,8 @@ class Model:
         ``hidden`` (``"MIN..MAX"``, a count, or a pair; 0 is the linear
         model), ``restarts``, ``seed``, ``holdout``, ``max_members``,
         ``noise`` (constant, varying, auto), ``kriging`` (on, off, auto),
-        ``gross_errors``, ``heavy_tails``, ``reweight_mean``; ``widen=False``
+        ``gross_errors``, ``heavy_tails``, ``reweight_mean``, ``partitions``
+        (held-out partitions pooled by cross-fitting, 1 to 8); ``widen=False``
         is ``--no-widen``, ``early_stop=False`` ``--no-early-stop``, ``ard=False`` ``--no-ard``, ``log_inputs=False``
         ``--no-log-inputs``. The same data, settings and seed give a model
         file byte-identical to the CLI's.
@@ -244,6 +246,7 @@ class Model:
             "reweight_mean": bool(reweight_mean),
             "widen": bool(widen),
             "early_stop": bool(early_stop),
+            "partitions": _count("partitions", partitions),
             "ard": bool(ard),
             "log_inputs": bool(log_inputs),
         }

@@ -46,6 +46,7 @@ class MettleRegressor(RegressorMixin, BaseEstimator):
         reweight_mean=False,
         widen=True,
         early_stop=True,
+        partitions=1,
         ard=True,
         log_inputs=True,
         progress=False,
@@ -62,6 +63,7 @@ class MettleRegressor(RegressorMixin, BaseEstimator):
         self.reweight_mean = reweight_mean
         self.widen = widen
         self.early_stop = early_stop
+        self.partitions = partitions
         self.ard = ard
         self.log_inputs = log_inputs
         self.progress = progress
@@ -97,6 +99,7 @@ class MettleRegressor(RegressorMixin, BaseEstimator):
             reweight_mean=self.reweight_mean,
             widen=self.widen,
             early_stop=self.early_stop,
+            partitions=self.partitions,
             ard=self.ard,
             log_inputs=self.log_inputs,
             progress=self.progress,

@@ -87,6 +87,7 @@ pub struct Settings {
     reweight_mean: bool,
     widen: bool,
     early_stop: bool,
+    partitions: usize,
     ard: bool,
     log_inputs: bool,
 }
@@ -103,6 +104,7 @@ impl Settings {
             .max_members(self.max_members)
             .widen(self.widen)
             .early_stop(self.early_stop)
+            .partitions(self.partitions)
             .noise(noise_mode(&self.noise)?)
             .kriging(kriging_mode(&self.kriging)?)
             .gross_errors(self.gross_errors)

@@ -58,6 +58,20 @@ def test_early_stop_off_is_the_clis_no_early_stop(tiny, mettle_bin):
     assert halved.to_json() != full.to_json()
 
 
+def test_partitions_are_the_clis_partitions(tiny, mettle_bin):
+    # a second held-out partition pools its own committee into the model:
+    # the package passes the setting through to the same engine, so the model
+    # file is the CLI's byte for byte, and differs from one partition's
+    d, df = tiny
+    p = run_cli(mettle_bin, ["train", "--data", "tiny.csv", "--target", "y", *SMALL_CLI, "--partitions", "2", "--quiet", "--out", "cli_pool.json"], d)
+    assert p.returncode == 0, p.stderr
+    pooled = mettle.Model.train(df, targets="y", progress=False, source="tiny.csv", partitions=2, **SMALL)
+    assert pooled.to_json() == (d / "cli_pool.json").read_bytes()
+    assert pooled.to_json() != (d / "cli.json").read_bytes()
+    with pytest.raises(mettle.errors.SettingsError):
+        mettle.Model.train(df, targets="y", progress=False, partitions=-1, **SMALL)
+
+
 def test_polars_and_numpy_inputs_train_the_same_model(tiny):
     d, df = tiny
     cli = (d / "cli.json").read_bytes()
