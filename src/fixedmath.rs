@@ -148,24 +148,48 @@ fn exp_in_place_body(v: &mut [f64]) {
 /// of 0x4086232b or more (708.39…).
 const EXP_CORE_LIMIT: f64 = f64::from_bits(0x4086_232b_0000_0000);
 
+/// The constants of FreeBSD's `e_exp.c` (as the `libm` crate ports it), by
+/// their bits (its comments give them so), shared by [`exp_core`] and the
+/// hidden layer's tanh (`net::mlp`): ln 2 split in a high and a low part,
+/// 1/ln 2, the degree-5 Remez coefficients, the high-word thresholds ½ ln 2
+/// (above) and 1.5 ln 2 (from) as numbers, and 2⁵².
+pub(crate) mod exp_consts {
+    pub const LN2HI: f64 = f64::from_bits(0x3fe6_2e42_fee0_0000);
+    pub const LN2LO: f64 = f64::from_bits(0x3dea_39ef_3579_3c76);
+    pub const INVLN2: f64 = f64::from_bits(0x3ff7_1547_652b_82fe);
+    pub const P1: f64 = f64::from_bits(0x3fc5_5555_5555_553e);
+    pub const P2: f64 = f64::from_bits(0xbf66_c16c_16be_bd93);
+    pub const P3: f64 = f64::from_bits(0x3f11_566a_af25_de2c);
+    pub const P4: f64 = f64::from_bits(0xbebb_bd41_c5d2_6bf1);
+    pub const P5: f64 = f64::from_bits(0x3e66_3769_72be_a4d0);
+    pub const HALF_LN2_WORD_END: f64 = f64::from_bits(0x3fd6_2e42_ffff_ffff);
+    pub const THREE_HALF_LN2_WORD: f64 = f64::from_bits(0x3ff0_a2b2_0000_0000);
+    pub const TWO_52: f64 = 4_503_599_627_370_496.0;
+}
+
+/// The source's step after the reduction x = k·ln 2 + r (k a whole number
+/// held as f64): hi = x − k·ln2hi, lo = k·ln2lo, r = hi − lo, c from the
+/// Remez polynomial in r², and eʳ = 1 + (r·c/(2 − c) − lo + hi), before
+/// the scaling by 2ᵏ (k = 0 gives hi = x, lo = 0, as the source's own
+/// branch). The same IEEE operations in the same order as the source.
+#[inline(always)]
+pub(crate) fn exp_reduced(x: f64, k: f64) -> f64 {
+    use exp_consts::{LN2HI, LN2LO, P1, P2, P3, P4, P5};
+    let hi = x - k * LN2HI;
+    let lo = k * LN2LO;
+    let r = hi - lo;
+    let rr = r * r;
+    let c = r - rr * (P1 + rr * (P2 + rr * (P3 + rr * (P4 + rr * P5))));
+    1.0 + (r * c / (2.0 - c) - lo + hi)
+}
+
 /// The source's exponential for |x| < [`EXP_CORE_LIMIT`], without jumps.
 #[inline(always)]
 fn exp_core(x: f64) -> f64 {
-    // the source's constants by their bits (its comments give them so)
-    const LN2HI: f64 = f64::from_bits(0x3fe6_2e42_fee0_0000);
-    const LN2LO: f64 = f64::from_bits(0x3dea_39ef_3579_3c76);
-    const INVLN2: f64 = f64::from_bits(0x3ff7_1547_652b_82fe);
-    const P1: f64 = f64::from_bits(0x3fc5_5555_5555_553e);
-    const P2: f64 = f64::from_bits(0xbf66_c16c_16be_bd93);
-    const P3: f64 = f64::from_bits(0x3f11_566a_af25_de2c);
-    const P4: f64 = f64::from_bits(0xbebb_bd41_c5d2_6bf1);
-    const P5: f64 = f64::from_bits(0x3e66_3769_72be_a4d0);
+    use exp_consts::{HALF_LN2_WORD_END, INVLN2, THREE_HALF_LN2_WORD, TWO_52};
     // the source compares the high word of |x|: above 0x3fd62e42 (½ ln 2),
     // from 0x3ff0a2b2 (1.5 ln 2), above 0x3e300000 (2⁻²⁸)
-    const HALF_LN2_WORD_END: f64 = f64::from_bits(0x3fd6_2e42_ffff_ffff);
-    const THREE_HALF_LN2_WORD: f64 = f64::from_bits(0x3ff0_a2b2_0000_0000);
     const TINY_WORD_END: f64 = f64::from_bits(0x3e30_0000_ffff_ffff);
-    const TWO_52: f64 = 4_503_599_627_370_496.0;
     let ax = x.abs();
     let negative = x.is_sign_negative();
     // `(INVLN2·x ± ½) as i32` truncates toward zero
@@ -181,13 +205,7 @@ fn exp_core(x: f64) -> f64 {
     } else {
         0.0
     };
-    // k = 0: hi = x − 0 = x, lo = 0, r = x, as the source's own branch
-    let hi = x - k * LN2HI;
-    let lo = k * LN2LO;
-    let r = hi - lo;
-    let rr = r * r;
-    let c = r - rr * (P1 + rr * (P2 + rr * (P3 + rr * (P4 + rr * P5))));
-    let y = 1.0 + (r * c / (2.0 - c) - lo + hi);
+    let y = exp_reduced(x, k);
     // 2ᵏ from its bits: k + 1023 is a whole number in [1, 2045], held in
     // the low bits of (k + 1023) + 2⁵² (NaN gives garbage; such elements
     // are redone by libm)

@@ -41,7 +41,7 @@ mod gross_errors;
 mod kriging;
 mod noise;
 mod noise_models;
-mod paired;
+pub(crate) mod paired;
 mod params;
 mod pipeline;
 mod pool;

@@ -30,6 +30,13 @@ pub(super) fn row_nlpd((mean, var): &HeldOut, t: ArrayView1<f64>) -> Vec<f64> {
 /// nothing counts as shown.
 pub(super) fn paired_se(a: &[f64], b: &[f64]) -> f64 {
     let d: Vec<f64> = a.iter().zip(b).map(|(x, y)| x - y).collect();
+    se_of_mean(&d)
+}
+
+/// Standard error of the mean of `d`, sd(d)/√n with the sd on n − 1;
+/// infinite with fewer than two values. Also the SE of `mettle compare`'s
+/// paired figures (explain::paired).
+pub(crate) fn se_of_mean(d: &[f64]) -> f64 {
     let n = d.len() as f64;
     if d.len() < 2 {
         return f64::INFINITY;

@@ -27,6 +27,7 @@
 
 use serde::{Deserialize, Serialize};
 
+use crate::committee::paired::se_of_mean;
 use crate::prec::PAIRED_SHOWN_SE;
 
 /// One measure's paired difference new − old.
@@ -80,25 +81,16 @@ pub struct PairedComparison {
     pub nlpd: PairedFigure,
 }
 
-fn mean_sd(v: &[f64]) -> (f64, f64) {
-    let n = v.len() as f64;
-    let m = v.iter().sum::<f64>() / n;
-    let var = if v.len() > 1 {
-        v.iter().map(|x| (x - m).powi(2)).sum::<f64>() / (n - 1.0)
-    } else {
-        f64::NAN
-    };
-    (m, var.sqrt())
-}
-
+/// A figure with the SE of the mean of its per-row differences `diffs`
+/// (NaN, and with it t, for fewer than two rows).
 fn figure(old: f64, new: f64, diffs: &[f64], difference: f64) -> PairedFigure {
-    let (_, sd) = mean_sd(diffs);
-    let se = sd / (diffs.len() as f64).sqrt();
+    let se = se_of_mean(diffs);
+    let se = if se.is_finite() { se } else { f64::NAN };
     PairedFigure {
         old,
         new,
         difference,
-        se: if se.is_finite() { se } else { f64::NAN },
+        se,
         t: difference / se,
     }
 }
@@ -134,7 +126,7 @@ pub fn paired(
     Some(PairedComparison {
         n,
         rmse: figure(ro, rn, &u, rn - ro),
-        nlpd: figure(lo, ln, &d, mean_sd(&d).0),
+        nlpd: figure(lo, ln, &d, d.iter().sum::<f64>() / nf),
     })
 }
 

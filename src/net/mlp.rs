@@ -557,23 +557,12 @@ fn tanh_in_place_avx(v: &mut [f64]) {
 /// a degree-5 Remez polynomial (error < 2⁻⁵⁹; the source's comment).
 #[inline(always)]
 fn exp_mid(x: f64) -> f64 {
-    // the source's constants by their bits (its comments give them so)
-    const LN2HI: f64 = f64::from_bits(0x3fe6_2e42_fee0_0000);
-    const LN2LO: f64 = f64::from_bits(0x3dea_39ef_3579_3c76);
-    const INVLN2: f64 = f64::from_bits(0x3ff7_1547_652b_82fe);
-    const P1: f64 = f64::from_bits(0x3fc5_5555_5555_553e);
-    const P2: f64 = f64::from_bits(0xbf66_c16c_16be_bd93);
-    const P3: f64 = f64::from_bits(0x3f11_566a_af25_de2c);
-    const P4: f64 = f64::from_bits(0xbebb_bd41_c5d2_6bf1);
-    const P5: f64 = f64::from_bits(0x3e66_3769_72be_a4d0);
+    use crate::fixedmath::exp_consts::{HALF_LN2_WORD_END, INVLN2, THREE_HALF_LN2_WORD, TWO_52};
     // the source compares the high word of |x|: above 0x3fd62e42 (½ ln 2)
-    // and from 0x3ff0a2b2 (1.5 ln 2); for x ≥ 0 the same as these compares
-    const HALF_LN2_WORD_END: f64 = f64::from_bits(0x3fd6_2e42_ffff_ffff);
-    const THREE_HALF_LN2_WORD: f64 = f64::from_bits(0x3ff0_a2b2_0000_0000);
-    // the source's `(INVLN2·x + ½) as i32`, by floating-point steps that
+    // and from 0x3ff0a2b2 (1.5 ln 2); for x ≥ 0 the same as these compares.
+    // The source's `(INVLN2·x + ½) as i32`, by floating-point steps that
     // vectorise: for 0 ≤ v < 2⁵¹, (v + 2⁵²) − 2⁵² is v rounded to the
     // nearest whole number (exact), one less where that rounded up
-    const TWO_52: f64 = 4_503_599_627_370_496.0;
     let v = INVLN2 * x + 0.5;
     let nearest = (v + TWO_52) - TWO_52;
     let k_round = if nearest > v { nearest - 1.0 } else { nearest };
@@ -584,13 +573,7 @@ fn exp_mid(x: f64) -> f64 {
     } else {
         0.0
     };
-    // k = 0: hi = x − 0 = x, lo = 0, r = x, as the source's own branch
-    let hi = x - k * LN2HI;
-    let lo = k * LN2LO;
-    let r = hi - lo;
-    let rr = r * r;
-    let c = r - rr * (P1 + rr * (P2 + rr * (P3 + rr * (P4 + rr * P5))));
-    let y = 1.0 + (r * c / (2.0 - c) - lo + hi);
+    let y = crate::fixedmath::exp_reduced(x, k);
     // 2ᵏ from its bits: k + 2⁵² holds k in its low bits (k is a whole
     // number, 0 ≤ k ≤ 58; 0 for NaN)
     let k_bits = (k + TWO_52).to_bits() - TWO_52.to_bits();
