@@ -482,6 +482,27 @@ pub const GAUSS_NEWTON_SAMPLE_ROWS: usize = JACOBIAN_BLOCK_ROWS;
 /// accuracy is measured in docs/benchmarks.md beside the sample's.
 pub const LARGE_REFIT_MAX_CYCLES: usize = 6;
 
+/// Evidence cycles allowed in each EM round but the last when a large
+/// table ([`LARGE_TABLE_ROWS`]) is refitted under a share of gross errors
+/// (and in each noise round but the last under varying noise); the last
+/// round gets [`LARGE_REFIT_MAX_CYCLES`]. The early rounds only move the
+/// responsibilities r_n, which change little once the weights are near
+/// the search's (the share itself was estimated on the held-out part), so
+/// 2 + 2 + 6 cycles replace the 6 + 6 + 6 of the rounds and the 6 of the
+/// Gaussian refit before them, which a large table skips
+/// (committee::refit). A choice, not a published value: its cost in
+/// accuracy is measured in docs/benchmarks.md ("Large archives: fewer
+/// refit passes, and both cores").
+pub const LARGE_EARLY_ROUND_CYCLES: usize = 2;
+
+/// Rows per block when the gradient of M over more than
+/// [`LARGE_TABLE_ROWS`] rows is summed: the blocks' values and gradients
+/// are formed in parallel and added in row order, so that one network's
+/// fit uses every core and its result does not depend on the number of
+/// threads. Up to [`LARGE_TABLE_ROWS`] rows the single pass of earlier
+/// versions is kept, bit for bit.
+pub const GRADIENT_BLOCK_ROWS: usize = JACOBIAN_BLOCK_ROWS;
+
 /// The varying-noise combination is chosen over the best constant-noise one
 /// only when its held-out score is lower by more than this many standard
 /// errors of the paired per-row difference: the one-standard-error rule

@@ -185,7 +185,9 @@ fn noise_start(n_inputs: usize, seed: u64, u: &Array1<f64>) -> StartState {
 /// E-step of the contamination model (see [`GrossErrorModel`]): the rows'
 /// responsibilities weight the noise fit and the mean refit (the only
 /// weights of the mean when it is not reweighted), over at least
-/// [`GROSS_ERROR_REFIT_ROUNDS`] rounds.
+/// [`GROSS_ERROR_REFIT_ROUNDS`] rounds. Every round but the last fits with
+/// `early`'s settings (the same as `settings` except in a large table's
+/// refit, committee::refit), the last with `settings`.
 ///
 /// # Errors
 /// The [`FitFailure`] of whichever fit failed.
@@ -199,13 +201,10 @@ pub(crate) fn fit_varying(
     x: ArrayView2<f64>,
     t: ArrayView1<f64>,
     seed: u64,
+    early: &FitSettings,
     settings: &FitSettings,
 ) -> Result<VaryingFit, FitFailure> {
     let d = x.ncols();
-    let warm = FitSettings {
-        first_iters: settings.cycle_iters,
-        ..settings.clone()
-    };
     let mut rho: Option<Array1<f64>> = noise.map(|nm| nm.precision_weights(d, x));
     // the weight of each row in the fit that gave the current mean network
     let mut fit_weights = if reweight_mean { rho.clone() } else { None };
@@ -217,7 +216,12 @@ pub(crate) fn fit_varying(
         (false, true) => NOISE_ROUNDS,
         (false, false) => 1,
     };
-    for _ in 0..rounds {
+    for round in 0..rounds {
+        let settings = if round + 1 < rounds { early } else { settings };
+        let warm = FitSettings {
+            first_iters: settings.cycle_iters,
+            ..settings.clone()
+        };
         let resp = gross.map(|g| g.responsibilities(&mean_net, rho.as_ref(), x, t));
         if let Some(r) = &resp {
             gross_rows = Some(r.iter().map(|v| 1.0 - v).sum::<f64>());
@@ -321,6 +325,7 @@ mod tests {
             x.view(),
             t.view(),
             3,
+            &settings,
             &settings,
         )
         .expect("noise");

@@ -14,7 +14,9 @@ use super::{CheckedCommitteeParams, Member};
 use crate::error::{Error, Result};
 use crate::evidence::{fit_network, FitSettings, GaussNewtonSample, StartState};
 use crate::observer::{TrainEvent, TrainObserver};
-use crate::prec::{GAUSS_NEWTON_SAMPLE_ROWS, LARGE_REFIT_MAX_CYCLES, LARGE_TABLE_ROWS};
+use crate::prec::{
+    GAUSS_NEWTON_SAMPLE_ROWS, LARGE_EARLY_ROUND_CYCLES, LARGE_REFIT_MAX_CYCLES, LARGE_TABLE_ROWS,
+};
 
 /// Mixed into the master seed for the rows a large table's Gauss–Newton
 /// matrices are formed from.
@@ -36,6 +38,22 @@ pub(super) fn refit_settings(fit: &FitSettings, n_rows: usize, seed: u64) -> Fit
             seed: seed ^ GAUSS_NEWTON_SEED_SALT,
         }),
         ..fit.clone()
+    }
+}
+
+/// The settings of every EM round but the last in the refit on `n_rows`
+/// rows under a share of gross errors (and of every noise round but the
+/// last under varying noise): those of the refit itself
+/// ([`refit_settings`]), and on a large table at most
+/// [`LARGE_EARLY_ROUND_CYCLES`] cycles (issue 28 item 2; the costs in
+/// accuracy are in docs/benchmarks.md).
+pub(super) fn early_round_settings(refit: &FitSettings, n_rows: usize) -> FitSettings {
+    if n_rows <= LARGE_TABLE_ROWS {
+        return refit.clone();
+    }
+    FitSettings {
+        max_cycles: refit.max_cycles.min(LARGE_EARLY_ROUND_CYCLES),
+        ..refit.clone()
     }
 }
 
@@ -158,6 +176,8 @@ fn refit_varying(
     gross: Option<&GrossErrorModel>,
 ) -> Refit {
     let rec = &c.trial.record;
+    let settings = refit_settings(&params.fit, x.nrows(), params.seed);
+    let early = early_round_settings(&settings, x.nrows());
     let refit = |gross: Option<&GrossErrorModel>| {
         fit_varying(
             &c.fit.mean,
@@ -168,7 +188,8 @@ fn refit_varying(
             x.view(),
             t.view(),
             rec.seed ^ NOISE_SEED_SALT,
-            &refit_settings(&params.fit, x.nrows(), params.seed),
+            &early,
+            &settings,
         )
     };
     let (fit, fallback) = match refit(gross) {
@@ -185,6 +206,10 @@ fn refit_varying(
 
 /// Refit a constant-noise member, warm-started; with `gross`, then under
 /// the contamination model, keeping the Gaussian refit when that fails.
+/// On a large table (more than [`LARGE_TABLE_ROWS`] rows) with `gross` the
+/// Gaussian refit is skipped: the first E-step takes the search's network
+/// (whose held-out rows estimated the share) and the EM rounds refit from
+/// it, the Gaussian refit made only when they fail (issue 28 item 2).
 fn refit_constant(
     params: &CheckedCommitteeParams,
     x: ArrayView2<f64>,
@@ -205,14 +230,33 @@ fn refit_constant(
         beta: net.beta,
     };
     let rec = &trial.record;
-    fit_network(net.arch, params.ard, x.view(), t.view(), start, &settings)
-        .map(|refit| match gross {
-            Some(g) => match g.refit_constant(refit.clone(), params.ard, x, t, &settings) {
+    let early = early_round_settings(&settings, x.nrows());
+    let gaussian = || {
+        fit_network(
+            net.arch,
+            params.ard,
+            x.view(),
+            t.view(),
+            start.clone(),
+            &settings,
+        )
+    };
+    let outcome = match gross {
+        Some(g) if x.nrows() > LARGE_TABLE_ROWS => {
+            match g.refit_constant(net.clone(), params.ard, x, t, &early, &settings) {
+                Ok((net, rows)) => Ok((net, Some(rows), None)),
+                Err(f) => gaussian().map(|refit| (refit, None, Some(f.to_string()))),
+            }
+        }
+        _ => gaussian().map(|refit| match gross {
+            Some(g) => match g.refit_constant(refit.clone(), params.ard, x, t, &early, &settings) {
                 Ok((net, rows)) => (net, Some(rows), None),
                 Err(f) => (refit, None, Some(f.to_string())),
             },
             None => (refit, None, None),
-        })
+        }),
+    };
+    outcome
         .map(|(refit, rows, fallback)| (member_from(rec, &refit, None), rows, fallback))
         .map_err(|f| format!("{} hidden, restart {}: {f}", rec.n_hidden, rec.restart))
 }

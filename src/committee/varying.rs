@@ -156,6 +156,7 @@ fn fit_candidate(
         split.t_tr.view(),
         seed,
         &params.fit,
+        &params.fit,
     )
     .and_then(|vf| {
         let member = provisional_member(trial, &vf);
