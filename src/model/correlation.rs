@@ -38,12 +38,18 @@ impl Model {
 /// [`JOINT_MIN_ROWS`] training rows: `x` the scaled inputs of all rows,
 /// `values` each target's measured values (raw, `None` where missing).
 /// Training stores them in the model; this also gives them for a model
-/// file written before they were stored, from its training rows.
+/// file written before they were stored, from its training rows. A
+/// single target has no pair, and its committee is not run over the rows
+/// (at 100 000 rows that prediction was an eighth of the training's CPU
+/// time; docs/benchmarks.md).
 pub fn scatter_correlations(
     targets: &[TargetModel],
     x: ArrayView2<f64>,
     values: &[Vec<Option<f64>>],
 ) -> Vec<ScatterCorrelation> {
+    if targets.len() < 2 {
+        return Vec::new();
+    }
     let residuals: Vec<Vec<Option<f64>>> = targets
         .iter()
         .zip(values)
