@@ -35,7 +35,7 @@ use std::cell::RefCell;
 use argmin::core::{CostFunction, Error as ArgminError, Gradient};
 use ndarray::{Array1, ArrayView1, ArrayView2};
 
-use crate::net::Architecture;
+use crate::net::{Architecture, Inputs};
 
 /// What the network's output models, and so its data term.
 #[derive(Clone, Copy, Debug)]
@@ -78,7 +78,7 @@ impl DataModel<'_> {
         &self,
         arch: &Architecture,
         w: &[f64],
-        x: ArrayView2<f64>,
+        x: &Inputs,
         beta: f64,
     ) -> (f64, Array1<f64>) {
         match *self {
@@ -154,6 +154,8 @@ type CachedPoint = (Array1<f64>, f64, Array1<f64>);
 pub(crate) struct Objective<'a> {
     pub arch: Architecture,
     pub x: ArrayView2<'a, f64>,
+    /// The rows of `x` laid out for the passes, once per objective.
+    inputs: Inputs<'a>,
     pub data: DataModel<'a>,
     pub beta: f64,
     /// α of each parameter's group.
@@ -173,6 +175,7 @@ impl<'a> Objective<'a> {
         Objective {
             arch,
             x,
+            inputs: Inputs::new(x),
             data,
             beta,
             alpha,
@@ -196,7 +199,9 @@ impl<'a> Objective<'a> {
         *self.evaluations.borrow_mut() += 1;
         let n = self.x.nrows() as f64;
         let ws = w.as_slice().expect("owned 1-D arrays are contiguous");
-        let (mut cost, mut grad) = self.data.value_gradient(&self.arch, ws, self.x, self.beta);
+        let (mut cost, mut grad) =
+            self.data
+                .value_gradient(&self.arch, ws, &self.inputs, self.beta);
         for (k, (&wk, &ak)) in w.iter().zip(&self.alpha).enumerate() {
             cost += 0.5 * ak * wk * wk;
             grad[k] += ak * wk;
@@ -264,7 +269,7 @@ mod tests {
             },
         ];
         for model in models {
-            let (v, g) = model.value_gradient(&arch, &w, x.view(), 7.0);
+            let (v, g) = model.value_gradient(&arch, &w, &Inputs::new(x.view()), 7.0);
             assert!((v - model.value(&arch, &w, x.view(), 7.0)).abs() < 1e-9 * v.abs());
             for k in 0..w.len() {
                 let mut wp = w.clone();
