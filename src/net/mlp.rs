@@ -617,20 +617,55 @@ mod tests {
                 let r = (&y0 - &t).to_vec();
                 let k = h * d + 2 * h;
                 let mut delta = vec![f64::NAN; 7];
+                // the AVX build's kernel on its own, where the CPU has it
+                #[cfg(target_arch = "x86_64")]
+                if std::arch::is_x86_feature_detected!("avx") {
+                    let mut g2 = vec![0.0; k];
+                    passes::back_propagate(&inp, &act2, &v, &r, &mut g2);
+                    assert_same_bits(
+                        &g2,
+                        &g0.as_slice().unwrap()[..k],
+                        &format!("{what}, dispatched"),
+                    );
+                }
                 for mr in [1, 2, 3, 6] {
                     let mut g2 = vec![0.0; k];
                     match mr {
-                        1 => passes::back_propagate_body::<1>(
-                            &inp, &act2, &v, &r, &mut g2, &mut delta,
+                        1 => passes::back_propagate_body::<1, _>(
+                            &inp,
+                            &act2,
+                            &v,
+                            &r,
+                            &mut g2,
+                            &mut delta,
+                            passes::strided_block::<1, 8>,
                         ),
-                        2 => passes::back_propagate_body::<2>(
-                            &inp, &act2, &v, &r, &mut g2, &mut delta,
+                        2 => passes::back_propagate_body::<2, _>(
+                            &inp,
+                            &act2,
+                            &v,
+                            &r,
+                            &mut g2,
+                            &mut delta,
+                            passes::strided_block::<2, 8>,
                         ),
-                        3 => passes::back_propagate_body::<3>(
-                            &inp, &act2, &v, &r, &mut g2, &mut delta,
+                        3 => passes::back_propagate_body::<3, _>(
+                            &inp,
+                            &act2,
+                            &v,
+                            &r,
+                            &mut g2,
+                            &mut delta,
+                            passes::strided_block::<3, 8>,
                         ),
-                        _ => passes::back_propagate_body::<6>(
-                            &inp, &act2, &v, &r, &mut g2, &mut delta,
+                        _ => passes::back_propagate_body::<6, _>(
+                            &inp,
+                            &act2,
+                            &v,
+                            &r,
+                            &mut g2,
+                            &mut delta,
+                            passes::strided_block::<6, 8>,
                         ),
                     }
                     assert_same_bits(

@@ -115,12 +115,9 @@ pub(super) fn hidden_layer_body(inp: &Inputs, layer: &HiddenLayer, act: &mut [f6
             let wp = &layer.panels[j0 * d..(j0 + J) * d];
             // acc[r][c] = 0 + Σ_i x_(n0+r),i · W_(j0+c),i, in increasing i
             let acc = crate::linalg::register_block::<R, J>(xt, wp);
-            let cols = J.min(h - j0);
+            let bias = &layer.b[j0..(j0 + J).min(h)];
             for (acc_r, row) in acc.iter().zip(block.chunks_exact_mut(h)) {
-                let sums = row[j0..j0 + cols].iter_mut().zip(acc_r);
-                for ((o, a), bj) in sums.zip(&layer.b[j0..j0 + cols]) {
-                    *o = (0.0 + *a) + bj;
-                }
+                store_sums(&mut row[j0..j0 + bias.len()], acc_r, bias);
             }
         }
         finish_rows(block, layer, &mut y[n0..n0 + R]);
@@ -138,6 +135,25 @@ pub(super) fn hidden_layer_body(inp: &Inputs, layer: &HiddenLayer, act: &mut [f6
             *acc = (0.0 + *acc) + bj;
         }
         finish_rows(row, layer, &mut y[n_..n_ + 1]);
+    }
+}
+
+/// One row's sums of a register block: o_c = (0 + acc_c) + b_c (the
+/// product's store into C's zero, then `+= b`), a fixed-length loop for
+/// a whole block of units so that it vectorises.
+#[inline(always)]
+fn store_sums<const J: usize>(out: &mut [f64], acc: &[f64; J], bias: &[f64]) {
+    if let (Ok(out), Ok(bias)) = (
+        <&mut [f64; J]>::try_from(&mut *out),
+        <&[f64; J]>::try_from(bias),
+    ) {
+        for c in 0..J {
+            out[c] = (0.0 + acc[c]) + bias[c];
+        }
+        return;
+    }
+    for ((o, a), bj) in out.iter_mut().zip(acc).zip(bias) {
+        *o = (0.0 + *a) + bj;
     }
 }
 
@@ -160,7 +176,7 @@ fn finish_rows(block: &mut [f64], layer: &HiddenLayer, y: &mut [f64]) {
 /// n (for H = 1, ∂/∂v by [`unrolled_dot`], as ndarray summed a contiguous
 /// column) — the operations and order of the former `act.mapv(…) *= v *= r`,
 /// `delta.sum_axis(Axis(0))` and `act.t().dot(r)`. δ is written straight
-/// into panels of units that the register blocks of δᵀX read against the
+/// row by row, and the register blocks of δᵀX read it in place against the
 /// inputs' panels ([`Inputs::input_panel`]): no transposed δ, no packing.
 pub(super) fn back_propagate(inp: &Inputs, act: &[f64], v: &[f64], r: &[f64], g: &mut [f64]) {
     DELTA.with(|cell| {
@@ -179,7 +195,15 @@ pub(super) fn back_propagate(inp: &Inputs, act: &[f64], v: &[f64], r: &[f64], g:
                 return;
             }
         }
-        back_propagate_body::<2>(inp, act, v, r, g, &mut delta);
+        back_propagate_body::<2, _>(
+            inp,
+            act,
+            v,
+            r,
+            g,
+            &mut delta,
+            strided_block::<2, INPUT_PANEL>,
+        );
         if delta.len() > DELTA_KEEP {
             *delta = Vec::new();
         }
@@ -198,60 +222,109 @@ fn back_propagate_avx(
     g: &mut [f64],
     delta: &mut Vec<f64>,
 ) {
-    back_propagate_body::<6>(inp, act, v, r, g, delta);
+    back_propagate_body::<6, _>(inp, act, v, r, g, delta, strided_block_avx_here);
 }
 
-/// [`back_propagate`]'s loops with δ in panels of `MR` units (panel p holds
-/// δ_n,(pMR+u) at p·N·MR + n·MR + u; the slots of units beyond H hold
-/// whatever the buffer held, and the sums they meet are not stored).
+/// [`strided_block_avx`] for [`back_propagate_avx`], which runs only where
+/// the CPU has AVX.
+#[cfg(target_arch = "x86_64")]
+fn strided_block_avx_here(a: &[f64], stride: usize, b: &[f64]) -> [[f64; INPUT_PANEL]; 6] {
+    // SAFETY: called only from `back_propagate_avx`, which runs only where
+    // the CPU has AVX, the only feature the kernel enables.
+    #[allow(unsafe_code)]
+    unsafe {
+        strided_block_avx(a, stride, b)
+    }
+}
+
+/// [`strided_block`] of 6 units × 8 inputs compiled with AVX as a function
+/// of its own: inlined into the loops around it, its twelve accumulators
+/// were spilled to memory on every step.
+#[cfg(target_arch = "x86_64")]
+#[target_feature(enable = "avx")]
+#[inline(never)]
+fn strided_block_avx(a: &[f64], stride: usize, b: &[f64]) -> [[f64; INPUT_PANEL]; 6] {
+    strided_block::<6, INPUT_PANEL>(a, stride, b)
+}
+
+/// [`back_propagate`]'s loops with δ row by row, each row padded to a
+/// whole number of panels of `MR` units (δ_nj at n·H' + j, H' = ⌈H/MR⌉·MR;
+/// the slots of units beyond H hold whatever the buffer held, and the sums
+/// they meet are not stored), so that the loop forming δ runs along the
+/// units with unit stride and vectorises.
 #[inline(always)]
-pub(super) fn back_propagate_body<const MR: usize>(
+pub(super) fn back_propagate_body<const MR: usize, K>(
     inp: &Inputs,
     act: &[f64],
     v: &[f64],
     r: &[f64],
     g: &mut [f64],
     delta: &mut Vec<f64>,
-) {
+    kernel: K,
+) where
+    K: Fn(&[f64], usize, &[f64]) -> [[f64; INPUT_PANEL]; MR],
+{
     const P: usize = INPUT_PANEL;
     let h = v.len();
     let (n, d) = (inp.nrows(), inp.ncols());
-    let panels = h.div_ceil(MR);
-    if delta.len() < panels * n * MR {
-        delta.resize(panels * n * MR, 0.0);
+    let wide = h.div_ceil(MR) * MR;
+    // one row of slack, so that the rows of units j0.. are n whole strides
+    if delta.len() < (n + 1) * wide {
+        delta.resize((n + 1) * wide, 0.0);
     }
     let (g_w, rest) = g.split_at_mut(h * d);
     let (g_b, g_v) = rest.split_at_mut(h);
-    for (row, (a_n, &r_n)) in act.chunks_exact(h).zip(r).enumerate() {
-        for p in 0..panels {
-            let dst = &mut delta[p * n * MR + row * MR..p * n * MR + (row + 1) * MR];
-            for (u, o) in dst.iter_mut().enumerate().take(h - p * MR) {
-                let j = p * MR + u;
-                let a = a_n[j];
-                let d_nj = ((1.0 - a * a) * v[j]) * r_n;
-                *o = d_nj;
-                g_b[j] += d_nj;
-                g_v[j] += a * r_n;
-            }
+    for ((a_n, &r_n), dst) in act.chunks_exact(h).zip(r).zip(delta.chunks_exact_mut(wide)) {
+        let units = dst.iter_mut().zip(a_n).zip(v);
+        for (((o, &a), &v_j), (gb, gv)) in units.zip(g_b.iter_mut().zip(g_v.iter_mut())) {
+            let d_nj = ((1.0 - a * a) * v_j) * r_n;
+            *o = d_nj;
+            *gb += d_nj;
+            *gv += a * r_n;
         }
     }
     if h == 1 {
         g_v[0] = unrolled_dot(act, r);
     }
-    for p in 0..panels {
-        let units = MR.min(h - p * MR);
-        let dp = &delta[p * n * MR..(p + 1) * n * MR];
+    if n == 0 {
+        // no terms: δᵀX stays 0 + 1·0 = +0, the zeros `g` holds
+        return;
+    }
+    for j0 in (0..h).step_by(MR) {
+        let units = MR.min(h - j0);
         for q in 0..d.div_ceil(P) {
             let cols = P.min(d - q * P);
-            let acc = crate::linalg::register_block::<MR, P>(dp, inp.input_panel(q));
+            let acc = kernel(&delta[j0..j0 + n * wide], wide, inp.input_panel(q));
             for (u, acc_u) in acc.iter().enumerate().take(units) {
-                let at = (p * MR + u) * d + q * P;
+                let at = (j0 + u) * d + q * P;
                 for (o, s) in g_w[at..at + cols].iter_mut().zip(acc_u) {
                     *o = 0.0 + 1.0 * s;
                 }
             }
         }
     }
+}
+
+/// The register block of `linalg` with A's rows strided: acc[r][c] =
+/// 0 + Σ_k a[k·stride + r]·b[k·NR + c], each sum from 0 in increasing k
+/// (as many k as both hold: `a` whole strides, `b` rows of NR).
+#[inline(always)]
+pub(super) fn strided_block<const MR: usize, const NR: usize>(
+    a: &[f64],
+    stride: usize,
+    b: &[f64],
+) -> [[f64; NR]; MR] {
+    let mut acc = [[0.0; NR]; MR];
+    for (ak, bk) in a.chunks_exact(stride).zip(b.chunks_exact(NR)) {
+        let ak: &[f64; MR] = ak.first_chunk::<MR>().expect("MR values");
+        let bk: &[f64; NR] = bk.try_into().expect("NR values");
+        for r in 0..MR {
+            for c in 0..NR {
+                acc[r][c] += ak[r] * bk[c];
+            }
+        }
+    }
+    acc
 }
 
 /// Σ xᵢyᵢ in ndarray's order for contiguous vectors (its
