@@ -27,8 +27,9 @@ const HIDDEN_UNITS: usize = 4;
 const DELTA_KEEP: usize = 1 << 20;
 
 thread_local! {
-    /// δ of the last back-propagation on this thread, in panels of units,
-    /// kept so that the next pass neither allocates nor zero-fills it.
+    /// δ of the last back-propagation on this thread, row by row (rows
+    /// padded to whole panels of units), kept so that the next pass neither
+    /// allocates nor zero-fills it.
     static DELTA: RefCell<Vec<f64>> = const { RefCell::new(Vec::new()) };
 }
 
@@ -175,8 +176,8 @@ fn finish_rows(block: &mut [f64], layer: &HiddenLayer, y: &mut [f64]) {
 /// ∂/∂b_j = Σ_n δ_nj and ∂/∂v_j = Σ_n a_nj r_n, both from 0 in increasing
 /// n (for H = 1, ∂/∂v by [`unrolled_dot`], as ndarray summed a contiguous
 /// column) — the operations and order of the former `act.mapv(…) *= v *= r`,
-/// `delta.sum_axis(Axis(0))` and `act.t().dot(r)`. δ is written straight
-/// row by row, and the register blocks of δᵀX read it in place against the
+/// `delta.sum_axis(Axis(0))` and `act.t().dot(r)`. δ is written row by
+/// row, and the register blocks of δᵀX read it in place against the
 /// inputs' panels ([`Inputs::input_panel`]): no transposed δ, no packing.
 pub(super) fn back_propagate(inp: &Inputs, act: &[f64], v: &[f64], r: &[f64], g: &mut [f64]) {
     DELTA.with(|cell| {
