@@ -36,7 +36,7 @@ use argmin::core::{CostFunction, Error as ArgminError, Gradient};
 use ndarray::{Array1, ArrayView1, ArrayView2};
 use rayon::prelude::*;
 
-use crate::net::Architecture;
+use crate::net::{Architecture, Inputs};
 use crate::prec::{GRADIENT_BLOCK_ROWS, LARGE_TABLE_ROWS};
 
 /// What the network's output models, and so its data term.
@@ -80,7 +80,7 @@ impl<'a> DataModel<'a> {
         &self,
         arch: &Architecture,
         w: &[f64],
-        x: ArrayView2<f64>,
+        x: &Inputs,
         beta: f64,
     ) -> (f64, Array1<f64>) {
         match *self {
@@ -141,30 +141,25 @@ impl<'a> DataModel<'a> {
         }
     }
 
-    /// [`DataModel::value_gradient`], over more than [`LARGE_TABLE_ROWS`]
-    /// rows as the sum of blocks of [`GRADIENT_BLOCK_ROWS`] rows, formed in
-    /// parallel and added in row order: the same numbers whatever the
-    /// number of threads. Up to [`LARGE_TABLE_ROWS`] rows one pass, as
-    /// before.
+    /// [`DataModel::value_gradient`] over the row blocks `blocks` of
+    /// [`row_blocks`]: one block (up to [`LARGE_TABLE_ROWS`] rows) is one
+    /// pass, as before; more are formed in parallel and added in row order,
+    /// the same numbers whatever the number of threads.
     pub fn value_gradient_by_blocks(
         &self,
         arch: &Architecture,
         w: &[f64],
-        x: ArrayView2<f64>,
+        blocks: &[RowBlock],
         beta: f64,
     ) -> (f64, Array1<f64>) {
-        let n = x.nrows();
-        if n <= LARGE_TABLE_ROWS {
-            return self.value_gradient(arch, w, x, beta);
+        if let [only] = blocks {
+            return self.value_gradient(arch, w, &only.inputs, beta);
         }
-        let parts: Vec<(f64, Array1<f64>)> = (0..n)
-            .step_by(GRADIENT_BLOCK_ROWS)
-            .collect::<Vec<_>>()
-            .into_par_iter()
-            .map(|start| {
-                let end = (start + GRADIENT_BLOCK_ROWS).min(n);
-                let block = x.slice(ndarray::s![start..end, ..]);
-                self.rows(start, end).value_gradient(arch, w, block, beta)
+        let parts: Vec<(f64, Array1<f64>)> = blocks
+            .par_iter()
+            .map(|b| {
+                self.rows(b.start, b.start + b.inputs.nrows())
+                    .value_gradient(arch, w, &b.inputs, beta)
             })
             .collect();
         let mut parts = parts.into_iter();
@@ -202,6 +197,35 @@ impl<'a> DataModel<'a> {
     }
 }
 
+/// Rows `start..` of X, laid out for the passes.
+pub struct RowBlock<'a> {
+    pub start: usize,
+    pub inputs: Inputs<'a>,
+}
+
+/// X laid out once for an objective: one block up to
+/// [`LARGE_TABLE_ROWS`] rows, else blocks of [`GRADIENT_BLOCK_ROWS`] rows
+/// whose passes run in parallel (issue 28 item 2).
+pub fn row_blocks(x: ArrayView2<'_, f64>) -> Vec<RowBlock<'_>> {
+    let n = x.nrows();
+    if n <= LARGE_TABLE_ROWS {
+        return vec![RowBlock {
+            start: 0,
+            inputs: Inputs::new(x),
+        }];
+    }
+    (0..n)
+        .step_by(GRADIENT_BLOCK_ROWS)
+        .map(|start| {
+            let end = (start + GRADIENT_BLOCK_ROWS).min(n);
+            RowBlock {
+                start,
+                inputs: Inputs::new(x.slice_move(ndarray::s![start..end, ..])),
+            }
+        })
+        .collect()
+}
+
 /// (w, M/N, ∇M/N) of the last point evaluated.
 type CachedPoint = (Array1<f64>, f64, Array1<f64>);
 
@@ -211,6 +235,8 @@ type CachedPoint = (Array1<f64>, f64, Array1<f64>);
 pub(crate) struct Objective<'a> {
     pub arch: Architecture,
     pub x: ArrayView2<'a, f64>,
+    /// The rows of `x` laid out for the passes, once per objective.
+    inputs: Vec<RowBlock<'a>>,
     pub data: DataModel<'a>,
     pub beta: f64,
     /// α of each parameter's group.
@@ -230,6 +256,7 @@ impl<'a> Objective<'a> {
         Objective {
             arch,
             x,
+            inputs: row_blocks(x),
             data,
             beta,
             alpha,
@@ -253,9 +280,9 @@ impl<'a> Objective<'a> {
         *self.evaluations.borrow_mut() += 1;
         let n = self.x.nrows() as f64;
         let ws = w.as_slice().expect("owned 1-D arrays are contiguous");
-        let (mut cost, mut grad) = self
-            .data
-            .value_gradient_by_blocks(&self.arch, ws, self.x, self.beta);
+        let (mut cost, mut grad) =
+            self.data
+                .value_gradient_by_blocks(&self.arch, ws, &self.inputs, self.beta);
         for (k, (&wk, &ak)) in w.iter().zip(&self.alpha).enumerate() {
             cost += 0.5 * ak * wk * wk;
             grad[k] += ak * wk;
@@ -323,7 +350,7 @@ mod tests {
             },
         ];
         for model in models {
-            let (v, g) = model.value_gradient(&arch, &w, x.view(), 7.0);
+            let (v, g) = model.value_gradient(&arch, &w, &Inputs::new(x.view()), 7.0);
             assert!((v - model.value(&arch, &w, x.view(), 7.0)).abs() < 1e-9 * v.abs());
             for k in 0..w.len() {
                 let mut wp = w.clone();
@@ -377,11 +404,13 @@ mod tests {
                 .expect("thread pool")
         };
         for model in models {
-            let (v1, g1) = model.value_gradient(&arch, &w, x.view(), 3.0);
+            let (v1, g1) = model.value_gradient(&arch, &w, &Inputs::new(x.view()), 3.0);
+            let blocks = row_blocks(x.view());
+            assert!(blocks.len() > 1);
             let by_threads: Vec<(f64, Array1<f64>)> = [1, 2]
                 .iter()
                 .map(|&k| {
-                    pool(k).install(|| model.value_gradient_by_blocks(&arch, &w, x.view(), 3.0))
+                    pool(k).install(|| model.value_gradient_by_blocks(&arch, &w, &blocks, 3.0))
                 })
                 .collect();
             assert_eq!(by_threads[0].0.to_bits(), by_threads[1].0.to_bits());
@@ -394,8 +423,10 @@ mod tests {
             }
             let small = x.slice(ndarray::s![..LARGE_TABLE_ROWS, ..]);
             let cut = model.rows(0, LARGE_TABLE_ROWS);
-            let (vs, gs) = cut.value_gradient(&arch, &w, small, 3.0);
-            let (vsb, gsb) = cut.value_gradient_by_blocks(&arch, &w, small, 3.0);
+            let (vs, gs) = cut.value_gradient(&arch, &w, &Inputs::new(small), 3.0);
+            let small_blocks = row_blocks(small);
+            assert_eq!(small_blocks.len(), 1);
+            let (vsb, gsb) = cut.value_gradient_by_blocks(&arch, &w, &small_blocks, 3.0);
             assert_eq!(vs.to_bits(), vsb.to_bits());
             assert_eq!(gs, gsb);
         }

@@ -23,6 +23,9 @@
 //! output bias `c`. In linear mode: `a` (d), then `c`.
 
 use ndarray::{s, Array1, Array2, ArrayView1, ArrayView2, Axis};
+
+use super::inputs::Inputs;
+use super::passes;
 use serde::{Deserialize, Serialize};
 
 /// The shape of a network: how many inputs and hidden units.
@@ -117,39 +120,30 @@ impl Architecture {
     /// # Panics
     /// If `w.len() != self.n_params()` or `x` has the wrong number of columns.
     pub fn predict(&self, w: &[f64], x: ArrayView2<f64>) -> Array1<f64> {
-        self.forward(w, x).0
+        self.forward(w, &Inputs::new(x)).0
     }
 
-    /// Outputs and hidden activations (the activations are empty when linear).
-    fn forward(&self, w: &[f64], x: ArrayView2<f64>) -> (Array1<f64>, Array2<f64>) {
+    /// Outputs and hidden activations (the activations are empty when
+    /// linear); the hidden layer by [`passes::hidden_layer`].
+    fn forward(&self, w: &[f64], inp: &Inputs) -> (Array1<f64>, Array2<f64>) {
         assert_eq!(w.len(), self.n_params(), "parameter vector length");
-        assert_eq!(x.ncols(), self.n_inputs, "input columns");
+        assert_eq!(inp.ncols(), self.n_inputs, "input columns");
         let p = self.split(w);
         if self.is_linear() {
-            let y = x.dot(&p.input_w.row(0)) + p.output_b;
+            let y = inp.view().dot(&p.input_w.row(0)) + p.output_b;
             return (y, Array2::zeros((0, 0)));
         }
-        let h = self.n_hidden;
-        let b = p
-            .hidden_b
-            .as_slice()
-            .expect("a slice of the parameter vector");
-        let v = p
-            .output_w
-            .as_slice()
-            .expect("a slice of the parameter vector");
-        let mut act = hidden_sums(x, p.input_w, b);
-        let flat = act
-            .as_slice_mut()
-            .expect("a fresh array is in standard layout");
-        // tanh of each element, then `act.dot(&v) + c` (ndarray's product
-        // of a matrix and a vector: each row's [`unrolled_dot`], times 1)
-        // without its iterator and allocation overhead: the same bits
-        // (unit test)
-        tanh_in_place(flat);
-        let y = Array1::from_iter(
-            flat.chunks_exact(h)
-                .map(|row| unrolled_dot(row, v) * 1.0 + p.output_b),
+        let slice = |v: ArrayView1<'_, f64>| -> Vec<f64> { v.to_vec() };
+        let (b, v) = (slice(p.hidden_b), slice(p.output_w));
+        let layer = passes::HiddenLayer::new(p.input_w, &b, &v, p.output_b);
+        let mut act = Array2::<f64>::zeros((inp.nrows(), self.n_hidden));
+        let mut y = Array1::<f64>::zeros(inp.nrows());
+        passes::hidden_layer(
+            inp,
+            &layer,
+            act.as_slice_mut()
+                .expect("a fresh array is in standard layout"),
+            y.as_slice_mut().expect("a fresh vector is contiguous"),
         );
         (y, act)
     }
@@ -159,23 +153,19 @@ impl Architecture {
     pub fn data_error_gradient(
         &self,
         w: &[f64],
-        x: ArrayView2<f64>,
+        inp: &Inputs,
         t: ArrayView1<f64>,
     ) -> (f64, Array1<f64>) {
-        let (y, act) = self.forward(w, x);
+        let (y, act) = self.forward(w, inp);
         let r = &y - &t;
         let e_d = 0.5 * r.dot(&r);
-        (e_d, self.backprop(w, x, &act, &r))
+        (e_d, self.backprop(w, inp, &act, &r))
     }
 
     /// Outputs and hidden activations, for a caller that forms its own
     /// per-row loss and then calls [`Architecture::gradient_from_output`].
-    pub fn outputs_and_activations(
-        &self,
-        w: &[f64],
-        x: ArrayView2<f64>,
-    ) -> (Array1<f64>, Array2<f64>) {
-        self.forward(w, x)
+    pub fn outputs_and_activations(&self, w: &[f64], inp: &Inputs) -> (Array1<f64>, Array2<f64>) {
+        self.forward(w, inp)
     }
 
     /// `Σ_n (∂L/∂y_n) ∇_w y_n` for any per-row loss derivative `dl_dy`,
@@ -183,71 +173,34 @@ impl Architecture {
     pub fn gradient_from_output(
         &self,
         w: &[f64],
-        x: ArrayView2<f64>,
+        inp: &Inputs,
         act: &Array2<f64>,
         dl_dy: &Array1<f64>,
     ) -> Array1<f64> {
-        self.backprop(w, x, act, dl_dy)
+        self.backprop(w, inp, act, dl_dy)
     }
 
-    fn backprop(
-        &self,
-        w: &[f64],
-        x: ArrayView2<f64>,
-        act: &Array2<f64>,
-        r: &Array1<f64>,
-    ) -> Array1<f64> {
+    /// The gradient by [`passes::back_propagate`] (the output bias's
+    /// element `r.sum()`, ndarray's sum, as before).
+    fn backprop(&self, w: &[f64], inp: &Inputs, act: &Array2<f64>, r: &Array1<f64>) -> Array1<f64> {
         let lay = self.layout();
         let mut g = Array1::zeros(self.n_params());
         if self.is_linear() {
-            g.slice_mut(s![..self.n_inputs]).assign(&x.t().dot(r));
+            g.slice_mut(s![..self.n_inputs])
+                .assign(&inp.view().t().dot(r));
             g[lay.output_bias] = r.sum();
             return g;
         }
         let p = self.split(w);
-        let (n, h) = (x.nrows(), self.n_hidden);
-        let v = p
-            .output_w
-            .as_slice()
-            .expect("a slice of the parameter vector");
-        let a_flat = act
-            .as_slice()
-            .expect("activations of the forward pass are in standard layout");
-        // δ_nj = ((1 − a_nj²)·v_j)·r_n, kept transposed (H × N) for the
-        // product δᵀX; ∂/∂b_j = Σ_n δ_nj and ∂/∂v_j = Σ_n a_nj r_n summed
-        // from 0 in increasing n — the operations and order of the former
-        // `act.mapv(…) *= v *= r`, `delta.sum_axis(Axis(0))` and
-        // `act.t().dot(r)` (ndarray sums a strided row in order, a
-        // contiguous one, H = 1, by [`unrolled_dot`]): the same bits, one
-        // pass, no temporaries (unit test)
-        let r_s = r.as_slice().expect("a fresh vector is contiguous");
-        let mut delta_t = Array2::<f64>::zeros((h, n));
-        let dt = delta_t
-            .as_slice_mut()
-            .expect("a fresh array is in standard layout");
-        let mut g_b = vec![0.0; h];
-        let mut g_v = vec![0.0; h];
-        for (row, (a_n, &r_n)) in a_flat.chunks_exact(h).zip(r_s).enumerate() {
-            for j in 0..h {
-                let a = a_n[j];
-                let d = ((1.0 - a * a) * v[j]) * r_n;
-                dt[j * n + row] = d;
-                g_b[j] += d;
-                g_v[j] += a * r_n;
-            }
-        }
-        if h == 1 {
-            g_v[0] = unrolled_dot(a_flat, r_s);
-        }
-        let g_w = crate::linalg::matmul(delta_t.view(), x);
-        g.slice_mut(s![..lay.hidden_bias]).assign(&ArrayView1::from(
-            g_w.as_slice()
-                .expect("a fresh product is in standard layout"),
-        ));
-        g.slice_mut(s![lay.hidden_bias..lay.output_weights])
-            .assign(&ArrayView1::from(&g_b));
-        g.slice_mut(s![lay.output_weights..lay.output_weights + h])
-            .assign(&ArrayView1::from(&g_v));
+        let v = p.output_w.to_vec();
+        passes::back_propagate(
+            inp,
+            act.as_slice()
+                .expect("activations of the forward pass are in standard layout"),
+            &v,
+            r.as_slice().expect("a fresh vector is contiguous"),
+            &mut g.as_slice_mut().expect("a fresh vector is contiguous")[..lay.output_bias],
+        );
         g[lay.output_bias] = r.sum();
         g
     }
@@ -264,7 +217,7 @@ impl Architecture {
         w: &[f64],
         x: ArrayView2<f64>,
     ) -> (Array1<f64>, Array2<f64>, Array2<f64>) {
-        let (y, act) = self.forward(w, x);
+        let (y, act) = self.forward(w, &Inputs::new(x));
         let n = x.nrows();
         let (d, h) = (self.n_inputs, self.n_hidden);
         let lay = self.layout();
@@ -367,159 +320,15 @@ pub fn tanh(x: f64) -> f64 {
     }
 }
 
-/// The hidden units' inputs `X·Wᵀ + b` (N × H): element (n, j) is
-/// `(0 + Σ_i x_ni W_ji) + b_j`, the sum from 0 in increasing i — the bits
-/// of the former `linalg::matmul(x, Wᵀ)` (whose register block sums from 0
-/// in increasing i and then adds the sum to C's 0) followed by `+= b` —
-/// in register blocks of [`HIDDEN_ROWS`] rows × [`HIDDEN_UNITS`] units
-/// whose sums stay in registers through the d inputs (the vector lanes run
-/// across units, each sum in its own lane, in its own order), without
-/// packing either operand; the last rows one at a time. Compiled for the
-/// baseline and with AVX like [`tanh_in_place`]; the same bits either way
-/// (unit test).
-fn hidden_sums(x: ArrayView2<f64>, w: ArrayView2<f64>, b: &[f64]) -> Array2<f64> {
-    let (n, h) = (x.nrows(), w.nrows());
-    let d = x.ncols();
-    // Wᵀ row-major: wt[i·H + j] = W_ji
-    let wt: Vec<f64> = (0..d).flat_map(|i| w.column(i).to_vec()).collect();
-    let mut out = Array2::<f64>::zeros((n, h));
-    let flat = out
-        .as_slice_mut()
-        .expect("a fresh array is in standard layout");
-    #[cfg(target_arch = "x86_64")]
-    {
-        if std::arch::is_x86_feature_detected!("avx") {
-            // SAFETY: the CPU has AVX, the only feature the function enables.
-            #[allow(unsafe_code)]
-            unsafe {
-                hidden_sums_avx(x, &wt, b, flat)
-            };
-            return out;
-        }
-    }
-    hidden_sums_body(x, &wt, b, flat);
-    out
-}
-
-#[cfg(target_arch = "x86_64")]
-#[target_feature(enable = "avx")]
-fn hidden_sums_avx(x: ArrayView2<f64>, wt: &[f64], b: &[f64], out: &mut [f64]) {
-    hidden_sums_body(x, wt, b, out);
-}
-
-/// Rows per register block of [`hidden_sums_body`].
-const HIDDEN_ROWS: usize = 8;
-/// Hidden units per register block of [`hidden_sums_body`] (one AVX
-/// vector); the last block's missing units have zero weights, and their
-/// sums are not stored.
-const HIDDEN_UNITS: usize = 4;
-
-#[inline(always)]
-fn hidden_sums_body(x: ArrayView2<f64>, wt: &[f64], b: &[f64], out: &mut [f64]) {
-    const R: usize = HIDDEN_ROWS;
-    const J: usize = HIDDEN_UNITS;
-    let h = b.len();
-    if h == 0 {
-        return;
-    }
-    let (n, d) = x.dim();
-    let standard;
-    let xs = match x.as_slice() {
-        Some(s) => s,
-        None => {
-            standard = x.as_standard_layout().into_owned();
-            standard.as_slice().expect("standard layout")
-        }
-    };
-    // Wᵀ in panels of J units: panel g holds W_(gJ+c),i at i·J + c, zero
-    // for units beyond H
-    let groups = h.div_ceil(J);
-    let mut wp = vec![0.0; groups * d * J];
-    for (g, panel) in wp.chunks_exact_mut((d * J).max(1)).enumerate().take(groups) {
-        for (i, dst) in panel.chunks_exact_mut(J).enumerate() {
-            for (c, o) in dst.iter_mut().enumerate() {
-                if g * J + c < h {
-                    *o = wt[i * h + g * J + c];
-                }
-            }
-        }
-    }
-    // R rows of X side by side: xt[i·R + r] = x_(n0+r),i
-    let mut xt = vec![0.0; d * R];
-    let whole = n / R * R;
-    for n0 in (0..whole).step_by(R) {
-        for (r, x_r) in xs[n0 * d..(n0 + R) * d].chunks_exact(d.max(1)).enumerate() {
-            for (i, v) in x_r.iter().enumerate() {
-                xt[i * R + r] = *v;
-            }
-        }
-        for g in 0..groups {
-            let j0 = g * J;
-            // acc[r][c] = 0 + Σ_i x_(n0+r),i · W_(j0+c),i, in increasing i
-            let acc = crate::linalg::register_block::<R, J>(&xt, &wp[g * d * J..(g + 1) * d * J]);
-            let cols = J.min(h - j0);
-            for (r, acc_r) in acc.iter().enumerate() {
-                let row = &mut out[(n0 + r) * h + j0..(n0 + r) * h + j0 + cols];
-                for ((o, a), bj) in row.iter_mut().zip(acc_r).zip(&b[j0..j0 + cols]) {
-                    *o = (0.0 + *a) + bj;
-                }
-            }
-        }
-    }
-    // the last rows one at a time, the sums of all H units side by side
-    for (k, row) in out[whole * h..].chunks_exact_mut(h).enumerate() {
-        let x_n = &xs[(whole + k) * d..(whole + k + 1) * d];
-        row.fill(0.0);
-        for (xi, wt_i) in x_n.iter().zip(wt.chunks_exact(h)) {
-            for (acc, wji) in row.iter_mut().zip(wt_i) {
-                *acc += xi * wji;
-            }
-        }
-        for (acc, bj) in row.iter_mut().zip(b) {
-            *acc = (0.0 + *acc) + bj;
-        }
-    }
-}
-
-/// Σ xᵢyᵢ in ndarray's order for contiguous vectors (its
-/// `numeric_util::unrolled_dot`, which `ArrayView1::dot` and the product
-/// of a matrix and a vector call): eight partial sums over the full blocks
-/// of eight, combined as ((0 + (p₀ + p₄)) + (p₁ + p₅)) + …, then the
-/// remaining terms one by one. Copied so that fused loops give the bits
-/// ndarray's products gave (unit test against `dot`).
-#[inline(always)]
-fn unrolled_dot(xs: &[f64], ys: &[f64]) -> f64 {
-    let len = xs.len().min(ys.len());
-    let (mut xs, mut ys) = (&xs[..len], &ys[..len]);
-    let mut sum = 0.0;
-    let mut p = [0.0; 8];
-    while xs.len() >= 8 {
-        for l in 0..8 {
-            p[l] += xs[l] * ys[l];
-        }
-        xs = &xs[8..];
-        ys = &ys[8..];
-    }
-    sum += p[0] + p[4];
-    sum += p[1] + p[5];
-    sum += p[2] + p[6];
-    sum += p[3] + p[7];
-    for (x, y) in xs.iter().zip(ys) {
-        sum += x * y;
-    }
-    sum
-}
-
 /// |x| above which tanh(x) = ±1 in f64 by the formula of [`tanh`]:
 /// e^{2·20} ≈ 2.4·10¹⁷, 2/(e + 1) < 2⁻⁵⁴ (half an ulp below 1).
 const TANH_SATURATES: f64 = 20.0;
 
-/// tanh of every element in place, each as [`tanh`] gives it (the same
-/// bits): a loop without calls or data-dependent jumps, which the compiler
-/// turns into vector instructions, compiled twice like
-/// [`crate::linalg`]'s product (baseline SSE2, and AVX where the CPU has
-/// it); both perform the same IEEE operations on each element, so the same
-/// bits (unit test).
+/// tanh of every element in place by [`tanh_slice`], compiled with AVX
+/// where the CPU has it, else for the baseline — the two builds the passes
+/// inline it into ([`super::passes`]); both perform the same IEEE
+/// operations on each element, so the same bits (unit test).
+#[cfg(test)]
 pub fn tanh_in_place(v: &mut [f64]) {
     #[cfg(target_arch = "x86_64")]
     {
@@ -529,21 +338,24 @@ pub fn tanh_in_place(v: &mut [f64]) {
             return unsafe { tanh_in_place_avx(v) };
         }
     }
-    tanh_in_place_portable(v);
+    tanh_slice(v);
 }
 
-fn tanh_in_place_portable(v: &mut [f64]) {
+/// tanh of every element in place, each as [`tanh`] gives it (the same
+/// bits): a loop without calls or data-dependent jumps, which the compiler
+/// turns into vector instructions; the passes inline it into each of their
+/// builds ([`super::passes`]).
+#[inline(always)]
+pub(super) fn tanh_slice(v: &mut [f64]) {
     for x in v.iter_mut() {
         *x = tanh(*x);
     }
 }
 
-#[cfg(target_arch = "x86_64")]
+#[cfg(all(test, target_arch = "x86_64"))]
 #[target_feature(enable = "avx")]
 fn tanh_in_place_avx(v: &mut [f64]) {
-    for x in v.iter_mut() {
-        *x = tanh(*x);
-    }
+    tanh_slice(v);
 }
 
 /// eˣ for 0 ≤ x ≤ 40 (and NaN), the algorithm of FreeBSD's `e_exp.c` as
@@ -703,7 +515,7 @@ mod tests {
     fn tanh_is_the_libm_formula_bit_for_bit_in_both_builds() {
         let xs = awkward_arguments();
         let mut portable = xs.clone();
-        tanh_in_place_portable(&mut portable);
+        tanh_slice(&mut portable);
         let mut dispatched = xs.clone();
         tanh_in_place(&mut dispatched);
         for ((x, p), d) in xs.iter().zip(&portable).zip(&dispatched) {
@@ -719,13 +531,14 @@ mod tests {
     }
 
     /// The forward pass and back-propagation as ndarray's operations did
-    /// them before the fused loops (the reference for bit-for-bit checks).
+    /// them before the fused loops (the reference for bit-for-bit checks):
+    /// outputs, activations, E_D and the gradient.
     fn ndarray_forward_backprop(
         arch: &Architecture,
         w: &[f64],
         x: ArrayView2<f64>,
         t: ArrayView1<f64>,
-    ) -> (Array1<f64>, f64, Array1<f64>) {
+    ) -> (Array1<f64>, Array2<f64>, f64, Array1<f64>) {
         let p = arch.split(w);
         let lay = arch.layout();
         let mut act = crate::linalg::matmul(x, p.input_w.t());
@@ -746,80 +559,134 @@ mod tests {
         g.slice_mut(s![lay.output_weights..lay.output_bias])
             .assign(&act.t().dot(&r));
         g[lay.output_bias] = r.sum();
-        (y, e_d, g)
+        (y, act, e_d, g)
     }
 
+    fn assert_same_bits(got: &[f64], want: &[f64], what: &str) {
+        assert_eq!(got.len(), want.len(), "{what}: length");
+        for (k, (a, b)) in got.iter().zip(want).enumerate() {
+            assert_eq!(a.to_bits(), b.to_bits(), "{what}: element {k}");
+        }
+    }
+
+    /// Both builds of the passes ([`passes::hidden_layer_body`] and
+    /// [`passes::back_propagate_body`] as compiled for the baseline, with
+    /// several unit panels, and the dispatched ones) against the ndarray
+    /// expressions, for every remainder of the row blocks (N mod 8) and the
+    /// unit blocks (H mod 4, mod 6), inputs on both sides of the 8-input
+    /// panel, a strided X.
     #[test]
     fn fused_passes_give_ndarrays_bits() {
-        for (d, h, n, seed) in [
+        let mut shapes = vec![
             (8, 1, 37, 21),
             (8, 10, 741, 22),
             (3, 7, 9, 23),
             (30, 20, 200, 24),
             (2, 16, 1, 25),
-        ] {
-            let (arch, w, x, t) = random_problem(d, h, n, seed);
-            let (y0, e0, g0) = ndarray_forward_backprop(&arch, &w, x.view(), t.view());
-            let (e1, g1) = arch.data_error_gradient(&w, x.view(), t.view());
-            let y1 = arch.predict(&w, x.view());
-            assert_eq!(e1.to_bits(), e0.to_bits(), "E_D, d {d} h {h}");
-            for (a, b) in y1.iter().zip(&y0) {
-                assert_eq!(a.to_bits(), b.to_bits(), "y, d {d} h {h}");
-            }
-            for (k, (a, b)) in g1.iter().zip(&g0).enumerate() {
-                assert_eq!(a.to_bits(), b.to_bits(), "gradient {k}, d {d} h {h}");
-            }
-        }
-        // both builds of the hidden sums against matmul + b, for every
-        // remainder of the register block (rows and units) and a strided x
-        for (d, h, n, seed) in [
-            (1, 1, 1, 40),
-            (3, 2, 7, 41),
-            (8, 10, 8, 42),
-            (8, 10, 9, 43),
-            (8, 4, 17, 44),
-            (5, 5, 23, 45),
             (0, 3, 11, 46),
+            (9, 13, 53, 26),
             (12, 20, 130, 47),
-            (8, 16, 61, 48),
-            (6, 7, 100, 49),
-        ] {
-            let (arch, w, x, _) = random_problem(d, h, n, seed);
-            let p = arch.split(&w);
-            let b = p.hidden_b.to_vec();
-            let mut want = crate::linalg::matmul(x.view(), p.input_w.t());
-            want += &p.hidden_b;
-            let got = hidden_sums(x.view(), p.input_w, &b);
-            let wt: Vec<f64> = (0..d).flat_map(|i| p.input_w.column(i).to_vec()).collect();
-            let mut portable = vec![0.0; n * h];
-            hidden_sums_body(x.view(), &wt, &b, &mut portable);
-            let xf = x.t().as_standard_layout().into_owned();
-            let strided = hidden_sums(xf.t(), p.input_w, &b);
-            for (((g, p), s), w) in got.iter().zip(&portable).zip(&strided).zip(want.iter()) {
-                assert_eq!(g.to_bits(), w.to_bits(), "d {d} h {h} n {n}");
-                assert_eq!(p.to_bits(), w.to_bits(), "portable, d {d} h {h} n {n}");
-                assert_eq!(s.to_bits(), w.to_bits(), "strided, d {d} h {h} n {n}");
+            (17, 5, 3, 27),
+        ];
+        for n in 0..=17 {
+            for h in 1..=13 {
+                shapes.push(([1, 8, 5, 16][n % 4], h, n, (100 + 20 * n + h) as u64));
             }
         }
-        let (arch, w, x, _) = random_problem(9, 13, 53, 26);
-        let p = arch.split(&w);
-        let b = p.hidden_b.to_vec();
-        let mut want = crate::linalg::matmul(x.view(), p.input_w.t());
-        want += &p.hidden_b;
-        let got = hidden_sums(x.view(), p.input_w, &b);
-        let wt: Vec<f64> = (0..9).flat_map(|i| p.input_w.column(i).to_vec()).collect();
-        let mut portable = vec![0.0; 53 * 13];
-        hidden_sums_body(x.view(), &wt, &b, &mut portable);
-        for ((g, p), w) in got.iter().zip(&portable).zip(want.iter()) {
-            assert_eq!(g.to_bits(), w.to_bits());
-            assert_eq!(p.to_bits(), w.to_bits());
+        for (d, h, n, seed) in shapes {
+            let what = format!("d {d} h {h} n {n}");
+            let (arch, w, x, t) = random_problem(d, h, n, seed);
+            let (y0, act0, e0, g0) = ndarray_forward_backprop(&arch, &w, x.view(), t.view());
+            let flat = |a: &Array2<f64>| a.iter().copied().collect::<Vec<f64>>();
+            let xf = x.t().as_standard_layout().into_owned();
+            for inp in [Inputs::new(x.view()), Inputs::new(xf.t())] {
+                let (e1, g1) = arch.data_error_gradient(&w, &inp, t.view());
+                assert_eq!(e1.to_bits(), e0.to_bits(), "E_D, {what}");
+                assert_same_bits(g1.as_slice().unwrap(), g0.as_slice().unwrap(), &what);
+                let (y1, act1) = arch.outputs_and_activations(&w, &inp);
+                assert_same_bits(y1.as_slice().unwrap(), y0.as_slice().unwrap(), &what);
+                assert_same_bits(&flat(&act1), &flat(&act0), &what);
+                // the baseline build, unit panels of 1, 2, 3 and 6
+                let p = arch.split(&w);
+                let (b, v) = (p.hidden_b.to_vec(), p.output_w.to_vec());
+                let layer = passes::HiddenLayer::new(p.input_w, &b, &v, p.output_b);
+                let (mut act2, mut y2) = (vec![0.0; n * h], vec![0.0; n]);
+                passes::hidden_layer_body(&inp, &layer, &mut act2, &mut y2);
+                assert_same_bits(&y2, y0.as_slice().unwrap(), &what);
+                assert_same_bits(&act2, &flat(&act0), &what);
+                let r = (&y0 - &t).to_vec();
+                let k = h * d + 2 * h;
+                let mut delta = vec![f64::NAN; 7];
+                // the AVX build's kernel on its own, where the CPU has it
+                #[cfg(target_arch = "x86_64")]
+                if std::arch::is_x86_feature_detected!("avx") {
+                    let mut g2 = vec![0.0; k];
+                    passes::back_propagate(&inp, &act2, &v, &r, &mut g2);
+                    assert_same_bits(
+                        &g2,
+                        &g0.as_slice().unwrap()[..k],
+                        &format!("{what}, dispatched"),
+                    );
+                }
+                for mr in [1, 2, 3, 6] {
+                    let mut g2 = vec![0.0; k];
+                    match mr {
+                        1 => passes::back_propagate_body::<1, _>(
+                            &inp,
+                            &act2,
+                            &v,
+                            &r,
+                            &mut g2,
+                            &mut delta,
+                            passes::strided_block::<1, 8>,
+                        ),
+                        2 => passes::back_propagate_body::<2, _>(
+                            &inp,
+                            &act2,
+                            &v,
+                            &r,
+                            &mut g2,
+                            &mut delta,
+                            passes::strided_block::<2, 8>,
+                        ),
+                        3 => passes::back_propagate_body::<3, _>(
+                            &inp,
+                            &act2,
+                            &v,
+                            &r,
+                            &mut g2,
+                            &mut delta,
+                            passes::strided_block::<3, 8>,
+                        ),
+                        _ => passes::back_propagate_body::<6, _>(
+                            &inp,
+                            &act2,
+                            &v,
+                            &r,
+                            &mut g2,
+                            &mut delta,
+                            passes::strided_block::<6, 8>,
+                        ),
+                    }
+                    assert_same_bits(
+                        &g2,
+                        &g0.as_slice().unwrap()[..k],
+                        &format!("{what}, {mr} units"),
+                    );
+                }
+            }
+            assert_same_bits(
+                arch.predict(&w, x.view()).as_slice().unwrap(),
+                y0.as_slice().unwrap(),
+                &what,
+            );
         }
         let xs: Vec<f64> = (0..29).map(|i| f64::from(i).sin_fixed() * 1e3).collect();
         let ys: Vec<f64> = (0..29).map(|i| f64::from(i).cos_fixed()).collect();
         for len in 0..29 {
             let want = ArrayView1::from(&xs[..len]).dot(&ArrayView1::from(&ys[..len]));
             assert_eq!(
-                unrolled_dot(&xs[..len], &ys[..len]).to_bits(),
+                passes::unrolled_dot(&xs[..len], &ys[..len]).to_bits(),
                 want.to_bits()
             );
         }
@@ -829,7 +696,7 @@ mod tests {
     fn gradient_matches_central_differences() {
         for (d, h, seed) in [(3, 4, 1), (5, 1, 2), (2, 7, 3), (4, 0, 4)] {
             let (arch, w, x, t) = random_problem(d, h, 25, seed);
-            let (_, g) = arch.data_error_gradient(&w, x.view(), t.view());
+            let (_, g) = arch.data_error_gradient(&w, &Inputs::new(x.view()), t.view());
             for k in 0..w.len() {
                 let mut wp = w.clone();
                 let mut wm = w.clone();
@@ -869,8 +736,12 @@ mod tests {
                 let mut wm = w.clone();
                 wp[k] += FD_STEP;
                 wm[k] -= FD_STEP;
-                let gp = arch.data_error_gradient(&wp, x.view(), t.view()).1;
-                let gm = arch.data_error_gradient(&wm, x.view(), t.view()).1;
+                let gp = arch
+                    .data_error_gradient(&wp, &Inputs::new(x.view()), t.view())
+                    .1;
+                let gm = arch
+                    .data_error_gradient(&wm, &Inputs::new(x.view()), t.view())
+                    .1;
                 let fd = (gp - gm) / (2.0 * FD_STEP);
                 for l in 0..w.len() {
                     assert_abs_diff_eq!(hess[[l, k]], fd[l], epsilon = 1e-5 * (1.0 + fd[l].abs()));
