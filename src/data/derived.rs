@@ -161,6 +161,8 @@ fn implicit_schema(table: &Table, derivations: &[Derivation]) -> Result<Schema> 
                 max: None,
                 transform: Default::default(),
                 margin: None,
+                kind: Default::default(),
+                levels: Default::default(),
             });
         }
         if not_found.is_empty() {

@@ -166,6 +166,7 @@ impl Model {
         let transforms: Vec<TargetTransform> = prepared.targets.iter().map(|t| t.1).collect();
         let mut model = Self::train_transformed(&prepared.table, &spec, &transforms, observer)?;
         model.schema = Some(schema.clone());
+        model.codes = code_record(schema, &prepared.table)?;
         model.training.incomplete_rows_dropped = prepared.dropped_rows.clone();
         Ok((
             model,
@@ -284,11 +285,43 @@ impl Model {
                 x.view(),
                 &target_values,
             ),
+            codes: Vec::new(),
             domain: DomainReference::build(x.view())
                 .map(|r| r.with_relevance(input_weights(&targets, x.view(), &target_rows))),
             targets,
         })
     }
+}
+
+/// The record of each input the schema declares as a code: every level
+/// with its indicator column and the training rows at it.
+///
+/// # Errors
+/// An indicator column missing from the prepared table (not expected).
+fn code_record(schema: &Schema, prepared: &Table) -> Result<Vec<super::CodeInput>> {
+    let mut out = Vec::new();
+    for c in schema.columns.iter().filter(|c| c.is_code()) {
+        let mut levels = Vec::new();
+        for (code, name) in c.level_list() {
+            let column = crate::data::schema::indicator_name(&c.name, &name);
+            let training_rows = prepared
+                .numeric(&column)?
+                .iter()
+                .filter(|&&v| v == 1.0)
+                .count();
+            levels.push(super::CodeLevel {
+                code,
+                name,
+                column,
+                training_rows,
+            });
+        }
+        out.push(super::CodeInput {
+            name: c.name.clone(),
+            levels,
+        });
+    }
+    Ok(out)
 }
 
 /// The input columns offered: those listed (none of them a target), else
@@ -569,4 +602,121 @@ fn min_max(values: &[f64]) -> (f64, f64) {
         .fold((f64::INFINITY, f64::NEG_INFINITY), |(lo, hi), v| {
             (lo.min(*v), hi.max(*v))
         })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::observer::Silent as NoObserver;
+
+    /// An invented table (not measured data): y = x + a level effect that
+    /// is not monotone in the code (none 0, argon +1, carbon dioxide −0.5),
+    /// with a small deterministic wobble.
+    pub(crate) fn invented(gas: &[&str]) -> Table {
+        let n = gas.len();
+        let effect = |g: &str| match g {
+            "0" | "none" => 0.0,
+            "1" | "argon" => 1.0,
+            "2" | "carbon_dioxide" => -0.5,
+            _ => 0.0,
+        };
+        let x: Vec<f64> = (0..n).map(|i| (i % 7) as f64 / 6.0).collect();
+        let y: Vec<f64> = (0..n)
+            .map(|i| x[i] + effect(gas[i]) + 0.02 * ((i * 37 % 11) as f64 - 5.0) / 5.0)
+            .collect();
+        let mut t = Table::from_columns("invented.csv", vec![("x".into(), x), ("y".into(), y)])
+            .expect("table");
+        t.push_column(
+            "gas".into(),
+            crate::data::ColumnData::Text(gas.iter().map(|g| Some(g.to_string())).collect()),
+        )
+        .expect("gas");
+        t
+    }
+
+    pub(crate) const CODED: &str = r#"
+mettle_schema = 1
+[[column]]
+name = "x"
+role = "input"
+unit = "1"
+[[column]]
+name = "gas"
+role = "input"
+kind = "levels"
+levels = { 0 = "none", 1 = "argon", 2 = "carbon_dioxide", 3 = "helium" }
+[[column]]
+name = "y"
+role = "target"
+unit = "1"
+"#;
+
+    pub(crate) fn quick() -> SchemaTrainOptions {
+        SchemaTrainOptions {
+            params: CommitteeParams {
+                hidden_min: 1,
+                hidden_max: 3,
+                restarts: 1,
+                max_members: 3,
+                ..CommitteeParams::default()
+            },
+            ..SchemaTrainOptions::default()
+        }
+    }
+
+    #[test]
+    fn a_declared_code_trains_on_indicators_and_is_recorded() {
+        let gas: Vec<&str> = (0..63).map(|i| ["0", "1", "2"][i % 3]).collect();
+        let schema = Schema::from_toml(CODED, "s.toml").expect("schema");
+        let (model, _) =
+            Model::train_with_schema(&invented(&gas), &schema, "s.toml", &quick(), &NoObserver)
+                .expect("train");
+        assert_eq!(
+            model.input_names(),
+            vec!["x", "gas=none", "gas=argon", "gas=carbon_dioxide"]
+        );
+        assert!(model.set_aside.iter().any(|s| s.name == "gas=helium"));
+        let rows: Vec<(i64, usize)> = model.codes[0]
+            .levels
+            .iter()
+            .map(|l| (l.code, l.training_rows))
+            .collect();
+        assert_eq!(rows, vec![(0, 21), (1, 21), (2, 21), (3, 0)]);
+        assert_eq!(model.codes[0].seen_text(), "0 = none, 1 = argon, 2 = carbon_dioxide");
+        // the record survives the file format
+        let back: Model =
+            serde_json::from_str(&serde_json::to_string(&model).expect("json")).expect("back");
+        assert_eq!(back.codes, model.codes);
+        // estimates follow the non-monotone level effect at x = 0.5
+        let q = invented(&["none", "argon", "carbon_dioxide"]);
+        let q = Table::from_columns(
+            "q.csv",
+            vec![("x".into(), vec![0.5; 3]), ("y".into(), vec![0.0; 3])],
+        )
+        .and_then(|mut t| {
+            t.push_column(
+                "gas".into(),
+                q.column_at(q.index_of("gas").expect("gas")).expect("col").clone(),
+            )?;
+            Ok(t)
+        })
+        .expect("query");
+        let p = model.predict(&q).expect("predict");
+        let m: Vec<f64> = p.iter().map(|r| r.estimates[0].mean).collect();
+        for (got, want) in m.iter().zip([0.5, 1.5, 0.0]) {
+            assert!((got - want).abs() < 0.15, "{m:?}");
+        }
+        // a declared level no training row held is refused with the known levels
+        let e = model
+            .predict(&invented(&["0", "helium"]))
+            .expect_err("unseen level")
+            .to_string();
+        assert!(
+            e.contains("row 2")
+                && e.contains("'gas'")
+                && e.contains("3 = helium")
+                && e.contains("0 = none, 1 = argon, 2 = carbon_dioxide"),
+            "{e}"
+        );
+    }
 }
