@@ -167,6 +167,16 @@ impl Model {
         let mut model = Self::train_transformed(&prepared.table, &spec, &transforms, observer)?;
         model.schema = Some(schema.clone());
         model.codes = code_record(schema, &prepared.table)?;
+        for code in &model.codes {
+            for l in code.levels.iter().filter(|l| l.training_rows == 0) {
+                if let Some(s) = model.set_aside.iter_mut().find(|s| s.name == l.column) {
+                    s.reason = format!(
+                        "level {} = {} of code '{}': no training row holds it; rows at it are refused at prediction",
+                        l.code, l.name, code.name
+                    );
+                }
+            }
+        }
         model.training.incomplete_rows_dropped = prepared.dropped_rows.clone();
         Ok((
             model,
@@ -675,7 +685,11 @@ unit = "1"
             model.input_names(),
             vec!["x", "gas=none", "gas=argon", "gas=carbon_dioxide"]
         );
-        assert!(model.set_aside.iter().any(|s| s.name == "gas=helium"));
+        let helium = model.set_aside.iter().find(|s| s.name == "gas=helium");
+        assert!(
+            helium.is_some_and(|s| s.reason.contains("no training row holds it")),
+            "{helium:?}"
+        );
         let rows: Vec<(i64, usize)> = model.codes[0]
             .levels
             .iter()
@@ -705,6 +719,16 @@ unit = "1"
         let m: Vec<f64> = p.iter().map(|r| r.estimates[0].mean).collect();
         for (got, want) in m.iter().zip([0.5, 1.5, 0.0]) {
             assert!((got - want).abs() < 0.15, "{m:?}");
+        }
+        // the guard's range check of a code: a row must spell a seen level
+        let spelt = model.domain_check(ndarray::array![0.5, 0.0, 1.0, 0.0].view());
+        assert!(!spelt.notes.iter().any(|n| n.contains("is a code")), "{spelt:?}");
+        for bad in [[0.5, 0.5, 0.5, 0.0], [0.5, 1.0, 1.0, 0.0], [0.5, 0.0, 0.0, 0.0]] {
+            let v = model.domain_check(ndarray::ArrayView1::from(&bad));
+            assert!(
+                !v.in_domain && v.notes.iter().any(|n| n.contains("'gas' is a code")),
+                "{bad:?}: {v:?}"
+            );
         }
         // a declared level no training row held is refused with the known levels
         let e = model
