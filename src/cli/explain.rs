@@ -248,6 +248,15 @@ fn relevance_text(t: &TargetCard) -> String {
         "members".to_string(),
     ];
     s += &aligned(&h, &rows);
+    if let Some(by) = &t.relevance_by_column {
+        s += "  relevance per column of the table (a code's indicator relevances summed):\n";
+        let rows: Vec<Vec<String>> = by
+            .ranked()
+            .iter()
+            .map(|(n, v)| vec![format!("  {n}"), format!("{v:.3}")])
+            .collect();
+        s += &aligned(&["  column".to_string(), "relevance".to_string()], &rows);
+    }
     s
 }
 
