@@ -231,10 +231,7 @@ impl ColumnSpec {
             return Some(*c);
         }
         let x: f64 = t.parse().ok()?;
-        levels
-            .iter()
-            .find(|(c, _)| *c as f64 == x)
-            .map(|(c, _)| *c)
+        levels.iter().find(|(c, _)| *c as f64 == x).map(|(c, _)| *c)
     }
 
     fn bounds_text(&self) -> String {
@@ -463,7 +460,11 @@ impl Schema {
             .columns
             .iter()
             .filter(|c| c.is_code())
-            .flat_map(|c| c.level_list().into_iter().map(|(_, l)| indicator_name(&c.name, &l)))
+            .flat_map(|c| {
+                c.level_list()
+                    .into_iter()
+                    .map(|(_, l)| indicator_name(&c.name, &l))
+            })
             .collect();
         if let Some(clash) = indicators.iter().find(|n| seen.contains(&n.as_str())) {
             return Err(bad(format!(
@@ -1006,7 +1007,10 @@ fn validate_code(c: &ColumnSpec) -> std::result::Result<(), String> {
         return Err("a code has no unit: leave unit out (or write unit = \"1\")".into());
     }
     if c.min.is_some() || c.max.is_some() || c.stands_for.is_some() {
-        return Err("a code takes no min, max or stands_for: its levels say which values it may take".into());
+        return Err(
+            "a code takes no min, max or stands_for: its levels say which values it may take"
+                .into(),
+        );
     }
     if c.levels.len() < 2 {
         return Err(
@@ -1395,7 +1399,11 @@ unit = "1"
         let s = Schema::from_toml(CODED, "s.toml").expect("schema");
         for bad in ["3", "1.5", "helium"] {
             let e = s
-                .prepare(&coded_table(&["0", "1", bad]), "s.toml", PrepareOptions::default())
+                .prepare(
+                    &coded_table(&["0", "1", bad]),
+                    "s.toml",
+                    PrepareOptions::default(),
+                )
                 .expect_err(bad)
                 .to_string();
             assert!(

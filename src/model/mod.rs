@@ -225,12 +225,9 @@ impl Model {
 
     /// The declared code whose indicator input is `input`, with the level.
     pub fn code_of_input(&self, input: &str) -> Option<(&CodeInput, &CodeLevel)> {
-        self.codes.iter().find_map(|c| {
-            c.levels
-                .iter()
-                .find(|l| l.column == input)
-                .map(|l| (c, l))
-        })
+        self.codes
+            .iter()
+            .find_map(|c| c.levels.iter().find(|l| l.column == input).map(|l| (c, l)))
     }
 
     /// Per input (network order): the index in [`Model::codes`] of the code
@@ -244,6 +241,33 @@ impl Model {
                     .position(|c| c.levels.iter().any(|l| l.column == i.name))
             })
             .collect()
+    }
+
+    /// Refuse to move `name` continuously when it is a declared code or one
+    /// of its indicator inputs: a code has levels, not values in between
+    /// (method.md §1b). `option` names the setting in the message.
+    ///
+    /// # Errors
+    /// [`crate::Error::InvalidParameter`] naming the code and the levels
+    /// seen in training.
+    pub fn refuse_moving_code(&self, name: &str, option: &'static str) -> crate::Result<()> {
+        let code = self
+            .codes
+            .iter()
+            .find(|c| c.name == name)
+            .or_else(|| self.code_of_input(name).map(|(c, _)| c));
+        match code {
+            None => Ok(()),
+            Some(c) => Err(crate::Error::InvalidParameter {
+                name: option,
+                value: name.to_string(),
+                expected: format!(
+                    "an input that can be moved continuously; '{}' is a code (levels seen in training: {}), so hold it at one level (a fixed value or the base row) and run once per level",
+                    c.name,
+                    c.seen_text()
+                ),
+            }),
+        }
     }
 
     /// The target called `name`.

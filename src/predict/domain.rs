@@ -4,7 +4,8 @@
 use ndarray::{Array2, ArrayView1, ArrayView2, Axis};
 
 use crate::domain::{
-    self, range_excesses, range_note, DomainIndex, DomainLevel, DomainReference, DomainVerdict, UncertaintyRatio,
+    self, range_excesses, range_note, DomainIndex, DomainLevel, DomainReference, DomainVerdict,
+    UncertaintyRatio,
 };
 use crate::model::Model;
 use crate::prec::{DOMAIN_QUERY_BLOCK, DOMAIN_RANGE_SLACK};
@@ -154,9 +155,10 @@ pub fn level_notes(model: &Model, raw: ArrayView1<f64>) -> Vec<String> {
         let cols: Vec<usize> = (0..of.len()).filter(|&j| of[j] == Some(k)).collect();
         let ones = cols.iter().filter(|&&j| raw[j] == 1.0).count();
         let all_01 = cols.iter().all(|&j| raw[j] == 0.0 || raw[j] == 1.0);
-        let implied = code.levels.iter().any(|l| {
-            l.training_rows > 0 && !model.inputs.iter().any(|i| i.name == l.column)
-        });
+        let implied = code
+            .levels
+            .iter()
+            .any(|l| l.training_rows > 0 && !model.inputs.iter().any(|i| i.name == l.column));
         if all_01 && (ones == 1 || (ones == 0 && implied)) {
             continue;
         }
