@@ -309,6 +309,30 @@ fn the_binary_trains_predicts_and_refuses_by_level() {
         ],
     );
     assert!(!ok && err.contains("'gas' is a code"), "{err}");
+    // audit and the quick training path hint at an undeclared whole-number input
+    let mut rows = String::from("k,x,y\n");
+    for i in 0..40 {
+        rows += &format!(
+            "{},{},{}\n",
+            i % 5,
+            (i % 7) as f64 / 6.0,
+            (i % 5) as f64 + 0.1 * (i % 7) as f64
+        );
+    }
+    std::fs::write(dir.join("k.csv"), rows).expect("k");
+    let (ok, out, err) = run(&dir, &["audit", "--data", "k.csv", "--target", "y"]);
+    assert!(
+        ok && out.contains("input 'k' holds only the whole numbers 0, 1, 2, 3, 4"),
+        "{out}{err}"
+    );
+    assert!(!out.contains("input 'x' holds only"), "{out}");
+    let (ok, _, err) = run(
+        &dir,
+        &[
+            "train", "--data", "k.csv", "--target", "y", "--out", "k.json", "--hidden", "1..2",
+        ],
+    );
+    assert!(ok && err.contains("declare it a code"), "{err}");
     std::fs::remove_dir_all(&dir).ok();
 }
 

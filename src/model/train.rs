@@ -178,13 +178,22 @@ impl Model {
             }
         }
         model.training.incomplete_rows_dropped = prepared.dropped_rows.clone();
+        let mut notes = prepared.notes;
+        for i in &model.inputs {
+            if model.code_of_input(&i.name).is_none() {
+                notes.extend(crate::data::audit::code_hint(
+                    &i.name,
+                    &prepared.table.numeric(&i.name)?,
+                ));
+            }
+        }
         Ok((
             model,
             SchemaTrainReport {
                 dropped_rows: prepared.dropped_rows,
                 missing_targets: prepared.missing_targets,
                 row_warnings: prepared.row_warnings,
-                notes: prepared.notes,
+                notes,
             },
         ))
     }
