@@ -231,7 +231,10 @@ impl ColumnSpec {
             return Some(*c);
         }
         let x: f64 = t.parse().ok()?;
-        levels.iter().find(|(c, _)| *c as f64 == x).map(|(c, _)| *c)
+        levels
+            .iter()
+            .find(|(c, _)| (*c as f64).total_cmp(&x).is_eq())
+            .map(|(c, _)| *c)
     }
 
     fn bounds_text(&self) -> String {
@@ -883,7 +886,9 @@ impl Schema {
                     let name = indicator_name(&c.name, &level);
                     let ind = keep
                         .iter()
-                        .map(|&r| v[r].map(|x| if x == code as f64 { 1.0 } else { 0.0 }))
+                        .map(|&r| {
+                            v[r].map(|x| f64::from(u8::from(x.total_cmp(&(code as f64)).is_eq())))
+                        })
                         .collect();
                     inputs.push(name.clone());
                     cols.push((name, ind));
@@ -1390,7 +1395,7 @@ unit = "1"
         // every row has exactly one level
         for r in 0..5 {
             let sum: f64 = p.inputs[1..].iter().map(|n| col(n)[r]).sum();
-            assert_eq!(sum, 1.0, "row {r}");
+            assert!(sum.total_cmp(&1.0).is_eq(), "row {r}");
         }
     }
 

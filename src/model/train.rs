@@ -326,7 +326,7 @@ fn code_record(schema: &Schema, prepared: &Table) -> Result<Vec<super::CodeInput
             let training_rows = prepared
                 .numeric(&column)?
                 .iter()
-                .filter(|&&v| v == 1.0)
+                .filter(|v| v.total_cmp(&1.0).is_eq())
                 .count();
             levels.push(super::CodeLevel {
                 code,

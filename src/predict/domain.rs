@@ -153,8 +153,9 @@ pub fn level_notes(model: &Model, raw: ArrayView1<f64>) -> Vec<String> {
     let mut notes = Vec::new();
     for (k, code) in model.codes.iter().enumerate() {
         let cols: Vec<usize> = (0..of.len()).filter(|&j| of[j] == Some(k)).collect();
-        let ones = cols.iter().filter(|&&j| raw[j] == 1.0).count();
-        let all_01 = cols.iter().all(|&j| raw[j] == 0.0 || raw[j] == 1.0);
+        let is = |j: usize, v: f64| raw[j].total_cmp(&v).is_eq();
+        let ones = cols.iter().filter(|&&j| is(j, 1.0)).count();
+        let all_01 = cols.iter().all(|&j| is(j, 0.0) || is(j, 1.0));
         let implied = code
             .levels
             .iter()
