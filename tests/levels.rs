@@ -309,6 +309,25 @@ fn the_binary_trains_predicts_and_refuses_by_level() {
         ],
     );
     assert!(!ok && err.contains("'gas' is a code"), "{err}");
+    // the report's effect curves hold the code at a level instead of failing
+    let (ok, _, err) = run(
+        &dir,
+        &[
+            "report",
+            "--model",
+            "m.json",
+            "--data",
+            "invented.csv",
+            "--out",
+            "r.html",
+        ],
+    );
+    assert!(ok, "{err}");
+    let html = std::fs::read_to_string(dir.join("r.html")).expect("report");
+    assert!(
+        html.contains("gas is a code") && !html.contains("along gas="),
+        "report"
+    );
     // audit and the quick training path hint at an undeclared whole-number input
     let mut rows = String::from("k,x,y\n");
     for i in 0..40 {
