@@ -706,6 +706,7 @@ fn every_schema_key_unit_and_derivation_is_documented() {
         margin: Some(0.1),
         kind: mettle::data::schema::ColumnKind::Levels,
         levels: [("0".to_string(), "none".to_string())].into(),
+        implied_level: Some("none".into()),
     };
     let derived = DerivedSpec {
         spec: mettle::derive::Derivation::Pcm,

@@ -412,3 +412,36 @@ unit = "1"
         }
     }
 }
+
+/// `implied_level`: the level told by other inputs gets no indicator; its
+/// rows (every indicator 0) are counted, predicted and inside the domain.
+#[test]
+fn an_implied_level_has_no_column_and_is_still_known() {
+    let gas: Vec<&str> = (0..63).map(|i| ["0", "1", "2"][i % 3]).collect();
+    let text = CODED.replace("levels = { 0", "implied_level = \"none\"\nlevels = { 0");
+    let schema = Schema::from_toml(&text, "s.toml").expect("schema");
+    let (model, _) =
+        Model::train_with_schema(&invented(&gas), &schema, "s.toml", &quick(), &NoObserver)
+            .expect("train");
+    assert_eq!(
+        model.input_names(),
+        vec!["x", "gas=argon", "gas=carbon_dioxide"]
+    );
+    let rows: Vec<usize> = model.codes[0]
+        .levels
+        .iter()
+        .map(|l| l.training_rows)
+        .collect();
+    assert_eq!(rows, vec![21, 21, 21, 0]);
+    let v = model.domain_check(ndarray::array![0.5, 0.0, 0.0].view());
+    assert!(!v.notes.iter().any(|n| n.contains("is a code")), "{v:?}");
+    let p = model
+        .predict(&invented(&["none", "argon"]))
+        .expect("predict");
+    assert!(p[1].estimates[0].mean - p[0].estimates[0].mean > 0.7);
+    let bad = CODED.replace("levels = { 0", "implied_level = \"neon\"\nlevels = { 0");
+    let e = Schema::from_toml(&bad, "s.toml")
+        .expect_err("neon")
+        .to_string();
+    assert!(e.contains("not one of the declared level names"), "{e}");
+}

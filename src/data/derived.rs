@@ -163,6 +163,7 @@ fn implicit_schema(table: &Table, derivations: &[Derivation]) -> Result<Schema> 
                 margin: None,
                 kind: Default::default(),
                 levels: Default::default(),
+                implied_level: None,
             });
         }
         if not_found.is_empty() {

@@ -163,6 +163,11 @@ pub struct ColumnSpec {
     /// `levels = { 0 = "none", 1 = "even" }`.
     #[serde(default, skip_serializing_if = "BTreeMap::is_empty")]
     pub levels: BTreeMap<String, String>,
+    /// For a code: the name of a level already told by other inputs (no
+    /// glazing, told by a glazing area of 0): it gets no indicator column,
+    /// its rows are those with every indicator 0.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub implied_level: Option<String>,
 }
 
 impl ColumnSpec {
@@ -496,7 +501,7 @@ impl Schema {
     /// The checks of one column (its name already checked), as the message
     /// after "column 'NAME': ".
     fn validate_column(&self, c: &ColumnSpec) -> std::result::Result<(), String> {
-        if c.is_code() || !c.levels.is_empty() {
+        if c.is_code() || !c.levels.is_empty() || c.implied_level.is_some() {
             return validate_code(c);
         }
         if c.role.is_numeric() && c.unit.is_none() {
@@ -883,6 +888,9 @@ impl Schema {
             if let (Role::Input, Some(v), true) = (c.role, v, c.is_code()) {
                 // one indicator column per declared level (method.md §1b)
                 for (code, level) in c.level_list() {
+                    if c.implied_level.as_deref() == Some(level.as_str()) {
+                        continue;
+                    }
                     let name = indicator_name(&c.name, &level);
                     let ind = keep
                         .iter()
@@ -1043,6 +1051,13 @@ fn validate_code(c: &ColumnSpec) -> std::result::Result<(), String> {
             return Err(format!("level name '{v}' is used twice"));
         }
         names.push(v);
+    }
+    if let Some(i) = &c.implied_level {
+        if !names.contains(&i.as_str()) {
+            return Err(format!(
+                "implied_level = \"{i}\" is not one of the declared level names"
+            ));
+        }
     }
     let mut codes: Vec<i64> = c.level_list().iter().map(|l| l.0).collect();
     codes.dedup();

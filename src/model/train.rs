@@ -323,11 +323,22 @@ fn code_record(schema: &Schema, prepared: &Table) -> Result<Vec<super::CodeInput
         let mut levels = Vec::new();
         for (code, name) in c.level_list() {
             let column = crate::data::schema::indicator_name(&c.name, &name);
-            let training_rows = prepared
-                .numeric(&column)?
-                .iter()
-                .filter(|v| v.total_cmp(&1.0).is_eq())
-                .count();
+            let training_rows = if c.implied_level.as_deref() == Some(name.as_str()) {
+                // the rows with no other level (every row has one level)
+                let mut n = prepared.n_rows();
+                for (_, other) in c.level_list().iter().filter(|l| l.1 != name) {
+                    let col = crate::data::schema::indicator_name(&c.name, other);
+                    let ones = prepared.numeric(&col)?;
+                    n -= ones.iter().filter(|v| v.total_cmp(&1.0).is_eq()).count();
+                }
+                n
+            } else {
+                prepared
+                    .numeric(&column)?
+                    .iter()
+                    .filter(|v| v.total_cmp(&1.0).is_eq())
+                    .count()
+            };
             levels.push(super::CodeLevel {
                 code,
                 name,
