@@ -112,6 +112,14 @@ pub const STRONG_CORRELATION: f64 = 0.95;
 /// practice, no source.
 pub const FEW_DISTINCT_VALUES: usize = 4;
 
+/// An input whose values are all integers with this many distinct values
+/// (inclusive range) gets the hint that, if it is a code, it should be
+/// declared one (schema `kind = "levels"`): two levels are already an
+/// indicator, and more than eight are rarely a code. The rule picks exactly
+/// energy's two codes among the four shared UCI sets' inputs (issue 29,
+/// docs/benchmarks.md "Fourth round"); otherwise common practice, no source.
+pub const CODE_HINT_LEVELS: (usize, usize) = (3, 8);
+
 /// |z| beyond which `evaluate` lists a measured value as out of line with
 /// its estimate: outside about 98.8 % of a Gaussian predictive distribution,
 /// so about 1 row in 80 of an honest model is listed by chance. Common

@@ -704,6 +704,9 @@ fn every_schema_key_unit_and_derivation_is_documented() {
         max: Some(1.0),
         transform: TransformChoice::Bounded,
         margin: Some(0.1),
+        kind: mettle::data::schema::ColumnKind::Levels,
+        levels: [("0".to_string(), "none".to_string())].into(),
+        implied_level: Some("none".into()),
     };
     let derived = DerivedSpec {
         spec: mettle::derive::Derivation::Pcm,

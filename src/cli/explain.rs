@@ -30,7 +30,8 @@ n_rows, n_missing, min, max, noise_sd, noise_sd_range, noise_varies, noise_basis
 noise_sd and replicates; null in older model files), members (each with n_hidden, restart, \
 log_evidence, heldout_nlpd, gamma, n_weights, varying_noise), relevance (an object input → \
 value, or null without ARD), relevance_range (an array of input, value, low, high: the smallest \
-and largest over the members; null without ARD), relevance_note, fit_notes (plain notes on \
+and largest over the members; null without ARD), relevance_by_column (only for a model with inputs \
+declared as codes: an object column → value, each code's indicator relevances summed), relevance_note, fit_notes (plain notes on \
 likely overfitting or underfitting; empty when nothing is flagged), search_rows, \
 hidden_searched, candidates (tried, discarded), stopped_early (candidates the search stopped at a \
 rung, not trained to the end), nlpd_by_size, kriging (null when the residuals are not kriged; \
@@ -248,6 +249,15 @@ fn relevance_text(t: &TargetCard) -> String {
         "members".to_string(),
     ];
     s += &aligned(&h, &rows);
+    if let Some(by) = &t.relevance_by_column {
+        s += "  relevance per column of the table (a code's indicator relevances summed):\n";
+        let rows: Vec<Vec<String>> = by
+            .ranked()
+            .iter()
+            .map(|(n, v)| vec![format!("  {n}"), format!("{v:.3}")])
+            .collect();
+        s += &aligned(&["  column".to_string(), "relevance".to_string()], &rows);
+    }
     s
 }
 

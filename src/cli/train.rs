@@ -385,6 +385,12 @@ pub fn run(a: TrainArgs) -> anyhow::Result<()> {
         .with_context(|| format!("saving the model to {}", a.out.display()))?;
     if let Some(r) = &report {
         print_schema_report(r, &a.columns.data);
+    } else if !a.quiet {
+        for i in &model.inputs {
+            if let Some(h) = mettle::data::audit::code_hint(&i.name, &table.numeric(&i.name)?) {
+                eprintln!("note: {h}");
+            }
+        }
     }
     if !a.quiet {
         for s in &model.set_aside {

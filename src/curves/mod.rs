@@ -363,6 +363,7 @@ pub fn sweep(model: &Model, base: BaseRow, axes: &[Axis]) -> Result<Sweep> {
         return Err(bad("vary", &axes[1].name, "two different inputs"));
     }
     for a in axes {
+        model.refuse_moving_code(&a.name, "vary")?;
         let known = model.inputs.iter().any(|i| i.name == a.name)
             || model
                 .schema

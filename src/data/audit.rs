@@ -628,6 +628,26 @@ pub fn column_outliers(name: &str, v: &[Option<f64>]) -> (Vec<Outlier>, Option<C
     (out, several)
 }
 
+/// The hint for an input that may be a code: every value an integer, with
+/// [`CODE_HINT_LEVELS`] distinct values. `None` otherwise. Never acted on:
+/// an integer-valued quantity (a temperature in whole degrees, a number of
+/// passes) looks the same, so a code is declared, not detected (method.md
+/// §1b).
+pub fn code_hint(column: &str, values: &[f64]) -> Option<String> {
+    if values.iter().any(|v| !v.is_finite() || v.fract() != 0.0) {
+        return None;
+    }
+    let levels = distinct_values(values);
+    let (lo, hi) = crate::prec::CODE_HINT_LEVELS;
+    (lo..=hi).contains(&levels.len()).then(|| {
+        let shown: Vec<String> = levels.iter().map(|v| format!("{v}")).collect();
+        format!(
+            "input '{column}' holds only the whole numbers {}: if they name kinds rather than measure an amount, declare it a code in the schema (kind = \"levels\", docs/schema.md) so each level gets its own indicator; if it is a quantity, leave it as it is",
+            shown.join(", ")
+        )
+    })
+}
+
 /// Inputs with fewer than [`FEW_DISTINCT_VALUES`] distinct values.
 fn few_levels(inputs: &[&Col]) -> Vec<FewLevels> {
     inputs
@@ -731,6 +751,13 @@ pub fn audit(
     };
     report.verdict = verdict(&report, n_problems);
     report.notes = notes(&report, targets.is_empty());
+    for c in &inputs {
+        let declared = schema.is_some_and(|(s, _)| s.column(&c.name).is_some_and(|d| d.is_code()));
+        let present: Vec<f64> = c.numeric.iter().flatten().flatten().copied().collect();
+        if let (false, Some(h)) = (declared, code_hint(&c.name, &present)) {
+            report.notes.push(h);
+        }
+    }
     Ok(report)
 }
 
@@ -956,5 +983,21 @@ mod tests {
             (found[0].row, found[0].value.to_bits()),
             (10, keyed.to_bits())
         );
+    }
+
+    #[test]
+    fn whole_numbers_with_three_to_eight_levels_get_the_code_hint() {
+        // energy's glazing area distribution takes 0..5 (UCI energy efficiency)
+        let gad: Vec<f64> = (0..24).map(|i| (i % 6) as f64).collect();
+        let h = code_hint("gad", &gad).expect("six whole-number levels");
+        assert!(
+            h.contains("0, 1, 2, 3, 4, 5") && h.contains("kind = \"levels\""),
+            "{h}"
+        );
+        // two levels are an indicator already; nine or more, or fractions: no hint
+        assert!(code_hint("a", &[0.0, 1.0, 0.0]).is_none());
+        assert!(code_hint("b", &(0..9).map(f64::from).collect::<Vec<_>>()).is_none());
+        assert!(code_hint("c", &[0.1, 0.25, 0.4]).is_none());
+        assert!(code_hint("d", &[2.0, 3.0, 4.0, 5.0]).is_some());
     }
 }

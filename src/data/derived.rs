@@ -161,6 +161,9 @@ fn implicit_schema(table: &Table, derivations: &[Derivation]) -> Result<Schema> 
                 max: None,
                 transform: Default::default(),
                 margin: None,
+                kind: Default::default(),
+                levels: Default::default(),
+                implied_level: None,
             });
         }
         if not_found.is_empty() {

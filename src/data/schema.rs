@@ -33,6 +33,7 @@
 //! training or estimation. Every problem is an error naming file, row and
 //! column; nothing is filled in.
 
+use std::collections::BTreeMap;
 use std::path::Path;
 
 use serde::{Deserialize, Serialize};
@@ -100,6 +101,32 @@ impl TransformChoice {
     }
 }
 
+/// What the values of a numeric column are.
+#[derive(Clone, Copy, Debug, Default, PartialEq, Eq, Serialize, Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum ColumnKind {
+    /// A quantity: a number on a scale, interpolated between values.
+    #[default]
+    Quantity,
+    /// A code: each integer (or its name) stands for one level, and the
+    /// levels have no order or distance. An input of this kind is given to
+    /// the networks as one indicator column per level (1 at that level, 0
+    /// elsewhere), named [`indicator_name`].
+    Levels,
+}
+
+impl ColumnKind {
+    fn is_quantity(&self) -> bool {
+        *self == ColumnKind::Quantity
+    }
+}
+
+/// The name of the indicator column of level `level` of code input
+/// `column`: `column=level` (e.g. `glazing=uniform`).
+pub fn indicator_name(column: &str, level: &str) -> String {
+    format!("{column}={level}")
+}
+
 /// One column of the table.
 #[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
 #[serde(deny_unknown_fields)]
@@ -129,6 +156,18 @@ pub struct ColumnSpec {
     /// share of max − min (default [`BOUNDED_MARGIN_DEFAULT`]).
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub margin: Option<f64>,
+    /// For an input: a quantity (the default) or a code with named levels.
+    #[serde(default, skip_serializing_if = "ColumnKind::is_quantity")]
+    pub kind: ColumnKind,
+    /// For `kind = "levels"`: each integer code and its level's name, as
+    /// `levels = { 0 = "none", 1 = "even" }`.
+    #[serde(default, skip_serializing_if = "BTreeMap::is_empty")]
+    pub levels: BTreeMap<String, String>,
+    /// For a code: the name of a level already told by other inputs (no
+    /// glazing, told by a glazing area of 0): it gets no indicator column,
+    /// its rows are those with every indicator 0.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub implied_level: Option<String>,
 }
 
 impl ColumnSpec {
@@ -160,6 +199,47 @@ impl ColumnSpec {
                 }
             }
         }
+    }
+
+    /// Whether the column is an input declared as a code.
+    pub fn is_code(&self) -> bool {
+        self.kind == ColumnKind::Levels
+    }
+
+    /// The declared levels, `(code, name)`, in increasing code (keys that
+    /// are not integers are left out; `validate` refuses them).
+    pub fn level_list(&self) -> Vec<(i64, String)> {
+        let mut out: Vec<(i64, String)> = self
+            .levels
+            .iter()
+            .filter_map(|(k, v)| k.trim().parse::<i64>().ok().map(|c| (c, v.clone())))
+            .collect();
+        out.sort_by_key(|l| l.0);
+        out
+    }
+
+    /// The declared levels as text: `0 = none, 1 = even`.
+    pub fn levels_text(&self) -> String {
+        self.level_list()
+            .iter()
+            .map(|(c, n)| format!("{c} = {n}"))
+            .collect::<Vec<_>>()
+            .join(", ")
+    }
+
+    /// The code a cell of a code column holds: a declared level's name or
+    /// its integer code; `None` for anything else.
+    pub fn code_of_cell(&self, text: &str) -> Option<i64> {
+        let t = text.trim();
+        let levels = self.level_list();
+        if let Some((c, _)) = levels.iter().find(|(_, n)| n == t) {
+            return Some(*c);
+        }
+        let x: f64 = t.parse().ok()?;
+        levels
+            .iter()
+            .find(|(c, _)| (*c as f64).total_cmp(&x).is_eq())
+            .map(|(c, _)| *c)
     }
 
     fn bounds_text(&self) -> String {
@@ -384,6 +464,21 @@ impl Schema {
             seen.push(&c.name);
             self.validate_column(c).map_err(col)?;
         }
+        let indicators: Vec<String> = self
+            .columns
+            .iter()
+            .filter(|c| c.is_code())
+            .flat_map(|c| {
+                c.level_list()
+                    .into_iter()
+                    .map(|(_, l)| indicator_name(&c.name, &l))
+            })
+            .collect();
+        if let Some(clash) = indicators.iter().find(|n| seen.contains(&n.as_str())) {
+            return Err(bad(format!(
+                "column '{clash}' has the name of a code's indicator column: rename one of them"
+            )));
+        }
         if let Some(g) = &self.group {
             match self.columns.iter().find(|c| &c.name == g) {
                 None => {
@@ -406,6 +501,9 @@ impl Schema {
     /// The checks of one column (its name already checked), as the message
     /// after "column 'NAME': ".
     fn validate_column(&self, c: &ColumnSpec) -> std::result::Result<(), String> {
+        if c.is_code() || !c.levels.is_empty() || c.implied_level.is_some() {
+            return validate_code(c);
+        }
         if c.role.is_numeric() && c.unit.is_none() {
             return Err(format!(
                 "role {} needs a unit (write unit = \"1\" for a pure number); known units: {}",
@@ -620,6 +718,10 @@ impl Schema {
                 values.push(None);
                 continue;
             }
+            if c.is_code() {
+                values.push(Some(read_code_column(c, table, &path, &mut problems)));
+                continue;
+            }
             let (raw, cell_problems) = match table.numeric_lenient(&c.name) {
                 Ok(v) => v,
                 Err(e) => {
@@ -783,7 +885,23 @@ impl Schema {
         let mut cols: Vec<(String, Vec<Option<f64>>)> = Vec::new();
         let mut inputs = Vec::new();
         for (c, v) in self.columns.iter().zip(&values) {
-            if let (Role::Input, Some(v)) = (c.role, v) {
+            if let (Role::Input, Some(v), true) = (c.role, v, c.is_code()) {
+                // one indicator column per declared level (method.md §1b)
+                for (code, level) in c.level_list() {
+                    if c.implied_level.as_deref() == Some(level.as_str()) {
+                        continue;
+                    }
+                    let name = indicator_name(&c.name, &level);
+                    let ind = keep
+                        .iter()
+                        .map(|&r| {
+                            v[r].map(|x| f64::from(u8::from(x.total_cmp(&(code as f64)).is_eq())))
+                        })
+                        .collect();
+                    inputs.push(name.clone());
+                    cols.push((name, ind));
+                }
+            } else if let (Role::Input, Some(v)) = (c.role, v) {
                 inputs.push(c.name.clone());
                 cols.push((c.name.clone(), keep.iter().map(|&r| v[r]).collect()));
             }
@@ -884,6 +1002,108 @@ fn missing_inputs(incomplete: &[(usize, Vec<String>)], table: &Table, path: Stri
         n_rows: incomplete.len(),
         detail,
     }
+}
+
+/// The checks of a column declared as a code (or carrying `levels`), as
+/// the message after "column 'NAME': ".
+fn validate_code(c: &ColumnSpec) -> std::result::Result<(), String> {
+    if !c.is_code() {
+        return Err("levels are for a code: write kind = \"levels\" beside them".into());
+    }
+    if c.role != Role::Input {
+        return Err(format!(
+            "kind = \"levels\" is for input columns (this column is {})",
+            c.role.name()
+        ));
+    }
+    if c.unit.is_some_and(|u| u != Unit::Dimensionless) {
+        return Err("a code has no unit: leave unit out (or write unit = \"1\")".into());
+    }
+    if c.min.is_some() || c.max.is_some() || c.stands_for.is_some() {
+        return Err(
+            "a code takes no min, max or stands_for: its levels say which values it may take"
+                .into(),
+        );
+    }
+    if c.levels.len() < 2 {
+        return Err(
+            "kind = \"levels\" needs at least two levels, as levels = { 0 = \"none\", 1 = \"even\" }"
+                .into(),
+        );
+    }
+    let mut names: Vec<&str> = Vec::new();
+    for (k, v) in &c.levels {
+        if k.trim().parse::<i64>().is_err() {
+            return Err(format!("level key '{k}' is not an integer code"));
+        }
+        let v = v.trim();
+        if v.is_empty() || v.contains([',', '=', '"']) {
+            return Err(format!(
+                "level {k}: name '{v}' must be non-empty, without a comma, '=' or quote"
+            ));
+        }
+        if v.parse::<f64>().is_ok() {
+            return Err(format!(
+                "level {k}: name '{v}' is a number; give the level a word so a cell is never ambiguous"
+            ));
+        }
+        if names.contains(&v) {
+            return Err(format!("level name '{v}' is used twice"));
+        }
+        names.push(v);
+    }
+    if let Some(i) = &c.implied_level {
+        if !names.contains(&i.as_str()) {
+            return Err(format!(
+                "implied_level = \"{i}\" is not one of the declared level names"
+            ));
+        }
+    }
+    let mut codes: Vec<i64> = c.level_list().iter().map(|l| l.0).collect();
+    codes.dedup();
+    if codes.len() != c.levels.len() {
+        return Err("a level code is written twice (as 1 and 01, say)".into());
+    }
+    Ok(())
+}
+
+/// Read a code column's cells: each a declared level's name or integer
+/// code, turned into the code; anything else is a problem naming the
+/// known levels.
+fn read_code_column(
+    c: &ColumnSpec,
+    table: &Table,
+    path: &str,
+    problems: &mut Problems,
+) -> Vec<Option<f64>> {
+    let Some(j) = table.index_of(&c.name) else {
+        return Vec::new();
+    };
+    (0..table.n_rows())
+        .map(|row| {
+            let text = table.cell_text(j, row).unwrap_or_default();
+            if text.trim().is_empty() {
+                return None;
+            }
+            match c.code_of_cell(&text) {
+                Some(code) => Some(code as f64),
+                None => {
+                    problems.push(Error::Cell {
+                        path: path.to_string(),
+                        row: table.first_row() + row + 1,
+                        line: table.first_row() + row + 2,
+                        column: c.name.clone(),
+                        problem: format!(
+                            "'{}' is not a declared level of this code; known levels: {}",
+                            text.trim(),
+                            c.levels_text()
+                        ),
+                    });
+                    None
+                }
+            }
+        })
+        .collect()
 }
 
 /// Problems found while checking a table, at most `max` of them kept.
@@ -1134,5 +1354,111 @@ spec = "pcm"
         let j = serde_json::to_string(&s).expect("json");
         let back: Schema = serde_json::from_str(&j).expect("back");
         assert_eq!(back, s);
+    }
+
+    const CODED: &str = r#"
+mettle_schema = 1
+[[column]]
+name = "x"
+role = "input"
+unit = "1"
+[[column]]
+name = "gas"
+role = "input"
+kind = "levels"
+levels = { 0 = "none", 1 = "argon", 2 = "carbon_dioxide" }
+[[column]]
+name = "y"
+role = "target"
+unit = "1"
+"#;
+
+    fn coded_table(gas: &[&str]) -> Table {
+        let n = gas.len();
+        let mut t = Table::from_optional_columns(
+            Path::new("mem.csv"),
+            vec![
+                ("x".into(), (0..n).map(|i| Some(i as f64)).collect()),
+                ("y".into(), (0..n).map(|i| Some(2.0 * i as f64)).collect()),
+            ],
+        )
+        .expect("table");
+        t.push_column(
+            "gas".into(),
+            crate::data::ColumnData::Text(gas.iter().map(|g| Some(g.to_string())).collect()),
+        )
+        .expect("gas");
+        t
+    }
+
+    #[test]
+    fn a_code_becomes_one_indicator_per_level() {
+        let s = Schema::from_toml(CODED, "s.toml").expect("schema");
+        // cells by code or by name, as the schema docs allow
+        let t = coded_table(&["0", "argon", "2", "1", "carbon_dioxide"]);
+        let p = s
+            .prepare(&t, "s.toml", PrepareOptions::default())
+            .expect("prepare");
+        assert_eq!(
+            p.inputs,
+            vec!["x", "gas=none", "gas=argon", "gas=carbon_dioxide"]
+        );
+        let col = |n: &str| p.table.numeric(n).expect(n);
+        assert_eq!(col("gas=none"), vec![1.0, 0.0, 0.0, 0.0, 0.0]);
+        assert_eq!(col("gas=argon"), vec![0.0, 1.0, 0.0, 1.0, 0.0]);
+        assert_eq!(col("gas=carbon_dioxide"), vec![0.0, 0.0, 1.0, 0.0, 1.0]);
+        // every row has exactly one level
+        for r in 0..5 {
+            let sum: f64 = p.inputs[1..].iter().map(|n| col(n)[r]).sum();
+            assert!(sum.total_cmp(&1.0).is_eq(), "row {r}");
+        }
+    }
+
+    #[test]
+    fn an_undeclared_level_is_refused_with_the_known_levels() {
+        let s = Schema::from_toml(CODED, "s.toml").expect("schema");
+        for bad in ["3", "1.5", "helium"] {
+            let e = s
+                .prepare(
+                    &coded_table(&["0", "1", bad]),
+                    "s.toml",
+                    PrepareOptions::default(),
+                )
+                .expect_err(bad)
+                .to_string();
+            assert!(
+                e.contains("mem.csv")
+                    && e.contains("row 3")
+                    && e.contains("'gas'")
+                    && e.contains("0 = none, 1 = argon, 2 = carbon_dioxide"),
+                "{bad}: {e}"
+            );
+        }
+    }
+
+    #[test]
+    fn code_declaration_mistakes_are_explained() {
+        let head = "mettle_schema = 1\n[[column]]\nname='g'\n";
+        let bad = [
+            ("role='input'\nlevels={0='a',1='b'}\n", "kind = \"levels\""),
+            ("role='target'\nkind='levels'\nlevels={0='a',1='b'}\n", "for input columns"),
+            ("role='input'\nkind='levels'\nlevels={0='a'}\n", "at least two levels"),
+            ("role='input'\nkind='levels'\nlevels={0='a',x='b'}\n", "not an integer"),
+            ("role='input'\nkind='levels'\nlevels={0='a',1='a'}\n", "used twice"),
+            ("role='input'\nkind='levels'\nlevels={0='a',1='7'}\n", "is a number"),
+            ("role='input'\nkind='levels'\nunit='wt%'\nlevels={0='a',1='b'}\n", "no unit"),
+            ("role='input'\nkind='levels'\nmin=0\nlevels={0='a',1='b'}\n", "no min"),
+            ("role='input'\nkind='levels'\nlevels={0='a',1='b'}\n[[column]]\nname='g=a'\nrole='input'\nunit='1'\n", "indicator column"),
+        ];
+        for (text, what) in bad {
+            let e = Schema::from_toml(&format!("{head}{text}"), "s.toml")
+                .expect_err(what)
+                .to_string();
+            assert!(e.contains(what), "{what}: {e}");
+        }
+        let s = Schema::from_toml(CODED, "s.toml").expect("schema");
+        let j = serde_json::to_string(&s).expect("json");
+        assert!(j.contains("\"kind\":\"levels\""), "{j}");
+        assert_eq!(serde_json::from_str::<Schema>(&j).expect("back"), s);
     }
 }

@@ -96,6 +96,30 @@ impl Serialize for Relevance {
     }
 }
 
+/// Relevance per column of the table for a model with declared codes:
+/// a quantity's relevance as it is, a code's the sum R_code = Σ_l R_l over
+/// its indicator inputs (one figure per declared input, issue 29's fourth
+/// round; the sum bounds how much the networks use the code as a whole,
+/// on the same most-relevant-input = 1 scale). Codes take the place of
+/// their first indicator. `None` for a model without codes.
+pub fn relevance_by_column(model: &Model, r: &Relevance) -> Option<Relevance> {
+    if model.codes.is_empty() {
+        return None;
+    }
+    let mut out: Vec<(String, f64)> = Vec::new();
+    for (name, v) in &r.0 {
+        let key = match model.code_of_input(name) {
+            Some((code, _)) => code.name.clone(),
+            None => name.clone(),
+        };
+        match out.iter_mut().find(|(k, _)| *k == key) {
+            Some(e) => e.1 += v,
+            None => out.push((key, *v)),
+        }
+    }
+    Some(Relevance(out))
+}
+
 /// The noise profile as shown on the card: the input named.
 #[derive(Clone, Debug, PartialEq, Serialize)]
 pub struct NoiseProfileCard {
@@ -149,6 +173,11 @@ pub struct TargetCard {
     /// Relevance with its smallest and largest value over the committee
     /// members, on the committee's scale; `None` without ARD.
     pub relevance_range: Option<Vec<RelevanceRange>>,
+    /// For a model with inputs declared as codes: relevance per column of
+    /// the table, each code's indicator relevances summed into one figure
+    /// named by the code ([`relevance_by_column`]); absent otherwise.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub relevance_by_column: Option<Relevance>,
     /// What relevance means and what it does not.
     pub relevance_note: String,
     /// Plain notes on likely overfitting or underfitting (empty when
@@ -482,6 +511,9 @@ pub fn model_card(model: &Model) -> ModelCard {
                     "no relevance: the model was trained with one α for all inputs (--no-ard)"
                         .to_string()
                 },
+                relevance_by_column: relevance
+                    .as_ref()
+                    .and_then(|r| relevance_by_column(model, r)),
                 relevance,
                 relevance_range: relevance_with_spread(c).map(|v| {
                     model

@@ -39,6 +39,43 @@ pub struct InputColumn {
     pub scaling: ColumnScaling,
 }
 
+/// One level of a declared code (schema `kind = "levels"`) as training
+/// saw it.
+#[derive(Clone, Debug, PartialEq, Eq, Serialize, Deserialize)]
+pub struct CodeLevel {
+    /// The integer code.
+    pub code: i64,
+    /// The level's declared name.
+    pub name: String,
+    /// The indicator input standing for it ([`crate::data::schema::indicator_name`]).
+    pub column: String,
+    /// Training rows at this level (0: declared but never seen, refused at
+    /// prediction).
+    pub training_rows: usize,
+}
+
+/// An input declared as a code, with its levels: given to the networks as
+/// one indicator input per level (method.md §1b).
+#[derive(Clone, Debug, PartialEq, Eq, Serialize, Deserialize)]
+pub struct CodeInput {
+    /// The column of the table holding the code.
+    pub name: String,
+    /// Every declared level, in increasing code.
+    pub levels: Vec<CodeLevel>,
+}
+
+impl CodeInput {
+    /// The levels training saw, as text: `0 = none, 2 = argon`.
+    pub fn seen_text(&self) -> String {
+        self.levels
+            .iter()
+            .filter(|l| l.training_rows > 0)
+            .map(|l| format!("{} = {}", l.code, l.name))
+            .collect::<Vec<_>>()
+            .join(", ")
+    }
+}
+
 /// A column offered as an input but set aside, with the reason.
 #[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
 pub struct SetAside {
@@ -139,6 +176,10 @@ pub struct Model {
     /// pairs measured together on too few rows: independence is assumed).
     #[serde(default, skip_serializing_if = "Vec::is_empty")]
     pub scatter_correlations: Vec<ScatterCorrelation>,
+    /// The inputs the schema declared as codes, with their levels and the
+    /// training rows at each (absent for a model without codes).
+    #[serde(default, skip_serializing_if = "Vec::is_empty")]
+    pub codes: Vec<CodeInput>,
 }
 
 impl Model {
@@ -180,6 +221,53 @@ impl Model {
         crate::data::identifier_column(table, requested, &self.identifier_names(), &inputs)?
             .map(|c| crate::data::RowLabels::read(table, &c))
             .transpose()
+    }
+
+    /// The declared code whose indicator input is `input`, with the level.
+    pub fn code_of_input(&self, input: &str) -> Option<(&CodeInput, &CodeLevel)> {
+        self.codes
+            .iter()
+            .find_map(|c| c.levels.iter().find(|l| l.column == input).map(|l| (c, l)))
+    }
+
+    /// Per input (network order): the index in [`Model::codes`] of the code
+    /// it is an indicator of, `None` for a quantity.
+    pub fn input_codes(&self) -> Vec<Option<usize>> {
+        self.inputs
+            .iter()
+            .map(|i| {
+                self.codes
+                    .iter()
+                    .position(|c| c.levels.iter().any(|l| l.column == i.name))
+            })
+            .collect()
+    }
+
+    /// Refuse to move `name` continuously when it is a declared code or one
+    /// of its indicator inputs: a code has levels, not values in between
+    /// (method.md §1b). `option` names the setting in the message.
+    ///
+    /// # Errors
+    /// [`crate::Error::InvalidParameter`] naming the code and the levels
+    /// seen in training.
+    pub fn refuse_moving_code(&self, name: &str, option: &'static str) -> crate::Result<()> {
+        let code = self
+            .codes
+            .iter()
+            .find(|c| c.name == name)
+            .or_else(|| self.code_of_input(name).map(|(c, _)| c));
+        match code {
+            None => Ok(()),
+            Some(c) => Err(crate::Error::InvalidParameter {
+                name: option,
+                value: name.to_string(),
+                expected: format!(
+                    "an input that can be moved continuously; '{}' is a code (levels seen in training: {}), so hold it at one level (a fixed value or the base row) and run once per level",
+                    c.name,
+                    c.seen_text()
+                ),
+            }),
+        }
     }
 
     /// The target called `name`.

@@ -166,14 +166,34 @@ impl Model {
         let transforms: Vec<TargetTransform> = prepared.targets.iter().map(|t| t.1).collect();
         let mut model = Self::train_transformed(&prepared.table, &spec, &transforms, observer)?;
         model.schema = Some(schema.clone());
+        model.codes = code_record(schema, &prepared.table)?;
+        for code in &model.codes {
+            for l in code.levels.iter().filter(|l| l.training_rows == 0) {
+                if let Some(s) = model.set_aside.iter_mut().find(|s| s.name == l.column) {
+                    s.reason = format!(
+                        "level {} = {} of code '{}': no training row holds it; rows at it are refused at prediction",
+                        l.code, l.name, code.name
+                    );
+                }
+            }
+        }
         model.training.incomplete_rows_dropped = prepared.dropped_rows.clone();
+        let mut notes = prepared.notes;
+        for i in &model.inputs {
+            if model.code_of_input(&i.name).is_none() {
+                notes.extend(crate::data::audit::code_hint(
+                    &i.name,
+                    &prepared.table.numeric(&i.name)?,
+                ));
+            }
+        }
         Ok((
             model,
             SchemaTrainReport {
                 dropped_rows: prepared.dropped_rows,
                 missing_targets: prepared.missing_targets,
                 row_warnings: prepared.row_warnings,
-                notes: prepared.notes,
+                notes,
             },
         ))
     }
@@ -284,11 +304,54 @@ impl Model {
                 x.view(),
                 &target_values,
             ),
+            codes: Vec::new(),
             domain: DomainReference::build(x.view())
                 .map(|r| r.with_relevance(input_weights(&targets, x.view(), &target_rows))),
             targets,
         })
     }
+}
+
+/// The record of each input the schema declares as a code: every level
+/// with its indicator column and the training rows at it.
+///
+/// # Errors
+/// An indicator column missing from the prepared table (not expected).
+fn code_record(schema: &Schema, prepared: &Table) -> Result<Vec<super::CodeInput>> {
+    let mut out = Vec::new();
+    for c in schema.columns.iter().filter(|c| c.is_code()) {
+        let mut levels = Vec::new();
+        for (code, name) in c.level_list() {
+            let column = crate::data::schema::indicator_name(&c.name, &name);
+            let training_rows = if c.implied_level.as_deref() == Some(name.as_str()) {
+                // the rows with no other level (every row has one level)
+                let mut n = prepared.n_rows();
+                for (_, other) in c.level_list().iter().filter(|l| l.1 != name) {
+                    let col = crate::data::schema::indicator_name(&c.name, other);
+                    let ones = prepared.numeric(&col)?;
+                    n -= ones.iter().filter(|v| v.total_cmp(&1.0).is_eq()).count();
+                }
+                n
+            } else {
+                prepared
+                    .numeric(&column)?
+                    .iter()
+                    .filter(|v| v.total_cmp(&1.0).is_eq())
+                    .count()
+            };
+            levels.push(super::CodeLevel {
+                code,
+                name,
+                column,
+                training_rows,
+            });
+        }
+        out.push(super::CodeInput {
+            name: c.name.clone(),
+            levels,
+        });
+    }
+    Ok(out)
 }
 
 /// The input columns offered: those listed (none of them a target), else

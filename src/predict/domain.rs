@@ -4,7 +4,8 @@
 use ndarray::{Array2, ArrayView1, ArrayView2, Axis};
 
 use crate::domain::{
-    self, range_excesses, range_note, DomainIndex, DomainReference, DomainVerdict, UncertaintyRatio,
+    self, range_excesses, range_note, DomainIndex, DomainLevel, DomainReference, DomainVerdict,
+    UncertaintyRatio,
 };
 use crate::model::Model;
 use crate::prec::{DOMAIN_QUERY_BLOCK, DOMAIN_RANGE_SLACK};
@@ -124,8 +125,56 @@ impl DomainGuard<'_> {
                 domain::check_many(&self.model.inputs, self.index.as_ref(), block, u, units)
             })
             .collect();
-        blocks.into_iter().flatten().collect()
+        let mut out: Vec<DomainVerdict> = blocks.into_iter().flatten().collect();
+        if !self.model.codes.is_empty() {
+            for (v, row) in out.iter_mut().zip(raw.outer_iter()) {
+                let notes = level_notes(self.model, row);
+                if !notes.is_empty() {
+                    v.level = DomainLevel::Outside;
+                    v.in_domain = false;
+                    v.notes.extend(notes);
+                }
+            }
+        }
+        out
     }
+}
+
+/// The range check of a declared code: its indicator inputs in `raw`
+/// (model input order) must spell one level seen in training (every
+/// indicator 0 or 1, at most one at 1; all 0 is the level whose indicator
+/// was set aside as implied by the others). A note per code that does
+/// not; a code is never interpolated between levels. Rows read through the
+/// schema always pass (unseen levels are refused before,
+/// [`Model::refuse_unseen_levels`]); rows built by other paths (a sweep, a
+/// design) are checked here.
+pub fn level_notes(model: &Model, raw: ArrayView1<f64>) -> Vec<String> {
+    let of = model.input_codes();
+    let mut notes = Vec::new();
+    for (k, code) in model.codes.iter().enumerate() {
+        let cols: Vec<usize> = (0..of.len()).filter(|&j| of[j] == Some(k)).collect();
+        let is = |j: usize, v: f64| raw[j].total_cmp(&v).is_eq();
+        let ones = cols.iter().filter(|&&j| is(j, 1.0)).count();
+        let all_01 = cols.iter().all(|&j| is(j, 0.0) || is(j, 1.0));
+        let implied = code
+            .levels
+            .iter()
+            .any(|l| l.training_rows > 0 && !model.inputs.iter().any(|i| i.name == l.column));
+        if all_01 && (ones == 1 || (ones == 0 && implied)) {
+            continue;
+        }
+        let values = cols
+            .iter()
+            .map(|&j| format!("{} = {}", model.inputs[j].name, domain::fmt_num(raw[j])))
+            .collect::<Vec<_>>()
+            .join(", ");
+        notes.push(format!(
+            "'{}' is a code: its indicators ({values}) spell none of the levels seen in training ({}); a code is not interpolated between levels",
+            code.name,
+            code.seen_text()
+        ));
+    }
+    notes
 }
 
 /// Row `i`'s largest ratio, over the targets with a recorded typical value,

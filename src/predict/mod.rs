@@ -227,9 +227,42 @@ impl Model {
                         drop_incomplete_rows: false,
                     },
                 )?;
+                self.refuse_unseen_levels(&p.table)?;
                 Ok((p.table, p.row_warnings))
             }
         }
+    }
+
+    /// Refuse a row at a level of a declared code that no training row
+    /// held: a new code has no data behind it, nothing to extrapolate to.
+    /// `prepared` is the table read through the model's schema (indicator
+    /// columns present).
+    ///
+    /// # Errors
+    /// [`Error::PredictInput`] naming the file, row, code column, the level
+    /// and the levels training saw.
+    pub fn refuse_unseen_levels(&self, prepared: &Table) -> Result<()> {
+        for code in &self.codes {
+            for level in code.levels.iter().filter(|l| l.training_rows == 0) {
+                let Some(values) = prepared.numeric_optional(&level.column).ok() else {
+                    continue;
+                };
+                if let Some(i) = values.iter().position(|v| *v == Some(1.0)) {
+                    return Err(Error::PredictInput {
+                        path: prepared.label(),
+                        row: prepared.first_row() + i + 1,
+                        column: code.name.clone(),
+                        problem: format!(
+                            "level {} = {} is declared but no training row held it: the model has nothing to say about it; levels seen in training: {}",
+                            level.code,
+                            level.name,
+                            code.seen_text()
+                        ),
+                    });
+                }
+            }
+        }
+        Ok(())
     }
 
     /// Estimate every target for every row of `table`.

@@ -20,10 +20,13 @@ const STEPS: usize = 31;
 /// The `MAIN_INPUTS` most relevant inputs of target `k` (the first inputs
 /// when relevance is unknown).
 pub(super) fn main_inputs(ctx: &Ctx<'_>, k: usize) -> Vec<String> {
+    // a declared code has levels, not a curve (its indicators are skipped)
+    let quantity = |n: &str| ctx.model.code_of_input(n).is_none();
     match &ctx.card.targets[k].relevance {
         Some(r) => r
             .ranked()
             .into_iter()
+            .filter(|p| quantity(&p.0))
             .take(MAIN_INPUTS)
             .map(|p| p.0)
             .collect(),
@@ -31,6 +34,7 @@ pub(super) fn main_inputs(ctx: &Ctx<'_>, k: usize) -> Vec<String> {
             .model
             .inputs
             .iter()
+            .filter(|i| quantity(&i.name))
             .take(MAIN_INPUTS)
             .map(|i| i.name.clone())
             .collect(),
@@ -71,7 +75,21 @@ pub(super) fn effects_section(ctx: &Ctx<'_>) -> Result<String> {
     // the heat the curves pass through: the medians of the table given (a
     // model read through a schema needs its raw columns), else the
     // training medians the model keeps
-    let heat = ctx.table.map(median_heat).unwrap_or_default();
+    let mut heat = ctx.table.map(median_heat).unwrap_or_default();
+    // a declared code is held at its most frequent training level, never
+    // at a median between levels
+    for code in &ctx.model.codes {
+        if let Some(l) = code.levels.iter().max_by_key(|l| l.training_rows) {
+            heat.retain(|(n, _)| *n != code.name);
+            heat.push((code.name.clone(), l.code as f64));
+            s.push_str(&format!(
+                "<p>{} is a code: the curves hold it at its most frequent training level, {} = {}; no curve is drawn along a code.</p>\n",
+                esc(&code.name),
+                l.code,
+                esc(&l.name)
+            ));
+        }
+    }
     if ctx.table.is_none() && ctx.model.schema.is_some() {
         s.push_str(&super::no_rows("the effect curves (a model trained through a schema needs a table to hold the other columns at)"));
         return Ok(s);

@@ -325,6 +325,10 @@ pub fn design(
         });
     }
     for (n, lo, hi) in &space.vary {
+        // a declared code is held at one level, never moved continuously
+        for m in screening.models {
+            m.refuse_moving_code(n, "vary")?;
+        }
         if !(lo.is_finite() && hi.is_finite() && lo < hi) {
             return Err(Error::InvalidParameter {
                 name: "vary",
