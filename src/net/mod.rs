@@ -4,11 +4,12 @@
 //! Everything here works in the scaled space (inputs and target mapped to
 //! [−0.5, 0.5]); scaling lives in [`crate::features`].
 
+mod activation;
 mod inputs;
 mod mlp;
 mod passes;
 
 pub use inputs::Inputs;
 
-pub(crate) use mlp::tanh;
+pub(crate) use activation::tanh;
 pub use mlp::{Architecture, ParamLayout};

@@ -14,8 +14,8 @@ use std::cell::RefCell;
 
 use ndarray::ArrayView2;
 
+use super::activation::tanh_slice;
 use super::inputs::{Inputs, INPUT_PANEL, ROW_BLOCK};
-use super::mlp::tanh_slice;
 
 /// Hidden units per register block of the hidden sums (one AVX vector);
 /// the last block's missing units have zero weights, and their sums are
