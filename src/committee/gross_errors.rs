@@ -744,19 +744,15 @@ mod tests {
         assert!((ln - ln_normal(52.0, 50.0, 4.0)).abs() < 1e-12);
     }
 
-    /// y = sin(3 x0)/3 + N(0, 0.05²), with 6 % of the targets replaced by
-    /// values drawn uniformly over the target's range (truth of the
-    /// generator; no outside source). A fit with the Gaussian likelihood
-    /// takes the gross errors as noise; the refit under the contamination
-    /// model recovers the noise sd within 10 % (the core engine's bar for a
-    /// clean archive), and the rows it weights out are the replaced ones.
-    #[test]
-    fn refit_recovers_the_noise_level_beside_gross_errors() {
-        use crate::evidence::{fit_network, Groups};
-        use crate::net::Architecture;
-        let mut rng = Xoshiro256PlusPlus::seed_from_u64(21);
+    /// The generator of the two refit tests below: y = sin(3 x0)/3 +
+    /// N(0, 0.05²) on two inputs uniform on [−0.5, 0.5], with 6 % of the
+    /// targets replaced by values uniform on [−0.5, 0.5] (which rows: the
+    /// third value returned).
+    fn contaminated_rows(
+        rng: &mut Xoshiro256PlusPlus,
+        n: usize,
+    ) -> (ndarray::Array2<f64>, Array1<f64>, Vec<bool>) {
         let noise = Normal::new(0.0, 0.05).expect("sd");
-        let n = 600;
         let x = ndarray::Array2::from_shape_fn((n, 2), |_| rng.random_range(-0.5..0.5));
         let mut replaced = vec![false; n];
         let t = Array1::from_shape_fn(n, |i| {
@@ -764,11 +760,16 @@ mod tests {
                 replaced[i] = true;
                 rng.random_range(-0.5..0.5)
             } else {
-                (3.0 * x[[i, 0]]).sin_fixed() / 3.0 + noise.sample(&mut rng)
+                (3.0 * x[[i, 0]]).sin_fixed() / 3.0 + noise.sample(rng)
             }
         });
-        let arch = Architecture::new(2, 3);
-        let groups = Groups::new(&arch, true);
+        (x, t, replaced)
+    }
+
+    /// A 2-input, 3-hidden-unit network with ARD and its random start.
+    fn small_start(rng: &mut Xoshiro256PlusPlus) -> (crate::net::Architecture, StartState) {
+        let arch = crate::net::Architecture::new(2, 3);
+        let groups = crate::evidence::Groups::new(&arch, true);
         let start = StartState {
             weights: (0..arch.n_params())
                 .map(|_| rng.random_range(-0.5..0.5))
@@ -776,12 +777,12 @@ mod tests {
             alpha: vec![0.1; groups.len()],
             beta: 50.0,
         };
-        let settings = FitSettings::default();
-        let plain = fit_network(arch, true, x.view(), t.view(), start, &settings).expect("fit");
-        let plain_sd = 1.0 / plain.beta.sqrt();
-        assert!(plain_sd > 0.07, "Gaussian fit's noise sd {plain_sd}");
+        (arch, start)
+    }
 
-        let model = GrossErrorModel {
+    /// A 6 % share of gross errors over the targets `t`'s mean and sd.
+    fn share_model(t: ndarray::ArrayView1<f64>) -> GrossErrorModel {
+        GrossErrorModel {
             share: 0.06,
             background_mean: t.mean().expect("rows"),
             background_sd: t.std(0.0),
@@ -792,7 +793,28 @@ mod tests {
             refit_fallbacks: Vec::new(),
             tail_dof: None,
             model_var_scale: None,
-        };
+        }
+    }
+
+    /// y = sin(3 x0)/3 + N(0, 0.05²), with 6 % of the targets replaced by
+    /// values drawn uniformly over the target's range (truth of the
+    /// generator; no outside source). A fit with the Gaussian likelihood
+    /// takes the gross errors as noise; the refit under the contamination
+    /// model recovers the noise sd within 10 % (the core engine's bar for a
+    /// clean archive), and the rows it weights out are the replaced ones.
+    #[test]
+    fn refit_recovers_the_noise_level_beside_gross_errors() {
+        use crate::evidence::fit_network;
+        let mut rng = Xoshiro256PlusPlus::seed_from_u64(21);
+        let n = 600;
+        let (x, t, replaced) = contaminated_rows(&mut rng, n);
+        let (arch, start) = small_start(&mut rng);
+        let settings = FitSettings::default();
+        let plain = fit_network(arch, true, x.view(), t.view(), start, &settings).expect("fit");
+        let plain_sd = 1.0 / plain.beta.sqrt();
+        assert!(plain_sd > 0.07, "Gaussian fit's noise sd {plain_sd}");
+
+        let model = share_model(t.view());
         let (net, gross_rows) = model
             .refit_constant(plain, true, x.view(), t.view(), &settings, &settings)
             .expect("refit");
@@ -829,31 +851,12 @@ mod tests {
     #[test]
     fn a_large_tables_refit_from_the_search_network_recovers_the_noise_level() {
         use super::super::refit::{early_round_settings, refit_settings};
-        use crate::evidence::{fit_network, Groups};
-        use crate::net::Architecture;
+        use crate::evidence::fit_network;
         use crate::prec::{LARGE_EARLY_ROUND_CYCLES, LARGE_REFIT_MAX_CYCLES, LARGE_TABLE_ROWS};
         let mut rng = Xoshiro256PlusPlus::seed_from_u64(23);
-        let noise = Normal::new(0.0, 0.05).expect("sd");
         let n = LARGE_TABLE_ROWS + 2_000;
-        let x = ndarray::Array2::from_shape_fn((n, 2), |_| rng.random_range(-0.5..0.5));
-        let mut replaced = vec![false; n];
-        let t = Array1::from_shape_fn(n, |i| {
-            if rng.random_range(0.0..1.0) < 0.06 {
-                replaced[i] = true;
-                rng.random_range(-0.5..0.5)
-            } else {
-                (3.0 * x[[i, 0]]).sin_fixed() / 3.0 + noise.sample(&mut rng)
-            }
-        });
-        let arch = Architecture::new(2, 3);
-        let groups = Groups::new(&arch, true);
-        let start = StartState {
-            weights: (0..arch.n_params())
-                .map(|_| rng.random_range(-0.5..0.5))
-                .collect(),
-            alpha: vec![0.1; groups.len()],
-            beta: 50.0,
-        };
+        let (x, t, replaced) = contaminated_rows(&mut rng, n);
+        let (arch, start) = small_start(&mut rng);
         let sample = ndarray::s![..2_000, ..];
         let searched = fit_network(
             arch,
@@ -868,18 +871,7 @@ mod tests {
         let early = early_round_settings(&settings, n);
         assert_eq!(early.max_cycles, LARGE_EARLY_ROUND_CYCLES);
         assert_eq!(settings.max_cycles, LARGE_REFIT_MAX_CYCLES);
-        let model = GrossErrorModel {
-            share: 0.06,
-            background_mean: t.mean().expect("rows"),
-            background_sd: t.std(0.0),
-            n_heldout: 0,
-            heldout_nlpd_gaussian: 0.0,
-            heldout_nlpd: 0.0,
-            refit_gross_rows: None,
-            refit_fallbacks: Vec::new(),
-            tail_dof: None,
-            model_var_scale: None,
-        };
+        let model = share_model(t.view());
         let (net, gross_rows) = model
             .refit_constant(searched, true, x.view(), t.view(), &early, &settings)
             .expect("refit");

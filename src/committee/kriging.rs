@@ -193,12 +193,24 @@ pub(super) fn kernel(
     length: &[f64],
     signal_var: f64,
 ) -> Array2<f64> {
+    kernel_by(a, b, length, signal_var, matmul)
+}
+
+/// [`kernel`] with the cross products a·bᵀ formed by `product` (the
+/// bit-for-bit test passes the former product).
+fn kernel_by(
+    a: ArrayView2<f64>,
+    b: ArrayView2<f64>,
+    length: &[f64],
+    signal_var: f64,
+    product: fn(ArrayView2<f64>, ArrayView2<f64>) -> Array2<f64>,
+) -> Array2<f64> {
     let inv = Array1::from_iter(length.iter().map(|l| 1.0 / l));
     let a = &a * &inv;
     let b = &b * &inv;
     let na: Array1<f64> = a.map_axis(Axis(1), |r| r.dot(&r));
     let nb: Array1<f64> = b.map_axis(Axis(1), |r| r.dot(&r));
-    let mut k = matmul(a.view(), b.t());
+    let mut k = product(a.view(), b.t());
     for ((i, j), v) in k.indexed_iter_mut() {
         let d2 = (na[i] + nb[j] - 2.0 * *v).max(0.0);
         *v = signal_var * (-0.5 * d2).exp_fixed();
@@ -808,17 +820,7 @@ mod tests {
         length: &[f64],
         signal_var: f64,
     ) -> Array2<f64> {
-        let inv = Array1::from_iter(length.iter().map(|l| 1.0 / l));
-        let a = &a * &inv;
-        let b = &b * &inv;
-        let na: Array1<f64> = a.map_axis(Axis(1), |r| r.dot(&r));
-        let nb: Array1<f64> = b.map_axis(Axis(1), |r| r.dot(&r));
-        let mut k = former::matmul(a.view(), b.t());
-        for ((i, j), v) in k.indexed_iter_mut() {
-            let d2 = (na[i] + nb[j] - 2.0 * *v).max(0.0);
-            *v = signal_var * (-0.5 * d2).exp_fixed();
-        }
-        k
+        kernel_by(a, b, length, signal_var, former::matmul)
     }
 
     /// The likelihood and its gradient as the code of commit c9d78cb formed
