@@ -33,6 +33,12 @@
 //!    concrete model of step 1 (the new binary's, read by both), CSV in,
 //!    CSV out, domain guard and residual process.
 //!
+//! Beside item 3, the bench times itself running [`peak::run`] (twelve
+//! chains of 4-wide fused multiply-adds, as a whole process under GNU
+//! time): this core's double-precision multiply-add ceiling, and the rows
+//! per second at which the exact variance of the 3a committee alone
+//! (51 510 multiply-adds per row) would run at that ceiling.
+//!
 //! Items 4 (same answer on any CPU) and 5 (calibration) are checked by
 //! tests/cross_cpu.rs and the calibration tables of docs/benchmarks.md,
 //! not timed here.
@@ -40,6 +46,8 @@
 //! DATA_DIR defaults to ../shared/datasets/uci (the concrete set's
 //! data.csv is read from DATA_DIR/concrete).
 
+#[path = "support/peak.rs"]
+mod peak;
 #[path = "support/synthetic.rs"]
 mod synthetic;
 
@@ -134,8 +142,19 @@ fn write_csv(path: &Path, names: &[String], cols: &[Vec<f64>]) {
     std::fs::write(path, s).expect("writing a CSV");
 }
 
+/// Fused multiply-add rounds of the ceiling measurement (2.4·10¹⁰
+/// multiply-adds: about a second at this machine's rate).
+const PEAK_ITERS: u64 = 500_000_000;
+
 fn main() {
     let args: Vec<String> = std::env::args().skip(1).collect();
+    if let Some(iters) = arg(&args, "--fma-peak") {
+        let iters: u64 = iters.parse().expect("--fma-peak ITERS");
+        let v = peak::run(iters).expect("a CPU with AVX2 and FMA");
+        // the value depends on every multiply-add; printing it keeps them
+        println!("{v}");
+        return;
+    }
     let base_bin = PathBuf::from(arg(&args, "--baseline").expect("--baseline BIN"));
     let new_bin = PathBuf::from(arg(&args, "--new").expect("--new BIN"));
     let big_rows: usize = arg(&args, "--rows").map_or(1_000_000, |s| s.parse().expect("--rows N"));
@@ -358,6 +377,28 @@ fn main() {
         base: "—".into(),
         ratio: f64::NAN,
         met: Some(CORE_ROWS as f64 / in_process.0 >= 1e6),
+    });
+
+    // the ceiling: this core's multiply-add rate, one thread
+    let me = std::env::current_exe().expect("the bench's own path");
+    let iters = PEAK_ITERS.to_string();
+    let run = timed(&me, &["--fma-peak", &iters], &[], &work);
+    let madds_per_s = (PEAK_ITERS * peak::MADDS_PER_ITER) as f64 / run.cpu;
+    let per_row = peak::exact_variance_madds(10, 101);
+    println!(
+        "multiply-add ceiling: {:.2e} per CPU s ({:.1} s CPU); exact variance of 10 members of 101 weights: {per_row} per row",
+        madds_per_s, run.cpu
+    );
+    lines.push(Line {
+        target: "3a. (ceiling, this core)".into(),
+        what: format!(
+            "fused multiply-adds per CPU s ({:.2e}) ÷ {per_row} per row: rows/s of the exact variance alone",
+            madds_per_s
+        ),
+        new: format!("{:.0}", madds_per_s / per_row as f64),
+        base: "—".into(),
+        ratio: f64::NAN,
+        met: Some(madds_per_s / per_row as f64 >= 1e6),
     });
 
     // 4. end to end, default concrete model, 2 cores
