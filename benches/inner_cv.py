@@ -29,8 +29,11 @@ above 1 the bars are too narrow, below 1 too wide; with the LL it would give). P
 models, e.g. two seeds' whole trainings averaged (the mean is the mean of the means μ_i):
 `--config NAME=pool:A+B` gives them the equal mixture's variance,
 mean(var_i) + mean((μ_i − μ)^2) (their disagreement added), and `--config NAME=poolin:A+B`
-the mean of their own variances, mean(var_i) (their disagreement not counted again); the
-Gaussian LL and coverages use that sd.
+the mean of their own variances, mean(var_i) (their disagreement not counted again), and
+`--config NAME=poolavg:A+B` a diagnostic third: the variance of the average itself if each
+model's variance were noise + s^2 with independent mean errors of variance s^2, i.e.
+max(mean(var_i) − mean((μ_i − μ)^2), mean(var_i)/K) for K models; the Gaussian LL and
+coverages use that sd.
 
 --groups: instead of training, read the per-row files of --rows DIR and report how much of
 each setting's out-of-fold squared error is shared by the rows of one group (concrete: one
@@ -244,6 +247,11 @@ def load_rows(k, name, pooled):
     v = np.mean([r[:, 3] ** 2 for r in rs], axis=0)
     if rule == "pool":
         v = v + np.mean([(r[:, 2] - m) ** 2 for r in rs], axis=0)
+    elif rule == "poolavg":
+        # the average's own error variance if each model's variance is noise + s^2 and the
+        # models' mean errors are independent draws of variance s^2: noise + s^2/K, with
+        # mean((mu_i - mu)^2) estimating s^2 (K-1)/K; floored at mean(var_i)/K
+        v = np.maximum(v - np.mean([(r[:, 2] - m) ** 2 for r in rs], axis=0), v / len(rs))
     return np.column_stack([rs[0][:, 0], rs[0][:, 1], m, np.sqrt(v)])
 
 
@@ -265,9 +273,9 @@ def paired():
         # NAME=pool:A+B averages the saved models of settings A and B (model averaging, the
         # mixture's variance); NAME=poolin:A+B the same mean with the mean of their variances
         rule, colon, members = extra.partition(":")
-        pools[name] = (rule, members.split("+")) if colon and rule in ("pool", "poolin") else None
+        pools[name] = (rule, members.split("+")) if colon and rule in ("pool", "poolin", "poolavg") else None
         if colon and pools[name] is None:
-            sys.exit(f"--config {c}: the rules are pool:A+B and poolin:A+B")
+            sys.exit(f"--config {c}: the rules are pool:, poolin: and poolavg:")
     rmse = {n: [] for n in names}
     ll = {n: [] for n in names}
     rows = {n: [] for n in names}
