@@ -30,10 +30,11 @@ models, e.g. two seeds' whole trainings averaged (the mean is the mean of the me
 `--config NAME=pool:A+B` gives them the equal mixture's variance,
 mean(var_i) + mean((μ_i − μ)^2) (their disagreement added), and `--config NAME=poolin:A+B`
 the mean of their own variances, mean(var_i) (their disagreement not counted again), and
-`--config NAME=poolavg:A+B` a diagnostic third: the variance of the average itself if each
-model's variance were noise + s^2 with independent mean errors of variance s^2, i.e.
-max(mean(var_i) − mean((μ_i − μ)^2), mean(var_i)/K) for K models; the Gaussian LL and
-coverages use that sd.
+`--config NAME=poolavg:A+B` a third: the error variance of the average itself when each
+model's variance is that of its own error (noise, shared, plus s^2 from the model, the K
+models' errors of any correlation ρ), i.e. noise + s^2 (1 + (K − 1) ρ)/K, which
+mean(var_i) − mean((μ_i − μ)^2) estimates without bias; floored at mean(var_i)/K, the bound
+for ρ ≥ 0. The Gaussian LL and coverages use the rule's sd.
 
 --groups: instead of training, read the per-row files of --rows DIR and report how much of
 each setting's out-of-fold squared error is shared by the rows of one group (concrete: one
@@ -248,9 +249,11 @@ def load_rows(k, name, pooled):
     if rule == "pool":
         v = v + np.mean([(r[:, 2] - m) ** 2 for r in rs], axis=0)
     elif rule == "poolavg":
-        # the average's own error variance if each model's variance is noise + s^2 and the
-        # models' mean errors are independent draws of variance s^2: noise + s^2/K, with
-        # mean((mu_i - mu)^2) estimating s^2 (K-1)/K; floored at mean(var_i)/K
+        # the average's own error variance if each model's variance is its own error's,
+        # noise + s^2, the noise shared and the K models' mean errors of variance s^2 and
+        # correlation rho: the average's is noise + s^2 (1 + (K-1) rho)/K, and
+        # E mean((mu_i - mu)^2) = s^2 (1 - rho)(K-1)/K, so mean(var_i) less that spread is
+        # unbiased for it whatever rho; floored at mean(var_i)/K (the bound for rho >= 0)
         v = np.maximum(v - np.mean([(r[:, 2] - m) ** 2 for r in rs], axis=0), v / len(rs))
     return np.column_stack([rs[0][:, 0], rs[0][:, 1], m, np.sqrt(v)])
 
