@@ -25,7 +25,9 @@ fold RMSE and of the fold's mean Gaussian LL over all (outer split, fold) pairs 
 and on how many pairs the setting's RMSE is lower; then, pooled over every row of those outer
 splits, the RMSE, Gaussian LL, coverage of ±1 sd and ±2 sd, and the LL-optimal sd scale
 c = sqrt(mean z^2), z = (y − mean)/sd (the factor on the sd that minimises the Gaussian NLPD:
-above 1 the bars are too narrow, below 1 too wide; with the LL it would give). Pooled
+above 1 the bars are too narrow, below 1 too wide; with the LL it would give), beside the
+scale that would make the ±1 sd coverage 68.27 % (the 68.27 % quantile of |z|; the two
+differ when the errors are not Gaussian about the sd, e.g. heavy-tailed). Pooled
 models, e.g. two seeds' whole trainings averaged (the mean is the mean of the means μ_i):
 `--config NAME=pool:A+B` gives them the equal mixture's variance,
 mean(var_i) + mean((μ_i − μ)^2) (their disagreement added), and `--config NAME=poolin:A+B`
@@ -234,9 +236,10 @@ def groups():
 def load_rows(k, name, pooled):
     """The per-row file of setting `name` on outer split k; with `pooled` = (rule, [settings])
     the equal-weight average of their models instead: the mean of their means, and as its
-    variance either the equal mixture's (rule "pool": mean of the variances plus the spread of
-    the means, var = mean(var_i) + mean((mu_i - mu)^2)) or the mean of the models' own
-    variances alone (rule "poolin": var = mean(var_i), their disagreement not counted again)."""
+    variance the equal mixture's (rule "pool": mean of the variances plus the spread of the
+    means, var = mean(var_i) + mean((mu_i - mu)^2)), the mean of the models' own variances
+    alone (rule "poolin": var = mean(var_i), their disagreement not counted again), or the
+    average's own error variance (rule "poolavg": that less the spread, floored; below)."""
     if not pooled:
         return np.loadtxt(ARGS.rows / f"{ARGS.dataset}_{k}_{name}.csv", delimiter=",",
                           skiprows=1)
@@ -273,10 +276,11 @@ def paired():
         name, _, extra = c.partition("=")
         name = name.partition("@")[0]
         names.append(name)
-        # NAME=pool:A+B averages the saved models of settings A and B (model averaging, the
-        # mixture's variance); NAME=poolin:A+B the same mean with the mean of their variances
+        # NAME=RULE:A+B averages the saved models of settings A and B (model averaging);
+        # RULE (pool, poolin, poolavg) names the variance given to the average (load_rows)
         rule, colon, members = extra.partition(":")
-        pools[name] = (rule, members.split("+")) if colon and rule in ("pool", "poolin", "poolavg") else None
+        known = colon and rule in ("pool", "poolin", "poolavg")
+        pools[name] = (rule, members.split("+")) if known else None
         if colon and pools[name] is None:
             sys.exit(f"--config {c}: the rules are pool:, poolin: and poolavg:")
     rmse = {n: [] for n in names}
