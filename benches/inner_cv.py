@@ -22,9 +22,21 @@ residual study (benches/inner_cv.py --groups).
 --paired: instead of training, read the per-row files of --rows DIR for the outer splits
 --outer and report, per setting against the first --config, the paired difference of the
 fold RMSE and of the fold's mean Gaussian LL over all (outer split, fold) pairs (mean ± SE),
-and on how many pairs the setting's RMSE is lower. `--config NAME=pool:A+B` there scores the
-equal-weight average of the saved models of settings A and B (mean of the means, variance of
-the mixture), e.g. two seeds' models averaged.
+and on how many pairs the setting's RMSE is lower; then, pooled over every row of those outer
+splits, the RMSE, Gaussian LL, coverage of ±1 sd and ±2 sd, and the LL-optimal sd scale
+c = sqrt(mean z^2), z = (y − mean)/sd (the factor on the sd that minimises the Gaussian NLPD:
+above 1 the bars are too narrow, below 1 too wide; with the LL it would give), beside the
+scale that would make the ±1 sd coverage 68.27 % (the 68.27 % quantile of |z|; the two
+differ when the errors are not Gaussian about the sd, e.g. heavy-tailed). Pooled
+models, e.g. two seeds' whole trainings averaged (the mean is the mean of the means μ_i):
+`--config NAME=pool:A+B` gives them the equal mixture's variance,
+mean(var_i) + mean((μ_i − μ)^2) (their disagreement added), and `--config NAME=poolin:A+B`
+the mean of their own variances, mean(var_i) (their disagreement not counted again), and
+`--config NAME=poolavg:A+B` a third: the error variance of the average itself when each
+model's variance is that of its own error (noise, shared, plus s^2 from the model, the K
+models' errors of any correlation ρ), i.e. noise + s^2 (1 + (K − 1) ρ)/K, which
+mean(var_i) − mean((μ_i − μ)^2) estimates without bias; floored at mean(var_i)/K, the bound
+for ρ ≥ 0. The Gaussian LL and coverages use the rule's sd.
 
 --groups: instead of training, read the per-row files of --rows DIR and report how much of
 each setting's out-of-fold squared error is shared by the rows of one group (concrete: one
@@ -222,16 +234,40 @@ def groups():
 
 
 def load_rows(k, name, pooled):
-    """The per-row file of setting `name` on outer split k; with `pooled` (a list of
-    settings) the equal-weight average of their models instead: the mean of their means,
-    and the mixture's variance (mean of the variances plus the spread of the means)."""
+    """The per-row file of setting `name` on outer split k; with `pooled` = (rule, [settings])
+    the equal-weight average of their models instead: the mean of their means, and as its
+    variance the equal mixture's (rule "pool": mean of the variances plus the spread of the
+    means, var = mean(var_i) + mean((mu_i - mu)^2)), the mean of the models' own variances
+    alone (rule "poolin": var = mean(var_i), their disagreement not counted again), or the
+    average's own error variance (rule "poolavg": that less the spread, floored; below)."""
     if not pooled:
         return np.loadtxt(ARGS.rows / f"{ARGS.dataset}_{k}_{name}.csv", delimiter=",",
                           skiprows=1)
-    rs = [load_rows(k, p, None) for p in pooled]
+    rule, members = pooled
+    rs = [load_rows(k, p, None) for p in members]
+    if any(not np.array_equal(r[:, :2], rs[0][:, :2]) for r in rs):
+        sys.exit(f"{name}: the per-row files of {members} on outer split {k} differ in rows")
     m = np.mean([r[:, 2] for r in rs], axis=0)
-    v = np.mean([r[:, 3] ** 2 + (r[:, 2] - m) ** 2 for r in rs], axis=0)
+    v = np.mean([r[:, 3] ** 2 for r in rs], axis=0)
+    if rule == "pool":
+        v = v + np.mean([(r[:, 2] - m) ** 2 for r in rs], axis=0)
+    elif rule == "poolavg":
+        # the average's own error variance if each model's variance is its own error's,
+        # noise + s^2, the noise shared and the K models' mean errors of variance s^2 and
+        # correlation rho: the average's is noise + s^2 (1 + (K-1) rho)/K, and
+        # E mean((mu_i - mu)^2) = s^2 (1 - rho)(K-1)/K, so mean(var_i) less that spread is
+        # unbiased for it whatever rho; floored at mean(var_i)/K (the bound for rho >= 0)
+        v = np.maximum(v - np.mean([(r[:, 2] - m) ** 2 for r in rs], axis=0), v / len(rs))
     return np.column_stack([rs[0][:, 0], rs[0][:, 1], m, np.sqrt(v)])
+
+
+def sd_scale(y, mean, sd):
+    """The LL-optimal factor on the sd: the c minimising the Gaussian NLPD of
+    (y - mean) / (c sd), i.e. c^2 = mean z^2 with z = (y - mean) / sd (above 1: the bars are
+    too narrow for the errors; below 1: too wide), and the Gaussian LL gained by it,
+    -log c - 1/2 + c^2/2 per row."""
+    c = math.sqrt(np.mean(((y - mean) / sd) ** 2))
+    return c, -math.log(c) - 0.5 + c * c / 2
 
 
 def paired():
@@ -240,13 +276,20 @@ def paired():
         name, _, extra = c.partition("=")
         name = name.partition("@")[0]
         names.append(name)
-        # NAME=pool:A+B averages the saved models of settings A and B (model averaging)
-        pools[name] = extra[5:].split("+") if extra.startswith("pool:") else None
+        # NAME=RULE:A+B averages the saved models of settings A and B (model averaging);
+        # RULE (pool, poolin, poolavg) names the variance given to the average (load_rows)
+        rule, colon, members = extra.partition(":")
+        known = colon and rule in ("pool", "poolin", "poolavg")
+        pools[name] = (rule, members.split("+")) if known else None
+        if colon and pools[name] is None:
+            sys.exit(f"--config {c}: the rules are pool:, poolin: and poolavg:")
     rmse = {n: [] for n in names}
     ll = {n: [] for n in names}
+    rows = {n: [] for n in names}
     for k in map(int, ARGS.outer.split(",")):
         for n in names:
             r = load_rows(k, n, pools[n])
+            rows[n].append(r)
             fold = np.random.default_rng(1000 + k).permutation(len(r)) % ARGS.folds
             for f in range(ARGS.folds):
                 y, mean, sd = r[fold == f, 1], r[fold == f, 2], r[fold == f, 3]
@@ -262,6 +305,16 @@ def paired():
         print(f"{ARGS.dataset} outer {ARGS.outer} {n:>16}: mean fold RMSE {a.mean():.4f} | "
               f"RMSE − {base} {d.mean():+.4f} ± {se:.4f} ({d.mean() / se if se > 0 else 0:+.1f} SE), "
               f"lower on {np.sum(d < 0)}/{len(d)} | LL − {base} {dl.mean():+.4f} ± {sel:.4f}")
+    # pooled over every row of the outer splits (each predicted once per outer split)
+    for n in names:
+        r = np.vstack(rows[n])
+        y, mean, sd = r[:, 1], r[:, 2], r[:, 3]
+        rm, l, c68, c95 = scores(y, mean, sd)
+        c, gain = sd_scale(y, mean, sd)
+        print(f"{ARGS.dataset} outer {ARGS.outer} {n:>16}: pooled over {len(y)} rows: "
+              f"RMSE {rm:.4f} Gaussian LL {l:.4f} cov68 {c68:.3f} cov95 {c95:.3f} | "
+              f"LL-optimal sd scale {c:.3f} (LL {l + gain:.4f} with it); "
+              f"scale for 68 % coverage {np.quantile(np.abs(y - mean) / sd, 0.6827):.3f}")
 
 
 if ARGS.paired:
