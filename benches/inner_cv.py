@@ -36,7 +36,10 @@ the mean of their own variances, mean(var_i) (their disagreement not counted aga
 model's variance is that of its own error (noise, shared, plus s^2 from the model, the K
 models' errors of any correlation ρ), i.e. noise + s^2 (1 + (K − 1) ρ)/K, which
 mean(var_i) − mean((μ_i − μ)^2) estimates without bias; floored at mean(var_i)/K, the bound
-for ρ ≥ 0. The Gaussian LL and coverages use the rule's sd.
+for ρ ≥ 0. The Gaussian LL and coverages use the rule's sd. With a pooled setting, the
+coverages of every setting are also printed in the 10 % and 2 % of rows where the first pooled
+setting's models disagree most (spread of their means over their mean variance): where the
+rules differ most, and where a user extrapolates.
 
 --groups: instead of training, read the per-row files of --rows DIR and report how much of
 each setting's out-of-fold squared error is shared by the rows of one group (concrete: one
@@ -315,6 +318,29 @@ def paired():
               f"RMSE {rm:.4f} Gaussian LL {l:.4f} cov68 {c68:.3f} cov95 {c95:.3f} | "
               f"LL-optimal sd scale {c:.3f} (LL {l + gain:.4f} with it); "
               f"scale for 68 % coverage {np.quantile(np.abs(y - mean) / sd, 0.6827):.3f}")
+    # where the averaged models disagree most: coverage in the rows of the largest spread of
+    # the first pooled setting's models relative to their mean variance (the rows where an
+    # average's variance rule matters most)
+    first = next((pools[n][1] for n in names if pools[n]), None)
+    if first is None:
+        return
+    ratio = []
+    for k in map(int, ARGS.outer.split(",")):
+        rs = [load_rows(k, p, None) for p in first]
+        m = np.mean([r[:, 2] for r in rs], axis=0)
+        spread = np.mean([(r[:, 2] - m) ** 2 for r in rs], axis=0)
+        ratio.append(spread / np.mean([r[:, 3] ** 2 for r in rs], axis=0))
+    ratio = np.concatenate(ratio)
+    for share in (0.10, 0.02):
+        top = ratio >= np.quantile(ratio, 1 - share)
+        cells = []
+        for n in names:
+            r = np.vstack(rows[n])[top]
+            z = np.abs(r[:, 1] - r[:, 2]) / r[:, 3]
+            cells.append(f"{n} {np.mean(z < 1):.3f}/{np.mean(z < 2):.3f}")
+        print(f"{ARGS.dataset} outer {ARGS.outer}: cov68/cov95 in the {share:.0%} of rows where "
+              f"{'+'.join(first)} disagree most ({np.sum(top)} rows, spread/mean var ≥ "
+              f"{np.quantile(ratio, 1 - share):.3f}): " + ", ".join(cells))
 
 
 if ARGS.paired:
