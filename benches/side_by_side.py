@@ -92,7 +92,8 @@ mean ± 1 sd and mean ± 2 sd (for mettle: its own density and central intervals
 median fit time per method and the ratios of median fit times method / mettle
 (and the median of the per-split ratios), both in wall time and in CPU time (user + system
 of all threads; for mettle, of the child process). Under it, paired differences over the
-splits (A − B, mean ± paired SE, and on how many splits A is ahead) in RMSE and test LL:
+splits (A − B, mean ± paired SE; for RMSE and test LL also on how many splits A is ahead)
+in RMSE, test LL and both coverages:
 every method against mettle, and with a schema, mettle with it against CatBoost and against
 CatBoost with cat_features, and CatBoost with cat_features against plain CatBoost. On a machine
 shared with other jobs the CPU ratio is the steadier of the two: a process with two busy
@@ -497,6 +498,7 @@ def run_dataset(name, data_dir, binary, work):
                 fit_catboost(train, test, k, ARGS.threads, header[:-1], codes))
         line = " | ".join(
             f"{m} rmse {r[-1][0]['rmse']:.3f} ll {r[-1][0]['ll']:.3f} "
+            f"cov {r[-1][0]['cov68']:.3f}/{r[-1][0]['cov95']:.3f} "
             f"{r[-1][1][0]:.1f} s ({r[-1][1][1]:.1f} s CPU)"
             for m, r in results.items()
         )
@@ -632,18 +634,23 @@ def markdown(name, results, n, schema=None, codes=()):
             "Paired differences over the splits (A − B, mean ± paired SE; negative RMSE and "
             "positive LL differences favour A):",
             "",
-            "| A − B | RMSE A − B | A's RMSE lower on | test LL A − B | A's LL higher on |",
-            "|---|---|---|---|---|",
+            "| A − B | RMSE A − B | A's RMSE lower on | test LL A − B | A's LL higher on "
+            "| coverage 68 % A − B | coverage 95 % A − B |",
+            "|---|---|---|---|---|---|---|",
         ]
         for a, b in pairs:
             rows = list(zip(results[a], results[b]))
             d_rmse = [sa["rmse"] - sb["rmse"] for (sa, _), (sb, _) in rows]
             d_ll = [sa["ll"] - sb["ll"] for (sa, _), (sb, _) in rows]
             (mr, ser), (ml, sel) = mean_se(d_rmse), mean_se(d_ll)
+            cov = []
+            for key in ("cov68", "cov95"):
+                mc, sec = mean_se([sa[key] - sb[key] for (sa, _), (sb, _) in rows])
+                cov.append(f"{mc:+.3f} ± {sec:.3f}")
             out.append(
                 f"| {SHORT[a]} − {SHORT[b]} | {mr:+.4f} ± {ser:.4f} | "
                 f"{sum(d < 0 for d in d_rmse)} / {n} | {ml:+.3f} ± {sel:.3f} | "
-                f"{sum(d > 0 for d in d_ll)} / {n} |"
+                f"{sum(d > 0 for d in d_ll)} / {n} | {cov[0]} | {cov[1]} |"
             )
     out.append("")
     return "\n".join(out)
