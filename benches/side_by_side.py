@@ -12,12 +12,25 @@ an hour on 2 cores, mettle alone on the 20 splits of all four sets about half an
     python3 benches/side_by_side.py --datasets concrete,energy,yacht,wine-quality-red \
         --methods mettle,catboost --markdown /tmp/side_by_side.md            # issue 29's table
     python3 benches/side_by_side.py --splits 2                              # a quick look
+    python3 benches/side_by_side.py --datasets energy \
+        --methods mettle,mettle-schema,catboost,catboost-cat \
+        --schema energy=benches/schemas/energy.toml --markdown /tmp/energy-schema.md
+                                         # energy's glazing code declared, beside the plain runs
+    python3 benches/side_by_side.py --datasets concrete,energy,yacht,wine-quality-red \
+        --methods mettle,mettle-schema,catboost,catboost-cat \
+        --schema energy=benches/schemas/energy.toml --mettle-args "--partitions 2"
+                                         # the schema rows only on energy; options for mettle
 
 Options: --datasets A,B,... (default concrete; any of concrete, energy, yacht,
 wine-quality-red), --methods A,B,... (default mettle,gp,mlp,catboost; a run can leave out
-slow ones), --data-root DIR (the folder holding one folder per data set; default:
-$METTLE_SHARED/datasets/uci, else /work/shared/datasets/uci, else ../shared/datasets/uci
-from the repository root), --mettle PATH (default: $CARGO_TARGET_DIR/release/mettle, else
+slow ones; also mettle-schema and catboost-cat, see e. and f.), --schema DATASET=PATH
+(repeatable: a schema for that data set, used by mettle-schema and catboost-cat; on a set
+without one those two methods are skipped, so one run can mix sets with and without a
+schema), --mettle-args "ARGS" (extra `mettle train` options, one quoted string, given to
+both mettle rows and printed in every table's heading and row name; a single option without
+a space is written --mettle-args=--OPTION), --data-root DIR (the folder holding one folder
+per data set; default: $METTLE_SHARED/datasets/uci, else /work/shared/datasets/uci, else
+../shared/datasets/uci from the repository root), --mettle PATH (default: $CARGO_TARGET_DIR/release/mettle, else
 ~/.cache/mettle/target/release/mettle), --splits N, --first-split K, --threads T (default 2),
 --gp-restarts R (default 2), --mlp-members M (default 5), --markdown FILE, --keep DIR,
 --max-minutes M (per data set).
@@ -59,13 +72,30 @@ split, in this order:
      deviation"); sd = sqrt(variance). This is the data (noise) variance alone: CatBoost's
      default model has no knowledge-uncertainty term (that needs posterior sampling and a
      virtual ensemble, not default settings).
+  e. mettle-schema (only on a set given a --schema): as a., trained with
+     `mettle train --schema PATH` (and the same --mettle-args); the model keeps a copy of the
+     schema, and predict and evaluate read the test table through it, so they take no schema.
+     The schema must name the data set's last column as its only target. Its row is
+     "mettle (..., schema NAME)". benches/schemas/energy.toml declares energy's glazing area
+     distribution a code (kind = "levels", docs/schema.md "Codes"): a declaration of what
+     the column is, the user's knowledge of the data, not a setting tuned on these splits.
+  f. catboost-cat (only on a set given a --schema): as d., with cat_features = the columns
+     the schema declares `kind = "levels"` (given as integers), every other setting CatBoost's
+     default, so both methods are told the same thing about the data. With its defaults
+     CatBoost one-hot encodes a categorical input only up to one_hot_max_size = 2 levels
+     (get_all_params() of catboost 1.2.10 on CPU); a code with more levels becomes its
+     ordered target statistics (CTRs).
 
 Scores on the test part only: RMSE, test log-likelihood LL = mean log N(y | mean, sd^2)
 (natural log, target in its own units; LL = -NLPD), and the share of test rows inside
 mean ± 1 sd and mean ± 2 sd (for mettle: its own density and central intervals, see a.). The table gives mean ± standard error over the splits, the
-median fit time per method and the ratios of median fit times GP / mettle and
-MLP ensemble / mettle (and the median of the per-split ratios), both in wall time and in
-CPU time (user + system of all threads; for mettle, of the child process). On a machine
+median fit time per method and the ratios of median fit times method / mettle
+(and the median of the per-split ratios), both in wall time and in CPU time (user + system
+of all threads; for mettle, of the child process). Under it, paired differences over the
+splits (A − B, mean ± paired SE; for RMSE and test LL also on how many splits A is ahead)
+in RMSE, test LL and both coverages:
+every method against mettle, and with a schema, mettle with it against CatBoost and against
+CatBoost with cat_features, and CatBoost with cat_features against plain CatBoost. On a machine
 shared with other jobs the CPU ratio is the steadier of the two: a process with two busy
 threads gets a larger share of a loaded machine than one with one busy thread.
 
@@ -84,18 +114,23 @@ import math
 import os
 import platform
 import resource
+import shlex
 import shutil
 import subprocess
 import sys
 import tempfile
 import time
+import tomllib
 from pathlib import Path
 
 REPO = Path(__file__).resolve().parent.parent
 
 
 DATASETS = ("concrete", "energy", "yacht", "wine-quality-red")
-METHODS = ("mettle", "gp", "mlp", "catboost")
+METHODS = ("mettle", "mettle-schema", "gp", "mlp", "catboost", "catboost-cat")
+DEFAULT_METHODS = ("mettle", "gp", "mlp", "catboost")
+# methods that need a data set's --schema; skipped on a set without one
+SCHEMA_METHODS = ("mettle-schema", "catboost-cat")
 
 
 def parse_args():
@@ -106,11 +141,18 @@ def parse_args():
     )
     p.add_argument("--datasets", default="concrete",
                    help="comma-separated data sets (default concrete): " + ",".join(DATASETS))
-    p.add_argument("--methods", default=",".join(METHODS),
-                   help="comma-separated methods (default all): " + ",".join(METHODS))
+    p.add_argument("--methods", default=",".join(DEFAULT_METHODS),
+                   help="comma-separated methods (default " + ",".join(DEFAULT_METHODS)
+                   + "): any of " + ",".join(METHODS))
     p.add_argument("--data-root", type=Path, default=None,
                    help="folder with one folder per data set (data.csv and splits/)")
     p.add_argument("--mettle", type=Path, default=None, help="the mettle release binary")
+    p.add_argument("--mettle-args", default="",
+                   help="extra `mettle train` options for mettle and mettle-schema, one "
+                   "quoted string (e.g. \"--partitions 2\"); printed in each table's heading")
+    p.add_argument("--schema", action="append", default=[], metavar="DATASET=PATH",
+                   help="a schema (TOML) for one data set, repeatable; used by the methods "
+                   "mettle-schema and catboost-cat, which are skipped on sets without one")
     p.add_argument("--splits", type=int, default=20, help="number of splits (default 20)")
     p.add_argument("--first-split", type=int, default=0, help="first split index (default 0)")
     p.add_argument("--threads", type=int, default=2, help="threads for every method (default 2)")
@@ -137,6 +179,23 @@ def parse_args():
             p.error(f"unknown method {m!r}; known: {', '.join(METHODS)}")
     # table order is the canonical order, whatever order was asked for
     args.methods = [m for m in METHODS if m in args.methods]
+    args.mettle_args = shlex.split(args.mettle_args)
+    schemas = {}
+    for s in args.schema:
+        name, sep, path = s.partition("=")
+        if not sep or not path:
+            p.error(f"--schema {s!r}: expected DATASET=PATH")
+        if name not in DATASETS:
+            p.error(f"--schema {s!r}: unknown data set {name!r}; known: {', '.join(DATASETS)}")
+        if name in schemas:
+            p.error(f"--schema given twice for {name}")
+        path = Path(path).resolve()
+        if not path.is_file():
+            p.error(f"--schema {s!r}: {path} is not a file")
+        schemas[name] = path
+    args.schema = schemas
+    if any(m in SCHEMA_METHODS for m in args.methods) and not schemas:
+        p.error("methods " + ", ".join(SCHEMA_METHODS) + " need --schema DATASET=PATH")
     return args
 
 
@@ -154,8 +213,10 @@ if "gp" in ARGS.methods or "mlp" in ARGS.methods:
     from sklearn.gaussian_process import GaussianProcessRegressor  # noqa: E402
     from sklearn.gaussian_process.kernels import RBF, ConstantKernel, WhiteKernel  # noqa: E402
     from sklearn.neural_network import MLPRegressor  # noqa: E402
-if "catboost" in ARGS.methods:
+if "catboost" in ARGS.methods or "catboost-cat" in ARGS.methods:
     import catboost  # noqa: E402
+if "catboost-cat" in ARGS.methods:
+    import pandas  # noqa: E402
 
 
 def find_data_root(given):
@@ -235,14 +296,36 @@ def run(cmd, env):
     return p.stdout
 
 
-def fit_mettle(binary, work, header, train, test, threads):
+def read_schema(path, header):
+    """The columns a schema declares as codes (kind = "levels"), after checking that its
+    target is the data set's target (the last column) and that every code is a column."""
+    with open(path, "rb") as f:
+        schema = tomllib.load(f)
+    columns = schema.get("column", [])
+    targets = [c["name"] for c in columns if c.get("role") == "target"]
+    if targets != [header[-1]]:
+        sys.exit(f"{path}: its targets {targets} are not the data set's target [{header[-1]!r}]")
+    codes = [c["name"] for c in columns if c.get("kind") == "levels"]
+    for c in codes:
+        if c not in header[:-1]:
+            sys.exit(f"{path}: code column {c!r} is not an input of the data set ({header})")
+    return codes
+
+
+def fit_mettle(binary, work, header, train, test, threads, extra, schema=None):
+    """mettle train (with `extra` options; with --schema when a schema is given), predict and
+    evaluate on one split. A model trained with a schema keeps a copy of it, and predict and
+    evaluate read the test table through it (docs/schema.md), so they take no schema."""
     target = header[-1]
     train_csv, test_csv, model = work / "train.csv", work / "test.csv", work / "m.json"
     write_csv(train_csv, header, train)
     write_csv(test_csv, header, test)
     env = dict(os.environ, RAYON_NUM_THREADS=str(threads))
+    cmd = [binary, "train", "--data", train_csv, "--target", target, "--out", model, "--quiet"]
+    if schema is not None:
+        cmd += ["--schema", schema]
     with Clock(children=True) as clock:
-        run([binary, "train", "--data", train_csv, "--target", target, "--out", model, "--quiet"], env)
+        run(cmd + extra, env)
     out = json.loads(
         run([binary, "predict", "--model", model, "--input", test_csv, "--format", "json"], env)
     )
@@ -309,17 +392,36 @@ def fit_mlp_ensemble(train, test, members, hidden, seed):
     return scores(test[:, -1], mean, sd), clock.times
 
 
-def fit_catboost(train, test, seed, threads):
+def catboost_frame(x, names, codes):
+    """The inputs as a table whose code columns hold integers (CatBoost refuses a
+    categorical feature given as a real number)."""
+    frame = pandas.DataFrame(x, columns=names)
+    for c in codes:
+        col = frame[c].to_numpy()
+        if not np.all(col == np.round(col)):
+            sys.exit(f"code column {c!r} holds a value that is not a whole number")
+        frame[c] = col.astype(np.int64)
+    return frame
+
+
+def fit_catboost(train, test, seed, threads, names=None, codes=()):
+    """CatBoost with default settings (RMSEWithUncertainty); with `codes`, those input
+    columns are given as cat_features (CatBoost's own handling of categorical inputs, its
+    defaults), every other setting the same."""
     model = catboost.CatBoostRegressor(
         loss_function="RMSEWithUncertainty",
         random_seed=seed,
         thread_count=threads,
         verbose=False,
         allow_writing_files=False,
+        cat_features=list(codes) if codes else None,
     )
+    xtr, xte = train[:, :-1], test[:, :-1]
+    if codes:
+        xtr, xte = catboost_frame(xtr, names, codes), catboost_frame(xte, names, codes)
     with Clock() as clock:
-        model.fit(train[:, :-1], train[:, -1])
-    pred = np.asarray(model.predict(test[:, :-1], prediction_type="RMSEWithUncertainty"))
+        model.fit(xtr, train[:, -1])
+    pred = np.asarray(model.predict(xte, prediction_type="RMSEWithUncertainty"))
     mean, var = pred[:, 0], pred[:, 1]
     return scores(test[:, -1], mean, np.sqrt(var)), clock.times
 
@@ -339,8 +441,10 @@ def versions():
              f"scipy {scipy.__version__}"]
     if "gp" in ARGS.methods or "mlp" in ARGS.methods:
         parts.append(f"scikit-learn {sklearn.__version__}")
-    if "catboost" in ARGS.methods:
+    if "catboost" in ARGS.methods or "catboost-cat" in ARGS.methods:
         parts.append(f"catboost {catboost.__version__}")
+    if "catboost-cat" in ARGS.methods:
+        parts.append(f"pandas {pandas.__version__}")
     blas = [(i["internal_api"], i["version"], i["num_threads"]) for i in threadpool_info()]
     return ", ".join(parts) + f", BLAS {blas}"
 
@@ -350,7 +454,15 @@ def run_dataset(name, data_dir, binary, work):
     header, data = read_csv(data_dir / "data.csv")
     print(f"== {name}: {data_dir} ({data.shape[0]} rows, {data.shape[1] - 1} inputs, "
           f"target {header[-1]})", flush=True)
-    results = {m: [] for m in ARGS.methods}
+    schema = ARGS.schema.get(name)
+    codes = read_schema(schema, header) if schema is not None else []
+    methods = [m for m in ARGS.methods if schema is not None or m not in SCHEMA_METHODS]
+    if schema is not None:
+        print(f"schema {schema}: codes {', '.join(codes) or '(none)'}", flush=True)
+    skipped = [m for m in ARGS.methods if m not in methods]
+    if skipped:
+        print(f"no --schema for {name}: skipping {', '.join(skipped)}", flush=True)
+    results = {m: [] for m in methods}
     splits = range(ARGS.first_split, ARGS.first_split + ARGS.splits)
     started, done = time.perf_counter(), 0
     for k in splits:
@@ -366,7 +478,13 @@ def run_dataset(name, data_dir, binary, work):
         if "mettle" in results:
             sw = work / name / f"split_{k}"
             sw.mkdir(parents=True, exist_ok=True)
-            results["mettle"].append(fit_mettle(binary, sw, header, train, test, ARGS.threads))
+            results["mettle"].append(
+                fit_mettle(binary, sw, header, train, test, ARGS.threads, ARGS.mettle_args))
+        if "mettle-schema" in results:
+            sw = work / name / f"split_{k}_schema"
+            sw.mkdir(parents=True, exist_ok=True)
+            results["mettle-schema"].append(fit_mettle(
+                binary, sw, header, train, test, ARGS.threads, ARGS.mettle_args, schema))
         if "gp" in results:
             s, t, kern = fit_gp(train, test, ARGS.gp_restarts, k)
             results["gp"].append((s, t))
@@ -375,8 +493,12 @@ def run_dataset(name, data_dir, binary, work):
                 fit_mlp_ensemble(train, test, ARGS.mlp_members, ARGS.mlp_hidden, k))
         if "catboost" in results:
             results["catboost"].append(fit_catboost(train, test, k, ARGS.threads))
+        if "catboost-cat" in results:
+            results["catboost-cat"].append(
+                fit_catboost(train, test, k, ARGS.threads, header[:-1], codes))
         line = " | ".join(
             f"{m} rmse {r[-1][0]['rmse']:.3f} ll {r[-1][0]['ll']:.3f} "
+            f"cov {r[-1][0]['cov68']:.3f}/{r[-1][0]['cov95']:.3f} "
             f"{r[-1][1][0]:.1f} s ({r[-1][1][1]:.1f} s CPU)"
             for m, r in results.items()
         )
@@ -384,17 +506,22 @@ def run_dataset(name, data_dir, binary, work):
         if kern is not None:
             print(f"  GP kernel: {kern}", flush=True)
         done += 1
-    return results, done
+    return results, done, schema, codes
 
 
 def main():
     root = find_data_root(ARGS.data_root)
-    binary = find_mettle(ARGS.mettle) if "mettle" in ARGS.methods else None
+    uses_mettle = "mettle" in ARGS.methods or "mettle-schema" in ARGS.methods
+    binary = find_mettle(ARGS.mettle) if uses_mettle else None
     if binary is not None:
         version = run([binary, "--version"], dict(os.environ)).strip()
         print(f"{version} at {binary}")
     print(versions())
     print(f"data sets {', '.join(ARGS.datasets)} under {root}; methods {', '.join(ARGS.methods)}")
+    if uses_mettle:
+        print(f"mettle train options: {mettle_options()}")
+    for name, path in ARGS.schema.items():
+        print(f"schema for {name}: {path}")
     print(f"threads {ARGS.threads}, GP restarts {ARGS.gp_restarts}, "
           f"MLP ensemble {ARGS.mlp_members} x {ARGS.mlp_hidden} ReLU")
     print(f"start {time.strftime('%Y-%m-%d %H:%M:%S UTC', time.gmtime())}, {loadavg()}")
@@ -406,8 +533,8 @@ def main():
             data_dir = root / name
             if not (data_dir / "data.csv").is_file():
                 sys.exit(f"{data_dir / 'data.csv'}: not found")
-            results, done = run_dataset(name, data_dir, binary, work)
-            tables.append(markdown(name, results, done))
+            results, done, schema, codes = run_dataset(name, data_dir, binary, work)
+            tables.append(markdown(name, results, done, schema, codes))
             print(tables[-1], flush=True)
     print(f"end {time.strftime('%Y-%m-%d %H:%M:%S UTC', time.gmtime())}, {loadavg()}")
     if ARGS.keep is None:
@@ -419,13 +546,44 @@ def main():
         ARGS.markdown.write_text(text, encoding="utf-8")
 
 
-def markdown(name, results, n):
-    names = {
-        "mettle": "mettle (default committee)",
+def mettle_options():
+    """The `mettle train` options of the mettle rows, as printed in the log and headings."""
+    return shlex.join(ARGS.mettle_args) if ARGS.mettle_args else "(defaults)"
+
+
+def method_names(schema, codes):
+    plain = "mettle (default committee)" if not ARGS.mettle_args else f"mettle ({mettle_options()})"
+    schema_name = schema.name if schema is not None else "?"
+    return {
+        "mettle": plain,
+        "mettle-schema": plain[:-1] + f", schema {schema_name})",
         "gp": f"scikit-learn GP, ARD RBF + white noise ({ARGS.gp_restarts} restarts)",
         "mlp": f"{ARGS.mlp_members} scikit-learn MLPs ({ARGS.mlp_hidden} ReLU), cross-fitted noise",
         "catboost": "CatBoost, default settings, RMSEWithUncertainty",
+        "catboost-cat": "CatBoost, default settings, RMSEWithUncertainty, cat_features "
+        + (", ".join(codes) or "(none)"),
     }
+
+
+SHORT = {"mettle": "mettle", "mettle-schema": "mettle with the schema", "gp": "GP",
+         "mlp": "MLP ensemble", "catboost": "CatBoost", "catboost-cat": "CatBoost with cat_features"}
+
+
+def paired_pairs(methods):
+    """(A, B) pairs whose per-split differences A - B are reported: every method against
+    mettle; with a schema, mettle with it against plain CatBoost and CatBoost with the codes,
+    and CatBoost with the codes against plain CatBoost."""
+    base = "mettle" if "mettle" in methods else None
+    pairs = [(m, base) for m in methods if base and m != base]
+    for a, b in (("mettle-schema", "catboost"), ("mettle-schema", "catboost-cat"),
+                 ("catboost-cat", "catboost")):
+        if a in methods and b in methods:
+            pairs.append((a, b))
+    return pairs
+
+
+def markdown(name, results, n, schema=None, codes=()):
+    names = method_names(schema, codes)
     base = "mettle" if "mettle" in results else None
 
     def med(m, i):
@@ -445,13 +603,14 @@ def markdown(name, results, n):
     else:
         head += "| median fit CPU s |"
         rule += "---|"
-    out = [
-        f"{name}, {n} splits ({ARGS.first_split}..{ARGS.first_split + n - 1}), "
-        f"{ARGS.threads} threads per method; mean ± SE over splits.",
-        "",
-        head,
-        rule,
-    ]
+    heading = (f"{name}, {n} splits ({ARGS.first_split}..{ARGS.first_split + n - 1}), "
+               f"{ARGS.threads} threads per method; mean ± SE over splits.")
+    if "mettle" in results or "mettle-schema" in results:
+        heading += f" mettle train options: {mettle_options()}."
+    if schema is not None:
+        shown = schema.relative_to(REPO) if schema.is_relative_to(REPO) else schema
+        heading += f" Schema {shown}; codes: {', '.join(codes) or '(none)'}."
+    out = [heading, "", head, rule]
     for m, r in results.items():
         cells = []
         for key in ("rmse", "ll", "cov68", "cov95"):
@@ -467,20 +626,31 @@ def markdown(name, results, n):
             "",
             "Ratios: median fit time of the method / median fit time of mettle; in brackets the "
             "median over splits of the per-split ratio. CPU = user + system time of all threads.",
-            "",
         ]
-        for m in results:
-            if m == base:
-                continue
-            pairs = list(zip(results[m], results[base]))
-            ll = sum(s["ll"] < sm["ll"] for (s, _), (sm, _) in pairs)
-            rm = sum(s["rmse"] > sm["rmse"] for (s, _), (sm, _) in pairs)
-            d = [s["rmse"] - sm["rmse"] for (s, _), (sm, _) in pairs]
-            mu, se = mean_se(d)
+    pairs = paired_pairs(list(results))
+    if pairs:
+        out += [
+            "",
+            "Paired differences over the splits (A − B, mean ± paired SE; negative RMSE and "
+            "positive LL differences favour A):",
+            "",
+            "| A − B | RMSE A − B | A's RMSE lower on | test LL A − B | A's LL higher on "
+            "| coverage 68 % A − B | coverage 95 % A − B |",
+            "|---|---|---|---|---|---|---|",
+        ]
+        for a, b in pairs:
+            rows = list(zip(results[a], results[b]))
+            d_rmse = [sa["rmse"] - sb["rmse"] for (sa, _), (sb, _) in rows]
+            d_ll = [sa["ll"] - sb["ll"] for (sa, _), (sb, _) in rows]
+            (mr, ser), (ml, sel) = mean_se(d_rmse), mean_se(d_ll)
+            cov = []
+            for key in ("cov68", "cov95"):
+                mc, sec = mean_se([sa[key] - sb[key] for (sa, _), (sb, _) in rows])
+                cov.append(f"{mc:+.3f} ± {sec:.3f}")
             out.append(
-                f"Against {names[m]}: mettle's test LL higher on {ll} / {n} splits, its RMSE "
-                f"lower on {rm} / {n}; RMSE difference (method − mettle) {mu:+.3f} ± {se:.3f} "
-                "(paired SE)."
+                f"| {SHORT[a]} − {SHORT[b]} | {mr:+.4f} ± {ser:.4f} | "
+                f"{sum(d < 0 for d in d_rmse)} / {n} | {ml:+.3f} ± {sel:.3f} | "
+                f"{sum(d > 0 for d in d_ll)} / {n} | {cov[0]} | {cov[1]} |"
             )
     out.append("")
     return "\n".join(out)
