@@ -79,7 +79,13 @@ fn archive(seed: u64, grades: usize, heats: usize, two_codes: bool) -> Archive {
                 second
             });
             let u: f64 = rng.random();
-            gas.push(if u < 0.5 { 0 } else if u < 0.8 { 1 } else { 2 });
+            gas.push(if u < 0.5 {
+                0
+            } else if u < 0.8 {
+                1
+            } else {
+                2
+            });
         }
     }
     Archive {
@@ -180,9 +186,11 @@ impl Guard {
 fn hole_at_level(a: &Archive, train: &[usize], q: &[f64], codes: &[(usize, usize)]) -> bool {
     let range: Vec<f64> = (0..QUANTITIES)
         .map(|j| {
-            let (lo, hi) = train.iter().fold((f64::INFINITY, f64::NEG_INFINITY), |(l, h), &i| {
-                (l.min(a.q[[i, j]]), h.max(a.q[[i, j]]))
-            });
+            let (lo, hi) = train
+                .iter()
+                .fold((f64::INFINITY, f64::NEG_INFINITY), |(l, h), &i| {
+                    (l.min(a.q[[i, j]]), h.max(a.q[[i, j]]))
+                });
             hi - lo
         })
         .collect();
@@ -312,7 +320,10 @@ const SEEDS: [u64; 10] = [1, 2, 3, 4, 5, 6, 7, 8, 9, 10];
 /// the rare route caught at least 95 %.
 fn assert_targets(m: &[Measured]) {
     let (by_level, without) = (&m[0], &m[3]);
-    assert_eq!((by_level.layout, without.layout), (Layout::ByLevel, Layout::Without));
+    assert_eq!(
+        (by_level.layout, without.layout),
+        (Layout::ByLevel, Layout::Without)
+    );
     let (held, holes) = (by_level.held, by_level.holes);
     assert!(held.n > 400 && holes.n > 1000, "{held:?} {holes:?}");
     assert!(held.rate() <= 0.02, "held-out rows: {}", held.text());

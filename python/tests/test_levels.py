@@ -85,17 +85,17 @@ def test_predict_by_level_name_by_integer_and_as_categorical(coded):
     assert est[0]["in_domain"].all()
 
 
-def test_the_same_estimates_as_the_cli(coded, mettle_bin):
-    d, m = coded
-    q = pd.DataFrame({"x": [0.2, 0.8, 0.5], "gas": ["argon", "2", "none"]})
-    q.to_csv(d / "q.csv", index=False)
-    p = run_cli(mettle_bin, ["predict", "--model", "m.json", "--input", "q.csv", "--format", "csv"], d)
-    assert p.returncode == 0, p.stderr
-    from io import StringIO
+def test_the_same_estimates_and_verdicts_as_the_cli(coded, mettle_bin):
+    from test_cli_parity import _assert_same_estimates, _cli_estimates
 
-    cli = pd.read_csv(StringIO(p.stdout))
-    ours = m.predict(q)
-    np.testing.assert_array_equal(ours["y_mean"].to_numpy(), cli["y_mean"].to_numpy())
+    d, m = coded
+    # by name, by code as text, and x beyond the range: an 'outside' verdict
+    q = pd.DataFrame({"x": [0.2, 0.8, 0.5, 1.6], "gas": ["argon", "2", "none", "argon"]})
+    q.to_csv(d / "q.csv", index=False)
+    cli = _cli_estimates(mettle_bin, d / "m.json", d / "q.csv", d)
+    py = m.predict(q)
+    _assert_same_estimates(py, cli, ["y"])
+    assert py["domain"][3] == "outside" and py["in_domain"][:3].all()
 
 
 def test_an_unseen_level_is_refused_with_source_row_and_column(coded, mettle_bin):
@@ -110,7 +110,7 @@ def test_an_unseen_level_is_refused_with_source_row_and_column(coded, mettle_bin
     # the CLI's message for the same rows in a file of that name
     q.to_csv(d / "q_unseen.csv", index=False)
     p = run_cli(mettle_bin, ["predict", "--model", "m.json", "--input", "q_unseen.csv"], d)
-    assert cli_error(p) == msg
+    assert cli_error(p) == f"estimating with model m.json: {msg}"
     # by integer too
     with pytest.raises(mettle.DataError, match="3 = helium"):
         m.predict(pd.DataFrame({"x": [0.5], "gas": [3]}))

@@ -56,7 +56,9 @@
 use crate::fixedmath::FixedMath;
 mod physical;
 
-pub use crate::model::{pair_cells, CodeReference, DomainReference, LevelNear, NearMeasure, PairGrid};
+pub use crate::model::{
+    pair_cells, CodeReference, DomainReference, LevelNear, NearMeasure, PairGrid,
+};
 pub use physical::{physical_bound, PhysicalBound};
 
 use ndarray::{s, Array2, ArrayView1, ArrayView2, Axis};
@@ -749,7 +751,10 @@ fn level_note(
                 .iter()
                 .map(|&j| shown.inputs[j].name.as_str())
                 .collect();
-            format!("at the level with none of {} (the implied level)", names.join(", "))
+            format!(
+                "at the level with none of {} (the implied level)",
+                names.join(", ")
+            )
         }
     };
     format!(
@@ -1111,10 +1116,17 @@ mod tests {
                 && note.contains("x 0.9 against 0.35"),
             "{note}"
         );
-        for ok in [[0.2, 0.5, 1.0, 0.0], [0.9, 0.5, 0.0, 1.0], [0.35, 0.05, 1.0, 0.0]] {
+        for ok in [
+            [0.2, 0.5, 1.0, 0.0],
+            [0.9, 0.5, 0.0, 1.0],
+            [0.35, 0.05, 1.0, 0.0],
+        ] {
             let v = check(&inputs, Some(&r), ArrayView1::from(&ok));
             assert!(v.in_domain, "{ok:?}: {:?}", v.notes);
-            assert!(!v.notes.iter().any(|n| n.contains("do not vouch")), "{ok:?}");
+            assert!(
+                !v.notes.iter().any(|n| n.contains("do not vouch")),
+                "{ok:?}"
+            );
         }
     }
 

@@ -466,6 +466,18 @@ impl DomainReference {
             .collect()
     }
 
+    /// Their sum, summed input by input in the same order.
+    fn weighted_dist2(&self, w: &[f64], scaled: &[f64], i: usize) -> f64 {
+        let d = self.n_inputs;
+        let row = &self.scaled_rows[i * d..(i + 1) * d];
+        scaled
+            .iter()
+            .zip(row)
+            .zip(w)
+            .map(|((a, b), w)| (w * (a - b)) * (w * (a - b)))
+            .sum()
+    }
+
     /// The [`DOMAIN_REFERENCE_QUANTILE`] quantile of the stored rows'
     /// leave-one-out within-level distances for code `c` (NaN when no row
     /// shares its level with another).
@@ -481,7 +493,7 @@ impl DomainReference {
                 let xi = &self.scaled_rows[i * d..(i + 1) * d];
                 (0..n)
                     .filter(|&j| j != i && levels[j] == levels[i])
-                    .map(|j| self.weighted_gaps(w, xi, j).iter().sum::<f64>())
+                    .map(|j| self.weighted_dist2(w, xi, j))
                     .fold(f64::INFINITY, f64::min)
                     .sqrt()
             })
@@ -506,7 +518,7 @@ impl DomainReference {
                     if self.level_of(c, &self.scaled_rows[i * d..(i + 1) * d]) != level {
                         continue;
                     }
-                    let d2: f64 = self.weighted_gaps(&w, scaled, i).iter().sum();
+                    let d2 = self.weighted_dist2(&w, scaled, i);
                     if best.is_none_or(|(b, _)| d2 < b) {
                         best = Some((d2, i));
                     }
