@@ -15,6 +15,7 @@
 
 use mettle::domain::{check, DomainLevel, DomainReference, DomainVerdict};
 use mettle::features::ColumnScaling;
+use mettle::fixedmath::FixedMath;
 use mettle::model::InputColumn;
 use ndarray::{Array1, Array2};
 use rand::{Rng, SeedableRng};
@@ -49,7 +50,7 @@ fn normal(rng: &mut Xoshiro256PlusPlus) -> f64 {
     // Box–Muller (common practice, no source)
     let u: f64 = rng.random::<f64>().max(1e-300);
     let v: f64 = rng.random();
-    (-2.0 * u.ln()).sqrt() * (std::f64::consts::TAU * v).cos()
+    (-2.0 * u.ln_fixed()).sqrt() * (std::f64::consts::TAU * v).cos_fixed()
 }
 
 fn archive(seed: u64, grades: usize, heats: usize, two_codes: bool) -> Archive {
@@ -255,7 +256,7 @@ fn measure(two_codes: bool, seeds: &[u64]) -> Vec<Measured> {
         let row = |i: usize| a.q.row(i).to_vec();
         // holes: any row (training or held out) of a grade not holding the
         // rare route, at the rare route, far from every rare-route row
-        let holes: Vec<(Vec<f64>, Vec<(usize, usize)>)> = (0..n)
+        let holes: Vec<Query> = (0..n)
             .filter(|&i| a.route[i] != RARE_ROUTE)
             .map(|i| {
                 let mut c = codes_of(&a, i);
@@ -290,6 +291,9 @@ fn measure(two_codes: bool, seeds: &[u64]) -> Vec<Measured> {
     }
     out
 }
+
+/// A query: quantities and (level, levels) per code.
+type Query = (Vec<f64>, Vec<(usize, usize)>);
 
 /// One layout's tallies.
 struct Measured {
