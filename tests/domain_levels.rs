@@ -11,12 +11,18 @@
 //! The guard is built as `mettle train` builds it from the expanded
 //! training inputs, without a model (every input weighs 1 and there is no
 //! uncertainty signal), as `guard_rates_on_concrete` in
-//! tests/domain_sweep.rs measures it.
+//! tests/domain_sweep.rs measures it; and, in the last test, by
+//! `train --schema` with small committees (relevance weights and model
+//! uncertainty in the verdict). The rates are in docs/domain.md.
 
+use mettle::committee::CommitteeParams;
+use mettle::data::schema::Schema;
+use mettle::data::Table;
 use mettle::domain::{check, DomainLevel, DomainReference, DomainVerdict};
 use mettle::features::ColumnScaling;
 use mettle::fixedmath::FixedMath;
-use mettle::model::InputColumn;
+use mettle::model::{InputColumn, Model, SchemaTrainOptions};
+use mettle::observer::Silent as NoObserver;
 use ndarray::{Array1, Array2};
 use rand::{Rng, SeedableRng};
 use rand_xoshiro::Xoshiro256PlusPlus;
@@ -185,6 +191,18 @@ impl Guard {
 /// No training row at the route of `codes` within ±[`HOLE_HALF_WIDTH`] of every
 /// quantity's training range of `q`.
 fn hole_at_level(a: &Archive, train: &[usize], q: &[f64], codes: &[(usize, usize)]) -> bool {
+    let all: Vec<usize> = (0..QUANTITIES).collect();
+    hole_at_level_in(a, train, q, codes, &all)
+}
+
+/// As [`hole_at_level`] in the quantities `of` only.
+fn hole_at_level_in(
+    a: &Archive,
+    train: &[usize],
+    q: &[f64],
+    codes: &[(usize, usize)],
+    of: &[usize],
+) -> bool {
     let range: Vec<f64> = (0..QUANTITIES)
         .map(|j| {
             let (lo, hi) = train
@@ -198,7 +216,10 @@ fn hole_at_level(a: &Archive, train: &[usize], q: &[f64], codes: &[(usize, usize
     train
         .iter()
         .filter(|&&i| a.route[i] == codes[0].0)
-        .all(|&i| (0..QUANTITIES).any(|j| (a.q[[i, j]] - q[j]).abs() > HOLE_HALF_WIDTH * range[j]))
+        .all(|&i| {
+            of.iter()
+                .any(|&j| (a.q[[i, j]] - q[j]).abs() > HOLE_HALF_WIDTH * range[j])
+        })
 }
 
 /// Counts of one measurement: rows, outside, thin.
@@ -292,8 +313,11 @@ fn measure(two_codes: bool, seeds: &[u64]) -> Vec<Measured> {
     out
 }
 
-/// A query: quantities and (level, levels) per code.
-type Query = (Vec<f64>, Vec<(usize, usize)>);
+/// (level, levels) per code of one row.
+type Codes = Vec<(usize, usize)>;
+
+/// A query: quantities and its codes.
+type Query = (Vec<f64>, Codes);
 
 /// One layout's tallies.
 struct Measured {
@@ -350,4 +374,164 @@ fn two_codes_held_out_rows_in_and_level_holes_caught() {
     let m = measure(true, &SEEDS);
     report("two codes (4 and 3 levels) + 6 quantities, 10 seeds", &m);
     assert_targets(&m);
+}
+
+/// The schema of the invented archive with the route (and gas) declared
+/// as codes, or as plain numbers (`declared` false).
+fn schema_text(two_codes: bool, declared: bool) -> String {
+    let mut s = String::from("mettle_schema = 1\n");
+    for j in 0..QUANTITIES {
+        s += &format!("[[column]]\nname = \"q{j}\"\nrole = \"input\"\nunit = \"1\"\n");
+    }
+    let mut code = |name: &str, levels: &str| {
+        s += &format!("[[column]]\nname = \"{name}\"\nrole = \"input\"\nunit = \"1\"\n");
+        if declared {
+            s += &format!("kind = \"levels\"\nlevels = {{ {levels} }}\n");
+        }
+    };
+    code(
+        "route",
+        r#"0 = "cast", 1 = "forged", 2 = "rolled", 3 = "remelted""#,
+    );
+    if two_codes {
+        code("gas", r#"0 = "argon", 1 = "mixed", 2 = "carbon_dioxide""#);
+    }
+    s += "[[column]]\nname = \"y\"\nrole = \"target\"\nunit = \"1\"\n";
+    s
+}
+
+/// Rows as a table (codes as integers) with an invented target:
+/// y = 2 q0 + q2 + a route effect (0, 0.5, −0.3, 0.8) + a gas effect
+/// (0, 0.2, −0.2) + a small deterministic wobble (zero for the queries).
+fn table(name: &str, q: &[Vec<f64>], codes: &[Vec<(usize, usize)>], wobble: bool) -> Table {
+    let n = q.len();
+    let mut cols: Vec<(String, Vec<f64>)> = (0..QUANTITIES)
+        .map(|j| (format!("q{j}"), q.iter().map(|r| r[j]).collect()))
+        .collect();
+    cols.push((
+        "route".into(),
+        codes.iter().map(|c| c[0].0 as f64).collect(),
+    ));
+    if codes[0].len() > 1 {
+        cols.push(("gas".into(), codes.iter().map(|c| c[1].0 as f64).collect()));
+    }
+    let y = (0..n)
+        .map(|i| {
+            let route = [0.0, 0.5, -0.3, 0.8][codes[i][0].0];
+            let gas = codes[i].get(1).map_or(0.0, |g| [0.0, 0.2, -0.2][g.0]);
+            let w = if wobble {
+                0.02 * ((i * 37 % 11) as f64 - 5.0) / 5.0
+            } else {
+                0.0
+            };
+            2.0 * q[i][0] + q[i][2] + route + gas + w
+        })
+        .collect();
+    cols.push(("y".into(), y));
+    Table::from_columns(name, cols).expect("table")
+}
+
+/// The quantities the invented target depends on: holes for a trained
+/// model are empty boxes in these (the guard weighs inputs by how much the
+/// committees use them, so a gap in a quantity the target ignores is, by
+/// design, no hole).
+const TARGET_DEPENDS_ON: [usize; 2] = [0, 2];
+
+/// Through `mettle train --schema` (small settings, one seed per archive):
+/// the full guard with the committees' relevance weights and model
+/// uncertainty, the code declared and as a plain number. Counts per
+/// (declared, number): held-out rows outside, holes outside.
+fn trained_rates(two_codes: bool, seeds: &[u64]) -> [(Tally, Tally); 2] {
+    let mut out = [(Tally::default(), Tally::default()); 2];
+    for &seed in seeds {
+        let a = archive(seed, 16, 30, two_codes);
+        let n = a.q.nrows();
+        let mut rng = Xoshiro256PlusPlus::seed_from_u64(seed ^ 0x5eed);
+        let held: Vec<bool> = (0..n).map(|_| rng.random::<f64>() < 0.2).collect();
+        let train: Vec<usize> = (0..n).filter(|&i| !held[i]).collect();
+        let test: Vec<usize> = (0..n).filter(|&i| held[i]).collect();
+        let row = |i: usize| a.q.row(i).to_vec();
+        let pick = |rows: &[usize]| -> (Vec<Vec<f64>>, Vec<Codes>) {
+            (
+                rows.iter().map(|&i| row(i)).collect(),
+                rows.iter().map(|&i| codes_of(&a, i)).collect(),
+            )
+        };
+        let holes: Vec<Query> = (0..n)
+            .filter(|&i| a.route[i] != RARE_ROUTE)
+            .map(|i| {
+                let mut c = codes_of(&a, i);
+                c[0].0 = RARE_ROUTE;
+                (row(i), c)
+            })
+            .filter(|(q, c)| hole_at_level_in(&a, &train, q, c, &TARGET_DEPENDS_ON))
+            .collect();
+        let (tq, tc) = pick(&train);
+        let (hq, hc) = pick(&test);
+        let (oq, oc): (Vec<_>, Vec<_>) = holes.into_iter().unzip();
+        for (k, declared) in [true, false].into_iter().enumerate() {
+            let schema =
+                Schema::from_toml(&schema_text(two_codes, declared), "s.toml").expect("schema");
+            let opts = SchemaTrainOptions {
+                params: CommitteeParams {
+                    hidden_min: 1,
+                    hidden_max: 3,
+                    restarts: 1,
+                    max_members: 3,
+                    seed,
+                    ..CommitteeParams::default()
+                },
+                ..SchemaTrainOptions::default()
+            };
+            let (model, _) = Model::train_with_schema(
+                &table("invented.csv", &tq, &tc, true),
+                &schema,
+                "s.toml",
+                &opts,
+                &NoObserver,
+            )
+            .expect("train");
+            assert_eq!(model.codes.is_empty(), !declared);
+            for p in model
+                .predict(&table("held.csv", &hq, &hc, false))
+                .expect("held")
+            {
+                out[k].0.n += 1;
+                out[k].0.outside += usize::from(p.level == DomainLevel::Outside);
+                out[k].0.thin += usize::from(p.level == DomainLevel::Thin);
+            }
+            if oq.is_empty() {
+                continue;
+            }
+            for p in model
+                .predict(&table("holes.csv", &oq, &oc, false))
+                .expect("holes")
+            {
+                out[k].1.n += 1;
+                out[k].1.outside += usize::from(p.level == DomainLevel::Outside);
+                out[k].1.thin += usize::from(p.level == DomainLevel::Thin);
+            }
+        }
+    }
+    out
+}
+
+/// The same two targets with trained models (their relevance weights and
+/// model uncertainty in the verdict), two codes, three seeds.
+#[test]
+fn trained_models_keep_held_out_rows_in_and_catch_level_holes() {
+    let [(held, holes), (held_num, holes_num)] = trained_rates(true, &[1, 2, 3]);
+    println!(
+        "trained, two codes, 3 seeds: declared: held-out rows {}; holes {}",
+        held.text(),
+        holes.text()
+    );
+    println!(
+        "trained, two codes, 3 seeds: as numbers: held-out rows {}; holes {}",
+        held_num.text(),
+        holes_num.text()
+    );
+    assert!(held.n > 200 && holes.n > 500, "{held:?} {holes:?}");
+    assert!(held.rate() <= 0.02, "held-out rows: {}", held.text());
+    assert!(holes.rate() >= 0.95, "holes: {}", holes.text());
 }
