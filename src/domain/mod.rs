@@ -52,6 +52,12 @@
 //! 4. **Support.** How many distinct training rows lie within the reference
 //!    distance D of the query (zero for a row the joint check rejects at
 //!    k = 1, f = 1; a handful for a row inside a well-covered region).
+//! 5. **Codes.** For an input declared as a code (its indicator inputs),
+//!    the nearest training row at the query's level only, in the
+//!    relevance-weighted distance over the other inputs, against the
+//!    training rows' own within-level 99th percentile
+//!    ([`CodeReference`]); the indicators leave the relevance-weighted
+//!    distance of the other checks.
 
 use crate::fixedmath::FixedMath;
 mod physical;
