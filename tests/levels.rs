@@ -87,6 +87,13 @@ fn a_declared_code_trains_on_indicators_and_is_recorded() {
         .map(|l| (l.code, l.training_rows))
         .collect();
     assert_eq!(rows, vec![(0, 21), (1, 21), (2, 21), (3, 0)]);
+    // the guard checks the code level by level: its indicators (inputs 1-3)
+    // leave the relevance-weighted distance and get a within-level reference
+    let guard = model.domain.as_ref().expect("reference");
+    assert_eq!(guard.codes.len(), 1);
+    assert_eq!(guard.codes[0].columns, vec![1, 2, 3]);
+    assert!(guard.codes[0].far.is_finite() && guard.codes[0].far > 0.0);
+    assert_eq!(&guard.weights()[1..], &[0.0; 3]);
     assert_eq!(
         model.codes[0].seen_text(),
         "0 = none, 1 = argon, 2 = carbon_dioxide"
@@ -433,6 +440,8 @@ fn an_implied_level_has_no_column_and_is_still_known() {
         .map(|l| l.training_rows)
         .collect();
     assert_eq!(rows, vec![21, 21, 21, 0]);
+    let guard = model.domain.as_ref().expect("reference");
+    assert_eq!(guard.codes[0].columns, vec![1, 2]);
     let v = model.domain_check(ndarray::array![0.5, 0.0, 0.0].view());
     assert!(!v.notes.iter().any(|n| n.contains("is a code")), "{v:?}");
     let p = model

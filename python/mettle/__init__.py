@@ -328,6 +328,66 @@ class Model:
         """The model card as a dict: the object ``mettle explain --format json`` prints."""
         return json.loads(self._raw.explain_json())
 
+    @property
+    def codes(self) -> dict[str, dict[int, str]]:
+        """The inputs the schema declares as codes (``kind = "levels"``): per
+        code column, its levels ``{code: name}`` in declared order, levels
+        no training row held included (a row at one is refused by
+        :meth:`predict`). Empty for a model without codes. The training row
+        count of each level is :meth:`code_levels`."""
+        return {c["name"]: {int(l["code"]): l["name"] for l in c["levels"]} for c in self._codes()}
+
+    def code_levels(self, frame: str | None = None):
+        """One row per declared level of every code: ``code`` (the column),
+        ``level`` (the integer), ``name``, ``indicator`` (the model's input
+        for it, ``COLUMN=LEVEL``) and ``training_rows`` (0: declared, never
+        seen in training, refused at prediction). A pandas DataFrame, or as
+        ``frame`` says (``polars``, ``dict``)."""
+        cols: dict[str, list] = {"code": [], "level": [], "name": [], "indicator": [], "training_rows": []}
+        for c in self._codes():
+            for l in c["levels"]:
+                cols["code"].append(c["name"])
+                cols["level"].append(int(l["code"]))
+                cols["name"].append(l["name"])
+                cols["indicator"].append(l["column"])
+                cols["training_rows"].append(int(l["training_rows"]))
+        return _frame(cols, None, _out_kind(None, frame or "pandas"), {})
+
+    def _codes(self) -> list:
+        return json.loads(self._raw.codes_json())
+
+    def relevance(self, by: str = "column", frame: str | None = None):
+        """Each input's relevance per target (ARD: the most relevant input of
+        a target is 1), as ``mettle explain`` shows it: one row per input,
+        one column per target. ``by="column"`` (the default) gives one row
+        per column of the table: a code's indicator relevances summed into
+        one figure named by the code (the card's ``relevance_by_column``;
+        for a model without codes the same as ``by="input"``).
+        ``by="input"``: one row per network input (a code's indicators
+        each). A target trained without ARD has no figures (NaN). A pandas
+        DataFrame (index: the inputs), or as ``frame`` says."""
+        if by not in ("column", "input"):
+            raise SettingsError(f"invalid by = {by!r}: one of column, input")
+        card = self.explain()
+        per: dict[str, dict] = {}
+        for t in card["targets"]:
+            r = t.get("relevance") or {}
+            if by == "column":
+                r = t.get("relevance_by_column") or r
+            per[t["name"]] = r
+        names: list[str] = []
+        for r in per.values():
+            names.extend(n for n in r if n not in names)
+        cols: dict[str, Any] = {"input": names}
+        for t, r in per.items():
+            cols[t] = np.array([r.get(n, np.nan) for n in names], dtype=float)
+        kind = _out_kind(None, frame or "pandas")
+        if kind == "pandas":
+            import pandas as pd
+
+            return pd.DataFrame({t: cols[t] for t in per}, index=pd.Index(names, name="input"))
+        return _frame(cols, None, kind, {})
+
     def __repr__(self) -> str:
         return (
             f"<mettle.Model targets={self.targets} inputs={len(self.inputs)} "

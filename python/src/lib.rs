@@ -80,6 +80,22 @@ impl RawModel {
         })
     }
 
+    /// The inputs declared as codes, as the model file records them
+    /// (`codes`: per code its name and levels, each with code, name,
+    /// indicator column and training row count), as JSON text; `[]`
+    /// for a model without codes.
+    fn codes_json(&self, py: Python<'_>) -> PyResult<String> {
+        serde_json::to_string(&self.model.codes).map_err(|e| {
+            to_py(
+                py,
+                &mettle::Error::ModelFormat {
+                    path: "<model>".into(),
+                    reason: e.to_string(),
+                },
+            )
+        })
+    }
+
     /// Target names, in the model's order.
     #[getter]
     fn targets(&self) -> Vec<String> {

@@ -52,11 +52,19 @@
 //! 4. **Support.** How many distinct training rows lie within the reference
 //!    distance D of the query (zero for a row the joint check rejects at
 //!    k = 1, f = 1; a handful for a row inside a well-covered region).
+//! 5. **Codes.** For an input declared as a code (its indicator inputs),
+//!    the nearest training row at the query's level only, in the
+//!    relevance-weighted distance over the other inputs, against the
+//!    training rows' own within-level 99th percentile
+//!    ([`CodeReference`]); the indicators leave the relevance-weighted
+//!    distance of the other checks.
 
 use crate::fixedmath::FixedMath;
 mod physical;
 
-pub use crate::model::{pair_cells, DomainReference, NearMeasure, PairGrid};
+pub use crate::model::{
+    pair_cells, CodeReference, DomainReference, LevelNear, NearMeasure, PairGrid,
+};
 pub use physical::{physical_bound, PhysicalBound};
 
 use ndarray::{s, Array2, ArrayView1, ArrayView2, Axis};
@@ -583,7 +591,7 @@ fn verdict(
         ),
         (Some(ix), Some(s), Some((m, near))) => {
             let r = ix.reference();
-            let w = r.weights();
+            let w = r.relevance_weights();
             distance_ratio = Some(m.ratio);
             support = Some(m.support);
             let (far, thin) = ix.distances();
@@ -592,6 +600,12 @@ fn verdict(
                 g.raise(DomainLevel::Outside, far_note(shown, r, raw, &near, far));
             } else if near.distance > thin {
                 g.raise(DomainLevel::Thin, far_note(shown, r, raw, &near, thin));
+            }
+            for l in r.level_nearest(&s).into_iter().flatten() {
+                let far = r.level_far_distance(l.code);
+                if l.near.distance > far {
+                    g.raise(DomainLevel::Outside, level_note(shown, r, raw, &l, far));
+                }
             }
             if m.ratio > DOMAIN_DISTANCE_FACTOR {
                 g.raise(DomainLevel::Thin, joint_note(inputs, r, &m, &w));
@@ -707,6 +721,53 @@ fn far_note(
         "{level}: the nearest training row differs by {:.2} of a full training range in the \
          inputs that matter (weighted by relevance; limit {:.2}): {}",
         near.distance,
+        limit,
+        named.join(", ")
+    )
+}
+
+/// The note for a row far from every training row at its level of a code
+/// ([`DomainReference::level_nearest`]), naming the level by its
+/// indicator input and the inputs that make up most of the gap.
+fn level_note(
+    shown: &Shown,
+    r: &DomainReference,
+    raw: ArrayView1<f64>,
+    l: &LevelNear,
+    limit: f64,
+) -> String {
+    let d = r.n_inputs;
+    let row = &r.scaled_rows[l.near.nearest * d..(l.near.nearest + 1) * d];
+    let named: Vec<String> = main_inputs(&l.near.share)
+        .into_iter()
+        .map(|j| {
+            format!(
+                "{} {} against {}",
+                shown.inputs[j].name,
+                shown.value(j, raw[j]),
+                shown.value(j, shown.inputs[j].scaling.unscale(row[j]))
+            )
+        })
+        .collect();
+    let at = match l.level {
+        Some(j) => format!("at {}", shown.inputs[j].name),
+        None => {
+            let names: Vec<&str> = r.codes[l.code]
+                .columns
+                .iter()
+                .map(|&j| shown.inputs[j].name.as_str())
+                .collect();
+            format!(
+                "at the level with none of {} (the implied level)",
+                names.join(", ")
+            )
+        }
+    };
+    format!(
+        "outside: the nearest training row {at} differs by {:.2} of a full training range in \
+         the inputs that matter (weighted by relevance; limit {:.2}, from the training rows at \
+         one level): {}; rows at other levels do not vouch for it",
+        l.near.distance,
         limit,
         named.join(", ")
     )
@@ -1017,6 +1078,62 @@ mod tests {
             .notes
             .iter()
             .all(|n| !n.contains("no training row has")));
+    }
+
+    /// A code of two levels (invented rows on a lattice of x and z): level
+    /// `a` held only at x below 0.4, level `b` everywhere. At x = 0.9 a row
+    /// at `a` is outside by the within-level check, its note naming the
+    /// level, though rows at `b` lie right there; rows at `a` among its own
+    /// rows and at `b` anywhere pass. No code declared: the reference is
+    /// left as built.
+    #[test]
+    fn a_level_far_from_its_own_rows_is_outside() {
+        let mut rows = Vec::new();
+        for i in 0..=20 {
+            let x = i as f64 / 20.0;
+            for k in 0..=10 {
+                let z = k as f64 / 10.0;
+                rows.push([x, z, 0.0, 1.0]);
+                if x < 0.4 {
+                    rows.push([x, z, 1.0, 0.0]);
+                }
+            }
+        }
+        let n = rows.len();
+        let raw = Array2::from_shape_fn((n, 4), |(i, j)| rows[i][j]);
+        let scaled = raw.mapv(|v| v - 0.5);
+        let built = DomainReference::build(scaled.view()).expect("rows");
+        assert_eq!(built.clone().with_codes(Vec::new()), built);
+        let r = built.with_codes(vec![vec![2, 3]]);
+        assert_eq!(r.codes.len(), 1);
+        assert!(r.codes[0].far < 0.2, "{:?}", r.codes);
+        let inputs = vec![
+            input("x", 0.0, 1.0),
+            input("z", 0.0, 1.0),
+            input("code=a", 0.0, 1.0),
+            input("code=b", 0.0, 1.0),
+        ];
+        let hole = check(&inputs, Some(&r), array![0.9, 0.5, 1.0, 0.0].view());
+        assert!(!hole.in_domain);
+        let note = hole.notes.join(" ");
+        assert!(
+            note.contains("the nearest training row at code=a differs by 0.5")
+                && note.contains("rows at other levels do not vouch for it")
+                && note.contains("x 0.9 against 0.35"),
+            "{note}"
+        );
+        for ok in [
+            [0.2, 0.5, 1.0, 0.0],
+            [0.9, 0.5, 0.0, 1.0],
+            [0.35, 0.05, 1.0, 0.0],
+        ] {
+            let v = check(&inputs, Some(&r), ArrayView1::from(&ok));
+            assert!(v.in_domain, "{ok:?}: {:?}", v.notes);
+            assert!(
+                !v.notes.iter().any(|n| n.contains("do not vouch")),
+                "{ok:?}"
+            );
+        }
     }
 
     #[test]

@@ -103,7 +103,7 @@ impl TrainingEvidence {
         let weights = model
             .domain
             .as_ref()
-            .map_or_else(|| vec![1.0; model.inputs.len()], |d| d.weights());
+            .map_or_else(|| vec![1.0; model.inputs.len()], |d| d.relevance_weights());
         let weighted = Array2::from_shape_fn(scaled.dim(), |(i, j)| scaled[[i, j]] * weights[j]);
         let mut columns = Vec::new();
         for t in &model.targets {

@@ -13,7 +13,7 @@ pub use crate::transform::{IntervalKind, TargetTransform};
 pub use correlation::{scatter_correlations, ScatterCorrelation};
 pub use file::{MODEL_FORMAT, MODEL_FORMAT_VERSION};
 pub use near::NearMeasure;
-pub use reference::{pair_cells, DomainReference, PairGrid};
+pub use reference::{pair_cells, CodeReference, DomainReference, LevelNear, PairGrid};
 pub use summary::{
     noise_profile, replicate_scatter, summarise_prediction, summarise_training, NoiseBin,
     NoiseProfile, NoiseSpread, ReplicateScatter, TrainingSummary, PROFILE_BINS,

@@ -62,6 +62,53 @@ pub struct DomainReference {
     /// The [`DOMAIN_THIN_QUANTILE`] quantile of the same distances.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub relevant_thin_distance: Option<f64>,
+    /// The inputs declared as codes (schema `kind = "levels"`), one entry
+    /// per code with its indicator inputs and its within-level reference
+    /// distances ([`DomainReference::with_codes`]). Absent for a model
+    /// without codes, whose file is unchanged.
+    #[serde(default, skip_serializing_if = "Vec::is_empty")]
+    pub codes: Vec<CodeReference>,
+}
+
+/// The guard's reference for one input declared as a code: the nearest
+/// training row is sought among the rows at the query's level of the code
+/// only, in the relevance-weighted distance over the inputs that are no
+/// code's indicators:
+///
+/// ```text
+/// d_c(x) = min { d_R(x, x_n) : training row n at x's level of code c }
+/// ```
+///
+/// with its own leave-one-out reference (each training row against the
+/// other rows at its level). A level seen only at low carbon, queried at
+/// high carbon, is then far though rows of other levels lie near; and the
+/// reference is not inflated by rows whose nearest neighbour differs in
+/// another, unrelated code (k-nearest-neighbour novelty detection within
+/// groups, common practice, no source; measured in tests/domain_levels.rs,
+/// docs/domain.md).
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+pub struct CodeReference {
+    /// The code's indicator inputs (positions in the model's inputs); a
+    /// row with none of them at 1 is at the implied level.
+    pub columns: Vec<usize>,
+    /// The [`DOMAIN_REFERENCE_QUANTILE`] quantile of the stored rows'
+    /// leave-one-out within-level distances d_c (range-widths; rows alone
+    /// at their level left out). Beyond it (and beyond
+    /// [`DOMAIN_FAR_FLOOR`]) a row is outside; there is no thin grade of
+    /// its own (the relevance-weighted distance over the quantities grades
+    /// thin support, so that the codes add no thin flags to ordinary rows).
+    pub far: f64,
+}
+
+/// The nearest training row at a query's level of one code.
+#[derive(Clone, Debug, PartialEq)]
+pub struct LevelNear {
+    /// The code ([`DomainReference::codes`] position).
+    pub code: usize,
+    /// The indicator input at 1 in the query (`None`: the implied level).
+    pub level: Option<usize>,
+    /// d_c(x) and the row, with each input's share of the gap.
+    pub near: near::NearMeasure,
 }
 
 /// Which cells of a coarse grid over each pair of inputs hold a training
@@ -312,6 +359,7 @@ impl DomainReference {
                 scaled_rows,
                 pairs,
                 relevance: None,
+                codes: Vec::new(),
             }
             .with_weights(vec![1.0; d], None),
         )
@@ -343,11 +391,166 @@ impl DomainReference {
         self
     }
 
-    /// Each input's weight in the relevance-weighted distance.
-    pub fn weights(&self) -> Vec<f64> {
+    /// Each input's relevance weight (the stored relevance, every input 1
+    /// without it), a code's indicators included: what the pair check and
+    /// the nearest-neighbour listing weigh inputs by.
+    pub fn relevance_weights(&self) -> Vec<f64> {
         self.relevance
             .clone()
             .unwrap_or_else(|| vec![1.0; self.n_inputs])
+    }
+
+    /// Each input's weight in the relevance-weighted distance: 0 for a
+    /// code's indicators (the codes are checked level by level,
+    /// [`DomainReference::level_nearest`]).
+    pub fn weights(&self) -> Vec<f64> {
+        let mut w = self.relevance_weights();
+        for j in self.codes.iter().flat_map(|c| &c.columns) {
+            if let Some(v) = w.get_mut(*j) {
+                *v = 0.0;
+            }
+        }
+        w
+    }
+
+    /// The reference with the inputs at `groups` (per code, the positions
+    /// of its indicator inputs) checked as codes: their indicators leave the
+    /// relevance-weighted distance (its reference distances measured again
+    /// without them), and each code gets its within-level reference
+    /// ([`CodeReference`]). Empty `groups` leave the reference as it is.
+    pub fn with_codes(mut self, groups: Vec<Vec<usize>>) -> DomainReference {
+        let d = self.n_inputs;
+        let groups: Vec<Vec<usize>> = groups
+            .into_iter()
+            .filter(|g| !g.is_empty() && g.iter().all(|&j| j < d))
+            .collect();
+        if groups.is_empty() {
+            return self;
+        }
+        self.codes = groups
+            .into_iter()
+            .map(|columns| CodeReference {
+                columns,
+                far: f64::NAN,
+            })
+            .collect();
+        let w = self.weights();
+        let stored = self.relevance.clone();
+        self = self.with_weights(w.clone(), stored);
+        for c in 0..self.codes.len() {
+            self.codes[c].far = self.level_loo_quantile(c, &w);
+        }
+        self
+    }
+
+    /// The level of code `c` of a scaled row: the indicator input at 1
+    /// (scaled above 0), `None` for none (the implied level).
+    pub fn level_of(&self, c: usize, scaled: &[f64]) -> Option<usize> {
+        self.codes[c]
+            .columns
+            .iter()
+            .copied()
+            .find(|&j| scaled.get(j).is_some_and(|v| *v > 0.0))
+    }
+
+    /// Weighted squared gap of a scaled query to stored row `i`, input by
+    /// input.
+    fn weighted_gaps(&self, w: &[f64], scaled: &[f64], i: usize) -> Vec<f64> {
+        let d = self.n_inputs;
+        let row = &self.scaled_rows[i * d..(i + 1) * d];
+        scaled
+            .iter()
+            .zip(row)
+            .zip(w)
+            .map(|((a, b), w)| (w * (a - b)) * (w * (a - b)))
+            .collect()
+    }
+
+    /// Their sum, summed input by input in the same order.
+    fn weighted_dist2(&self, w: &[f64], scaled: &[f64], i: usize) -> f64 {
+        let d = self.n_inputs;
+        let row = &self.scaled_rows[i * d..(i + 1) * d];
+        scaled
+            .iter()
+            .zip(row)
+            .zip(w)
+            .map(|((a, b), w)| (w * (a - b)) * (w * (a - b)))
+            .sum()
+    }
+
+    /// The [`DOMAIN_REFERENCE_QUANTILE`] quantile of the stored rows'
+    /// leave-one-out within-level distances for code `c` (NaN when no row
+    /// shares its level with another).
+    fn level_loo_quantile(&self, c: usize, w: &[f64]) -> f64 {
+        let d = self.n_inputs;
+        let n = self.n_rows();
+        let levels: Vec<Option<usize>> = (0..n)
+            .map(|i| self.level_of(c, &self.scaled_rows[i * d..(i + 1) * d]))
+            .collect();
+        let mut loo: Vec<f64> = (0..n)
+            .into_par_iter()
+            .map(|i| {
+                let xi = &self.scaled_rows[i * d..(i + 1) * d];
+                (0..n)
+                    .filter(|&j| j != i && levels[j] == levels[i])
+                    .map(|j| self.weighted_dist2(w, xi, j))
+                    .fold(f64::INFINITY, f64::min)
+                    .sqrt()
+            })
+            .filter(|v| v.is_finite())
+            .collect();
+        loo.sort_by(f64::total_cmp);
+        quantile_sorted(&loo, DOMAIN_REFERENCE_QUANTILE)
+    }
+
+    /// For every code, the nearest stored row at the scaled query's level
+    /// (`None` for a code when no stored row is at that level: a level
+    /// too rare to be in a sampled reference, or one a row read through the
+    /// schema would have been refused at).
+    pub fn level_nearest(&self, scaled: &[f64]) -> Vec<Option<LevelNear>> {
+        let d = self.n_inputs;
+        let w = self.weights();
+        (0..self.codes.len())
+            .map(|c| {
+                let level = self.level_of(c, scaled);
+                let mut best: Option<(f64, usize)> = None;
+                for i in 0..self.n_rows() {
+                    if self.level_of(c, &self.scaled_rows[i * d..(i + 1) * d]) != level {
+                        continue;
+                    }
+                    let d2 = self.weighted_dist2(&w, scaled, i);
+                    if best.is_none_or(|(b, _)| d2 < b) {
+                        best = Some((d2, i));
+                    }
+                }
+                let (d2, i) = best?;
+                let mut share = self.weighted_gaps(&w, scaled, i);
+                let total: f64 = share.iter().sum();
+                if total > 0.0 {
+                    share.iter_mut().for_each(|s| *s /= total);
+                }
+                Some(LevelNear {
+                    code: c,
+                    level,
+                    near: near::NearMeasure {
+                        distance: d2.sqrt(),
+                        nearest: i,
+                        share,
+                    },
+                })
+            })
+            .collect()
+    }
+
+    /// Code `c`'s within-level distance beyond which a row is outside: the
+    /// larger of [`DOMAIN_FAR_FLOOR`] and [`CodeReference::far`].
+    pub fn level_far_distance(&self, c: usize) -> f64 {
+        let far = self.codes[c].far;
+        if far.is_finite() {
+            far.max(DOMAIN_FAR_FLOOR)
+        } else {
+            DOMAIN_FAR_FLOOR
+        }
     }
 
     /// The relevance-weighted distance beyond which a row is outside: the

@@ -167,6 +167,12 @@ impl Model {
         let mut model = Self::train_transformed(&prepared.table, &spec, &transforms, observer)?;
         model.schema = Some(schema.clone());
         model.codes = code_record(schema, &prepared.table)?;
+        // the guard checks each code level by level (domain.md)
+        let of = model.input_codes();
+        let groups: Vec<Vec<usize>> = (0..model.codes.len())
+            .map(|k| (0..of.len()).filter(|&j| of[j] == Some(k)).collect())
+            .collect();
+        model.domain = model.domain.take().map(|r| r.with_codes(groups));
         for code in &model.codes {
             for l in code.levels.iter().filter(|l| l.training_rows == 0) {
                 if let Some(s) = model.set_aside.iter_mut().find(|s| s.name == l.column) {
