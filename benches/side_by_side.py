@@ -36,7 +36,7 @@ per data set; default: $METTLE_SHARED/datasets/uci, else /work/shared/datasets/u
 --max-minutes M (per data set).
 
 Run with (the versions of the published tables): Python 3.11.7, scikit-learn 1.9.1,
-numpy 2.4.6 (OpenBLAS 0.3.31), scipy 1.17.1, catboost 1.2.10.
+numpy 2.4.6 (OpenBLAS 0.3.31), scipy 1.17.1, catboost 1.2.10, pandas 3.1.1 (catboost-cat only).
 
 What it measures. Each data set is a folder NAME/ under the data root holding data.csv
 (header row; target = last column) and the 20 standard 90/10 splits (splits/train_K.txt, splits/test_K.txt: 0-based row indices). On each
