@@ -12,19 +12,31 @@ impl Committee {
     /// (scaled inputs): the root mean square over the rows of ∂μ/∂s_i, the
     /// change of the mean (scaled target units) across the input's whole
     /// training range at the local slope, by central differences of step
-    /// 0.01 of the range. An input the networks ignore scores near 0,
+    /// 0.01 of the range; with several partitions the mean is their
+    /// average (each partition's members' mean, then the mean over the
+    /// partitions). An input the networks ignore scores near 0,
     /// whatever its ARD α (a straight-line effect carried by small input
     /// weights and large output weights scores in full). Empty rows give
     /// zeros.
     pub fn input_sensitivity(&self, x: ndarray::ArrayView2<f64>) -> Vec<f64> {
         let d = self.n_inputs;
         let n = x.nrows();
-        let mean = |x: ndarray::ArrayView2<f64>| {
+        let own = |c: &Committee, x: ndarray::ArrayView2<f64>| {
             let mut m = ndarray::Array1::<f64>::zeros(x.nrows());
-            for member in &self.members {
+            for member in &c.members {
                 m += &member.arch(d).predict(&member.weights, x);
             }
-            m / self.members.len().max(1) as f64
+            m / c.members.len().max(1) as f64
+        };
+        let mean = |x: ndarray::ArrayView2<f64>| {
+            if self.further_partitions.is_empty() {
+                return own(self, x);
+            }
+            let mut m = ndarray::Array1::<f64>::zeros(x.nrows());
+            for c in self.partitions() {
+                m += &own(c, x);
+            }
+            m / self.n_partitions() as f64
         };
         (0..d)
             .map(|i| {
