@@ -360,8 +360,16 @@ fn main() {
                 format!(
                     "members {} (H {}){}{}{}",
                     c.members.len(),
-                    c.members.iter().map(|m| m.n_hidden.to_string()).collect::<Vec<_>>().join(","),
-                    if c.selection.noise.varying { " varying" } else { " constant" },
+                    c.members
+                        .iter()
+                        .map(|m| m.n_hidden.to_string())
+                        .collect::<Vec<_>>()
+                        .join(","),
+                    if c.selection.noise.varying {
+                        " varying"
+                    } else {
+                        " constant"
+                    },
                     if c.kriging.is_some() { " kriged" } else { "" },
                     c.gross_errors.as_ref().map_or(String::new(), |g| format!(
                         " gross {:.3} nu {} c {:.3}",

@@ -171,7 +171,10 @@ fn fast_path_averages_partitions_as_the_exact_path() {
     let mut model = Model::train(&rows_of(&rows), &spec, &Silent).expect("training");
     let c = &model.targets[0].committee;
     assert_eq!(c.n_partitions(), 2);
-    assert!(c.further_partitions[0].kriging.is_some(), "partition 2's own process");
+    assert!(
+        c.further_partitions[0].kriging.is_some(),
+        "partition 2's own process"
+    );
     check_against_exact(&model, "two partitions, within");
     model.targets[0].committee.partition_variance = Some(PartitionVariance::Mixture);
     check_against_exact(&model, "two partitions, mixture");
@@ -183,7 +186,11 @@ fn fast_path_averages_partitions_as_the_exact_path() {
     let mut alone = first;
     alone.further_partitions.clear();
     let one = alone.predict_scaled(scaled.view());
-    assert!(both.mean.iter().zip(&one.mean).any(|(a, b)| (a - b).abs() > 1e-3 * one.var.mapv(f64::sqrt).mean().unwrap_or(1.0)));
+    assert!(both
+        .mean
+        .iter()
+        .zip(&one.mean)
+        .any(|(a, b)| (a - b).abs() > 1e-3 * one.var.mapv(f64::sqrt).mean().unwrap_or(1.0)));
 }
 
 /// A committee whose model part carries a scale (the gross-error refit's

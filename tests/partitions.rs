@@ -21,7 +21,15 @@ const SMALL: [&str; 5] = ["--hidden", "1..2", "--restarts", "2", "--quiet"];
 
 fn train(w: &Workdir, seed: &str, extra: &[&str], out: &str) -> String {
     let mut args = vec![
-        "train", "--data", "train.csv", "--target", "y", "--out", out, "--seed", seed,
+        "train",
+        "--data",
+        "train.csv",
+        "--target",
+        "y",
+        "--out",
+        out,
+        "--seed",
+        seed,
     ];
     args.extend(SMALL);
     args.extend(extra);
@@ -113,7 +121,11 @@ fn two_partitions_are_the_trainings_of_two_seeds_averaged() {
     assert!(log.contains("partition 2 of 2 (seed 6)"), "{log}");
     assert!(log.contains("variance rule 'mixture'"), "{log}");
 
-    let (a, b, p) = (load(&w, "s5.json"), load(&w, "s6.json"), load(&w, "p2.json"));
+    let (a, b, p) = (
+        load(&w, "s5.json"),
+        load(&w, "s6.json"),
+        load(&w, "p2.json"),
+    );
     let pc = &p.targets[0].committee;
     assert_eq!(pc.n_partitions(), 2);
     assert_eq!(pc.partition_variance, Some(PartitionVariance::Mixture));
@@ -126,14 +138,21 @@ fn two_partitions_are_the_trainings_of_two_seeds_averaged() {
     let (ca, cb) = (&a.targets[0].committee, &b.targets[0].committee);
     assert!(ca.further_partitions.is_empty() && ca.partition_variance.is_none());
     assert_eq!(first_alone(pc), *ca, "partition 1 against --seed 5");
-    assert_eq!(pc.further_partitions[0], *cb, "partition 2 against --seed 6");
+    assert_eq!(
+        pc.further_partitions[0], *cb,
+        "partition 2 against --seed 6"
+    );
     // the two seeds chose differently somewhere (else the test proves little)
     assert_ne!(ca.members, cb.members);
 
     let x = probe_rows(&p);
     assert_eq!(x, probe_rows(&a), "the same scaling of the inputs");
     let (pa, pb) = (ca.predict_scaled(x.view()), cb.predict_scaled(x.view()));
-    assert_eq!(pc.predict_scaled(x.view()), by_hand(&pa, &pb, true), "mixture");
+    assert_eq!(
+        pc.predict_scaled(x.view()),
+        by_hand(&pa, &pb, true),
+        "mixture"
+    );
     let mut within = pc.clone();
     within.partition_variance = Some(PartitionVariance::Within);
     let w_pred = within.predict_scaled(x.view());
@@ -149,8 +168,14 @@ fn two_partitions_are_the_trainings_of_two_seeds_averaged() {
     let (fast, _) = pc.fast(x.view()).predict_scaled(x.view());
     for i in 0..x.nrows() {
         let tol = mettle::prec::FAST_SD_TOL;
-        assert!((fast.var[i].sqrt() / m.var[i].sqrt() - 1.0).abs() <= tol, "row {i}");
-        assert!((fast.mean[i] - m.mean[i]).abs() <= 0.1 * tol * m.var[i].sqrt(), "row {i}");
+        assert!(
+            (fast.var[i].sqrt() / m.var[i].sqrt() - 1.0).abs() <= tol,
+            "row {i}"
+        );
+        assert!(
+            (fast.mean[i] - m.mean[i]).abs() <= 0.1 * tol * m.var[i].sqrt(),
+            "row {i}"
+        );
     }
 
     // one partition writes neither field (model files as before)
@@ -183,6 +208,10 @@ fn predict_averages_the_partitions() {
     let (a, b, p) = (mean("s2.json"), mean("s3.json"), mean("p2.json"));
     for i in 0..3 {
         let avg = 0.5 * (a[i] + b[i]);
-        assert!((p[i] - avg).abs() <= 1e-9 * avg.abs().max(1.0), "row {i}: {} against {avg}", p[i]);
+        assert!(
+            (p[i] - avg).abs() <= 1e-9 * avg.abs().max(1.0),
+            "row {i}: {} against {avg}",
+            p[i]
+        );
     }
 }

@@ -443,7 +443,11 @@ pub fn run(a: TrainArgs) -> anyhow::Result<()> {
                 "{}: {} rows{}, {}",
                 t.name,
                 t.n_rows,
-                if t.n_missing > 0 { format!(" ({} without this target left out)", t.n_missing) } else { String::new() },
+                if t.n_missing > 0 {
+                    format!(" ({} without this target left out)", t.n_missing)
+                } else {
+                    String::new()
+                },
                 partition_summary(c, noise, &note),
             );
             if c.n_partitions() > 1 {
@@ -481,7 +485,11 @@ pub fn run(a: TrainArgs) -> anyhow::Result<()> {
 fn partition_summary(c: &mettle::committee::Committee, noise: f64, note: &str) -> String {
     let failed = c.candidates.iter().filter(|c| c.failure.is_some()).count();
     let noise_kind = noise_kind(&c.selection.noise);
-    let noise = if noise.is_finite() { format!(" {noise:.4}") } else { String::new() };
+    let noise = if noise.is_finite() {
+        format!(" {noise:.4}")
+    } else {
+        String::new()
+    };
     let ks = &c.selection.kriging;
     let kriging = match (&c.kriging, ks.kriging_nlpd, ks.committee_nlpd) {
         (Some(k), Some(kn), Some(cn)) => format!(

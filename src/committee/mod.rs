@@ -691,4 +691,61 @@ mod tests {
         assert_eq!(back.0, m);
         assert!(serde_json::from_str::<W>("[1.0,2.0]").is_err());
     }
+
+    /// Two partitions by hand: means 1 and 3, variances 0.5 and 1.5 at
+    /// the first row. Mixture (Bishop 1995 §9.6): 1.0 + ((1−2)² + (3−2)²)/2
+    /// = 2.0; within: 1.0. The noise variance is the mean of the two either
+    /// way; the committee variance takes the spread only under mixture.
+    #[test]
+    fn partitions_combine_by_their_rule() {
+        let part = |m: f64, v: f64, n: f64, c: f64| ScaledPrediction {
+            mean: array![m, 0.0],
+            var: array![v, 1.0],
+            noise_var: array![n, 0.5],
+            committee_var: array![c, 0.5],
+        };
+        let parts = [part(1.0, 0.5, 0.2, 0.3), part(3.0, 1.5, 0.4, 1.1)];
+        let mix = combine_partitions(&parts, PartitionVariance::Mixture);
+        let within = combine_partitions(&parts, PartitionVariance::Within);
+        assert_abs_diff_eq!(mix.mean[0], 2.0);
+        assert_abs_diff_eq!(mix.var[0], 2.0);
+        assert_abs_diff_eq!(within.var[0], 1.0);
+        assert_abs_diff_eq!(mix.noise_var[0], 0.3);
+        assert_abs_diff_eq!(within.noise_var[0], 0.3);
+        assert_abs_diff_eq!(mix.committee_var[0], 0.7 + 1.0);
+        assert_abs_diff_eq!(within.committee_var[0], 0.7);
+        // equal means: the rules agree
+        assert_abs_diff_eq!(mix.var[1], within.var[1]);
+        // one partition is returned as it is
+        assert_eq!(
+            combine_partitions(&parts[..1], PartitionVariance::Mixture),
+            parts[0]
+        );
+    }
+
+    /// A file of session 16's pooling (further partitions' members added
+    /// to the committee, recorded under `selection.pooled`) still loads and
+    /// predicts as its members' committee; it is written back unchanged.
+    #[test]
+    fn pooled_files_load_and_predict_as_ordinary_committees() {
+        let c = super::relevance::tests::committee_with_alphas(&[&[1.0, 4.0], &[2.0, 1.0]]);
+        let mut json: serde_json::Value = serde_json::to_value(&c).expect("ser");
+        json["selection"]["pooled"] = serde_json::json!([{
+            "seed": 12345,
+            "n_train_part": 40,
+            "n_heldout": 10,
+            "hidden_searched": [0, 0],
+            "nlpd_by_size": [1.0],
+            "n_members": 1,
+            "varying": false,
+            "refit_failures": [],
+            "candidates": []
+        }]);
+        let old: Committee = serde_json::from_value(json.clone()).expect("loads");
+        assert_eq!(old.selection.pooled.len(), 1);
+        assert!(old.further_partitions.is_empty());
+        let x = array![[0.1, -0.2], [0.4, 0.3]];
+        assert_eq!(old.predict_scaled(x.view()), c.predict_scaled(x.view()));
+        assert_eq!(serde_json::to_value(&old).expect("ser"), json);
+    }
 }

@@ -151,7 +151,7 @@ pub fn relevance_over(fits: &[Vec<f64>]) -> Vec<(f64, f64, f64)> {
 }
 
 #[cfg(test)]
-mod tests {
+pub(crate) mod tests {
     use super::*;
     use crate::committee::{Member, NoiseSelection, Selection};
     use crate::evidence::{FitDiagnostics, HessianKind};

@@ -53,3 +53,30 @@ impl Committee {
             .collect()
     }
 }
+
+#[cfg(test)]
+mod tests {
+    use super::super::relevance::tests::committee_with_alphas;
+    use ndarray::array;
+
+    /// Linear members (weights w, bias 0) have ∂μ/∂s_i = the mean of
+    /// their w_i. Partition 1 holds w = (1, 0), partition 2 two members of
+    /// w = (0, 1): the average of the partitions' means has slopes
+    /// (1/2, 1/2), where pooling the three members alike would give
+    /// (1/3, 2/3) and partition 1 alone (1, 0). Central differences are
+    /// exact for a linear mean (common practice, no source).
+    #[test]
+    fn sensitivity_averages_the_partitions_means() {
+        let mut first = committee_with_alphas(&[&[1.0, 1.0]]);
+        first.members[0].weights = vec![1.0, 0.0, 0.0];
+        let mut second = committee_with_alphas(&[&[1.0, 1.0], &[1.0, 1.0]]);
+        for m in &mut second.members {
+            m.weights = vec![0.0, 1.0, 0.0];
+        }
+        first.further_partitions.push(second);
+        let x = array![[0.1, -0.2], [0.3, 0.4], [-0.4, 0.0]];
+        let s = first.input_sensitivity(x.view());
+        assert!((s[0] - 0.5).abs() < 1e-12, "{s:?}");
+        assert!((s[1] - 0.5).abs() < 1e-12, "{s:?}");
+    }
+}

@@ -122,7 +122,11 @@ impl Model {
             if t.scaling.hi.partial_cmp(&t.scaling.lo) != Some(std::cmp::Ordering::Greater) {
                 return Err(format!("target '{}' has an invalid scaling", t.name));
             }
-            if t.committee.further_partitions.iter().any(|f| !f.further_partitions.is_empty()) {
+            if t.committee
+                .further_partitions
+                .iter()
+                .any(|f| !f.further_partitions.is_empty())
+            {
                 return Err(format!(
                     "target '{}': a further partition holds partitions of its own",
                     t.name
