@@ -215,3 +215,69 @@ fn predict_averages_the_partitions() {
         );
     }
 }
+
+/// Transition curves (`mettle transition`) draw their curves from every
+/// partition: on the bundled invented model (Fellhaven scenario), a second
+/// partition made of the Charpy committee with every member's output bias
+/// lowered (its curve shifted down on the learnt scale) puts the drawn
+/// median of T40J and the centre curve's crossing strictly between those
+/// of either partition alone (an equal mixture of the two, Bishop 1995
+/// §9.6); a reader ignoring partition 2 would stay at partition 1's.
+#[test]
+fn transition_draws_from_every_partition() {
+    use mettle::curves::{base_row, transition, TransitionOptions};
+    let repo = std::path::PathBuf::from(env!("CARGO_MANIFEST_DIR"));
+    let one = Model::load(&repo.join("models/fellhaven_welds.json")).expect("bundled model");
+    let k = one
+        .targets
+        .iter()
+        .position(|t| t.name == "charpy_j")
+        .expect("charpy_j");
+    let table = mettle::data::Table::read(&repo.join("datasets/fellhaven_new_welds.csv"))
+        .expect("base table");
+    let mut shifted = one.targets[k].committee.clone();
+    for m in &mut shifted.members {
+        *m.weights.last_mut().expect("output bias") -= 0.15;
+    }
+    let mut low = one.clone();
+    low.targets[k].committee = shifted.clone();
+    let mut both = one.clone();
+    both.targets[k].committee.further_partitions.push(shifted);
+    both.targets[k].committee.partition_variance = Some(PartitionVariance::Within);
+    let t40 = |m: &Model| {
+        let o = TransitionOptions {
+            temperature_input: "test_temp_c".into(),
+            target: Some("charpy_j".into()),
+            from: -150.0,
+            to: 60.0,
+            steps: 106,
+            energies: vec![40.0],
+            requirement: None,
+            samples: 1000,
+            seed: 3,
+        };
+        let base = base_row(m, Some(&table), &[]).expect("base row");
+        let t = transition(m, base, &o).expect("transition");
+        let c = &t.crossings[0];
+        (
+            c.centre.expect("centre crosses 40 J"),
+            c.median.expect("drawn curves cross 40 J"),
+        )
+    };
+    let (a, b, mix) = (t40(&one), t40(&low), t40(&both));
+    for (what, a, b, m) in [
+        ("centre", a.0, b.0, mix.0),
+        ("drawn median", a.1, b.1, mix.1),
+    ] {
+        let gap = b - a;
+        assert!(
+            gap.abs() > 5.0,
+            "{what}: the shift moves T40J ({a} → {b} °C)"
+        );
+        let at = (m - a) / gap;
+        assert!(
+            (0.2..=0.8).contains(&at),
+            "{what}: two partitions {m} °C, partition 1 alone {a}, partition 2 alone {b}"
+        );
+    }
+}
