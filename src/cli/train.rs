@@ -439,20 +439,21 @@ pub fn run(a: TrainArgs) -> anyhow::Result<()> {
                 ),
                 (other, false) => format!(" (both on the {other} scale the target is learnt on)"),
             };
-            eprintln!(
-                "{}: {} rows{}, {}",
+            let rows = format!(
+                "{}: {} rows{}",
                 t.name,
                 t.n_rows,
                 if t.n_missing > 0 {
                     format!(" ({} without this target left out)", t.n_missing)
                 } else {
                     String::new()
-                },
-                partition_summary(c, noise, &note),
+                }
             );
-            if c.n_partitions() > 1 {
+            if c.n_partitions() == 1 {
+                eprintln!("{rows}, {}", partition_summary(c, noise, &note));
+            } else {
                 eprintln!(
-                    "  {} partitions averaged (each a whole training, seed {} + p), variance rule '{}':",
+                    "{rows}, {} partitions averaged (each a whole training, seed {} + p), variance rule '{}', median noise sd {noise:.4}{note}:",
                     c.n_partitions(),
                     a.settings.seed,
                     c.partition_rule().name()
@@ -484,7 +485,15 @@ pub fn run(a: TrainArgs) -> anyhow::Result<()> {
 /// shape, discarded candidates.
 fn partition_summary(c: &mettle::committee::Committee, noise: f64, note: &str) -> String {
     let failed = c.candidates.iter().filter(|c| c.failure.is_some()).count();
-    let noise_kind = noise_kind(&c.selection.noise);
+    let kind = noise_kind(&c.selection.noise);
+    // without a noise sd (a partition's line) the kind ends at its choice
+    let noise_kind = if noise.is_finite() {
+        kind
+    } else {
+        kind.trim_end_matches(", median noise sd")
+            .trim_end_matches(", noise sd")
+            .to_string()
+    };
     let noise = if noise.is_finite() {
         format!(" {noise:.4}")
     } else {
