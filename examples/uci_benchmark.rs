@@ -8,8 +8,13 @@
 //!     [--datasets concrete,energy,yacht,wine-quality-red] [--splits 20]
 //!     [--hidden 1..10] [--restarts 4] [--markdown FILE]
 //!     [--noise auto|constant|varying] [--kriging auto|on|off] [--gross-errors on|off] [--heavy-tails on|off] [--model-var-scale on|off] [--reweight-mean] [--first-split 0] [--no-widen] [--no-early-stop] [--no-ard] [--max-cycles N] [--first-iters N] [--cycle-iters N]
-//!     [--max-members N] [--holdout FRACTION] [--partitions N]
+//!     [--max-members N] [--holdout FRACTION] [--partitions N] [--partition-variance within|mixture]
 //! ```
+//!
+//! `--partitions N` averages N whole trainings (partition p with seed
+//! `seed + p`); `--partition-variance` says how their variances combine
+//! (`within`: the mean of the partitions' variances; `mixture`: plus the
+//! spread of their means), only with N > 1.
 //!
 //! The options after `--markdown` exist to study the engine's settings;
 //! the published table uses the defaults. Environment switches for
@@ -26,7 +31,7 @@ use mettle::fixedmath::FixedMath;
 use std::path::{Path, PathBuf};
 use std::time::Instant;
 
-use mettle::committee::{CommitteeParams, KrigingMode, NoiseMode};
+use mettle::committee::{CommitteeParams, KrigingMode, NoiseMode, PartitionVariance};
 use mettle::data::Table;
 use mettle::evidence::FitSettings;
 use mettle::model::TrainSpec;
@@ -154,6 +159,7 @@ fn main() {
     let mut kriging = KrigingMode::Auto;
     let mut max_members: Option<usize> = None;
     let mut partitions: Option<usize> = None;
+    let mut partition_variance: Option<PartitionVariance> = None;
     let mut holdout: Option<f64> = None;
     let mut gross_errors = true;
     let mut heavy_tails = true;
@@ -191,6 +197,13 @@ fn main() {
             }
             "--max-members" => max_members = Some(v.parse().expect("--max-members N")),
             "--partitions" => partitions = Some(v.parse().expect("--partitions N")),
+            "--partition-variance" => {
+                partition_variance = Some(match v.as_str() {
+                    "within" => PartitionVariance::Within,
+                    "mixture" => PartitionVariance::Mixture,
+                    other => panic!("--partition-variance {other}: expected within or mixture"),
+                })
+            }
             "--holdout" => holdout = Some(v.parse().expect("--holdout FRACTION")),
             "--first-split" => first_split = v.parse().expect("--first-split N"),
             "--max-cycles" => fit.max_cycles = v.parse().expect("--max-cycles N"),
@@ -284,6 +297,9 @@ fn main() {
             if let Some(n) = partitions {
                 spec.params = spec.params.partitions(n);
             }
+            if let Some(r) = partition_variance {
+                spec.params = spec.params.partition_variance(r);
+            }
             let t0 = Instant::now();
             let model = Model::train(&tr, &spec, &Silent).expect("training");
             let dt = t0.elapsed().as_secs_f64();
@@ -337,24 +353,46 @@ fn main() {
                 let (a, b, ll_ab, c68_ab) = two_part_scale(&pred, &y);
                 eprintln!("  diag: test-optimal variance = {a:.2}·noise² + {b:.2}·model²: LL {ll_ab:.3}, coverage_68 {c68_ab:.3}");
             }
-            let c = &model.targets[0].committee;
+            let committee = &model.targets[0].committee;
+            // each partition's committee: members, hidden units, noise,
+            // process, gross errors and shape
+            let describe = |c: &mettle::committee::Committee| {
+                format!(
+                    "members {} (H {}){}{}{}",
+                    c.members.len(),
+                    c.members
+                        .iter()
+                        .map(|m| m.n_hidden.to_string())
+                        .collect::<Vec<_>>()
+                        .join(","),
+                    if c.selection.noise.varying {
+                        " varying"
+                    } else {
+                        " constant"
+                    },
+                    if c.kriging.is_some() { " kriged" } else { "" },
+                    c.gross_errors.as_ref().map_or(String::new(), |g| format!(
+                        " gross {:.3} nu {} c {:.3}",
+                        g.share,
+                        g.tail_dof.map_or("inf".into(), |v| v.to_string()),
+                        g.model_var_factor()
+                    ))
+                )
+            };
+            let further: String = committee
+                .further_partitions
+                .iter()
+                .enumerate()
+                .map(|(p, c)| format!("  + partition {}: {}", p + 2, describe(c)))
+                .collect();
             eprintln!(
-                "{ds} split {k:2}: RMSE {:.3}  LL {:.3}  cov68 {:.3}  cov95 {:.3}  {:.1} s  members {} (H {}){}{}{}",
+                "{ds} split {k:2}: RMSE {:.3}  LL {:.3}  cov68 {:.3}  cov95 {:.3}  {:.1} s  {}{further}",
                 e.rmse,
                 -e.nlpd,
                 e.coverage_68,
                 e.coverage_95,
                 dt,
-                c.members.len(),
-                c.members.iter().map(|m| m.n_hidden.to_string()).collect::<Vec<_>>().join(","),
-                if c.selection.noise.varying { " varying" } else { " constant" },
-                if c.kriging.is_some() { " kriged" } else { "" },
-                c.gross_errors.as_ref().map_or(String::new(), |g| format!(
-                    " gross {:.3} nu {} c {:.3}",
-                    g.share,
-                    g.tail_dof.map_or("inf".into(), |v| v.to_string()),
-                    g.model_var_factor()
-                ))
+                describe(committee),
             );
             rmse.push(e.rmse);
             ll.push(-e.nlpd);

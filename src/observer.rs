@@ -68,6 +68,16 @@ pub enum TrainEvent<'a> {
         /// Folds per repeat.
         n_folds: usize,
     },
+    /// One partition's whole training of a target starts (only with more
+    /// than one partition; its training events follow).
+    PartitionStarted {
+        /// Target being trained.
+        target: &'a str,
+        /// Partition, 1-based.
+        partition: usize,
+        /// Partitions planned.
+        n_partitions: usize,
+    },
     /// A target's committee is complete.
     TargetDone {
         /// Target trained.

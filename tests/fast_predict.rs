@@ -151,6 +151,48 @@ fn fast_path_is_within_its_bound_on_the_test_rows() {
     check_against_exact(&few, "60 rows");
 }
 
+/// Two partitions (two whole trainings, seeds 11 and 12, each with its
+/// own residual process): the fast path averages each partition's fast
+/// prediction as the exact path averages the exact ones, within the same
+/// bound, and with the mixture rule too (the partitions' spread added).
+#[test]
+fn fast_path_averages_partitions_as_the_exact_path() {
+    use mettle::committee::PartitionVariance;
+    let rows: Vec<usize> = split("train_0.txt").into_iter().take(60).collect();
+    let mut spec = TrainSpec::new(&[TARGET]);
+    spec.params = CommitteeParams::default()
+        .hidden(8, 8)
+        .restarts(1)
+        .widen(false)
+        .seed(11)
+        .noise(NoiseMode::Constant)
+        .kriging(KrigingMode::On)
+        .partitions(2);
+    let mut model = Model::train(&rows_of(&rows), &spec, &Silent).expect("training");
+    let c = &model.targets[0].committee;
+    assert_eq!(c.n_partitions(), 2);
+    assert!(
+        c.further_partitions[0].kriging.is_some(),
+        "partition 2's own process"
+    );
+    check_against_exact(&model, "two partitions, within");
+    model.targets[0].committee.partition_variance = Some(PartitionVariance::Mixture);
+    check_against_exact(&model, "two partitions, mixture");
+    // the exact path's average differs from partition 1 alone: the fast
+    // path could not match it by ignoring partition 2
+    let (_, scaled) = model.scaled_inputs(&test_rows()).expect("scaled");
+    let both = model.targets[0].committee.predict_scaled(scaled.view());
+    let first = model.targets[0].committee.clone();
+    let mut alone = first;
+    alone.further_partitions.clear();
+    let one = alone.predict_scaled(scaled.view());
+    assert!(both
+        .mean
+        .iter()
+        .zip(&one.mean)
+        .any(|(a, b)| (a - b).abs() > 1e-3 * one.var.mapv(f64::sqrt).mean().unwrap_or(1.0)));
+}
+
 /// A committee whose model part carries a scale (the gross-error refit's
 /// `model_var_scale`, set here by hand so that the case is always there):
 /// the fast path scales it as the exact path does.

@@ -96,6 +96,8 @@ class _Printer:
             print(f"{target}: fitting noise that varies with the inputs ({ev['total']} candidates)", file=out, flush=True)
         elif kind == "kriging":
             print(f"{target}: kriging the residuals over {ev['n_rows']} rows", file=out, flush=True)
+        elif kind == "partition_started":
+            print(f"{target}: partition {ev['partition']} of {ev['n_partitions']} (a whole training)", file=out, flush=True)
         elif kind == "refitting":
             print(f"{target}: refitting {ev['n_members']} members on all rows", file=out, flush=True)
         elif kind == "target_done":
@@ -189,6 +191,7 @@ class Model:
         widen: bool = True,
         early_stop: bool = True,
         partitions: int = 1,
+        partition_variance: str = "within",
         ard: bool = True,
         log_inputs: bool = True,
         drop_incomplete_rows: bool = False,
@@ -211,7 +214,9 @@ class Model:
         model), ``restarts``, ``seed``, ``holdout``, ``max_members``,
         ``noise`` (constant, varying, auto), ``kriging`` (on, off, auto),
         ``gross_errors``, ``heavy_tails``, ``reweight_mean``, ``partitions``
-        (held-out partitions pooled by cross-fitting, 1 to 8); ``widen=False``
+        (whole trainings averaged, partition p with seed ``seed + p``, 1 to 8),
+        ``partition_variance`` (``within``: the partitions' mean variance;
+        ``mixture``: plus the spread of their means; only with partitions > 1); ``widen=False``
         is ``--no-widen``, ``early_stop=False`` ``--no-early-stop``, ``ard=False`` ``--no-ard``, ``log_inputs=False``
         ``--no-log-inputs``. The same data, settings and seed give a model
         file byte-identical to the CLI's.
@@ -247,6 +252,7 @@ class Model:
             "widen": bool(widen),
             "early_stop": bool(early_stop),
             "partitions": _count("partitions", partitions),
+            "partition_variance": str(partition_variance),
             "ard": bool(ard),
             "log_inputs": bool(log_inputs),
         }

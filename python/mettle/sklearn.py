@@ -47,6 +47,7 @@ class MettleRegressor(RegressorMixin, BaseEstimator):
         widen=True,
         early_stop=True,
         partitions=1,
+        partition_variance="within",
         ard=True,
         log_inputs=True,
         progress=False,
@@ -64,6 +65,7 @@ class MettleRegressor(RegressorMixin, BaseEstimator):
         self.widen = widen
         self.early_stop = early_stop
         self.partitions = partitions
+        self.partition_variance = partition_variance
         self.ard = ard
         self.log_inputs = log_inputs
         self.progress = progress
@@ -100,6 +102,7 @@ class MettleRegressor(RegressorMixin, BaseEstimator):
             widen=self.widen,
             early_stop=self.early_stop,
             partitions=self.partitions,
+            partition_variance=self.partition_variance,
             ard=self.ard,
             log_inputs=self.log_inputs,
             progress=self.progress,

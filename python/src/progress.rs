@@ -88,6 +88,16 @@ fn fill<'py>(d: &Bound<'py, PyDict>, event: &TrainEvent<'_>) -> PyResult<()> {
             d.set_item("fold", *fold)?;
             d.set_item("n_folds", *n_folds)?;
         }
+        TrainEvent::PartitionStarted {
+            target,
+            partition,
+            n_partitions,
+        } => {
+            d.set_item("event", "partition_started")?;
+            d.set_item("target", *target)?;
+            d.set_item("partition", *partition)?;
+            d.set_item("n_partitions", *n_partitions)?;
+        }
         TrainEvent::TargetDone {
             target,
             n_members,

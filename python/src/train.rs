@@ -4,7 +4,7 @@
 use std::path::PathBuf;
 use std::time::Instant;
 
-use mettle::committee::{CommitteeParams, KrigingMode, NoiseMode};
+use mettle::committee::{CommitteeParams, KrigingMode, NoiseMode, PartitionVariance};
 use mettle::data::schema::Schema;
 use mettle::model::{SchemaTrainOptions, SchemaTrainReport, TrainSpec};
 use mettle::Model;
@@ -62,6 +62,18 @@ fn noise_mode(s: &str) -> mettle::Result<NoiseMode> {
     }
 }
 
+fn partition_variance(s: &str) -> mettle::Result<PartitionVariance> {
+    match s {
+        "within" => Ok(PartitionVariance::Within),
+        "mixture" => Ok(PartitionVariance::Mixture),
+        _ => Err(invalid(
+            "partition_variance",
+            format!("'{s}'"),
+            "one of within, mixture",
+        )),
+    }
+}
+
 fn kriging_mode(s: &str) -> mettle::Result<KrigingMode> {
     match s {
         "on" => Ok(KrigingMode::On),
@@ -88,6 +100,7 @@ pub struct Settings {
     widen: bool,
     early_stop: bool,
     partitions: usize,
+    partition_variance: String,
     ard: bool,
     log_inputs: bool,
 }
@@ -105,6 +118,7 @@ impl Settings {
             .widen(self.widen)
             .early_stop(self.early_stop)
             .partitions(self.partitions)
+            .partition_variance(partition_variance(&self.partition_variance)?)
             .noise(noise_mode(&self.noise)?)
             .kriging(kriging_mode(&self.kriging)?)
             .gross_errors(self.gross_errors)

@@ -21,14 +21,16 @@ the most relevant input (the training rows in up to five bins of about equal cou
 its median fitted noise sd and, where the bin holds repeat tests, their pooled sd, the one \
 measurement of the scatter that no model stands between); the committee members (hidden \
 units, log evidence, held-out NLPD, effective number of parameters γ); and the relevance of each \
-input from its ARD hyperparameter, σ_w = α^−½ averaged over the members, most relevant input = 1. \
+input from its ARD hyperparameter, σ_w = α^−½ averaged over the members (of every partition, each \
+member once, for a model trained with --partitions above 1), most relevant input = 1. \
 Relevance says how much the networks use an input; it is not a causal effect, a slope or a sign.\n\n\
 JSON output: an object with data_file, data_sha256, n_rows, tool_version, seed, inputs (each \
 with name, unit, min, max, log_scale), set_aside and targets; each target has name, unit, scale, \
 n_rows, n_missing, min, max, noise_sd, noise_sd_range, noise_varies, noise_basis, replicate_sd \
 (null without repeat tests), noise_profile (input, input_unit and bins with lo, hi, n_rows, \
 noise_sd and replicates; null in older model files), members (each with n_hidden, restart, \
-log_evidence, heldout_nlpd, gamma, n_weights, varying_noise), relevance (an object input → \
+log_evidence, heldout_nlpd, gamma, n_weights, varying_noise, and partition — 1-based — only for a \
+model trained with --partitions above 1), relevance (an object input → \
 value, or null without ARD), relevance_range (an array of input, value, low, high: the smallest \
 and largest over the members; null without ARD), relevance_by_column (only for a model with inputs \
 declared as codes: an object column → value, each code's indicator relevances summed), relevance_note, fit_notes (plain notes on \
@@ -39,7 +41,9 @@ else n_rows, correlated_share, length_scales as [input, share of its range] pair
 heldout_nlpd_with and heldout_nlpd_without) and gross_errors (null without that part; else \
 share, n_heldout, heldout_nlpd_gaussian, heldout_nlpd, refit_gross_rows, n_rows, \
 refit_fallbacks — the list of members that kept the Gaussian refit, with the reason, as in the \
-model file —, tail_dof, share_estimated).\n\n\
+model file —, tail_dof, share_estimated); partitions only for a model trained with --partitions \
+above 1: [variance rule, list of partition, n_members, heldout_nlpd, noise_varies, kriged, \
+gross_share, tail_dof], the search, process and gross-error fields above then being partition 1's.\n\n\
 Example:\n  mettle explain --model uts.json\n  mettle explain --model uts.json --format json"
 )]
 pub struct ExplainArgs {
@@ -188,11 +192,39 @@ fn committee_text(t: &TargetCard) -> String {
         t.hidden_searched.0, t.hidden_searched.1, t.candidates.0, t.candidates.1,
         t.stopped_early, t.search_rows.0, t.search_rows.1, t.members.len()
     );
+    if let Some((rule, parts)) = &t.partitions {
+        s += &format!(
+            "  {} partitions averaged (whole trainings, seeds seed + 0 … seed + {}), variance rule '{rule}'; the search above and the process and gross errors are partition 1's:\n",
+            parts.len(),
+            parts.len() - 1
+        );
+        for p in parts {
+            s += &format!(
+                "    partition {}: {} members, held-out NLPD {:.3}, noise {}{}{}\n",
+                p.partition,
+                p.n_members,
+                p.heldout_nlpd,
+                if p.noise_varies {
+                    "varying"
+                } else {
+                    "constant"
+                },
+                if p.kriged { ", residuals kriged" } else { "" },
+                match (p.gross_share, p.tail_dof) {
+                    (Some(g), Some(nu)) =>
+                        format!(", gross errors {:.1} %, Student-t {nu}", 100.0 * g),
+                    (Some(g), None) => format!(", gross errors {:.1} %", 100.0 * g),
+                    _ => String::new(),
+                }
+            );
+        }
+    }
+    let several = t.partitions.is_some();
     let rows: Vec<Vec<String>> = t
         .members
         .iter()
         .map(|m| {
-            vec![
+            let mut row = vec![
                 format!("  {}", m.n_hidden),
                 m.restart.to_string(),
                 format!("{:.3}", m.log_evidence),
@@ -204,10 +236,14 @@ fn committee_text(t: &TargetCard) -> String {
                     "constant"
                 }
                 .into(),
-            ]
+            ];
+            if let (true, Some(p)) = (several, m.partition) {
+                row.push(p.to_string());
+            }
+            row
         })
         .collect();
-    let h: Vec<String> = [
+    let mut h: Vec<String> = [
         "  hidden",
         "restart",
         "log_evidence",
@@ -218,6 +254,9 @@ fn committee_text(t: &TargetCard) -> String {
     .iter()
     .map(|x| x.to_string())
     .collect();
+    if several {
+        h.push("partition".into());
+    }
     s += &aligned(&h, &rows);
     s
 }

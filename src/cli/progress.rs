@@ -17,6 +17,8 @@ pub struct TrainProgress {
     bar: Mutex<Option<ProgressBar>>,
     /// "fold 3/10 " while cross-validating, shown before the target.
     fold: Mutex<String>,
+    /// "partition 2/3 " while training with several partitions.
+    partition: Mutex<String>,
     enabled: bool,
     started: Instant,
 }
@@ -27,6 +29,7 @@ impl TrainProgress {
         TrainProgress {
             bar: Mutex::new(None),
             fold: Mutex::new(String::new()),
+            partition: Mutex::new(String::new()),
             enabled: !quiet && std::io::stderr().is_terminal(),
             started: Instant::now(),
         }
@@ -71,7 +74,8 @@ impl TrainObserver for TrainProgress {
                     .progress_chars("=> "),
                 );
                 let fold = self.fold.lock().unwrap_or_else(|p| p.into_inner());
-                bar.set_prefix(format!("{fold}{target}"));
+                let part = self.partition.lock().unwrap_or_else(|p| p.into_inner());
+                bar.set_prefix(format!("{fold}{part}{target}"));
                 bar.enable_steady_tick(Duration::from_millis(250));
                 *guard = Some(bar);
             }
@@ -124,6 +128,19 @@ impl TrainObserver for TrainProgress {
                 } else {
                     format!("fold {fold}/{n_folds} ")
                 };
+            }
+            TrainEvent::PartitionStarted {
+                target,
+                partition,
+                n_partitions,
+            } => {
+                let mut p = self.partition.lock().unwrap_or_else(|p| p.into_inner());
+                *p = format!("partition {partition}/{n_partitions} ");
+                if let Some(bar) = guard.as_ref() {
+                    bar.println(format!(
+                        "  {target}: partition {partition} of {n_partitions} (a whole training)"
+                    ));
+                }
             }
             TrainEvent::TargetDone { .. } => {
                 if let Some(bar) = guard.take() {

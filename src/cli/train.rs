@@ -5,7 +5,7 @@ use std::time::Instant;
 
 use anyhow::Context;
 use clap::Args;
-use mettle::committee::{CommitteeParams, KrigingMode, NoiseMode};
+use mettle::committee::{CommitteeParams, KrigingMode, NoiseMode, PartitionVariance};
 use mettle::data::guess::measured_property;
 use mettle::data::schema::{Role, Schema, TransformChoice};
 use mettle::data::suggest::did_you_mean;
@@ -103,12 +103,18 @@ pub struct TrainSettings {
     /// Largest committee considered.
     #[arg(long, value_name = "N", default_value_t = 16)]
     pub max_members: usize,
-    /// Held-out partitions (1 to 8): each further partition draws its own held-out rows and
-    /// candidate networks, chooses its committee on its own held-out rows, and its members join
-    /// the committee (cross-fitting: the mean averages over partitions, which lowers its
-    /// seed-to-seed scatter; each partition adds about the time of its search and refit).
+    /// Whole trainings averaged (1 to 8): partition p (p = 0 … N−1) is the whole training with
+    /// seed `--seed` + p (its own held-out rows, candidates, noise model, residual process, gross
+    /// errors and error shape), and estimates average the partitions' committees (bagging: it
+    /// lowers the mean's seed-to-seed scatter; each partition costs a whole training).
     #[arg(long, value_name = "N", default_value_t = 1)]
     pub partitions: usize,
+    /// Variance of the average of the partitions (matters only with --partitions above 1):
+    /// `within` takes the mean of the partitions' variances alone (their disagreement is already
+    /// inside each committee's spread); `mixture` adds the spread of the partitions' means about
+    /// the average (the variance of an equal mixture of their distributions).
+    #[arg(long, value_enum, value_name = "RULE", default_value_t = PartitionVarianceArg::Within)]
+    pub partition_variance: PartitionVarianceArg,
     /// Noise model: `constant` (one noise level), `varying` (a noise level that varies with the
     /// inputs, learnt by a second small network per member), or `auto` (whichever gives the lower
     /// held-out NLPD inside the training data).
@@ -193,6 +199,24 @@ impl From<NoiseArg> for NoiseMode {
     }
 }
 
+/// `--partition-variance` values.
+#[derive(Clone, Copy, Debug, clap::ValueEnum)]
+pub enum PartitionVarianceArg {
+    /// Mean of the partitions' variances plus the spread of their means.
+    Mixture,
+    /// Mean of the partitions' variances alone.
+    Within,
+}
+
+impl From<PartitionVarianceArg> for PartitionVariance {
+    fn from(a: PartitionVarianceArg) -> Self {
+        match a {
+            PartitionVarianceArg::Mixture => PartitionVariance::Mixture,
+            PartitionVarianceArg::Within => PartitionVariance::Within,
+        }
+    }
+}
+
 /// `--kriging` values.
 #[derive(Clone, Copy, Debug, clap::ValueEnum)]
 pub enum KrigingArg {
@@ -251,6 +275,7 @@ impl TrainSettings {
             .holdout_fraction(self.holdout)
             .max_members(self.max_members)
             .partitions(self.partitions)
+            .partition_variance(self.partition_variance.into())
             .widen(!self.no_widen)
             .early_stop(!self.no_early_stop)
             .noise(self.noise.into())
@@ -407,51 +432,42 @@ pub fn run(a: TrainArgs) -> anyhow::Result<()> {
                 },
                 |s| s.noise_sd.median,
             );
-            let failed = c.candidates.iter().filter(|c| c.failure.is_some()).count();
-            let ns = &c.selection.noise;
-            let noise_kind = noise_kind(ns);
-            let ks = &c.selection.kriging;
-            let kriging = match (&c.kriging, ks.kriging_nlpd, ks.committee_nlpd) {
-                (Some(k), Some(kn), Some(cn)) => format!(
-                    ", residuals kriged over {} rows (held-out NLPD {kn:.3} against {cn:.3} without)",
-                    k.x.nrows()
+            let note = match (t.transform.name(), t.training_summary.is_some()) {
+                ("none", _) => String::new(),
+                (other, true) => format!(
+                    " (NLPD on the {other} scale the target is learnt on, noise sd in its own units)"
                 ),
-                (None, Some(kn), Some(cn)) => format!(
-                    ", residuals not kriged (held-out NLPD {kn:.3} with, {cn:.3} without)"
-                ),
-                _ => String::new(),
+                (other, false) => format!(" (both on the {other} scale the target is learnt on)"),
             };
-            let gross = c.gross_errors.as_ref().map_or(String::new(), |g| {
-                format!(
-                    "; gross errors {:.1} % of the held-out rows, error shape {} (held-out NLPD {:.3} against {:.3} with a Gaussian alone)",
-                    100.0 * g.share,
-                    g.tail_dof
-                        .map_or("Gaussian".to_string(), |nu| format!("Student-t, {nu} degrees of freedom")),
-                    g.heldout_nlpd,
-                    g.heldout_nlpd_gaussian
-                )
-            });
-            eprintln!(
-                "{}: {} rows{}, committee of {} (hidden units {}), held-out NLPD {:.3}, {noise_kind} {:.4}{}{kriging}{gross}; {} of {} candidates discarded",
+            let rows = format!(
+                "{}: {} rows{}",
                 t.name,
                 t.n_rows,
-                if t.n_missing > 0 { format!(" ({} without this target left out)", t.n_missing) } else { String::new() },
-                c.members.len(),
-                c.members.iter().map(|m| m.n_hidden.to_string()).collect::<Vec<_>>().join(","),
-                c.selection.nlpd_by_size[c.selection.n_members - 1],
-                noise,
-                match (t.transform.name(), t.training_summary.is_some()) {
-                    ("none", _) => String::new(),
-                    (other, true) => format!(
-                        " (NLPD on the {other} scale the target is learnt on, noise sd in its own units)"
-                    ),
-                    (other, false) => {
-                        format!(" (both on the {other} scale the target is learnt on)")
-                    }
-                },
-                failed,
-                c.candidates.len()
+                if t.n_missing > 0 {
+                    format!(" ({} without this target left out)", t.n_missing)
+                } else {
+                    String::new()
+                }
             );
+            if c.n_partitions() == 1 {
+                eprintln!("{rows}, {}", partition_summary(c, noise, &note));
+            } else {
+                eprintln!(
+                    "{rows}, {} partitions averaged (each a whole training, seed {} + p), variance rule '{}', median noise sd {noise:.4}{note}:",
+                    c.n_partitions(),
+                    a.settings.seed,
+                    c.partition_rule().name()
+                );
+                for (p, part) in c.partitions().enumerate() {
+                    eprintln!(
+                        "  partition {} of {} (seed {}): {}",
+                        p + 1,
+                        c.n_partitions(),
+                        a.settings.seed.wrapping_add(p as u64),
+                        partition_summary(part, f64::NAN, "")
+                    );
+                }
+            }
             for n in mettle::explain::fit_notes(t) {
                 eprintln!("note: {}: {n}", t.name);
             }
@@ -463,6 +479,57 @@ pub fn run(a: TrainArgs) -> anyhow::Result<()> {
 
 /// Warnings of training through a schema, on stderr. Derivation warnings
 /// are shown for the first rows only, with a count of the rest.
+/// One partition's committee for the training summary: size, hidden
+/// units, held-out NLPD, noise model (with the sd `noise` when finite),
+/// and `note` on the scale, residual process, gross errors and error
+/// shape, discarded candidates.
+fn partition_summary(c: &mettle::committee::Committee, noise: f64, note: &str) -> String {
+    let failed = c.candidates.iter().filter(|c| c.failure.is_some()).count();
+    let kind = noise_kind(&c.selection.noise);
+    // without a noise sd (a partition's line) the kind ends at its choice
+    let noise_kind = if noise.is_finite() {
+        kind
+    } else {
+        kind.trim_end_matches(", median noise sd")
+            .trim_end_matches(", noise sd")
+            .to_string()
+    };
+    let noise = if noise.is_finite() {
+        format!(" {noise:.4}")
+    } else {
+        String::new()
+    };
+    let ks = &c.selection.kriging;
+    let kriging = match (&c.kriging, ks.kriging_nlpd, ks.committee_nlpd) {
+        (Some(k), Some(kn), Some(cn)) => format!(
+            ", residuals kriged over {} rows (held-out NLPD {kn:.3} against {cn:.3} without)",
+            k.x.nrows()
+        ),
+        (None, Some(kn), Some(cn)) => {
+            format!(", residuals not kriged (held-out NLPD {kn:.3} with, {cn:.3} without)")
+        }
+        _ => String::new(),
+    };
+    let gross = c.gross_errors.as_ref().map_or(String::new(), |g| {
+        format!(
+            "; gross errors {:.1} % of the held-out rows, error shape {} (held-out NLPD {:.3} against {:.3} with a Gaussian alone)",
+            100.0 * g.share,
+            g.tail_dof
+                .map_or("Gaussian".to_string(), |nu| format!("Student-t, {nu} degrees of freedom")),
+            g.heldout_nlpd,
+            g.heldout_nlpd_gaussian
+        )
+    });
+    format!(
+        "committee of {} (hidden units {}), held-out NLPD {:.3}, {noise_kind}{noise}{note}{kriging}{gross}; {} of {} candidates discarded",
+        c.members.len(),
+        c.members.iter().map(|m| m.n_hidden.to_string()).collect::<Vec<_>>().join(","),
+        c.selection.nlpd_by_size[c.selection.n_members - 1],
+        failed,
+        c.candidates.len()
+    )
+}
+
 /// How the noise model was chosen, for the training summary: the two
 /// held-out NLPDs and, when the one-standard-error rule kept constant noise
 /// although varying noise scored lower, by how many standard errors.

@@ -6,7 +6,7 @@ use super::gross_errors::GrossErrorModel;
 use super::kriging::ResidualKriging;
 use super::refit::Refitted;
 use super::split::HeldOutSplit;
-use super::{Committee, KrigingSelection, NoiseSelection, PooledPartition, Selection};
+use super::{Committee, KrigingSelection, NoiseSelection, Selection};
 use crate::observer::{TrainEvent, TrainObserver};
 
 /// What the stages hand to the assembled committee.
@@ -24,8 +24,6 @@ pub(super) struct Parts<'a> {
     pub process: Option<ResidualKriging>,
     /// The share of gross errors over all the rows, when estimated.
     pub gross: Option<GrossErrorModel>,
-    /// Further partitions pooled in (cross-fitting).
-    pub pooled: Vec<PooledPartition>,
 }
 
 /// The committee, and the end of the target's training reported with its
@@ -58,9 +56,11 @@ pub(super) fn assemble(parts: Parts, target_name: &str, observer: &dyn TrainObse
             refit_failures: refitted.failures,
             noise: parts.noise,
             kriging: parts.kriging,
-            pooled: parts.pooled,
+            pooled: Vec::new(),
         },
         kriging: parts.process,
         gross_errors,
+        further_partitions: Vec::new(),
+        partition_variance: None,
     }
 }

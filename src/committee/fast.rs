@@ -193,6 +193,9 @@ pub struct FastCommittee<'a> {
     /// The exact path's factors, for the rows it computes.
     exact: Vec<PosteriorFactor>,
     process: Option<FastProcess>,
+    /// The further partitions' own fast paths (their results averaged with
+    /// this one's by [`super::combine_partitions`]).
+    further: Vec<FastCommittee<'a>>,
 }
 
 /// Ranks chosen and how the rows went, for reports and tests.
@@ -211,8 +214,20 @@ pub struct FastStats {
 
 impl Committee {
     /// This committee prepared for the fast path, its ranks and cut chosen
-    /// on `calibration` (scaled rows; the training rows serve best).
+    /// on `calibration` (scaled rows; the training rows serve best); each
+    /// further partition prepared alike on the same rows.
     pub fn fast(&self, calibration: ArrayView2<f64>) -> FastCommittee<'_> {
+        let mut f = self.fast_own(calibration);
+        f.further = self
+            .further_partitions
+            .iter()
+            .map(|c| c.fast_own(calibration))
+            .collect();
+        f
+    }
+
+    /// This partition alone prepared for the fast path.
+    fn fast_own(&self, calibration: ArrayView2<f64>) -> FastCommittee<'_> {
         let d = self.n_inputs;
         let box_rows =
             (calibration.nrows() == 0 || calibration.ncols() != d).then(|| box_sample(d));
@@ -267,6 +282,7 @@ impl Committee {
             members,
             exact: self.members.iter().map(Member::posterior_factor).collect(),
             process,
+            further: Vec::new(),
         }
     }
 }
@@ -776,8 +792,20 @@ impl FastProcessProbe {
 }
 
 impl FastCommittee<'_> {
-    /// Ranks and cut, for reports and tests.
+    /// Ranks and cut, for reports and tests: the members of every
+    /// partition in order, the first partition's process cut.
     pub fn stats(&self) -> FastStats {
+        let mut s = self.own_stats();
+        for f in &self.further {
+            let o = f.own_stats();
+            s.ranks.extend(o.ranks);
+            s.params.extend(o.params);
+            s.rank_profile.extend(o.rank_profile);
+        }
+        s
+    }
+
+    fn own_stats(&self) -> FastStats {
         FastStats {
             ranks: self
                 .members
@@ -793,13 +821,33 @@ impl FastCommittee<'_> {
     /// As [`Committee::predict_scaled`], by the fast path: blocks of
     /// [`FAST_BLOCK_ROWS`] rows over the available cores, each row's result
     /// independent of its block. Also returns how many rows went the exact
-    /// way.
+    /// way. With further partitions, each partition's fast prediction
+    /// averaged as the exact path does ([`super::combine_partitions`]),
+    /// the rows gone the exact way summed over the partitions.
     pub fn predict_scaled(&self, x: ArrayView2<f64>) -> (ScaledPrediction, usize) {
+        if self.further.is_empty() {
+            return self.predict_own(x);
+        }
+        let mut parts = Vec::with_capacity(1 + self.further.len());
+        let mut n_exact = 0;
+        for f in std::iter::once(self).chain(&self.further) {
+            let (p, n) = f.predict_own(x);
+            parts.push(p);
+            n_exact += n;
+        }
+        (
+            super::combine_partitions(&parts, self.committee.partition_rule()),
+            n_exact,
+        )
+    }
+
+    /// This partition alone by the fast path.
+    fn predict_own(&self, x: ArrayView2<f64>) -> (ScaledPrediction, usize) {
         use rayon::prelude::*;
         if self.committee.kriging.is_some() && self.process.is_none() {
             // a process the fast path cannot take (no factor, or no
             // positive floor under its noise): the exact path throughout
-            return (self.committee.predict_scaled(x), x.nrows());
+            return (self.committee.predict_own(x), x.nrows());
         }
         let blocks: Vec<(ScaledPrediction, usize)> = x
             .axis_chunks_iter(Axis(0), FAST_BLOCK_ROWS)

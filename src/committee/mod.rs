@@ -44,7 +44,6 @@ mod noise_models;
 pub(crate) mod paired;
 mod params;
 mod pipeline;
-mod pool;
 mod refit;
 mod relevance;
 mod residual;
@@ -63,7 +62,9 @@ pub(crate) use gross_errors::scipy_reference as gross_errors_reference;
 pub use gross_errors::{GrossErrorModel, GrossErrors};
 pub use kriging::{ResidualKriging, KRIGING_MAX_ROWS};
 pub use noise::NoiseModel;
-pub use params::{CheckedCommitteeParams, CommitteeParams, KrigingMode, NoiseMode};
+pub use params::{
+    CheckedCommitteeParams, CommitteeParams, KrigingMode, NoiseMode, PartitionVariance,
+};
 pub use pipeline::train_committee;
 pub use relevance::{
     member_relevance, relevance, relevance_over, relevance_with_spread, RelevanceRange,
@@ -174,17 +175,20 @@ pub struct Selection {
     /// Whether kriging of the residuals was used, and why.
     #[serde(default)]
     pub kriging: KrigingSelection,
-    /// The further held-out partitions whose committees were pooled into
-    /// this one (cross-fitting, [`CommitteeParams::partitions`]); empty with
-    /// one partition (and in files written before pooling existed).
+    /// Read only from files of session 16's pooling, where further
+    /// held-out partitions borrowed the first one's noise model and their
+    /// members were added to this committee's (they predict as ordinary
+    /// members). Never written now: further partitions are whole
+    /// committees ([`Committee::further_partitions`]).
     #[serde(default, skip_serializing_if = "Vec::is_empty")]
     pub pooled: Vec<PooledPartition>,
 }
 
-/// A further held-out partition of the rows (cross-fitting): its own
-/// search and committee, chosen on its own held-out part with the noise
-/// model of the first partition; its members, refitted on all the rows,
-/// are pooled with the first partition's.
+/// A further held-out partition of the rows as session 16's pooling
+/// recorded it (kept so that such files load): its own search and
+/// committee, chosen on its own held-out part with the noise model of the
+/// first partition; its members, refitted on all the rows, were pooled
+/// with the first partition's.
 #[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
 pub struct PooledPartition {
     /// Master seed of the partition's split and search.
@@ -295,6 +299,18 @@ pub struct Committee {
     /// not asked for (and in files before format 4).
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub gross_errors: Option<GrossErrorModel>,
+    /// The committees of partitions 2 … N, each a whole training of the
+    /// same target with seed `seed + p` ([`CommitteeParams::partitions`]),
+    /// each with its own noise model, residual process, gross errors and
+    /// error shape; this committee is partition 1. Empty with one
+    /// partition (and in files written before whole partitions existed);
+    /// a further partition holds none itself.
+    #[serde(default, skip_serializing_if = "Vec::is_empty")]
+    pub further_partitions: Vec<Committee>,
+    /// How the partitions' variances are combined; present only with
+    /// further partitions.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub partition_variance: Option<PartitionVariance>,
 }
 
 /// Rows per block in [`Committee::predict_scaled`].
@@ -333,6 +349,46 @@ pub(crate) fn combine(means: &[Array1<f64>], vars: &[Array1<f64>]) -> (Array1<f6
     }
     var /= m;
     (mean, var)
+}
+
+/// The average of N partitions' predictions (each a whole committee with
+/// its own residual process; [`PartitionVariance`] gives the equations):
+/// mean (1/N) Σ μ_p; variance, noise variance and committee variance the
+/// mean of the partitions', the spread (1/N) Σ (μ_p − μ)² added to the
+/// variance and the committee variance under `mixture`. One partition is
+/// returned unchanged.
+pub fn combine_partitions(parts: &[ScaledPrediction], rule: PartitionVariance) -> ScaledPrediction {
+    if let [one] = parts {
+        return one.clone();
+    }
+    let n = parts.len() as f64;
+    let rows = parts.first().map_or(0, |p| p.mean.len());
+    let mut out = ScaledPrediction {
+        mean: Array1::zeros(rows),
+        var: Array1::zeros(rows),
+        noise_var: Array1::zeros(rows),
+        committee_var: Array1::zeros(rows),
+    };
+    for p in parts {
+        out.mean += &p.mean;
+        out.var += &p.var;
+        out.noise_var += &p.noise_var;
+        out.committee_var += &p.committee_var;
+    }
+    out.mean /= n;
+    out.var /= n;
+    out.noise_var /= n;
+    out.committee_var /= n;
+    if rule == PartitionVariance::Mixture {
+        let mut spread = Array1::<f64>::zeros(rows);
+        for p in parts {
+            spread += &(&p.mean - &out.mean).mapv(|d| d * d);
+        }
+        spread /= n;
+        out.var += &spread;
+        out.committee_var += &spread;
+    }
+    out
 }
 
 impl Member {
@@ -414,10 +470,45 @@ impl Committee {
             .map_or(TailShape::new(None), GrossErrorModel::shape)
     }
 
-    /// Predictive distribution for scaled inputs `x` (N × d), in blocks of
-    /// [`PREDICT_BLOCK_ROWS`] rows spread over the available cores, so that
-    /// memory stays bounded (one block's Jacobian per thread) whatever N.
+    /// Every partition's committee: this one, then its further partitions.
+    pub fn partitions(&self) -> impl Iterator<Item = &Committee> {
+        std::iter::once(self).chain(&self.further_partitions)
+    }
+
+    /// Number of partitions (1 without further partitions).
+    pub fn n_partitions(&self) -> usize {
+        1 + self.further_partitions.len()
+    }
+
+    /// The rule combining the partitions' variances.
+    pub fn partition_rule(&self) -> PartitionVariance {
+        self.partition_variance.unwrap_or_default()
+    }
+
+    /// Every member of every partition, with the index of its partition.
+    pub fn all_members(&self) -> impl Iterator<Item = (usize, &Member)> {
+        self.partitions()
+            .enumerate()
+            .flat_map(|(p, c)| c.members.iter().map(move |m| (p, m)))
+    }
+
+    /// Predictive distribution for scaled inputs `x` (N × d): this
+    /// partition's committee alone without further partitions, otherwise
+    /// the average of every partition's
+    /// ([`combine_partitions`], by [`Committee::partition_rule`]).
     pub fn predict_scaled(&self, x: ArrayView2<f64>) -> ScaledPrediction {
+        if self.further_partitions.is_empty() {
+            return self.predict_own(x);
+        }
+        let parts: Vec<ScaledPrediction> = self.partitions().map(|c| c.predict_own(x)).collect();
+        combine_partitions(&parts, self.partition_rule())
+    }
+
+    /// This partition's committee alone (further partitions ignored), in
+    /// blocks of [`PREDICT_BLOCK_ROWS`] rows spread over the available
+    /// cores, so that memory stays bounded (one block's Jacobian per
+    /// thread) whatever N.
+    pub(crate) fn predict_own(&self, x: ArrayView2<f64>) -> ScaledPrediction {
         use rayon::prelude::*;
         let factors: Vec<PosteriorFactor> =
             self.members.iter().map(Member::posterior_factor).collect();
@@ -599,5 +690,62 @@ mod tests {
         let back: W = serde_json::from_str(&json).expect("de");
         assert_eq!(back.0, m);
         assert!(serde_json::from_str::<W>("[1.0,2.0]").is_err());
+    }
+
+    /// Two partitions by hand: means 1 and 3, variances 0.5 and 1.5 at
+    /// the first row. Mixture (Bishop 1995 §9.6): 1.0 + ((1−2)² + (3−2)²)/2
+    /// = 2.0; within: 1.0. The noise variance is the mean of the two either
+    /// way; the committee variance takes the spread only under mixture.
+    #[test]
+    fn partitions_combine_by_their_rule() {
+        let part = |m: f64, v: f64, n: f64, c: f64| ScaledPrediction {
+            mean: array![m, 0.0],
+            var: array![v, 1.0],
+            noise_var: array![n, 0.5],
+            committee_var: array![c, 0.5],
+        };
+        let parts = [part(1.0, 0.5, 0.2, 0.3), part(3.0, 1.5, 0.4, 1.1)];
+        let mix = combine_partitions(&parts, PartitionVariance::Mixture);
+        let within = combine_partitions(&parts, PartitionVariance::Within);
+        assert_abs_diff_eq!(mix.mean[0], 2.0);
+        assert_abs_diff_eq!(mix.var[0], 2.0);
+        assert_abs_diff_eq!(within.var[0], 1.0);
+        assert_abs_diff_eq!(mix.noise_var[0], 0.3);
+        assert_abs_diff_eq!(within.noise_var[0], 0.3);
+        assert_abs_diff_eq!(mix.committee_var[0], 0.7 + 1.0);
+        assert_abs_diff_eq!(within.committee_var[0], 0.7);
+        // equal means: the rules agree
+        assert_abs_diff_eq!(mix.var[1], within.var[1]);
+        // one partition is returned as it is
+        assert_eq!(
+            combine_partitions(&parts[..1], PartitionVariance::Mixture),
+            parts[0]
+        );
+    }
+
+    /// A file of session 16's pooling (further partitions' members added
+    /// to the committee, recorded under `selection.pooled`) still loads and
+    /// predicts as its members' committee; it is written back unchanged.
+    #[test]
+    fn pooled_files_load_and_predict_as_ordinary_committees() {
+        let c = super::relevance::tests::committee_with_alphas(&[&[1.0, 4.0], &[2.0, 1.0]]);
+        let mut json: serde_json::Value = serde_json::to_value(&c).expect("ser");
+        json["selection"]["pooled"] = serde_json::json!([{
+            "seed": 12345,
+            "n_train_part": 40,
+            "n_heldout": 10,
+            "hidden_searched": [0, 0],
+            "nlpd_by_size": [1.0],
+            "n_members": 1,
+            "varying": false,
+            "refit_failures": [],
+            "candidates": []
+        }]);
+        let old: Committee = serde_json::from_value(json.clone()).expect("loads");
+        assert_eq!(old.selection.pooled.len(), 1);
+        assert!(old.further_partitions.is_empty());
+        let x = array![[0.1, -0.2], [0.4, 0.3]];
+        assert_eq!(old.predict_scaled(x.view()), c.predict_scaled(x.view()));
+        assert_eq!(serde_json::to_value(&old).expect("ser"), json);
     }
 }

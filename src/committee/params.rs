@@ -13,7 +13,8 @@
 //! | `seed` | 0 | seed of every random choice | any u64 |
 //! | `noise` | auto | constant noise, noise that varies with the inputs, or the better of the two on the held-out part | constant, varying, auto |
 //! | `early_stop` | true | stop hopeless candidates early: successive halving on the held-out NLPD at the rungs of `prec::SEARCH_RUNGS` | — |
-//! | `partitions` | 1 | held-out partitions whose committees are pooled (cross-fitting; each runs its own search) | 1 ..= 8 |
+//! | `partitions` | 1 | whole trainings of the target averaged, partition p with seed `seed + p` (each runs the whole pipeline) | 1 ..= 8 |
+//! | `partition_variance` | within | variance of the average of the partitions: `within` (their mean variance) or `mixture` (plus their spread); matters only with `partitions` > 1 | within, mixture |
 //! | `model_part_min_heldout` | 500 (`prec::MODEL_PART_MIN_HELDOUT`) | held-out rows needed before the held-out part may take the committee's model part times ρ beside the residual process (committee::kriging) | any |
 //! | `model_var_scale` | false | let the held-out part choose a factor on the committee's model variance (experimental; committee::gross_errors) | — |
 
@@ -102,12 +103,74 @@ pub struct CommitteeParams {
     /// every candidate to the end and read as false.
     #[serde(default)]
     pub early_stop: bool,
-    /// Held-out partitions of the rows, each with its own candidate search
-    /// and committee, whose refitted members are pooled into one committee
-    /// (cross-fitting; committee::pool). 1: one partition, as before the
-    /// setting existed (files written before it read as 1).
+    /// Whole trainings of the target whose committees are averaged:
+    /// partition p (p = 0 … N−1) runs the whole pipeline
+    /// (committee::pipeline) with master seed `seed + p` (wrapping), so
+    /// that partition p is exactly the committee a training with seed
+    /// `seed + p` gives (bagging over held-out splits, Breiman 1996,
+    /// *Machine Learning* 24:123). 1: one training, as before the setting
+    /// existed (files written before it read as 1).
     #[serde(default = "one_partition", skip_serializing_if = "is_one")]
     pub partitions: usize,
+    /// How the variance of the average of the partitions is formed
+    /// ([`PartitionVariance`]); matters only with `partitions` > 1. Not
+    /// written when `within`, so that files stay as before; read as
+    /// `within` when absent (what every file without it meant).
+    #[serde(
+        default = "within_before",
+        skip_serializing_if = "PartitionVariance::is_within"
+    )]
+    pub partition_variance: PartitionVariance,
+}
+
+/// What model files before `partition_variance` existed meant.
+fn within_before() -> PartitionVariance {
+    PartitionVariance::Within
+}
+
+/// The variance of an equal average of N partitions' predictive
+/// distributions (mean μ_p, variance v_p each; the mean is μ = (1/N) Σ μ_p
+/// under either rule):
+///
+/// ```text
+/// mixture:  v = (1/N) Σ_p v_p  +  (1/N) Σ_p (μ_p − μ)²
+/// within:   v = (1/N) Σ_p v_p
+/// ```
+///
+/// `mixture` is the variance of the equal mixture of the N distributions
+/// (Bishop 1995, *Neural Networks for Pattern Recognition*, §9.6 on
+/// committees; any text on mixtures); `within` counts the partitions'
+/// disagreement only through each partition's own committee spread, as
+/// for a bagged estimate whose members estimate the same quantity
+/// (Breiman 1996, *Machine Learning* 24:123). The noise variance and the
+/// committee's model variance follow the same rule (the spread added to
+/// the latter under `mixture`), so the domain guard's yardsticks stay
+/// consistent with the total.
+#[derive(Clone, Copy, Debug, Default, PartialEq, Eq, Serialize, Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum PartitionVariance {
+    /// Mean of the partitions' variances plus their spread about the
+    /// average (an equal mixture).
+    Mixture,
+    /// Mean of the partitions' variances alone.
+    #[default]
+    Within,
+}
+
+impl PartitionVariance {
+    /// True for [`PartitionVariance::Within`].
+    #[allow(clippy::trivially_copy_pass_by_ref)]
+    pub fn is_within(&self) -> bool {
+        *self == PartitionVariance::Within
+    }
+
+    /// Its name on the command line and in model files.
+    pub fn name(self) -> &'static str {
+        match self {
+            PartitionVariance::Mixture => "mixture",
+            PartitionVariance::Within => "within",
+        }
+    }
 }
 
 /// What model files before `partitions` existed did.
@@ -177,6 +240,7 @@ impl Default for CommitteeParams {
             reweight_mean: false,
             early_stop: true,
             partitions: 1,
+            partition_variance: PartitionVariance::Within,
         }
     }
 }
@@ -193,8 +257,8 @@ impl std::ops::Deref for CheckedCommitteeParams {
 }
 
 impl CheckedCommitteeParams {
-    /// The same settings with another master seed (a further held-out
-    /// partition's search, committee::pool).
+    /// The same settings with another master seed (a further partition's
+    /// whole training, committee::pipeline).
     pub(super) fn with_seed(&self, seed: u64) -> CheckedCommitteeParams {
         CheckedCommitteeParams(CommitteeParams {
             seed,
@@ -316,10 +380,17 @@ impl CommitteeParams {
         self
     }
 
-    /// Held-out partitions whose committees are pooled.
+    /// Whole trainings averaged (partition p with seed `seed + p`).
     #[must_use]
     pub fn partitions(mut self, n: usize) -> Self {
         self.partitions = n;
+        self
+    }
+
+    /// The variance rule of the average of the partitions.
+    #[must_use]
+    pub fn partition_variance(mut self, rule: PartitionVariance) -> Self {
+        self.partition_variance = rule;
         self
     }
 

@@ -10,11 +10,18 @@
 //! 5 residual.rs     NoiseModels     → ProcessTrial per model  [kriging not off]
 //! 6 choice.rs       ProcessTrials   → Choice (noise model, process, gross errors and shape)
 //! 7 refit.rs        Choice          → Refitted (members on all rows)
-//!   pool.rs         [partitions > 1] stages 1–4 and 7 on further held-out
-//!                   partitions, their members added to Refitted
 //!   residual.rs     Refitted        → the process on all rows [process chosen]
 //! 8 assemble.rs     everything      → Committee
 //! ```
+//!
+//! With `partitions` N > 1 the whole pipeline runs N times, partition p
+//! (p = 0 … N−1) with master seed `seed + p` (wrapping), each choosing its
+//! own held-out part, candidates, noise model, process, gross errors and
+//! error shape; partitions 2 … N are kept inside the first
+//! ([`Committee::further_partitions`]) and predictions average them
+//! (bagging over held-out splits, Breiman 1996, *Machine Learning*
+//! 24:123; the variance by [`super::PartitionVariance`]). Partition p is
+//! therefore bit for bit the committee of a training with seed `seed + p`.
 
 use ndarray::{ArrayView1, ArrayView2};
 
@@ -23,16 +30,18 @@ use super::by_size::ConstantCommittee;
 use super::candidates::CandidateSearch;
 use super::choice::Choice;
 use super::noise_models::NoiseModels;
-use super::pool::further_partition;
 use super::refit::Refitted;
 use super::residual::{process_on_all_rows, process_wanted, try_processes, ProcessRows};
 use super::split::HeldOutSplit;
 use super::varying::VaryingCommittee;
 use super::{CheckedCommitteeParams, Committee, NoiseMode};
 use crate::error::Result;
-use crate::observer::TrainObserver;
+use crate::observer::{TrainEvent, TrainObserver};
 
-/// Train a committee for one target on scaled data.
+/// Train a committee for one target on scaled data: `params.partitions`
+/// whole trainings, partition p with master seed `params.seed + p`
+/// (wrapping), the further ones kept in the first's
+/// [`Committee::further_partitions`].
 ///
 /// `x` (N × d) and `t` (N) are scaled; `target_width` is the target's
 /// scaling width, so that `ln(target_width)` turns a scaled NLPD into
@@ -41,8 +50,49 @@ use crate::observer::TrainObserver;
 /// # Errors
 /// [`crate::Error::NotEnoughRows`] when the held-out split leaves too little
 /// on either side; [`crate::Error::AllCandidatesFailed`] when no candidate
-/// trains, or a required noise model or residual process cannot be fitted.
+/// trains, or a required noise model or residual process cannot be fitted
+/// (in any partition).
 pub fn train_committee(
+    params: &CheckedCommitteeParams,
+    x: ArrayView2<f64>,
+    t: ArrayView1<f64>,
+    target_width: f64,
+    target_name: &str,
+    source: &str,
+    observer: &dyn TrainObserver,
+) -> Result<Committee> {
+    let n = params.partitions.max(1);
+    let train = |p: usize| {
+        if n > 1 {
+            observer.observe(&TrainEvent::PartitionStarted {
+                target: target_name,
+                partition: p + 1,
+                n_partitions: n,
+            });
+        }
+        let pp = params.with_seed(partition_seed(params.seed, p));
+        train_partition(&pp, x, t, target_width, target_name, source, observer)
+    };
+    let mut first = train(0)?;
+    for p in 1..n {
+        let further = train(p)?;
+        first.further_partitions.push(further);
+    }
+    if n > 1 {
+        first.partition_variance = Some(params.partition_variance);
+    }
+    Ok(first)
+}
+
+/// Master seed of partition `p` (p = 0 is the training's own seed): the
+/// seed plus p, wrapping, so that partition p is the training with that
+/// seed.
+pub(super) fn partition_seed(master: u64, p: usize) -> u64 {
+    master.wrapping_add(p as u64)
+}
+
+/// One partition's whole training (stages 1–8).
+fn train_partition(
     params: &CheckedCommitteeParams,
     x: ArrayView2<f64>,
     t: ArrayView1<f64>,
@@ -76,7 +126,7 @@ pub fn train_committee(
     let mut choice = Choice::make(params, &split, tried)?;
     let gross = choice.gross_over_all_rows(t);
     // 7. the chosen members refitted on all rows, then the chosen process
-    let mut refitted = Refitted::run(
+    let refitted = Refitted::run(
         params,
         x,
         t,
@@ -86,24 +136,6 @@ pub fn train_committee(
         target,
         obs,
     )?;
-    // 7b. [partitions > 1] further partitions' committees pooled in (pool.rs)
-    let mut pooled = Vec::new();
-    for p in 1..params.partitions {
-        let further = further_partition(
-            params,
-            p,
-            x,
-            t,
-            target_width,
-            source,
-            choice.varying,
-            gross.as_ref(),
-            target,
-            obs,
-        )?;
-        refitted.absorb(further.refitted);
-        pooled.push(further.record);
-    }
     let process = process_on_all_rows(
         params,
         x,
@@ -129,7 +161,6 @@ pub fn train_committee(
         refitted,
         process,
         gross,
-        pooled,
     };
     Ok(assemble(parts, target, obs))
 }

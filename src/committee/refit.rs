@@ -143,15 +143,6 @@ impl Refitted {
         Ok(out)
     }
 
-    /// Add the members (and the refit's records) of a further partition's
-    /// committee (committee::pool).
-    pub fn absorb(&mut self, other: Refitted) {
-        self.members.extend(other.members);
-        self.failures.extend(other.failures);
-        self.gross_rows.extend(other.gross_rows);
-        self.gross_fallbacks.extend(other.gross_fallbacks);
-    }
-
     /// The share of gross errors over all the rows with what the refit
     /// found: the mean Σ(1 − r_n) of the members refitted with it, and the
     /// members that fell back to the Gaussian refit.

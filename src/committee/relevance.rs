@@ -16,7 +16,8 @@
 //! every input). Per member m, r_mi = σ_w,i / max_j σ_w,j; over the M
 //! members the relevance is the plain mean (each member counts equally, as
 //! in the committee's mean) normalised again so that the most relevant
-//! input is 1:
+//! input is 1. With several partitions ([`Committee::further_partitions`])
+//! the M members are those of every partition, each counting equally:
 //!
 //! ```text
 //! R_i = r̄_i / max_j r̄_j,     r̄_i = (1/M) Σ_m r_mi
@@ -58,13 +59,13 @@ pub struct RelevanceRange {
     pub high: f64,
 }
 
-/// Per member m the values r_mi = σ_w,i / max_j σ_w,j (model input order);
-/// `None` when the members were trained without ARD (one α for all
-/// inputs).
+/// Per member m the values r_mi = σ_w,i / max_j σ_w,j (model input order),
+/// over the members of every partition in order; `None` when the members
+/// were trained without ARD (one α for all inputs).
 pub fn member_relevance(committee: &Committee) -> Option<Vec<Vec<f64>>> {
     let d = committee.n_inputs;
-    let mut out = Vec::with_capacity(committee.members.len());
-    for m in &committee.members {
+    let mut out = Vec::new();
+    for (_, m) in committee.all_members() {
         let mut sigma = vec![f64::NAN; d];
         for (kind, alpha) in m.groups.iter().zip(&m.alpha) {
             if let GroupKind::Input(i) = kind {
@@ -150,7 +151,7 @@ pub fn relevance_over(fits: &[Vec<f64>]) -> Vec<(f64, f64, f64)> {
 }
 
 #[cfg(test)]
-mod tests {
+pub(crate) mod tests {
     use super::*;
     use crate::committee::{Member, NoiseSelection, Selection};
     use crate::evidence::{FitDiagnostics, HessianKind};
@@ -202,6 +203,8 @@ mod tests {
             },
             kriging: None,
             gross_errors: None,
+            further_partitions: vec![],
+            partition_variance: None,
         }
     }
 
@@ -228,5 +231,22 @@ mod tests {
         let v = relevance_over(&[vec![1.0, 0.2], vec![0.8, 1.0], vec![1.0, 0.5]]);
         assert_eq!(v[0], (1.0, 0.8, 1.0));
         assert_eq!(v[1], (0.5, 0.2, 1.0));
+    }
+
+    /// With further partitions the relevance is the mean over every
+    /// partition's members, each counting once (the module's formula with
+    /// M the members of all partitions): the same as one committee holding
+    /// them all, and not partition 1's alone.
+    #[test]
+    fn relevance_counts_the_members_of_every_partition() {
+        let mut two = committee_with_alphas(&[&[1.0, 4.0], &[1.0, 1.0]]);
+        let second = committee_with_alphas(&[&[100.0, 1.0]]);
+        two.further_partitions.push(second);
+        let all = committee_with_alphas(&[&[1.0, 4.0], &[1.0, 1.0], &[100.0, 1.0]]);
+        assert_eq!(relevance_with_spread(&two), relevance_with_spread(&all));
+        let mut first = two.clone();
+        first.further_partitions.clear();
+        assert_ne!(relevance(&two), relevance(&first));
+        assert_eq!(member_relevance(&two).map(|m| m.len()), Some(3));
     }
 }

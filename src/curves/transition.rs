@@ -9,7 +9,9 @@
 //! interval cannot be read off the pointwise bands. It is computed from
 //! the committee's predictive distribution by drawing curves: each draw
 //! picks a member m at random (the committee is an equal mixture of its
-//! members, see [`crate::committee`]) and two standard-normal numbers
+//! members, see [`crate::committee`]; with several partitions, a partition
+//! at random and then one of its members, each partition an equal share
+//! with its own residual process) and two standard-normal numbers
 //! u, v, and takes
 //!
 //! ```text
@@ -200,19 +202,35 @@ fn interp(y: &[f64], x0: f64, x1: f64, x: f64) -> f64 {
 /// Per member, on the learnt scale: (mean, parameter sd, noise sd) per row.
 type MemberCurves = Vec<(Vec<f64>, Vec<f64>, Vec<f64>)>;
 
-fn member_curves(model: &Model, k: usize, scaled: &Array2<f64>) -> MemberCurves {
+/// Per partition of the target's committee, its members' curves.
+fn member_curves(model: &Model, k: usize, scaled: &Array2<f64>) -> Vec<MemberCurves> {
+    let t = &model.targets[k];
+    t.committee
+        .partitions()
+        .map(|c| partition_curves(model, k, c, scaled))
+        .collect()
+}
+
+/// One partition's members' curves: each member's mean and variance with
+/// the partition's own residual process.
+fn partition_curves(
+    model: &Model,
+    k: usize,
+    committee: &crate::committee::Committee,
+    scaled: &Array2<f64>,
+) -> MemberCurves {
     let t = &model.targets[k];
     let w = t.scaling.width();
     // the residual process, when there is one, shifts every member's mean
     // and adds its variance to the parameter part, which it takes times ρ,
     // as in the committee's own prediction
-    let correction = t.committee.kriging_correction(scaled.view());
-    let process = t.committee.kriging.as_ref();
-    t.committee
+    let correction = committee.kriging_correction(scaled.view());
+    let process = committee.kriging.as_ref();
+    committee
         .members
         .iter()
         .map(|m| {
-            let (mut y, mut var, mut nv) = m.predictive(t.committee.n_inputs, scaled.view());
+            let (mut y, mut var, mut nv) = m.predictive(committee.n_inputs, scaled.view());
             if let (Some((gm, gv, factor)), Some(k)) = (&correction, process) {
                 y += gm;
                 var = Array1::from_iter(
@@ -295,11 +313,16 @@ pub fn transition(
     let temps: Vec<f64> = axis.values();
     let centre: Vec<f64> = curve.points.iter().map(|p| p.bands[k].median).collect();
     let scaled = scaled_grid(model, &curve.base, std::slice::from_ref(&axis))?;
-    let members = member_curves(model, k, &scaled);
+    let parts = member_curves(model, k, &scaled);
     let mut rng = Xoshiro256PlusPlus::seed_from_u64(o.seed);
     let mut drawn: Vec<Vec<f64>> = vec![Vec::new(); o.energies.len()];
     let mut curve_s = vec![0.0; temps.len()];
     for _ in 0..o.samples {
+        // one partition: no draw for it, so that its curves are as before
+        let members = match parts.as_slice() {
+            [one] => one,
+            all => &all[rng.random_range(0..all.len())],
+        };
         let m = &members[rng.random_range(0..members.len())];
         let u: f64 = rng.sample(StandardNormal);
         let v: f64 = rng.sample(StandardNormal);
@@ -365,7 +388,8 @@ pub fn transition(
 
 /// Probability that a single test, and the heat's mean energy, meet `r`:
 /// the committee mixture (1/M) Σ_m Φ((μ_m − g(E))/s), s the member's total
-/// sd (single test) or its parameter sd (mean energy).
+/// sd (single test) or its parameter sd (mean energy); with several
+/// partitions the mean of each partition's mixture.
 fn judge(
     model: &Model,
     k: usize,
@@ -381,7 +405,7 @@ fn judge(
         ..axis.clone()
     };
     let scaled = scaled_grid(model, base, std::slice::from_ref(&at))?;
-    let members = member_curves(model, k, &scaled);
+    let parts = member_curves(model, k, &scaled);
     let tm = &model.targets[k];
     let shape = tm.committee.shape();
     let (p_single, p_mean) = match tm.transform.forward(r.energy) {
@@ -390,18 +414,24 @@ fn judge(
         Some(g) => {
             type Curves = (Vec<f64>, Vec<f64>, Vec<f64>);
             let p = |sd: &dyn Fn(&Curves) -> f64| {
-                members
+                parts
                     .iter()
-                    .map(|m| {
-                        let s = sd(m);
-                        if s > 0.0 {
-                            shape.cdf((m.0[0] - g) / s)
-                        } else {
-                            f64::from(u8::from(m.0[0] >= g))
-                        }
+                    .map(|members| {
+                        members
+                            .iter()
+                            .map(|m| {
+                                let s = sd(m);
+                                if s > 0.0 {
+                                    shape.cdf((m.0[0] - g) / s)
+                                } else {
+                                    f64::from(u8::from(m.0[0] >= g))
+                                }
+                            })
+                            .sum::<f64>()
+                            / members.len() as f64
                     })
                     .sum::<f64>()
-                    / members.len() as f64
+                    / parts.len() as f64
             };
             (p(&|m| m.1[0].hypot_fixed(m.2[0])), p(&|m| m.1[0]))
         }

@@ -71,6 +71,30 @@ pub struct MemberCard {
     pub n_weights: usize,
     /// True when its noise level varies with the inputs.
     pub varying_noise: bool,
+    /// Its partition (1-based), only when the model averages several
+    /// (`--partitions`).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub partition: Option<usize>,
+}
+
+/// One partition of a model that averages several whole trainings
+/// (`--partitions`), on the model card.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct PartitionCard {
+    /// Partition, 1-based (partition p was trained with seed `seed + p − 1`).
+    pub partition: usize,
+    /// Its committee's members.
+    pub n_members: usize,
+    /// Held-out NLPD of its chosen committee (its own held-out part).
+    pub heldout_nlpd: f64,
+    /// Whether its noise varies with the inputs.
+    pub noise_varies: bool,
+    /// Whether it kriges its residuals.
+    pub kriged: bool,
+    /// Its share of gross errors, when it has one.
+    pub gross_share: Option<f64>,
+    /// Degrees of freedom of its Student-t shape (None: Gaussian).
+    pub tail_dof: Option<f64>,
 }
 
 /// Input relevance: an object input → value in JSON, in input order.
@@ -198,6 +222,12 @@ pub struct TargetCard {
     pub kriging: Option<KrigingCard>,
     /// The share of gross errors, when the model has one.
     pub gross_errors: Option<GrossErrorCard>,
+    /// With several partitions (`--partitions`): each one's committee, and
+    /// the variance rule; the search, process and gross-error figures
+    /// above are then partition 1's, the members and relevance all
+    /// partitions'.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub partitions: Option<(String, Vec<PartitionCard>)>,
 }
 
 /// The share of gross errors on the model card (docs/method.md §6b).
@@ -424,10 +454,10 @@ pub fn model_card(model: &Model) -> ModelCard {
         .map(|t| {
             let c = &t.committee;
             let (noise_sd, noise_sd_range, noise_basis) = noise_of(t);
+            let several = c.n_partitions() > 1;
             let members = c
-                .members
-                .iter()
-                .map(|m| MemberCard {
+                .all_members()
+                .map(|(p, m)| MemberCard {
                     n_hidden: m.n_hidden,
                     restart: m.restart,
                     log_evidence: m.log_evidence,
@@ -435,8 +465,26 @@ pub fn model_card(model: &Model) -> ModelCard {
                     gamma: m.gamma.iter().sum(),
                     n_weights: m.weights.len(),
                     varying_noise: m.noise.is_some(),
+                    partition: several.then_some(p + 1),
                 })
                 .collect();
+            let partitions = several.then(|| {
+                let cards = c
+                    .partitions()
+                    .enumerate()
+                    .map(|(p, pc)| PartitionCard {
+                        partition: p + 1,
+                        n_members: pc.members.len(),
+                        heldout_nlpd: pc.selection.nlpd_by_size
+                            [pc.selection.n_members.saturating_sub(1)],
+                        noise_varies: pc.selection.noise.varying,
+                        kriged: pc.kriging.is_some(),
+                        gross_share: pc.gross_errors.as_ref().map(|g| g.share),
+                        tail_dof: pc.gross_errors.as_ref().and_then(|g| g.tail_dof),
+                    })
+                    .collect();
+                (c.partition_rule().name().to_string(), cards)
+            });
             let relevance = relevance(c).map(|r| {
                 Relevance(
                     model
@@ -537,6 +585,7 @@ pub fn model_card(model: &Model) -> ModelCard {
                 ),
                 stopped_early: c.candidates.iter().filter(|k| k.stopped.is_some()).count(),
                 nlpd_by_size: c.selection.nlpd_by_size.clone(),
+                partitions,
             }
         })
         .collect();

@@ -122,93 +122,110 @@ impl Model {
             if t.scaling.hi.partial_cmp(&t.scaling.lo) != Some(std::cmp::Ordering::Greater) {
                 return Err(format!("target '{}' has an invalid scaling", t.name));
             }
-            if t.committee.members.is_empty() {
-                return Err(format!("target '{}' has no committee members", t.name));
-            }
-            if t.committee.n_inputs != d {
+            if t.committee
+                .further_partitions
+                .iter()
+                .any(|f| !f.further_partitions.is_empty())
+            {
                 return Err(format!(
-                    "target '{}' committee takes {} inputs, the model lists {d}",
-                    t.name, t.committee.n_inputs
+                    "target '{}': a further partition holds partitions of its own",
+                    t.name
                 ));
             }
-            for (i, m) in t.committee.members.iter().enumerate() {
-                let k = m.arch(d).n_params();
-                if m.weights.len() != k {
+            for (p, c) in t.committee.partitions().enumerate() {
+                let who = if p == 0 {
+                    format!("target '{}'", t.name)
+                } else {
+                    format!("target '{}' partition {}", t.name, p + 1)
+                };
+                if c.members.is_empty() {
+                    return Err(format!("{} has no committee members", who));
+                }
+                if c.n_inputs != d {
                     return Err(format!(
-                        "target '{}' member {}: {} weights, expected {k}",
-                        t.name,
-                        i + 1,
-                        m.weights.len()
+                        "{} committee takes {} inputs, the model lists {d}",
+                        who, c.n_inputs
                     ));
                 }
-                if m.posterior_cov.nrows() != k {
-                    return Err(format!(
-                        "target '{}' member {}: covariance of size {}, expected {k}",
-                        t.name,
-                        i + 1,
-                        m.posterior_cov.nrows()
-                    ));
-                }
-                if m.beta.partial_cmp(&0.0) != Some(std::cmp::Ordering::Greater)
-                    || m.weights
-                        .iter()
-                        .chain(m.posterior_cov.iter())
-                        .any(|v| !v.is_finite())
-                {
-                    return Err(format!(
-                        "target '{}' member {}: non-finite or invalid numbers",
-                        t.name,
-                        i + 1
-                    ));
-                }
-                if let Some(nm) = &m.noise {
-                    let k = crate::net::Architecture::new(d, nm.n_hidden).n_params();
-                    if nm.weights.len() != k
-                        || nm.posterior_cov.nrows() != k
-                        || nm
-                            .weights
+                for (i, m) in c.members.iter().enumerate() {
+                    let k = m.arch(d).n_params();
+                    if m.weights.len() != k {
+                        return Err(format!(
+                            "{} member {}: {} weights, expected {k}",
+                            who,
+                            i + 1,
+                            m.weights.len()
+                        ));
+                    }
+                    if m.posterior_cov.nrows() != k {
+                        return Err(format!(
+                            "{} member {}: covariance of size {}, expected {k}",
+                            who,
+                            i + 1,
+                            m.posterior_cov.nrows()
+                        ));
+                    }
+                    if m.beta.partial_cmp(&0.0) != Some(std::cmp::Ordering::Greater)
+                        || m.weights
                             .iter()
-                            .chain(nm.posterior_cov.iter())
+                            .chain(m.posterior_cov.iter())
                             .any(|v| !v.is_finite())
                     {
                         return Err(format!(
-                            "target '{}' member {}: its noise network has {} weights and a covariance of size {} (expected {k} each, all finite)",
-                            t.name,
-                            i + 1,
-                            nm.weights.len(),
-                            nm.posterior_cov.nrows()
+                            "{} member {}: non-finite or invalid numbers",
+                            who,
+                            i + 1
+                        ));
+                    }
+                    if let Some(nm) = &m.noise {
+                        let k = crate::net::Architecture::new(d, nm.n_hidden).n_params();
+                        if nm.weights.len() != k
+                            || nm.posterior_cov.nrows() != k
+                            || nm
+                                .weights
+                                .iter()
+                                .chain(nm.posterior_cov.iter())
+                                .any(|v| !v.is_finite())
+                        {
+                            return Err(format!(
+                                "{} member {}: its noise network has {} weights and a covariance of size {} (expected {k} each, all finite)",
+                                who,
+                                i + 1,
+                                nm.weights.len(),
+                                nm.posterior_cov.nrows()
+                            ));
+                        }
+                    }
+                }
+                if let Some(k) = &c.kriging {
+                    let ok = k.x.ncols() == d
+                        && k.length_scales.len() == d
+                        && k.x
+                            .iter()
+                            .chain(&k.residual)
+                            .chain(&k.noise_var)
+                            .chain(&k.length_scales)
+                            .all(|v| v.is_finite())
+                        && k.signal_var > 0.0
+                        && k.noise_factor > 0.0
+                        && k.is_usable();
+                    if !ok {
+                        return Err(format!(
+                            "{}: its residual process is damaged ({} rows × {} inputs, {} length scales; expected {d} inputs, finite numbers and a kernel matrix that factorises)",
+                            who,
+                            k.x.nrows(),
+                            k.x.ncols(),
+                            k.length_scales.len()
                         ));
                     }
                 }
-            }
-            if let Some(k) = &t.committee.kriging {
-                let ok = k.x.ncols() == d
-                    && k.length_scales.len() == d
-                    && k.x
-                        .iter()
-                        .chain(&k.residual)
-                        .chain(&k.noise_var)
-                        .chain(&k.length_scales)
-                        .all(|v| v.is_finite())
-                    && k.signal_var > 0.0
-                    && k.noise_factor > 0.0
-                    && k.is_usable();
-                if !ok {
-                    return Err(format!(
-                        "target '{}': its residual process is damaged ({} rows × {} inputs, {} length scales; expected {d} inputs, finite numbers and a kernel matrix that factorises)",
-                        t.name,
-                        k.x.nrows(),
-                        k.x.ncols(),
-                        k.length_scales.len()
-                    ));
-                }
-            }
-            if let Some(g) = &t.committee.gross_errors {
-                if !g.is_valid() {
-                    return Err(format!(
-                        "target '{}': its share of gross errors is damaged (share {}, background mean {}, sd {}; expected a share in [0, 0.25] and a finite mean and positive sd)",
-                        t.name, g.share, g.background_mean, g.background_sd
-                    ));
+                if let Some(g) = &c.gross_errors {
+                    if !g.is_valid() {
+                        return Err(format!(
+                            "{}: its share of gross errors is damaged (share {}, background mean {}, sd {}; expected a share in [0, 0.25] and a finite mean and positive sd)",
+                            who, g.share, g.background_mean, g.background_sd
+                        ));
+                    }
                 }
             }
         }

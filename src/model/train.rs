@@ -262,9 +262,8 @@ impl Model {
             .train(name, values, transform)?;
             evals += target
                 .committee
-                .members
-                .iter()
-                .map(|m| m.diagnostics.gradient_evaluations)
+                .all_members()
+                .map(|(_, m)| m.diagnostics.gradient_evaluations)
                 .sum::<u64>();
             targets.push(target);
         }

@@ -76,11 +76,42 @@ pub(super) fn card_section(card: &ModelCard) -> String {
             ),
             None => "<p>Measured replicate scatter: the training rows hold no repeat tests (no two rows with identical inputs).</p>\n".into(),
         });
+        if let Some((rule, parts)) = &t.partitions {
+            let each: Vec<String> = parts
+                .iter()
+                .map(|p| {
+                    format!(
+                        "partition {}: {} members, held-out NLPD {}, {} noise{}",
+                        p.partition,
+                        p.n_members,
+                        fmt(p.heldout_nlpd),
+                        if p.noise_varies {
+                            "varying"
+                        } else {
+                            "constant"
+                        },
+                        if p.kriged { ", residuals kriged" } else { "" }
+                    )
+                })
+                .collect();
+            s.push_str(&format!(
+                "<p>The estimates average {} whole trainings (partitions, seeds seed + 0, seed + 1, …), each with its own held-out part, noise model, residual process and gross errors; variance rule '{}' ({}). {}. The members below are all partitions'; the search chart and the process and gross-error figures are partition 1's.</p>\n",
+                parts.len(),
+                esc(rule),
+                if rule == "mixture" {
+                    "the partitions' mean variance plus the spread of their means"
+                } else {
+                    "the partitions' mean variance"
+                },
+                esc(&each.join("; "))
+            ));
+        }
+        let several = t.partitions.is_some();
         let rows: Vec<Vec<String>> = t
             .members
             .iter()
             .map(|m| {
-                vec![
+                let mut row = vec![
                     m.n_hidden.to_string(),
                     m.restart.to_string(),
                     fmt(m.log_evidence),
@@ -93,19 +124,27 @@ pub(super) fn card_section(card: &ModelCard) -> String {
                         "constant"
                     }
                     .into(),
-                ]
+                ];
+                if let (true, Some(p)) = (several, m.partition) {
+                    row.push(p.to_string());
+                }
+                row
             })
             .collect();
+        let mut head = vec![
+            "hidden units",
+            "restart",
+            "log evidence",
+            "held-out NLPD",
+            "γ",
+            "weights",
+            "noise",
+        ];
+        if several {
+            head.push("partition");
+        }
         s.push_str(&table(
-            &[
-                "hidden units",
-                "restart",
-                "log evidence",
-                "held-out NLPD",
-                "γ",
-                "weights",
-                "noise",
-            ],
+            &head,
             &rows,
             Some(&format!("card-members-{}", id_part(&t.name))),
         ));
