@@ -689,6 +689,30 @@ fn main_inputs(share: &[f64]) -> Vec<usize> {
     named
 }
 
+/// The inputs that make up most of the weighted gap to the nearest
+/// training row ([`main_inputs`]), each as "name query-value against
+/// row-value" in input units.
+fn gap_inputs(
+    shown: &Shown,
+    r: &DomainReference,
+    raw: ArrayView1<f64>,
+    near: &NearMeasure,
+) -> Vec<String> {
+    let d = r.n_inputs;
+    let row = &r.scaled_rows[near.nearest * d..(near.nearest + 1) * d];
+    main_inputs(&near.share)
+        .into_iter()
+        .map(|j| {
+            format!(
+                "{} {} against {}",
+                shown.inputs[j].name,
+                shown.value(j, raw[j]),
+                shown.value(j, shown.inputs[j].scaling.unscale(row[j]))
+            )
+        })
+        .collect()
+}
+
 /// The note for a row far from every training row in the inputs that
 /// matter, naming the inputs that make up most of the weighted gap with
 /// the query's value against the nearest training row's (input units).
@@ -699,19 +723,7 @@ fn far_note(
     near: &NearMeasure,
     limit: f64,
 ) -> String {
-    let d = r.n_inputs;
-    let row = &r.scaled_rows[near.nearest * d..(near.nearest + 1) * d];
-    let named: Vec<String> = main_inputs(&near.share)
-        .into_iter()
-        .map(|j| {
-            format!(
-                "{} {} against {}",
-                shown.inputs[j].name,
-                shown.value(j, raw[j]),
-                shown.value(j, shown.inputs[j].scaling.unscale(row[j]))
-            )
-        })
-        .collect();
+    let named = gap_inputs(shown, r, raw, near);
     let level = if r.distances().0 < near.distance {
         "outside"
     } else {
@@ -736,19 +748,7 @@ fn level_note(
     l: &LevelNear,
     limit: f64,
 ) -> String {
-    let d = r.n_inputs;
-    let row = &r.scaled_rows[l.near.nearest * d..(l.near.nearest + 1) * d];
-    let named: Vec<String> = main_inputs(&l.near.share)
-        .into_iter()
-        .map(|j| {
-            format!(
-                "{} {} against {}",
-                shown.inputs[j].name,
-                shown.value(j, raw[j]),
-                shown.value(j, shown.inputs[j].scaling.unscale(row[j]))
-            )
-        })
-        .collect();
+    let named = gap_inputs(shown, r, raw, &l.near);
     let at = match l.level {
         Some(j) => format!("at {}", shown.inputs[j].name),
         None => {
