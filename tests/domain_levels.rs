@@ -231,10 +231,10 @@ struct Tally {
 }
 
 impl Tally {
-    fn add(&mut self, v: &DomainVerdict) {
+    fn add(&mut self, level: DomainLevel) {
         self.n += 1;
-        self.outside += usize::from(v.level == DomainLevel::Outside);
-        self.thin += usize::from(v.level == DomainLevel::Thin);
+        self.outside += usize::from(level == DomainLevel::Outside);
+        self.thin += usize::from(level == DomainLevel::Thin);
     }
     fn rate(&self) -> f64 {
         self.outside as f64 / self.n.max(1) as f64
@@ -303,10 +303,10 @@ fn measure(two_codes: bool, seeds: &[u64]) -> Vec<Measured> {
             let g = guard_for(&rows, groups);
             for i in (0..n).filter(|&i| held[i]) {
                 let v = g.verdict(&laid_out(&row(i), &codes_of(&a, i), m.layout));
-                m.held.add(&v);
+                m.held.add(v.level);
             }
             for (q, c) in &holes {
-                m.holes.add(&g.verdict(&laid_out(q, c, m.layout)));
+                m.holes.add(g.verdict(&laid_out(q, c, m.layout)).level);
             }
         }
     }
@@ -496,9 +496,7 @@ fn trained_rates(two_codes: bool, seeds: &[u64]) -> [(Tally, Tally); 2] {
                 .predict(&table("held.csv", &hq, &hc, false))
                 .expect("held")
             {
-                out[k].0.n += 1;
-                out[k].0.outside += usize::from(p.level == DomainLevel::Outside);
-                out[k].0.thin += usize::from(p.level == DomainLevel::Thin);
+                out[k].0.add(p.level);
             }
             if oq.is_empty() {
                 continue;
@@ -507,9 +505,7 @@ fn trained_rates(two_codes: bool, seeds: &[u64]) -> [(Tally, Tally); 2] {
                 .predict(&table("holes.csv", &oq, &oc, false))
                 .expect("holes")
             {
-                out[k].1.n += 1;
-                out[k].1.outside += usize::from(p.level == DomainLevel::Outside);
-                out[k].1.thin += usize::from(p.level == DomainLevel::Thin);
+                out[k].1.add(p.level);
             }
         }
     }
