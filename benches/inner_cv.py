@@ -16,8 +16,10 @@ cross-validated RMSE, a Gaussian LL (mean log N(y | mean, sd^2), for mettle not 
 paired RMSE difference against the first setting (mean over folds ± its SE), the CPU
 time of the fits, and for mettle its own LL (−nlpd of `mettle evaluate`, with the model's error
 shape and share of gross errors) and central-interval coverages over the folds. With --rows DIR the per-row out-of-fold predictions are written as
-DIR/<dataset>_<outer>_<setting>.csv (row = index into data.csv, y, mean, sd) for the
-residual study (benches/inner_cv.py --groups).
+DIR/<dataset>_<outer>_<setting>.csv (row = index into data.csv, y, mean, sd, and the sd's
+noise and model parts noise_sd, model_sd of `mettle predict`; NaN for CatBoost) for the
+residual study (benches/inner_cv.py --groups) and --paired; files of four columns (row, y,
+mean, sd: written before session 19) are still read, by every rule but poolrho.
 
 --paired: instead of training, read the per-row files of --rows DIR for the outer splits
 --outer and report, per setting against the first --config, the paired difference of the
@@ -36,10 +38,23 @@ the mean of their own variances, mean(var_i) (their disagreement not counted aga
 model's variance is that of its own error (noise, shared, plus s^2 from the model, the K
 models' errors of any correlation ρ), i.e. noise + s^2 (1 + (K − 1) ρ)/K, which
 mean(var_i) − mean((μ_i − μ)^2) estimates without bias; floored at mean(var_i)/K, the bound
-for ρ ≥ 0. The Gaussian LL and coverages use the rule's sd. With a pooled setting, the
-coverages of every setting are also printed in the 10 % and 2 % of rows where the first pooled
-setting's models disagree most (spread of their means over their mean variance): where the
-rules differ most, and where a user extrapolates.
+for ρ ≥ 0. `--config NAME=poolrho<R>:A+B[+C...]` (e.g. `poolrho0.5:s0+s1+s2`) splits each
+model's variance into its noise part n_i = noise_sd_i^2 and its model part
+u_i = sd_i^2 − n_i (floored at 0; for a transformed target the parts are mapped back by the
+slope, so u_i is what the total leaves beside the noise), and gives the average of the K
+models, with n = mean(n_i), u = mean(u_i), s^2 = mean((μ_i − μ)^2) and a constant correlation
+ρ = R between the models' errors, the variance
+    n + u (1 + (K − 1) ρ)/K + max(0, s^2 − u (1 − ρ)(K − 1)/K):
+the error variance of the average of K equally correlated errors of variance u on top of the
+shared noise (the variance of a mean of equicorrelated variables; e.g. Kendall & Stuart, or any
+text on the variance of a sum), plus whatever spread of the means exceeds the spread that
+correlation expects, E s^2 = u (1 − ρ)(K − 1)/K. ρ = 1 gives poolin; the excess term keeps the
+bars wide where the models disagree beyond what their own model variances allow. It needs
+per-row files with the noise_sd column. The Gaussian LL and coverages use the rule's sd. With
+pooled settings, the coverages of every setting are also printed in the 10 % and 2 % of rows
+where the models of a pooled setting disagree most (spread of their means over their mean
+variance), once for each distinct set of averaged models: where the rules differ most, and
+where a user extrapolates.
 
 --groups: instead of training, read the per-row files of --rows DIR and report how much of
 each setting's out-of-fold squared error is shared by the rows of one group (concrete: one
@@ -115,7 +130,9 @@ def mettle_fold(header, train, test, config, work):
     ev = ev[0] if isinstance(ev, list) else ev
     n = len(test)
     OWN.append((n, n * ev["nlpd"], n * ev["coverage_68"], n * ev["coverage_95"]))
-    return np.array([e["mean"] for e in est]), np.array([e["sd"] for e in est]), cpu
+    parts = np.array([[e["noise_sd"], e["model_sd"]] for e in est]).reshape(-1, 2)
+    return (np.array([e["mean"] for e in est]), np.array([e["sd"] for e in est]), parts,
+            cpu)
 
 
 OWN = []
@@ -138,7 +155,7 @@ def catboost_fold(train, test, seed):
     model.fit(train[:, :-1], train[:, -1])
     cpu = time.process_time() - c0
     pred = np.asarray(model.predict(test[:, :-1], prediction_type="RMSEWithUncertainty"))
-    return pred[:, 0], np.sqrt(pred[:, 1]), cpu
+    return pred[:, 0], np.sqrt(pred[:, 1]), np.full((len(test), 2), np.nan), cpu
 
 
 def scores(y, mean, sd):
@@ -168,13 +185,14 @@ def train_all():
         per_fold_rmse = {}
         for name, extra in configs:
             mean, sd, cpu = np.empty(len(tr)), np.empty(len(tr)), 0.0
+            parts = np.empty((len(tr), 2))
             for f in range(ARGS.folds):
                 a, b = data[tr[fold != f]], data[tr[fold == f]]
                 if extra is None:
-                    m, s, c = catboost_fold(a, b, 100 * k + f)
+                    m, s, q, c = catboost_fold(a, b, 100 * k + f)
                 else:
-                    m, s, c = mettle_fold(header, a, b, extra, work)
-                mean[fold == f], sd[fold == f] = m, s
+                    m, s, q, c = mettle_fold(header, a, b, extra, work)
+                mean[fold == f], sd[fold == f], parts[fold == f] = m, s, q
                 cpu += c
             per_fold_rmse[name] = np.array([
                 math.sqrt(np.mean((y[fold == f] - mean[fold == f]) ** 2))
@@ -191,8 +209,9 @@ def train_all():
                   f"{d.mean():+.4f} ± {se:.4f} (folds) | CPU {cpu:.1f} s{own}", flush=True)
             if ARGS.rows:
                 np.savetxt(ARGS.rows / f"{ARGS.dataset}_{k}_{name}.csv",
-                           np.column_stack([tr, y, mean, sd]), delimiter=",",
-                           header="row,y,mean,sd", comments="", fmt="%.10g")
+                           np.column_stack([tr, y, mean, sd, parts]), delimiter=",",
+                           header="row,y,mean,sd,noise_sd,model_sd", comments="",
+                           fmt="%.10g")
 
 
 def group_keys(header, data):
@@ -236,31 +255,72 @@ def groups():
                 print(f"    {h} (value:RMSE/mean residual) " + " ".join(cells))
 
 
-def load_rows(k, name, pooled):
-    """The per-row file of setting `name` on outer split k; with `pooled` = (rule, [settings])
-    the equal-weight average of their models instead: the mean of their means, and as its
-    variance the equal mixture's (rule "pool": mean of the variances plus the spread of the
-    means, var = mean(var_i) + mean((mu_i - mu)^2)), the mean of the models' own variances
-    alone (rule "poolin": var = mean(var_i), their disagreement not counted again), or the
-    average's own error variance (rule "poolavg": that less the spread, floored; below)."""
-    if not pooled:
-        return np.loadtxt(ARGS.rows / f"{ARGS.dataset}_{k}_{name}.csv", delimiter=",",
-                          skiprows=1)
-    rule, members = pooled
-    rs = [load_rows(k, p, None) for p in members]
-    if any(not np.array_equal(r[:, :2], rs[0][:, :2]) for r in rs):
-        sys.exit(f"{name}: the per-row files of {members} on outer split {k} differ in rows")
+POOL_RULES = ("pool", "poolin", "poolavg", "poolrho<R>")
+
+
+def pool_rule(rule):
+    """`rule` of `--config NAME=RULE:A+B` parsed: (kind, ρ) for a known rule, None otherwise."""
+    if rule in ("pool", "poolin", "poolavg"):
+        return rule, None
+    if rule.startswith("poolrho"):
+        try:
+            rho = float(rule[len("poolrho"):])
+        except ValueError:
+            return None
+        return ("poolrho", rho) if 0.0 <= rho <= 1.0 else None
+    return None
+
+
+def pooled_variance(rule, rs):
+    """The variance the rule `rule` = (kind, ρ) gives the average of the K models whose
+    per-row arrays are `rs` (columns row, y, mean, sd[, noise_sd, model_sd]); see the module
+    docstring and load_rows."""
+    kind, rho = rule
+    K = len(rs)
     m = np.mean([r[:, 2] for r in rs], axis=0)
     v = np.mean([r[:, 3] ** 2 for r in rs], axis=0)
-    if rule == "pool":
-        v = v + np.mean([(r[:, 2] - m) ** 2 for r in rs], axis=0)
-    elif rule == "poolavg":
+    s2 = np.mean([(r[:, 2] - m) ** 2 for r in rs], axis=0)
+    if kind == "pool":
+        return v + s2
+    if kind == "poolin":
+        return v
+    if kind == "poolavg":
         # the average's own error variance if each model's variance is its own error's,
         # noise + s^2, the noise shared and the K models' mean errors of variance s^2 and
         # correlation rho: the average's is noise + s^2 (1 + (K-1) rho)/K, and
         # E mean((mu_i - mu)^2) = s^2 (1 - rho)(K-1)/K, so mean(var_i) less that spread is
         # unbiased for it whatever rho; floored at mean(var_i)/K (the bound for rho >= 0)
-        v = np.maximum(v - np.mean([(r[:, 2] - m) ** 2 for r in rs], axis=0), v / len(rs))
+        return np.maximum(v - s2, v / K)
+    # poolrho: noise n (shared) plus the variance of the mean of K model errors of variance u
+    # and constant correlation rho, u (1 + (K-1) rho)/K, plus the spread of the means beyond
+    # its expectation under that correlation, E s^2 = u (1 - rho)(K-1)/K
+    if any(r.shape[1] < 5 or np.isnan(r[:, 4]).any() for r in rs):
+        sys.exit("poolrho needs per-row files with the noise_sd column (written since "
+                 "session 19); re-run the settings with --rows")
+    n = np.mean([r[:, 4] ** 2 for r in rs], axis=0)
+    u = np.mean([np.maximum(r[:, 3] ** 2 - r[:, 4] ** 2, 0.0) for r in rs], axis=0)
+    expected = u * (1 - rho) * (K - 1) / K
+    return n + u * (1 + (K - 1) * rho) / K + np.maximum(0.0, s2 - expected)
+
+
+def load_rows(k, name, pooled):
+    """The per-row file of setting `name` on outer split k; with `pooled` = (rule, [settings])
+    the equal-weight average of their models instead: the mean of their means, and as its
+    variance the equal mixture's (rule "pool": mean of the variances plus the spread of the
+    means, var = mean(var_i) + mean((mu_i - mu)^2)), the mean of the models' own variances
+    alone (rule "poolin": var = mean(var_i), their disagreement not counted again), the
+    average's own error variance (rule "poolavg": that less the spread, floored), or the
+    constant-correlation rule "poolrho<R>" (pooled_variance). Returned columns: row, y, mean,
+    sd, and for a single setting its noise_sd and model_sd when the file holds them."""
+    if not pooled:
+        return np.loadtxt(ARGS.rows / f"{ARGS.dataset}_{k}_{name}.csv", delimiter=",",
+                          skiprows=1, ndmin=2)
+    rule, members = pooled
+    rs = [load_rows(k, p, None) for p in members]
+    if any(not np.array_equal(r[:, :2], rs[0][:, :2]) for r in rs):
+        sys.exit(f"{name}: the per-row files of {members} on outer split {k} differ in rows")
+    m = np.mean([r[:, 2] for r in rs], axis=0)
+    v = pooled_variance(rule, rs)
     return np.column_stack([rs[0][:, 0], rs[0][:, 1], m, np.sqrt(v)])
 
 
@@ -279,13 +339,14 @@ def paired():
         name, _, extra = c.partition("=")
         name = name.partition("@")[0]
         names.append(name)
-        # NAME=RULE:A+B averages the saved models of settings A and B (model averaging);
-        # RULE (pool, poolin, poolavg) names the variance given to the average (load_rows)
+        # NAME=RULE:A+B averages the saved models of settings A and B (model averaging); RULE
+        # (pool, poolin, poolavg, poolrho<R>) names the variance given to the average
         rule, colon, members = extra.partition(":")
-        known = colon and rule in ("pool", "poolin", "poolavg")
-        pools[name] = (rule, members.split("+")) if known else None
+        known = pool_rule(rule) if colon else None
+        pools[name] = (known, members.split("+")) if known else None
         if colon and pools[name] is None:
-            sys.exit(f"--config {c}: the rules are pool:, poolin: and poolavg:")
+            sys.exit(f"--config {c}: the rules are " + ", ".join(POOL_RULES) +
+                     " (R in [0, 1]), each followed by :A+B[+C...]")
     rmse = {n: [] for n in names}
     ll = {n: [] for n in names}
     rows = {n: [] for n in names}
@@ -318,15 +379,23 @@ def paired():
               f"RMSE {rm:.4f} Gaussian LL {l:.4f} cov68 {c68:.3f} cov95 {c95:.3f} | "
               f"LL-optimal sd scale {c:.3f} (LL {l + gain:.4f} with it); "
               f"scale for 68 % coverage {np.quantile(np.abs(y - mean) / sd, 0.6827):.3f}")
-    # where the averaged models disagree most: coverage in the rows of the largest spread of
-    # the first pooled setting's models relative to their mean variance (the rows where an
-    # average's variance rule matters most)
-    first = next((pools[n][1] for n in names if pools[n]), None)
-    if first is None:
-        return
+    # where the averaged models disagree most: coverage in the rows of the largest spread of a
+    # pooled setting's models relative to their mean variance (the rows where an average's
+    # variance rule matters most), once for each distinct set of averaged models
+    sets = []
+    for n in names:
+        if pools[n] and pools[n][1] not in sets:
+            sets.append(pools[n][1])
+    for members in sets:
+        disagreement_coverage(names, rows, members)
+
+
+def disagreement_coverage(names, rows, members):
+    """Coverage of ±1 sd and ±2 sd of every setting in the 10 % and 2 % of rows where the
+    models `members` disagree most (spread of their means over their mean variance)."""
     ratio = []
     for k in map(int, ARGS.outer.split(",")):
-        rs = [load_rows(k, p, None) for p in first]
+        rs = [load_rows(k, p, None) for p in members]
         m = np.mean([r[:, 2] for r in rs], axis=0)
         spread = np.mean([(r[:, 2] - m) ** 2 for r in rs], axis=0)
         ratio.append(spread / np.mean([r[:, 3] ** 2 for r in rs], axis=0))
@@ -339,7 +408,7 @@ def paired():
             z = np.abs(r[:, 1] - r[:, 2]) / r[:, 3]
             cells.append(f"{n} {np.mean(z < 1):.3f}/{np.mean(z < 2):.3f}")
         print(f"{ARGS.dataset} outer {ARGS.outer}: cov68/cov95 in the {share:.0%} of rows where "
-              f"{'+'.join(first)} disagree most ({np.sum(top)} rows, spread/mean var ≥ "
+              f"{'+'.join(members)} disagree most ({np.sum(top)} rows, spread/mean var ≥ "
               f"{np.quantile(ratio, 1 - share):.3f}): " + ", ".join(cells))
 
 
