@@ -46,10 +46,14 @@ models, with n = mean(n_i), u = mean(u_i), s^2 = mean((μ_i − μ)^2) and a con
 ρ = R between the models' errors, the variance
     n + u (1 + (K − 1) ρ)/K + max(0, s^2 − u (1 − ρ)(K − 1)/K):
 the error variance of the average of K equally correlated errors of variance u on top of the
-shared noise (the variance of a mean of equicorrelated variables; e.g. Kendall & Stuart, or any
-text on the variance of a sum), plus whatever spread of the means exceeds the spread that
-correlation expects, E s^2 = u (1 − ρ)(K − 1)/K. ρ = 1 gives poolin; the excess term keeps the
-bars wide where the models disagree beyond what their own model variances allow. It needs
+shared noise (the variance of a mean of K equicorrelated variables, u/K + (K − 1) ρ u/K: the
+variance of a sum, Var Σe_i = Σ Var e_i + Σ_{i≠j} Cov(e_i, e_j); textbook algebra, cited from
+memory), plus whatever spread of the means exceeds the spread that correlation expects,
+E s^2 = u (1 − ρ)(K − 1)/K. Without the excess term ρ = 1 would give poolin; with it ρ = 1
+gives pool (every bit of spread is excess when the errors are taken to be equal). The excess
+term keeps the bars wide where the models disagree beyond what their own model variances
+allow, while where they agree the model part shrinks as the average's error does (ρ = 0: by
+1/K). It needs
 per-row files with the noise_sd column. The Gaussian LL and coverages use the rule's sd. With
 pooled settings, the coverages of every setting are also printed in the 10 % and 2 % of rows
 where the models of a pooled setting disagree most (spread of their means over their mean
