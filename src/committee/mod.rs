@@ -763,8 +763,8 @@ mod tests {
 
     /// The `correlated` rule by hand ([`PartitionVariance`]): with n the
     /// mean noise variance, u the mean model variance var − noise, s² the
-    /// spread of the means, v = n + u·(1 + (K−1)ρ)/K
-    /// + max(0, s² − u·(1−ρ)(K−1)/K); the committee variance alike from
+    /// spread of the means, v = n + u·(1 + (K−1)ρ)/K +
+    /// max(0, s² − u·(1−ρ)(K−1)/K); the committee variance alike from
     /// the mean committee variance c.
     ///
     /// K = 2, ρ = 0.5 (coefficients 0.75 and 0.25), both partitions with
