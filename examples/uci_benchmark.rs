@@ -8,13 +8,16 @@
 //!     [--datasets concrete,energy,yacht,wine-quality-red] [--splits 20]
 //!     [--hidden 1..10] [--restarts 4] [--markdown FILE]
 //!     [--noise auto|constant|varying] [--kriging auto|on|off] [--gross-errors on|off] [--heavy-tails on|off] [--model-var-scale on|off] [--reweight-mean] [--first-split 0] [--no-widen] [--no-early-stop] [--no-ard] [--max-cycles N] [--first-iters N] [--cycle-iters N]
-//!     [--max-members N] [--holdout FRACTION] [--partitions N] [--partition-variance within|mixture]
+//!     [--max-members N] [--holdout FRACTION] [--partitions N] [--partition-variance within|mixture|correlated]
+//!     [--partition-correlation R]
 //! ```
 //!
 //! `--partitions N` averages N whole trainings (partition p with seed
 //! `seed + p`); `--partition-variance` says how their variances combine
 //! (`within`: the mean of the partitions' variances; `mixture`: plus the
-//! spread of their means), only with N > 1.
+//! spread of their means; `correlated`: their model errors correlated
+//! with `--partition-correlation` ρ, plus the spread beyond what ρ
+//! expects), only with N > 1.
 //!
 //! The options after `--markdown` exist to study the engine's settings;
 //! the published table uses the defaults. Environment switches for
@@ -160,6 +163,7 @@ fn main() {
     let mut max_members: Option<usize> = None;
     let mut partitions: Option<usize> = None;
     let mut partition_variance: Option<PartitionVariance> = None;
+    let mut partition_correlation: Option<f64> = None;
     let mut holdout: Option<f64> = None;
     let mut gross_errors = true;
     let mut heavy_tails = true;
@@ -201,8 +205,14 @@ fn main() {
                 partition_variance = Some(match v.as_str() {
                     "within" => PartitionVariance::Within,
                     "mixture" => PartitionVariance::Mixture,
-                    other => panic!("--partition-variance {other}: expected within or mixture"),
+                    "correlated" => PartitionVariance::Correlated,
+                    other => panic!(
+                        "--partition-variance {other}: expected within, mixture or correlated"
+                    ),
                 })
+            }
+            "--partition-correlation" => {
+                partition_correlation = Some(v.parse().expect("--partition-correlation R"));
             }
             "--holdout" => holdout = Some(v.parse().expect("--holdout FRACTION")),
             "--first-split" => first_split = v.parse().expect("--first-split N"),
@@ -299,6 +309,9 @@ fn main() {
             }
             if let Some(r) = partition_variance {
                 spec.params = spec.params.partition_variance(r);
+            }
+            if let Some(rho) = partition_correlation {
+                spec.params = spec.params.partition_correlation(rho);
             }
             let t0 = Instant::now();
             let model = Model::train(&tr, &spec, &Silent).expect("training");

@@ -548,3 +548,14 @@ pub const MODEL_PART_TOO_WIDE_P: f64 = 0.025;
 /// the noise is tiny"); none of the four shared UCI sets reaches 500
 /// held-out rows (red wine: 288), a 12 000-row archive does (800).
 pub const MODEL_PART_MIN_HELDOUT: usize = 500;
+
+/// Default error correlation ρ between the model errors of the whole
+/// trainings a committee averages under the `correlated` partition-variance
+/// rule (`--partitions` K > 1, `--partition-correlation`;
+/// committee::params::PartitionVariance). ρ = 0 takes the trainings'
+/// model errors as independent (the average's model variance u/K), ρ = 1 as
+/// one error repeated (u, the `within` rule where the trainings agree).
+/// Provisional: the midpoint of the range, pending the inner-CV choice on
+/// the training rows (benches/inner_cv.py); never chosen on the reported
+/// test splits.
+pub const PARTITION_CORRELATION: f64 = 0.5;

@@ -7,7 +7,10 @@
 //! average of theirs by the equations of
 //! [`mettle::committee::PartitionVariance`] (mixture variance: Bishop
 //! 1995, *Neural Networks for Pattern Recognition*, §9.6; the within rule
-//! drops the spread term).
+//! drops the spread term; the correlated rule takes the partitions' model
+//! errors as equicorrelated, the variance of a mean of equicorrelated
+//! variables from any statistics text, and adds the spread beyond what
+//! that correlation expects, a term of this project's own).
 
 mod common;
 
@@ -68,26 +71,67 @@ fn probe_rows(m: &Model) -> Array2<f64> {
     m.scaled_inputs(&t).expect("scaled").1
 }
 
+/// The rule of [`by_hand`].
+#[derive(Clone, Copy)]
+enum Rule {
+    Within,
+    Mixture,
+    Correlated(f64),
+}
+
 /// The average of two partitions' predictions written out here, the
 /// operations in the library's order: mean (μ₁ + μ₂)/2; variance, noise
 /// and committee variance the mean of the two, the spread
-/// ((μ₁ − μ)² + (μ₂ − μ)²)/2 added to the variance and the committee
-/// variance under `mixture`.
-fn by_hand(a: &ScaledPrediction, b: &ScaledPrediction, mixture: bool) -> ScaledPrediction {
+/// s² = ((μ₁ − μ)² + (μ₂ − μ)²)/2 added to the variance and the committee
+/// variance under `mixture`; under `correlated` with ρ (K = 2), the model
+/// part u = var − noise (and the committee variance c alike) becomes
+/// u·(1 + ρ)/2 + max(0, s² − u·(1 − ρ)/2).
+fn by_hand(a: &ScaledPrediction, b: &ScaledPrediction, rule: Rule) -> ScaledPrediction {
     let mean = (&a.mean + &b.mean) / 2.0;
     let mut var = (&a.var + &b.var) / 2.0;
     let noise_var = (&a.noise_var + &b.noise_var) / 2.0;
     let mut committee_var = (&a.committee_var + &b.committee_var) / 2.0;
-    if mixture {
-        let spread = ((&a.mean - &mean).mapv(|d| d * d) + (&b.mean - &mean).mapv(|d| d * d)) / 2.0;
-        var += &spread;
-        committee_var += &spread;
+    let spread = ((&a.mean - &mean).mapv(|d| d * d) + (&b.mean - &mean).mapv(|d| d * d)) / 2.0;
+    match rule {
+        Rule::Within => {}
+        Rule::Mixture => {
+            var += &spread;
+            committee_var += &spread;
+        }
+        Rule::Correlated(rho) => {
+            let model = |u: f64, s2: f64| {
+                let u = u.max(0.0);
+                u * (1.0 + rho) / 2.0 + (s2 - u * (1.0 - rho) / 2.0).max(0.0)
+            };
+            for i in 0..mean.len() {
+                var[i] = noise_var[i] + model(var[i] - noise_var[i], spread[i]);
+                committee_var[i] = model(committee_var[i], spread[i]);
+            }
+        }
     }
     ScaledPrediction {
         mean,
         var,
         noise_var,
         committee_var,
+    }
+}
+
+/// Each row of `got` within 1e-12 (relative) of `want`: the test's
+/// arithmetic may round differently from the library's.
+fn close(got: &ScaledPrediction, want: &ScaledPrediction, what: &str) {
+    for (g, w) in [
+        (&got.mean, &want.mean),
+        (&got.var, &want.var),
+        (&got.noise_var, &want.noise_var),
+        (&got.committee_var, &want.committee_var),
+    ] {
+        for (i, (g, w)) in g.iter().zip(w).enumerate() {
+            assert!(
+                (g - w).abs() <= 1e-12 * w.abs().max(1e-300),
+                "{what}, row {i}: {g} against {w}"
+            );
+        }
     }
 }
 
@@ -150,24 +194,42 @@ fn two_partitions_are_the_trainings_of_two_seeds_averaged() {
     let (pa, pb) = (ca.predict_scaled(x.view()), cb.predict_scaled(x.view()));
     assert_eq!(
         pc.predict_scaled(x.view()),
-        by_hand(&pa, &pb, true),
+        by_hand(&pa, &pb, Rule::Mixture),
         "mixture"
     );
     let mut within = pc.clone();
     within.partition_variance = Some(PartitionVariance::Within);
     let w_pred = within.predict_scaled(x.view());
-    assert_eq!(w_pred, by_hand(&pa, &pb, false), "within");
+    assert_eq!(w_pred, by_hand(&pa, &pb, Rule::Within), "within");
     // the two rules differ by the spread of the partitions' means
     let m = pc.predict_scaled(x.view());
     assert!(m.var.iter().zip(&w_pred.var).all(|(m, w)| m >= w));
     assert!(m.var.iter().zip(&w_pred.var).any(|(m, w)| m > w));
 
+    // correlated, ρ = 0.3: between within (where the partitions agree)
+    // and mixture
+    let mut corr = pc.clone();
+    corr.partition_variance = Some(PartitionVariance::Correlated);
+    corr.partition_correlation = Some(0.3);
+    let c_pred = corr.predict_scaled(x.view());
+    close(
+        &c_pred,
+        &by_hand(&pa, &pb, Rule::Correlated(0.3)),
+        "correlated",
+    );
+    assert!(c_pred.var.iter().zip(&m.var).all(|(c, m)| c <= m));
+
     // the same through the fast path (the default of `mettle predict`):
     // each partition's fast prediction averaged, within the fast path's
     // bound of the exact one (tests/fast_predict.rs)
     let (fast, _) = pc.fast(x.view()).predict_scaled(x.view());
+    let (c_fast, _) = corr.fast(x.view()).predict_scaled(x.view());
     for i in 0..x.nrows() {
         let tol = mettle::prec::FAST_SD_TOL;
+        assert!(
+            (c_fast.var[i].sqrt() / c_pred.var[i].sqrt() - 1.0).abs() <= tol,
+            "correlated, row {i}"
+        );
         assert!(
             (fast.var[i].sqrt() / m.var[i].sqrt() - 1.0).abs() <= tol,
             "row {i}"
@@ -183,6 +245,75 @@ fn two_partitions_are_the_trainings_of_two_seeds_averaged() {
     assert!(!one.contains("further_partitions") && !one.contains("partition_variance"));
     let two = String::from_utf8(w.read("p2.json")).expect("utf-8");
     assert!(two.contains("\"further_partitions\"") && two.contains("\"partition_variance\""));
+}
+
+/// `--partition-variance correlated --partition-correlation 0.3` through the
+/// binary: the rule and ρ are stored with the committee and in the
+/// settings, the summary names them, and the committee predicts by the
+/// rule from its two partitions; a ρ outside [0, 1] is refused with the
+/// setting's name and range.
+#[test]
+fn the_correlated_rule_is_stored_and_applied() {
+    let w = Workdir::new();
+    w.write("train.csv", fixture_csv(90, 29));
+    train(
+        &w,
+        "5",
+        &[
+            "--partitions",
+            "2",
+            "--partition-variance",
+            "correlated",
+            "--partition-correlation",
+            "0.3",
+        ],
+        "c2.json",
+    );
+    let p = load(&w, "c2.json");
+    let pc = &p.targets[0].committee;
+    assert_eq!(pc.partition_variance, Some(PartitionVariance::Correlated));
+    assert_eq!(pc.partition_correlation, Some(0.3));
+    assert_eq!(pc.partition_rule().label(), "correlated, rho 0.3");
+    assert_eq!(
+        p.training.settings.partition_variance,
+        PartitionVariance::Correlated
+    );
+    assert_eq!(p.training.settings.partition_correlation, 0.3);
+    let x = probe_rows(&p);
+    let (pa, pb) = (
+        first_alone(pc).predict_scaled(x.view()),
+        pc.further_partitions[0].predict_scaled(x.view()),
+    );
+    close(
+        &pc.predict_scaled(x.view()),
+        &by_hand(&pa, &pb, Rule::Correlated(0.3)),
+        "stored rule",
+    );
+    for bad in [
+        "--partition-correlation=1.5",
+        "--partition-correlation=-0.2",
+    ] {
+        let out = w.run(&[
+            "train",
+            "--data",
+            "train.csv",
+            "--target",
+            "y",
+            "--out",
+            "bad.json",
+            "--partitions",
+            "2",
+            "--partition-variance",
+            "correlated",
+            bad,
+        ]);
+        let err = common::stderr(&out);
+        assert!(!out.status.success(), "{bad} accepted");
+        assert!(
+            err.contains("partition correlation") && err.contains("between 0 and 1"),
+            "{bad}: {err}"
+        );
+    }
 }
 
 /// `mettle predict` of a two-partition model through the binary: its mean

@@ -42,7 +42,7 @@ heldout_nlpd_with and heldout_nlpd_without) and gross_errors (null without that 
 share, n_heldout, heldout_nlpd_gaussian, heldout_nlpd, refit_gross_rows, n_rows, \
 refit_fallbacks — the list of members that kept the Gaussian refit, with the reason, as in the \
 model file —, tail_dof, share_estimated); partitions only for a model trained with --partitions \
-above 1: [variance rule, list of partition, n_members, heldout_nlpd, noise_varies, kriged, \
+above 1: [variance rule (under correlated with its rho: \"correlated, rho 0.5\"), list of partition, n_members, heldout_nlpd, noise_varies, kriged, \
 gross_share, tail_dof], the search, process and gross-error fields above then being partition 1's.\n\n\
 Example:\n  mettle explain --model uts.json\n  mettle explain --model uts.json --format json"
 )]

@@ -115,9 +115,18 @@ pub struct TrainSettings {
     /// Variance of the average of the partitions (matters only with --partitions above 1):
     /// `within` takes the mean of the partitions' variances alone (their disagreement is already
     /// inside each committee's spread); `mixture` adds the spread of the partitions' means about
-    /// the average (the variance of an equal mixture of their distributions).
+    /// the average (the variance of an equal mixture of their distributions); `correlated` takes
+    /// the partitions' model errors as correlated with --partition-correlation ρ (the model
+    /// variance of their mean u·(1 + (K−1)ρ)/K for K partitions of mean model variance u) and adds
+    /// the spread of their means beyond the u·(1−ρ)(K−1)/K that correlation expects
+    /// (docs/method.md §6).
     #[arg(long, value_enum, value_name = "RULE", default_value_t = PartitionVarianceArg::Within)]
     pub partition_variance: PartitionVarianceArg,
+    /// Error correlation ρ between the partitions' model errors under --partition-variance
+    /// correlated, 0 to 1 (0: independent errors, the average's model variance falls as 1/K;
+    /// 1: one error repeated, the mixture's variance).
+    #[arg(long, value_name = "R", default_value_t = mettle::prec::PARTITION_CORRELATION)]
+    pub partition_correlation: f64,
     /// Noise model: `constant` (one noise level), `varying` (a noise level that varies with the
     /// inputs, learnt by a second small network per member), or `auto` (whichever gives the lower
     /// held-out NLPD inside the training data).
@@ -209,6 +218,8 @@ pub enum PartitionVarianceArg {
     Mixture,
     /// Mean of the partitions' variances alone.
     Within,
+    /// Model errors correlated with --partition-correlation, plus the spread beyond it.
+    Correlated,
 }
 
 impl From<PartitionVarianceArg> for PartitionVariance {
@@ -216,6 +227,7 @@ impl From<PartitionVarianceArg> for PartitionVariance {
         match a {
             PartitionVarianceArg::Mixture => PartitionVariance::Mixture,
             PartitionVarianceArg::Within => PartitionVariance::Within,
+            PartitionVarianceArg::Correlated => PartitionVariance::Correlated,
         }
     }
 }
@@ -279,6 +291,7 @@ impl TrainSettings {
             .max_members(self.max_members)
             .partitions(self.partitions)
             .partition_variance(self.partition_variance.into())
+            .partition_correlation(self.partition_correlation)
             .widen(!self.no_widen)
             .early_stop(!self.no_early_stop)
             .noise(self.noise.into())
@@ -459,7 +472,7 @@ pub fn run(a: TrainArgs) -> anyhow::Result<()> {
                     "{rows}, {} partitions averaged (each a whole training, seed {} + p), variance rule '{}', median noise sd {noise:.4}{note}:",
                     c.n_partitions(),
                     a.settings.seed,
-                    c.partition_rule().name()
+                    c.partition_rule().label()
                 );
                 for (p, part) in c.partitions().enumerate() {
                     eprintln!(

@@ -62,5 +62,6 @@ pub(super) fn assemble(parts: Parts, target_name: &str, observer: &dyn TrainObse
         gross_errors,
         further_partitions: Vec::new(),
         partition_variance: None,
+        partition_correlation: None,
     }
 }

@@ -63,7 +63,8 @@ pub use gross_errors::{GrossErrorModel, GrossErrors};
 pub use kriging::{ResidualKriging, KRIGING_MAX_ROWS};
 pub use noise::NoiseModel;
 pub use params::{
-    CheckedCommitteeParams, CommitteeParams, KrigingMode, NoiseMode, PartitionVariance,
+    CheckedCommitteeParams, CommitteeParams, KrigingMode, NoiseMode, PartitionRule,
+    PartitionVariance,
 };
 pub use pipeline::train_committee;
 pub use relevance::{
@@ -311,6 +312,10 @@ pub struct Committee {
     /// further partitions.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub partition_variance: Option<PartitionVariance>,
+    /// The error correlation ρ of the `correlated` rule; present only with
+    /// further partitions under that rule.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub partition_correlation: Option<f64>,
 }
 
 /// Rows per block in [`Committee::predict_scaled`].
@@ -351,17 +356,18 @@ pub(crate) fn combine(means: &[Array1<f64>], vars: &[Array1<f64>]) -> (Array1<f6
     (mean, var)
 }
 
-/// The average of N partitions' predictions (each a whole committee with
+/// The average of K partitions' predictions (each a whole committee with
 /// its own residual process; [`PartitionVariance`] gives the equations):
-/// mean (1/N) Σ μ_p; variance, noise variance and committee variance the
-/// mean of the partitions', the spread (1/N) Σ (μ_p − μ)² added to the
-/// variance and the committee variance under `mixture`. One partition is
-/// returned unchanged.
-pub fn combine_partitions(parts: &[ScaledPrediction], rule: PartitionVariance) -> ScaledPrediction {
+/// mean (1/K) Σ μ_p and noise variance (1/K) Σ n_p under every rule; the
+/// variance n + the rule's model variance from the partitions' model
+/// variances v_p − n_p and the spread s² = (1/K) Σ (μ_p − μ)²; the
+/// committee variance by the same rule from the partitions' committee
+/// variances. One partition is returned unchanged.
+pub fn combine_partitions(parts: &[ScaledPrediction], rule: PartitionRule) -> ScaledPrediction {
     if let [one] = parts {
         return one.clone();
     }
-    let n = parts.len() as f64;
+    let k = parts.len() as f64;
     let rows = parts.first().map_or(0, |p| p.mean.len());
     let mut out = ScaledPrediction {
         mean: Array1::zeros(rows),
@@ -375,20 +381,46 @@ pub fn combine_partitions(parts: &[ScaledPrediction], rule: PartitionVariance) -
         out.noise_var += &p.noise_var;
         out.committee_var += &p.committee_var;
     }
-    out.mean /= n;
-    out.var /= n;
-    out.noise_var /= n;
-    out.committee_var /= n;
-    if rule == PartitionVariance::Mixture {
-        let mut spread = Array1::<f64>::zeros(rows);
+    out.mean /= k;
+    out.var /= k;
+    out.noise_var /= k;
+    out.committee_var /= k;
+    let spread = || {
+        let mut s2 = Array1::<f64>::zeros(rows);
         for p in parts {
-            spread += &(&p.mean - &out.mean).mapv(|d| d * d);
+            s2 += &(&p.mean - &out.mean).mapv(|d| d * d);
         }
-        spread /= n;
-        out.var += &spread;
-        out.committee_var += &spread;
+        s2 / k
+    };
+    match rule.variance {
+        PartitionVariance::Within => {}
+        PartitionVariance::Mixture => {
+            let s2 = spread();
+            out.var += &s2;
+            out.committee_var += &s2;
+        }
+        PartitionVariance::Correlated => {
+            let s2 = spread();
+            let rho = rule.correlation;
+            for i in 0..rows {
+                let u = (out.var[i] - out.noise_var[i]).max(0.0);
+                out.var[i] = out.noise_var[i] + correlated_model_var(u, s2[i], parts.len(), rho);
+                out.committee_var[i] =
+                    correlated_model_var(out.committee_var[i].max(0.0), s2[i], parts.len(), rho);
+            }
+        }
     }
     out
+}
+
+/// The model variance of the mean of `k` partitions under the `correlated`
+/// rule ([`PartitionVariance`]): u·(1 + (K−1)ρ)/K + max(0, s² − u·(1−ρ)(K−1)/K)
+/// for their mean model variance `u` and the spread `s2` of their means.
+fn correlated_model_var(u: f64, s2: f64, k: usize, rho: f64) -> f64 {
+    let k = k as f64;
+    let kept = u * (1.0 + (k - 1.0) * rho) / k;
+    let expected_spread = u * (1.0 - rho) * (k - 1.0) / k;
+    kept + (s2 - expected_spread).max(0.0)
 }
 
 impl Member {
@@ -480,9 +512,15 @@ impl Committee {
         1 + self.further_partitions.len()
     }
 
-    /// The rule combining the partitions' variances.
-    pub fn partition_rule(&self) -> PartitionVariance {
-        self.partition_variance.unwrap_or_default()
+    /// The rule combining the partitions' variances, with its ρ (the
+    /// stored one; [`crate::prec::PARTITION_CORRELATION`] where none is
+    /// stored, which only a rule other than `correlated` leaves out).
+    pub fn partition_rule(&self) -> PartitionRule {
+        let rule = PartitionRule::new(self.partition_variance.unwrap_or_default());
+        match self.partition_correlation {
+            Some(rho) => rule.with_correlation(rho),
+            None => rule,
+        }
     }
 
     /// Every member of every partition, with the index of its partition.
@@ -705,8 +743,8 @@ mod tests {
             committee_var: array![c, 0.5],
         };
         let parts = [part(1.0, 0.5, 0.2, 0.3), part(3.0, 1.5, 0.4, 1.1)];
-        let mix = combine_partitions(&parts, PartitionVariance::Mixture);
-        let within = combine_partitions(&parts, PartitionVariance::Within);
+        let mix = combine_partitions(&parts, PartitionRule::new(PartitionVariance::Mixture));
+        let within = combine_partitions(&parts, PartitionRule::new(PartitionVariance::Within));
         assert_abs_diff_eq!(mix.mean[0], 2.0);
         assert_abs_diff_eq!(mix.var[0], 2.0);
         assert_abs_diff_eq!(within.var[0], 1.0);
@@ -718,9 +756,95 @@ mod tests {
         assert_abs_diff_eq!(mix.var[1], within.var[1]);
         // one partition is returned as it is
         assert_eq!(
-            combine_partitions(&parts[..1], PartitionVariance::Mixture),
+            combine_partitions(&parts[..1], PartitionRule::new(PartitionVariance::Mixture)),
             parts[0]
         );
+    }
+
+    /// The `correlated` rule by hand ([`PartitionVariance`]): with n the
+    /// mean noise variance, u the mean model variance var − noise, s² the
+    /// spread of the means, v = n + u·(1 + (K−1)ρ)/K +
+    /// max(0, s² − u·(1−ρ)(K−1)/K); the committee variance alike from
+    /// the mean committee variance c.
+    ///
+    /// K = 2, ρ = 0.5 (coefficients 0.75 and 0.25), both partitions with
+    /// n = 0.3, u = 0.7, c = 0.7 on average at every row:
+    /// - row 0, means 1 and 3: s² = 1 beyond E s² = 0.175, so
+    ///   v = 0.3 + 0.525 + 0.825 = 1.65, committee 0.525 + 0.825 = 1.35;
+    /// - row 1, means 1.9 and 2.1: s² = 0.01 below E s² = 0.175, so
+    ///   v = 0.3 + 0.525 = 0.825, committee 0.525;
+    /// - row 2, means equal: the same, 0.825 and 0.525.
+    ///
+    /// K = 3, ρ = 0.25 (both coefficients 0.5, so v = n + max(u/2, s²)):
+    /// variances 0.5, 1.0, 1.5 and noise 0.2, 0.3, 0.4 (n = 0.3, u = 0.7),
+    /// committee variances 0.3, 0.5, 0.9 (c = 17/30):
+    /// - row 0, means 1, 2, 3: s² = 2/3 > 0.35, v = 0.3 + 2/3, committee
+    ///   max(17/60, 2/3) = 2/3;
+    /// - row 1, means 1.9, 2, 2.1: s² = 0.02/3 < 0.35, v = 0.65,
+    ///   committee 17/60;
+    /// - row 2, means equal: v = 0.65, committee 17/60.
+    #[test]
+    fn correlated_rule_by_hand() {
+        let rule =
+            |rho: f64| PartitionRule::new(PartitionVariance::Correlated).with_correlation(rho);
+        let part = |m: [f64; 3], v: f64, n: f64, c: f64| ScaledPrediction {
+            mean: array![m[0], m[1], m[2]],
+            var: array![v, v, v],
+            noise_var: array![n, n, n],
+            committee_var: array![c, c, c],
+        };
+        let two = [
+            part([1.0, 1.9, 2.0], 0.5, 0.2, 0.3),
+            part([3.0, 2.1, 2.0], 1.5, 0.4, 1.1),
+        ];
+        let p = combine_partitions(&two, rule(0.5));
+        for (i, (v, c)) in [(1.65, 1.35), (0.825, 0.525), (0.825, 0.525)]
+            .into_iter()
+            .enumerate()
+        {
+            assert_abs_diff_eq!(p.var[i], v, epsilon = 1e-12);
+            assert_abs_diff_eq!(p.committee_var[i], c, epsilon = 1e-12);
+            assert_abs_diff_eq!(p.noise_var[i], 0.3, epsilon = 1e-12);
+        }
+        assert_abs_diff_eq!(p.mean[0], 2.0);
+        assert_abs_diff_eq!(p.mean[1], 2.0);
+
+        let three = [
+            part([1.0, 1.9, 2.0], 0.5, 0.2, 0.3),
+            part([2.0, 2.0, 2.0], 1.0, 0.3, 0.5),
+            part([3.0, 2.1, 2.0], 1.5, 0.4, 0.9),
+        ];
+        let p = combine_partitions(&three, rule(0.25));
+        let (c, s2) = (17.0 / 30.0, 2.0 / 3.0);
+        for (i, (v, cv)) in [(0.3 + s2, s2), (0.65, c / 2.0), (0.65, c / 2.0)]
+            .into_iter()
+            .enumerate()
+        {
+            assert_abs_diff_eq!(p.var[i], v, epsilon = 1e-12);
+            assert_abs_diff_eq!(p.committee_var[i], cv, epsilon = 1e-12);
+        }
+
+        // ρ = 1: no disagreement is expected, so all of it is added — the
+        // mixture's variance; where the partitions agree, the within's
+        for parts in [&two[..], &three[..]] {
+            let one = combine_partitions(parts, rule(1.0));
+            let mix = combine_partitions(parts, PartitionRule::new(PartitionVariance::Mixture));
+            let within = combine_partitions(parts, PartitionRule::new(PartitionVariance::Within));
+            for i in 0..3 {
+                assert_abs_diff_eq!(one.var[i], mix.var[i], epsilon = 1e-12);
+                assert_abs_diff_eq!(one.committee_var[i], mix.committee_var[i], epsilon = 1e-12);
+            }
+            assert_abs_diff_eq!(one.var[2], within.var[2], epsilon = 1e-12);
+            assert_abs_diff_eq!(
+                one.committee_var[2],
+                within.committee_var[2],
+                epsilon = 1e-12
+            );
+        }
+        // ρ = 0, K = 2 where the partitions agree: u/2, an average of two
+        // independent errors
+        let p = combine_partitions(&two, rule(0.0));
+        assert_abs_diff_eq!(p.var[2], 0.3 + 0.35, epsilon = 1e-12);
     }
 
     /// A file of session 16's pooling (further partitions' members added

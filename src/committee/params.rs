@@ -14,7 +14,8 @@
 //! | `noise` | auto | constant noise, noise that varies with the inputs, or the better of the two on the held-out part | constant, varying, auto |
 //! | `early_stop` | true | stop hopeless candidates early: successive halving on the held-out NLPD at the rungs of `prec::SEARCH_RUNGS` | — |
 //! | `partitions` | 1 | whole trainings of the target averaged, partition p with seed `seed + p` (each runs the whole pipeline) | 1 ..= 8 |
-//! | `partition_variance` | within | variance of the average of the partitions: `within` (their mean variance) or `mixture` (plus their spread); matters only with `partitions` > 1 | within, mixture |
+//! | `partition_variance` | within | variance of the average of the partitions: `within` (their mean variance), `mixture` (plus their spread) or `correlated` (model errors with correlation ρ, plus the spread beyond what ρ expects); matters only with `partitions` > 1 | within, mixture, correlated |
+//! | `partition_correlation` | 0.5 (`prec::PARTITION_CORRELATION`) | ρ of the `correlated` rule | 0 ..= 1 |
 //! | `model_part_min_heldout` | 500 (`prec::MODEL_PART_MIN_HELDOUT`) | held-out rows needed before the held-out part may take the committee's model part times ρ beside the residual process (committee::kriging) | any |
 //! | `model_var_scale` | false | let the held-out part choose a factor on the committee's model variance (experimental; committee::gross_errors) | — |
 
@@ -121,6 +122,18 @@ pub struct CommitteeParams {
         skip_serializing_if = "PartitionVariance::is_within"
     )]
     pub partition_variance: PartitionVariance,
+    /// Error correlation ρ between the partitions' model errors under
+    /// [`PartitionVariance::Correlated`] (0 ≤ ρ ≤ 1); unused by the other
+    /// rules. Not written at its default
+    /// ([`crate::prec::PARTITION_CORRELATION`]), so that files stay as
+    /// before, and read as it when absent. What a prediction uses is the
+    /// value stored with the committee
+    /// ([`super::Committee::partition_correlation`]).
+    #[serde(
+        default = "default_correlation",
+        skip_serializing_if = "is_default_correlation"
+    )]
+    pub partition_correlation: f64,
 }
 
 /// What model files before `partition_variance` existed meant.
@@ -128,24 +141,60 @@ fn within_before() -> PartitionVariance {
     PartitionVariance::Within
 }
 
-/// The variance of an equal average of N partitions' predictive
-/// distributions (mean μ_p, variance v_p each; the mean is μ = (1/N) Σ μ_p
-/// under either rule):
+/// Serde default of [`CommitteeParams::partition_correlation`].
+fn default_correlation() -> f64 {
+    crate::prec::PARTITION_CORRELATION
+}
+
+#[allow(clippy::trivially_copy_pass_by_ref)]
+fn is_default_correlation(rho: &f64) -> bool {
+    rho.to_bits() == crate::prec::PARTITION_CORRELATION.to_bits()
+}
+
+/// The variance of an equal average of K partitions' predictive
+/// distributions (mean μ_p, variance v_p, noise variance n_p each; the
+/// mean is μ = (1/K) Σ μ_p under every rule). With n = (1/K) Σ n_p,
+/// u = (1/K) Σ (v_p − n_p) the partitions' mean model variance (every part
+/// of v_p but the noise: the committee's, and the residual process's when
+/// kriged) and s² = (1/K) Σ (μ_p − μ)² the spread of their means:
 ///
 /// ```text
-/// mixture:  v = (1/N) Σ_p v_p  +  (1/N) Σ_p (μ_p − μ)²
-/// within:   v = (1/N) Σ_p v_p
+/// mixture:     v = n + u + s²
+/// within:      v = n + u
+/// correlated:  v = n + u·(1 + (K−1)ρ)/K + max(0, s² − u·(1−ρ)(K−1)/K)
 /// ```
 ///
-/// `mixture` is the variance of the equal mixture of the N distributions
+/// `mixture` is the variance of the equal mixture of the K distributions
 /// (Bishop 1995, *Neural Networks for Pattern Recognition*, §9.6 on
 /// committees; any text on mixtures); `within` counts the partitions'
 /// disagreement only through each partition's own committee spread, as
 /// for a bagged estimate whose members estimate the same quantity
-/// (Breiman 1996, *Machine Learning* 24:123). The noise variance and the
-/// committee's model variance follow the same rule (the spread added to
-/// the latter under `mixture`), so the domain guard's yardsticks stay
-/// consistent with the total.
+/// (Breiman 1996, *Machine Learning* 24:123).
+///
+/// `correlated` takes the K partitions' model errors as equally
+/// correlated, each of variance u with correlation ρ between any two: the
+/// variance of their mean is u·(1 + (K−1)ρ)/K (the variance of a mean of
+/// equicorrelated variables: any statistics text; Bishop 1995 §9.6 derives
+/// the uncorrelated case, a committee's error falling as 1/K), and the
+/// expected spread of the K means about their average is then
+/// E s² = u·(1 − ρ)(K − 1)/K. Where the partitions disagree by more than
+/// that, the excess max(0, s² − E s²) is added: disagreement the
+/// correlation does not explain is taken as model uncertainty neither
+/// partition saw. That excess term is this project's own (no published
+/// source). ρ = 0 gives u/K where the partitions disagree as independent
+/// errors would; ρ = 1 gives n + u + s², the `mixture` rule (and `within`
+/// where the partitions agree). It is never below n + u·(1 + (K−1)ρ)/K,
+/// and where s² exceeds E s² it is the `mixture` variance less 2·E s².
+///
+/// The committee's model variance (what the domain guard reads) follows
+/// the same rule with the partitions' committee variances c_p in place of
+/// the model variances (c_p + s² under `mixture`, c_p alone under `within`,
+/// c·(1 + (K−1)ρ)/K + max(0, s² − c·(1−ρ)(K−1)/K) under `correlated`, c
+/// their mean): without a residual process c_p = v_p − n_p and it is the
+/// combined model variance itself, and since the guard's yardsticks are
+/// computed on the training rows through the same combination, its ratio
+/// stays consistent with the total. The noise variance is always the mean
+/// n.
 #[derive(Clone, Copy, Debug, Default, PartialEq, Eq, Serialize, Deserialize)]
 #[serde(rename_all = "snake_case")]
 pub enum PartitionVariance {
@@ -155,6 +204,10 @@ pub enum PartitionVariance {
     /// Mean of the partitions' variances alone.
     #[default]
     Within,
+    /// Model errors equally correlated (ρ,
+    /// [`CommitteeParams::partition_correlation`]) between the partitions,
+    /// plus their spread beyond what that correlation expects.
+    Correlated,
 }
 
 impl PartitionVariance {
@@ -169,6 +222,44 @@ impl PartitionVariance {
         match self {
             PartitionVariance::Mixture => "mixture",
             PartitionVariance::Within => "within",
+            PartitionVariance::Correlated => "correlated",
+        }
+    }
+}
+
+/// How a committee's partitions are combined: the variance rule and, under
+/// [`PartitionVariance::Correlated`], the error correlation ρ (ignored by
+/// the other rules). What [`super::combine_partitions`] takes, so that the
+/// exact and the fast path combine alike.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct PartitionRule {
+    /// The variance rule.
+    pub variance: PartitionVariance,
+    /// ρ of the `correlated` rule, 0 ≤ ρ ≤ 1.
+    pub correlation: f64,
+}
+
+impl PartitionRule {
+    /// The rule with ρ at [`crate::prec::PARTITION_CORRELATION`].
+    pub fn new(variance: PartitionVariance) -> Self {
+        PartitionRule {
+            variance,
+            correlation: crate::prec::PARTITION_CORRELATION,
+        }
+    }
+
+    /// The rule with ρ.
+    #[must_use]
+    pub fn with_correlation(mut self, rho: f64) -> Self {
+        self.correlation = rho;
+        self
+    }
+
+    /// Its name, with ρ under `correlated` ("correlated, rho 0.5").
+    pub fn label(&self) -> String {
+        match self.variance {
+            PartitionVariance::Correlated => format!("correlated, rho {}", self.correlation),
+            v => v.name().to_string(),
         }
     }
 }
@@ -241,6 +332,7 @@ impl Default for CommitteeParams {
             early_stop: true,
             partitions: 1,
             partition_variance: PartitionVariance::Within,
+            partition_correlation: crate::prec::PARTITION_CORRELATION,
         }
     }
 }
@@ -394,6 +486,14 @@ impl CommitteeParams {
         self
     }
 
+    /// Error correlation ρ of the `correlated` partition-variance rule
+    /// (0 ≤ ρ ≤ 1, checked by [`CommitteeParams::check`]).
+    #[must_use]
+    pub fn partition_correlation(mut self, rho: f64) -> Self {
+        self.partition_correlation = rho;
+        self
+    }
+
     /// Noise model.
     #[must_use]
     pub fn noise(mut self, mode: NoiseMode) -> Self {
@@ -447,6 +547,13 @@ impl CommitteeParams {
         if self.partitions == 0 || self.partitions > 8 {
             return bad("partitions", self.partitions.to_string(), "between 1 and 8");
         }
+        if !(0.0..=1.0).contains(&self.partition_correlation) {
+            return bad(
+                "partition correlation",
+                self.partition_correlation.to_string(),
+                "a correlation between 0 and 1 (0: the trainings' model errors independent, 1: one error repeated)",
+            );
+        }
         let mut p = self;
         p.hidden_cap = p.hidden_cap.max(p.hidden_max);
         Ok(CheckedCommitteeParams(p))
@@ -475,5 +582,18 @@ mod tests {
             .check()
             .expect_err("fraction");
         assert!(e.to_string().contains("0.9"), "{e}");
+        for rho in [-0.1, 1.5, f64::NAN] {
+            let e = CommitteeParams::default()
+                .partition_correlation(rho)
+                .check()
+                .expect_err("correlation out of range");
+            assert!(e.to_string().contains("between 0 and 1"), "{e}");
+        }
+        for rho in [0.0, 1.0] {
+            assert!(CommitteeParams::default()
+                .partition_correlation(rho)
+                .check()
+                .is_ok());
+        }
     }
 }

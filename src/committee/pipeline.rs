@@ -34,7 +34,7 @@ use super::refit::Refitted;
 use super::residual::{process_on_all_rows, process_wanted, try_processes, ProcessRows};
 use super::split::HeldOutSplit;
 use super::varying::VaryingCommittee;
-use super::{CheckedCommitteeParams, Committee, NoiseMode};
+use super::{CheckedCommitteeParams, Committee, NoiseMode, PartitionVariance};
 use crate::error::Result;
 use crate::observer::{TrainEvent, TrainObserver};
 
@@ -80,6 +80,9 @@ pub fn train_committee(
     }
     if n > 1 {
         first.partition_variance = Some(params.partition_variance);
+        if params.partition_variance == PartitionVariance::Correlated {
+            first.partition_correlation = Some(params.partition_correlation);
+        }
     }
     Ok(first)
 }

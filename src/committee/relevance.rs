@@ -205,6 +205,7 @@ pub(crate) mod tests {
             gross_errors: None,
             further_partitions: vec![],
             partition_variance: None,
+            partition_correlation: None,
         }
     }
 

@@ -223,7 +223,8 @@ pub struct TargetCard {
     /// The share of gross errors, when the model has one.
     pub gross_errors: Option<GrossErrorCard>,
     /// With several partitions (`--partitions`): each one's committee, and
-    /// the variance rule; the search, process and gross-error figures
+    /// the variance rule (its name; under `correlated` with its ρ,
+    /// "correlated, rho 0.5"); the search, process and gross-error figures
     /// above are then partition 1's, the members and relevance all
     /// partitions'.
     #[serde(skip_serializing_if = "Option::is_none")]
@@ -483,7 +484,7 @@ pub fn model_card(model: &Model) -> ModelCard {
                         tail_dof: pc.gross_errors.as_ref().and_then(|g| g.tail_dof),
                     })
                     .collect();
-                (c.partition_rule().name().to_string(), cards)
+                (c.partition_rule().label(), cards)
             });
             let relevance = relevance(c).map(|r| {
                 Relevance(

@@ -132,6 +132,14 @@ impl Model {
                     t.name
                 ));
             }
+            if let Some(rho) = t.committee.partition_correlation {
+                if !(0.0..=1.0).contains(&rho) {
+                    return Err(format!(
+                        "target '{}': partition correlation {rho} is not between 0 and 1",
+                        t.name
+                    ));
+                }
+            }
             for (p, c) in t.committee.partitions().enumerate() {
                 let who = if p == 0 {
                     format!("target '{}'", t.name)

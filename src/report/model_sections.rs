@@ -98,10 +98,10 @@ pub(super) fn card_section(card: &ModelCard) -> String {
                 "<p>The estimates average {} whole trainings (partitions, seeds seed + 0, seed + 1, …), each with its own held-out part, noise model, residual process and gross errors; variance rule '{}' ({}). {}. The members below are all partitions'; the search chart and the process and gross-error figures are partition 1's.</p>\n",
                 parts.len(),
                 esc(rule),
-                if rule == "mixture" {
-                    "the partitions' mean variance plus the spread of their means"
-                } else {
-                    "the partitions' mean variance"
+                match rule.as_str() {
+                    "mixture" => "the partitions' mean variance plus the spread of their means",
+                    "within" => "the partitions' mean variance",
+                    _ => "the partitions' model errors taken as correlated with the stated rho, plus the spread of their means beyond what that correlation expects",
                 },
                 esc(&each.join("; "))
             ));
