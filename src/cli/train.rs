@@ -124,7 +124,10 @@ pub struct TrainSettings {
     pub partition_variance: PartitionVarianceArg,
     /// Error correlation ρ between the partitions' model errors under --partition-variance
     /// correlated, 0 to 1 (0: independent errors, the average's model variance falls as 1/K;
-    /// 1: one error repeated, the mixture's variance).
+    /// 1: one error repeated, the mixture's variance). The default 0.5 is the middle of the
+    /// range, not a calibrated value: measured on four public data sets and invented
+    /// near-noiseless data, no single ρ gave calibrated bands on all of them
+    /// (docs/benchmarks.md, "Seventh round").
     #[arg(long, value_name = "R", default_value_t = mettle::prec::PARTITION_CORRELATION)]
     pub partition_correlation: f64,
     /// Noise model: `constant` (one noise level), `varying` (a noise level that varies with the
