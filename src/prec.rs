@@ -519,13 +519,6 @@ pub const GRADIENT_BLOCK_ROWS: usize = JACOBIAN_BLOCK_ROWS;
 /// Statistical Learning*, §7.10), the simpler noise model kept on a tie.
 pub const NOISE_PARSIMONY_SE: f64 = 1.0;
 
-/// How many standard errors of the paired per-row held-out NLPD a larger
-/// network's lead must exceed before the committee may hold networks of
-/// that size (committee::size_rule, `hidden_parsimony`): the
-/// one-standard-error rule (Breiman et al. 1984 §3.4.3; Hastie et al. 2009
-/// §7.10), the same factor as the noise model's.
-pub const HIDDEN_PARSIMONY_SE: f64 = 1.0;
-
 /// The committee's model part is taken times ρ beside the residual process
 /// (committee::kriging, "The committee's model part beside the process")
 /// only when that lowers the held-out Gaussian NLPD by more than this many

@@ -172,12 +172,6 @@ pub struct TrainSettings {
     /// Do not widen the hidden-unit range when the best candidates sit at its top.
     #[arg(long)]
     pub no_widen: bool,
-    /// Keep networks no larger than the held-out rows show to be needed: the committee is
-    /// chosen from networks of at most the smallest hidden-unit count whose best candidate
-    /// is within one standard error (paired per-row held-out NLPD) of the best candidate
-    /// of any size. The cap is recorded in the model file (selection.hidden_cap_within_se).
-    #[arg(long)]
-    pub hidden_parsimony: bool,
     /// Train every candidate network to the end instead of stopping those that rank poorly on
     /// the held-out rows after their first cycles (successive halving; twice the search time).
     #[arg(long)]
@@ -302,7 +296,6 @@ impl TrainSettings {
             .partition_variance(self.partition_variance.into())
             .partition_correlation(self.partition_correlation)
             .widen(!self.no_widen)
-            .hidden_parsimony(self.hidden_parsimony)
             .early_stop(!self.no_early_stop)
             .noise(self.noise.into())
             .kriging(self.kriging.into())

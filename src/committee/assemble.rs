@@ -15,8 +15,6 @@ pub(super) struct Parts<'a> {
     pub search: CandidateSearch,
     /// Bottom of the hidden-unit range asked for.
     pub hidden_min: usize,
-    /// The hidden-unit cap of `hidden_parsimony` (committee::size_rule).
-    pub hidden_cap: Option<usize>,
     /// The chosen noise model's size and held-out NLPD by size.
     pub by_size: (usize, Vec<f64>),
     pub noise: NoiseSelection,
@@ -56,7 +54,6 @@ pub(super) fn assemble(parts: Parts, target_name: &str, observer: &dyn TrainObse
             nlpd_by_size,
             n_members,
             refit_failures: refitted.failures,
-            hidden_cap_within_se: parts.hidden_cap,
             noise: parts.noise,
             kriging: parts.kriging,
             pooled: Vec::new(),

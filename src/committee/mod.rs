@@ -48,7 +48,6 @@ mod refit;
 mod relevance;
 mod residual;
 mod sensitivity;
-mod size_rule;
 mod split;
 #[cfg(test)]
 mod stage_fixture;
@@ -171,11 +170,6 @@ pub struct Selection {
     pub n_members: usize,
     /// Members whose refit failed (they were dropped), with the reason.
     pub refit_failures: Vec<String>,
-    /// With `hidden_parsimony`: the largest hidden-unit count the
-    /// committee could hold (committee::size_rule). Absent otherwise, and
-    /// in files written before the rule existed.
-    #[serde(default, skip_serializing_if = "Option::is_none")]
-    pub hidden_cap_within_se: Option<usize>,
     /// How the noise model was chosen.
     #[serde(default)]
     pub noise: NoiseSelection,

@@ -12,7 +12,6 @@
 //! | `max_members` | 16 | largest committee considered | 1 ..= 200 |
 //! | `seed` | 0 | seed of every random choice | any u64 |
 //! | `noise` | auto | constant noise, noise that varies with the inputs, or the better of the two on the held-out part | constant, varying, auto |
-//! | `hidden_parsimony` | false | committee from networks of at most the smallest hidden-unit count within one SE of the best (held-out NLPD, paired per row) | — |
 //! | `early_stop` | true | stop hopeless candidates early: successive halving on the held-out NLPD at the rungs of `prec::SEARCH_RUNGS` | — |
 //! | `partitions` | 1 | whole trainings of the target averaged, partition p with seed `seed + p` (each runs the whole pipeline) | 1 ..= 8 |
 //! | `partition_variance` | within | variance of the average of the partitions: `within` (their mean variance), `mixture` (plus their spread) or `correlated` (model errors with correlation ρ, plus the spread beyond what ρ expects); matters only with `partitions` > 1 | within, mixture, correlated |
@@ -105,13 +104,6 @@ pub struct CommitteeParams {
     /// every candidate to the end and read as false.
     #[serde(default)]
     pub early_stop: bool,
-    /// Choose the committee from networks of at most the smallest
-    /// hidden-unit count whose best candidate the held-out part cannot
-    /// tell from the best one (committee::size_rule: the one-standard-error
-    /// rule). Not written when false, so that files stay as before; read as
-    /// false when absent.
-    #[serde(default, skip_serializing_if = "std::ops::Not::not")]
-    pub hidden_parsimony: bool,
     /// Whole trainings of the target whose committees are averaged:
     /// partition p (p = 0 … N−1) runs the whole pipeline
     /// (committee::pipeline) with master seed `seed + p` (wrapping), so
@@ -338,7 +330,6 @@ impl Default for CommitteeParams {
             model_part_min_heldout: crate::prec::MODEL_PART_MIN_HELDOUT,
             reweight_mean: false,
             early_stop: true,
-            hidden_parsimony: false,
             partitions: 1,
             partition_variance: PartitionVariance::Within,
             partition_correlation: crate::prec::PARTITION_CORRELATION,
@@ -478,14 +469,6 @@ impl CommitteeParams {
     #[must_use]
     pub fn early_stop(mut self, yes: bool) -> Self {
         self.early_stop = yes;
-        self
-    }
-
-    /// The one-standard-error rule over hidden-unit counts on or off
-    /// (committee::size_rule).
-    #[must_use]
-    pub fn hidden_parsimony(mut self, yes: bool) -> Self {
-        self.hidden_parsimony = yes;
         self
     }
 

@@ -32,7 +32,6 @@ use super::choice::Choice;
 use super::noise_models::NoiseModels;
 use super::refit::Refitted;
 use super::residual::{process_on_all_rows, process_wanted, try_processes, ProcessRows};
-use super::size_rule;
 use super::split::HeldOutSplit;
 use super::varying::VaryingCommittee;
 use super::{CheckedCommitteeParams, Committee, NoiseMode, PartitionVariance};
@@ -110,14 +109,8 @@ fn train_partition(
     let split = HeldOutSplit::new(params, x, t, target_width, source)?;
     // 2. candidate networks on the training part, scored on the held-out part
     let search = CandidateSearch::run(params, &split, target, obs);
-    // 3. the committee of the best n, n by its held-out NLPD (with
-    //    hidden_parsimony, from networks no larger than the held-out part needs)
-    let (ranked, hidden_cap) = if params.hidden_parsimony {
-        size_rule::within_one_se(search.ranked()?, &split)
-    } else {
-        (search.ranked()?, None)
-    };
-    let constant = ConstantCommittee::choose(ranked, params.max_members, &split);
+    // 3. the committee of the best n, n by its held-out NLPD
+    let constant = ConstantCommittee::choose(search.ranked()?, params.max_members, &split);
     // 4. [noise not constant] the same candidates with noise varying with the inputs
     let varying = (params.noise != NoiseMode::Constant)
         .then(|| VaryingCommittee::fit(params, &split, &constant, target, obs));
@@ -165,7 +158,6 @@ fn train_partition(
         split: &split,
         search,
         hidden_min: params.hidden_min,
-        hidden_cap,
         by_size,
         noise,
         kriging: choice.kriging,

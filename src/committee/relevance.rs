@@ -197,7 +197,6 @@ pub(crate) mod tests {
                 nlpd_by_size: vec![0.0],
                 n_members: alphas.len(),
                 refit_failures: vec![],
-                hidden_cap_within_se: None,
                 noise: NoiseSelection::default(),
                 kriging: Default::default(),
                 pooled: vec![],
