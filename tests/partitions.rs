@@ -22,7 +22,9 @@ use ndarray::Array2;
 /// Quick settings (common practice for tests, no source).
 const SMALL: [&str; 5] = ["--hidden", "1..2", "--restarts", "2", "--quiet"];
 
-fn train(w: &Workdir, seed: &str, extra: &[&str], out: &str) -> String {
+/// `mettle train` on `train.csv` with the small settings, `--seed seed` and
+/// `extra`, writing `out`.
+fn train_args<'a>(seed: &'a str, extra: &[&'a str], out: &'a str) -> Vec<&'a str> {
     let mut args = vec![
         "train",
         "--data",
@@ -36,7 +38,11 @@ fn train(w: &Workdir, seed: &str, extra: &[&str], out: &str) -> String {
     ];
     args.extend(SMALL);
     args.extend(extra);
-    let o = w.ok(&args);
+    args
+}
+
+fn train(w: &Workdir, seed: &str, extra: &[&str], out: &str) -> String {
+    let o = w.ok(&train_args(seed, extra, out));
     String::from_utf8_lossy(&o.stderr).into_owned()
 }
 
@@ -293,20 +299,17 @@ fn the_correlated_rule_is_stored_and_applied() {
         "--partition-correlation=1.5",
         "--partition-correlation=-0.2",
     ] {
-        let out = w.run(&[
-            "train",
-            "--data",
-            "train.csv",
-            "--target",
-            "y",
-            "--out",
+        let out = w.run(&train_args(
+            "5",
+            &[
+                "--partitions",
+                "2",
+                "--partition-variance",
+                "correlated",
+                bad,
+            ],
             "bad.json",
-            "--partitions",
-            "2",
-            "--partition-variance",
-            "correlated",
-            bad,
-        ]);
+        ));
         let err = common::stderr(&out);
         assert!(!out.status.success(), "{bad} accepted");
         assert!(
