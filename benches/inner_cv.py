@@ -24,7 +24,11 @@ mean, sd: written before session 19) are still read, by every rule but poolrho.
 --paired: instead of training, read the per-row files of --rows DIR for the outer splits
 --outer and report, per setting against the first --config, the paired difference of the
 fold RMSE and of the fold's mean Gaussian LL over all (outer split, fold) pairs (mean ± SE),
-and on how many pairs the setting's RMSE is lower; then, pooled over every row of those outer
+and on how many pairs the setting's RMSE is lower; beside it the SE over the outer splits of
+their mean fold differences (the folds of one outer split are not independent pairs: they
+share its rows, and a setting that changes the committee changes it much as another seed
+would, so the pair SE can understate the scatter; on concrete a seed change alone moves one
+outer split's mean fold RMSE by up to ±0.4 MPa — docs/benchmarks.md, ninth round); then, pooled over every row of those outer
 splits, the RMSE, Gaussian LL, coverage of ±1 sd and ±2 sd, and the LL-optimal sd scale
 c = sqrt(mean z^2), z = (y − mean)/sd (the factor on the sd that minimises the Gaussian NLPD:
 above 1 the bars are too narrow, below 1 too wide; with the LL it would give), beside the
@@ -370,9 +374,15 @@ def paired():
         d, dl = a - b, np.array(ll[n]) - np.array(ll[base])
         se = d.std(ddof=1) / math.sqrt(len(d))
         sel = dl.std(ddof=1) / math.sqrt(len(dl))
+        # the folds of one outer split share its rows and the setting's seed-to-seed luck, so
+        # the pairs are not independent: also the SE over the outer splits' mean differences
+        by_outer = d.reshape(-1, ARGS.folds).mean(axis=1)
+        seo = by_outer.std(ddof=1) / math.sqrt(len(by_outer)) if len(by_outer) > 1 else float("nan")
         print(f"{ARGS.dataset} outer {ARGS.outer} {n:>16}: mean fold RMSE {a.mean():.4f} | "
               f"RMSE − {base} {d.mean():+.4f} ± {se:.4f} ({d.mean() / se if se > 0 else 0:+.1f} SE), "
-              f"lower on {np.sum(d < 0)}/{len(d)} | LL − {base} {dl.mean():+.4f} ± {sel:.4f}")
+              f"lower on {np.sum(d < 0)}/{len(d)} | LL − {base} {dl.mean():+.4f} ± {sel:.4f} | "
+              f"by outer split ± {seo:.4f} ({d.mean() / seo if seo > 0 else 0:+.1f} SE), "
+              f"lower on {np.sum(by_outer < 0)}/{len(by_outer)}")
     # pooled over every row of the outer splits (each predicted once per outer split)
     for n in names:
         r = np.vstack(rows[n])
