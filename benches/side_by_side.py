@@ -157,7 +157,7 @@ def parse_args():
     p.add_argument("--mettle-seed-by-split", action="store_true",
                    help="train mettle on split k with --seed k, as examples/uci_benchmark.rs "
                    "does and as CatBoost's random_seed already is (default: mettle's default "
-                   "seed 0 on every split, as every table of docs/benchmarks.md before the "
+                   "seed 0 on every split, as every side-by-side table of docs/benchmarks.md before the "
                    "ninth round); on concrete the 20-split mean moves by about 0.07 with the seeds")
     p.add_argument("--splits", type=int, default=20, help="number of splits (default 20)")
     p.add_argument("--first-split", type=int, default=0, help="first split index (default 0)")
