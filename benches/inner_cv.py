@@ -31,7 +31,8 @@ would, so the pair SE can understate the scatter; on concrete a seed change alon
 outer split's mean fold RMSE by up to ±0.4 MPa — docs/benchmarks.md, ninth round); then,
 pooled over every row of those outer splits, the RMSE, Gaussian LL, coverage of ±1 sd and
 ±2 sd, and the LL-optimal sd scale c = sqrt(mean z^2), z = (y − mean)/sd (the factor on the
-sd that minimises the Gaussian NLPD: above 1 the bars are too narrow, below 1 too wide; with the LL it would give), beside the
+sd that minimises the Gaussian NLPD: above 1 the bars are too narrow, below 1 too wide; with
+the LL it would give), beside the
 scale that would make the ±1 sd coverage 68.27 % (the 68.27 % quantile of |z|; the two
 differ when the errors are not Gaussian about the sd, e.g. heavy-tailed). Pooled
 models, e.g. two seeds' whole trainings averaged (the mean is the mean of the means μ_i):
