@@ -157,8 +157,9 @@ def parse_args():
     p.add_argument("--mettle-seed-by-split", action="store_true",
                    help="train mettle on split k with --seed k, as examples/uci_benchmark.rs "
                    "does and as CatBoost's random_seed already is (default: mettle's default "
-                   "seed 0 on every split, as every side-by-side table of docs/benchmarks.md before the "
-                   "ninth round); on concrete the 20-split mean moves by about 0.07 with the seeds")
+                   "seed 0 on every split, as every side-by-side table of docs/benchmarks.md "
+                   "before the ninth round); on concrete the 20-split mean moves by about 0.07 "
+                   "with the seeds")
     p.add_argument("--splits", type=int, default=20, help="number of splits (default 20)")
     p.add_argument("--first-split", type=int, default=0, help="first split index (default 0)")
     p.add_argument("--threads", type=int, default=2, help="threads for every method (default 2)")
@@ -186,6 +187,10 @@ def parse_args():
     # table order is the canonical order, whatever order was asked for
     args.methods = [m for m in METHODS if m in args.methods]
     args.mettle_args = shlex.split(args.mettle_args)
+    if args.mettle_seed_by_split and any(a == "--seed" or a.startswith("--seed=")
+                                         for a in args.mettle_args):
+        p.error("--mettle-seed-by-split gives each split its own --seed; leave --seed out of "
+                "--mettle-args")
     schemas = {}
     for s in args.schema:
         name, sep, path = s.partition("=")
