@@ -21,8 +21,9 @@ test part. Values are written with 6 significant digits; the other cells are cop
 """
 
 import argparse
-import shutil
 from pathlib import Path
+
+import dataset_folder
 
 p = argparse.ArgumentParser(description=__doc__.split("\n\n")[0])
 p.add_argument("--dataset", required=True)
@@ -32,9 +33,7 @@ p.add_argument("--presence", action="append", default=[])
 p.add_argument("--out", type=Path, required=True)
 ARGS = p.parse_args()
 
-src = ARGS.data_root / ARGS.dataset
-lines = (src / "data.csv").read_text(encoding="utf-8").splitlines()
-header = lines[0].split(",")
+src, header, data_rows = dataset_folder.read(ARGS.data_root, ARGS.dataset)
 
 
 def column(name):
@@ -57,12 +56,9 @@ for col in ARGS.presence:
 if not new:
     p.error("nothing to add: give --ratio or --presence")
 
-out = ARGS.out / ARGS.dataset
-(out / "splits").mkdir(parents=True, exist_ok=True)
-with open(out / "data.csv", "w", encoding="utf-8") as f:
-    f.write(",".join(header[:-1] + [n for n, _ in new] + header[-1:]) + "\n")
-    for line in lines[1:]:
-        r = line.split(",")
-        f.write(",".join(r[:-1] + ["%.6g" % fn(r) for _, fn in new] + r[-1:]) + "\n")
-for t in sorted((src / "splits").glob("train_*.txt")):
-    shutil.copy(t, out / "splits" / t.name)
+rows = []
+for line in data_rows:
+    r = line.split(",")
+    rows.append(",".join(r[:-1] + ["%.6g" % fn(r) for _, fn in new] + r[-1:]))
+dataset_folder.write(ARGS.out, ARGS.dataset, header[:-1] + [n for n, _ in new] + header[-1:],
+                     rows, src)

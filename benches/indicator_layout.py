@@ -23,8 +23,9 @@ paper): orientation 2–5 = north, east, south, west; glazing area distribution 
 """
 
 import argparse
-import shutil
 from pathlib import Path
+
+import dataset_folder
 
 p = argparse.ArgumentParser(description=__doc__.split("\n\n")[0])
 p.add_argument("--dataset", required=True)
@@ -34,9 +35,7 @@ p.add_argument("--drop", action="append", default=[])
 p.add_argument("--out", type=Path, required=True)
 ARGS = p.parse_args()
 
-src = ARGS.data_root / ARGS.dataset
-lines = (src / "data.csv").read_text(encoding="utf-8").splitlines()
-header = lines[0].split(",")
+src, header, data_rows = dataset_folder.read(ARGS.data_root, ARGS.dataset)
 drops = {}
 for d in ARGS.drop:
     col, _, level = d.rpartition("=")
@@ -52,7 +51,7 @@ for col in ARGS.column:
     j = header.index(col)
     if j == len(header) - 1:
         p.error(f"{col} is the target (the last column)")
-    cells = [row.split(",")[j] for row in lines[1:]]
+    cells = [row.split(",")[j] for row in data_rows]
     levels = sorted({float(c) for c in cells})
     if any(v != round(v) for v in levels):
         p.error(f"{col}: not an integer code (levels {levels})")
@@ -62,7 +61,7 @@ out_header = []
 for j, h in enumerate(header):
     out_header += [f"{h}_{v:g}" for v in expand[j]] if j in expand else [h]
 rows = []
-for n, row in enumerate(lines[1:], start=2):
+for n, row in enumerate(data_rows, start=2):
     cells = row.split(",")
     if len(cells) != len(header):
         raise SystemExit(f"{src / 'data.csv'} row {n}: {len(cells)} cells, header has "
@@ -72,13 +71,6 @@ for n, row in enumerate(lines[1:], start=2):
         out += ["1" if float(c) == v else "0" for v in expand[j]] if j in expand else [c]
     rows.append(",".join(out))
 
-dest = ARGS.out / ARGS.dataset
-(dest / "splits").mkdir(parents=True, exist_ok=True)
-(dest / "data.csv").write_text(",".join(out_header) + "\n" + "\n".join(rows) + "\n",
-                               encoding="utf-8")
-copied = 0
-for f in sorted((src / "splits").glob("train_*.txt")):
-    shutil.copy(f, dest / "splits" / f.name)
-    copied += 1
+dest, copied = dataset_folder.write(ARGS.out, ARGS.dataset, out_header, rows, src)
 print(f"{dest / 'data.csv'}: {len(rows)} rows, inputs {', '.join(out_header[:-1])}; "
       f"{copied} training split files")
